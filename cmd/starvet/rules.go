@@ -1,0 +1,10 @@
+package main
+
+import (
+	"context"
+	"errors"
+)
+
+func runRules(ctx context.Context, env *Env, args []string) error {
+	return errors.New("rules: not built yet")
+}

@@ -1,0 +1,2 @@
+// Package catalog is part of starvet; see DEVELOPERS.md.
+package catalog

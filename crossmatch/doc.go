@@ -1,0 +1,2 @@
+// Package crossmatch is part of starvet; see DEVELOPERS.md.
+package crossmatch

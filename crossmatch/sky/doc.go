@@ -1,0 +1,2 @@
+// Package sky is part of starvet; see DEVELOPERS.md.
+package sky

@@ -1,0 +1,2 @@
+// Package db is part of starvet; see DEVELOPERS.md.
+package db

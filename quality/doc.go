@@ -1,0 +1,2 @@
+// Package quality is part of starvet; see DEVELOPERS.md.
+package quality

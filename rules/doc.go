@@ -1,0 +1,2 @@
+// Package rules is part of starvet; see DEVELOPERS.md.
+package rules

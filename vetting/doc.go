@@ -1,0 +1,2 @@
+// Package vetting is part of starvet; see DEVELOPERS.md.
+package vetting

@@ -1,0 +1,2 @@
+// Package frames is part of starvet; see DEVELOPERS.md.
+package frames

@@ -1,0 +1,120 @@
+package frames
+
+import "math"
+
+// Defining angles of the Galactic frame in the Hipparcos catalogue (ESA 1997,
+// The Hipparcos and Tycho Catalogues, ESA SP-1200, Vol. 1, section 1.5.3):
+// the north Galactic pole at (alpha, delta) = (192.85948, +27.12825) deg and
+// the Galactic longitude of the north celestial pole, 122.93192 deg.
+const (
+	ngpRADeg  = 192.85948
+	ngpDecDeg = 27.12825
+	ncpLonDeg = 122.93192
+)
+
+// ICRSToGal is the rotation matrix taking ICRS Cartesian components to
+// Galactic ones (x toward l=0,b=0; y toward l=90 deg; z toward the north
+// Galactic pole). Rows are the Galactic axes expressed in ICRS.
+var ICRSToGal = galacticMatrix()
+
+func galacticMatrix() [3][3]float64 {
+	const d2r = math.Pi / 180
+	a, d, t := ngpRADeg*d2r, ngpDecDeg*d2r, ncpLonDeg*d2r
+	// z axis: the north Galactic pole.
+	z := [3]float64{math.Cos(d) * math.Cos(a), math.Cos(d) * math.Sin(a), math.Sin(d)}
+	// The north celestial pole has Galactic longitude t: in Galactic
+	// components it is (cos b cos t, cos b sin t, sin b) with sin b = z_ncp.
+	// Solve the x and y axes from that and orthonormality.
+	ncp := [3]float64{0, 0, 1}
+	// Component of the NCP perpendicular to z, normalised.
+	dot := z[2]
+	p := [3]float64{ncp[0] - dot*z[0], ncp[1] - dot*z[1], ncp[2] - dot*z[2]}
+	n := math.Sqrt(p[0]*p[0] + p[1]*p[1] + p[2]*p[2])
+	p = [3]float64{p[0] / n, p[1] / n, p[2] / n}
+	q := cross(z, p) // 90 deg ahead of p in longitude
+	// p is at longitude t: x = cos t p - sin t q, y = sin t p + cos t q.
+	st, ct := math.Sincos(t)
+	var x, y [3]float64
+	for i := range 3 {
+		x[i] = ct*p[i] - st*q[i]
+		y[i] = st*p[i] + ct*q[i]
+	}
+	return [3][3]float64{x, y, z}
+}
+
+func cross(a, b [3]float64) [3]float64 {
+	return [3]float64{a[1]*b[2] - a[2]*b[1], a[2]*b[0] - a[0]*b[2], a[0]*b[1] - a[1]*b[0]}
+}
+
+// Rotate applies a 3x3 matrix to a vector.
+func Rotate(m *[3][3]float64, v [3]float64) [3]float64 {
+	return [3]float64{
+		m[0][0]*v[0] + m[0][1]*v[1] + m[0][2]*v[2],
+		m[1][0]*v[0] + m[1][1]*v[1] + m[1][2]*v[2],
+		m[2][0]*v[0] + m[2][1]*v[1] + m[2][2]*v[2],
+	}
+}
+
+// ICRSToGalactic converts ICRS (ra, dec) to Galactic (l, b); radians.
+func ICRSToGalactic(raRad, decRad float64) (lRad, bRad float64) {
+	sd, cd := math.Sincos(decRad)
+	sa, ca := math.Sincos(raRad)
+	g := Rotate(&ICRSToGal, [3]float64{cd * ca, cd * sa, sd})
+	lRad = math.Atan2(g[1], g[0])
+	if lRad < 0 {
+		lRad += 2 * math.Pi
+	}
+	return lRad, math.Atan2(g[2], math.Hypot(g[0], g[1]))
+}
+
+// Basis is the local triad of a line of sight, in heliocentric Galactic
+// Cartesian components: R toward the star, P toward increasing ra, Q toward
+// increasing dec.
+type Basis struct{ R, P, Q [3]float64 }
+
+// NewBasis returns the triad for the ICRS direction (ra, dec) in radians.
+func NewBasis(raRad, decRad float64) Basis {
+	sd, cd := math.Sincos(decRad)
+	sa, ca := math.Sincos(raRad)
+	return Basis{
+		R: Rotate(&ICRSToGal, [3]float64{cd * ca, cd * sa, sd}),
+		P: Rotate(&ICRSToGal, [3]float64{-sa, ca, 0}),
+		Q: Rotate(&ICRSToGal, [3]float64{-sd * ca, -sd * sa, cd}),
+	}
+}
+
+// KmsPerMasYrKpc is the tangential speed in km/s of 1 mas/yr at 1 kpc: one
+// au per Julian year, from 1 au = 149 597 870.700 km (IAU 2012 Resolution B2)
+// and a Julian year of 365.25 x 86400 s.
+const KmsPerMasYrKpc = 149597870.700 / (365.25 * 86400)
+
+// Sun holds the Solar parameters that place the heliocentric frame in the
+// Galactocentric one.
+type Sun struct {
+	DistanceKpc float64    // Sun to Galactic Centre
+	HeightPc    float64    // height above the Galactic plane
+	VelocityKms [3]float64 // Sun's velocity in the Galactocentric frame
+}
+
+// ToGalactocentric returns the Galactocentric Cartesian position (kpc) and
+// velocity (km/s) of a star on the line of sight b at distKpc with proper
+// motions pmRAMasYr (mu_alpha*) and pmDecMasYr and radial velocity rvKms.
+// The frame: x from the Sun's projection toward the centre (the Sun is at
+// x < 0), y along Galactic rotation, z toward the north Galactic pole. The
+// heliocentric Galactic frame is tilted about y by asin(z_sun/R0) so that the
+// Sun sits at height z_sun.
+func (s Sun) ToGalactocentric(b Basis, distKpc, pmRAMasYr, pmDecMasYr, rvKms float64) (pos, vel [3]float64) {
+	zKpc := s.HeightPc / 1000
+	st := zKpc / s.DistanceKpc
+	ct := math.Sqrt(1 - st*st)
+	k := KmsPerMasYrKpc * distKpc
+	var r, v [3]float64
+	for i := range 3 {
+		r[i] = distKpc * b.R[i]
+		v[i] = rvKms*b.R[i] + k*(pmRAMasYr*b.P[i]+pmDecMasYr*b.Q[i])
+	}
+	r[0] -= s.DistanceKpc
+	pos = [3]float64{ct*r[0] + st*r[2], r[1], -st*r[0] + ct*r[2]}
+	vel = [3]float64{ct*v[0] + st*v[2] + s.VelocityKms[0], v[1] + s.VelocityKms[1], -st*v[0] + ct*v[2] + s.VelocityKms[2]}
+	return pos, vel
+}

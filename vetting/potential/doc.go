@@ -1,0 +1,2 @@
+// Package potential is part of starvet; see DEVELOPERS.md.
+package potential
