@@ -67,6 +67,28 @@ func ICRSToGalactic(raRad, decRad float64) (lRad, bRad float64) {
 	return lRad, math.Atan2(g[2], math.Hypot(g[0], g[1]))
 }
 
+// GalacticToICRS converts Galactic (l, b) to ICRS (ra, dec); radians, ra in
+// [0, 2pi). It applies the transpose of ICRSToGal.
+func GalacticToICRS(lRad, bRad float64) (raRad, decRad float64) {
+	sb, cb := math.Sincos(bRad)
+	sl, cl := math.Sincos(lRad)
+	e := rotateT(&ICRSToGal, [3]float64{cb * cl, cb * sl, sb})
+	raRad = math.Atan2(e[1], e[0])
+	if raRad < 0 {
+		raRad += 2 * math.Pi
+	}
+	return raRad, math.Atan2(e[2], math.Hypot(e[0], e[1]))
+}
+
+// rotateT applies the transpose (the inverse, for a rotation) of m.
+func rotateT(m *[3][3]float64, v [3]float64) [3]float64 {
+	return [3]float64{
+		m[0][0]*v[0] + m[1][0]*v[1] + m[2][0]*v[2],
+		m[0][1]*v[0] + m[1][1]*v[1] + m[2][1]*v[2],
+		m[0][2]*v[0] + m[1][2]*v[1] + m[2][2]*v[2],
+	}
+}
+
 // Basis is the local triad of a line of sight, in heliocentric Galactic
 // Cartesian components: R toward the star, P toward increasing ra, Q toward
 // increasing dec.
@@ -96,6 +118,29 @@ type Sun struct {
 	VelocityKms [3]float64 // Sun's velocity in the Galactocentric frame
 }
 
+// DefaultSun returns the Solar parameters starvet uses unless a run says
+// otherwise.
+func DefaultSun() Sun {
+	return Sun{
+		// Distance to the Galactic Centre: GRAVITY Collaboration 2018,
+		// A&A 615, L15 (R0 = 8.122 kpc).
+		DistanceKpc: 8.122,
+		// Height above the plane: Bennett & Bovy 2019, MNRAS 482, 1417
+		// (z_sun = 20.8 pc).
+		HeightPc: 20.8,
+		// Velocity (U, V, W) in the Galactocentric frame: Drimmel &
+		// Poggio 2018, RNAAS 2, 210 (12.9, 245.6, 7.78) km/s.
+		VelocityKms: [3]float64{12.9, 245.6, 7.78},
+	}
+}
+
+// tilt returns sin and cos of the angle asin(z_sun/R0) by which the
+// heliocentric Galactic frame is rotated about y to lift the Sun to z_sun.
+func (s Sun) tilt() (st, ct float64) {
+	st = s.HeightPc / 1000 / s.DistanceKpc
+	return st, math.Sqrt(1 - st*st)
+}
+
 // ToGalactocentric returns the Galactocentric Cartesian position (kpc) and
 // velocity (km/s) of a star on the line of sight b at distKpc with proper
 // motions pmRAMasYr (mu_alpha*) and pmDecMasYr and radial velocity rvKms.
@@ -104,9 +149,7 @@ type Sun struct {
 // heliocentric Galactic frame is tilted about y by asin(z_sun/R0) so that the
 // Sun sits at height z_sun.
 func (s Sun) ToGalactocentric(b Basis, distKpc, pmRAMasYr, pmDecMasYr, rvKms float64) (pos, vel [3]float64) {
-	zKpc := s.HeightPc / 1000
-	st := zKpc / s.DistanceKpc
-	ct := math.Sqrt(1 - st*st)
+	st, ct := s.tilt()
 	k := KmsPerMasYrKpc * distKpc
 	var r, v [3]float64
 	for i := range 3 {
@@ -118,3 +161,36 @@ func (s Sun) ToGalactocentric(b Basis, distKpc, pmRAMasYr, pmDecMasYr, rvKms flo
 	vel = [3]float64{ct*v[0] + st*v[2] + s.VelocityKms[0], v[1] + s.VelocityKms[1], -st*v[0] + ct*v[2] + s.VelocityKms[2]}
 	return pos, vel
 }
+
+// FromGalactocentric is the inverse of ToGalactocentric: from a
+// Galactocentric position (kpc) and velocity (km/s) it returns the ICRS
+// direction (radians, ra in [0, 2pi)), the heliocentric distance (kpc), the
+// proper motions (mas/yr, pmRA is mu_alpha*) and the radial velocity (km/s).
+// A point at the Sun itself has no direction: it returns ra = dec = 0,
+// distKpc = 0, NaN proper motions and NaN radial velocity.
+func (s Sun) FromGalactocentric(posKpc, velKms [3]float64) (raRad, decRad, distKpc, pmRAMasYr, pmDecMasYr, rvKms float64) {
+	st, ct := s.tilt()
+	// Undo the tilt (rotation about y by -t), then the shift along x.
+	r := [3]float64{ct*posKpc[0] - st*posKpc[2], posKpc[1], st*posKpc[0] + ct*posKpc[2]}
+	r[0] += s.DistanceKpc
+	v := [3]float64{velKms[0] - s.VelocityKms[0], velKms[1] - s.VelocityKms[1], velKms[2] - s.VelocityKms[2]}
+	v = [3]float64{ct*v[0] - st*v[2], v[1], st*v[0] + ct*v[2]}
+	distKpc = math.Sqrt(r[0]*r[0] + r[1]*r[1] + r[2]*r[2])
+	if distKpc == 0 {
+		return 0, 0, 0, math.NaN(), math.NaN(), math.NaN()
+	}
+	e := rotateT(&ICRSToGal, r)
+	raRad = math.Atan2(e[1], e[0])
+	if raRad < 0 {
+		raRad += 2 * math.Pi
+	}
+	decRad = math.Atan2(e[2], math.Hypot(e[0], e[1]))
+	b := NewBasis(raRad, decRad)
+	k := KmsPerMasYrKpc * distKpc
+	rvKms = dot(v, b.R)
+	pmRAMasYr = dot(v, b.P) / k
+	pmDecMasYr = dot(v, b.Q) / k
+	return raRad, decRad, distKpc, pmRAMasYr, pmDecMasYr, rvKms
+}
+
+func dot(a, b [3]float64) float64 { return a[0]*b[0] + a[1]*b[1] + a[2]*b[2] }
