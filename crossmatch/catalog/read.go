@@ -1,0 +1,551 @@
+package catalog
+
+import (
+	"compress/gzip"
+	"context"
+	"crypto/sha256"
+	"encoding/csv"
+	"encoding/hex"
+	"errors"
+	"fmt"
+	"io"
+	"math"
+	"os"
+	"sort"
+	"strconv"
+	"strings"
+)
+
+// Spec says where a catalog is and how to read it.
+type Spec struct {
+	Name     string
+	File     string // path to a .csv or .csv.gz file
+	Role     Role
+	EpochJyr float64 // Julian year of the positions
+	Release  string
+	// Columns maps a canonical field name to a file header. A header equal
+	// to a canonical name maps onto that field unless the field is mapped
+	// explicitly.
+	Columns map[string]string
+	// Units maps a canonical field name to the unit used by the file, where
+	// it differs from the canonical one (see CheckUnit).
+	Units map[string]string
+	// NullMarkers are cell texts meaning "missing"; nil means
+	// DefaultNullMarkers. An empty cell is always missing.
+	NullMarkers []string
+	// PositionErrMas, when > 0, is used for ra_err and dec_err where the
+	// file has no such column or the cell is missing.
+	PositionErrMas float64
+}
+
+// ReadOptions tune Read.
+type ReadOptions struct {
+	// Strict turns the first row problem into a fatal error instead of
+	// quarantining the row.
+	Strict bool
+}
+
+// Quarantine is a row set aside, with the reason.
+type Quarantine struct {
+	Line       int
+	Column     int // 1-based field index; 0 for the row as a whole
+	ColumnName string
+	Value      string
+	Reason     string
+	Record     []string // the raw row
+	Err        error    // sentinel, for errors.Is
+}
+
+// Report describes one ingest.
+type Report struct {
+	File     string
+	SHA256   string // hex SHA-256 of the raw file bytes (compressed bytes for .gz)
+	Header   []string
+	RowsRead int // data rows seen; RowsRead == RowsKept + len(Quarantined)
+	RowsKept int
+	// Quarantined rows, in file order.
+	Quarantined []Quarantine
+	// Mapped gives, per canonical field name, the header it was read from.
+	Mapped map[string]string
+	// Unused lists headers that fed no field, so nothing is dropped unseen.
+	Unused []string
+	// PositionErrFilled counts ra_err/dec_err cells filled from
+	// Spec.PositionErrMas.
+	PositionErrFilled int
+}
+
+// DefaultNullMarkers returns the cell texts that mean "missing" when a
+// campaign names none.
+func DefaultNullMarkers() []string { return []string{"", "NaN", "null"} }
+
+// ctxCheckRows is how many rows Read parses between context checks.
+const ctxCheckRows = 8192
+
+// colPlan says how to read one CSV column.
+type colPlan struct {
+	index  int // field index in the record, 0-based
+	field  Field
+	factor float64
+	header string
+}
+
+// Read ingests one catalog file into canonical units. File-level problems
+// are returned as *FileError; row problems quarantine the row (or, with
+// opt.Strict, are returned as *RowError). The Report is returned, possibly
+// partial, with every error except an unopenable file.
+func Read(ctx context.Context, spec Spec, opt ReadOptions) (*Table, *Report, error) {
+	name := spec.File
+	rep := &Report{File: name}
+	units, err := checkSpec(spec)
+	if err != nil {
+		return nil, rep, &FileError{File: name, Reason: err.Error(), Err: err}
+	}
+	f, err := os.Open(spec.File)
+	if err != nil {
+		return nil, nil, &FileError{File: name, Reason: err.Error(), Err: fmt.Errorf("%w: %w", ErrNoFile, err)}
+	}
+	defer f.Close()
+	hr := newHashingReader(f)
+	defer hr.close()
+
+	var in io.Reader = hr
+	if strings.HasSuffix(strings.ToLower(name), ".gz") {
+		zr, err := gzip.NewReader(hr)
+		if err != nil {
+			return nil, rep, &FileError{File: name, Reason: "unreadable gzip: " + err.Error(), Err: fmt.Errorf("%w: %w", ErrUnreadable, err)}
+		}
+		defer zr.Close()
+		in = zr
+	}
+	cr := csv.NewReader(in)
+	cr.ReuseRecord = true
+	cr.FieldsPerRecord = -1
+
+	header, err := cr.Read()
+	if err != nil {
+		sentinel := ErrBadHeader
+		var pe *csv.ParseError
+		if err == io.EOF {
+			err = errors.New("file is empty")
+		} else if !errors.As(err, &pe) {
+			sentinel = ErrUnreadable
+		}
+		return nil, rep, &FileError{File: name, Line: 1, Reason: "cannot read header: " + err.Error(), Err: fmt.Errorf("%w: %w", sentinel, err)}
+	}
+	header = append([]string(nil), header...)
+	if len(header) > 0 {
+		header[0] = strings.TrimPrefix(header[0], "\ufeff")
+	}
+	rep.Header = header
+	plans, idIdx, mapped, unused, ferr := planColumns(name, header, spec, units)
+	if ferr != nil {
+		return nil, rep, ferr
+	}
+	rep.Mapped, rep.Unused = mapped, unused
+
+	t := &Table{Name: spec.Name, Release: spec.Release, Role: spec.Role, EpochJyr: spec.EpochJyr}
+	for _, p := range plans {
+		t.Cols[p.field] = make([]float64, 0, 1024)
+	}
+	distMag := units[Distance] == "mag"
+	if distMag {
+		if t.Cols[Distance] != nil {
+			t.Cols[DistMod] = make([]float64, 0, 1024)
+		}
+		if t.Cols[DistanceErr] != nil {
+			t.Cols[DistModErr] = make([]float64, 0, 1024)
+		}
+	}
+	markers := spec.NullMarkers
+	if markers == nil {
+		markers = DefaultNullMarkers()
+	}
+	isNull := func(s string) bool {
+		if s == "" {
+			return true
+		}
+		for _, m := range markers {
+			if s == m {
+				return true
+			}
+		}
+		return false
+	}
+
+	seen := make(map[string]int, 1024)
+	var row [NumFields]float64
+	for n := 0; ; n++ {
+		if n%ctxCheckRows == 0 {
+			if err := ctx.Err(); err != nil {
+				return nil, rep, err
+			}
+		}
+		rec, err := cr.Read()
+		if err == io.EOF {
+			break
+		}
+		var q *Quarantine
+		if err != nil {
+			var pe *csv.ParseError
+			if !errors.As(err, &pe) {
+				return nil, rep, &FileError{File: name, Line: lineOf(cr), Reason: "read error: " + err.Error(), Err: fmt.Errorf("%w: %w", ErrUnreadable, err)}
+			}
+			q = &Quarantine{Line: pe.StartLine, Column: 0, Reason: pe.Err.Error(), Err: ErrMalformed}
+			if pe.Line != pe.StartLine {
+				q.Reason += fmt.Sprintf(" (at line %d)", pe.Line)
+			}
+		} else {
+			q = parseRow(rec, header, plans, idIdx, isNull, &row, cr)
+		}
+		rep.RowsRead++
+		var id string
+		if q == nil {
+			id = rec[idIdx]
+			if first, dup := seen[id]; dup {
+				line, _ := cr.FieldPos(idIdx)
+				q = &Quarantine{Line: line, Column: idIdx + 1, ColumnName: header[idIdx], Value: id,
+					Reason: fmt.Sprintf("%s: first seen on line %d", ErrDuplicateID, first), Err: ErrDuplicateID}
+			}
+		}
+		if q != nil {
+			if err == nil {
+				q.Record = append([]string(nil), rec...)
+			}
+			if opt.Strict {
+				return nil, rep, q.rowError(name)
+			}
+			rep.Quarantined = append(rep.Quarantined, *q)
+			continue
+		}
+		line, _ := cr.FieldPos(0)
+		id = strings.Clone(id) // rec shares one backing string per line
+		seen[id] = line
+		t.IDs = append(t.IDs, id)
+		t.Lines = append(t.Lines, line)
+		if distMag {
+			mu, muErr := row[Distance], row[DistanceErr]
+			d, dErr := DistanceFromModulus(mu, muErr)
+			if t.Cols[DistMod] != nil {
+				t.Cols[DistMod] = append(t.Cols[DistMod], mu)
+			}
+			if t.Cols[DistModErr] != nil {
+				t.Cols[DistModErr] = append(t.Cols[DistModErr], muErr)
+			}
+			row[Distance], row[DistanceErr] = d, dErr
+		}
+		for _, p := range plans {
+			t.Cols[p.field] = append(t.Cols[p.field], row[p.field])
+		}
+	}
+	// Drain whatever the CSV reader left (gzip trailer etc.) so the hash
+	// covers the whole file.
+	if _, err := io.Copy(io.Discard, hr); err != nil {
+		return nil, rep, &FileError{File: name, Reason: "read error: " + err.Error(), Err: fmt.Errorf("%w: %w", ErrUnreadable, err)}
+	}
+	rep.SHA256 = hex.EncodeToString(hr.sum())
+	rep.RowsKept = t.Len()
+	if spec.PositionErrMas > 0 {
+		rep.PositionErrFilled = fillPositionErr(t, spec.PositionErrMas)
+	}
+	return t, rep, nil
+}
+
+func lineOf(cr *csv.Reader) int {
+	line, _ := cr.FieldPos(0)
+	return line
+}
+
+func (q *Quarantine) rowError(file string) *RowError {
+	return &RowError{File: file, Line: q.Line, Column: q.Column, ColumnName: q.ColumnName, Value: q.Value, Reason: q.Reason, Err: q.Err}
+}
+
+// parseRow converts the mapped cells of rec into row, in canonical units,
+// or returns the first problem found.
+func parseRow(rec, header []string, plans []colPlan, idIdx int, isNull func(string) bool, row *[NumFields]float64, cr *csv.Reader) *Quarantine {
+	bad := func(col int, reason string, err error) *Quarantine {
+		line, _ := cr.FieldPos(0)
+		q := &Quarantine{Line: line, Column: col + 1, Reason: reason, Err: err}
+		if col < len(rec) {
+			q.Value = rec[col]
+			q.ColumnName = header[col]
+			q.Line, _ = cr.FieldPos(col)
+		}
+		return q
+	}
+	if len(rec) != len(header) {
+		col := min(len(rec), len(header))
+		line, _ := cr.FieldPos(0)
+		return &Quarantine{Line: line, Column: col + 1, Err: ErrFieldCount,
+			Reason: fmt.Sprintf("%s: row has %d fields, header has %d", ErrFieldCount, len(rec), len(header))}
+	}
+	if isNull(rec[idIdx]) {
+		return bad(idIdx, ErrMissingValue.Error()+": id is required", ErrMissingValue)
+	}
+	for _, p := range plans {
+		s := rec[p.index]
+		if isNull(s) {
+			if p.field == RA || p.field == Dec {
+				return bad(p.index, fmt.Sprintf("%s: %s is required", ErrMissingValue, Fields[p.field].Name), ErrMissingValue)
+			}
+			row[p.field] = math.NaN()
+			continue
+		}
+		v, err := strconv.ParseFloat(s, 64)
+		if err != nil {
+			if t := strings.TrimSpace(s); t != s {
+				v, err = strconv.ParseFloat(t, 64)
+			}
+		}
+		if err != nil {
+			return bad(p.index, ErrNotNumber.Error(), ErrNotNumber)
+		}
+		if math.IsNaN(v) || math.IsInf(v, 0) {
+			return bad(p.index, ErrNotNumber.Error()+": not finite (list it in null_markers if it means missing)", ErrNotNumber)
+		}
+		v *= p.factor
+		if reason := checkRange(p.field, v); reason != "" {
+			return bad(p.index, ErrOutOfRange.Error()+": "+reason, ErrOutOfRange)
+		}
+		row[p.field] = v
+	}
+	return nil
+}
+
+// checkRange returns why v, in canonical units, is impossible for f, or "".
+func checkRange(f Field, v float64) string {
+	switch f {
+	case RA:
+		if v < 0 || v >= 360 {
+			return "ra must be in [0, 360) deg"
+		}
+	case Dec:
+		if v < -90 || v > 90 {
+			return "dec must be in [-90, 90] deg"
+		}
+	case RAErr, DecErr, ParallaxErr, PMRAErr, PMDecErr, RVErr, DistanceErr:
+		if v < 0 {
+			return "an uncertainty cannot be negative"
+		}
+	case CorrRADec, CorrParallaxPMRA, CorrParallaxPMDec, CorrPMRAPMDec:
+		if v < -1 || v > 1 {
+			return "a correlation must be in [-1, 1]"
+		}
+	}
+	return ""
+}
+
+// checkSpec validates the field names and units of a spec and returns the
+// unit of every field ("" = canonical).
+func checkSpec(spec Spec) ([NumFields]string, error) {
+	var units [NumFields]string
+	for name := range spec.Columns {
+		f, ok := FieldByName(name)
+		if !ok || !Mappable(f) {
+			return units, fmt.Errorf("%w: columns: unknown field %q", ErrBadSpec, name)
+		}
+	}
+	for name, u := range spec.Units {
+		f, ok := FieldByName(name)
+		if !ok || !Mappable(f) {
+			return units, fmt.Errorf("%w: units: unknown field %q", ErrBadSpec, name)
+		}
+		if err := CheckUnit(f, u); err != nil {
+			return units, fmt.Errorf("%w: units: %w", ErrBadSpec, err)
+		}
+		units[f] = u
+	}
+	dm, em := units[Distance] == "mag", units[DistanceErr] == "mag"
+	if em && !dm {
+		return units, fmt.Errorf("%w: units: distance_err in mag requires distance in mag", ErrBadSpec)
+	}
+	if dm && units[DistanceErr] != "" && !em {
+		return units, fmt.Errorf("%w: units: distance in mag requires distance_err in mag too", ErrBadSpec)
+	}
+	if dm {
+		units[DistanceErr] = "mag"
+	}
+	if spec.PositionErrMas < 0 || math.IsNaN(spec.PositionErrMas) {
+		return units, fmt.Errorf("%w: position_err_mas must be >= 0", ErrBadSpec)
+	}
+	return units, nil
+}
+
+// planColumns resolves the header against the spec.
+func planColumns(file string, header []string, spec Spec, units [NumFields]string) (plans []colPlan, idIdx int, mapped map[string]string, unused []string, err error) {
+	index := make(map[string]int, len(header))
+	dupHeader := make(map[string]bool)
+	for i, h := range header {
+		if _, ok := index[h]; ok {
+			dupHeader[h] = true
+			continue
+		}
+		index[h] = i
+	}
+	used := make([]bool, len(header))
+	mapped = make(map[string]string)
+	idIdx = -1
+	for f := Field(0); f < NumFields; f++ {
+		if !Mappable(f) {
+			continue
+		}
+		name := Fields[f].Name
+		h, explicit := spec.Columns[name]
+		if !explicit {
+			h = name
+		}
+		i, ok := index[h]
+		if !ok {
+			if explicit {
+				return nil, 0, nil, nil, &FileError{File: file, Line: 1, Err: ErrMissingColumn,
+					Reason: fmt.Sprintf("%s: header has no column %q (mapped to %s)", ErrMissingColumn, h, name)}
+			}
+			continue
+		}
+		if !explicit && mappedElsewhere(spec.Columns, h) {
+			continue // the header feeds another field on purpose
+		}
+		if dupHeader[h] {
+			return nil, 0, nil, nil, &FileError{File: file, Line: 1, Column: i + 1, Err: ErrBadHeader,
+				Reason: fmt.Sprintf("%s: column %q appears more than once", ErrBadHeader, h)}
+		}
+		used[i] = true
+		mapped[name] = h
+		if f == ID {
+			idIdx = i
+			continue
+		}
+		plans = append(plans, colPlan{index: i, field: f, factor: unitFactor(f, units[f]), header: h})
+	}
+	for _, f := range []Field{ID, RA, Dec} {
+		if _, ok := mapped[Fields[f].Name]; !ok {
+			return nil, 0, nil, nil, &FileError{File: file, Line: 1, Err: ErrMissingColumn,
+				Reason: fmt.Sprintf("%s: header has no column for required field %s", ErrMissingColumn, Fields[f].Name)}
+		}
+	}
+	sort.Slice(plans, func(a, b int) bool { return plans[a].index < plans[b].index })
+	for i, h := range header {
+		if !used[i] {
+			unused = append(unused, h)
+		}
+	}
+	return plans, idIdx, mapped, unused, nil
+}
+
+func mappedElsewhere(cols map[string]string, header string) bool {
+	for _, h := range cols {
+		if h == header {
+			return true
+		}
+	}
+	return false
+}
+
+// fillPositionErr puts errMas into absent or missing ra_err/dec_err cells.
+func fillPositionErr(t *Table, errMas float64) int {
+	filled := 0
+	for _, f := range []Field{RAErr, DecErr} {
+		c := t.Cols[f]
+		if c == nil {
+			c = make([]float64, t.Len())
+			for i := range c {
+				c[i] = math.NaN()
+			}
+			t.Cols[f] = c
+		}
+		for i, v := range c {
+			if math.IsNaN(v) {
+				c[i] = errMas
+				filled++
+			}
+		}
+	}
+	return filled
+}
+
+// hashingReader reads a file in chunks on its own goroutine, hashing each
+// chunk there, so hashing runs alongside parsing on a second core.
+type hashingReader struct {
+	full  chan chunk
+	free  chan []byte
+	done  chan struct{}
+	cur   []byte
+	buf   []byte
+	err   error
+	total [sha256.Size]byte
+}
+
+type chunk struct {
+	b   []byte
+	err error
+}
+
+const hashChunkBytes = 1 << 20
+
+func newHashingReader(r io.Reader) *hashingReader {
+	h := &hashingReader{full: make(chan chunk, 3), free: make(chan []byte, 4), done: make(chan struct{})}
+	for range 4 {
+		h.free <- make([]byte, hashChunkBytes)
+	}
+	go func() {
+		sum := sha256.New()
+		defer close(h.full)
+		for {
+			var b []byte
+			select {
+			case b = <-h.free:
+			case <-h.done:
+				return
+			}
+			n, err := io.ReadFull(r, b)
+			sum.Write(b[:n])
+			if err == io.ErrUnexpectedEOF {
+				err = io.EOF
+			}
+			if err == io.EOF {
+				copy(h.total[:], sum.Sum(nil))
+			}
+			select {
+			case h.full <- chunk{b[:n], err}:
+			case <-h.done:
+				return
+			}
+			if err != nil {
+				return
+			}
+		}
+	}()
+	return h
+}
+
+func (h *hashingReader) Read(p []byte) (int, error) {
+	for len(h.cur) == 0 {
+		if h.err != nil {
+			return 0, h.err
+		}
+		if h.buf != nil {
+			h.free <- h.buf[:cap(h.buf)]
+			h.buf = nil
+		}
+		c, ok := <-h.full
+		if !ok {
+			h.err = io.EOF
+			continue
+		}
+		h.buf, h.cur, h.err = c.b, c.b, c.err
+	}
+	n := copy(p, h.cur)
+	h.cur = h.cur[n:]
+	return n, nil
+}
+
+// sum is valid once Read has returned io.EOF.
+func (h *hashingReader) sum() []byte { return h.total[:] }
+
+func (h *hashingReader) close() {
+	select {
+	case <-h.done:
+	default:
+		close(h.done)
+	}
+}
+
