@@ -1,2 +1,61 @@
-// Package rules is part of starvet; see DEVELOPERS.md.
+// Package rules loads declarative, versioned quality-cut rule sets.
+//
+// In: a TOML file (or the embedded default, rules/default.toml) and a Schema
+// naming the campaign's secondary catalogs in campaign order. Out: a
+// RuleSet whose rules are type-checked, compiled once, sorted by id (the
+// order of evaluation and reporting) and fingerprinted.
+//
+// File format:
+//
+//	name = "my-cuts"           # required
+//	version = "3"              # required
+//	[[rule]]
+//	id = "fit-residual"        # required, [a-z0-9]+(-[a-z0-9]+)*, unique
+//	severity = "reject"        # required: reject | flag
+//	check = "fit_residual"     # a built-in check, or instead:
+//	expr = "pm_total < 400"    # an expression that is TRUE for a good star
+//	when = "is_missing(distance)"  # optional precondition; false => skipped
+//	limit = 1.4                # check parameters (see below)
+//	description = "..."        # optional, shown by `starvet rules show`
+//	source = "..."             # optional, where the threshold comes from
+//
+// Built-in checks and their parameters (units are the canonical ones of
+// starvet/crossmatch/catalog):
+//
+//	at_least / at_most         field, limit      field >= / <= limit
+//	parallax_significance      limit             (parallax - zero point)/parallax_err >= limit
+//	fit_residual               limit             fit_residual <= limit
+//	excess_noise_significance  limit             excess_noise_sig <= limit
+//	visibility_periods         limit             visibility_periods >= limit
+//	duplicate                  (none)            duplicate_flag != 1 and dup_count == 0
+//	match                      catalog, min_prob, max_sep_arcsec, allow_ambiguous
+//	rv_precision               limit             rv_err <= limit (km/s)
+//	spectrum_snr               limit             snr >= limit
+//	required_fields            fields            every listed field present
+//
+// A match rule's catalog is a secondary catalog name, or "*" for every
+// secondary catalog of the campaign. A star with no counterpart in a
+// catalog is not tested against it ("no counterpart" is not a bad match);
+// with no counterpart anywhere the rule is skipped.
+//
+// Expressions use github.com/expr-lang/expr, type-checked against this
+// environment: every canonical field name (float64, NaN when missing),
+// parallax_over_error (zero-point corrected), pm_total (mas/yr), dup_count,
+// and for each secondary catalog C (its name with characters other than
+// letters, digits and "_" turned into "_"): C_match_prob, C_sep_arcsec,
+// C_candidates (float64), C_ambiguous, C_matched (bool); plus
+// is_missing(x). An expression that does not call is_missing is skipped,
+// not evaluated, when one of its inputs is NaN.
+//
+// Schema.AnyCatalog accepts every catalog name the file uses, for checking
+// a file without a campaign.
+//
+// Fingerprints are SHA-256 over a canonical JSON form of each rule (id,
+// severity, check, parameters, expression and precondition re-printed from
+// their syntax trees); the set's fingerprint hashes the sorted rule
+// fingerprints. Comments, layout, rule order, description, source, name
+// and version do not change them.
+//
+// Load errors are LoadErrors: every problem, each with file, line, column
+// and rule id, wrapping one of the Err* sentinels.
 package rules

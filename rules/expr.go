@@ -1,0 +1,179 @@
+package rules
+
+import (
+	"errors"
+	"math"
+	"regexp"
+	"sort"
+
+	"github.com/expr-lang/expr"
+	"github.com/expr-lang/expr/ast"
+	"github.com/expr-lang/expr/file"
+	"github.com/expr-lang/expr/parser"
+	"github.com/expr-lang/expr/vm"
+
+	"starvet/crossmatch/catalog"
+)
+
+// VarKind says where the value of an expression variable comes from.
+type VarKind int
+
+const (
+	VarField             VarKind = iota // a canonical field, float64, NaN when missing
+	VarParallaxOverError                // (parallax - zero point)/parallax_err, float64
+	VarPMTotal                          // hypot(pm_ra, pm_dec), mas/yr, float64
+	VarDupCount                         // duplicates found by the self-match, float64
+	VarMatchProb                        // <catalog>_match_prob, float64, NaN when unmatched
+	VarSepArcsec                        // <catalog>_sep_arcsec, float64, NaN when unmatched
+	VarCandidates                       // <catalog>_candidates, float64
+	VarAmbiguous                        // <catalog>_ambiguous, bool
+	VarMatched                          // <catalog>_matched, bool
+)
+
+// Var is one variable an expression reads.
+type Var struct {
+	Name    string
+	Kind    VarKind
+	Field   catalog.Field // for VarField
+	Catalog int           // index into Schema.Catalogs for the per-catalog kinds
+}
+
+// IsBool reports whether the variable is a bool (else float64).
+func (v Var) IsBool() bool { return v.Kind == VarAmbiguous || v.Kind == VarMatched }
+
+// Expr is a compiled boolean expression.
+type Expr struct {
+	Source        string
+	prog          *vm.Program
+	vars          []Var
+	usesIsMissing bool
+	canonical     string
+}
+
+// Program is the compiled program; run it with a map holding Vars().
+func (e *Expr) Program() *vm.Program { return e.prog }
+
+// Vars lists the variables the expression reads, sorted by name.
+func (e *Expr) Vars() []Var { return e.vars }
+
+// UsesIsMissing reports whether the expression calls is_missing. When it
+// does not, an evaluator treats a NaN input as "cannot decide" rather than
+// letting a NaN comparison decide the result.
+func (e *Expr) UsesIsMissing() bool { return e.usesIsMissing }
+
+var matchSuffixes = []struct {
+	suffix string
+	kind   VarKind
+}{
+	{"_match_prob", VarMatchProb},
+	{"_sep_arcsec", VarSepArcsec},
+	{"_candidates", VarCandidates},
+	{"_ambiguous", VarAmbiguous},
+	{"_matched", VarMatched},
+}
+
+// matchVarRe finds per-catalog variable names, for the permissive schema.
+var matchVarRe = regexp.MustCompile(`\b([A-Za-z_][A-Za-z0-9_]*?)_(match_prob|sep_arcsec|candidates|ambiguous|matched)\b`)
+
+// VarPrefix is the expression prefix of a catalog's variables: the name with
+// every character other than a letter, digit or underscore replaced by "_".
+func VarPrefix(catalogName string) string {
+	b := []byte(catalogName)
+	for i, c := range b {
+		if !(c >= 'a' && c <= 'z' || c >= 'A' && c <= 'Z' || c >= '0' && c <= '9' || c == '_') {
+			b[i] = '_'
+		}
+	}
+	return string(b)
+}
+
+// exprEnv is the typed environment for the checker plus the variable table.
+type exprEnv struct {
+	types map[string]any
+	vars  map[string]Var
+}
+
+func newExprEnv(catalogs []string) *exprEnv {
+	e := &exprEnv{types: map[string]any{}, vars: map[string]Var{}}
+	add := func(v Var) {
+		if v.IsBool() {
+			e.types[v.Name] = false
+		} else {
+			e.types[v.Name] = 0.0
+		}
+		e.vars[v.Name] = v
+	}
+	for f := catalog.Field(0); f < catalog.NumFields; f++ {
+		if f != catalog.ID {
+			add(Var{Name: catalog.Fields[f].Name, Kind: VarField, Field: f})
+		}
+	}
+	add(Var{Name: "parallax_over_error", Kind: VarParallaxOverError})
+	add(Var{Name: "pm_total", Kind: VarPMTotal})
+	add(Var{Name: "dup_count", Kind: VarDupCount})
+	for i, c := range catalogs {
+		p := VarPrefix(c)
+		for _, s := range matchSuffixes {
+			add(Var{Name: p + s.suffix, Kind: s.kind, Catalog: i})
+		}
+	}
+	return e
+}
+
+func isMissing(params ...any) (any, error) {
+	x, ok := params[0].(float64)
+	if !ok {
+		return nil, errors.New("is_missing wants a number")
+	}
+	return math.IsNaN(x), nil
+}
+
+// compile type-checks src against the environment; it must yield a bool.
+func (e *exprEnv) compile(src string) (*Expr, *file.Error, error) {
+	prog, err := expr.Compile(src,
+		expr.Env(e.types),
+		expr.AsBool(),
+		expr.Function("is_missing", isMissing, new(func(float64) bool)),
+	)
+	if err != nil {
+		var fe *file.Error
+		if errors.As(err, &fe) {
+			return nil, fe, err
+		}
+		return nil, nil, err
+	}
+	out := &Expr{Source: src, prog: prog}
+	c := &collector{env: e, seen: map[string]bool{}}
+	// Walk the unoptimised tree so folded-away names still count.
+	tree, perr := parser.Parse(src)
+	if perr != nil {
+		return nil, nil, perr
+	}
+	ast.Walk(&tree.Node, c)
+	out.vars = c.vars
+	sort.Slice(out.vars, func(i, j int) bool { return out.vars[i].Name < out.vars[j].Name })
+	out.usesIsMissing = c.isMissing
+	out.canonical = tree.Node.String()
+	return out, nil, nil
+}
+
+type collector struct {
+	env       *exprEnv
+	seen      map[string]bool
+	vars      []Var
+	isMissing bool
+}
+
+func (c *collector) Visit(n *ast.Node) {
+	switch x := (*n).(type) {
+	case *ast.IdentifierNode:
+		if v, ok := c.env.vars[x.Value]; ok && !c.seen[x.Value] {
+			c.seen[x.Value] = true
+			c.vars = append(c.vars, v)
+		}
+	case *ast.CallNode:
+		if id, ok := x.Callee.(*ast.IdentifierNode); ok && id.Value == "is_missing" {
+			c.isMissing = true
+		}
+	}
+}
