@@ -1,0 +1,540 @@
+package crossmatch
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"math"
+	"runtime"
+	"slices"
+	"sync"
+	"sync/atomic"
+
+	"starvet/crossmatch/catalog"
+)
+
+// Sentinel errors; returned errors wrap them (use errors.Is).
+var (
+	// ErrBadPosition: a position is out of range or not finite.
+	ErrBadPosition = errors.New("bad position")
+	// ErrNoPositionError: a row has no usable positional error and its
+	// catalog has no fallback.
+	ErrNoPositionError = errors.New("no positional error")
+	// ErrBadOptions: an option is out of range.
+	ErrBadOptions = errors.New("bad match options")
+	// ErrNoColumn: a catalog lacks the ra or dec column.
+	ErrNoColumn = errors.New("missing column")
+)
+
+// Defaults applied by Match to zero options.
+const (
+	DefaultRadiusArcsec   = 1.0
+	DefaultAmbiguityRatio = 3.0
+)
+
+// Options control Match. Zero values take the defaults noted.
+type Options struct {
+	// RadiusArcsec is the fixed match radius (default 1.0); ignored when
+	// NSigma > 0.
+	RadiusArcsec float64
+	// NSigma > 0 switches to per-pair radii NSigma * sqrt(s1^2 + s2^2),
+	// never below RadiusFloorArcsec.
+	NSigma            float64
+	RadiusFloorArcsec float64
+	// AmbiguityRatio (default 3, must be >= 1): see Match.
+	AmbiguityRatio float64
+	// PrimaryPosErrMas and SecondaryPosErrMas are the circular positional
+	// errors used for rows that have none of their own (0: no fallback, such
+	// rows are an error).
+	PrimaryPosErrMas, SecondaryPosErrMas float64
+	// Workers is the number of goroutines (default runtime.GOMAXPROCS(0)).
+	Workers int
+}
+
+// Counterpart is the outcome for one primary row. (It would be called Match
+// but that name is the function.)
+type Counterpart struct {
+	Secondary   int32  // row in the secondary table, -1 for none
+	SourceID    string // secondary IDs[Secondary], "" for none
+	SepArcsec   float64
+	Prob        float64 // posterior match probability; 0 for none
+	BayesFactor float64 // may underflow to 0 for a pair many sigma apart
+	Candidates  int32   // secondary rows within the radius, before resolution
+	Ambiguous   bool
+}
+
+// Stats count what Match did, so that no row is dropped unnoticed.
+type Stats struct {
+	PrimaryRows, SecondaryRows int
+	// Rows with a missing ra or dec: never matched.
+	PrimaryNoPosition, SecondaryNoPosition int
+	// Primary rows moved to the secondary epoch; rows without a proper
+	// motion stay where they are (counted in NotPropagated).
+	Propagated, NotPropagated int
+	// Rows that used the catalog's fallback positional error.
+	PrimaryFallbackErr, SecondaryFallbackErr int
+	// Largest search radius used.
+	MaxSearchRadiusArcsec float64
+	// Overlap estimate: occupied cells shared by both catalogs and the
+	// number of rows of each catalog in them.
+	OverlapCells, PrimaryInOverlap, SecondaryInOverlap int
+	CandidatePairs int // all (primary, secondary) pairs within the radius
+	Matched        int
+	Ambiguous      int
+	// Primaries whose best candidate went to another primary.
+	BestTaken int
+}
+
+// Result holds one Counterpart per primary row plus catalog-level numbers.
+type Result struct {
+	Matches      []Counterpart
+	Prior        float64 // P0
+	OverlapSqDeg float64
+	Stats        Stats
+}
+
+// batchRows is the number of primary rows a worker takes at once; ctx is
+// checked between batches.
+const batchRows = 4096
+
+// pair is one candidate (primary i, secondary j).
+type pair struct {
+	i, j   int32
+	sepRad float64
+	lnB    float64
+}
+
+// Match cross-matches primary against secondary and returns one Counterpart per
+// primary row (see the package documentation for the full specification).
+//
+// Every primary position is first moved from primary.EpochJyr to
+// secondary.EpochJyr. Candidates are secondary rows within the radius.
+// Resolution is global greedy: all candidate pairs sorted by posterior
+// descending (we sort by ln B, which orders identically because the prior
+// is common to all pairs and P is strictly increasing in B, but does not
+// saturate at P = 1 in floating point), ties by primary row then secondary
+// row; a pair is accepted when neither its primary nor its secondary is
+// taken yet.
+//
+// A primary i with best candidate j (largest B, ties to the lower row) is
+// Ambiguous when either
+//   - another candidate j' of i has B(i,j') >= B(i,j) / AmbiguityRatio, or
+//   - another primary k also has j as a candidate and B(i,j) and B(k,j)
+//     are within a factor AmbiguityRatio of each other (this marks both the
+//     primary that got j and the one that lost it).
+func Match(ctx context.Context, primary, secondary *catalog.Table, opt Options) (*Result, error) {
+	if err := opt.normalize(); err != nil {
+		return nil, err
+	}
+	if err := checkTable(primary); err != nil {
+		return nil, err
+	}
+	if err := checkTable(secondary); err != nil {
+		return nil, err
+	}
+	if primary.Len() > math.MaxInt32 || secondary.Len() > math.MaxInt32 {
+		return nil, fmt.Errorf("match: more than %d rows", math.MaxInt32)
+	}
+	dtYr := secondary.EpochJyr - primary.EpochJyr
+	res := &Result{}
+	st := &res.Stats
+	st.PrimaryRows, st.SecondaryRows = primary.Len(), secondary.Len()
+
+	p, err := prepare(ctx, primary, dtYr, true, opt.PrimaryPosErrMas, opt.Workers)
+	if err != nil {
+		return nil, err
+	}
+	s, err := prepare(ctx, secondary, 0, false, opt.SecondaryPosErrMas, opt.Workers)
+	if err != nil {
+		return nil, err
+	}
+	st.PrimaryNoPosition, st.SecondaryNoPosition = p.noPos, s.noPos
+	st.Propagated, st.NotPropagated = p.propagated, p.notPropagated
+	st.PrimaryFallbackErr, st.SecondaryFallbackErr = p.fallback, s.fallback
+
+	ix, err := NewIndex(ctx, s.raDeg, s.decDeg, opt.Workers)
+	if err != nil {
+		return nil, fmt.Errorf("match: catalog %q: %w", secondary.Name, err)
+	}
+	var nc, n1, n2 int
+	res.Prior, res.OverlapSqDeg, nc, n1, n2 = overlapPrior(p.cells, s.cells)
+	st.OverlapCells, st.PrimaryInOverlap, st.SecondaryInOverlap = nc, n1, n2
+
+	pairs, nCand, maxR, err := searchAll(ctx, ix, p, s, &opt)
+	if err != nil {
+		return nil, err
+	}
+	st.CandidatePairs = len(pairs)
+	st.MaxSearchRadiusArcsec = maxR / radPerArcsec
+
+	res.Matches = resolve(pairs, nCand, primary.Len(), secondary.Len(), opt.AmbiguityRatio, res.Prior, st)
+	for i := range res.Matches {
+		if m := &res.Matches[i]; m.Secondary >= 0 {
+			m.SourceID = secondary.IDs[m.Secondary]
+		}
+	}
+	return res, nil
+}
+
+func (o *Options) normalize() error {
+	bad := func(name string, v float64) error {
+		return fmt.Errorf("match: option %s = %g: %w", name, v, ErrBadOptions)
+	}
+	for _, f := range []struct {
+		name string
+		v    float64
+	}{{"radius", o.RadiusArcsec}, {"nsigma", o.NSigma}, {"radius floor", o.RadiusFloorArcsec},
+		{"ambiguity ratio", o.AmbiguityRatio}, {"primary position error", o.PrimaryPosErrMas},
+		{"secondary position error", o.SecondaryPosErrMas}} {
+		if !(f.v >= 0) || math.IsInf(f.v, 0) {
+			return bad(f.name, f.v)
+		}
+	}
+	if o.RadiusArcsec == 0 {
+		o.RadiusArcsec = DefaultRadiusArcsec
+	}
+	if o.AmbiguityRatio == 0 {
+		o.AmbiguityRatio = DefaultAmbiguityRatio
+	}
+	if o.AmbiguityRatio < 1 {
+		return bad("ambiguity ratio", o.AmbiguityRatio)
+	}
+	if o.Workers <= 0 {
+		o.Workers = runtime.GOMAXPROCS(0)
+	}
+	return nil
+}
+
+func checkTable(t *catalog.Table) error {
+	for _, f := range []catalog.Field{catalog.RA, catalog.Dec} {
+		if t.Cols[f] == nil {
+			return fmt.Errorf("match: catalog %q: no %s column: %w", t.Name, catalog.Fields[f].Name, ErrNoColumn)
+		}
+		if len(t.Cols[f]) != t.Len() {
+			panic(fmt.Sprintf("crossmatch: catalog %q: column %s has %d rows, IDs %d",
+				t.Name, catalog.Fields[f].Name, len(t.Cols[f]), t.Len()))
+		}
+	}
+	if math.IsNaN(t.EpochJyr) || math.IsInf(t.EpochJyr, 0) {
+		return fmt.Errorf("match: catalog %q: epoch %g: %w", t.Name, t.EpochJyr, ErrBadOptions)
+	}
+	return nil
+}
+
+// side is one catalog made ready for matching.
+type side struct {
+	raDeg, decDeg []float64 // at the secondary epoch
+	sigmaRad      []float64 // circular positional error at that epoch
+	cells         []uint16
+	maxSigmaRad   float64
+	noPos         int
+	propagated    int
+	notPropagated int
+	fallback      int
+}
+
+// rowErr names a row's source line (or row number when lines are unknown).
+func rowErr(t *catalog.Table, i int, field catalog.Field, format string, args ...any) error {
+	where := fmt.Sprintf("row %d", i+1)
+	if i < len(t.Lines) && t.Lines[i] > 0 {
+		where = fmt.Sprintf("line %d", t.Lines[i])
+	}
+	return fmt.Errorf("match: catalog %q: %s: column %s: %s", t.Name, where,
+		catalog.Fields[field].Name, fmt.Sprintf(format, args...))
+}
+
+// col returns t's column f, or nil.
+func col(t *catalog.Table, f catalog.Field) []float64 { return t.Cols[f] }
+
+func at(c []float64, i int) float64 {
+	if c == nil {
+		return math.NaN()
+	}
+	return c[i]
+}
+
+// rms returns sqrt(mean of squares) of the usable (finite, > 0) values and
+// whether there was one.
+func rms(a, b float64) (float64, bool) {
+	okA, okB := a > 0 && !math.IsInf(a, 0), b > 0 && !math.IsInf(b, 0)
+	switch {
+	case okA && okB:
+		return math.Sqrt((a*a + b*b) / 2), true
+	case okA:
+		return a, true
+	case okB:
+		return b, true
+	}
+	return 0, false
+}
+
+// prepare validates positions, propagates (primary only) and computes the
+// per-row circular positional error:
+// sigma^2 = (ra_err^2 + dec_err^2)/2 + ((pm_ra_err^2 + pm_dec_err^2)/2) dt^2
+// (mas), the first term replaced by the fallback when the row has no
+// position errors.
+func prepare(ctx context.Context, t *catalog.Table, dtYr float64, move bool, fallbackMas float64, workers int) (*side, error) {
+	n := t.Len()
+	sd := &side{
+		raDeg: make([]float64, n), decDeg: make([]float64, n),
+		sigmaRad: make([]float64, n), cells: make([]uint16, n),
+	}
+	ra, dec := col(t, catalog.RA), col(t, catalog.Dec)
+	raErr, decErr := col(t, catalog.RAErr), col(t, catalog.DecErr)
+	pmRA, pmDec := col(t, catalog.PMRA), col(t, catalog.PMDec)
+	pmRAErr, pmDecErr := col(t, catalog.PMRAErr), col(t, catalog.PMDecErr)
+	plx, rv := col(t, catalog.Parallax), col(t, catalog.RV)
+	absDt := math.Abs(dtYr)
+
+	type tally struct {
+		noPos, moved, still, fallback int
+		maxSigma                      float64
+		err                           error
+		errRow                        int
+	}
+	nb := (n + batchRows - 1) / batchRows
+	tallies := make([]tally, nb)
+	err := parallelBatches(ctx, nb, workers, func(b int) {
+		tl := &tallies[b]
+		tl.errRow = -1
+		for i := b * batchRows; i < min(n, (b+1)*batchRows); i++ {
+			r, d := ra[i], dec[i]
+			if math.IsNaN(r) || math.IsNaN(d) {
+				tl.noPos++
+				sd.raDeg[i], sd.decDeg[i], sd.sigmaRad[i] = math.NaN(), math.NaN(), math.NaN()
+				sd.cells[i] = noCell
+				continue
+			}
+			if math.IsInf(r, 0) {
+				tl.err = rowErr(t, i, catalog.RA, "value %g: %v", r, ErrBadPosition)
+				return
+			}
+			if !(d >= -90 && d <= 90) {
+				tl.err = rowErr(t, i, catalog.Dec, "value %g outside [-90, 90]: %v", d, ErrBadPosition)
+				return
+			}
+			r = normRA(r)
+			sigMas, ok := rms(at(raErr, i), at(decErr, i))
+			if !ok {
+				if fallbackMas <= 0 {
+					tl.err = rowErr(t, i, catalog.RAErr, "no ra_err/dec_err and no fallback positional error: %v", ErrNoPositionError)
+					return
+				}
+				sigMas = fallbackMas
+				tl.fallback++
+			}
+			if move {
+				var moved bool
+				r, d, moved = propagate(astrometry{
+					RADeg: r, DecDeg: d, ParallaxMas: at(plx, i),
+					PMRAMasYr: at(pmRA, i), PMDecMasYr: at(pmDec, i), RVKms: at(rv, i),
+				}, 0, dtYr)
+				if moved {
+					tl.moved++
+				} else {
+					tl.still++
+				}
+				if pmSig, ok := rms(at(pmRAErr, i), at(pmDecErr, i)); ok && moved {
+					sigMas = math.Hypot(sigMas, pmSig*absDt)
+				}
+			}
+			sd.raDeg[i], sd.decDeg[i] = r, d
+			sig := sigMas * radPerMas
+			sd.sigmaRad[i] = sig
+			tl.maxSigma = max(tl.maxSigma, sig)
+			sd.cells[i] = cellOf(r, d)
+		}
+	})
+	if err != nil {
+		return nil, err
+	}
+	for _, tl := range tallies { // first error in row order
+		if tl.err != nil {
+			return nil, tl.err
+		}
+		sd.noPos += tl.noPos
+		sd.propagated += tl.moved
+		sd.notPropagated += tl.still
+		sd.fallback += tl.fallback
+		sd.maxSigmaRad = max(sd.maxSigmaRad, tl.maxSigma)
+	}
+	return sd, nil
+}
+
+// parallelBatches runs fn(0..nb-1) on workers goroutines, checking ctx
+// before each batch.
+func parallelBatches(ctx context.Context, nb, workers int, fn func(b int)) error {
+	var next atomic.Int64
+	var wg sync.WaitGroup
+	var stop atomic.Bool
+	workers = max(1, min(workers, nb))
+	for w := 0; w < workers; w++ {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			for !stop.Load() {
+				b := int(next.Add(1) - 1)
+				if b >= nb {
+					return
+				}
+				if ctx.Err() != nil {
+					stop.Store(true)
+					return
+				}
+				fn(b)
+			}
+		}()
+	}
+	wg.Wait()
+	return ctx.Err()
+}
+
+// searchAll finds every candidate pair; pairs come out ordered by primary
+// row then secondary row whatever the worker count.
+func searchAll(ctx context.Context, ix *Index, p, s *side, opt *Options) ([]pair, []int32, float64, error) {
+	n := len(p.raDeg)
+	nb := (n + batchRows - 1) / batchRows
+	out := make([][]pair, nb)
+	maxR := make([]float64, nb)
+	nCand := make([]int32, n)
+	fixedRad := opt.RadiusArcsec * radPerArcsec
+	floorRad := opt.RadiusFloorArcsec * radPerArcsec
+	err := parallelBatches(ctx, nb, opt.Workers, func(b int) {
+		var nbuf []Neighbor
+		var ps []pair
+		for i := b * batchRows; i < min(n, (b+1)*batchRows); i++ {
+			ra, dec := p.raDeg[i], p.decDeg[i]
+			if math.IsNaN(ra) {
+				continue
+			}
+			s1 := p.sigmaRad[i]
+			rSearch := fixedRad
+			if opt.NSigma > 0 {
+				rSearch = max(opt.NSigma*math.Hypot(s1, s.maxSigmaRad), floorRad)
+			}
+			maxR[b] = max(maxR[b], rSearch)
+			nbuf = ix.Within(ra, dec, rSearch*degPerRad, nbuf[:0])
+			for _, nb := range nbuf {
+				s2 := s.sigmaRad[nb.Row]
+				if opt.NSigma > 0 && nb.SepRad > max(opt.NSigma*math.Hypot(s1, s2), floorRad) {
+					continue
+				}
+				ps = append(ps, pair{i: int32(i), j: nb.Row, sepRad: nb.SepRad, lnB: LogBayesFactor(nb.SepRad, s1, s2)})
+				nCand[i]++
+			}
+		}
+		out[b] = ps
+	})
+	if err != nil {
+		return nil, nil, 0, err
+	}
+	total := 0
+	for _, ps := range out {
+		total += len(ps)
+	}
+	all := make([]pair, 0, total)
+	for _, ps := range out {
+		all = append(all, ps...)
+	}
+	return all, nCand, slices.Max(append(maxR, 0)), nil
+}
+
+// resolve applies the one-to-one greedy and the ambiguity rule (see Match).
+// pairs are ordered by primary then secondary row.
+func resolve(pairs []pair, nCand []int32, n1, n2 int, ratio, p0 float64, st *Stats) []Counterpart {
+	lnRatio := math.Log(ratio)
+	out := make([]Counterpart, n1)
+	for i := range out {
+		out[i] = Counterpart{Secondary: -1, SepArcsec: math.NaN(), BayesFactor: math.NaN(), Candidates: nCand[i]}
+	}
+	// Primaries per secondary, as CSR.
+	secStart := make([]int32, n2+1)
+	for _, pr := range pairs {
+		secStart[pr.j+1]++
+	}
+	for j := 1; j <= n2; j++ {
+		secStart[j] += secStart[j-1]
+	}
+	secPairs := make([]int32, len(pairs)) // indices into pairs
+	fill := slices.Clone(secStart[:n2])
+	for k, pr := range pairs {
+		secPairs[fill[pr.j]] = int32(k)
+		fill[pr.j]++
+	}
+	nSec := func(j int32) int32 { return secStart[j+1] - secStart[j] }
+
+	// Pairs alone in their connected component are accepted directly; the
+	// greedy over the rest gives the same result as the greedy over all,
+	// because a pair's fate depends only on pairs sharing its rows.
+	var hard []int32
+	for k, pr := range pairs {
+		if nCand[pr.i] == 1 && nSec(pr.j) == 1 {
+			accept(&out[pr.i], pr, p0)
+		} else {
+			hard = append(hard, int32(k))
+		}
+	}
+	slices.SortFunc(hard, func(a, b int32) int {
+		pa, pb := &pairs[a], &pairs[b]
+		if c := cmpFloat(pb.lnB, pa.lnB); c != 0 {
+			return c
+		}
+		if pa.i != pb.i {
+			return int(pa.i - pb.i)
+		}
+		return int(pa.j - pb.j)
+	})
+	takenSec := make(map[int32]bool)
+	for _, k := range hard {
+		pr := pairs[k]
+		if out[pr.i].Secondary >= 0 || takenSec[pr.j] {
+			continue
+		}
+		accept(&out[pr.i], pr, p0)
+		takenSec[pr.j] = true
+	}
+
+	// Ambiguity, per primary over its contiguous run of pairs.
+	for start := 0; start < len(pairs); {
+		i := pairs[start].i
+		end := start + int(nCand[i])
+		best := start
+		for k := start + 1; k < end; k++ {
+			if pairs[k].lnB > pairs[best].lnB {
+				best = k
+			}
+		}
+		bp := pairs[best]
+		amb := false
+		for k := start; k < end && !amb; k++ {
+			amb = k != best && pairs[k].lnB >= bp.lnB-lnRatio
+		}
+		if nSec(bp.j) > 1 {
+			for _, k := range secPairs[secStart[bp.j]:secStart[bp.j+1]] {
+				if pairs[k].i != i && math.Abs(pairs[k].lnB-bp.lnB) <= lnRatio {
+					amb = true
+				}
+			}
+		}
+		m := &out[i]
+		m.Ambiguous = amb
+		if m.Secondary != bp.j {
+			st.BestTaken++
+		}
+		if amb {
+			st.Ambiguous++
+		}
+		if m.Secondary >= 0 {
+			st.Matched++
+		}
+		start = end
+	}
+	return out
+}
+
+func accept(m *Counterpart, pr pair, p0 float64) {
+	m.Secondary = pr.j
+	m.Prob = PosteriorLog(pr.lnB, p0)
+	m.SepArcsec = pr.sepRad / radPerArcsec
+	m.BayesFactor = math.Exp(pr.lnB)
+}
