@@ -1,0 +1,235 @@
+package sky
+
+import "math"
+
+// Astrometry is one star's astrometric state at some epoch. NaN marks an
+// unknown value. PMRAMasYr is mu_alpha* = mu_alpha cos(dec).
+type Astrometry struct {
+	RADeg, DecDeg         float64 // ICRS, degrees
+	ParallaxMas           float64 // mas
+	PMRAMasYr, PMDecMasYr float64 // mas/yr
+	RVKms                 float64 // km/s, positive receding
+}
+
+// Constants of the rigorous path, with the values ERFA uses (erfam.h, from
+// IAU 2012 Resolution B2 for the au and the SI defining speed of light).
+const (
+	auM        = 149597870.7e3 // astronomical unit, m
+	speedLight = 299792458.0   // m/s
+	daySec     = 86400.0       // s per day
+	julianYear = 365.25        // days per Julian year
+	auLightSec = auM / speedLight
+	lightAUDay = daySec / auLightSec // speed of light, au/day
+	arcsecRad  = degToRad / 3600
+	kmsToAUDay = daySec * 1e3 / auM
+)
+
+// Limits taken over from ERFA eraPmsafe and eraStarpv so that the rigorous
+// path behaves the same way for tiny parallaxes and extreme speeds.
+const (
+	pmsafeMinParallaxAs = 5e-7  // eraPmsafe PXMIN, arcsec
+	pmsafeSpeedFactor   = 326.0 // eraPmsafe F: parallax >= F*pm caps the transverse speed near 1% c
+	starpvMinParallaxAs = 1e-7  // eraStarpv PXMIN, arcsec
+	starpvMaxBeta       = 0.5   // eraStarpv VMAX, fraction of c
+	starpvMaxIter       = 100   // eraStarpv IMAX
+)
+
+// Propagate returns a moved from epoch fromJyr to epoch toJyr (Julian years,
+// e.g. 2016.0). The result's RADeg is in [0, 360).
+//
+// With a positive parallax and a known radial velocity it uses rigorous
+// straight-line space motion including the light-time and special
+// relativistic corrections, equivalent to ERFA eraPmsafe (which calls
+// eraStarpm; IAU SOFA Board, SOFA Astrometry Tools, 2021), including its
+// override of tiny parallaxes; it returns the new parallax and radial
+// velocity too. (When the parallax was raised by that override, the
+// returned parallax keeps the input value scaled by the modelled change, so
+// no invented parallax leaks out.)
+//
+// Otherwise it moves the position along the great circle in the direction
+// of the proper motion by |mu| (toJyr - fromJyr), which stays correct across
+// the poles, and rotates the proper motion vector along; parallax and radial
+// velocity are returned unchanged.
+//
+// Unknown position or proper motion (either component NaN) returns a
+// unchanged, apart from wrapping RADeg.
+func Propagate(a Astrometry, fromJyr, toJyr float64) Astrometry {
+	a.RADeg = wrapDeg360(a.RADeg)
+	if math.IsNaN(a.RADeg) || math.IsNaN(a.DecDeg) || math.IsNaN(a.PMRAMasYr) || math.IsNaN(a.PMDecMasYr) || fromJyr == toJyr {
+		return a
+	}
+	if a.ParallaxMas > 0 && !math.IsNaN(a.RVKms) && !math.IsInf(a.ParallaxMas, 0) && !math.IsInf(a.RVKms, 0) {
+		if out, ok := propagateSpace(a, (toJyr-fromJyr)*julianYear); ok {
+			return out
+		}
+	}
+	return propagateSphere(a, toJyr-fromJyr)
+}
+
+// basis returns the unit vectors toward the star (r), east (p) and north (q).
+func basis(raRad, decRad float64) (r, p, q [3]float64) {
+	sd, cd := math.Sincos(decRad)
+	sa, ca := math.Sincos(raRad)
+	return [3]float64{cd * ca, cd * sa, sd}, [3]float64{-sa, ca, 0}, [3]float64{-sd * ca, -sd * sa, cd}
+}
+
+func dot(a, b [3]float64) float64 { return a[0]*b[0] + a[1]*b[1] + a[2]*b[2] }
+
+// propagateSphere moves along the great circle through the start in the
+// direction of the proper motion (a rotation in the plane of r and the unit
+// motion direction u): r' = r cos d + u sin d, u' = -r sin d + u cos d.
+func propagateSphere(a Astrometry, dtYr float64) Astrometry {
+	muMas := math.Hypot(a.PMRAMasYr, a.PMDecMasYr)
+	if muMas == 0 {
+		return a
+	}
+	r, p, q := basis(a.RADeg*degToRad, a.DecDeg*degToRad)
+	ue, un := a.PMRAMasYr/muMas, a.PMDecMasYr/muMas
+	sd, cd := math.Sincos(muMas * masToRad * dtYr)
+	var r2, u2 [3]float64
+	for i := range 3 {
+		u := ue*p[i] + un*q[i]
+		r2[i] = r[i]*cd + u*sd
+		u2[i] = -r[i]*sd + u*cd
+	}
+	raRad, decRad := FromUnitVector(r2)
+	_, p2, q2 := basis(raRad, decRad)
+	a.RADeg = wrapDeg360(raRad * radToDeg)
+	a.DecDeg = decRad * radToDeg
+	a.PMRAMasYr = muMas * dot(u2, p2)
+	a.PMDecMasYr = muMas * dot(u2, q2)
+	return a
+}
+
+// propagateSpace follows ERFA eraPmsafe -> eraStarpm (eraStarpv, straight
+// line motion with light time, eraPvstar) step by step, in au and au/day.
+// It reports false where ERFA would fail (speed of light reached).
+func propagateSpace(a Astrometry, dtDay float64) (Astrometry, bool) {
+	raRad, decRad := a.RADeg*degToRad, a.DecDeg*degToRad
+	pmRARad := a.PMRAMasYr * masToRad // mu_alpha*, rad/yr
+	pmDecRad := a.PMDecMasYr * masToRad
+
+	// eraPmsafe: raise the parallax so that the transverse speed stays
+	// below about 1% c, and to at least PXMIN. ERFA measures the yearly
+	// motion with eraSeps from (ra, dec) to (ra + dRA/dt, dec + dDec/dt).
+	pxAs := a.ParallaxMas / 1000
+	pmYr := Separation(raRad, decRad, raRad+pmRARad/math.Cos(decRad), decRad+pmDecRad)
+	if math.IsNaN(pmYr) || math.IsInf(pmYr, 0) {
+		pmYr = math.Hypot(pmRARad, pmDecRad)
+	}
+	usedPxAs := pxAs
+	if usedPxAs < pmsafeSpeedFactor*pmYr {
+		usedPxAs = pmsafeSpeedFactor * pmYr
+	}
+	if usedPxAs < pmsafeMinParallaxAs {
+		usedPxAs = pmsafeMinParallaxAs
+	}
+
+	// eraStarpv: catalogue values to the inertial space motion.
+	w := usedPxAs
+	if w < starpvMinParallaxAs {
+		w = starpvMinParallaxAs
+	}
+	distAU := 1 / (w * arcsecRad)
+	rdAUDay := a.RVKms * kmsToAUDay
+	r, p, q := basis(raRad, decRad)
+	var pos, vel [3]float64
+	for i := range 3 {
+		pos[i] = distAU * r[i]
+		// Transverse velocity: distance x proper motion (rad/day).
+		vel[i] = distAU*(pmRARad*p[i]+pmDecRad*q[i])/julianYear + rdAUDay*r[i]
+	}
+	if dot(vel, vel)/(lightAUDay*lightAUDay) > starpvMaxBeta*starpvMaxBeta {
+		vel = [3]float64{}
+	}
+	vsr := dot(r, vel) // radial part, along the unit vector r
+	var ust [3]float64
+	for i := range 3 {
+		ust[i] = vel[i] - vsr*r[i]
+	}
+	vst := math.Sqrt(dot(ust, ust))
+	betsr, betst := vsr/lightAUDay, vst/lightAUDay
+	// Observed-to-inertial correction: the fixed-point iteration of
+	// eraStarpv, with its stopping rule.
+	bett, betr := betst, betsr
+	var d, del, od, odel, odd, oddel float64
+	for i := range starpvMaxIter {
+		d = 1 + betr
+		ww := betr*betr + bett*bett
+		del = -ww / (math.Sqrt(1-ww) + 1)
+		betr = d*betsr + del
+		bett = d * betst
+		if i > 0 {
+			dd := math.Abs(d - od)
+			ddel := math.Abs(del - odel)
+			if i > 1 && dd >= odd && ddel >= oddel {
+				break
+			}
+			odd, oddel = dd, ddel
+		}
+		od, odel = d, del
+	}
+	wr := 1.0
+	if betsr != 0 {
+		wr = d + del/betsr
+	}
+	for i := range 3 {
+		vel[i] = wr*vsr*r[i] + d*ust[i]
+	}
+
+	// eraStarpm: light time at the start, move to the geometric position at
+	// the end, light time there, then move to the observed place at the end.
+	tl1 := math.Sqrt(dot(pos, pos)) / lightAUDay
+	var g [3]float64
+	for i := range 3 {
+		g[i] = pos[i] + (dtDay+tl1)*vel[i]
+	}
+	r2 := dot(g, g)
+	rdv := dot(g, vel)
+	c2mv2 := lightAUDay*lightAUDay - dot(vel, vel)
+	if c2mv2 <= 0 {
+		return a, false
+	}
+	tl2 := (-rdv + math.Sqrt(rdv*rdv+c2mv2*r2)) / c2mv2
+	var pos2 [3]float64
+	for i := range 3 {
+		pos2[i] = pos[i] + (dtDay+(tl1-tl2))*vel[i]
+	}
+
+	// eraPvstar: inertial to observed velocity, then to catalogue values.
+	dist2 := math.Sqrt(dot(pos2, pos2))
+	if dist2 == 0 {
+		return a, false
+	}
+	var x [3]float64
+	for i := range 3 {
+		x[i] = pos2[i] / dist2
+	}
+	vr := dot(x, vel)
+	var ut [3]float64
+	for i := range 3 {
+		ut[i] = vel[i] - vr*x[i]
+	}
+	bt, br := math.Sqrt(dot(ut, ut))/lightAUDay, vr/lightAUDay
+	d2 := 1 + br
+	w2 := br*br + bt*bt
+	if d2 == 0 || w2 >= 1 {
+		return a, false
+	}
+	del2 := -w2 / (math.Sqrt(1-w2) + 1)
+	var vobs [3]float64
+	for i := range 3 {
+		vobs[i] = ut[i]/d2 + lightAUDay*(br-del2)/d2*x[i]
+	}
+	ra2, dec2 := FromUnitVector(pos2)
+	_, p2, q2 := basis(ra2, dec2)
+	out := a
+	out.RADeg = wrapDeg360(ra2 * radToDeg)
+	out.DecDeg = dec2 * radToDeg
+	out.PMRAMasYr = dot(vobs, p2) / dist2 * julianYear / masToRad
+	out.PMDecMasYr = dot(vobs, q2) / dist2 * julianYear / masToRad
+	out.RVKms = dot(vobs, x) / kmsToAUDay
+	// Parallax in the same proportion as the modelled distance change.
+	out.ParallaxMas = a.ParallaxMas * distAU / dist2
+	return out, true
+}
