@@ -1,0 +1,97 @@
+package kinematics
+
+import (
+	"math"
+	"math/rand/v2"
+)
+
+// catalogDistance is an independent distance: normal in kpc truncated at
+// d > 0, or normal in distance modulus.
+type catalogDistance struct {
+	modulus     bool
+	mean, sigma float64 // kpc, or mag for a modulus
+}
+
+// draw returns one distance in kpc.
+func (c catalogDistance) draw(rnd *rand.Rand) float64 {
+	if c.modulus {
+		return distanceFromModulusKpc(c.mean + c.sigma*rnd.NormFloat64())
+	}
+	if c.sigma == 0 {
+		return c.mean
+	}
+	// Rejection from the untruncated normal; the mean is positive, so at
+	// least half the draws are accepted.
+	for {
+		if d := c.mean + c.sigma*rnd.NormFloat64(); d > 0 {
+			return d
+		}
+	}
+}
+
+// distanceFromModulusKpc inverts the definition of the distance modulus,
+// mu = 5 log10(d / 10 pc): d = 10^(mu/5 + 1) pc.
+func distanceFromModulusKpc(muMag float64) float64 {
+	const pcPerKpc = 1000
+	return math.Pow(10, muMag/5+1) / pcPerKpc
+}
+
+// chooseDistance picks the distance method for s, recording fatal reasons
+// in r (r.OK false) and notes about catalog distances it could not use.
+func chooseDistance(s *Star, set *Settings, r *Result) (string, catalogDistance) {
+	wCorr := s.ParallaxMas - set.ParallaxZeroPointMas
+	plxOK := finite(s.ParallaxMas) && finite(s.ParallaxErrMas)
+
+	var cat catalogDistance
+	catOK := false
+	var catProblem string
+	switch {
+	case finite(s.DistMod) && finite(s.DistModErr):
+		cat, catOK = catalogDistance{modulus: true, mean: s.DistMod, sigma: s.DistModErr}, true
+	case finite(s.DistKpc) && finite(s.DistErrKpc) && s.DistKpc > 0:
+		cat, catOK = catalogDistance{mean: s.DistKpc, sigma: s.DistErrKpc}, true
+	case finite(s.DistMod):
+		catProblem = "distance modulus without uncertainty"
+	case finite(s.DistKpc) && !(s.DistKpc > 0):
+		catProblem = "non-positive catalog distance"
+	case finite(s.DistKpc):
+		catProblem = "catalog distance without uncertainty"
+	default:
+		catProblem = "no catalog distance"
+	}
+
+	method := set.Distance
+	if method == "" || method == MethodAuto {
+		switch {
+		case plxOK && wCorr/s.ParallaxErrMas >= set.MinParallaxOverError:
+			method = MethodInverse
+		case catOK:
+			method = MethodCatalog
+		case plxOK:
+			if catProblem != "no catalog distance" {
+				r.note(ReasonCatalogDistance, "%s, edsd distance used instead", catProblem)
+			}
+			method = MethodEDSD
+		default:
+			r.fail(ReasonNoDistance, "no usable parallax and %s", catProblem)
+			return "", cat
+		}
+	}
+	switch method {
+	case MethodInverse:
+		if !plxOK {
+			r.fail(ReasonNoParallax, "parallax or its uncertainty missing for inverse distance")
+		} else if !(wCorr > 0) {
+			r.fail(ReasonNonPositivePlx, "non-positive parallax with inverse distance")
+		}
+	case MethodEDSD:
+		if !plxOK {
+			r.fail(ReasonNoParallax, "parallax or its uncertainty missing for edsd distance")
+		}
+	case MethodCatalog:
+		if !catOK {
+			r.fail(ReasonCatalogDistance, "%s for catalog distance", catProblem)
+		}
+	}
+	return method, cat
+}

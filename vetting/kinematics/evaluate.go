@@ -1,0 +1,345 @@
+package kinematics
+
+import (
+	"math"
+	"math/rand/v2"
+
+	"starvet/vetting/frames"
+	"starvet/vetting/potential"
+)
+
+const degToRad = math.Pi / 180
+
+// worker holds the per-goroutine scratch space; one worker per goroutine.
+type worker struct {
+	pcg  rand.PCG
+	rnd  *rand.Rand
+	pcgV rand.PCG
+	rndV *rand.Rand
+
+	// Draws: distance (kpc), parallax implied or drawn (mas, zero point
+	// removed), proper motions (mas/yr), rv (km/s).
+	dist, plx, pmRA, pmDec, rv []float64
+	// Per-draw kinematics.
+	speed, rgc, vrad, vtan, vesc []float64
+	table                        edsdTable
+}
+
+func (w *worker) init(n int) {
+	if w.rnd == nil {
+		w.rnd = rand.New(&w.pcg)
+		w.rndV = rand.New(&w.pcgV)
+	}
+	for _, b := range []*[]float64{&w.dist, &w.plx, &w.pmRA, &w.pmDec, &w.rv, &w.speed, &w.rgc, &w.vrad, &w.vtan, &w.vesc} {
+		*b = resize(*b, n)
+	}
+}
+
+// lineOfSight is the linear map from (distance, pm, rv) to Galactocentric
+// position and velocity on one line of sight, taken from
+// frames.Sun.ToGalactocentric (which is affine in distance and in rv, and
+// bilinear in distance and pm) so the frame conventions live in one place:
+//
+//	pos = pos0 + d * posR
+//	vel = vel0 + rv * velR + d * (pmRA * velA + pmDec * velD)
+type lineOfSight struct {
+	pos0, posR, vel0, velR, velA, velD [3]float64
+}
+
+func newLineOfSight(sun frames.Sun, raDeg, decDeg float64) lineOfSight {
+	b := frames.NewBasis(raDeg*degToRad, decDeg*degToRad)
+	var l lineOfSight
+	var p1, vR, vA, vD [3]float64
+	l.pos0, l.vel0 = sun.ToGalactocentric(b, 0, 0, 0, 0)
+	p1, _ = sun.ToGalactocentric(b, 1, 0, 0, 0)
+	_, vR = sun.ToGalactocentric(b, 0, 0, 0, 1)
+	_, vA = sun.ToGalactocentric(b, 1, 1, 0, 0)
+	_, vD = sun.ToGalactocentric(b, 1, 0, 1, 0)
+	for i := range 3 {
+		l.posR[i] = p1[i] - l.pos0[i]
+		l.velR[i] = vR[i] - l.vel0[i]
+		l.velA[i] = vA[i] - l.vel0[i]
+		l.velD[i] = vD[i] - l.vel0[i]
+	}
+	return l
+}
+
+func (l *lineOfSight) at(d, pmRA, pmDec, rv float64) (pos, vel [3]float64) {
+	for i := range 3 {
+		pos[i] = l.pos0[i] + d*l.posR[i]
+		vel[i] = l.vel0[i] + rv*l.velR[i] + d*(pmRA*l.velA[i]+pmDec*l.velD[i])
+	}
+	return pos, vel
+}
+
+// minSpeedVelocity removes the line-of-sight component from vel: the
+// velocity is vel(rv) = vel(0) + rv u with u the unit line of sight, and
+// |vel(rv)| is smallest at rv = -vel(0).u, where it equals
+// |vel(0) - (vel(0).u) u| (minimum of a quadratic in rv).
+func (l *lineOfSight) minSpeedVelocity(vel [3]float64) [3]float64 {
+	u := l.velR
+	k := dot(vel, u) / dot(u, u)
+	return [3]float64{vel[0] - k*u[0], vel[1] - k*u[1], vel[2] - k*u[2]}
+}
+
+func dot(a, b [3]float64) float64 { return a[0]*b[0] + a[1]*b[1] + a[2]*b[2] }
+
+// escapeSpeed is sqrt(2 (Phi(r_lim) - Phi(x))) with Phi(r_lim) = 0 when
+// escRadiusKpc is 0 (escape to infinity) or Phi at escRadiusKpc along the
+// direction of x; 0 at or beyond the escape radius (common practice, e.g.
+// Piffl et al. 2014, A&A 562, A91, eq. 1).
+func escapeSpeed(p potential.Potential, x [3]float64, rKpc, escRadiusKpc float64) float64 {
+	phiLim := 0.0
+	if escRadiusKpc > 0 {
+		if rKpc >= escRadiusKpc {
+			return 0
+		}
+		k := escRadiusKpc / rKpc
+		phiLim = p.Phi([3]float64{x[0] * k, x[1] * k, x[2] * k})
+	}
+	d := phiLim - p.Phi(x)
+	if d <= 0 {
+		return 0
+	}
+	return math.Sqrt(2 * d)
+}
+
+func (w *worker) evaluate(s *Star, set *Settings, p potential.Potential, r *Result) {
+	r.reset(s.ID)
+	r.OK = true
+	if err := set.Validate(); err != nil {
+		r.fail(ReasonSettings, "%v", err)
+		return
+	}
+	if !finite(s.RADeg) || !finite(s.DecDeg) {
+		r.fail(ReasonNoPosition, "ra or dec missing")
+		return
+	}
+	if !finite(s.PMRAMasYr) || !finite(s.PMDecMasYr) {
+		r.fail(ReasonProperMotion, "proper motion missing")
+		return
+	}
+	if !finite(s.PMRAErrMasYr) || !finite(s.PMDecErrMasYr) {
+		r.fail(ReasonProperMotion, "proper-motion uncertainty missing")
+		return
+	}
+	for _, u := range []struct {
+		name string
+		v    float64
+	}{
+		{"proper motion in ra", s.PMRAErrMasYr}, {"proper motion in dec", s.PMDecErrMasYr},
+		{"parallax", s.ParallaxErrMas}, {"radial velocity", s.RVErrKms},
+		{"distance", s.DistErrKpc}, {"distance modulus", s.DistModErr},
+	} {
+		if u.v < 0 || math.IsInf(u.v, 0) {
+			r.fail(ReasonBadUncertainty, "%s uncertainty %v must be finite and not negative", u.name, u.v)
+			return
+		}
+	}
+	corr := [3]float64{s.CorrParallaxPMRA, s.CorrParallaxPMDec, s.CorrPMRAPMDec}
+	for i, c := range corr {
+		if math.IsNaN(c) {
+			corr[i] = 0
+		} else if !(c >= -1 && c <= 1) {
+			r.fail(ReasonBadCorrelation, "correlation %v outside [-1, 1]", c)
+			return
+		}
+	}
+	method, catDist := chooseDistance(s, set, r)
+	r.Method = method
+	if !r.OK {
+		return
+	}
+
+	n := set.Samples
+	w.init(n)
+	w.pcg.Seed(starSeed(set.Seed, s.ID, streamAstrometry))
+	w.pcgV.Seed(starSeed(set.Seed, s.ID, streamRV))
+
+	// Covariance of (parallax, pm_ra, pm_dec); the parallax row is only
+	// used by the parallax methods.
+	sw, sa, sd := s.ParallaxErrMas, s.PMRAErrMasYr, s.PMDecErrMasYr
+	if method == MethodCatalog {
+		sw = 0
+	}
+	cov := [3][3]float64{
+		{sw * sw, corr[0] * sw * sa, corr[1] * sw * sd},
+		{corr[0] * sw * sa, sa * sa, corr[2] * sa * sd},
+		{corr[1] * sw * sd, corr[2] * sa * sd, sd * sd},
+	}
+	wCorr := s.ParallaxMas - set.ParallaxZeroPointMas
+	mean := [3]float64{wCorr, s.PMRAMasYr, s.PMDecMasYr}
+	joint, ok := newGauss(3, mean, &cov, w.rnd)
+	if !ok {
+		r.fail(ReasonCovariance, "covariance of parallax and proper motions not positive definite")
+		return
+	}
+
+	kept := 0
+	switch method {
+	case MethodInverse:
+		dropped := 0
+		for range n {
+			var x [3]float64
+			joint.draw(w.rnd, &x)
+			if x[0] <= 0 {
+				dropped++
+				continue
+			}
+			w.dist[kept], w.plx[kept], w.pmRA[kept], w.pmDec[kept] = 1/x[0], x[0], x[1], x[2]
+			kept++
+		}
+		if dropped > 0 {
+			r.note(ReasonPlxDrawsDropped, "%d of %d parallax draws non-positive, dropped", dropped, n)
+		}
+		if kept == 0 {
+			r.fail(ReasonNonPositivePlx, "every parallax draw non-positive with inverse distance")
+			return
+		}
+	case MethodEDSD:
+		if !w.drawEDSD(s, set, &cov, mean, r) {
+			return
+		}
+		kept = n
+	case MethodCatalog:
+		for i := range n {
+			var x [3]float64
+			joint.draw(w.rnd, &x)
+			w.dist[i], w.plx[i], w.pmRA[i], w.pmDec[i] = catDist.draw(w.rnd), math.NaN(), x[1], x[2]
+		}
+		kept = n
+	}
+	r.Samples = kept
+
+	// Radial velocity from its own stream.
+	rvKms, rvErr := s.RVKms, s.RVErrKms
+	r.HasRV = finite(rvKms) && finite(rvErr)
+	if !r.HasRV {
+		switch {
+		case finite(rvKms):
+			r.note(ReasonNoRV, "radial-velocity uncertainty missing: speeds are lower bounds over all radial velocities")
+		default:
+			r.note(ReasonNoRV, "no radial velocity: speeds are lower bounds over all radial velocities")
+		}
+	}
+	for i := range kept {
+		if r.HasRV {
+			w.rv[i] = rvKms + rvErr*w.rndV.NormFloat64()
+		} else {
+			w.rv[i] = 0
+		}
+	}
+
+	los := newLineOfSight(set.Sun, s.RADeg, s.DecDeg)
+	keep := min(set.KeepSamples, kept)
+	r.SamplePos = growVec(r.SamplePos, keep)
+	r.SampleVel = growVec(r.SampleVel, keep)
+	unbound := 0
+	for i := range kept {
+		pos, vel := los.at(w.dist[i], w.pmRA[i], w.pmDec[i], w.rv[i])
+		if !r.HasRV {
+			vel = los.minSpeedVelocity(vel)
+		}
+		rg := math.Sqrt(dot(pos, pos))
+		v := math.Sqrt(dot(vel, vel))
+		vr := dot(pos, vel) / rg
+		ve := escapeSpeed(p, pos, rg, set.EscapeRadiusKpc)
+		w.speed[i], w.rgc[i], w.vrad[i], w.vesc[i] = v, rg, vr, ve
+		w.vtan[i] = math.Sqrt(math.Max(0, v*v-vr*vr))
+		if v > ve {
+			unbound++
+		}
+		if i < keep {
+			r.SamplePos[i], r.SampleVel[i] = pos, vel
+		}
+	}
+	pUnbound := float64(unbound) / float64(kept)
+	r.DistKpc = percentiles(w.dist[:kept])
+	r.RGCKpc = percentiles(w.rgc[:kept])
+	r.VEscKms = percentiles(w.vesc[:kept])
+	if r.HasRV {
+		r.SpeedKms = percentiles(w.speed[:kept])
+		r.VRadialKms = percentiles(w.vrad[:kept])
+		r.VTangentialKms = percentiles(w.vtan[:kept])
+		r.PUnbound = pUnbound
+	} else {
+		r.SpeedLowerKms = percentiles(w.speed[:kept])
+		r.PUnboundLower = pUnbound
+	}
+	rvNom := 0.0
+	if r.HasRV {
+		rvNom = rvKms
+	}
+	r.PosKpc, r.VelKms = los.at(r.DistKpc[1], s.PMRAMasYr, s.PMDecMasYr, rvNom)
+	if !r.HasRV {
+		r.VelKms = los.minSpeedVelocity(r.VelKms)
+	}
+}
+
+// drawEDSD fills dist, plx, pmRA and pmDec. The distance r comes from the
+// EDSD posterior; the proper motions from their normal conditional on the
+// true parallax 1/r:
+//
+//	mu | w = mu_obs + S_mw / S_ww (1/r - w_obs),  cov S_mm - S_mw S_wm / S_ww
+//
+// (conditional of a multivariate normal, e.g. Anderson 2003, An Introduction
+// to Multivariate Statistical Analysis, 3rd ed., theorem 2.5.1). With a flat
+// prior on the true proper motions this is the exact joint posterior of
+// (r, mu): the marginal of r is the EDSD posterior of the parallax alone, and
+// the parallax-pm correlations survive in the draws.
+func (w *worker) drawEDSD(s *Star, set *Settings, cov *[3][3]float64, mean [3]float64, r *Result) bool {
+	n := set.Samples
+	wObs, sw := mean[0], math.Sqrt(cov[0][0])
+	var beta [2]float64
+	var cond [3][3]float64
+	for i := range 2 {
+		for j := range 2 {
+			cond[i][j] = cov[i+1][j+1]
+		}
+	}
+	if sw > 0 {
+		for i := range 2 {
+			beta[i] = cov[0][i+1] / cov[0][0]
+		}
+		for i := range 2 {
+			for j := range 2 {
+				cond[i][j] -= cov[0][i+1] * cov[0][j+1] / cov[0][0]
+			}
+		}
+	}
+	g, ok := newGauss(2, [3]float64{}, &cond, w.rnd)
+	if !ok {
+		r.fail(ReasonCovariance, "covariance of parallax and proper motions not positive definite")
+		return false
+	}
+	if sw == 0 {
+		// A zero parallax error: the posterior is the point 1/w.
+		if wObs <= 0 {
+			r.fail(ReasonNonPositivePlx, "non-positive parallax with zero uncertainty")
+			return false
+		}
+	} else if !w.table.build(wObs, sw, set.EDSDLengthKpc) {
+		r.fail(ReasonDegenerateSample, "edsd posterior could not be tabulated for parallax %v +- %v mas", wObs, sw)
+		return false
+	}
+	for i := range n {
+		d := 1 / wObs
+		if sw > 0 {
+			d = w.table.quantile(w.rnd.Float64())
+		}
+		plx := 1 / d
+		var x [3]float64
+		g.draw(w.rnd, &x)
+		w.dist[i], w.plx[i] = d, plx
+		w.pmRA[i] = mean[1] + beta[0]*(plx-wObs) + x[0]
+		w.pmDec[i] = mean[2] + beta[1]*(plx-wObs) + x[1]
+	}
+	return true
+}
+
+func growVec(b [][3]float64, n int) [][3]float64 {
+	if cap(b) >= n {
+		return b[:n]
+	}
+	return make([][3]float64, n)
+}
