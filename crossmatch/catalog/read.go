@@ -105,11 +105,16 @@ func Read(ctx context.Context, spec Spec, opt ReadOptions) (*Table, *Report, err
 		return nil, nil, &FileError{File: name, Reason: err.Error(), Err: fmt.Errorf("%w: %w", ErrNoFile, err)}
 	}
 	defer f.Close()
+	st, err := f.Stat()
+	if err != nil {
+		return nil, nil, &FileError{File: name, Reason: err.Error(), Err: fmt.Errorf("%w: %w", ErrNoFile, err)}
+	}
 	hr := newHashingReader(f)
 	defer hr.close()
 
 	var in io.Reader = hr
-	if strings.HasSuffix(strings.ToLower(name), ".gz") {
+	gz := strings.HasSuffix(strings.ToLower(name), ".gz")
+	if gz {
 		zr, err := gzip.NewReader(hr)
 		if err != nil {
 			return nil, rep, &FileError{File: name, Reason: "unreadable gzip: " + err.Error(), Err: fmt.Errorf("%w: %w", ErrUnreadable, err)}
@@ -217,6 +222,9 @@ func Read(ctx context.Context, spec Spec, opt ReadOptions) (*Table, *Report, err
 			rep.Quarantined = append(rep.Quarantined, *q)
 			continue
 		}
+		if t.Len() == presizeAfterRows && !gz {
+			seen = presize(t, seen, st.Size(), cr.InputOffset())
+		}
 		line, _ := cr.FieldPos(0)
 		id = strings.Clone(id) // rec shares one backing string per line
 		seen[id] = line
@@ -248,6 +256,39 @@ func Read(ctx context.Context, spec Spec, opt ReadOptions) (*Table, *Report, err
 		rep.PositionErrFilled = fillPositionErr(t, spec.PositionErrMas)
 	}
 	return t, rep, nil
+}
+
+// presizeAfterRows is when Read estimates the row count of a plain file from
+// the bytes used so far and grows every column once, instead of doubling.
+const presizeAfterRows = 4096
+
+func presize(t *Table, seen map[string]int, fileBytes, usedBytes int64) map[string]int {
+	if usedBytes <= 0 {
+		return seen
+	}
+	est := int(float64(fileBytes)/float64(usedBytes)*float64(t.Len())*1.02) + 16
+	grow := func(c []float64) []float64 {
+		if c == nil || cap(c) >= est {
+			return c
+		}
+		n := make([]float64, len(c), est)
+		copy(n, c)
+		return n
+	}
+	for f := range t.Cols {
+		t.Cols[f] = grow(t.Cols[f])
+	}
+	ids := make([]string, len(t.IDs), est)
+	copy(ids, t.IDs)
+	t.IDs = ids
+	lines := make([]int, len(t.Lines), est)
+	copy(lines, t.Lines)
+	t.Lines = lines
+	m := make(map[string]int, est)
+	for k, v := range seen {
+		m[k] = v
+	}
+	return m
 }
 
 func lineOf(cr *csv.Reader) int {
