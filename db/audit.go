@@ -1,0 +1,319 @@
+package db
+
+import (
+	"context"
+	"database/sql"
+	"errors"
+	"fmt"
+	"sort"
+)
+
+// StarRun is a star's verdict in one run.
+type StarRun struct {
+	RunState string // state of the run (failed for an interrupted one)
+	Verdict  VerdictRow
+}
+
+// FieldChange is one input field that differs between two computations.
+type FieldChange struct {
+	Name string
+	Unit string
+	Old  float64 // NaN = missing
+	New  float64
+}
+
+// Computation is what one computing run saw and concluded for the star.
+type Computation struct {
+	RunID   int64
+	Inputs  *InputRow // nil if the run wrote no inputs (e.g. withdrawn)
+	Changes []FieldChange
+	// DupCountChange is set when dup_count differs from the previous
+	// computation: [old, new].
+	DupCountChange *[2]int
+	Verdict        VerdictRow
+	Reasons        []ReasonRow
+	Matches        []MatchRow
+}
+
+// StarHistory is everything the ledger knows about one star.
+type StarHistory struct {
+	StarID        string
+	FirstRun      int64
+	LastRun       int64
+	CurrentRun    int64  // latest complete run (0 if none)
+	CurrentStatus string // status in CurrentRun; "" if absent there
+	Runs          []StarRun
+	Computations  []Computation
+}
+
+// Why returns a star's history; an id never written is ErrUnknownStar.
+func (l *Ledger) Why(ctx context.Context, starID string) (*StarHistory, error) {
+	h := &StarHistory{StarID: starID}
+	err := l.db.QueryRowContext(ctx, "SELECT first_run, last_run FROM stars WHERE star_id = ?", starID).
+		Scan(&h.FirstRun, &h.LastRun)
+	if errors.Is(err, sql.ErrNoRows) {
+		return nil, fmt.Errorf("ledger %s has no star %q: %w", l.path, starID, ErrUnknownStar)
+	}
+	if err != nil {
+		return nil, fmt.Errorf("ledger %s: star %q: %w", l.path, starID, err)
+	}
+	runs, err := l.Runs(ctx)
+	if err != nil {
+		return nil, err
+	}
+	state := map[int64]string{}
+	for _, r := range runs {
+		state[r.ID] = r.State
+		if r.State == "complete" {
+			h.CurrentRun = r.ID
+		}
+	}
+	rows, err := l.db.QueryContext(ctx, "SELECT "+verdictCols+" FROM verdicts WHERE star_id = ? ORDER BY run_id", starID)
+	if err != nil {
+		return nil, fmt.Errorf("ledger %s: star %q verdicts: %w", l.path, starID, err)
+	}
+	for rows.Next() {
+		v, err := scanVerdict(rows)
+		if err != nil {
+			rows.Close()
+			return nil, fmt.Errorf("ledger %s: star %q verdicts: %w", l.path, starID, err)
+		}
+		h.Runs = append(h.Runs, StarRun{RunState: state[v.RunID], Verdict: v})
+		if v.RunID == h.CurrentRun {
+			h.CurrentStatus = v.Status
+		}
+	}
+	rows.Close()
+	if err := rows.Err(); err != nil {
+		return nil, fmt.Errorf("ledger %s: star %q verdicts: %w", l.path, starID, err)
+	}
+
+	seen := map[int64]bool{}
+	var comps []int64
+	own := map[int64]VerdictRow{}
+	for _, r := range h.Runs {
+		c := r.Verdict.ComputedInRun
+		if !seen[c] {
+			seen[c] = true
+			comps = append(comps, c)
+		}
+		if !r.Verdict.Carried() {
+			own[r.Verdict.RunID] = r.Verdict
+		}
+	}
+	sort.Slice(comps, func(i, j int) bool { return comps[i] < comps[j] })
+	var prev *InputRow
+	for _, c := range comps {
+		comp := Computation{RunID: c, Verdict: own[c]}
+		if comp.Inputs, err = l.inputsOf(ctx, c, starID); err != nil {
+			return nil, err
+		}
+		if comp.Reasons, err = l.reasonsOf(ctx, c, starID); err != nil {
+			return nil, err
+		}
+		if comp.Matches, err = l.matchesOf(ctx, c, starID); err != nil {
+			return nil, err
+		}
+		if prev != nil && comp.Inputs != nil {
+			for i := range NumInputs {
+				if !sameValue(prev.Values[i], comp.Inputs.Values[i]) {
+					comp.Changes = append(comp.Changes, FieldChange{InputName(i), InputUnit(i), prev.Values[i], comp.Inputs.Values[i]})
+				}
+			}
+			if prev.DupCount != comp.Inputs.DupCount {
+				comp.DupCountChange = &[2]int{prev.DupCount, comp.Inputs.DupCount}
+			}
+		}
+		if comp.Inputs != nil {
+			prev = comp.Inputs
+		}
+		h.Computations = append(h.Computations, comp)
+	}
+	return h, nil
+}
+
+func (l *Ledger) inputsOf(ctx context.Context, runID int64, starID string) (*InputRow, error) {
+	var in InputRow
+	var vals [NumInputs]sql.NullFloat64
+	dest := []any{&in.InputHash}
+	for i := range vals {
+		dest = append(dest, &vals[i])
+	}
+	dest = append(dest, &in.DupCount)
+	err := l.db.QueryRowContext(ctx, "SELECT input_hash, "+inputCols+", dup_count FROM inputs WHERE run_id = ? AND star_id = ?",
+		runID, starID).Scan(dest...)
+	if errors.Is(err, sql.ErrNoRows) {
+		return nil, nil
+	}
+	if err != nil {
+		return nil, fmt.Errorf("ledger %s run %d: star %q inputs: %w", l.path, runID, starID, err)
+	}
+	for i, v := range vals {
+		in.Values[i] = fv(v)
+	}
+	return &in, nil
+}
+
+// Reasons returns the stored reasons of a star in the run that computed it.
+func (l *Ledger) Reasons(ctx context.Context, runID int64, starID string) ([]ReasonRow, error) {
+	return l.reasonsOf(ctx, runID, starID)
+}
+
+func (l *Ledger) reasonsOf(ctx context.Context, runID int64, starID string) ([]ReasonRow, error) {
+	rows, err := l.db.QueryContext(ctx,
+		`SELECT rule_id, outcome, severity, value, threshold, message FROM reasons
+		 WHERE run_id = ? AND star_id = ? ORDER BY rowid`, runID, starID)
+	if err != nil {
+		return nil, fmt.Errorf("ledger %s run %d: star %q reasons: %w", l.path, runID, starID, err)
+	}
+	defer rows.Close()
+	var out []ReasonRow
+	for rows.Next() {
+		var r ReasonRow
+		var sev, thr, msg sql.NullString
+		var val sql.NullFloat64
+		if err := rows.Scan(&r.RuleID, &r.Outcome, &sev, &val, &thr, &msg); err != nil {
+			return nil, fmt.Errorf("ledger %s run %d: star %q reasons: %w", l.path, runID, starID, err)
+		}
+		r.Severity, r.Value, r.Threshold, r.Message = sv(sev), fv(val), sv(thr), sv(msg)
+		out = append(out, r)
+	}
+	return out, rows.Err()
+}
+
+func (l *Ledger) matchesOf(ctx context.Context, runID int64, starID string) ([]MatchRow, error) {
+	rows, err := l.db.QueryContext(ctx,
+		`SELECT catalog, source_id, sep_arcsec, match_prob, candidates, ambiguous FROM matches
+		 WHERE run_id = ? AND star_id = ? ORDER BY catalog`, runID, starID)
+	if err != nil {
+		return nil, fmt.Errorf("ledger %s run %d: star %q matches: %w", l.path, runID, starID, err)
+	}
+	defer rows.Close()
+	var out []MatchRow
+	for rows.Next() {
+		var m MatchRow
+		var src sql.NullString
+		var sep, p sql.NullFloat64
+		var amb int64
+		if err := rows.Scan(&m.Catalog, &src, &sep, &p, &m.Candidates, &amb); err != nil {
+			return nil, fmt.Errorf("ledger %s run %d: star %q matches: %w", l.path, runID, starID, err)
+		}
+		m.SourceID, m.SepArcsec, m.MatchProb, m.Ambiguous = sv(src), fv(sep), fv(p), amb == 1
+		out = append(out, m)
+	}
+	return out, rows.Err()
+}
+
+// NoStatus stands for "no verdict in that run" in a transition.
+const NoStatus = "(none)"
+
+// Transition counts stars that went From -> To.
+type Transition struct {
+	From, To string
+	Count    int64
+}
+
+// StarChange is one star whose status differs between the two runs.
+type StarChange struct {
+	StarID   string
+	From, To string
+}
+
+// DiffResult compares two runs.
+type DiffResult struct {
+	RunA, RunB  int64
+	Unchanged   int64        // stars with the same status in both
+	Transitions []Transition // status changes, largest count first
+	Changed     int64        // total stars in Transitions
+	Stars       []StarChange // by star id; capped by DiffN's limit
+}
+
+// Diff compares runA with runB (0, 0 = the last two complete runs; a zero
+// runB = the latest complete run) and lists every changed star.
+func (l *Ledger) Diff(ctx context.Context, runA, runB int64) (*DiffResult, error) {
+	return l.DiffN(ctx, runA, runB, -1)
+}
+
+// DiffN is Diff keeping at most limit per-star lines (limit < 0: all).
+func (l *Ledger) DiffN(ctx context.Context, runA, runB int64, limit int) (*DiffResult, error) {
+	if runB == 0 {
+		ids, err := l.completeRuns(ctx, 2)
+		if err != nil {
+			return nil, fmt.Errorf("ledger %s: diff: %w", l.path, err)
+		}
+		switch {
+		case runA == 0 && len(ids) < 2:
+			return nil, fmt.Errorf("ledger %s: diff needs two complete runs, it has %d: %w", l.path, len(ids), ErrNoRuns)
+		case runA == 0:
+			runA, runB = ids[1], ids[0]
+		case len(ids) == 0:
+			return nil, fmt.Errorf("ledger %s: %w", l.path, ErrNoRuns)
+		default:
+			runB = ids[0]
+		}
+	}
+	for _, id := range []int64{runA, runB} {
+		if _, err := l.Run(ctx, id); err != nil {
+			return nil, err
+		}
+	}
+	d := &DiffResult{RunA: runA, RunB: runB}
+	const pairs = `SELECT coalesce(a.star_id, b.star_id) AS star_id, coalesce(a.status, '` + NoStatus + `') AS s_from,
+		coalesce(b.status, '` + NoStatus + `') AS s_to
+		FROM (SELECT star_id, status FROM verdicts WHERE run_id = ?) a
+		FULL OUTER JOIN (SELECT star_id, status FROM verdicts WHERE run_id = ?) b ON a.star_id = b.star_id`
+	rows, err := l.db.QueryContext(ctx,
+		"SELECT s_from, s_to, count(*) FROM ("+pairs+") GROUP BY s_from, s_to", runA, runB)
+	if err != nil {
+		return nil, fmt.Errorf("ledger %s: diff %d %d: %w", l.path, runA, runB, err)
+	}
+	for rows.Next() {
+		var t Transition
+		if err := rows.Scan(&t.From, &t.To, &t.Count); err != nil {
+			rows.Close()
+			return nil, fmt.Errorf("ledger %s: diff %d %d: %w", l.path, runA, runB, err)
+		}
+		if t.From == t.To {
+			d.Unchanged += t.Count
+			continue
+		}
+		d.Changed += t.Count
+		d.Transitions = append(d.Transitions, t)
+	}
+	rows.Close()
+	if err := rows.Err(); err != nil {
+		return nil, fmt.Errorf("ledger %s: diff %d %d: %w", l.path, runA, runB, err)
+	}
+	sort.Slice(d.Transitions, func(i, j int) bool {
+		a, b := d.Transitions[i], d.Transitions[j]
+		if a.Count != b.Count {
+			return a.Count > b.Count
+		}
+		if a.From != b.From {
+			return a.From < b.From
+		}
+		return a.To < b.To
+	})
+	if limit == 0 {
+		return d, nil
+	}
+	q := "SELECT star_id, s_from, s_to FROM (" + pairs + ") WHERE s_from <> s_to ORDER BY star_id"
+	args := []any{runA, runB}
+	if limit > 0 {
+		q += " LIMIT ?"
+		args = append(args, limit)
+	}
+	rows, err = l.db.QueryContext(ctx, q, args...)
+	if err != nil {
+		return nil, fmt.Errorf("ledger %s: diff %d %d: %w", l.path, runA, runB, err)
+	}
+	defer rows.Close()
+	for rows.Next() {
+		var s StarChange
+		if err := rows.Scan(&s.StarID, &s.From, &s.To); err != nil {
+			return nil, fmt.Errorf("ledger %s: diff %d %d: %w", l.path, runA, runB, err)
+		}
+		d.Stars = append(d.Stars, s)
+	}
+	return d, rows.Err()
+}

@@ -1,0 +1,595 @@
+package db
+
+import (
+	"context"
+	"database/sql"
+	"errors"
+	"fmt"
+	"math"
+	"os"
+	"strings"
+	"testing"
+	"time"
+)
+
+func TestOpenCreatesSchema(t *testing.T) {
+	p := tempLedger(t)
+	l := openT(t, p, Options{})
+	var v int
+	if err := l.db.QueryRow("PRAGMA user_version").Scan(&v); err != nil {
+		t.Fatal(err)
+	}
+	if v != SchemaVersion() || v < 1 {
+		t.Errorf("user_version = %d, want %d", v, SchemaVersion())
+	}
+	var mode string
+	if err := l.db.QueryRow("PRAGMA journal_mode").Scan(&mode); err != nil {
+		t.Fatal(err)
+	}
+	if mode != "wal" {
+		t.Errorf("journal_mode = %q, want wal", mode)
+	}
+	var fk int
+	if err := l.db.QueryRow("PRAGMA foreign_keys").Scan(&fk); err != nil {
+		t.Fatal(err)
+	}
+	if fk != 1 {
+		t.Errorf("foreign_keys = %d, want 1", fk)
+	}
+	// Reopening applies nothing twice.
+	l.Close()
+	l2 := openT(t, p, Options{})
+	if ok, err := l2.IntegrityCheck(context.Background()); err != nil || ok != "ok" {
+		t.Errorf("integrity_check = %q, %v", ok, err)
+	}
+}
+
+func TestOpenRefuses(t *testing.T) {
+	ctx := context.Background()
+	tests := []struct {
+		name    string
+		prepare func(t *testing.T, path string)
+		opt     Options
+		want    error
+		msg     []string
+	}{
+		{
+			name: "newer schema",
+			prepare: func(t *testing.T, path string) {
+				l := openT(t, path, Options{})
+				if _, err := l.db.Exec("PRAGMA user_version = 99"); err != nil {
+					t.Fatal(err)
+				}
+				l.Close()
+			},
+			want: ErrNewerSchema,
+			msg:  []string{"was written by a newer starvet", "schema 99", fmt.Sprintf("this build knows %d", SchemaVersion()), "refusing to use it"},
+		},
+		{
+			name: "newer schema read-only",
+			prepare: func(t *testing.T, path string) {
+				l := openT(t, path, Options{})
+				if _, err := l.db.Exec("PRAGMA user_version = 42"); err != nil {
+					t.Fatal(err)
+				}
+				l.Close()
+			},
+			opt:  Options{ReadOnly: true},
+			want: ErrNewerSchema,
+			msg:  []string{"schema 42"},
+		},
+		{
+			name: "foreign database",
+			prepare: func(t *testing.T, path string) {
+				sdb, err := sql.Open("sqlite3", path)
+				if err != nil {
+					t.Fatal(err)
+				}
+				defer sdb.Close()
+				if _, err := sdb.Exec("CREATE TABLE planets (name TEXT)"); err != nil {
+					t.Fatal(err)
+				}
+			},
+			want: ErrNotLedger,
+			msg:  []string{"schema version 0"},
+		},
+		{
+			name:    "missing read-only",
+			prepare: func(t *testing.T, path string) {},
+			opt:     Options{ReadOnly: true},
+			want:    os.ErrNotExist,
+			msg:     []string{"open ledger"},
+		},
+	}
+	for _, tc := range tests {
+		t.Run(tc.name, func(t *testing.T) {
+			p := tempLedger(t)
+			tc.prepare(t, p)
+			l, err := Open(ctx, p, tc.opt)
+			if err == nil {
+				l.Close()
+				t.Fatal("open succeeded, want refusal")
+			}
+			if !errors.Is(err, tc.want) {
+				t.Errorf("error %v does not wrap %v", err, tc.want)
+			}
+			for _, m := range append(tc.msg, p) {
+				if !strings.Contains(err.Error(), m) {
+					t.Errorf("error %q lacks %q", err, m)
+				}
+			}
+		})
+	}
+}
+
+func TestRoundTripAndAudit(t *testing.T) {
+	ctx := context.Background()
+	l := openT(t, tempLedger(t), Options{})
+	ids := []string{"A-1", "A-2", "A-3", "A-4"}
+	var recs []StarRecord
+	for i, id := range ids {
+		recs = append(recs, record(id, i, 0, []string{"rejected", "accepted"}[i%2]))
+	}
+	r1 := writeRun(t, l, recs)
+
+	// Run 2: A-1 recomputed with new inputs and now accepted, A-2 carried,
+	// A-3 recomputed with same status, A-4 gone (withdrawn), A-5 new.
+	w, err := l.BeginRun(ctx, RunInfo{ToolVersion: "test", Seed: 8})
+	if err != nil {
+		t.Fatal(err)
+	}
+	a1 := record("A-1", 0, 0.5, "accepted")
+	a1.Inputs.Values[14] = 612.5 // rv now measured
+	a1.Inputs.DupCount = 2
+	a3 := record("A-3", 2, 0, "rejected")
+	a5 := record("A-5", 5, 0, "accepted")
+	withdrawn := StarRecord{StarID: "A-4", Computed: true, Verdict: VerdictRow{Status: "withdrawn"}}
+	if err := w.AddStars(ctx, []StarRecord{a1, a3, a5, withdrawn}); err != nil {
+		t.Fatal(err)
+	}
+	if err := w.CarryForward(ctx, r1, []string{"A-2"}); err != nil {
+		t.Fatal(err)
+	}
+	if err := w.Finish(ctx, RunSummary{StarsTotal: 5, StarsComputed: 4, StarsCarried: 1}); err != nil {
+		t.Fatal(err)
+	}
+	r2 := w.ID()
+
+	t.Run("runs", func(t *testing.T) {
+		runs, err := l.Runs(ctx)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if len(runs) != 2 || runs[1].ID != r2 || runs[1].State != "complete" {
+			t.Fatalf("runs = %+v", runs)
+		}
+		got := runs[1]
+		if got.StarsTotal != 5 || got.StarsComputed != 4 || got.StarsCarried != 1 || got.Seed != 8 {
+			t.Errorf("run 2 summary = %+v", got)
+		}
+		want := map[string]int64{"accepted": 3, "rejected": 1, "withdrawn": 1}
+		if fmt.Sprint(got.Counts) != fmt.Sprint(want) {
+			t.Errorf("counts = %v, want %v", got.Counts, want)
+		}
+		last, err := l.LastCompleteRun(ctx)
+		if err != nil || last == nil || last.ID != r2 {
+			t.Errorf("last complete = %+v, %v", last, err)
+		}
+		if _, err := l.Run(ctx, 99); !errors.Is(err, ErrNoRun) {
+			t.Errorf("run 99: %v, want ErrNoRun", err)
+		}
+	})
+
+	t.Run("previous state", func(t *testing.T) {
+		m, err := l.PreviousState(ctx, r2)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if len(m) != 5 {
+			t.Fatalf("%d stars, want 5", len(m))
+		}
+		if p := m["A-2"]; p.ComputedInRun != r1 || p.Status != "accepted" || p.InputHash != "h-1-0" {
+			t.Errorf("A-2 = %+v", p)
+		}
+		if p := m["A-1"]; p.ComputedInRun != r2 || p.InputHash != "h-0-0.5" {
+			t.Errorf("A-1 = %+v", p)
+		}
+	})
+
+	t.Run("why", func(t *testing.T) {
+		h, err := l.Why(ctx, "A-1")
+		if err != nil {
+			t.Fatal(err)
+		}
+		if h.CurrentStatus != "accepted" || h.CurrentRun != r2 || h.FirstRun != r1 || h.LastRun != r2 {
+			t.Errorf("history head = %+v", h)
+		}
+		if len(h.Runs) != 2 || h.Runs[0].Verdict.Status != "rejected" || h.Runs[1].Verdict.Status != "accepted" {
+			t.Fatalf("runs = %+v", h.Runs)
+		}
+		if len(h.Computations) != 2 {
+			t.Fatalf("%d computations, want 2", len(h.Computations))
+		}
+		c := h.Computations[1]
+		// Every value moved by the salt 0.5 except rv, which went from
+		// missing to 612.5.
+		if len(c.Changes) != NumInputs {
+			t.Errorf("%d changed fields, want %d: %+v", len(c.Changes), NumInputs, c.Changes)
+		}
+		var rv *FieldChange
+		for i := range c.Changes {
+			if c.Changes[i].Name == "rv" {
+				rv = &c.Changes[i]
+			}
+		}
+		if rv == nil || !math.IsNaN(rv.Old) || rv.New != 612.5 || rv.Unit != "km/s" {
+			t.Errorf("rv change = %+v", rv)
+		}
+		if c.DupCountChange == nil || *c.DupCountChange != [2]int{1, 2} {
+			t.Errorf("dup count change = %v", c.DupCountChange)
+		}
+		if len(c.Reasons) != 2 || c.Reasons[0].RuleID != "parallax-snr" || c.Reasons[0].Value != 3.5 || c.Reasons[0].Threshold != ">= 5" {
+			t.Errorf("reasons = %+v", c.Reasons)
+		}
+		if !math.IsNaN(c.Reasons[1].Value) && c.Reasons[1].Value != 500 {
+			t.Errorf("info reason value = %v", c.Reasons[1].Value)
+		}
+		if len(c.Matches) != 1 || c.Matches[0].SourceID != "sA-1" || c.Matches[0].SepArcsec != 0.12 {
+			t.Errorf("matches = %+v", c.Matches)
+		}
+		if v := c.Verdict; v.SpeedP50Kms != 500 || !math.IsNaN(v.PUnboundLower) || v.ModelName != "test-model" {
+			t.Errorf("verdict = %+v", v)
+		}
+
+		h2, err := l.Why(ctx, "A-2")
+		if err != nil {
+			t.Fatal(err)
+		}
+		if len(h2.Runs) != 2 || !h2.Runs[1].Verdict.Carried() || h2.Runs[1].Verdict.ComputedInRun != r1 {
+			t.Errorf("A-2 runs = %+v", h2.Runs)
+		}
+		if len(h2.Computations) != 1 || h2.Computations[0].RunID != r1 || len(h2.Computations[0].Reasons) != 2 {
+			t.Errorf("A-2 computations = %+v", h2.Computations)
+		}
+
+		if _, err := l.Why(ctx, "nope"); !errors.Is(err, ErrUnknownStar) || !strings.Contains(err.Error(), `"nope"`) {
+			t.Errorf("unknown star: %v", err)
+		}
+	})
+
+	t.Run("list", func(t *testing.T) {
+		tests := []struct {
+			f    ListFilter
+			want []string
+		}{
+			{ListFilter{}, []string{"A-1", "A-2", "A-3", "A-4", "A-5"}},
+			{ListFilter{Status: "accepted"}, []string{"A-1", "A-2", "A-5"}},
+			{ListFilter{Status: "accepted", Limit: 2}, []string{"A-1", "A-2"}},
+			{ListFilter{Run: r1, Status: "rejected"}, []string{"A-1", "A-3"}},
+			{ListFilter{Status: "bound"}, nil},
+		}
+		for _, tc := range tests {
+			t.Run(fmt.Sprintf("%+v", tc.f), func(t *testing.T) {
+				var got []string
+				err := l.List(ctx, tc.f, func(v VerdictRow) error { got = append(got, v.StarID); return nil })
+				if err != nil {
+					t.Fatal(err)
+				}
+				if fmt.Sprint(got) != fmt.Sprint(tc.want) {
+					t.Errorf("got %v, want %v", got, tc.want)
+				}
+			})
+		}
+		if err := l.List(ctx, ListFilter{Run: 77}, func(VerdictRow) error { return nil }); !errors.Is(err, ErrNoRun) {
+			t.Errorf("run 77: %v", err)
+		}
+	})
+
+	t.Run("diff", func(t *testing.T) {
+		d, err := l.Diff(ctx, 0, 0)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if d.RunA != r1 || d.RunB != r2 {
+			t.Errorf("runs %d %d", d.RunA, d.RunB)
+		}
+		wantT := "[{(none) accepted 1} {accepted withdrawn 1} {rejected accepted 1}]"
+		if fmt.Sprint(d.Transitions) != wantT {
+			t.Errorf("transitions %v, want %v", d.Transitions, wantT)
+		}
+		if d.Unchanged != 2 || d.Changed != 3 {
+			t.Errorf("unchanged %d changed %d", d.Unchanged, d.Changed)
+		}
+		wantS := "[{A-1 rejected accepted} {A-4 accepted withdrawn} {A-5 (none) accepted}]"
+		if fmt.Sprint(d.Stars) != wantS {
+			t.Errorf("stars %v, want %v", d.Stars, wantS)
+		}
+		d2, err := l.DiffN(ctx, r2, r1, 1)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if len(d2.Stars) != 1 || d2.Changed != 3 || fmt.Sprint(d2.Stars[0]) != "{A-1 accepted rejected}" {
+			t.Errorf("reverse diff %+v", d2)
+		}
+		if _, err := l.Diff(ctx, r1, 9); !errors.Is(err, ErrNoRun) {
+			t.Errorf("diff with run 9: %v", err)
+		}
+	})
+}
+
+func TestDiffNeedsTwoRuns(t *testing.T) {
+	l := openT(t, tempLedger(t), Options{})
+	writeRun(t, l, []StarRecord{record("x", 1, 0, "accepted")})
+	_, err := l.Diff(context.Background(), 0, 0)
+	if !errors.Is(err, ErrNoRuns) || !strings.Contains(err.Error(), "it has 1") {
+		t.Errorf("diff: %v", err)
+	}
+}
+
+// Identifiers that would break string-built SQL must survive every path.
+func TestHostileIDs(t *testing.T) {
+	ctx := context.Background()
+	ids := []string{
+		`it's "quoted"`,
+		"semi;colon",
+		"with space",
+		"dash--dash",
+		"'); DROP TABLE runs; --",
+		"Ωμέγα-星-7",
+		`back\slash%_`,
+	}
+	l := openT(t, tempLedger(t), Options{})
+	var recs []StarRecord
+	for i, id := range ids {
+		recs = append(recs, record(id, i, 0, "rejected"))
+	}
+	r1 := writeRun(t, l, recs)
+	recs = recs[:0]
+	for i, id := range ids {
+		recs = append(recs, record(id, i, 1, "accepted"))
+	}
+	writeRun(t, l, recs)
+	for _, id := range ids {
+		t.Run(id, func(t *testing.T) {
+			h, err := l.Why(ctx, id)
+			if err != nil {
+				t.Fatal(err)
+			}
+			if h.StarID != id || len(h.Runs) != 2 || h.CurrentStatus != "accepted" || h.Computations[0].Matches[0].SourceID != "s"+id {
+				t.Errorf("history %+v", h)
+			}
+			var got []string
+			if err := l.List(ctx, ListFilter{Run: r1}, func(v VerdictRow) error { got = append(got, v.StarID); return nil }); err != nil {
+				t.Fatal(err)
+			}
+			if !contains(got, id) {
+				t.Errorf("list lacks %q: %q", id, got)
+			}
+		})
+	}
+	d, err := l.Diff(ctx, 0, 0)
+	if err != nil {
+		t.Fatal(err)
+	}
+	var got []string
+	for _, s := range d.Stars {
+		got = append(got, s.StarID)
+	}
+	for _, id := range ids {
+		if !contains(got, id) {
+			t.Errorf("diff lacks %q", id)
+		}
+	}
+	if runs, err := l.Runs(ctx); err != nil || len(runs) != 2 {
+		t.Errorf("runs table after hostile ids: %d runs, %v", len(runs), err)
+	}
+}
+
+func contains(xs []string, x string) bool {
+	for _, y := range xs {
+		if y == x {
+			return true
+		}
+	}
+	return false
+}
+
+func TestAppendOnly(t *testing.T) {
+	ctx := context.Background()
+	l := openT(t, tempLedger(t), Options{})
+	var recs []StarRecord
+	for i := range 50 {
+		recs = append(recs, record(fmt.Sprintf("S%03d", i), i, 0, "accepted"))
+	}
+	r1 := writeRun(t, l, recs)
+	before := runChecksum(t, l, r1)
+	for i := range recs {
+		recs[i] = record(recs[i].StarID, i, 2, "rejected")
+	}
+	// A run that fails half-way and one that completes.
+	w, err := l.BeginRun(ctx, RunInfo{ToolVersion: "test"})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if err := w.AddStars(ctx, recs[:10]); err != nil {
+		t.Fatal(err)
+	}
+	if err := w.Fail(ctx, errors.New("boom")); err != nil {
+		t.Fatal(err)
+	}
+	if err := w.AddStars(ctx, recs[10:]); !errors.Is(err, ErrRunDone) {
+		t.Errorf("add after fail: %v", err)
+	}
+	writeRun(t, l, recs)
+	if after := runChecksum(t, l, r1); after != before {
+		t.Errorf("run 1 rows changed: %s -> %s", before, after)
+	}
+	if n := countRows(t, l, "verdicts", r1); n != 50 {
+		t.Errorf("run 1 has %d verdicts", n)
+	}
+	r, _ := l.Run(ctx, w.ID())
+	if r.State != "failed" || r.Note != "boom" || r.FinishedAt.IsZero() {
+		t.Errorf("failed run = %+v", r)
+	}
+}
+
+func TestBadRecords(t *testing.T) {
+	ctx := context.Background()
+	l := openT(t, tempLedger(t), Options{})
+	r1 := writeRun(t, l, []StarRecord{record("ok", 1, 0, "accepted")})
+	w, err := l.BeginRun(ctx, RunInfo{ToolVersion: "test"})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer w.Fail(ctx, errors.New("test over"))
+	carriedWithInputs := record("c", 1, 0, "accepted")
+	carriedWithInputs.Computed = false
+	carriedWithInputs.Verdict.ComputedInRun = r1
+	tests := []struct {
+		name string
+		rec  StarRecord
+		want string
+	}{
+		{"empty id", StarRecord{Verdict: VerdictRow{Status: "accepted"}}, "empty star id"},
+		{"empty status", StarRecord{StarID: "x", Computed: true}, `star "x": empty status`},
+		{"carried with inputs", carriedWithInputs, `star "c": not computed in this run but carries`},
+		{"carried without run", StarRecord{StarID: "d", Verdict: VerdictRow{Status: "accepted"}}, `star "d": not computed in this run, so computed_in_run`},
+	}
+	for _, tc := range tests {
+		t.Run(tc.name, func(t *testing.T) {
+			good := record("good-"+tc.name, 2, 0, "accepted")
+			err := w.AddStars(ctx, []StarRecord{good, tc.rec})
+			if !errors.Is(err, ErrBadRecord) || !strings.Contains(err.Error(), tc.want) {
+				t.Errorf("error %v, want ErrBadRecord with %q", err, tc.want)
+			}
+			if n := countRows(t, l, "verdicts", w.ID()); n != 0 {
+				t.Errorf("%d verdicts written by a rejected batch", n)
+			}
+		})
+	}
+	if err := w.CarryForward(ctx, r1, []string{"ok", "missing"}); !errors.Is(err, ErrUnknownStar) || !strings.Contains(err.Error(), `"missing"`) {
+		t.Errorf("carry forward missing: %v", err)
+	}
+	if n := countRows(t, l, "verdicts", w.ID()); n != 0 {
+		t.Errorf("%d verdicts left by a failed carry-forward batch", n)
+	}
+	if err := w.AddStars(ctx, []StarRecord{record("ok", 1, 1, "accepted")}); err != nil {
+		t.Fatal(err)
+	}
+	err = w.Finish(ctx, RunSummary{StarsTotal: 3})
+	if !errors.Is(err, ErrSummary) || !strings.Contains(err.Error(), "stars_total is 3 but the ledger holds 1") {
+		t.Errorf("finish with wrong total: %v", err)
+	}
+}
+
+func TestTwoWriters(t *testing.T) {
+	ctx := context.Background()
+	p := tempLedger(t)
+	l1 := openT(t, p, Options{})
+	r1 := writeRun(t, l1, []StarRecord{record("a", 1, 0, "accepted")})
+	sum1 := runChecksum(t, l1, r1)
+	w1, err := l1.BeginRun(ctx, RunInfo{ToolVersion: "first"})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if err := w1.AddStars(ctx, []StarRecord{record("a", 1, 1, "rejected")}); err != nil {
+		t.Fatal(err)
+	}
+
+	wait := 300 * time.Millisecond
+	l2 := openT(t, p, Options{LockWait: wait}) // writable open must not repair the live run
+	start := time.Now()
+	_, err = l2.BeginRun(ctx, RunInfo{ToolVersion: "second"})
+	elapsed := time.Since(start)
+	if !errors.Is(err, ErrBusy) {
+		t.Fatalf("second writer: %v, want ErrBusy", err)
+	}
+	for _, m := range []string{p, "is busy: another run is writing it", "waited 300ms"} {
+		if !strings.Contains(err.Error(), m) {
+			t.Errorf("error %q lacks %q", err, m)
+		}
+	}
+	// The bound is the wait plus one poll; the upper limit is generous
+	// because the machine is shared.
+	if elapsed < wait || elapsed > wait+5*time.Second {
+		t.Errorf("gave up after %v, want about %v", elapsed, wait)
+	}
+
+	t.Run("reader during write", func(t *testing.T) {
+		ro := openT(t, p, Options{ReadOnly: true})
+		runs, err := ro.Runs(ctx)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if len(runs) != 2 || runs[1].State != "running" || runs[1].Interrupted {
+			t.Errorf("runs seen by a reader: %+v", runs)
+		}
+		h, err := ro.Why(ctx, "a")
+		if err != nil {
+			t.Fatal(err)
+		}
+		if h.CurrentStatus != "accepted" || h.CurrentRun != r1 {
+			t.Errorf("current status while writing = %q in run %d", h.CurrentStatus, h.CurrentRun)
+		}
+		n := 0
+		if err := ro.List(ctx, ListFilter{}, func(VerdictRow) error { n++; return nil }); err != nil || n != 1 {
+			t.Errorf("list while writing: %d rows, %v", n, err)
+		}
+	})
+
+	if err := w1.Finish(ctx, RunSummary{}); err != nil {
+		t.Fatal(err)
+	}
+	w2, err := l2.BeginRun(ctx, RunInfo{ToolVersion: "second"})
+	if err != nil {
+		t.Fatalf("second writer after the first finished: %v", err)
+	}
+	if err := w2.Finish(ctx, RunSummary{}); err != nil {
+		t.Fatal(err)
+	}
+	runs, _ := l2.Runs(ctx)
+	if len(runs) != 3 || runs[1].State != "complete" || runs[2].State != "complete" {
+		t.Errorf("runs = %+v", runs)
+	}
+	if ok, err := l2.IntegrityCheck(ctx); ok != "ok" || err != nil {
+		t.Errorf("integrity %q %v", ok, err)
+	}
+	if s := runChecksum(t, l2, r1); s != sum1 {
+		t.Errorf("run 1 changed")
+	}
+}
+
+// A run abandoned without Finish or Fail (its process gone, simulated by
+// releasing the lock) reads as failed (interrupted) read-only, and is
+// marked failed by the next writable open.
+func TestStaleRun(t *testing.T) {
+	ctx := context.Background()
+	p := tempLedger(t)
+	l := openT(t, p, Options{})
+	writeRun(t, l, []StarRecord{record("a", 1, 0, "accepted")})
+	w, err := l.BeginRun(ctx, RunInfo{ToolVersion: "test"})
+	if err != nil {
+		t.Fatal(err)
+	}
+	w.lock.release()
+	l.Close()
+
+	ro := openT(t, p, Options{ReadOnly: true})
+	r, err := ro.Run(ctx, w.ID())
+	if err != nil {
+		t.Fatal(err)
+	}
+	if r.State != "failed" || !r.Interrupted || r.StateText() != "failed (interrupted)" {
+		t.Errorf("read-only view of stale run: %+v", r)
+	}
+	ro.Close()
+
+	l2 := openT(t, p, Options{})
+	r, err = l2.Run(ctx, w.ID())
+	if err != nil {
+		t.Fatal(err)
+	}
+	if r.State != "failed" || r.Interrupted || !strings.Contains(r.Note, "interrupted") || r.FinishedAt.IsZero() {
+		t.Errorf("after writable open: %+v", r)
+	}
+}

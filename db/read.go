@@ -1,0 +1,313 @@
+package db
+
+import (
+	"context"
+	"database/sql"
+	"encoding/json"
+	"errors"
+	"fmt"
+	"math"
+	"time"
+)
+
+const runCols = `id, started_at, finished_at, state, tool_version, campaign_hash, ruleset_hash, config_hash,
+	match_hash, model_hash, seed, "full", stars_total, stars_computed, stars_carried, rows_quarantined,
+	counts_json, note`
+
+type scanner interface{ Scan(dest ...any) error }
+
+func (l *Ledger) scanRun(sc scanner, writer *bool) (Run, error) {
+	var (
+		r                                 Run
+		started                           string
+		finished, cs, rs, cf, ms, mo, cj  sql.NullString
+		note                              sql.NullString
+		total, computed, carried, quarant sql.NullInt64
+		full                              int64
+	)
+	if err := sc.Scan(&r.ID, &started, &finished, &r.State, &r.ToolVersion, &cs, &rs, &cf, &ms, &mo, &r.Seed,
+		&full, &total, &computed, &carried, &quarant, &cj, &note); err != nil {
+		return r, err
+	}
+	r.StartedAt, _ = time.Parse(time.RFC3339, started)
+	if finished.Valid {
+		r.FinishedAt, _ = time.Parse(time.RFC3339, finished.String)
+	}
+	r.CampaignHash, r.RulesetHash, r.ConfigHash, r.MatchHash, r.ModelHash = sv(cs), sv(rs), sv(cf), sv(ms), sv(mo)
+	r.Full = full == 1
+	r.StarsTotal, r.StarsComputed, r.StarsCarried, r.RowsQuarantined = total.Int64, computed.Int64, carried.Int64, quarant.Int64
+	r.Note = sv(note)
+	if cj.Valid {
+		if err := json.Unmarshal([]byte(cj.String), &r.Counts); err != nil {
+			return r, fmt.Errorf("run %d counts_json: %w", r.ID, err)
+		}
+	}
+	if r.State == "running" {
+		// Ask the lock once per query, lazily.
+		if writer == nil {
+			a := writerActive(l.lockPath())
+			writer = &a
+		}
+		if !*writer {
+			r.State, r.Interrupted = "failed", true
+		}
+	}
+	return r, nil
+}
+
+// Runs returns every run, oldest first.
+func (l *Ledger) Runs(ctx context.Context) ([]Run, error) {
+	rows, err := l.db.QueryContext(ctx, "SELECT "+runCols+" FROM runs ORDER BY id")
+	if err != nil {
+		return nil, fmt.Errorf("ledger %s: runs: %w", l.path, err)
+	}
+	defer rows.Close()
+	active := writerActive(l.lockPath())
+	var out []Run
+	for rows.Next() {
+		r, err := l.scanRun(rows, &active)
+		if err != nil {
+			return nil, fmt.Errorf("ledger %s: runs: %w", l.path, err)
+		}
+		out = append(out, r)
+	}
+	if err := rows.Err(); err != nil {
+		return nil, fmt.Errorf("ledger %s: runs: %w", l.path, err)
+	}
+	return out, nil
+}
+
+// Run returns one run, or an error wrapping ErrNoRun.
+func (l *Ledger) Run(ctx context.Context, id int64) (*Run, error) {
+	r, err := l.scanRun(l.db.QueryRowContext(ctx, "SELECT "+runCols+" FROM runs WHERE id = ?", id), nil)
+	if errors.Is(err, sql.ErrNoRows) {
+		return nil, fmt.Errorf("ledger %s has no run %d: %w", l.path, id, ErrNoRun)
+	}
+	if err != nil {
+		return nil, fmt.Errorf("ledger %s: run %d: %w", l.path, id, err)
+	}
+	return &r, nil
+}
+
+// LastCompleteRun returns the newest complete run, or nil if there is none.
+func (l *Ledger) LastCompleteRun(ctx context.Context) (*Run, error) {
+	r, err := l.scanRun(l.db.QueryRowContext(ctx,
+		"SELECT "+runCols+" FROM runs WHERE state = 'complete' ORDER BY id DESC LIMIT 1"), nil)
+	if errors.Is(err, sql.ErrNoRows) {
+		return nil, nil
+	}
+	if err != nil {
+		return nil, fmt.Errorf("ledger %s: last complete run: %w", l.path, err)
+	}
+	return &r, nil
+}
+
+// completeRuns returns the ids of complete runs, newest first, at most n.
+func (l *Ledger) completeRuns(ctx context.Context, n int) ([]int64, error) {
+	rows, err := l.db.QueryContext(ctx, "SELECT id FROM runs WHERE state = 'complete' ORDER BY id DESC LIMIT ?", n)
+	if err != nil {
+		return nil, err
+	}
+	defer rows.Close()
+	var ids []int64
+	for rows.Next() {
+		var id int64
+		if err := rows.Scan(&id); err != nil {
+			return nil, err
+		}
+		ids = append(ids, id)
+	}
+	return ids, rows.Err()
+}
+
+// StatusCounts counts the verdicts of a run by status.
+func (l *Ledger) StatusCounts(ctx context.Context, runID int64) (map[string]int64, error) {
+	if _, err := l.Run(ctx, runID); err != nil {
+		return nil, err
+	}
+	return l.statusCounts(ctx, runID)
+}
+
+func (l *Ledger) statusCounts(ctx context.Context, runID int64) (map[string]int64, error) {
+	rows, err := l.db.QueryContext(ctx, "SELECT status, count(*) FROM verdicts WHERE run_id = ? GROUP BY status", runID)
+	if err != nil {
+		return nil, fmt.Errorf("ledger %s run %d: status counts: %w", l.path, runID, err)
+	}
+	defer rows.Close()
+	m := map[string]int64{}
+	for rows.Next() {
+		var s string
+		var n int64
+		if err := rows.Scan(&s, &n); err != nil {
+			return nil, err
+		}
+		m[s] = n
+	}
+	return m, rows.Err()
+}
+
+// PreviousState returns status, input hash and computing run of every star
+// with a verdict in runID, in one query.
+func (l *Ledger) PreviousState(ctx context.Context, runID int64) (map[string]PrevStar, error) {
+	if _, err := l.Run(ctx, runID); err != nil {
+		return nil, err
+	}
+	var n int
+	if err := l.db.QueryRowContext(ctx, "SELECT count(*) FROM verdicts WHERE run_id = ?", runID).Scan(&n); err != nil {
+		return nil, fmt.Errorf("ledger %s run %d: previous state: %w", l.path, runID, err)
+	}
+	rows, err := l.db.QueryContext(ctx,
+		"SELECT star_id, status, input_hash, computed_in_run FROM verdicts WHERE run_id = ?", runID)
+	if err != nil {
+		return nil, fmt.Errorf("ledger %s run %d: previous state: %w", l.path, runID, err)
+	}
+	defer rows.Close()
+	m := make(map[string]PrevStar, n)
+	for rows.Next() {
+		var id string
+		var p PrevStar
+		var h sql.NullString
+		if err := rows.Scan(&id, &p.Status, &h, &p.ComputedInRun); err != nil {
+			return nil, fmt.Errorf("ledger %s run %d: previous state: %w", l.path, runID, err)
+		}
+		p.InputHash = h.String
+		m[id] = p
+	}
+	if err := rows.Err(); err != nil {
+		return nil, fmt.Errorf("ledger %s run %d: previous state: %w", l.path, runID, err)
+	}
+	return m, nil
+}
+
+func scanVerdict(sc scanner) (VerdictRow, error) {
+	var (
+		v                                       VerdictRow
+		q, ih, dm, or, mn                       sql.NullString
+		p16, p50, p84, lp50, rgc, vesc, pu, pul sql.NullFloat64
+		pgc, gcc, ft                            sql.NullFloat64
+		hasRV                                   int64
+	)
+	err := sc.Scan(&v.RunID, &v.StarID, &v.Status, &q, &v.ComputedInRun, &ih, &dm, &hasRV,
+		&p16, &p50, &p84, &lp50, &rgc, &vesc, &pu, &pul, &or, &pgc, &gcc, &ft, &mn)
+	if err != nil {
+		return v, err
+	}
+	v.Quality, v.InputHash, v.DistanceMethod, v.Origin, v.ModelName = sv(q), sv(ih), sv(dm), sv(or), sv(mn)
+	v.HasRV = hasRV == 1
+	v.SpeedP16Kms, v.SpeedP50Kms, v.SpeedP84Kms, v.SpeedLowerP50Kms = fv(p16), fv(p50), fv(p84), fv(lp50)
+	v.RGCKpc, v.VEscKms, v.PUnbound, v.PUnboundLower = fv(rgc), fv(vesc), fv(pu), fv(pul)
+	v.PGCOrigin, v.GCConsistency, v.FlightTimeMyr = fv(pgc), fv(gcc), fv(ft)
+	return v, nil
+}
+
+// ListFilter selects verdicts for List.
+type ListFilter struct {
+	Status string // "" = every status
+	Run    int64  // 0 = latest complete run
+	Limit  int    // 0 = no limit
+}
+
+// List calls fn for each verdict of a run matching f, ordered by star id.
+// It returns the run used (useful when f.Run is 0).
+func (l *Ledger) List(ctx context.Context, f ListFilter, fn func(VerdictRow) error) error {
+	_, err := l.ListRun(ctx, f, fn)
+	return err
+}
+
+// ListRun is List that also returns the run id it listed.
+func (l *Ledger) ListRun(ctx context.Context, f ListFilter, fn func(VerdictRow) error) (int64, error) {
+	runID := f.Run
+	if runID == 0 {
+		r, err := l.LastCompleteRun(ctx)
+		if err != nil {
+			return 0, err
+		}
+		if r == nil {
+			return 0, fmt.Errorf("ledger %s: %w", l.path, ErrNoRuns)
+		}
+		runID = r.ID
+	} else if _, err := l.Run(ctx, runID); err != nil {
+		return 0, err
+	}
+	q := "SELECT " + verdictCols + " FROM verdicts WHERE run_id = ?"
+	args := []any{runID}
+	if f.Status != "" {
+		q += " AND status = ?"
+		args = append(args, f.Status)
+	}
+	q += " ORDER BY star_id"
+	if f.Limit > 0 {
+		q += " LIMIT ?"
+		args = append(args, f.Limit)
+	}
+	rows, err := l.db.QueryContext(ctx, q, args...)
+	if err != nil {
+		return runID, fmt.Errorf("ledger %s run %d: list: %w", l.path, runID, err)
+	}
+	defer rows.Close()
+	for rows.Next() {
+		v, err := scanVerdict(rows)
+		if err != nil {
+			return runID, fmt.Errorf("ledger %s run %d: list: %w", l.path, runID, err)
+		}
+		if err := fn(v); err != nil {
+			return runID, err
+		}
+	}
+	if err := rows.Err(); err != nil {
+		return runID, fmt.Errorf("ledger %s run %d: list: %w", l.path, runID, err)
+	}
+	return runID, nil
+}
+
+// RunCatalogs returns the input catalogs recorded for a run.
+func (l *Ledger) RunCatalogs(ctx context.Context, runID int64) ([]CatalogRow, error) {
+	rows, err := l.db.QueryContext(ctx,
+		`SELECT name, release, file, file_sha256, rows_read, rows_kept, rows_quarantined, epoch, role
+		 FROM catalogs WHERE run_id = ? ORDER BY name`, runID)
+	if err != nil {
+		return nil, fmt.Errorf("ledger %s run %d: catalogs: %w", l.path, runID, err)
+	}
+	defer rows.Close()
+	var out []CatalogRow
+	for rows.Next() {
+		var c CatalogRow
+		var rel, file, sha, role sql.NullString
+		var ep sql.NullFloat64
+		if err := rows.Scan(&c.Name, &rel, &file, &sha, &c.RowsRead, &c.RowsKept, &c.RowsQuarantined, &ep, &role); err != nil {
+			return nil, fmt.Errorf("ledger %s run %d: catalogs: %w", l.path, runID, err)
+		}
+		c.Release, c.File, c.FileSHA256, c.Role, c.Epoch = sv(rel), sv(file), sv(sha), sv(role), fv(ep)
+		out = append(out, c)
+	}
+	return out, rows.Err()
+}
+
+// Quarantine calls fn for each quarantined row of a run, by catalog and line.
+func (l *Ledger) Quarantine(ctx context.Context, runID int64, fn func(QuarantineRow) error) error {
+	rows, err := l.db.QueryContext(ctx,
+		`SELECT catalog, line, "column", column_name, value, reason FROM quarantine
+		 WHERE run_id = ? ORDER BY catalog, line, "column"`, runID)
+	if err != nil {
+		return fmt.Errorf("ledger %s run %d: quarantine: %w", l.path, runID, err)
+	}
+	defer rows.Close()
+	for rows.Next() {
+		var q QuarantineRow
+		var col sql.NullInt64
+		var name, val sql.NullString
+		if err := rows.Scan(&q.Catalog, &q.Line, &col, &name, &val, &q.Reason); err != nil {
+			return fmt.Errorf("ledger %s run %d: quarantine: %w", l.path, runID, err)
+		}
+		q.Column, q.ColumnName, q.Value = int(col.Int64), sv(name), sv(val)
+		if err := fn(q); err != nil {
+			return err
+		}
+	}
+	return rows.Err()
+}
+
+// sameValue treats two missing values as equal.
+func sameValue(a, b float64) bool {
+	return a == b || (math.IsNaN(a) && math.IsNaN(b))
+}

@@ -1,0 +1,211 @@
+package db
+
+import (
+	"database/sql"
+	"math"
+	"time"
+
+	"starvet/crossmatch/catalog"
+)
+
+// NumInputs is the number of canonical numeric fields stored per star:
+// catalog.RA .. catalog.DistModErr.
+const NumInputs = int(catalog.NumFields) - 1
+
+// InputName returns the column name of Values[i] (the canonical field name).
+func InputName(i int) string { return catalog.Fields[catalog.Field(i+1)].Name }
+
+// InputUnit returns the canonical unit of Values[i].
+func InputUnit(i int) string { return catalog.Fields[catalog.Field(i+1)].Unit }
+
+// RunInfo identifies what a run was made from; it is written at BeginRun.
+type RunInfo struct {
+	ToolVersion  string
+	CampaignHash string
+	RulesetHash  string
+	ConfigHash   string
+	MatchHash    string
+	ModelHash    string
+	Seed         int64
+	Full         bool // the run recomputed every star (--full)
+	Note         string
+}
+
+// RunSummary closes a run. Zero fields are filled from the ledger itself;
+// non-zero fields are checked against it and a disagreement is ErrSummary.
+type RunSummary struct {
+	StarsTotal      int64
+	StarsComputed   int64
+	StarsCarried    int64
+	RowsQuarantined int64
+	Counts          map[string]int64 // status -> stars
+	Note            string           // appended to the run's note
+}
+
+// Run is one row of the runs table.
+type Run struct {
+	ID              int64
+	StartedAt       time.Time
+	FinishedAt      time.Time // zero while running
+	State           string    // running, complete or failed
+	Interrupted     bool      // state running in the file, but no writer holds the lock: shown as failed
+	ToolVersion     string
+	CampaignHash    string
+	RulesetHash     string
+	ConfigHash      string
+	MatchHash       string
+	ModelHash       string
+	Seed            int64
+	Full            bool
+	StarsTotal      int64
+	StarsComputed   int64
+	StarsCarried    int64
+	RowsQuarantined int64
+	Counts          map[string]int64
+	Note            string
+}
+
+// StateText is the state for display: "failed (interrupted)" for a run
+// whose writer died and that no writable open has repaired yet.
+func (r *Run) StateText() string {
+	if r.Interrupted {
+		return "failed (interrupted)"
+	}
+	return r.State
+}
+
+// CatalogRow describes one input catalog of a run.
+type CatalogRow struct {
+	Name            string
+	Release         string
+	File            string
+	FileSHA256      string
+	RowsRead        int64
+	RowsKept        int64
+	RowsQuarantined int64
+	Epoch           float64 // Julian year; NaN if unknown
+	Role            string
+}
+
+// QuarantineRow is one rejected input row. Line and Column are 1-based;
+// Column 0 means the whole line.
+type QuarantineRow struct {
+	Catalog    string
+	Line       int
+	Column     int
+	ColumnName string
+	Value      string
+	Reason     string
+}
+
+// InputRow is the merged input of a computed star, canonical units
+// (catalog.Fields), NaN for missing.
+type InputRow struct {
+	InputHash string
+	Values    [NumInputs]float64 // index i is catalog.Field(i+1)
+	DupCount  int
+}
+
+// MatchRow is the best counterpart of a star in one secondary catalog.
+type MatchRow struct {
+	Catalog    string
+	SourceID   string
+	SepArcsec  float64
+	MatchProb  float64
+	Candidates int
+	Ambiguous  bool
+}
+
+// ReasonRow is one rule or kinematic outcome behind a verdict.
+type ReasonRow struct {
+	RuleID    string
+	Outcome   string // fail, skipped, pass or info
+	Severity  string
+	Value     float64 // NaN when the rule has no single value
+	Threshold string
+	Message   string
+}
+
+// VerdictRow is one star's status in one run. RunID and StarID are filled
+// by readers; writers take them from the RunWriter and the StarRecord.
+type VerdictRow struct {
+	RunID            int64
+	StarID           string
+	Status           string
+	Quality          string // pass, flag or reject; "" for none
+	ComputedInRun    int64  // 0 on write means "this run"
+	InputHash        string
+	DistanceMethod   string
+	HasRV            bool
+	SpeedP16Kms      float64
+	SpeedP50Kms      float64
+	SpeedP84Kms      float64
+	SpeedLowerP50Kms float64
+	RGCKpc           float64
+	VEscKms          float64
+	PUnbound         float64
+	PUnboundLower    float64
+	Origin           string
+	PGCOrigin        float64
+	GCConsistency    float64
+	FlightTimeMyr    float64
+	ModelName        string
+}
+
+// Carried reports whether the verdict was carried forward from an earlier
+// run rather than computed in its own.
+func (v *VerdictRow) Carried() bool { return v.ComputedInRun != v.RunID }
+
+// StarRecord is everything a run writes for one star. A computed star
+// carries Inputs and may carry Matches and Reasons; a carried-forward or
+// withdrawn star has only a Verdict whose ComputedInRun names the run that
+// computed it.
+type StarRecord struct {
+	StarID   string
+	Computed bool
+	Inputs   *InputRow
+	Matches  []MatchRow
+	Verdict  VerdictRow
+	Reasons  []ReasonRow
+}
+
+// PrevStar is what an incremental run needs about a star's last verdict.
+type PrevStar struct {
+	Status        string
+	InputHash     string
+	ComputedInRun int64
+}
+
+// Parameter helpers: NaN and "" become NULL.
+
+func nf(x float64) any {
+	if math.IsNaN(x) {
+		return nil
+	}
+	return x
+}
+
+func ns(s string) any {
+	if s == "" {
+		return nil
+	}
+	return s
+}
+
+func b2i(b bool) int64 {
+	if b {
+		return 1
+	}
+	return 0
+}
+
+// Scan helpers: NULL becomes NaN or "".
+
+func fv(n sql.NullFloat64) float64 {
+	if !n.Valid {
+		return math.NaN()
+	}
+	return n.Float64
+}
+
+func sv(n sql.NullString) string { return n.String }
