@@ -107,11 +107,12 @@ type sampleTrace struct {
 	closestKp float64
 }
 
-// traceSample integrates one sample backward. It stops at the first plane
-// crossing, or a little after it: while the radius keeps shrinking past the
-// crossing it continues to that pericentre so that the closest approach of
-// an orbit through the centre is not cut short. Without a crossing the
-// closest approach is over the whole trace.
+// traceSample integrates one sample backward until its first plane
+// crossing or the trace time. If the crossing lies within GCRadiusKpc of the
+// centre it continues while the radius still shrinks, so that the closest
+// approach of an orbit through the centre is its pericentre and not cut at
+// the plane; otherwise the closest approach is over the flight from the
+// crossing to now (or over the whole trace without a crossing).
 func traceSample(p potential.Potential, x, v [3]float64, s *TraceSettings) sampleTrace {
 	st := newStepper(p, s.Options, -1)
 	cur := st.start(x, v)
@@ -124,6 +125,9 @@ func traceSample(p potential.Potential, x, v [3]float64, s *TraceSettings) sampl
 	tEnd := -s.TraceMyr / potential.TimeUnitMyr
 	for {
 		if res.crossed {
+			if math.Hypot(res.cross.XKpc, res.cross.YKpc) > s.GCRadiusKpc {
+				return res
+			}
 			// Going back in time r shrinks only while x.v > 0; stop at the
 			// pericentre.
 			if cur.x[0]*cur.v[0]+cur.x[1]*cur.v[1]+cur.x[2]*cur.v[2] <= 0 {
