@@ -1,0 +1,120 @@
+package scenario
+
+import (
+	"fmt"
+	"math"
+)
+
+// Names of the invented surveys and of the files written. None is a real
+// survey: "Pelmarra" (astrometry), "Vossbeck" (spectroscopy) and "Tirrel"
+// (photometry) are made up for this demo.
+const (
+	AstrometryName   = "pelmarra"
+	SpectroscopyName = "vossbeck"
+	PhotometryName   = "tirrel"
+
+	CampaignFile = "campaign.toml"
+	TruthFile    = "truth.csv"
+	BadRowsFile  = "bad_rows.csv"
+)
+
+// Epochs of the three catalogs, Julian years.
+const (
+	AstrometryEpochJyr   = 2016.0
+	SpectroscopyEpochJyr = 2011.5
+	PhotometryEpochJyr   = 2000.0
+)
+
+// Footprint of the spectroscopic survey: dec > -20 deg and |b| > 10 deg.
+const (
+	footprintMinDecDeg  = -20.0
+	footprintMinAbsBDeg = 10.0
+)
+
+// Magnitude limits of the invented surveys (no extinction is modelled).
+const (
+	magLimitAstrometry = 20.5
+	magBrightLimit     = 3.0
+	magLimitPhotometry = 20.0
+	magLimitSpecBack   = 19.5 // background stars targeted for spectra
+)
+
+// Config sets the size and seed of a scenario.
+type Config struct {
+	Seed uint64
+	// Stars is the number of rows of the primary (astrometric) catalog,
+	// injected stars, traps and bad rows included. Default 50,000; at
+	// least 1,000.
+	Stars int
+	// Injected is the number of stars per injected population (Galactic
+	// Centre ejectees, disk runaways, bound fast halo stars). Zero means
+	// Stars/500 clamped to [20, 100].
+	Injected int
+	// Name is the campaign name; default "invented-demo".
+	Name string
+	// Samples is the Monte Carlo sample count written to the campaign;
+	// default 1000.
+	Samples int
+}
+
+// DefaultStars is the default size of the primary catalog.
+const DefaultStars = 50000
+
+func (c Config) withDefaults() (Config, error) {
+	if c.Stars == 0 {
+		c.Stars = DefaultStars
+	}
+	if c.Stars < 1000 {
+		return c, fmt.Errorf("scenario: stars = %d: %w", c.Stars, ErrConfig)
+	}
+	if c.Injected == 0 {
+		c.Injected = min(100, max(20, c.Stars/500))
+	}
+	if c.Injected < 0 || 12*c.Injected > c.Stars/2 {
+		return c, fmt.Errorf("scenario: injected = %d for %d stars: %w", c.Injected, c.Stars, ErrConfig)
+	}
+	if c.Name == "" {
+		c.Name = "invented-demo"
+	}
+	if c.Samples == 0 {
+		c.Samples = 1000
+	}
+	if c.Samples < 0 {
+		return c, fmt.Errorf("scenario: samples = %d: %w", c.Samples, ErrConfig)
+	}
+	return c, nil
+}
+
+// counts is how many stars of each kind a scenario holds.
+type counts struct {
+	injected   int // per injected population
+	binaries   int
+	duplicates int // pairs: two rows each
+	rvOutliers int
+	crowded    int
+	highPM     int
+	badAstro   int
+	badSpec    int
+}
+
+func countsFor(c Config) counts {
+	n := c.Injected
+	return counts{
+		injected:   n,
+		binaries:   max(4, n/2),
+		duplicates: max(3, n/4),
+		rvOutliers: max(4, n/2),
+		crowded:    max(4, n/2),
+		highPM:     max(4, n/2),
+		badAstro:   max(3, n/4),
+		badSpec:    max(2, n/10),
+	}
+}
+
+// Unit helpers (common practice).
+const (
+	deg2rad    = math.Pi / 180
+	masPerDeg  = 3.6e6
+	masPerArcs = 1000.0
+	msPerKms   = 1000.0
+)

@@ -1,0 +1,370 @@
+package scenario
+
+import (
+	"fmt"
+	"math"
+	"math/rand/v2"
+
+	"starvet/vetting/frames"
+)
+
+// Population labels written to truth.csv.
+const (
+	PopThinDisk    = "thin_disk"
+	PopThickDisk   = "thick_disk"
+	PopHalo        = "halo"
+	PopGCEjectee   = "gc_ejectee"
+	PopDiskRunaway = "disk_runaway"
+	PopHaloFast    = "halo_fast"
+)
+
+// Trap labels written to truth.csv. Every trap but TrapHighPM is an
+// artefact: the star must not end "unbound".
+const (
+	TrapBinary    = "binary"     // spoilt fit fakes a large proper motion
+	TrapDuplicate = "duplicate"  // two rows for one source
+	TrapRVOutlier = "rv_outlier" // rv wrong by hundreds of km/s, low S/N
+	TrapCrowded   = "crowded"    // spectroscopic counterpart has a neighbour
+	TrapHighPM    = "high_pm"    // real star, matches only after propagation
+	TrapBadValue  = "bad_value"  // row with an impossible value
+)
+
+// True origins written to truth.csv.
+const (
+	OriginGalacticCentre = "galactic-centre"
+	OriginDisk           = "disk"
+	OriginHalo           = "halo"
+)
+
+// star is one source of the primary catalog, with its true phase-space
+// coordinates and what was observed of it.
+type star struct {
+	id        string
+	pop       string
+	trap      string
+	artefact  bool
+	origin    string
+	flightMyr float64 // NaN unless ejected or kicked
+
+	posKpc, velKms [3]float64 // true, Galactocentric
+	absMag, color  float64
+
+	// True observables at the astrometric epoch.
+	raDeg, decDeg, distKpc float64
+	pmRA, pmDec, rvKms     float64
+	mag                    float64
+	inFootprint            bool
+
+	// fakePM is added to the observed proper motion (binaries, the
+	// spurious twin of a duplicate), mas/yr.
+	fakePM [2]float64
+	// twinOf is set on the spurious second row of a duplicated source;
+	// offsetMas is its offset (east, north) from the real one.
+	twinOf    *star
+	offsetMas [2]float64
+
+	astro astroRow
+	spec  *specRow // nil: no spectrum
+	// specRelease is the release of the spectroscopic catalog in which the
+	// spectrum first appears.
+	specRelease int
+	phot        *photRow
+	bad         *badCell
+	revised     int // release of the last astrometric revision (1 = none)
+}
+
+// sampler draws stars from the populations of a galaxy.
+type sampler struct {
+	g   *galaxy
+	rng *rand.Rand
+}
+
+const maxTries = 100000
+
+func (s *sampler) uniform(a, b float64) float64 { return a + (b-a)*s.rng.Float64() }
+
+// isotropic returns a random unit vector.
+func (s *sampler) isotropic() [3]float64 {
+	z := 2*s.rng.Float64() - 1
+	phi := 2 * math.Pi * s.rng.Float64()
+	r := math.Sqrt(1 - z*z)
+	return [3]float64{r * math.Cos(phi), r * math.Sin(phi), z}
+}
+
+// finish fills the observables of st from its phase-space coordinates and
+// reports whether it is within the magnitude limits.
+func (s *sampler) finish(st *star) bool {
+	ra, dec, d, pmra, pmdec, rv := fromGalactocentric(s.g.sun, st.posKpc, st.velKms)
+	st.raDeg, st.decDeg, st.distKpc = ra/deg2rad, dec/deg2rad, d
+	st.pmRA, st.pmDec, st.rvKms = pmra, pmdec, rv
+	// Distance modulus mu = 5 log10(d / 10 pc) = 5 log10(d_kpc) + 10
+	// (definition).
+	st.mag = st.absMag + 5*math.Log10(d) + 10
+	st.inFootprint = inFootprint(st.raDeg, st.decDeg)
+	return st.mag < magLimitAstrometry && st.mag > magBrightLimit
+}
+
+func inFootprint(raDeg, decDeg float64) bool {
+	if decDeg <= footprintMinDecDeg {
+		return false
+	}
+	_, b := frames.ICRSToGalactic(raDeg*deg2rad, decDeg*deg2rad)
+	return math.Abs(b)/deg2rad > footprintMinAbsBDeg
+}
+
+// diskParams describe one disk component. The values are those the brief
+// asks for (scale length 2.6 kpc; scale heights 0.3 and 0.9 kpc;
+// dispersions (35,25,20) and (60,45,40) km/s), close to the thin and thick
+// disks of Bland-Hawthorn & Gerhard (2016, ARA&A 54, 529, sec. 6).
+type diskParams struct {
+	pop                  string
+	scaleLenKpc          float64
+	scaleHeightKpc       float64
+	driftKms             float64 // asymmetric drift
+	sigR, sigPhi, sigZ   float64 // km/s
+	absMagMean, absMagSD float64
+	colorMean, colorSD   float64
+}
+
+var (
+	thinDisk  = diskParams{PopThinDisk, 2.6, 0.3, 10, 35, 25, 20, 4.0, 1.8, 0.9, 0.3}
+	thickDisk = diskParams{PopThickDisk, 2.6, 0.9, 40, 60, 45, 40, 4.2, 1.2, 0.95, 0.25}
+)
+
+// diskPosition draws a position from a double-exponential disk: surface
+// density ∝ exp(-R/h) (so p(R) ∝ R exp(-R/h), a Gamma(2, h) law) and
+// density ∝ exp(-|z|/h_z), with R < rMax.
+func (s *sampler) diskPosition(hR, hz, rMin, rMax float64) [3]float64 {
+	for {
+		r := -hR * math.Log((1-s.rng.Float64())*(1-s.rng.Float64()))
+		if r < rMin || r > rMax {
+			continue
+		}
+		phi := 2 * math.Pi * s.rng.Float64()
+		z := hz * s.rng.ExpFloat64()
+		if s.rng.IntN(2) == 0 {
+			z = -z
+		}
+		return [3]float64{r * math.Cos(phi), r * math.Sin(phi), z}
+	}
+}
+
+// rotation returns the unit vectors e_R and e_phi at x; e_phi points along
+// Galactic rotation (+y at the Sun, which is at x < 0).
+func rotation(x [3]float64) (eR, ePhi [3]float64) {
+	r := math.Hypot(x[0], x[1])
+	if r == 0 {
+		return [3]float64{1, 0, 0}, [3]float64{0, 1, 0}
+	}
+	return [3]float64{x[0] / r, x[1] / r, 0}, [3]float64{x[1] / r, -x[0] / r, 0}
+}
+
+func (s *sampler) diskStar(p diskParams) *star {
+	x := s.diskPosition(p.scaleLenKpc, p.scaleHeightKpc, 0.2, 25)
+	return &star{pop: p.pop, origin: OriginDisk, flightMyr: math.NaN(), posKpc: x, velKms: s.diskVelocity(p, x),
+		absMag: clamp(p.absMagMean+p.absMagSD*s.rng.NormFloat64(), -3, 12),
+		color:  p.colorMean + p.colorSD*s.rng.NormFloat64()}
+}
+
+// diskVelocity draws a velocity at x: rotation at the model's circular
+// speed less the asymmetric drift, plus Gaussian dispersions in (R, phi, z).
+func (s *sampler) diskVelocity(p diskParams, x [3]float64) [3]float64 {
+	rc := math.Hypot(x[0], x[1])
+	eR, ePhi := rotation(x)
+	vPhi := s.g.vcirc(rc) - p.driftKms + p.sigPhi*s.rng.NormFloat64()
+	vR := p.sigR * s.rng.NormFloat64()
+	vZ := p.sigZ * s.rng.NormFloat64()
+	var v [3]float64
+	for i := range 3 {
+		v[i] = vR*eR[i] + vPhi*ePhi[i]
+	}
+	v[2] += vZ
+	return v
+}
+
+// haloRadius draws r from density ∝ r^-3.5 between rMin and rMax (kpc):
+// p(r) ∝ r^-1.5, inverted analytically.
+func (s *sampler) haloRadius(rMin, rMax float64) float64 {
+	a, b := 1/math.Sqrt(rMin), 1/math.Sqrt(rMax)
+	u := a - s.rng.Float64()*(a-b)
+	return 1 / (u * u)
+}
+
+// haloSigmaKms is the isotropic one-dimensional dispersion of the stellar
+// halo (brief: ~120 km/s; cf. Bland-Hawthorn & Gerhard 2016, ARA&A 54, 529,
+// sec. 7).
+const haloSigmaKms = 120
+
+func (s *sampler) haloStar() *star {
+	r := s.haloRadius(1, 60)
+	d := s.isotropic()
+	x := [3]float64{r * d[0], r * d[1], r * d[2]}
+	vesc := s.g.vesc(x)
+	var v [3]float64
+	for {
+		v = [3]float64{haloSigmaKms * s.rng.NormFloat64(), haloSigmaKms * s.rng.NormFloat64(), haloSigmaKms * s.rng.NormFloat64()}
+		// A bound halo holds no star above the escape speed.
+		if speed(v) < vesc {
+			break
+		}
+	}
+	m := 4.8 + 0.8*s.rng.NormFloat64() // dwarfs
+	if s.rng.Float64() < 0.3 {
+		m = 0.6 + 0.8*s.rng.NormFloat64() // giants
+	}
+	return &star{pop: PopHalo, origin: OriginHalo, flightMyr: math.NaN(), posKpc: x, velKms: v,
+		absMag: m, color: 0.75 + 0.2*s.rng.NormFloat64()}
+}
+
+// background draws one visible star of the smooth Galaxy. The mix of the
+// magnitude-limited sample is set directly: 75% thin disk, 18% thick disk,
+// 7% halo (invented, of the order seen in deep surveys).
+func (s *sampler) background() (*star, error) {
+	u := s.rng.Float64()
+	for range maxTries {
+		var st *star
+		switch {
+		case u < 0.75:
+			st = s.diskStar(thinDisk)
+		case u < 0.93:
+			st = s.diskStar(thickDisk)
+		default:
+			st = s.haloStar()
+		}
+		if s.finish(st) {
+			return st, nil
+		}
+	}
+	return nil, fmt.Errorf("scenario: background star: %w", ErrSampling)
+}
+
+// gcEjectee launches a star from r = 0.01-0.05 kpc at 700-1800 km/s in an
+// isotropic direction and integrates it for 10-250 Myr in the model.
+func (s *sampler) gcEjectee() (*star, error) {
+	for range maxTries / 100 {
+		r0 := s.uniform(0.01, 0.05)
+		d := s.isotropic()
+		x := [3]float64{r0 * d[0], r0 * d[1], r0 * d[2]}
+		v0 := s.uniform(700, 1800)
+		e := s.isotropic()
+		v := [3]float64{v0 * e[0], v0 * e[1], v0 * e[2]}
+		tf := s.uniform(10, 250)
+		st := &star{pop: PopGCEjectee, origin: OriginGalacticCentre, flightMyr: tf,
+			absMag: s.uniform(-1.5, 1.5), color: -0.15 + 0.08*s.rng.NormFloat64()}
+		st.posKpc, st.velKms = s.g.advance(x, v, tf)
+		if s.finish(st) {
+			return st, nil
+		}
+	}
+	return nil, fmt.Errorf("scenario: galactic-centre ejectee: %w", ErrSampling)
+}
+
+// diskRunaway kicks a young disk star by 200-500 km/s (isotropic) on top of
+// the local circular velocity and integrates it for 5-60 Myr.
+func (s *sampler) diskRunaway() (*star, error) {
+	for range maxTries / 100 {
+		x := s.diskPosition(2.6, 0.05, 3, 15)
+		_, ePhi := rotation(x)
+		vc := s.g.vcirc(math.Hypot(x[0], x[1]))
+		k := s.uniform(200, 500)
+		e := s.isotropic()
+		var v [3]float64
+		for i := range 3 {
+			v[i] = vc*ePhi[i] + k*e[i]
+		}
+		tf := s.uniform(5, 60)
+		st := &star{pop: PopDiskRunaway, origin: OriginDisk, flightMyr: tf,
+			absMag: s.uniform(-3, 0.5), color: -0.2 + 0.08*s.rng.NormFloat64()}
+		st.posKpc, st.velKms = s.g.advance(x, v, tf)
+		if s.finish(st) {
+			return st, nil
+		}
+	}
+	return nil, fmt.Errorf("scenario: disk runaway: %w", ErrSampling)
+}
+
+// haloFast draws a halo star at 3-60 kpc moving at 0.6-0.95 of the local
+// escape speed in an isotropic direction: bound, but fast.
+func (s *sampler) haloFast(fMin, fMax float64) (*star, error) {
+	for range maxTries / 10 {
+		r := s.haloRadius(3, 60)
+		d := s.isotropic()
+		x := [3]float64{r * d[0], r * d[1], r * d[2]}
+		sp := s.uniform(fMin, fMax) * s.g.vesc(x)
+		e := s.isotropic()
+		st := &star{pop: PopHaloFast, origin: OriginHalo, flightMyr: math.NaN(), posKpc: x,
+			velKms: [3]float64{sp * e[0], sp * e[1], sp * e[2]},
+			absMag: s.uniform(-0.5, 1.5), color: 0.7 + 0.2*s.rng.NormFloat64()}
+		if s.finish(st) {
+			return st, nil
+		}
+	}
+	return nil, fmt.Errorf("scenario: fast halo star: %w", ErrSampling)
+}
+
+// trapHost draws a visible thick-disk or halo star inside the
+// spectroscopic footprint with distance in [dMin, dMax] kpc.
+func (s *sampler) trapHost(dMin, dMax float64) (*star, error) {
+	for range maxTries {
+		var st *star
+		if s.rng.IntN(2) == 0 {
+			st = s.diskStar(thickDisk)
+		} else {
+			st = s.haloStar()
+		}
+		if s.finish(st) && st.inFootprint && st.distKpc >= dMin && st.distKpc <= dMax {
+			return st, nil
+		}
+	}
+	return nil, fmt.Errorf("scenario: trap host: %w", ErrSampling)
+}
+
+// highPMStar draws a nearby star in the footprint whose total proper
+// motion is 300-3000 mas/yr (log-uniform). Its velocity comes from the
+// thick disk or halo at the Sun; the distance then follows from the
+// heliocentric tangential speed: mu = v_t / (4.74 d).
+func (s *sampler) highPMStar() (*star, error) {
+	sunPos, _ := s.g.sun.ToGalactocentric(frames.NewBasis(0, 0), 0, 0, 0, 0)
+	for range maxTries {
+		var st *star
+		if s.rng.IntN(2) == 0 {
+			st = s.diskStar(thickDisk)
+		} else {
+			st = s.haloStar()
+		}
+		// Velocities are those of the population at the Sun; nearby
+		// dwarfs.
+		if st.pop == PopHalo {
+			st.absMag = s.uniform(5, 10)
+		} else {
+			st.velKms = s.diskVelocity(thickDisk, sunPos)
+			st.absMag = s.uniform(4, 11)
+		}
+		if speed(st.velKms) >= s.g.vesc(sunPos) {
+			continue
+		}
+		ra := 2 * math.Pi * s.rng.Float64()
+		dec := math.Asin(2*s.rng.Float64() - 1)
+		if !inFootprint(ra/deg2rad, dec/deg2rad) {
+			continue
+		}
+		b := frames.NewBasis(ra, dec)
+		pos1, _ := s.g.sun.ToGalactocentric(b, 1, 0, 0, 0)
+		_, _, _, pmra1, pmdec1, _ := fromGalactocentric(s.g.sun, pos1, st.velKms)
+		mu1 := math.Hypot(pmra1, pmdec1) // mas/yr at 1 kpc
+		target := 300 * math.Pow(10, s.rng.Float64())
+		d := mu1 / target
+		if d < 0.005 || d > 0.3 {
+			continue
+		}
+		st.posKpc, _ = s.g.sun.ToGalactocentric(b, d, 0, 0, 0)
+		if !s.finish(st) || !st.inFootprint {
+			continue
+		}
+		st.trap = TrapHighPM
+		return st, nil
+	}
+	return nil, fmt.Errorf("scenario: high proper motion star: %w", ErrSampling)
+}
+
+func clamp(x, lo, hi float64) float64 { return math.Max(lo, math.Min(hi, x)) }

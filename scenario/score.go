@@ -1,0 +1,260 @@
+package scenario
+
+import (
+	"encoding/csv"
+	"errors"
+	"fmt"
+	"io"
+	"math"
+	"os"
+	"sort"
+	"strconv"
+	"strings"
+)
+
+// Verdict is what the pipeline concluded about one primary star.
+type Verdict struct{ Status, Origin string }
+
+// Status and origin words scored here (the pipeline's vocabulary).
+const (
+	StatusUnbound       = "unbound"
+	StatusNeedsRV       = "needs-rv"
+	StatusRejected      = "rejected"
+	OriginWordGalCentre = "galactic-centre"
+	TargetCompleteness  = 0.95
+	TargetContamination = 0.02
+)
+
+// Figures are the recovery figures of a run against the truth. A ratio
+// whose denominator is zero is NaN.
+type Figures struct {
+	// Completeness: injected (gc_ejectee, disk_runaway, halo_fast), truly
+	// unbound, adequate-data, non-artefact stars ending "unbound", over all
+	// such stars.
+	Completeness             float64
+	NCompletenessDenominator int
+	NCompletenessHits        int
+	// Contamination: stars ending "unbound" that are truly bound or
+	// artefacts (or absent from the truth), over all stars ending
+	// "unbound".
+	Contamination  float64
+	NUnbound       int
+	NContaminating int
+	// OriginAccuracy: Galactic Centre ejectees ending "unbound" whose
+	// origin is "galactic-centre", over the ejectees ending "unbound".
+	OriginAccuracy     float64
+	NOriginDenominator int
+	// TrapsUnbound counts artefacts ending "unbound", per trap kind.
+	TrapsUnbound map[string]int
+	// HighPMWithRV: high proper-motion stars with a usable spectrum in the
+	// truth whose status is neither "needs-rv" nor missing (their spectrum
+	// was matched after epoch propagation), over all such stars.
+	HighPMWithRV float64
+	NHighPM      int
+	// BadRowsKept counts primary rows with a bad value that still carry a
+	// status other than "rejected"; they should have been quarantined.
+	BadRowsKept int
+	NBadRows    int
+	// Missing counts truth rows other than bad rows without a verdict;
+	// Unknown counts verdicts for ids absent from the truth.
+	Missing, Unknown int
+}
+
+// MeetsTargets reports whether completeness >= 95% and contamination <= 2%.
+func (f Figures) MeetsTargets() bool {
+	return f.Completeness >= TargetCompleteness && f.Contamination <= TargetContamination
+}
+
+// String is a short human-readable summary.
+func (f Figures) String() string {
+	var b strings.Builder
+	fmt.Fprintf(&b, "completeness %.1f%% (%d/%d), contamination %.1f%% (%d/%d), origin accuracy %.1f%% of %d",
+		100*f.Completeness, f.NCompletenessHits, f.NCompletenessDenominator,
+		100*f.Contamination, f.NContaminating, f.NUnbound, 100*f.OriginAccuracy, f.NOriginDenominator)
+	fmt.Fprintf(&b, "; high-pm with rv %.1f%% of %d; bad rows kept %d/%d; missing %d, unknown %d",
+		100*f.HighPMWithRV, f.NHighPM, f.BadRowsKept, f.NBadRows, f.Missing, f.Unknown)
+	if len(f.TrapsUnbound) > 0 {
+		keys := make([]string, 0, len(f.TrapsUnbound))
+		for k := range f.TrapsUnbound {
+			keys = append(keys, k)
+		}
+		sort.Strings(keys)
+		b.WriteString("; traps ending unbound:")
+		for _, k := range keys {
+			fmt.Fprintf(&b, " %s=%d", k, f.TrapsUnbound[k])
+		}
+	}
+	return b.String()
+}
+
+func ratio(n, d int) float64 {
+	if d == 0 {
+		return math.NaN()
+	}
+	return float64(n) / float64(d)
+}
+
+// Score compares verdicts (keyed by primary star id) with the truth.
+func Score(truth []TruthRow, verdicts map[string]Verdict) Figures {
+	f := Figures{TrapsUnbound: map[string]int{}}
+	known := make(map[string]bool, len(truth))
+	var hpmHits, originHits int
+	for _, t := range truth {
+		known[t.StarID] = true
+		v, ok := verdicts[t.StarID]
+		unbound := ok && v.Status == StatusUnbound
+		if t.Trap == TrapBadValue {
+			f.NBadRows++
+			if ok && v.Status != StatusRejected {
+				f.BadRowsKept++
+			}
+		} else if !ok {
+			f.Missing++
+		}
+		if Injected(t.Population) && t.TrulyUnbound && t.AdequateData && !t.Artefact {
+			f.NCompletenessDenominator++
+			if unbound {
+				f.NCompletenessHits++
+			}
+		}
+		if unbound {
+			f.NUnbound++
+			if !t.TrulyUnbound || t.Artefact {
+				f.NContaminating++
+			}
+			if t.Artefact {
+				f.TrapsUnbound[t.Trap]++
+			}
+			if t.Population == PopGCEjectee {
+				f.NOriginDenominator++
+				if v.Origin == OriginWordGalCentre {
+					originHits++
+				}
+			}
+		}
+		if t.Trap == TrapHighPM && t.HasSpectrum {
+			f.NHighPM++
+			if ok && v.Status != StatusNeedsRV {
+				hpmHits++
+			}
+		}
+	}
+	for id, v := range verdicts {
+		if !known[id] {
+			f.Unknown++
+			if v.Status == StatusUnbound {
+				f.NUnbound++
+				f.NContaminating++
+			}
+		}
+	}
+	f.Completeness = ratio(f.NCompletenessHits, f.NCompletenessDenominator)
+	f.Contamination = ratio(f.NContaminating, f.NUnbound)
+	f.OriginAccuracy = ratio(originHits, f.NOriginDenominator)
+	f.HighPMWithRV = ratio(hpmHits, f.NHighPM)
+	return f
+}
+
+// TruthError is a problem in a truth file, with its position.
+type TruthError struct {
+	File         string
+	Line, Column int
+	Reason       string
+}
+
+func (e *TruthError) Error() string {
+	return fmt.Sprintf("%s:%d:%d: %s", e.File, e.Line, e.Column, e.Reason)
+}
+
+func (e *TruthError) Unwrap() error { return ErrTruth }
+
+// LoadTruth reads a truth.csv written by Generate or Update.
+func LoadTruth(path string) ([]TruthRow, error) {
+	f, err := os.Open(path)
+	if err != nil {
+		return nil, fmt.Errorf("scenario: %w", err)
+	}
+	defer f.Close()
+	return readTruth(f, path)
+}
+
+func readTruth(r io.Reader, name string) ([]TruthRow, error) {
+	cr := csv.NewReader(r)
+	cr.FieldsPerRecord = -1
+	header, err := cr.Read()
+	if err != nil {
+		return nil, &TruthError{File: name, Line: 1, Column: 1, Reason: "cannot read header: " + err.Error()}
+	}
+	col := make(map[string]int, len(header))
+	for i, h := range header {
+		col[h] = i
+	}
+	for i, h := range truthHeader {
+		if _, ok := col[h]; !ok {
+			return nil, &TruthError{File: name, Line: 1, Column: i + 1, Reason: fmt.Sprintf("missing column %q", h)}
+		}
+	}
+	var rows []TruthRow
+	for {
+		rec, err := cr.Read()
+		if errors.Is(err, io.EOF) {
+			break
+		}
+		if err != nil {
+			var pe *csv.ParseError
+			if errors.As(err, &pe) {
+				return nil, &TruthError{File: name, Line: pe.Line, Column: pe.Column, Reason: pe.Err.Error()}
+			}
+			return nil, fmt.Errorf("scenario: %s: %w", name, err)
+		}
+		line, _ := cr.FieldPos(0)
+		if len(rec) != len(header) {
+			return nil, &TruthError{File: name, Line: line, Column: min(len(rec), len(header)) + 1,
+				Reason: fmt.Sprintf("row has %d fields, header has %d", len(rec), len(header))}
+		}
+		var perr *TruthError
+		get := func(h string) (string, int) { i := col[h]; return rec[i], i }
+		num := func(h string) float64 {
+			s, i := get(h)
+			if s == "" || perr != nil {
+				return math.NaN()
+			}
+			v, err := strconv.ParseFloat(s, 64)
+			if err != nil {
+				l, c := cr.FieldPos(i)
+				perr = &TruthError{File: name, Line: l, Column: c, Reason: fmt.Sprintf("%s: not a number: %q", h, s)}
+			}
+			return v
+		}
+		flag := func(h string) bool {
+			s, i := get(h)
+			if perr != nil {
+				return false
+			}
+			v, err := strconv.ParseBool(s)
+			if err != nil {
+				l, c := cr.FieldPos(i)
+				perr = &TruthError{File: name, Line: l, Column: c, Reason: fmt.Sprintf("%s: not true/false: %q", h, s)}
+			}
+			return v
+		}
+		str := func(h string) string { s, _ := get(h); return s }
+		t := TruthRow{
+			StarID: str("star_id"), Population: str("population"), TrulyUnbound: flag("truly_unbound"),
+			AdequateData: flag("adequate_data"), Trap: str("trap"), Artefact: flag("artefact"),
+			OriginTrue: str("origin_true"), FlightTimeMyrTrue: num("flight_time_myr_true"),
+			VGCTrueKms: num("v_gc_true_kms"), VEscTrueKms: num("v_esc_true_kms"), DistTrueKpc: num("dist_true_kpc"),
+			PosKpc:      [3]float64{num("x_kpc"), num("y_kpc"), num("z_kpc")},
+			VelKms:      [3]float64{num("vx_kms"), num("vy_kms"), num("vz_kms")},
+			InFootprint: flag("in_footprint"), HasSpectrum: flag("has_spectrum"), SpecID: str("spec_id"),
+		}
+		if perr != nil {
+			return nil, perr
+		}
+		if t.StarID == "" {
+			return nil, &TruthError{File: name, Line: line, Column: col["star_id"] + 1, Reason: "empty star_id"}
+		}
+		rows = append(rows, t)
+	}
+	return rows, nil
+}
