@@ -48,6 +48,44 @@ type Expr struct {
 	vars          []Var
 	usesIsMissing bool
 	canonical     string
+	simple        simpleTest
+}
+
+// simpleTest is set when the whole expression is is_missing(f) or
+// !is_missing(f) for a canonical field f, so evaluators can skip the VM.
+type simpleTest struct {
+	ok      bool
+	field   catalog.Field
+	negated bool
+}
+
+// MissingTest reports whether the expression is exactly is_missing(f)
+// (negated false) or !is_missing(f) (negated true) for a field f.
+func (e *Expr) MissingTest() (f catalog.Field, negated, ok bool) {
+	return e.simple.field, e.simple.negated, e.simple.ok
+}
+
+func findSimple(n ast.Node, vars map[string]Var) simpleTest {
+	neg := false
+	if u, ok := n.(*ast.UnaryNode); ok && (u.Operator == "!" || u.Operator == "not") {
+		neg, n = true, u.Node
+	}
+	c, ok := n.(*ast.CallNode)
+	if !ok || len(c.Arguments) != 1 {
+		return simpleTest{}
+	}
+	if id, ok := c.Callee.(*ast.IdentifierNode); !ok || id.Value != IsMissingName {
+		return simpleTest{}
+	}
+	arg, ok := c.Arguments[0].(*ast.IdentifierNode)
+	if !ok {
+		return simpleTest{}
+	}
+	v, ok := vars[arg.Value]
+	if !ok || v.Kind != VarField {
+		return simpleTest{}
+	}
+	return simpleTest{ok: true, field: v.Field, negated: neg}
 }
 
 // Program is the compiled program; run it with a map holding Vars().
@@ -94,7 +132,7 @@ type exprEnv struct {
 }
 
 func newExprEnv(catalogs []string) *exprEnv {
-	e := &exprEnv{types: map[string]any{}, vars: map[string]Var{}}
+	e := &exprEnv{types: map[string]any{IsMissingName: IsMissing}, vars: map[string]Var{}}
 	add := func(v Var) {
 		if v.IsBool() {
 			e.types[v.Name] = false
@@ -120,21 +158,18 @@ func newExprEnv(catalogs []string) *exprEnv {
 	return e
 }
 
-func isMissing(params ...any) (any, error) {
-	x, ok := params[0].(float64)
-	if !ok {
-		return nil, errors.New("is_missing wants a number")
-	}
-	return math.IsNaN(x), nil
-}
+// IsMissing is the is_missing function of the expression environment. It
+// lives in the environment (not as an expr.Function) so that the VM calls it
+// through its typed fast path without boxing arguments; evaluators put it in
+// their environment map under IsMissingName.
+func IsMissing(x float64) bool { return math.IsNaN(x) }
+
+// IsMissingName is the expression name of IsMissing.
+const IsMissingName = "is_missing"
 
 // compile type-checks src against the environment; it must yield a bool.
 func (e *exprEnv) compile(src string) (*Expr, *file.Error, error) {
-	prog, err := expr.Compile(src,
-		expr.Env(e.types),
-		expr.AsBool(),
-		expr.Function("is_missing", isMissing, new(func(float64) bool)),
-	)
+	prog, err := expr.Compile(src, expr.Env(e.types), expr.AsBool())
 	if err != nil {
 		var fe *file.Error
 		if errors.As(err, &fe) {
@@ -154,6 +189,7 @@ func (e *exprEnv) compile(src string) (*Expr, *file.Error, error) {
 	sort.Slice(out.vars, func(i, j int) bool { return out.vars[i].Name < out.vars[j].Name })
 	out.usesIsMissing = c.isMissing
 	out.canonical = tree.Node.String()
+	out.simple = findSimple(tree.Node, e.vars)
 	return out, nil, nil
 }
 
@@ -172,7 +208,7 @@ func (c *collector) Visit(n *ast.Node) {
 			c.vars = append(c.vars, v)
 		}
 	case *ast.CallNode:
-		if id, ok := x.Callee.(*ast.IdentifierNode); ok && id.Value == "is_missing" {
+		if id, ok := x.Callee.(*ast.IdentifierNode); ok && id.Value == IsMissingName {
 			c.isMissing = true
 		}
 	}

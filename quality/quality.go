@@ -1,0 +1,552 @@
+package quality
+
+import (
+	"context"
+	"math"
+	"runtime"
+	"strconv"
+	"sync"
+	"sync/atomic"
+
+	"github.com/expr-lang/expr/vm"
+
+	"starvet/crossmatch/catalog"
+	"starvet/rules"
+)
+
+// Star qualities and rule results.
+const (
+	Pass   = "pass"
+	Flag   = "flag"
+	Reject = "reject"
+
+	ResultPass    = "pass"
+	ResultFail    = "fail"
+	ResultSkipped = "skipped"
+)
+
+// MatchInfo is a star's best counterpart in one secondary catalog.
+type MatchInfo struct {
+	Matched    bool
+	SepArcsec  float64
+	Prob       float64 // posterior match probability
+	Candidates int
+	Ambiguous  bool
+}
+
+// Star is what the rules see of one primary source.
+type Star struct {
+	ID       string
+	Values   [catalog.NumFields]float64 // merged canonical values, NaN when missing
+	Matches  []MatchInfo                // in RuleSet.Catalogs order; a short slice means unmatched
+	DupCount int                        // other primary sources the self-match paired with this one
+}
+
+// Context carries campaign settings a rule set needs at evaluation.
+type Context struct {
+	// ParallaxZeroPointMas is subtracted from every parallax before its
+	// significance is computed: (parallax - zero point)/parallax_err.
+	ParallaxZeroPointMas float64
+}
+
+// Outcome is one rule's verdict on one star.
+type Outcome struct {
+	RuleID    string
+	Severity  string // reject | flag
+	Result    string // pass | fail | skipped
+	Value     float64
+	Threshold string
+	Message   string
+}
+
+// Assessment is a star's verdict. Reuse one per goroutine with Assess to
+// avoid allocation; Outcomes, FailedRules and the message text are
+// overwritten by the next call.
+type Assessment struct {
+	Quality     string
+	Outcomes    []Outcome // in RuleSet.Rules order (sorted by rule id)
+	FailedRules []string  // ids of failed rules, in the same order
+	buf         []byte
+	scratch     *scratch
+}
+
+func newScratch() *scratch {
+	return &scratch{env: map[string]any{rules.IsMissingName: rules.IsMissing}}
+}
+
+type scratch struct {
+	env map[string]any
+	vm  vm.VM
+}
+
+// Evaluator applies one rule set; it is read-only after construction and
+// safe for concurrent use.
+type Evaluator struct {
+	rs         *rules.RuleSet
+	ctx        Context
+	thresholds []string
+	texts      []limitTexts
+	hasExpr    bool
+}
+
+// limitTexts are a rule's numbers already formatted for messages.
+type limitTexts struct{ limit, minProb, maxSep string }
+
+// NewEvaluator prepares rs for evaluation.
+func NewEvaluator(rs *rules.RuleSet, ctx Context) *Evaluator {
+	e := &Evaluator{rs: rs, ctx: ctx, thresholds: make([]string, len(rs.Rules)), texts: make([]limitTexts, len(rs.Rules))}
+	for i, r := range rs.Rules {
+		e.thresholds[i] = r.Threshold()
+		e.texts[i] = limitTexts{fmtNum(r.Limit), fmtNum(r.MinProb), fmtNum(r.MaxSepArcsec)}
+		if r.Expr != nil || r.When != nil {
+			e.hasExpr = true
+		}
+	}
+	return e
+}
+
+// RuleSet returns the evaluator's rule set.
+func (e *Evaluator) RuleSet() *rules.RuleSet { return e.rs }
+
+// Assess evaluates every rule on s into out.
+func (e *Evaluator) Assess(s *Star, out *Assessment) {
+	n := len(e.rs.Rules)
+	if cap(out.Outcomes) < n {
+		out.Outcomes = make([]Outcome, n)
+	}
+	out.Outcomes = out.Outcomes[:n]
+	out.FailedRules = out.FailedRules[:0]
+	out.buf = out.buf[:0]
+	if e.hasExpr && out.scratch == nil {
+		out.scratch = newScratch()
+	}
+	// Messages are written into one buffer and cut out of one string, so a
+	// star costs one allocation for all its messages.
+	var ends [2 * 64]int
+	msgSpan := ends[:0]
+	if 2*n > len(ends) {
+		msgSpan = make([]int, 0, 2*n)
+	}
+	worst := 0 // 0 pass, 1 flag, 2 reject
+	for i, r := range e.rs.Rules {
+		o := &out.Outcomes[i]
+		o.RuleID = r.ID
+		o.Severity = string(r.Severity)
+		o.Threshold = e.thresholds[i]
+		o.Value = math.NaN()
+		start := len(out.buf)
+		o.Result = e.eval(r, &e.texts[i], s, o, out)
+		msgSpan = append(msgSpan, start, len(out.buf))
+		if o.Result == ResultFail {
+			out.FailedRules = append(out.FailedRules, r.ID)
+			if r.Severity == rules.Reject {
+				worst = 2
+			} else if worst < 1 {
+				worst = 1
+			}
+		}
+	}
+	text := string(out.buf)
+	for i := range out.Outcomes {
+		out.Outcomes[i].Message = text[msgSpan[2*i]:msgSpan[2*i+1]]
+	}
+	out.Quality = [...]string{Pass, Flag, Reject}[worst]
+}
+
+// AssessAll assesses stars on workers goroutines (<= 0: GOMAXPROCS). It
+// checks ctx between batches; when ctx is done it stops early and the
+// entries it did not reach have an empty Quality, so callers check
+// ctx.Err().
+func (e *Evaluator) AssessAll(ctx context.Context, stars []Star, workers int) []Assessment {
+	out := make([]Assessment, len(stars))
+	n := len(e.rs.Rules)
+	backing := make([]Outcome, n*len(stars))
+	for i := range out {
+		out[i].Outcomes = backing[i*n : i*n : (i+1)*n]
+	}
+	e.each(ctx, len(stars), workers, func(i int, w *Assessment) {
+		// Borrow the worker's scratch space so results keep none of it.
+		if e.hasExpr && w.scratch == nil {
+			w.scratch = newScratch()
+		}
+		o := &out[i]
+		o.scratch, o.buf = w.scratch, w.buf
+		e.Assess(&stars[i], o)
+		w.buf = o.buf
+		o.scratch, o.buf = nil, nil
+	})
+	return out
+}
+
+// Each assesses stars on workers goroutines and hands each result to fn,
+// which may be called concurrently and must not keep a (reused)
+// Assessment. It returns ctx.Err() if it stopped early.
+func (e *Evaluator) Each(ctx context.Context, stars []Star, workers int, fn func(i int, a *Assessment)) error {
+	e.each(ctx, len(stars), workers, func(i int, a *Assessment) {
+		e.Assess(&stars[i], a)
+		fn(i, a)
+	})
+	return ctx.Err()
+}
+
+const batch = 2048
+
+func (e *Evaluator) each(ctx context.Context, n, workers int, do func(i int, a *Assessment)) {
+	if workers <= 0 {
+		workers = runtime.GOMAXPROCS(0)
+	}
+	var next atomic.Int64
+	var wg sync.WaitGroup
+	for w := 0; w < workers; w++ {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			var a Assessment
+			for ctx.Err() == nil {
+				lo := int(next.Add(batch)) - batch
+				if lo >= n {
+					return
+				}
+				hi := min(lo+batch, n)
+				for i := lo; i < hi; i++ {
+					do(i, &a)
+				}
+			}
+		}()
+	}
+	wg.Wait()
+}
+
+func (e *Evaluator) eval(r *rules.Rule, t *limitTexts, s *Star, o *Outcome, a *Assessment) string {
+	if r.When != nil {
+		ok, missing := e.run(r.When, s, a)
+		if missing != "" {
+			a.buf = append(a.buf, "skipped: precondition needs "...)
+			a.buf = append(a.buf, missing...)
+			a.buf = append(a.buf, ", which is missing"...)
+			return ResultSkipped
+		}
+		if !ok {
+			a.buf = append(a.buf, "skipped: precondition "...)
+			a.buf = append(a.buf, r.When.Source...)
+			a.buf = append(a.buf, " is false"...)
+			return ResultSkipped
+		}
+	}
+	if r.Expr != nil {
+		ok, missing := e.run(r.Expr, s, a)
+		switch {
+		case missing != "":
+			a.buf = append(a.buf, "skipped: "...)
+			a.buf = append(a.buf, missing...)
+			a.buf = append(a.buf, " missing"...)
+			return ResultSkipped
+		case ok:
+			a.buf = append(a.buf, "true: "...)
+			a.buf = append(a.buf, r.Expr.Source...)
+			return ResultPass
+		default:
+			a.buf = append(a.buf, "false: "...)
+			a.buf = append(a.buf, r.Expr.Source...)
+			return ResultFail
+		}
+	}
+	switch r.Check {
+	case rules.ParallaxSignificance:
+		p, pe := s.Values[catalog.Parallax], s.Values[catalog.ParallaxErr]
+		switch {
+		case math.IsNaN(p):
+			return skipMissing(a, catalog.Parallax)
+		case math.IsNaN(pe):
+			return skipMissing(a, catalog.ParallaxErr)
+		case !(pe > 0):
+			a.buf = append(a.buf, "skipped: parallax_err is not positive"...)
+			return ResultSkipped
+		}
+		return compare(a, o, "parallax_over_error", (p-e.ctx.ParallaxZeroPointMas)/pe, r, t)
+	case rules.Duplicate:
+		return e.duplicate(s, o, a)
+	case rules.MatchQuality:
+		return e.match(r, t, s, o, a)
+	case rules.RequiredFields:
+		missing := 0
+		for _, f := range r.Fields {
+			if math.IsNaN(s.Values[f]) {
+				if missing == 0 {
+					a.buf = append(a.buf, "missing: "...)
+				} else {
+					a.buf = append(a.buf, ", "...)
+				}
+				a.buf = append(a.buf, catalog.Fields[f].Name...)
+				missing++
+			}
+		}
+		o.Value = float64(missing)
+		if missing > 0 {
+			return ResultFail
+		}
+		a.buf = append(a.buf, "all present"...)
+		return ResultPass
+	}
+	v := s.Values[r.Field]
+	if math.IsNaN(v) {
+		return skipMissing(a, r.Field)
+	}
+	return compare(a, o, catalog.Fields[r.Field].Name, v, r, t)
+}
+
+func skipMissing(a *Assessment, f catalog.Field) string {
+	a.buf = append(a.buf, "skipped: "...)
+	a.buf = append(a.buf, catalog.Fields[f].Name...)
+	a.buf = append(a.buf, " missing"...)
+	return ResultSkipped
+}
+
+// compare tests v against the rule's limit and writes e.g.
+// "fit_residual 2.31 > 1.4".
+func compare(a *Assessment, o *Outcome, name string, v float64, r *rules.Rule, t *limitTexts) string {
+	o.Value = v
+	pass := v >= r.Limit
+	op, bad := " >= ", " < "
+	if r.Dir == rules.Max {
+		pass = v <= r.Limit
+		op, bad = " <= ", " > "
+	}
+	a.buf = append(a.buf, name...)
+	a.buf = append(a.buf, ' ')
+	a.buf = appendNum(a.buf, v, r.Limit)
+	if pass {
+		a.buf = append(a.buf, op...)
+	} else {
+		a.buf = append(a.buf, bad...)
+	}
+	a.buf = append(a.buf, t.limit...)
+	if pass {
+		return ResultPass
+	}
+	return ResultFail
+}
+
+// duplicate fails on the catalog's own flag (== 1) or on any self-match
+// duplicate. The self-match count is always known, so a missing catalog
+// flag alone does not skip the rule; the message says it was missing.
+func (e *Evaluator) duplicate(s *Star, o *Outcome, a *Assessment) string {
+	flag := s.Values[catalog.DuplicateFlag]
+	o.Value = float64(s.DupCount)
+	fail := flag == 1 || s.DupCount > 0
+	switch {
+	case math.IsNaN(flag):
+		a.buf = append(a.buf, "duplicate_flag missing, "...)
+	default:
+		a.buf = append(a.buf, "duplicate_flag "...)
+		a.buf = strconv.AppendFloat(a.buf, flag, 'g', -1, 64)
+		a.buf = append(a.buf, ", "...)
+	}
+	a.buf = append(a.buf, "dup_count "...)
+	a.buf = strconv.AppendInt(a.buf, int64(s.DupCount), 10)
+	if fail {
+		return ResultFail
+	}
+	return ResultPass
+}
+
+// match tests every counterpart the star has in the rule's catalogs. A
+// catalog without a counterpart is not tested; the rule is skipped when
+// none was tested, fails when any counterpart fails, and is skipped when a
+// counterpart lacks a needed value and none failed. Value is the lowest
+// posterior among the counterparts tested.
+func (e *Evaluator) match(r *rules.Rule, t *limitTexts, s *Star, o *Outcome, a *Assessment) string {
+	tested, failed, unknown := 0, 0, 0
+	lowest := math.NaN()
+	for _, ci := range r.CatalogIdx {
+		if ci >= len(s.Matches) || !s.Matches[ci].Matched {
+			continue
+		}
+		m := &s.Matches[ci]
+		tested++
+		if !(m.Prob >= lowest) {
+			lowest = m.Prob
+		}
+		if tested > 1 {
+			a.buf = append(a.buf, "; "...)
+		}
+		a.buf = append(a.buf, e.rs.Catalogs[ci]...)
+		a.buf = append(a.buf, ": "...)
+		bad, miss := false, false
+		if !math.IsNaN(r.MinProb) {
+			a.buf = append(a.buf, "prob "...)
+			switch {
+			case math.IsNaN(m.Prob):
+				a.buf = append(a.buf, "missing"...)
+				miss = true
+			case m.Prob < r.MinProb:
+				a.buf = appendNum(a.buf, m.Prob, r.MinProb)
+				a.buf = append(a.buf, " < "...)
+				a.buf = append(a.buf, t.minProb...)
+				bad = true
+			default:
+				a.buf = appendNum(a.buf, m.Prob, r.MinProb)
+			}
+		}
+		if !math.IsNaN(r.MaxSepArcsec) {
+			if !math.IsNaN(r.MinProb) {
+				a.buf = append(a.buf, ", "...)
+			}
+			a.buf = append(a.buf, "sep "...)
+			switch {
+			case math.IsNaN(m.SepArcsec):
+				a.buf = append(a.buf, "missing"...)
+				miss = true
+			case m.SepArcsec > r.MaxSepArcsec:
+				a.buf = appendNum(a.buf, m.SepArcsec, r.MaxSepArcsec)
+				a.buf = append(a.buf, " > "...)
+				a.buf = append(a.buf, t.maxSep...)
+				bad = true
+			default:
+				a.buf = appendNum(a.buf, m.SepArcsec, r.MaxSepArcsec)
+			}
+			a.buf = append(a.buf, " arcsec"...)
+		}
+		if m.Ambiguous && !r.AllowAmbiguous {
+			a.buf = append(a.buf, ", ambiguous ("...)
+			a.buf = strconv.AppendInt(a.buf, int64(m.Candidates), 10)
+			a.buf = append(a.buf, " candidates)"...)
+			bad = true
+		}
+		switch {
+		case bad:
+			failed++
+		case miss:
+			unknown++
+		}
+	}
+	o.Value = lowest
+	switch {
+	case tested == 0:
+		a.buf = append(a.buf, "skipped: no counterpart"...)
+		return ResultSkipped
+	case failed > 0:
+		return ResultFail
+	case unknown > 0:
+		a.buf = append(a.buf, " (skipped: a value is missing)"...)
+		return ResultSkipped
+	}
+	return ResultPass
+}
+
+// run evaluates a compiled expression. When the expression does not call
+// is_missing and one of its float inputs is NaN, it is not run and the
+// input's name is returned instead.
+func (e *Evaluator) run(x *rules.Expr, s *Star, a *Assessment) (bool, string) {
+	if f, neg, ok := x.MissingTest(); ok {
+		return math.IsNaN(s.Values[f]) != neg, ""
+	}
+	env := a.scratch.env
+	for _, v := range x.Vars() {
+		var val any
+		switch v.Kind {
+		case rules.VarField:
+			f := s.Values[v.Field]
+			if math.IsNaN(f) && !x.UsesIsMissing() {
+				return false, v.Name
+			}
+			val = f
+		case rules.VarMatched, rules.VarAmbiguous:
+			m := matchOf(s, v.Catalog)
+			if v.Kind == rules.VarMatched {
+				val = m.Matched
+			} else {
+				val = m.Matched && m.Ambiguous
+			}
+		default:
+			f := e.derived(v, s)
+			if math.IsNaN(f) && !x.UsesIsMissing() {
+				return false, v.Name
+			}
+			val = f
+		}
+		env[v.Name] = val
+	}
+	res, err := a.scratch.vm.Run(x.Program(), env)
+	if err != nil {
+		// Type-checked at load, so this is a programmer error.
+		panic("quality: expression " + strconv.Quote(x.Source) + ": " + err.Error())
+	}
+	return res.(bool), ""
+}
+
+func matchOf(s *Star, ci int) MatchInfo {
+	if ci < len(s.Matches) {
+		return s.Matches[ci]
+	}
+	return MatchInfo{}
+}
+
+func (e *Evaluator) derived(v rules.Var, s *Star) float64 {
+	switch v.Kind {
+	case rules.VarParallaxOverError:
+		pe := s.Values[catalog.ParallaxErr]
+		if !(pe > 0) {
+			return math.NaN()
+		}
+		return (s.Values[catalog.Parallax] - e.ctx.ParallaxZeroPointMas) / pe
+	case rules.VarPMTotal:
+		return math.Hypot(s.Values[catalog.PMRA], s.Values[catalog.PMDec])
+	case rules.VarDupCount:
+		return float64(s.DupCount)
+	case rules.VarMatchProb, rules.VarSepArcsec, rules.VarCandidates:
+		m := matchOf(s, v.Catalog)
+		if !m.Matched {
+			if v.Kind == rules.VarCandidates {
+				return 0
+			}
+			return math.NaN()
+		}
+		switch v.Kind {
+		case rules.VarMatchProb:
+			return m.Prob
+		case rules.VarSepArcsec:
+			return m.SepArcsec
+		}
+		return float64(m.Candidates)
+	}
+	panic("quality: unknown variable kind")
+}
+
+func fmtNum(x float64) string {
+	if math.IsNaN(x) {
+		return ""
+	}
+	return strconv.FormatFloat(x, 'g', -1, 64)
+}
+
+// appendNum writes v rounded to 4 decimals (trailing zeros dropped), which
+// is cheap; it falls back to the shortest exact form when v is tiny, huge,
+// or would print the same as a different limit, so a message never reads
+// "1.4 > 1.4".
+func appendNum(b []byte, v, limit float64) []byte {
+	av := math.Abs(v)
+	if !(av >= 0.01 && av < 1e9) && v != 0 {
+		return strconv.AppendFloat(b, v, 'g', -1, 64)
+	}
+	scaled := math.Round(av * 1e4)
+	if v != limit && !math.IsNaN(limit) && scaled == math.Round(math.Abs(limit)*1e4) && (v < 0) == (limit < 0) {
+		return strconv.AppendFloat(b, v, 'g', -1, 64)
+	}
+	if v < 0 {
+		b = append(b, '-')
+	}
+	u := uint64(scaled)
+	b = strconv.AppendUint(b, u/10000, 10)
+	frac := u % 10000
+	if frac == 0 {
+		return b
+	}
+	b = append(b, '.')
+	digits := [4]byte{byte('0' + frac/1000), byte('0' + frac/100%10), byte('0' + frac/10%10), byte('0' + frac%10)}
+	n := 4
+	for digits[n-1] == '0' {
+		n--
+	}
+	return append(b, digits[:n]...)
+}
