@@ -43,12 +43,12 @@ func TestDefaultLoads(t *testing.T) {
 		limit float64
 		dir   Direction
 	}{
-		{"fit-residual", 1.4, Max},         // Lindegren et al. 2018, technical note LL-124
-		{"parallax-significance", 5, Min},  // common practice
-		{"excess-noise", 2, Max},           // from memory
-		{"visibility-periods", 8, Min},     // from memory
-		{"rv-precision", 20, Max},          // project choice
-		{"spectrum-snr", 10, Min},          // common practice
+		{"fit-residual", 1.4, Max},        // Lindegren et al. 2018, technical note LL-124
+		{"parallax-significance", 5, Min}, // common practice
+		{"excess-noise", 2, Max},          // from memory
+		{"visibility-periods", 8, Min},    // from memory
+		{"rv-precision", 20, Max},         // project choice
+		{"spectrum-snr", 10, Min},         // common practice
 	}
 	for _, c := range checks {
 		r := byID[c.id]
