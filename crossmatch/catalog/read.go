@@ -589,4 +589,3 @@ func (h *hashingReader) close() {
 		close(h.done)
 	}
 }
-

@@ -1,0 +1,557 @@
+package campaign
+
+import (
+	"fmt"
+	"math"
+	"os"
+	"path/filepath"
+	"regexp"
+	"strconv"
+	"strings"
+
+	"github.com/BurntSushi/toml"
+
+	"starvet/crossmatch/catalog"
+	"starvet/vetting/frames"
+	"starvet/vetting/potential"
+)
+
+// Campaign is one parsed campaign file with every default filled in.
+type Campaign struct {
+	File                 string // path of the campaign file as given to Load/Parse
+	Dir                  string // absolute directory of the file; relative paths start here
+	Name                 string
+	Seed                 int64
+	Ledger               string // absolute path of the SQLite ledger
+	Rules                string // "default" (embedded rule set) or an absolute path
+	ParallaxZeroPointMas float64
+	NullMarkers          []string
+	Match                Match
+	Catalogs             []CatalogSpec
+	Galaxy               Galaxy
+	Potential            Potential
+	Kinematics           Kinematics
+}
+
+// Match holds the cross-match settings.
+type Match struct {
+	RadiusArcsec          float64
+	NSigma                float64 // > 0: radius = NSigma x combined positional error
+	RadiusFloorArcsec     float64 // lower limit of the NSigma radius
+	DuplicateRadiusArcsec float64
+	AmbiguityRatio        float64
+}
+
+// CatalogSpec is one [[catalog]] table. Spec.File is absolute;
+// Spec.NullMarkers is the effective list (the catalog's own or the
+// campaign's). Line is where the table starts in the campaign file.
+type CatalogSpec struct {
+	catalog.Spec
+	Line int
+}
+
+// Galaxy holds the Solar position and motion.
+type Galaxy struct {
+	SunDistanceKpc float64
+	SunHeightPc    float64
+	SunVelocityKms [3]float64 // (U, V, W), Galactocentric, km/s
+}
+
+// Sun converts Galaxy to the frames type.
+func (g Galaxy) Sun() frames.Sun {
+	return frames.Sun{DistanceKpc: g.SunDistanceKpc, HeightPc: g.SunHeightPc, VelocityKms: g.SunVelocityKms}
+}
+
+// Potential is either a built-in model name or a list of components. Both
+// empty means "the integrator's default built-in".
+type Potential struct {
+	Model           string
+	Components      []Component
+	EscapeRadiusKpc float64 // 0 = escape to infinity
+}
+
+// Component is one mass component; see potential.Component for meanings.
+type Component struct {
+	Kind     string
+	MassMsun float64
+	ScaleKpc float64
+	AKpc     float64
+	BKpc     float64
+}
+
+// Kinematics holds the distance and Monte Carlo settings.
+type Kinematics struct {
+	Distance             string // auto, inverse, edsd, catalog
+	EDSDLengthKpc        float64
+	MinParallaxOverError float64
+	Samples              int
+	UnboundP             float64
+	MarginalP            float64
+	TraceMinP            float64
+	TraceSamples         int
+	TraceMyr             float64
+	GCRadiusKpc          float64
+	DiskRadiusKpc        float64
+}
+
+// Defaults that are not taken from another package.
+const (
+	DefaultSeed                  = 1
+	DefaultLedger                = "starvet.db"
+	DefaultRules                 = "default"
+	DefaultRadiusArcsec          = 1.0
+	DefaultRadiusFloorArcsec     = 0.5 // only when n_sigma > 0
+	DefaultDuplicateRadiusArcsec = 0.4
+	DefaultAmbiguityRatio        = 3.0
+	// DefaultSecondaryPositionErrMas is the positional error assumed for a
+	// spectroscopic or photometric catalog that gives none (our choice,
+	// typical of fibre/slit positions); the astrometric catalog gets no
+	// fallback unless position_err_mas is set.
+	DefaultSecondaryPositionErrMas = 100.0
+)
+
+// DefaultKinematics returns the [kinematics] defaults (our choices).
+func DefaultKinematics() Kinematics {
+	return Kinematics{Distance: "auto", EDSDLengthKpc: 1.35, MinParallaxOverError: 5, Samples: 1000,
+		UnboundP: 0.8, MarginalP: 0.5, TraceMinP: 0.5, TraceSamples: 200, TraceMyr: 300,
+		GCRadiusKpc: 1, DiskRadiusKpc: 25}
+}
+
+// DefaultGalaxy returns the Solar parameters used when [galaxy] omits them:
+// R0 = 8.122 kpc (GRAVITY Collaboration 2018, A&A 615, L15), z_sun = 20.8
+// pc (Bennett & Bovy 2019, MNRAS 482, 1417), (U, V, W) = (12.9, 245.6,
+// 7.78) km/s (Drimmel & Poggio 2018, RNAAS 2, 210); taken from
+// frames.DefaultSun so both packages agree.
+func DefaultGalaxy() Galaxy {
+	s := frames.DefaultSun()
+	return Galaxy{SunDistanceKpc: s.DistanceKpc, SunHeightPc: s.HeightPc, SunVelocityKms: s.VelocityKms}
+}
+
+// Load reads and parses a campaign file.
+func Load(path string) (*Campaign, error) {
+	data, err := os.ReadFile(path)
+	if err != nil {
+		return nil, &Error{File: path, Msg: err.Error(), Err: fmt.Errorf("%w: %w", ErrRead, err)}
+	}
+	dir, err := filepath.Abs(filepath.Dir(path))
+	if err != nil {
+		return nil, &Error{File: path, Msg: err.Error(), Err: fmt.Errorf("%w: %w", ErrRead, err)}
+	}
+	return Parse(path, data, dir)
+}
+
+// raw mirrors the file; pointers tell "absent" from zero.
+type raw struct {
+	Name                 *string     `toml:"name"`
+	Seed                 *int64      `toml:"seed"`
+	Ledger               *string     `toml:"ledger"`
+	Rules                *string     `toml:"rules"`
+	ParallaxZeroPointMas *float64    `toml:"parallax_zero_point_mas"`
+	NullMarkers          *[]string   `toml:"null_markers"`
+	Match                *rawMatch   `toml:"match"`
+	Catalog              []rawCat    `toml:"catalog"`
+	Galaxy               *rawGalaxy  `toml:"galaxy"`
+	Potential            *rawPot     `toml:"potential"`
+	Kinematics           *rawKinemat `toml:"kinematics"`
+}
+
+type rawMatch struct {
+	RadiusArcsec          *float64 `toml:"radius_arcsec"`
+	NSigma                *float64 `toml:"n_sigma"`
+	RadiusFloorArcsec     *float64 `toml:"radius_floor_arcsec"`
+	DuplicateRadiusArcsec *float64 `toml:"duplicate_radius_arcsec"`
+	AmbiguityRatio        *float64 `toml:"ambiguity_ratio"`
+}
+
+type rawCat struct {
+	Name           *string           `toml:"name"`
+	File           *string           `toml:"file"`
+	Role           *string           `toml:"role"`
+	Epoch          *float64          `toml:"epoch"`
+	Release        *string           `toml:"release"`
+	PositionErrMas *float64          `toml:"position_err_mas"`
+	NullMarkers    *[]string         `toml:"null_markers"`
+	Columns        map[string]string `toml:"columns"`
+	Units          map[string]string `toml:"units"`
+}
+
+type rawGalaxy struct {
+	SunDistanceKpc *float64   `toml:"sun_distance_kpc"`
+	SunHeightPc    *float64   `toml:"sun_height_pc"`
+	SunVelocityKms *[]float64 `toml:"sun_velocity_kms"`
+}
+
+type rawPot struct {
+	Model           *string   `toml:"model"`
+	Component       []rawComp `toml:"component"`
+	EscapeRadiusKpc *float64  `toml:"escape_radius_kpc"`
+}
+
+type rawComp struct {
+	Kind     string  `toml:"kind"`
+	MassMsun float64 `toml:"mass_msun"`
+	ScaleKpc float64 `toml:"scale_kpc"`
+	AKpc     float64 `toml:"a_kpc"`
+	BKpc     float64 `toml:"b_kpc"`
+}
+
+type rawKinemat struct {
+	Distance             *string  `toml:"distance"`
+	EDSDLengthKpc        *float64 `toml:"edsd_length_kpc"`
+	MinParallaxOverError *float64 `toml:"min_parallax_over_error"`
+	Samples              *int     `toml:"samples"`
+	UnboundP             *float64 `toml:"unbound_p"`
+	MarginalP            *float64 `toml:"marginal_p"`
+	TraceMinP            *float64 `toml:"trace_min_p"`
+	TraceSamples         *int     `toml:"trace_samples"`
+	TraceMyr             *float64 `toml:"trace_myr"`
+	GCRadiusKpc          *float64 `toml:"gc_radius_kpc"`
+	DiskRadiusKpc        *float64 `toml:"disk_radius_kpc"`
+}
+
+var (
+	catNameRE   = regexp.MustCompile(`^[a-z][a-z0-9_]*$`)
+	tomlLineRE  = regexp.MustCompile(`^toml: line (\d+)`)
+	validRoles  = []catalog.Role{catalog.Astrometry, catalog.Spectroscopy, catalog.Photometry}
+	distMethods = []string{"auto", "inverse", "edsd", "catalog"}
+)
+
+// Parse parses campaign text. name is used in messages (usually the file
+// path); dir is the absolute directory relative paths are resolved from.
+func Parse(name string, data []byte, dir string) (*Campaign, error) {
+	var r raw
+	md, err := toml.Decode(string(data), &r)
+	if err != nil {
+		e := &Error{File: name, Msg: err.Error(), Err: fmt.Errorf("%w: %w", ErrSyntax, err)}
+		if pe, ok := err.(toml.ParseError); ok {
+			e.Line, e.Msg = pe.Position.Line, pe.Message
+		} else if m := tomlLineRE.FindStringSubmatch(err.Error()); m != nil {
+			e.Line, _ = strconv.Atoi(m[1])
+			e.Msg = strings.TrimPrefix(err.Error()[len(m[0]):], " ")
+		}
+		return nil, e
+	}
+	p := &parser{file: name, lines: scanKeyLines(string(data))}
+	for _, k := range md.Undecoded() {
+		p.bad(p.lines.line(k...), k.String(), ErrUnknownKey, "unknown key")
+	}
+	c := p.build(&r, name, dir)
+	if len(p.errs) > 0 {
+		return nil, p.errs
+	}
+	return c, nil
+}
+
+type parser struct {
+	file  string
+	lines keyLines
+	errs  Errors
+}
+
+func (p *parser) bad(line int, key string, sentinel error, format string, args ...any) {
+	p.errs = append(p.errs, &Error{File: p.file, Line: line, Key: key, Msg: fmt.Sprintf(format, args...), Err: sentinel})
+}
+
+// num checks a float key: finite, and above (or at) a lower limit.
+func (p *parser) num(v float64, min float64, inclusive bool, key string, path ...string) {
+	ok := !math.IsNaN(v) && !math.IsInf(v, 0) && (v > min || (inclusive && v == min))
+	if !ok {
+		op := ">"
+		if inclusive {
+			op = ">="
+		}
+		p.bad(p.lines.line(path...), key, ErrBadValue, "must be a finite number %s %g, got %v", op, min, v)
+	}
+}
+
+func (p *parser) build(r *raw, name, dir string) *Campaign {
+	c := &Campaign{File: name, Dir: dir, Seed: DefaultSeed, Ledger: DefaultLedger, Rules: DefaultRules,
+		NullMarkers: catalog.DefaultNullMarkers(), Galaxy: DefaultGalaxy(), Kinematics: DefaultKinematics()}
+	c.Name = strings.TrimSuffix(filepath.Base(name), filepath.Ext(name))
+	if r.Name != nil {
+		c.Name = *r.Name
+	}
+	if r.Seed != nil {
+		c.Seed = *r.Seed
+	}
+	if r.Ledger != nil {
+		c.Ledger = *r.Ledger
+		if c.Ledger == "" {
+			p.bad(p.lines.line("ledger"), "ledger", ErrBadValue, "must not be empty")
+		}
+	}
+	c.Ledger = resolve(dir, c.Ledger)
+	if r.Rules != nil {
+		c.Rules = *r.Rules
+		if c.Rules == "" {
+			p.bad(p.lines.line("rules"), "rules", ErrBadValue, `must be "default" or a path`)
+		}
+	}
+	if c.Rules != DefaultRules {
+		c.Rules = resolve(dir, c.Rules)
+	}
+	if r.ParallaxZeroPointMas != nil {
+		c.ParallaxZeroPointMas = *r.ParallaxZeroPointMas
+		p.num(math.Abs(c.ParallaxZeroPointMas), 0, true, "parallax_zero_point_mas", "parallax_zero_point_mas")
+	}
+	if r.NullMarkers != nil {
+		c.NullMarkers = *r.NullMarkers
+	}
+	p.match(c, r.Match)
+	p.catalogs(c, r)
+	p.galaxy(c, r.Galaxy)
+	p.potential(c, r.Potential)
+	p.kinematics(c, r.Kinematics)
+	return c
+}
+
+func resolve(dir, path string) string {
+	if filepath.IsAbs(path) || path == "" {
+		return path
+	}
+	return filepath.Join(dir, path)
+}
+
+func (p *parser) match(c *Campaign, m *rawMatch) {
+	c.Match = Match{RadiusArcsec: DefaultRadiusArcsec, DuplicateRadiusArcsec: DefaultDuplicateRadiusArcsec, AmbiguityRatio: DefaultAmbiguityRatio}
+	if m == nil {
+		return
+	}
+	set := func(dst *float64, src *float64, key string, min float64, inclusive bool) {
+		if src != nil {
+			*dst = *src
+			p.num(*src, min, inclusive, "match."+key, "match", key)
+		}
+	}
+	set(&c.Match.RadiusArcsec, m.RadiusArcsec, "radius_arcsec", 0, false)
+	set(&c.Match.NSigma, m.NSigma, "n_sigma", 0, true)
+	set(&c.Match.DuplicateRadiusArcsec, m.DuplicateRadiusArcsec, "duplicate_radius_arcsec", 0, true)
+	set(&c.Match.AmbiguityRatio, m.AmbiguityRatio, "ambiguity_ratio", 1, true)
+	if m.RadiusFloorArcsec != nil {
+		set(&c.Match.RadiusFloorArcsec, m.RadiusFloorArcsec, "radius_floor_arcsec", 0, true)
+		if c.Match.NSigma == 0 {
+			p.bad(p.lines.line("match", "radius_floor_arcsec"), "match.radius_floor_arcsec", ErrBadValue, "has no effect unless n_sigma > 0")
+		}
+	} else if c.Match.NSigma > 0 {
+		c.Match.RadiusFloorArcsec = DefaultRadiusFloorArcsec
+	}
+}
+
+func (p *parser) catalogs(c *Campaign, r *raw) {
+	seen := make(map[string]int)
+	astrometry := 0
+	for i, rc := range r.Catalog {
+		tbl := "catalog#" + strconv.Itoa(i)
+		at := func(key ...string) int { return p.lines.line(append([]string{tbl}, key...)...) }
+		key := func(k string) string { return fmt.Sprintf("catalog[%d].%s", i+1, k) }
+		cs := CatalogSpec{Line: at()}
+		s := &cs.Spec
+		if rc.Name == nil {
+			p.bad(at(), key("name"), ErrMissing, "is required")
+		} else {
+			s.Name = *rc.Name
+			if !catNameRE.MatchString(s.Name) {
+				p.bad(at("name"), key("name"), ErrBadValue, "%q must match [a-z][a-z0-9_]*", s.Name)
+			} else if first, dup := seen[s.Name]; dup {
+				p.bad(at("name"), key("name"), ErrBadValue, "%q already used by the catalog on line %d", s.Name, first)
+			} else {
+				seen[s.Name] = at("name")
+			}
+		}
+		if rc.File == nil || *rc.File == "" {
+			p.bad(at(), key("file"), ErrMissing, "is required")
+		} else {
+			f := *rc.File
+			if !strings.HasSuffix(f, ".csv") && !strings.HasSuffix(f, ".csv.gz") {
+				p.bad(at("file"), key("file"), ErrBadValue, "%q must end in .csv or .csv.gz", f)
+			}
+			s.File = resolve(c.Dir, f)
+		}
+		if rc.Role == nil {
+			p.bad(at(), key("role"), ErrMissing, "is required (astrometry, spectroscopy or photometry)")
+		} else {
+			s.Role = catalog.Role(*rc.Role)
+			ok := false
+			for _, v := range validRoles {
+				ok = ok || v == s.Role
+			}
+			if !ok {
+				p.bad(at("role"), key("role"), ErrBadValue, "%q is not astrometry, spectroscopy or photometry", *rc.Role)
+			}
+			if s.Role == catalog.Astrometry {
+				astrometry++
+				if astrometry == 2 {
+					p.bad(at("role"), key("role"), ErrBadValue, "a second astrometry catalog; exactly one is allowed")
+				}
+			}
+		}
+		if rc.Epoch == nil {
+			p.bad(at(), key("epoch"), ErrMissing, "is required (Julian year of the positions)")
+		} else {
+			s.EpochJyr = *rc.Epoch
+			if !(s.EpochJyr >= 1800 && s.EpochJyr <= 2200) {
+				p.bad(at("epoch"), key("epoch"), ErrBadValue, "%v is not a Julian year in [1800, 2200]", s.EpochJyr)
+			}
+		}
+		if rc.Release != nil {
+			s.Release = *rc.Release
+		}
+		if rc.PositionErrMas != nil {
+			s.PositionErrMas = *rc.PositionErrMas
+			p.num(s.PositionErrMas, 0, true, key("position_err_mas"), tbl, "position_err_mas")
+		} else if s.Role != catalog.Astrometry {
+			s.PositionErrMas = DefaultSecondaryPositionErrMas
+		}
+		s.NullMarkers = append([]string(nil), c.NullMarkers...)
+		if rc.NullMarkers != nil {
+			s.NullMarkers = *rc.NullMarkers
+		}
+		s.Columns = make(map[string]string, len(rc.Columns))
+		for f, h := range rc.Columns {
+			fld, ok := catalog.FieldByName(f)
+			switch {
+			case !ok || !catalog.Mappable(fld):
+				p.bad(at("columns", f), key("columns."+f), ErrUnknownField, "%q is not a canonical field", f)
+			case h == "":
+				p.bad(at("columns", f), key("columns."+f), ErrBadValue, "empty column header")
+			}
+			s.Columns[f] = h
+		}
+		s.Units = make(map[string]string, len(rc.Units))
+		for f, u := range rc.Units {
+			fld, ok := catalog.FieldByName(f)
+			if !ok || !catalog.Mappable(fld) {
+				p.bad(at("units", f), key("units."+f), ErrUnknownField, "%q is not a canonical field", f)
+			} else if err := catalog.CheckUnit(fld, u); err != nil {
+				p.bad(at("units", f), key("units."+f), ErrBadUnit, "%v", err)
+			}
+			s.Units[f] = u
+		}
+		if d, e := s.Units["distance"], s.Units["distance_err"]; (e == "mag" && d != "mag") || (d == "mag" && e != "" && e != "mag") {
+			p.bad(at("units"), key("units"), ErrBadUnit, "distance and distance_err must both be in mag or neither (got %q and %q)", d, e)
+		}
+		c.Catalogs = append(c.Catalogs, cs)
+	}
+	if astrometry == 0 {
+		p.bad(0, "catalog", ErrBadValue, "no catalog has role = \"astrometry\"; exactly one is required")
+	}
+}
+
+func (p *parser) galaxy(c *Campaign, g *rawGalaxy) {
+	if g == nil {
+		return
+	}
+	if g.SunDistanceKpc != nil {
+		c.Galaxy.SunDistanceKpc = *g.SunDistanceKpc
+		p.num(*g.SunDistanceKpc, 0, false, "galaxy.sun_distance_kpc", "galaxy", "sun_distance_kpc")
+	}
+	if g.SunHeightPc != nil {
+		c.Galaxy.SunHeightPc = *g.SunHeightPc
+		p.num(math.Abs(*g.SunHeightPc), 0, true, "galaxy.sun_height_pc", "galaxy", "sun_height_pc")
+	}
+	if g.SunVelocityKms != nil {
+		v := *g.SunVelocityKms
+		if len(v) != 3 {
+			p.bad(p.lines.line("galaxy", "sun_velocity_kms"), "galaxy.sun_velocity_kms", ErrBadValue, "needs 3 components (U, V, W), got %d", len(v))
+			return
+		}
+		for i := range v {
+			p.num(math.Abs(v[i]), 0, true, "galaxy.sun_velocity_kms", "galaxy", "sun_velocity_kms")
+			c.Galaxy.SunVelocityKms[i] = v[i]
+		}
+	}
+}
+
+func (p *parser) potential(c *Campaign, rp *rawPot) {
+	if rp == nil {
+		return
+	}
+	if rp.EscapeRadiusKpc != nil {
+		c.Potential.EscapeRadiusKpc = *rp.EscapeRadiusKpc
+		p.num(*rp.EscapeRadiusKpc, 0, true, "potential.escape_radius_kpc", "potential", "escape_radius_kpc")
+	}
+	if rp.Model != nil {
+		c.Potential.Model = *rp.Model
+		if len(rp.Component) > 0 {
+			p.bad(p.lines.line("potential", "model"), "potential.model", ErrBadValue, "give either model or [[potential.component]] tables, not both")
+		}
+		if _, err := potential.Builtin(*rp.Model); err != nil {
+			p.bad(p.lines.line("potential", "model"), "potential.model", ErrBadValue, "%v", err)
+		}
+	}
+	pcs := make([]potential.Component, len(rp.Component))
+	for i, rc := range rp.Component {
+		comp := Component(rc)
+		c.Potential.Components = append(c.Potential.Components, comp)
+		pcs[i] = potential.Component(comp)
+	}
+	if len(pcs) == 0 {
+		return
+	}
+	if _, err := potential.New(pcs); err != nil {
+		line, key := p.lines.line("potential", "component"), "potential.component"
+		if ce, ok := err.(*potential.ComponentError); ok {
+			tbl := "component#" + strconv.Itoa(ce.Index)
+			line = p.lines.line("potential", tbl, ce.Field)
+			key = fmt.Sprintf("potential.component[%d].%s", ce.Index+1, ce.Field)
+			p.bad(line, key, ErrBadValue, "%s", ce.Msg)
+			return
+		}
+		p.bad(line, key, ErrBadValue, "%v", err)
+	}
+}
+
+func (p *parser) kinematics(c *Campaign, rk *rawKinemat) {
+	if rk == nil {
+		return
+	}
+	k := &c.Kinematics
+	at := func(key string) int { return p.lines.line("kinematics", key) }
+	if rk.Distance != nil {
+		k.Distance = *rk.Distance
+		ok := false
+		for _, m := range distMethods {
+			ok = ok || m == k.Distance
+		}
+		if !ok {
+			p.bad(at("distance"), "kinematics.distance", ErrBadValue, "%q is not one of %q", k.Distance, distMethods)
+		}
+	}
+	f := func(dst *float64, src *float64, key string, min float64, inclusive bool) {
+		if src != nil {
+			*dst = *src
+			p.num(*src, min, inclusive, "kinematics."+key, "kinematics", key)
+		}
+	}
+	f(&k.EDSDLengthKpc, rk.EDSDLengthKpc, "edsd_length_kpc", 0, false)
+	f(&k.MinParallaxOverError, rk.MinParallaxOverError, "min_parallax_over_error", 0, false)
+	f(&k.UnboundP, rk.UnboundP, "unbound_p", 0, true)
+	f(&k.MarginalP, rk.MarginalP, "marginal_p", 0, true)
+	f(&k.TraceMinP, rk.TraceMinP, "trace_min_p", 0, true)
+	f(&k.TraceMyr, rk.TraceMyr, "trace_myr", 0, false)
+	f(&k.GCRadiusKpc, rk.GCRadiusKpc, "gc_radius_kpc", 0, false)
+	f(&k.DiskRadiusKpc, rk.DiskRadiusKpc, "disk_radius_kpc", 0, false)
+	for _, pr := range []struct {
+		key string
+		v   float64
+	}{{"unbound_p", k.UnboundP}, {"marginal_p", k.MarginalP}, {"trace_min_p", k.TraceMinP}} {
+		if pr.v > 1 {
+			p.bad(at(pr.key), "kinematics."+pr.key, ErrBadValue, "a probability must be <= 1, got %v", pr.v)
+		}
+	}
+	if k.MarginalP > k.UnboundP {
+		p.bad(at("marginal_p"), "kinematics.marginal_p", ErrBadValue, "must not exceed unbound_p (%v > %v)", k.MarginalP, k.UnboundP)
+	}
+	for _, n := range []struct {
+		key string
+		dst *int
+		src *int
+	}{{"samples", &k.Samples, rk.Samples}, {"trace_samples", &k.TraceSamples, rk.TraceSamples}} {
+		if n.src != nil {
+			*n.dst = *n.src
+			if *n.src < 1 {
+				p.bad(at(n.key), "kinematics."+n.key, ErrBadValue, "must be >= 1, got %d", *n.src)
+			}
+		}
+	}
+}

@@ -1,0 +1,350 @@
+package campaign
+
+import (
+	"context"
+	"errors"
+	"os"
+	"path/filepath"
+	"reflect"
+	"strings"
+	"testing"
+
+	"starvet/crossmatch/catalog"
+)
+
+const testDir = "../../testdata/ingest/campaign"
+
+func TestLoadFull(t *testing.T) {
+	c, err := Load(filepath.Join(testDir, "full.toml"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	dir, _ := filepath.Abs(testDir)
+	ingest := filepath.Dir(dir)
+	checks := []struct {
+		name      string
+		got, want any
+	}{
+		{"dir", c.Dir, dir},
+		{"name", c.Name, "spring-halo-search"},
+		{"seed", c.Seed, int64(20261201)},
+		{"ledger", c.Ledger, filepath.Join(dir, "out", "ledger.db")},
+		{"rules", c.Rules, filepath.Join(dir, "rules", "strict.toml")},
+		{"zero point", c.ParallaxZeroPointMas, -0.017},
+		{"null markers", c.NullMarkers, []string{"", "NaN", "null", "-999"}},
+		{"match", c.Match, Match{RadiusArcsec: 2, NSigma: 5, RadiusFloorArcsec: 0.3, DuplicateRadiusArcsec: 0.25, AmbiguityRatio: 4}},
+		{"catalogs", len(c.Catalogs), 3},
+		{"cat0 file", c.Catalogs[0].File, filepath.Join(ingest, "auto.csv")},
+		{"cat0 role", c.Catalogs[0].Role, catalog.Astrometry},
+		{"cat0 epoch", c.Catalogs[0].EpochJyr, 2017.5},
+		{"cat0 release", c.Catalogs[0].Release, "L2"},
+		{"cat0 line", c.Catalogs[0].Line, 16},
+		{"cat0 markers inherited", c.Catalogs[0].NullMarkers, []string{"", "NaN", "null", "-999"}},
+		{"cat0 pos err (primary: no fallback)", c.Catalogs[0].PositionErrMas, 0.0},
+		{"cat1 columns", c.Catalogs[1].Columns, map[string]string{"id": "src", "ra": "RA_h", "distance": "dist"}},
+		{"cat1 units", len(c.Catalogs[1].Units), 9},
+		{"cat1 markers own", c.Catalogs[1].NullMarkers, []string{""}},
+		{"cat1 pos err", c.Catalogs[1].PositionErrMas, 250.0},
+		{"cat2 pos err default", c.Catalogs[2].PositionErrMas, DefaultSecondaryPositionErrMas},
+		{"cat2 role", c.Catalogs[2].Role, catalog.Photometry},
+		{"galaxy", c.Galaxy, Galaxy{SunDistanceKpc: 8.2, SunHeightPc: 25, SunVelocityKms: [3]float64{11.1, 250, 7.25}}},
+		{"potential", c.Potential, Potential{EscapeRadiusKpc: 50, Components: []Component{
+			{Kind: "point", MassMsun: 4e6}, {Kind: "hernquist", MassMsun: 3.76e9, AKpc: 0.1},
+			{Kind: "miyamoto-nagai", MassMsun: 6e10, AKpc: 2.75, BKpc: 0.3}, {Kind: "nfw", MassMsun: 8e11, ScaleKpc: 20}}}},
+		{"kinematics", c.Kinematics, Kinematics{Distance: "edsd", EDSDLengthKpc: 1.5, MinParallaxOverError: 4, Samples: 500,
+			UnboundP: 0.9, MarginalP: 0.6, TraceMinP: 0.4, TraceSamples: 100, TraceMyr: 250, GCRadiusKpc: 2, DiskRadiusKpc: 30}},
+	}
+	for _, ch := range checks {
+		t.Run(ch.name, func(t *testing.T) {
+			if !reflect.DeepEqual(ch.got, ch.want) {
+				t.Errorf("got %#v, want %#v", ch.got, ch.want)
+			}
+		})
+	}
+	// The specs must be directly usable by the reader.
+	for _, cs := range c.Catalogs {
+		tab, rep, err := catalog.Read(context.Background(), cs.Spec, catalog.ReadOptions{Strict: true})
+		if err != nil {
+			t.Errorf("%s: %v", cs.Name, err)
+			continue
+		}
+		if tab.Len() == 0 || rep.RowsKept != tab.Len() || tab.Name != cs.Name {
+			t.Errorf("%s: %d rows", cs.Name, tab.Len())
+		}
+	}
+}
+
+func TestDefaults(t *testing.T) {
+	c, err := Load(filepath.Join(testDir, "minimal.toml"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	dir, _ := filepath.Abs(testDir)
+	checks := []struct {
+		name      string
+		got, want any
+	}{
+		{"name from file", c.Name, "minimal"},
+		{"seed", c.Seed, int64(1)},
+		{"ledger beside file", c.Ledger, filepath.Join(dir, "starvet.db")},
+		{"rules", c.Rules, "default"},
+		{"zero point", c.ParallaxZeroPointMas, 0.0},
+		{"null markers", c.NullMarkers, []string{"", "NaN", "null"}},
+		// n_sigma unset: no floor.
+		{"match", c.Match, Match{RadiusArcsec: 1, DuplicateRadiusArcsec: 0.4, AmbiguityRatio: 3}},
+		// R0: GRAVITY Collaboration 2018, A&A 615, L15; z_sun: Bennett & Bovy
+		// 2019, MNRAS 482, 1417; (U,V,W): Drimmel & Poggio 2018, RNAAS 2, 210.
+		{"galaxy", c.Galaxy, Galaxy{SunDistanceKpc: 8.122, SunHeightPc: 20.8, SunVelocityKms: [3]float64{12.9, 245.6, 7.78}}},
+		{"potential left to integrator", c.Potential, Potential{}},
+		{"kinematics", c.Kinematics, Kinematics{Distance: "auto", EDSDLengthKpc: 1.35, MinParallaxOverError: 5, Samples: 1000,
+			UnboundP: 0.8, MarginalP: 0.5, TraceMinP: 0.5, TraceSamples: 200, TraceMyr: 300, GCRadiusKpc: 1, DiskRadiusKpc: 25}},
+		{"primary pos err", c.Catalogs[0].PositionErrMas, 0.0},
+		{"secondary pos err", c.Catalogs[1].PositionErrMas, 100.0},
+		{"markers", c.Catalogs[1].NullMarkers, []string{"", "NaN", "null"}},
+	}
+	for _, ch := range checks {
+		t.Run(ch.name, func(t *testing.T) {
+			if !reflect.DeepEqual(ch.got, ch.want) {
+				t.Errorf("got %#v, want %#v", ch.got, ch.want)
+			}
+		})
+	}
+	p, err := Parse("x.toml", []byte(baseText+"[match]\nn_sigma = 3\n"), "/tmp")
+	if err != nil {
+		t.Fatal(err)
+	}
+	if p.Match.RadiusFloorArcsec != 0.5 {
+		t.Errorf("floor with n_sigma = %v, want 0.5", p.Match.RadiusFloorArcsec)
+	}
+}
+
+// baseText is a valid campaign of 11 lines; cases append from line 12.
+const baseText = `[[catalog]]
+name = "lark_astro"
+file = "lark.csv"
+role = "astrometry"
+epoch = 2017.5
+
+[[catalog]]
+name = "wren_spec"
+file = "wren.csv.gz"
+role = "spectroscopy"
+epoch = 2020.5
+`
+
+func TestErrors(t *testing.T) {
+	cases := []struct {
+		name string
+		text string
+		err  error
+		line int
+		key  string
+	}{
+		{"unknown top key", "colour = 1\n" + baseText, ErrUnknownKey, 1, "colour"},
+		{"unknown match key", baseText + "[match]\nradius = 1\n", ErrUnknownKey, 13, "match.radius"},
+		{"unknown catalog key", strings.Replace(baseText, "epoch = 2020.5", "epoch = 2020.5\nepoc = 2000", 1), ErrUnknownKey, 12, "catalog.epoc"},
+		{"unknown table", baseText + "[galaxi]\nsun_height_pc = 1\n", ErrUnknownKey, 12, "galaxi"},
+		{"unknown component key", baseText + "[potential]\n[[potential.component]]\nkind = \"point\"\nmass = 1\n", ErrUnknownKey, 15, "potential.component.mass"},
+		{"unknown column field", baseText + "[catalog.columns]\nparalax = \"plx\"\n", ErrUnknownField, 13, "catalog[2].columns.paralax"},
+		{"derived column field", baseText + "[catalog.columns]\ndistance_modulus = \"dm\"\n", ErrUnknownField, 13, "catalog[2].columns.distance_modulus"},
+		{"unknown unit field", baseText + "[catalog.units]\nvelocity = \"m/s\"\n", ErrUnknownField, 13, "catalog[2].units.velocity"},
+		{"unknown unit", baseText + "[catalog.units]\nrv = \"mph\"\n", ErrBadUnit, 13, "catalog[2].units.rv"},
+		{"unit for wrong field", baseText + "[catalog.units]\ndec = \"hour\"\n", ErrBadUnit, 13, "catalog[2].units.dec"},
+		{"modulus error without modulus", baseText + "[catalog.units]\ndistance_err = \"mag\"\n", ErrBadUnit, 12, "catalog[2].units"},
+		{"bad role", strings.Replace(baseText, `"spectroscopy"`, `"spectra"`, 1), ErrBadValue, 10, "catalog[2].role"},
+		{"two astrometry", strings.Replace(baseText, `"spectroscopy"`, `"astrometry"`, 1), ErrBadValue, 10, "catalog[2].role"},
+		{"no astrometry", strings.Replace(baseText, `"astrometry"`, `"photometry"`, 1), ErrBadValue, 0, "catalog"},
+		{"duplicate name", strings.Replace(baseText, `"wren_spec"`, `"lark_astro"`, 1), ErrBadValue, 8, "catalog[2].name"},
+		{"bad name", strings.Replace(baseText, `"wren_spec"`, `"Wren-Spec"`, 1), ErrBadValue, 8, "catalog[2].name"},
+		{"bad suffix", strings.Replace(baseText, `"wren.csv.gz"`, `"wren.fits"`, 1), ErrBadValue, 9, "catalog[2].file"},
+		{"missing epoch", strings.Replace(baseText, "epoch = 2020.5\n", "", 1), ErrMissing, 7, "catalog[2].epoch"},
+		{"negative radius", baseText + "[match]\nradius_arcsec = -1\n", ErrBadValue, 13, "match.radius_arcsec"},
+		{"zero radius", baseText + "[match]\nradius_arcsec = 0\n", ErrBadValue, 13, "match.radius_arcsec"},
+		{"negative duplicate radius", baseText + "[match]\nduplicate_radius_arcsec = -0.1\n", ErrBadValue, 13, "match.duplicate_radius_arcsec"},
+		{"ambiguity below one", baseText + "[match]\nambiguity_ratio = 0.5\n", ErrBadValue, 13, "match.ambiguity_ratio"},
+		{"floor without n_sigma", baseText + "[match]\nradius_floor_arcsec = 0.2\n", ErrBadValue, 13, "match.radius_floor_arcsec"},
+		{"negative position error", strings.Replace(baseText, "epoch = 2020.5", "epoch = 2020.5\nposition_err_mas = -5", 1), ErrBadValue, 12, "catalog[2].position_err_mas"},
+		{"type error", "seed = \"x\"\n" + baseText, ErrSyntax, 1, ""},
+		{"syntax error", baseText + "seed = \n", ErrSyntax, 12, ""},
+		{"velocity needs 3", baseText + "[galaxy]\nsun_velocity_kms = [1, 2]\n", ErrBadValue, 13, "galaxy.sun_velocity_kms"},
+		{"model and components", baseText + "[potential]\nmodel = \"kenyon08-adjusted\"\n[[potential.component]]\nkind = \"point\"\nmass_msun = 1e6\n", ErrBadValue, 13, "potential.model"},
+		{"unknown model", baseText + "[potential]\nmodel = \"mine\"\n", ErrBadValue, 13, "potential.model"},
+		{"bad component", baseText + "[potential]\n[[potential.component]]\nkind = \"point\"\nmass_msun = 1e6\n[[potential.component]]\nkind = \"miyamoto-nagai\"\nmass_msun = 1e10\na_kpc = 3\nb_kpc = -1\n", ErrBadValue, 20, "potential.component[2].b_kpc"},
+		{"negative escape radius", baseText + "[potential]\nescape_radius_kpc = -1\n", ErrBadValue, 13, "potential.escape_radius_kpc"},
+		{"distance method", baseText + "[kinematics]\ndistance = \"guess\"\n", ErrBadValue, 13, "kinematics.distance"},
+		{"probability above one", baseText + "[kinematics]\nunbound_p = 1.5\n", ErrBadValue, 13, "kinematics.unbound_p"},
+		{"marginal above unbound", baseText + "[kinematics]\nunbound_p = 0.4\n", ErrBadValue, 12, "kinematics.marginal_p"},
+		{"zero samples", baseText + "[kinematics]\nsamples = 0\n", ErrBadValue, 13, "kinematics.samples"},
+		{"samples not integer", baseText + "[kinematics]\nsamples = 10.5\n", ErrSyntax, 13, ""},
+		{"negative edsd length", baseText + "[kinematics]\nedsd_length_kpc = -1\n", ErrBadValue, 13, "kinematics.edsd_length_kpc"},
+		{"dotted key in table", strings.Replace(baseText, "epoch = 2020.5", "epoch = 2020.5\ncolumns.paralax = \"p\"", 1), ErrUnknownField, 12, "catalog[2].columns.paralax"},
+	}
+	for _, c := range cases {
+		t.Run(c.name, func(t *testing.T) {
+			_, err := Parse("camp.toml", []byte(c.text), "/data")
+			if err == nil {
+				t.Fatal("no error")
+			}
+			if !errors.Is(err, c.err) {
+				t.Fatalf("err %v, want %v", err, c.err)
+			}
+			var e *Error
+			if !errors.As(err, &e) {
+				t.Fatalf("err %T is not *Error", err)
+			}
+			if e.Line != c.line || e.Key != c.key || e.File != "camp.toml" {
+				t.Errorf("got %s:%d key %q (%v), want line %d key %q", e.File, e.Line, e.Key, err, c.line, c.key)
+			}
+			if want := "camp.toml:"; !strings.HasPrefix(err.Error(), want) {
+				t.Errorf("message %q lacks file prefix", err)
+			}
+		})
+	}
+}
+
+func TestAllErrorsReported(t *testing.T) {
+	text := "colour = 1\n" + strings.Replace(baseText, `"spectroscopy"`, `"spectra"`, 1) + "[match]\nradius_arcsec = -1\n"
+	_, err := Parse("camp.toml", []byte(text), "/data")
+	var es Errors
+	if !errors.As(err, &es) || len(es) != 3 {
+		t.Fatalf("want 3 errors, got %v", err)
+	}
+	if !errors.Is(err, ErrUnknownKey) || !errors.Is(err, ErrBadValue) {
+		t.Errorf("errors.Is fails on %v", err)
+	}
+	want := "camp.toml:1: colour: unknown key"
+	if es[0].Error() != want {
+		t.Errorf("first error %q, want %q", es[0], want)
+	}
+}
+
+func TestMarginalLine(t *testing.T) {
+	_, err := Parse("camp.toml", []byte(baseText+"[kinematics]\nunbound_p = 0.4\nmarginal_p = 0.45\n"), "/data")
+	var e *Error
+	if !errors.As(err, &e) || e.Line != 14 || e.Key != "kinematics.marginal_p" {
+		t.Errorf("got %v", err)
+	}
+}
+
+func TestLoadMissing(t *testing.T) {
+	_, err := Load(filepath.Join(testDir, "absent.toml"))
+	if !errors.Is(err, ErrRead) || !errors.Is(err, os.ErrNotExist) {
+		t.Errorf("got %v", err)
+	}
+}
+
+func TestHashes(t *testing.T) {
+	parse := func(t *testing.T, text, dir string) *Campaign {
+		t.Helper()
+		c, err := Parse("h.toml", []byte(text), dir)
+		if err != nil {
+			t.Fatal(err)
+		}
+		return c
+	}
+	base := parse(t, baseText, "/data/a")
+	// Same effective settings written differently: explicit defaults,
+	// other key order, integer for float.
+	same := "seed = 1\nrules = \"default\"\nledger = \"starvet.db\"\n[match]\nambiguity_ratio = 3\nradius_arcsec = 1.0\n" +
+		`[[catalog]]
+epoch = 2017.5
+role = "astrometry"
+file = "lark.csv"
+name = "lark_astro"
+[[catalog]]
+name = "wren_spec"
+role = "spectroscopy"
+file = "wren.csv.gz"
+epoch = 2020.5
+position_err_mas = 100
+null_markers = ["", "NaN", "null"]
+[kinematics]
+samples = 1000
+`
+	cases := []struct {
+		name                 string
+		c                    *Campaign
+		match, model, allChg bool
+	}{
+		{"explicit defaults", parse(t, same, "/data/a"), false, false, false},
+		{"moved directory", parse(t, baseText, "/elsewhere/b"), false, false, false},
+		{"match radius", parse(t, baseText+"[match]\nradius_arcsec = 1.5\n", "/data/a"), true, false, true},
+		{"catalog unit", parse(t, baseText+"[catalog.units]\nrv = \"m/s\"\n", "/data/a"), true, false, true},
+		{"seed", parse(t, "seed = 2\n"+baseText, "/data/a"), false, true, true},
+		{"zero point", parse(t, "parallax_zero_point_mas = -0.017\n"+baseText, "/data/a"), false, true, true},
+		{"galaxy", parse(t, baseText+"[galaxy]\nsun_height_pc = 25\n", "/data/a"), false, true, true},
+		{"potential", parse(t, baseText+"[potential]\nmodel = \"kenyon08-adjusted\"\n", "/data/a"), false, true, true},
+		{"kinematics", parse(t, baseText+"[kinematics]\nsamples = 2000\n", "/data/a"), false, true, true},
+		{"ledger", parse(t, "ledger = \"other.db\"\n"+baseText, "/data/a"), false, false, true},
+		{"name", parse(t, "name = \"x\"\n"+baseText, "/data/a"), false, false, true},
+	}
+	for _, c := range cases {
+		t.Run(c.name, func(t *testing.T) {
+			if got := c.c.MatchHash() != base.MatchHash(); got != c.match {
+				t.Errorf("match hash changed = %v, want %v", got, c.match)
+			}
+			if got := c.c.ModelHash() != base.ModelHash(); got != c.model {
+				t.Errorf("model hash changed = %v, want %v", got, c.model)
+			}
+			if got := c.c.Hash() != base.Hash(); got != c.allChg {
+				t.Errorf("hash changed = %v, want %v", got, c.allChg)
+			}
+			fp := c.c.Fingerprint()
+			if fp.Match != c.c.MatchHash() || fp.Model != c.c.ModelHash() || fp.All != c.c.Hash() || len(fp.All) != 64 {
+				t.Errorf("fingerprint %+v inconsistent", fp)
+			}
+		})
+	}
+}
+
+func TestKeyLines(t *testing.T) {
+	text := `a = 1 # comment [x]
+"quoted.key" = 2
+arr = [
+  1, # y = 3
+  2,
+]
+s = """
+z = 4
+"""
+[t]
+b.c = 5
+inline = { d = 6 }
+[[list]]
+e = 7
+[[list]]
+e = 8
+[list.sub]
+f = 9
+[[list.items]]
+g = 10
+`
+	kl := scanKeyLines(text)
+	cases := []struct {
+		path []string
+		line int
+	}{
+		{[]string{"a"}, 1},
+		{[]string{"quoted.key"}, 2},
+		{[]string{"arr"}, 3},
+		{[]string{"y"}, 0},
+		{[]string{"s"}, 7},
+		{[]string{"z"}, 0},
+		{[]string{"t"}, 10},
+		{[]string{"t", "b", "c"}, 11},
+		{[]string{"t", "inline", "d"}, 12},
+		{[]string{"list#0", "e"}, 14},
+		{[]string{"list#1", "e"}, 16},
+		{[]string{"list", "e"}, 14},
+		{[]string{"list#1", "sub", "f"}, 18},
+		{[]string{"list#1", "items#0", "g"}, 20},
+		{[]string{"list#1", "nothing"}, 15},
+	}
+	for _, c := range cases {
+		t.Run(strings.Join(c.path, "."), func(t *testing.T) {
+			if got := kl.line(c.path...); got != c.line {
+				t.Errorf("line %d, want %d", got, c.line)
+			}
+		})
+	}
+}
