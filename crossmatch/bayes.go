@@ -49,6 +49,25 @@ func PosteriorLog(lnB, p0 float64) float64 {
 	return 1 / (1 + math.Exp(math.Log((1-p0)/p0)-lnB))
 }
 
+// posterior evaluates PosteriorLog for a fixed prior.
+type posterior struct {
+	p0, lnOdds float64 // lnOdds = ln((1-P0)/P0)
+}
+
+func newPosterior(p0 float64) posterior {
+	return posterior{p0: p0, lnOdds: math.Log((1 - p0) / p0)}
+}
+
+func (q posterior) of(lnB float64) float64 {
+	switch {
+	case q.p0 <= 0:
+		return 0
+	case q.p0 >= 1:
+		return 1
+	}
+	return 1 / (1 + math.Exp(q.lnOdds-lnB))
+}
+
 // Overlap cells: the sky is cut into cellBands bands of equal height in
 // sin(dec), each cut into cellRACols equal RA ranges, so every cell has the
 // same area 4 pi / (cellBands cellRACols) sr (about 20.1 deg^2). This is our

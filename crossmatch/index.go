@@ -6,8 +6,6 @@ import (
 	"math"
 	"runtime"
 	"slices"
-	"sync"
-	"sync/atomic"
 
 	"github.com/tidwall/rtree"
 
@@ -15,8 +13,8 @@ import (
 )
 
 const (
-	degPerRad = 180 / math.Pi
-	radPerDeg = math.Pi / 180
+	degPerRad    = 180 / math.Pi
+	radPerDeg    = math.Pi / 180
 	arcsecPerDeg = 3600
 	masPerArcsec = 1000
 	radPerArcsec = radPerDeg / arcsecPerDeg
@@ -36,18 +34,41 @@ const (
 
 // Index is a static sky index over a set of (ra, dec) positions in degrees.
 // It answers "which rows lie within an angle of this direction", exactly:
-// every hit of the rtree box search is confirmed with sky.Separation.
+// every candidate of the box search is confirmed with sky.Separation.
+//
+// Layout: the sky is cut into declination zones of zoneHeightDeg; inside a
+// zone the points are ordered by ra bin (binsPerZone bins) and grouped into
+// runs of runLen consecutive points. Each zone is an rtree whose items are
+// the bounding boxes of its runs, so the trees are small (n/runLen items)
+// and each zone is built by one goroutine. A query finds the runs whose
+// boxes meet its box and scans their points.
 type Index struct {
-	zones   [numZones]*rtree.RTreeGN[float64, int32]
-	raRad   []float64
-	decRad  []float64
-	indexed int
+	zones    [numZones]*rtree.RTreeGN[float64, int32] // item: run number
+	runStart []int32                                  // run k is points runStart[k]..runStart[k+1]-1
+	pts      []point                                  // in zone, ra-bin order
+	row      []int32                                  // row of each point
+	n        int
 }
+
+type point struct{ raDeg, decDeg float64 }
+
+const (
+	// runLen is the number of points per rtree item.
+	runLen = 16
+	// binsPerZone ra bins order the points inside a zone.
+	binsPerZone = 1024
+)
 
 // Neighbor is one row found by Index.Within.
 type Neighbor struct {
 	Row    int32
 	SepRad float64 // angular separation from the query direction, radians
+}
+
+// hit is a point found by within, by its position in the index order.
+type hit struct {
+	pos    int32
+	sepRad float64
 }
 
 // NewIndex indexes rows whose ra and dec (degrees) are both finite; rows with
@@ -65,106 +86,106 @@ func NewIndex(ctx context.Context, raDeg, decDeg []float64, workers int) (*Index
 	if workers <= 0 {
 		workers = runtime.GOMAXPROCS(0)
 	}
-	n := len(raDeg)
-	ix := &Index{raRad: make([]float64, n), decRad: make([]float64, n)}
-	ras := make([]float64, n) // reduced ra, degrees
-	zoneOfRow := make([]int32, n)
-	var counts [numZones + 1]int
-	for i := 0; i < n; i++ {
+	for i := range raDeg {
 		ra, dec := raDeg[i], decDeg[i]
-		if math.IsNaN(ra) || math.IsNaN(dec) {
-			zoneOfRow[i] = -1
-			ix.raRad[i], ix.decRad[i] = math.NaN(), math.NaN()
-			continue
-		}
-		if math.IsInf(ra, 0) || !(dec >= -90 && dec <= 90) {
+		if !math.IsNaN(ra) && !math.IsNaN(dec) && (math.IsInf(ra, 0) || !(dec >= -90 && dec <= 90)) {
 			return nil, fmt.Errorf("index: row %d: position (%g, %g) deg: %w", i, ra, dec, ErrBadPosition)
 		}
-		ra = normRA(ra)
-		ras[i] = ra
-		ix.raRad[i], ix.decRad[i] = ra*radPerDeg, dec*radPerDeg
-		z := zoneOf(dec)
-		zoneOfRow[i] = int32(z)
-		counts[z+1]++
 	}
-	for z := 1; z <= numZones; z++ {
-		counts[z] += counts[z-1]
-	}
-	ix.indexed = counts[numZones]
-	rows := make([]int32, ix.indexed)
-	fill := counts
-	for i, z := range zoneOfRow {
-		if z >= 0 {
-			rows[fill[z]] = int32(i)
-			fill[z]++
-		}
-	}
+	return newIndex(ctx, len(raDeg), func(i int) (float64, float64) { return raDeg[i], decDeg[i] }, workers)
+}
 
-	var next atomic.Int64
-	var wg sync.WaitGroup
-	var ctxErr atomic.Value
-	for w := 0; w < workers; w++ {
-		wg.Add(1)
-		go func() {
-			defer wg.Done()
-			for {
-				z := int(next.Add(1) - 1)
-				if z >= numZones {
-					return
-				}
-				if err := ctx.Err(); err != nil {
-					ctxErr.Store(err)
-					return
-				}
-				zr := rows[counts[z]:counts[z+1]]
-				if len(zr) == 0 {
-					continue
-				}
-				// Inserting in ra order keeps the tree's nodes compact and
-				// the insert path cache-warm.
-				slices.SortFunc(zr, func(a, b int32) int {
-					if c := cmpFloat(ras[a], ras[b]); c != 0 {
-						return c
-					}
-					return int(a - b)
-				})
-				tr := new(rtree.RTreeGN[float64, int32])
-				for _, r := range zr {
-					p := [2]float64{ras[r], decDeg[r]}
-					tr.Insert(p, p, r)
-				}
-				ix.zones[z] = tr
-			}
-		}()
+// newIndex is NewIndex for valid positions given by an accessor.
+func newIndex(ctx context.Context, n int, pos func(int) (raDeg, decDeg float64), workers int) (*Index, error) {
+	order, zoneStart := spatialOrder(n, pos, binsPerZone)
+	m := len(order)
+	ix := &Index{pts: make([]point, m), row: order, n: n}
+	for k, r := range order {
+		ra, dec := pos(int(r))
+		ix.pts[k] = point{normRA(ra), dec}
 	}
-	wg.Wait()
-	if err, ok := ctxErr.Load().(error); ok {
+	// Run numbers of zone z start at runBase[z].
+	var runBase [numZones + 1]int
+	for z := 0; z < numZones; z++ {
+		runBase[z+1] = runBase[z] + (zoneStart[z+1]-zoneStart[z]+runLen-1)/runLen
+	}
+	ix.runStart = make([]int32, runBase[numZones]+1)
+	ix.runStart[runBase[numZones]] = int32(m)
+
+	err := parallelBatches(ctx, numZones, workers, func(z int) {
+		lo, hi := zoneStart[z], zoneStart[z+1]
+		if lo == hi {
+			return
+		}
+		tr := new(rtree.RTreeGN[float64, int32])
+		for run := runBase[z]; run < runBase[z+1]; run++ {
+			a := lo + (run-runBase[z])*runLen
+			b := min(a+runLen, hi)
+			ix.runStart[run] = int32(a)
+			bmin := [2]float64{ix.pts[a].raDeg, ix.pts[a].decDeg}
+			bmax := bmin
+			for _, q := range ix.pts[a+1 : b] {
+				bmin = [2]float64{min(bmin[0], q.raDeg), min(bmin[1], q.decDeg)}
+				bmax = [2]float64{max(bmax[0], q.raDeg), max(bmax[1], q.decDeg)}
+			}
+			tr.Insert(bmin, bmax, int32(run))
+		}
+		ix.zones[z] = tr
+	})
+	if err != nil {
 		return nil, err
 	}
 	return ix, nil
 }
 
+// spatialOrder returns the rows with finite positions ordered by zone, then
+// ra bin (raBins per zone), then row (a stable counting sort), and the
+// start of each zone in that order. Positions must be valid.
+func spatialOrder(n int, pos func(int) (raDeg, decDeg float64), raBins int) (order []int32, zoneStart [numZones + 1]int) {
+	nKeys := numZones * raBins
+	counts := make([]int32, nKeys+1)
+	keys := make([]int32, n)
+	for i := range n {
+		ra, dec := pos(i)
+		if math.IsNaN(ra) || math.IsNaN(dec) {
+			keys[i] = -1
+			continue
+		}
+		b := min(int(normRA(ra)/360*float64(raBins)), raBins-1)
+		k := int32(zoneOf(dec)*raBins + b)
+		keys[i] = k
+		counts[k+1]++
+	}
+	for k := 1; k <= nKeys; k++ {
+		counts[k] += counts[k-1]
+	}
+	order = make([]int32, counts[nKeys])
+	for z := 0; z <= numZones; z++ {
+		zoneStart[z] = int(counts[z*raBins])
+	}
+	for i, k := range keys {
+		if k >= 0 {
+			order[counts[k]] = int32(i)
+			counts[k]++
+		}
+	}
+	return order, zoneStart
+}
+
 // Len is the number of rows the index was built from; Indexed the number
 // that had a position and went into the index.
-func (ix *Index) Len() int     { return len(ix.raRad) }
-func (ix *Index) Indexed() int { return ix.indexed }
+func (ix *Index) Len() int     { return ix.n }
+func (ix *Index) Indexed() int { return len(ix.row) }
 
 // Within appends to dst every indexed row whose separation from (raDeg,
 // decDeg) is at most radiusDeg, in ascending row order, and returns it.
 // It is safe for concurrent use.
 func (ix *Index) Within(raDeg, decDeg, radiusDeg float64, dst []Neighbor) []Neighbor {
 	start := len(dst)
-	if math.IsNaN(raDeg) || math.IsNaN(decDeg) || !(radiusDeg >= 0) {
-		return dst
+	var buf [16]hit
+	for _, h := range ix.within(raDeg, decDeg, radiusDeg, buf[:0]) {
+		dst = append(dst, Neighbor{Row: ix.row[h.pos], SepRad: h.sepRad})
 	}
-	ra0, dec0 := normRA(raDeg)*radPerDeg, decDeg*radPerDeg
-	radiusRad := radiusDeg * radPerDeg
-	ix.searchBoxes(normRA(raDeg), decDeg, radiusDeg, func(r int32) {
-		sep := sky.Separation(ra0, dec0, ix.raRad[r], ix.decRad[r])
-		if sep <= radiusRad {
-			dst = append(dst, Neighbor{Row: r, SepRad: sep})
-		}
-	})
 	found := dst[start:]
 	if len(found) > 1 {
 		slices.SortFunc(found, func(a, b Neighbor) int { return int(a.Row - b.Row) })
@@ -172,10 +193,30 @@ func (ix *Index) Within(raDeg, decDeg, radiusDeg float64, dst []Neighbor) []Neig
 	return dst
 }
 
-// searchBoxes calls fn for every indexed row inside the (ra, dec) boxes that
-// enclose the cap of radius radiusDeg around (raDeg in [0,360), decDeg). A
-// row is reported once: zones do not overlap and the RA pieces are disjoint.
-func (ix *Index) searchBoxes(raDeg, decDeg, radiusDeg float64, fn func(int32)) {
+// within appends the points within radiusDeg of (raDeg, decDeg), in no
+// particular order.
+func (ix *Index) within(raDeg, decDeg, radiusDeg float64, dst []hit) []hit {
+	if math.IsNaN(raDeg) || math.IsNaN(decDeg) || !(radiusDeg >= 0) {
+		return dst
+	}
+	ra := normRA(raDeg)
+	ra0, dec0 := ra*radPerDeg, decDeg*radPerDeg
+	radiusRad := radiusDeg * radPerDeg
+	ix.searchBoxes(ra, decDeg, radiusDeg, func(p int) {
+		q := ix.pts[p]
+		sep := sky.Separation(ra0, dec0, q.raDeg*radPerDeg, q.decDeg*radPerDeg)
+		if sep <= radiusRad {
+			dst = append(dst, hit{pos: int32(p), sepRad: sep})
+		}
+	})
+	return dst
+}
+
+// searchBoxes calls fn for every indexed point (by position) inside the
+// (ra, dec) boxes that enclose the cap of radius radiusDeg around (raDeg in
+// [0,360), decDeg). A point is reported once: zones do not overlap and the
+// RA pieces are disjoint.
+func (ix *Index) searchBoxes(raDeg, decDeg, radiusDeg float64, fn func(int)) {
 	r := radiusDeg + boxPadDeg
 	decLo, decHi := decDeg-r, decDeg+r
 	var boxes [2][2]float64 // ra intervals
@@ -186,7 +227,8 @@ func (ix *Index) searchBoxes(raDeg, decDeg, radiusDeg float64, fn func(int32)) {
 		nb = 1
 	} else {
 		// RA half-width r / cos(dec) at the cap's extreme |dec| (common
-		// practice; it encloses the exact half-width asin(sin r / cos dec)).
+		// practice; it encloses the exact half-width asin(sin r / cos dec),
+		// which the tests check).
 		ext := math.Max(math.Abs(decLo), math.Abs(decHi))
 		hw := r/math.Cos(ext*radPerDeg) + boxPadDeg
 		lo, hi := raDeg-hw, raDeg+hw
@@ -208,17 +250,23 @@ func (ix *Index) searchBoxes(raDeg, decDeg, radiusDeg float64, fn func(int32)) {
 		}
 	}
 	decLo, decHi = math.Max(decLo, -90), math.Min(decHi, 90)
-	iter := func(_, _ [2]float64, row int32) bool {
-		fn(row)
-		return true
-	}
 	for z := zoneOf(decLo); z <= zoneOf(decHi); z++ {
 		tr := ix.zones[z]
 		if tr == nil {
 			continue
 		}
 		for b := 0; b < nb; b++ {
-			tr.Search([2]float64{boxes[b][0], decLo}, [2]float64{boxes[b][1], decHi}, iter)
+			raLo, raHi := boxes[b][0], boxes[b][1]
+			tr.Search([2]float64{raLo, decLo}, [2]float64{raHi, decHi},
+				func(_, _ [2]float64, run int32) bool {
+					for p := int(ix.runStart[run]); p < int(ix.runStart[run+1]); p++ {
+						q := ix.pts[p]
+						if q.raDeg >= raLo && q.raDeg <= raHi && q.decDeg >= decLo && q.decDeg <= decHi {
+							fn(p)
+						}
+					}
+					return true
+				})
 		}
 	}
 }

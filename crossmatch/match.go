@@ -78,9 +78,9 @@ type Stats struct {
 	// Overlap estimate: occupied cells shared by both catalogs and the
 	// number of rows of each catalog in them.
 	OverlapCells, PrimaryInOverlap, SecondaryInOverlap int
-	CandidatePairs int // all (primary, secondary) pairs within the radius
-	Matched        int
-	Ambiguous      int
+	CandidatePairs                                     int // all (primary, secondary) pairs within the radius
+	Matched                                            int
+	Ambiguous                                          int
 	// Primaries whose best candidate went to another primary.
 	BestTaken int
 }
@@ -99,7 +99,9 @@ const batchRows = 4096
 
 // pair is one candidate (primary i, secondary j).
 type pair struct {
-	i, j   int32
+	i, j   int32 // primary row, secondary row
+	pos    int32 // secondary's position in the index
+	nc     int32 // number of candidates of primary i
 	sepRad float64
 	lnB    float64
 }
@@ -152,22 +154,34 @@ func Match(ctx context.Context, primary, secondary *catalog.Table, opt Options) 
 	st.Propagated, st.NotPropagated = p.propagated, p.notPropagated
 	st.PrimaryFallbackErr, st.SecondaryFallbackErr = p.fallback, s.fallback
 
-	ix, err := NewIndex(ctx, s.raDeg, s.decDeg, opt.Workers)
+	// The query order and the prior do not need the index: compute them
+	// while it is built.
+	var order []int32
+	var nc, n1, n2 int
+	done := make(chan struct{})
+	go func() {
+		defer close(done)
+		order, _ = spatialOrder(len(p.pts), p.pos, binsPerZone)
+		res.Prior, res.OverlapSqDeg, nc, n1, n2 = overlapPrior(p.cells, s.cells)
+	}()
+	ix, err := newIndex(ctx, len(s.pts), s.pos, opt.Workers)
+	<-done
 	if err != nil {
 		return nil, fmt.Errorf("match: catalog %q: %w", secondary.Name, err)
 	}
-	var nc, n1, n2 int
-	res.Prior, res.OverlapSqDeg, nc, n1, n2 = overlapPrior(p.cells, s.cells)
 	st.OverlapCells, st.PrimaryInOverlap, st.SecondaryInOverlap = nc, n1, n2
 
-	pairs, nCand, maxR, err := searchAll(ctx, ix, p, s, &opt)
+	pairs, maxR, err := searchAll(ctx, ix, order, p, s, &opt)
 	if err != nil {
 		return nil, err
 	}
 	st.CandidatePairs = len(pairs)
 	st.MaxSearchRadiusArcsec = maxR / radPerArcsec
 
-	res.Matches = resolve(pairs, nCand, primary.Len(), secondary.Len(), opt.AmbiguityRatio, res.Prior, st)
+	res.Matches, err = resolve(ctx, pairs, primary.Len(), ix.Indexed(), &opt, res.Prior, st)
+	if err != nil {
+		return nil, err
+	}
 	for i := range res.Matches {
 		if m := &res.Matches[i]; m.Secondary >= 0 {
 			m.SourceID = secondary.IDs[m.Secondary]
@@ -223,8 +237,7 @@ func checkTable(t *catalog.Table) error {
 
 // side is one catalog made ready for matching.
 type side struct {
-	raDeg, decDeg []float64 // at the secondary epoch
-	sigmaRad      []float64 // circular positional error at that epoch
+	pts           []query // at the secondary epoch; NaN ra for no position
 	cells         []uint16
 	maxSigmaRad   float64
 	noPos         int
@@ -232,6 +245,11 @@ type side struct {
 	notPropagated int
 	fallback      int
 }
+
+// query is one row's position (deg) and circular positional error (rad).
+type query struct{ raDeg, decDeg, sigmaRad float64 }
+
+func (sd *side) pos(i int) (float64, float64) { return sd.pts[i].raDeg, sd.pts[i].decDeg }
 
 // rowErr names a row's source line (or row number when lines are unknown).
 func rowErr(t *catalog.Table, i int, field catalog.Field, format string, args ...any) error {
@@ -276,8 +294,7 @@ func rms(a, b float64) (float64, bool) {
 func prepare(ctx context.Context, t *catalog.Table, dtYr float64, move bool, fallbackMas float64, workers int) (*side, error) {
 	n := t.Len()
 	sd := &side{
-		raDeg: make([]float64, n), decDeg: make([]float64, n),
-		sigmaRad: make([]float64, n), cells: make([]uint16, n),
+		pts: make([]query, n), cells: make([]uint16, n),
 	}
 	ra, dec := col(t, catalog.RA), col(t, catalog.Dec)
 	raErr, decErr := col(t, catalog.RAErr), col(t, catalog.DecErr)
@@ -301,7 +318,7 @@ func prepare(ctx context.Context, t *catalog.Table, dtYr float64, move bool, fal
 			r, d := ra[i], dec[i]
 			if math.IsNaN(r) || math.IsNaN(d) {
 				tl.noPos++
-				sd.raDeg[i], sd.decDeg[i], sd.sigmaRad[i] = math.NaN(), math.NaN(), math.NaN()
+				sd.pts[i] = query{math.NaN(), math.NaN(), math.NaN()}
 				sd.cells[i] = noCell
 				continue
 			}
@@ -338,9 +355,8 @@ func prepare(ctx context.Context, t *catalog.Table, dtYr float64, move bool, fal
 					sigMas = math.Hypot(sigMas, pmSig*absDt)
 				}
 			}
-			sd.raDeg[i], sd.decDeg[i] = r, d
 			sig := sigMas * radPerMas
-			sd.sigmaRad[i] = sig
+			sd.pts[i] = query{r, d, sig}
 			tl.maxSigma = max(tl.maxSigma, sig)
 			sd.cells[i] = cellOf(r, d)
 		}
@@ -389,89 +405,114 @@ func parallelBatches(ctx context.Context, nb, workers int, fn func(b int)) error
 	return ctx.Err()
 }
 
-// searchAll finds every candidate pair; pairs come out ordered by primary
-// row then secondary row whatever the worker count.
-func searchAll(ctx context.Context, ix *Index, p, s *side, opt *Options) ([]pair, []int32, float64, error) {
-	n := len(p.raDeg)
-	nb := (n + batchRows - 1) / batchRows
+// searchAll finds every candidate pair. Queries run in spatial order (for
+// cache locality) and pairs come out in that order, each primary's pairs
+// contiguous and ordered by secondary row; the order does not depend on the
+// worker count.
+func searchAll(ctx context.Context, ix *Index, order []int32, p, s *side, opt *Options) ([]pair, float64, error) {
+	// Secondary errors in index order, read near-sequentially below.
+	sigByPos := make([]float64, ix.Indexed())
+	if err := parallelBatches(ctx, (len(sigByPos)+batchRows-1)/batchRows, opt.Workers, func(b int) {
+		for k := b * batchRows; k < min(len(sigByPos), (b+1)*batchRows); k++ {
+			sigByPos[k] = s.pts[ix.row[k]].sigmaRad
+		}
+	}); err != nil {
+		return nil, 0, err
+	}
+	nb := (len(order) + batchRows - 1) / batchRows
 	out := make([][]pair, nb)
 	maxR := make([]float64, nb)
-	nCand := make([]int32, n)
 	fixedRad := opt.RadiusArcsec * radPerArcsec
 	floorRad := opt.RadiusFloorArcsec * radPerArcsec
 	err := parallelBatches(ctx, nb, opt.Workers, func(b int) {
-		var nbuf []Neighbor
-		var ps []pair
-		for i := b * batchRows; i < min(n, (b+1)*batchRows); i++ {
-			ra, dec := p.raDeg[i], p.decDeg[i]
-			if math.IsNaN(ra) {
-				continue
-			}
-			s1 := p.sigmaRad[i]
+		var hits []hit
+		ps := make([]pair, 0, batchRows+batchRows/4)
+		for _, i := range order[b*batchRows : min(len(order), (b+1)*batchRows)] {
+			q := p.pts[i]
+			s1 := q.sigmaRad
 			rSearch := fixedRad
 			if opt.NSigma > 0 {
 				rSearch = max(opt.NSigma*math.Hypot(s1, s.maxSigmaRad), floorRad)
 			}
 			maxR[b] = max(maxR[b], rSearch)
-			nbuf = ix.Within(ra, dec, rSearch*degPerRad, nbuf[:0])
-			for _, nb := range nbuf {
-				s2 := s.sigmaRad[nb.Row]
-				if opt.NSigma > 0 && nb.SepRad > max(opt.NSigma*math.Hypot(s1, s2), floorRad) {
+			hits = ix.within(q.raDeg, q.decDeg, rSearch*degPerRad, hits[:0])
+			first := len(ps)
+			for _, h := range hits {
+				s2 := sigByPos[h.pos]
+				if opt.NSigma > 0 && h.sepRad > max(opt.NSigma*math.Hypot(s1, s2), floorRad) {
 					continue
 				}
-				ps = append(ps, pair{i: int32(i), j: nb.Row, sepRad: nb.SepRad, lnB: LogBayesFactor(nb.SepRad, s1, s2)})
-				nCand[i]++
+				ps = append(ps, pair{i: i, j: ix.row[h.pos], pos: h.pos, sepRad: h.sepRad, lnB: LogBayesFactor(h.sepRad, s1, s2)})
+			}
+			mine := ps[first:]
+			if len(mine) > 1 {
+				slices.SortFunc(mine, func(a, b pair) int { return int(a.j - b.j) })
+			}
+			for k := range mine {
+				mine[k].nc = int32(len(mine))
 			}
 		}
 		out[b] = ps
 	})
 	if err != nil {
-		return nil, nil, 0, err
+		return nil, 0, err
 	}
-	total := 0
-	for _, ps := range out {
-		total += len(ps)
+	offs := make([]int, nb+1)
+	for b, ps := range out {
+		offs[b+1] = offs[b] + len(ps)
 	}
-	all := make([]pair, 0, total)
-	for _, ps := range out {
-		all = append(all, ps...)
+	all := make([]pair, offs[nb])
+	if err := parallelBatches(ctx, nb, opt.Workers, func(b int) {
+		copy(all[offs[b]:], out[b])
+		out[b] = nil
+	}); err != nil {
+		return nil, 0, err
 	}
-	return all, nCand, slices.Max(append(maxR, 0)), nil
+	return all, slices.Max(append(maxR, 0)), nil
 }
 
 // resolve applies the one-to-one greedy and the ambiguity rule (see Match).
-// pairs are ordered by primary then secondary row.
-func resolve(pairs []pair, nCand []int32, n1, n2 int, ratio, p0 float64, st *Stats) []Counterpart {
-	lnRatio := math.Log(ratio)
+// Each primary's pairs are contiguous in pairs; nPos is the number of index
+// positions (pair.pos is below it). No decision depends on the order of
+// pairs.
+func resolve(ctx context.Context, pairs []pair, n1, nPos int, opt *Options, p0 float64, st *Stats) ([]Counterpart, error) {
+	lnRatio := math.Log(opt.AmbiguityRatio)
+	post := newPosterior(p0)
 	out := make([]Counterpart, n1)
 	for i := range out {
-		out[i] = Counterpart{Secondary: -1, SepArcsec: math.NaN(), BayesFactor: math.NaN(), Candidates: nCand[i]}
+		out[i] = Counterpart{Secondary: -1, SepArcsec: math.NaN(), BayesFactor: math.NaN()}
 	}
-	// Primaries per secondary, as CSR.
-	secStart := make([]int32, n2+1)
-	for _, pr := range pairs {
-		secStart[pr.j+1]++
+	// Primaries per secondary (by index position), as CSR.
+	secStart := make([]int32, nPos+1)
+	for k := range pairs {
+		secStart[pairs[k].pos+1]++
 	}
-	for j := 1; j <= n2; j++ {
-		secStart[j] += secStart[j-1]
+	for q := 1; q <= nPos; q++ {
+		secStart[q] += secStart[q-1]
 	}
-	secPairs := make([]int32, len(pairs)) // indices into pairs
-	fill := slices.Clone(secStart[:n2])
-	for k, pr := range pairs {
-		secPairs[fill[pr.j]] = int32(k)
-		fill[pr.j]++
-	}
-	nSec := func(j int32) int32 { return secStart[j+1] - secStart[j] }
+	nSec := func(pos int32) int32 { return secStart[pos+1] - secStart[pos] }
 
-	// Pairs alone in their connected component are accepted directly; the
-	// greedy over the rest gives the same result as the greedy over all,
-	// because a pair's fate depends only on pairs sharing its rows.
+	// A pair alone in its connected component of the candidate graph is
+	// accepted directly (below); the greedy over the rest gives the same
+	// result as the greedy over all pairs, because a pair's fate depends
+	// only on the pairs sharing its primary or secondary.
 	var hard []int32
-	for k, pr := range pairs {
-		if nCand[pr.i] == 1 && nSec(pr.j) == 1 {
-			accept(&out[pr.i], pr, p0)
-		} else {
+	var shared bool
+	for k := range pairs {
+		pr := &pairs[k]
+		if pr.nc > 1 || nSec(pr.pos) > 1 {
 			hard = append(hard, int32(k))
+			shared = shared || nSec(pr.pos) > 1
+		}
+	}
+	var secPairs []int32 // pair indices by secondary, only when shared
+	if shared {
+		secPairs = make([]int32, len(pairs))
+		fill := slices.Clone(secStart[:nPos])
+		for k := range pairs {
+			q := pairs[k].pos
+			secPairs[fill[q]] = int32(k)
+			fill[q]++
 		}
 	}
 	slices.SortFunc(hard, func(a, b int32) int {
@@ -486,55 +527,78 @@ func resolve(pairs []pair, nCand []int32, n1, n2 int, ratio, p0 float64, st *Sta
 	})
 	takenSec := make(map[int32]bool)
 	for _, k := range hard {
-		pr := pairs[k]
+		pr := &pairs[k]
 		if out[pr.i].Secondary >= 0 || takenSec[pr.j] {
 			continue
 		}
-		accept(&out[pr.i], pr, p0)
+		accept(&out[pr.i], pr, post)
 		takenSec[pr.j] = true
 	}
 
-	// Ambiguity, per primary over its contiguous run of pairs.
-	for start := 0; start < len(pairs); {
-		i := pairs[start].i
-		end := start + int(nCand[i])
-		best := start
-		for k := start + 1; k < end; k++ {
-			if pairs[k].lnB > pairs[best].lnB {
-				best = k
-			}
+	// Per primary (its contiguous run of pairs): trivial accept, candidate
+	// count, ambiguity. Chunks start at run boundaries; primaries differ
+	// between runs, so the writes do not overlap.
+	type tally struct{ matched, ambiguous, bestTaken int }
+	nb := (len(pairs) + batchRows - 1) / batchRows
+	tallies := make([]tally, nb)
+	err := parallelBatches(ctx, nb, opt.Workers, func(b int) {
+		start := b * batchRows
+		for start > 0 && start < len(pairs) && pairs[start-1].i == pairs[start].i {
+			start++ // this run belongs to the previous chunk
 		}
-		bp := pairs[best]
-		amb := false
-		for k := start; k < end && !amb; k++ {
-			amb = k != best && pairs[k].lnB >= bp.lnB-lnRatio
-		}
-		if nSec(bp.j) > 1 {
-			for _, k := range secPairs[secStart[bp.j]:secStart[bp.j+1]] {
-				if pairs[k].i != i && math.Abs(pairs[k].lnB-bp.lnB) <= lnRatio {
-					amb = true
+		tl := &tallies[b]
+		for start < len(pairs) && start < (b+1)*batchRows {
+			i := pairs[start].i
+			end := start + int(pairs[start].nc)
+			m := &out[i]
+			m.Candidates = pairs[start].nc
+			best := start
+			for k := start + 1; k < end; k++ {
+				if pairs[k].lnB > pairs[best].lnB {
+					best = k
 				}
 			}
+			bp := &pairs[best]
+			amb := false
+			for k := start; k < end && !amb; k++ {
+				amb = k != best && pairs[k].lnB >= bp.lnB-lnRatio
+			}
+			if nSec(bp.pos) > 1 {
+				for _, k := range secPairs[secStart[bp.pos]:secStart[bp.pos+1]] {
+					if pairs[k].i != i && math.Abs(pairs[k].lnB-bp.lnB) <= lnRatio {
+						amb = true
+					}
+				}
+			} else if bp.nc == 1 {
+				accept(m, bp, post)
+			}
+			m.Ambiguous = amb
+			if m.Secondary != bp.j {
+				tl.bestTaken++
+			}
+			if amb {
+				tl.ambiguous++
+			}
+			if m.Secondary >= 0 {
+				tl.matched++
+			}
+			start = end
 		}
-		m := &out[i]
-		m.Ambiguous = amb
-		if m.Secondary != bp.j {
-			st.BestTaken++
-		}
-		if amb {
-			st.Ambiguous++
-		}
-		if m.Secondary >= 0 {
-			st.Matched++
-		}
-		start = end
+	})
+	if err != nil {
+		return nil, err
 	}
-	return out
+	for _, tl := range tallies {
+		st.Matched += tl.matched
+		st.Ambiguous += tl.ambiguous
+		st.BestTaken += tl.bestTaken
+	}
+	return out, nil
 }
 
-func accept(m *Counterpart, pr pair, p0 float64) {
+func accept(m *Counterpart, pr *pair, post posterior) {
 	m.Secondary = pr.j
-	m.Prob = PosteriorLog(pr.lnB, p0)
+	m.Prob = post.of(pr.lnB)
 	m.SepArcsec = pr.sepRad / radPerArcsec
 	m.BayesFactor = math.Exp(pr.lnB)
 }
