@@ -48,7 +48,9 @@ const (
 // value scaled by the modelled distance change, so no invented parallax
 // leaks out; such stars do not round-trip exactly (each call re-derives the
 // raised parallax from the proper motion of its own epoch; the tests see up
-// to ~1 mas over 200 yr for stars moving ~3 arcsec/yr).
+// to ~1 mas over 200 yr for stars moving ~3 arcsec/yr, and tens of mas
+// within ~|mu| x 1 yr of a pole, where ERFA's estimate of the yearly motion
+// breaks down).
 //
 // Otherwise it moves the position along the great circle in the direction
 // of the proper motion by |mu| (toJyr - fromJyr), which stays correct across
@@ -126,12 +128,15 @@ func propagateSpace(a Astrometry, dtDay float64) (Astrometry, bool) {
 	pmDecRad := a.PMDecMasYr * masToRad
 
 	// eraPmsafe: raise the parallax so that the transverse speed stays
-	// below about 1% c, and to at least PXMIN. ERFA sizes the yearly motion
-	// with eraSeps from (ra, dec) to (ra + dRA/dt, dec + dDec/dt), which
-	// equals |mu| to second order but breaks down within |mu| of a pole;
-	// we use |mu| itself (the agreement with ERFA is checked in the tests).
+	// below about 1% c, and to at least PXMIN. Like ERFA, size the yearly
+	// motion with eraSeps from (ra, dec) to (ra + dRA/dt, dec + dDec/dt);
+	// that equals |mu| to second order but not within ~|mu| x 1 yr of a
+	// pole, and we keep ERFA's value there so that results agree.
 	pxAs := a.ParallaxMas / 1000
-	pmYr := math.Hypot(pmRARad, pmDecRad)
+	pmYr := Separation(raRad, decRad, raRad+pmRARad/math.Cos(decRad), decRad+pmDecRad)
+	if math.IsNaN(pmYr) || math.IsInf(pmYr, 0) {
+		pmYr = math.Hypot(pmRARad, pmDecRad)
+	}
 	usedPxAs := pxAs
 	if usedPxAs < pmsafeSpeedFactor*pmYr {
 		usedPxAs = pmsafeSpeedFactor * pmYr
