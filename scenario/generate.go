@@ -86,8 +86,6 @@ func Injected(pop string) bool {
 	return pop == PopGCEjectee || pop == PopDiskRunaway || pop == PopHaloFast
 }
 
-func newGalaxy() *galaxy { return shimGalaxy() }
-
 // Generate writes a scenario into dir (created if missing): the three
 // catalogs of release 1, the campaign file, truth.csv and bad_rows.csv.
 // The output is a function of cfg alone.
@@ -99,7 +97,11 @@ func Generate(cfg Config, dir string) (*Scenario, error) {
 	if err := os.MkdirAll(dir, 0o755); err != nil {
 		return nil, fmt.Errorf("scenario: %w", err)
 	}
-	s := &Scenario{Config: cfg, Dir: dir, Release: 1, galaxy: newGalaxy()}
+	g, err := newGalaxy()
+	if err != nil {
+		return nil, err
+	}
+	s := &Scenario{Config: cfg, Dir: dir, Release: 1, galaxy: g}
 	if err := s.sample(); err != nil {
 		return nil, err
 	}

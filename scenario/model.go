@@ -1,41 +1,57 @@
 package scenario
 
 import (
+	"fmt"
 	"math"
 
 	"starvet/vetting/frames"
+	"starvet/vetting/orbit"
+	"starvet/vetting/potential"
 )
 
 // galaxy bundles what the generator needs from the Galactic model: the Sun
-// that maps Galactocentric phase space to observables, the potential, the
-// escape speed and an orbit integrator. Truth is computed with the same Sun
-// and potential that the campaign file names.
+// that maps Galactocentric phase space to observables, and the potential.
+// Truth is computed with the same Sun and potential that the campaign file
+// names (escape to infinity, the campaign default).
 type galaxy struct {
 	sun       frames.Sun
 	modelName string
-	phi       func(x [3]float64) float64    // (km/s)^2
-	accel     func(x [3]float64) [3]float64 // (km/s)^2/kpc
-	vesc      func(x [3]float64) float64    // km/s
-	advance   func(x, v [3]float64, tMyr float64) ([3]float64, [3]float64)
+	model     *potential.Model
 }
 
-// fromGalactocentric inverts frames.Sun.ToGalactocentric: it returns the
-// ICRS direction (radians), heliocentric distance (kpc), proper motions
-// (mas/yr, pm_ra = mu_alpha*) and radial velocity (km/s) of a star at
-// Galactocentric posKpc moving with velKms.
+func newGalaxy() (*galaxy, error) {
+	m, err := potential.Builtin(potential.DefaultModel)
+	if err != nil {
+		return nil, fmt.Errorf("scenario: %w", err)
+	}
+	return &galaxy{sun: frames.DefaultSun(), modelName: potential.DefaultModel, model: m}, nil
+}
+
+// vesc is the escape speed (km/s) at x to infinity.
+func (g *galaxy) vesc(x [3]float64) float64 { return g.model.EscapeSpeed(x, 0) }
+
+// vcirc is the circular speed (km/s) in the plane at cylindrical radius R.
+func (g *galaxy) vcirc(rKpc float64) float64 { return g.model.CircularVelocity(rKpc) }
+
+// advance integrates an orbit forward for tMyr with the project's
+// integrator at its default settings.
+func (g *galaxy) advance(x, v [3]float64, tMyr float64) ([3]float64, [3]float64) {
+	return orbit.Advance(g.model, x, v, tMyr, orbit.Options{})
+}
+
+// energy is the specific orbital energy (km/s)^2.
+func (g *galaxy) energy(x, v [3]float64) float64 { return 0.5*dot(v, v) + g.model.Phi(x) }
+
+// fromGalactocentric returns the ICRS direction (radians), heliocentric
+// distance (kpc), proper motions (mas/yr, pm_ra = mu_alpha*) and radial
+// velocity (km/s) of a star at Galactocentric posKpc moving with velKms.
 func fromGalactocentric(s frames.Sun, posKpc, velKms [3]float64) (raRad, decRad, distKpc, pmRAMasYr, pmDecMasYr, rvKms float64) {
-	return shimFromGalactocentric(s, posKpc, velKms)
+	return s.FromGalactocentric(posKpc, velKms)
 }
 
-// vcirc returns the circular speed (km/s) in the plane at cylindrical radius
-// rKpc: v_c^2 = R |dPhi/dR| (Binney & Tremaine 2008, Galactic Dynamics, 2nd
-// ed., eq. 2.17, for the z = 0 plane).
-func (g *galaxy) vcirc(rKpc float64) float64 {
-	a := g.accel([3]float64{rKpc, 0, 0})
-	return math.Sqrt(math.Max(0, -a[0]*rKpc))
-}
+func dot(a, b [3]float64) float64 { return a[0]*b[0] + a[1]*b[1] + a[2]*b[2] }
 
 // speed returns |v|.
-func speed(v [3]float64) float64 { return math.Sqrt(v[0]*v[0] + v[1]*v[1] + v[2]*v[2]) }
+func speed(v [3]float64) float64 { return math.Sqrt(dot(v, v)) }
 
 func norm(x [3]float64) float64 { return speed(x) }

@@ -47,7 +47,9 @@ type star struct {
 	flightMyr float64 // NaN unless ejected or kicked
 
 	posKpc, velKms [3]float64 // true, Galactocentric
-	absMag, color  float64
+	// launchPos/launchVel: state at ejection or kick (zero otherwise).
+	launchPos, launchVel [3]float64
+	absMag, color        float64
 
 	// True observables at the astrometric epoch.
 	raDeg, decDeg, distKpc float64
@@ -251,6 +253,7 @@ func (s *sampler) gcEjectee() (*star, error) {
 		tf := s.uniform(10, 250)
 		st := &star{pop: PopGCEjectee, origin: OriginGalacticCentre, flightMyr: tf,
 			absMag: s.uniform(-1.5, 1.5), color: -0.15 + 0.08*s.rng.NormFloat64()}
+		st.launchPos, st.launchVel = x, v
 		st.posKpc, st.velKms = s.g.advance(x, v, tf)
 		if s.finish(st) {
 			return st, nil
@@ -275,6 +278,7 @@ func (s *sampler) diskRunaway() (*star, error) {
 		tf := s.uniform(5, 60)
 		st := &star{pop: PopDiskRunaway, origin: OriginDisk, flightMyr: tf,
 			absMag: s.uniform(-3, 0.5), color: -0.2 + 0.08*s.rng.NormFloat64()}
+		st.launchPos, st.launchVel = x, v
 		st.posKpc, st.velKms = s.g.advance(x, v, tf)
 		if s.finish(st) {
 			return st, nil

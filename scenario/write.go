@@ -228,6 +228,9 @@ func (s *Scenario) writeCampaign() error {
 	cat(PhotometryName, filepath.Base(s.PhotometryPath), "photometry", PhotometryEpochJyr, "R1",
 		[][2]string{{"id", "phot_id"}, {"ra", "ra_h"}, {"dec", "decl"}, {"ra_err", "ra_unc"}, {"dec_err", "dec_unc"}, {"mag", "m_broad"}, {"color", "c_index"}},
 		[][2]string{{"ra", "hour"}, {"ra_err", "arcsec"}, {"dec_err", "arcsec"}})
+	sun := s.galaxy.sun
+	fmt.Fprintf(&b, "[galaxy]\nsun_distance_kpc = %s\nsun_height_pc = %s\nsun_velocity_kms = [%s, %s, %s]\n\n",
+		fg(sun.DistanceKpc), fg(sun.HeightPc), fg(sun.VelocityKms[0]), fg(sun.VelocityKms[1]), fg(sun.VelocityKms[2]))
 	fmt.Fprintf(&b, "[potential]\nmodel = %s\n\n", q(s.galaxy.modelName))
 	fmt.Fprintf(&b, "[kinematics]\nsamples = %d\n", s.Config.Samples)
 	if err := os.WriteFile(s.CampaignPath, []byte(b.String()), 0o644); err != nil {
