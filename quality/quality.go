@@ -434,9 +434,9 @@ func (e *Evaluator) match(r *rules.Rule, t *limitTexts, s *Star, o *Outcome, a *
 	return ResultPass
 }
 
-// run evaluates a compiled expression. When the expression does not call
-// is_missing and one of its float inputs is NaN, it is not run and the
-// input's name is returned instead.
+// run evaluates a compiled expression. When a float input is NaN and the
+// expression does not handle that (rules.Var.NaNOK), it is not run and the
+// input's name is returned instead, so a NaN comparison never decides.
 func (e *Evaluator) run(x *rules.Expr, s *Star, a *Assessment) (bool, string) {
 	if f, neg, ok := x.MissingTest(); ok {
 		return math.IsNaN(s.Values[f]) != neg, ""
@@ -447,7 +447,7 @@ func (e *Evaluator) run(x *rules.Expr, s *Star, a *Assessment) (bool, string) {
 		switch v.Kind {
 		case rules.VarField:
 			f := s.Values[v.Field]
-			if math.IsNaN(f) && !x.UsesIsMissing() {
+			if math.IsNaN(f) && !v.NaNOK {
 				return false, v.Name
 			}
 			val = f
@@ -460,7 +460,7 @@ func (e *Evaluator) run(x *rules.Expr, s *Star, a *Assessment) (bool, string) {
 			}
 		default:
 			f := e.derived(v, s)
-			if math.IsNaN(f) && !x.UsesIsMissing() {
+			if math.IsNaN(f) && !v.NaNOK && !(v.UnmatchedOK && !matchOf(s, v.Catalog).Matched) {
 				return false, v.Name
 			}
 			val = f

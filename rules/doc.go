@@ -44,8 +44,12 @@
 // and for each secondary catalog C (its name with characters other than
 // letters, digits and "_" turned into "_"): C_match_prob, C_sep_arcsec,
 // C_candidates (float64), C_ambiguous, C_matched (bool); plus
-// is_missing(x). An expression that does not call is_missing is skipped,
-// not evaluated, when one of its inputs is NaN.
+// is_missing(x). An expression is TRUE for a good star. It is skipped, not
+// evaluated, when one of its float inputs is NaN, so that a NaN comparison
+// never decides a verdict, unless it handles missing values itself: it
+// calls is_missing (then it is always evaluated as written), or it reads
+// C_matched (then C_match_prob and C_sep_arcsec may be NaN for a star
+// without a counterpart in C).
 //
 // Schema.AnyCatalog accepts every catalog name the file uses, for checking
 // a file without a campaign.

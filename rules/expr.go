@@ -36,6 +36,12 @@ type Var struct {
 	Kind    VarKind
 	Field   catalog.Field // for VarField
 	Catalog int           // index into Schema.Catalogs for the per-catalog kinds
+	// NaNOK is true when the expression handles missing values itself (it
+	// calls is_missing). UnmatchedOK is true for C_match_prob and
+	// C_sep_arcsec when the expression reads C_matched, so it handles the
+	// no-counterpart case itself. Otherwise a NaN value means the
+	// expression cannot be decided and the rule is skipped.
+	NaNOK, UnmatchedOK bool
 }
 
 // IsBool reports whether the variable is a bool (else float64).
@@ -94,9 +100,8 @@ func (e *Expr) Program() *vm.Program { return e.prog }
 // Vars lists the variables the expression reads, sorted by name.
 func (e *Expr) Vars() []Var { return e.vars }
 
-// UsesIsMissing reports whether the expression calls is_missing. When it
-// does not, an evaluator treats a NaN input as "cannot decide" rather than
-// letting a NaN comparison decide the result.
+// UsesIsMissing reports whether the expression calls is_missing. See
+// Var.NaNOK for what evaluators do with NaN inputs.
 func (e *Expr) UsesIsMissing() bool { return e.usesIsMissing }
 
 var matchSuffixes = []struct {
@@ -186,6 +191,17 @@ func (e *exprEnv) compile(src string) (*Expr, *file.Error, error) {
 	}
 	ast.Walk(&tree.Node, c)
 	out.vars = c.vars
+	guarded := map[int]bool{}
+	for _, v := range out.vars {
+		if v.Kind == VarMatched {
+			guarded[v.Catalog] = true
+		}
+	}
+	for i := range out.vars {
+		v := &out.vars[i]
+		v.NaNOK = c.isMissing
+		v.UnmatchedOK = (v.Kind == VarMatchProb || v.Kind == VarSepArcsec) && guarded[v.Catalog]
+	}
 	sort.Slice(out.vars, func(i, j int) bool { return out.vars[i].Name < out.vars[j].Name })
 	out.usesIsMissing = c.isMissing
 	out.canonical = tree.Node.String()
