@@ -85,7 +85,10 @@ func (st *stepper) timescale(s *state) float64 {
 		h = math.Min(h, math.Sqrt(r/a))
 	}
 	h *= st.eta
-	if !(h >= st.hMin) { // also catches NaN
+	if math.IsNaN(h) {
+		return h
+	}
+	if !(h >= st.hMin) {
 		return st.hMin
 	}
 	return math.Min(h, st.hMax)
@@ -120,6 +123,12 @@ func (st *stepper) kdk(s *state, h float64, out *state) {
 // tEnd was reached.
 func (st *stepper) step(s *state, tEnd float64) bool {
 	t0 := st.timescale(s)
+	if math.IsNaN(t0) {
+		// Non-finite state: end at once rather than stepping NaNs.
+		nan := math.NaN()
+		s.t, s.x, s.v = tEnd, [3]float64{nan, nan, nan}, [3]float64{nan, nan, nan}
+		return true
+	}
 	var trial state
 	if st.iterate {
 		st.kdk(s, st.dir*t0, &trial)
@@ -155,7 +164,8 @@ func (st *stepper) start(x, v [3]float64) state {
 // (negative integrates backward in time), calling visit at the start and
 // after every step with the time in Myr (same sign as tMyr) and the state.
 // It stops early when visit returns false. The last step is shortened to
-// end exactly at tMyr.
+// end exactly at tMyr. A non-finite start or state jumps to tMyr with a NaN
+// state.
 //
 // Steps are kick-drift-kick leapfrog with the time-symmetric adaptive step
 // of Hut, Makino & McMillan (1995, ApJ 443, L93): dt = Eta*min(r/|v|,

@@ -68,8 +68,11 @@ type Crossing struct {
 
 // TraceResult summarises the back-trace of one star's samples.
 type TraceResult struct {
-	Samples   int        // number of Monte Carlo samples traced
-	Crossings []Crossing // one per sample that crossed, in sample order
+	Samples int // number of Monte Carlo samples given
+	// InvalidSamples counts samples with a non-finite position or velocity;
+	// they are not integrated and count as not crossed.
+	InvalidSamples int
+	Crossings      []Crossing // one per sample that crossed, in sample order
 
 	FractionCrossed float64 // crossed samples / all samples
 	// PGCOrigin is the share of ALL samples whose crossing lies within
@@ -90,7 +93,7 @@ type TraceResult struct {
 	Origin        string // one of the Origin constants
 
 	FlightTimeMyr      float64 // median crossing time over crossed samples; NaN if none
-	ClosestApproachKpc float64 // median over all samples; NaN if none
+	ClosestApproachKpc float64 // median over valid samples; NaN if none
 }
 
 // TraceInput holds one star's Monte Carlo samples (Galactocentric, current
@@ -177,6 +180,11 @@ func Trace(p potential.Potential, pos, vel [][3]float64, s TraceSettings) TraceR
 	var flight []float64
 	nGC, nDisk := 0, 0
 	for i := range pos {
+		if !finite3(pos[i]) || !finite3(vel[i]) {
+			res.InvalidSamples++
+			closest[i] = math.NaN()
+			continue
+		}
 		t := traceSample(p, pos[i], vel[i], &s)
 		closest[i] = t.closestKp
 		if !t.crossed {
@@ -195,7 +203,7 @@ func Trace(p potential.Potential, pos, vel [][3]float64, s TraceSettings) TraceR
 	nc := len(res.Crossings)
 	res.FractionCrossed = float64(nc) / float64(n)
 	res.PGCOrigin = float64(nGC) / float64(n)
-	res.ClosestApproachKpc = median(closest)
+	res.ClosestApproachKpc = median(dropNaN(closest))
 	if nc == 0 {
 		return res
 	}
@@ -251,6 +259,25 @@ func centreDistance(cs []Crossing, tolKpc float64) float64 {
 		}
 	}
 	return math.Sqrt(d2)
+}
+
+func finite3(v [3]float64) bool {
+	for _, c := range v {
+		if math.IsNaN(c) || math.IsInf(c, 0) {
+			return false
+		}
+	}
+	return true
+}
+
+func dropNaN(v []float64) []float64 {
+	out := v[:0]
+	for _, x := range v {
+		if !math.IsNaN(x) {
+			out = append(out, x)
+		}
+	}
+	return out
 }
 
 func median(v []float64) float64 {

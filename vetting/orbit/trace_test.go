@@ -119,6 +119,34 @@ func TestTraceOrigins(t *testing.T) {
 	}
 }
 
+func TestTraceInvalidSamples(t *testing.T) {
+	p := builtin(t, potential.DefaultModel)
+	x, v := ejected(p, unit(40, 35), 1000, 80)
+	pos, vel := samples(5, 10, x, v, 0, 0)
+	pos[2][1] = math.NaN()
+	vel[7][0] = math.Inf(1)
+	r := Trace(p, pos, vel, TraceSettings{})
+	if r.InvalidSamples != 2 || len(r.Crossings) != 8 || r.FractionCrossed != 0.8 || r.PGCOrigin != 0.8 {
+		t.Errorf("invalid %d, crossings %d, fraction %v, pGC %v; want 2, 8, 0.8, 0.8",
+			r.InvalidSamples, len(r.Crossings), r.FractionCrossed, r.PGCOrigin)
+	}
+	if r.Origin != OriginGC || math.IsNaN(r.ClosestApproachKpc) {
+		t.Errorf("origin %q closest %v", r.Origin, r.ClosestApproachKpc)
+	}
+	// The integrator itself ends at once on a NaN state.
+	n := 0
+	Integrate(p, [3]float64{math.NaN(), 0, 0}, v, -300, Options{}, func(tm float64, x, _ [3]float64) bool {
+		n++
+		if n == 2 && (tm != -300 || !math.IsNaN(x[0])) {
+			t.Errorf("second visit at %v with x %v", tm, x)
+		}
+		return true
+	})
+	if n != 2 {
+		t.Errorf("NaN start visited %d times, want 2 (start, end)", n)
+	}
+}
+
 func TestTraceEmpty(t *testing.T) {
 	r := Trace(builtin(t, potential.DefaultModel), nil, nil, TraceSettings{})
 	if r.Origin != OriginUntraced || !math.IsNaN(r.FlightTimeMyr) || !math.IsNaN(r.ClosestApproachKpc) {
