@@ -20,7 +20,6 @@ const (
 	julianYear = 365.25        // days per Julian year
 	auLightSec = auM / speedLight
 	lightAUDay = daySec / auLightSec // speed of light, au/day
-	arcsecRad  = degToRad / 3600
 	kmsToAUDay = daySec * 1e3 / auM
 )
 
@@ -55,7 +54,8 @@ const (
 // Otherwise it moves the position along the great circle in the direction
 // of the proper motion by |mu| (toJyr - fromJyr), which stays correct across
 // the poles, and rotates the proper motion vector along; parallax and radial
-// velocity are returned unchanged.
+// velocity are returned unchanged. The great-circle path is also the
+// fallback for the (unphysical) inputs ERFA refuses, a speed reaching c.
 //
 // Unknown position or proper motion (either component NaN) returns a
 // unchanged, apart from wrapping RADeg.

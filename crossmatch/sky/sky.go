@@ -8,6 +8,7 @@ const (
 	radToDeg   = 180 / math.Pi
 	masToRad   = degToRad / 3.6e6
 	twoPi      = 2 * math.Pi
+	arcsecRad  = degToRad / 3600
 	muasPerRad = radToDeg * 3.6e9
 )
 
@@ -26,8 +27,9 @@ func Separation(ra1, dec1, ra2, dec2 float64) float64 {
 
 // PositionAngle returns the position angle of direction 2 seen from
 // direction 1 (radians in), measured from north through east, in [0, 2pi).
-// Coincident directions, and a start at a pole seen along its own meridian
-// convention, give 0. Formula: the sine and four-parts formulae of spherical
+// Coincident directions give 0; from a pole, north is taken along the
+// meridian ra1 (so the angle is pi - (ra2 - ra1) from the north pole).
+// Formula: the sine and four-parts formulae of spherical
 // trigonometry (Smart 1977, Textbook on Spherical Astronomy, 6th ed.),
 // combined with atan2; ERFA eraPas uses the same form.
 func PositionAngle(ra1, dec1, ra2, dec2 float64) float64 {

@@ -120,6 +120,7 @@ func TestUnitVectorRoundTrip(t *testing.T) {
 	}
 }
 
+// TestWrap: range reduction into [0, 360) and [0, 2pi) (definition).
 func TestWrap(t *testing.T) {
 	cases := []struct{ in, want float64 }{
 		{-1e-20, 0}, {360, 0}, {-360, 0}, {725, 5}, {-90, 270}, {359.5, 359.5},

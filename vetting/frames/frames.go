@@ -2,8 +2,8 @@ package frames
 
 import "math"
 
-// Defining angles of the Galactic frame in the Hipparcos catalogue (ESA 1997,
-// The Hipparcos and Tycho Catalogues, ESA SP-1200, Vol. 1, section 1.5.3):
+// Defining angles of the Galactic frame (ESA 1997, The Hipparcos and Tycho
+// Catalogues, ESA SP-1200, Vol. 1, section 1.5.3):
 // the north Galactic pole at (alpha, delta) = (192.85948, +27.12825) deg and
 // the Galactic longitude of the north celestial pole, 122.93192 deg.
 const (

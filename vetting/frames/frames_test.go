@@ -106,10 +106,9 @@ func angle(ra1, dec1, ra2, dec2 float64) float64 {
 	return math.Atan2(math.Hypot(cd2*sdr, cd1*sd2-sd1*cd2*cdr), sd1*sd2+cd1*cd2*cdr)
 }
 
-// TestKmsPerMasYrKpc: 1 au per Julian year in km/s, from 1 au =
-// 149 597 870.700 km (IAU 2012 Resolution B2) and 365.25 x 86400 s; the
-// value 4.740470464 is that quotient rounded (computed by hand, from memory
-// of the commonly quoted 4.74047).
+// TestKmsPerMasYrKpc: 1 au per Julian year in km/s. The check value
+// 4.740470464 is 149 597 870.700 km (1 au, IAU 2012 Resolution B2) divided by
+// 31 557 600 s (Julian year, 365.25 d), rounded to 10 digits.
 func TestKmsPerMasYrKpc(t *testing.T) {
 	if math.Abs(KmsPerMasYrKpc-4.740470464) > 5e-10 {
 		t.Errorf("KmsPerMasYrKpc = %.12f, want 4.740470464", KmsPerMasYrKpc)
