@@ -9,7 +9,12 @@
 //
 // Integrate/Advance use kick-drift-kick leapfrog with a time-symmetric
 // adaptive step (Hut, Makino & McMillan 1995, ApJ 443, L93) set by the local
-// dynamical time. Trace integrates each sample backward and reports the
-// first crossing of z = 0, the closest approach to the centre, the flight
-// time and an origin verdict; TraceAll spreads stars over worker goroutines.
+// dynamical time, one force evaluation per step. Trace integrates each
+// sample backward and reports the first crossing of z = 0 (x, y in kpc,
+// time before now in Myr), the closest approach to the centre, the flight
+// time and an origin verdict: "galactic-centre", "disk", "outer" or
+// "untraced" (see Trace). The stored centre figure GCConsistency is the
+// containment level 1 - exp(-D^2/2) of the centre, D its Mahalanobis
+// distance from the crossings. TraceAll spreads stars over worker
+// goroutines (default runtime.GOMAXPROCS(0)).
 package orbit

@@ -165,6 +165,11 @@ func norm(x [3]float64) float64 { return math.Sqrt(x[0]*x[0] + x[1]*x[1] + x[2]*
 // Trace back-traces the Monte Carlo samples of one star (pos[i], vel[i]) and
 // summarises where they crossed the Galactic plane. pos and vel must have
 // equal lengths (programmer error otherwise).
+//
+// Verdict, in order: "untraced" if fewer than half of all samples crossed;
+// "galactic-centre" if GCConsistency <= 0.95 (the centre lies inside the
+// 95 per cent ellipse of the crossings); "disk" if more than half of the
+// crossings lie within DiskRadiusKpc of the centre; otherwise "outer".
 func Trace(p potential.Potential, pos, vel [][3]float64, s TraceSettings) TraceResult {
 	if len(pos) != len(vel) {
 		panic("orbit.Trace: pos and vel lengths differ")
