@@ -100,3 +100,15 @@ func BenchmarkTrace1000x200(b *testing.B) {
 	b.ReportMetric(float64(counts[OriginDisk]), "disk-stars")
 	b.ReportMetric(float64(runtime.GOMAXPROCS(0)), "workers")
 }
+
+// BenchmarkTrace100x200 is a tenth of BenchmarkTrace1000x200, for profiling.
+func BenchmarkTrace100x200(b *testing.B) {
+	p, err := potential.Builtin(potential.DefaultModel)
+	if err != nil {
+		b.Fatal(err)
+	}
+	stars := benchStars(p, 100, 200, 2026)
+	for b.Loop() {
+		TraceAll(context.Background(), p, stars, TraceSettings{}, runtime.GOMAXPROCS(0))
+	}
+}

@@ -72,26 +72,33 @@ func newStepper(p potential.Potential, opt Options, dir float64) stepper {
 	}
 }
 
-// timescale is the unsigned step wanted at s, clamped.
+// timescale is the unsigned step wanted at s, clamped; NaN for a
+// non-finite state. It works with squares, h^2 = Eta^2 min(r^2/v^2, r/|a|),
+// to save square roots in the hot loop.
 func (st *stepper) timescale(s *state) float64 {
-	r := math.Sqrt(s.x[0]*s.x[0] + s.x[1]*s.x[1] + s.x[2]*s.x[2])
-	v := math.Sqrt(s.v[0]*s.v[0] + s.v[1]*s.v[1] + s.v[2]*s.v[2])
-	a := math.Sqrt(s.a[0]*s.a[0] + s.a[1]*s.a[1] + s.a[2]*s.a[2])
-	h := math.Inf(1)
-	if v > 0 {
-		h = r / v
+	r2 := s.x[0]*s.x[0] + s.x[1]*s.x[1] + s.x[2]*s.x[2]
+	v2 := s.v[0]*s.v[0] + s.v[1]*s.v[1] + s.v[2]*s.v[2]
+	a2 := s.a[0]*s.a[0] + s.a[1]*s.a[1] + s.a[2]*s.a[2]
+	if math.IsNaN(r2 + v2 + a2) {
+		return math.NaN()
 	}
-	if a > 0 {
-		h = math.Min(h, math.Sqrt(r/a))
+	t2 := math.Inf(1) // (r/v)^2, then min with r/a
+	if v2 > 0 {
+		t2 = r2 / v2
 	}
-	h *= st.eta
-	if math.IsNaN(h) {
-		return h
+	if a2 > 0 {
+		if q := math.Sqrt(r2 / a2); q < t2 {
+			t2 = q
+		}
 	}
-	if !(h >= st.hMin) {
+	h := st.eta * math.Sqrt(t2)
+	if !(h >= st.hMin) { // also r = 0
 		return st.hMin
 	}
-	return math.Min(h, st.hMax)
+	if h > st.hMax {
+		return st.hMax
+	}
+	return h
 }
 
 // kdk is one kick-drift-kick leapfrog step of signed length h (the velocity
