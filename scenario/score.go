@@ -155,7 +155,8 @@ func Score(truth []TruthRow, verdicts map[string]Verdict) Figures {
 	return f
 }
 
-// TruthError is a problem in a truth file, with its position.
+// TruthError is a problem in a truth file, with its position: 1-based line
+// and field index (for a CSV syntax error, the byte column csv reports).
 type TruthError struct {
 	File         string
 	Line, Column int
@@ -221,8 +222,8 @@ func readTruth(r io.Reader, name string) ([]TruthRow, error) {
 			}
 			v, err := strconv.ParseFloat(s, 64)
 			if err != nil {
-				l, c := cr.FieldPos(i)
-				perr = &TruthError{File: name, Line: l, Column: c, Reason: fmt.Sprintf("%s: not a number: %q", h, s)}
+				l, _ := cr.FieldPos(i)
+				perr = &TruthError{File: name, Line: l, Column: i + 1, Reason: fmt.Sprintf("%s: not a number: %q", h, s)}
 			}
 			return v
 		}
@@ -233,8 +234,8 @@ func readTruth(r io.Reader, name string) ([]TruthRow, error) {
 			}
 			v, err := strconv.ParseBool(s)
 			if err != nil {
-				l, c := cr.FieldPos(i)
-				perr = &TruthError{File: name, Line: l, Column: c, Reason: fmt.Sprintf("%s: not true/false: %q", h, s)}
+				l, _ := cr.FieldPos(i)
+				perr = &TruthError{File: name, Line: l, Column: i + 1, Reason: fmt.Sprintf("%s: not true/false: %q", h, s)}
 			}
 			return v
 		}
