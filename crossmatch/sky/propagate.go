@@ -132,14 +132,19 @@ func propagateSpace(a Astrometry, dtDay float64) (Astrometry, bool) {
 	// motion with eraSeps from (ra, dec) to (ra + dRA/dt, dec + dDec/dt);
 	// that equals |mu| to second order but not within ~|mu| x 1 yr of a
 	// pole, and we keep ERFA's value there so that results agree.
+	// The eraSeps value never exceeds |mu_alpha*| + |mu_delta| (the path
+	// along the parallel, then the meridian, is no shorter than the great
+	// circle), so it is only needed when that bound could trigger the rule.
 	pxAs := a.ParallaxMas / 1000
-	pmYr := Separation(raRad, decRad, raRad+pmRARad/math.Cos(decRad), decRad+pmDecRad)
-	if math.IsNaN(pmYr) || math.IsInf(pmYr, 0) {
-		pmYr = math.Hypot(pmRARad, pmDecRad)
-	}
 	usedPxAs := pxAs
-	if usedPxAs < pmsafeSpeedFactor*pmYr {
-		usedPxAs = pmsafeSpeedFactor * pmYr
+	if pxAs < pmsafeSpeedFactor*(math.Abs(pmRARad)+math.Abs(pmDecRad)) {
+		pmYr := Separation(raRad, decRad, raRad+pmRARad/math.Cos(decRad), decRad+pmDecRad)
+		if math.IsNaN(pmYr) || math.IsInf(pmYr, 0) {
+			pmYr = math.Hypot(pmRARad, pmDecRad)
+		}
+		if usedPxAs < pmsafeSpeedFactor*pmYr {
+			usedPxAs = pmsafeSpeedFactor * pmYr
+		}
 	}
 	if usedPxAs < pmsafeMinParallaxAs {
 		usedPxAs = pmsafeMinParallaxAs

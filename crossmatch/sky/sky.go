@@ -68,6 +68,9 @@ func FromUnitVector(v [3]float64) (raRad, decRad float64) {
 
 // wrapTwoPi maps an angle in radians into [0, 2pi).
 func wrapTwoPi(a float64) float64 {
+	if a >= 0 && a < twoPi {
+		return a
+	}
 	a = math.Mod(a, twoPi)
 	if a < 0 {
 		a += twoPi
@@ -80,6 +83,9 @@ func wrapTwoPi(a float64) float64 {
 
 // wrapDeg360 maps an angle in degrees into [0, 360).
 func wrapDeg360(a float64) float64 {
+	if a >= 0 && a < 360 {
+		return a
+	}
 	a = math.Mod(a, 360)
 	if a < 0 {
 		a += 360
