@@ -39,7 +39,8 @@ const (
 // With a positive parallax and a known radial velocity it uses rigorous
 // straight-line space motion including the light-time and special
 // relativistic corrections, equivalent to ERFA eraPmsafe (which calls
-// eraStarpm; IAU SOFA Board, SOFA Astrometry Tools, 2021), including its
+// eraStarpm; IAU SOFA Board, SOFA Astrometry Tools, 2021; the relativistic
+// treatment follows Stumpff 1985, A&A 144, 232, as SOFA cites), including its
 // override of tiny parallaxes: a parallax below 326 x the yearly motion
 // (transverse speed above ~1% c) or below 0.5 micro-arcsec is raised to that
 // bound for the computation. It returns the new parallax and radial velocity
@@ -58,7 +59,8 @@ const (
 // fallback for the (unphysical) inputs ERFA refuses, a speed reaching c.
 //
 // Unknown position or proper motion (either component NaN) returns a
-// unchanged, apart from wrapping RADeg.
+// unchanged, apart from wrapping RADeg. Epochs must be finite (a NaN epoch
+// gives a NaN position); callers validate them where they are read.
 func Propagate(a Astrometry, fromJyr, toJyr float64) Astrometry {
 	a.RADeg = wrapDeg360(a.RADeg)
 	if math.IsNaN(a.RADeg) || math.IsNaN(a.DecDeg) || math.IsNaN(a.PMRAMasYr) || math.IsNaN(a.PMDecMasYr) || fromJyr == toJyr {
