@@ -252,13 +252,13 @@ type query struct{ raDeg, decDeg, sigmaRad float64 }
 func (sd *side) pos(i int) (float64, float64) { return sd.pts[i].raDeg, sd.pts[i].decDeg }
 
 // rowErr names a row's source line (or row number when lines are unknown).
-func rowErr(t *catalog.Table, i int, field catalog.Field, format string, args ...any) error {
+func rowErr(t *catalog.Table, i int, field catalog.Field, sentinel error, format string, args ...any) error {
 	where := fmt.Sprintf("row %d", i+1)
 	if i < len(t.Lines) && t.Lines[i] > 0 {
 		where = fmt.Sprintf("line %d", t.Lines[i])
 	}
-	return fmt.Errorf("match: catalog %q: %s: column %s: %s", t.Name, where,
-		catalog.Fields[field].Name, fmt.Sprintf(format, args...))
+	return fmt.Errorf("match: catalog %q: %s: column %s: %s: %w", t.Name, where,
+		catalog.Fields[field].Name, fmt.Sprintf(format, args...), sentinel)
 }
 
 // col returns t's column f, or nil.
@@ -323,18 +323,18 @@ func prepare(ctx context.Context, t *catalog.Table, dtYr float64, move bool, fal
 				continue
 			}
 			if math.IsInf(r, 0) {
-				tl.err = rowErr(t, i, catalog.RA, "value %g: %v", r, ErrBadPosition)
+				tl.err = rowErr(t, i, catalog.RA, ErrBadPosition, "value %g", r)
 				return
 			}
 			if !(d >= -90 && d <= 90) {
-				tl.err = rowErr(t, i, catalog.Dec, "value %g outside [-90, 90]: %v", d, ErrBadPosition)
+				tl.err = rowErr(t, i, catalog.Dec, ErrBadPosition, "value %g outside [-90, 90]", d)
 				return
 			}
 			r = normRA(r)
 			sigMas, ok := rms(at(raErr, i), at(decErr, i))
 			if !ok {
 				if fallbackMas <= 0 {
-					tl.err = rowErr(t, i, catalog.RAErr, "no ra_err/dec_err and no fallback positional error: %v", ErrNoPositionError)
+					tl.err = rowErr(t, i, catalog.RAErr, ErrNoPositionError, "no ra_err/dec_err and no fallback positional error")
 					return
 				}
 				sigMas = fallbackMas
