@@ -227,3 +227,28 @@ func TestTraceAll(t *testing.T) {
 		}
 	}
 }
+
+// TestTraceConverged: crossings with the default step agree with a four
+// times finer step (common practice for checking step control), on the
+// benchmark's mock candidates.
+func TestTraceConverged(t *testing.T) {
+	p := builtin(t, potential.DefaultModel)
+	stars := benchStars(p, 20, 5, 7)
+	worstXY, worstT := 0.0, 0.0
+	for i, st := range stars {
+		a := Trace(p, st.Pos, st.Vel, TraceSettings{})
+		b := Trace(p, st.Pos, st.Vel, TraceSettings{Options: Options{Eta: DefaultEta / 4}})
+		if len(a.Crossings) != len(b.Crossings) || a.Origin != b.Origin {
+			t.Fatalf("star %d: %d crossings (%s) vs %d (%s) with finer steps", i, len(a.Crossings), a.Origin, len(b.Crossings), b.Origin)
+		}
+		for k := range a.Crossings {
+			ca, cb := a.Crossings[k], b.Crossings[k]
+			worstXY = math.Max(worstXY, math.Hypot(ca.XKpc-cb.XKpc, ca.YKpc-cb.YKpc))
+			worstT = math.Max(worstT, math.Abs(ca.TMyr-cb.TMyr))
+		}
+	}
+	t.Logf("worst crossing difference %.2g kpc, %.2g Myr", worstXY, worstT)
+	if worstXY > 0.01 || worstT > 0.05 {
+		t.Errorf("crossings move by %.3g kpc / %.3g Myr with a finer step", worstXY, worstT)
+	}
+}

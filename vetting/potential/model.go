@@ -289,7 +289,7 @@ func (m *Model) CircularVelocity(RKpc float64) float64 {
 }
 
 // EscapeSpeed returns sqrt(2 (Phi(r_lim) - Phi(x))) in km/s. With
-// escapeRadiusKpc = 0 the limit is infinity, where every component's Phi
+// escapeRadiusKpc <= 0 the limit is infinity, where every component's Phi
 // tends to 0. Otherwise Phi(r_lim) is taken at spherical radius
 // escapeRadiusKpc along the same direction as x (the model is not spherical,
 // so the direction matters; the ray through x is the path a star would
