@@ -1,0 +1,118 @@
+package vetting
+
+import (
+	"context"
+	"fmt"
+	"path/filepath"
+
+	"starvet/crossmatch"
+	"starvet/crossmatch/catalog"
+	"starvet/quality"
+	"starvet/rules"
+	"starvet/vetting/campaign"
+)
+
+// Ingest reads every catalog of the campaign. Rejected rows are written to
+// <catalog>.rejected.csv in rejectDir ("" writes none).
+func (e *Engine) Ingest(ctx context.Context, c *campaign.Campaign, strict bool, rejectDir string) (*Catalogs, error) {
+	out := &Catalogs{}
+	for _, cs := range c.Catalogs {
+		spec := cs.Spec
+		st := begin(e.Progress, "ingest "+spec.Name, 0)
+		t, rep, err := catalog.Read(ctx, spec, catalog.ReadOptions{Strict: strict})
+		st.End()
+		if err != nil {
+			return nil, err
+		}
+		e.Log.Info().Str("catalog", spec.Name).Int("rows_read", rep.RowsRead).Int("rows_kept", rep.RowsKept).
+			Int("rows_quarantined", len(rep.Quarantined)).Msg("ingested")
+		if rejectDir != "" && len(rep.Quarantined) > 0 {
+			p := filepath.Join(rejectDir, spec.Name+".rejected.csv")
+			if err := catalog.WriteRejected(p, rep.Header, rep.Quarantined); err != nil {
+				return nil, err
+			}
+		}
+		if spec.Role == catalog.Astrometry {
+			out.Primary = t
+			out.Reports = append([]*catalog.Report{rep}, out.Reports...)
+			out.Specs = append([]catalog.Spec{spec}, out.Specs...)
+		} else {
+			out.Secondaries = append(out.Secondaries, t)
+			out.Reports = append(out.Reports, rep)
+			out.Specs = append(out.Specs, spec)
+		}
+	}
+	if out.Primary == nil {
+		return nil, fmt.Errorf("campaign %s: no astrometry catalog", c.File)
+	}
+	return out, nil
+}
+
+// Match cross-matches the primary with every secondary and self-matches the
+// primary.
+func (e *Engine) Match(ctx context.Context, c *campaign.Campaign, cats *Catalogs) (*Matched, error) {
+	m := &Matched{}
+	for k, t := range cats.Secondaries {
+		st := begin(e.Progress, "match "+t.Name, 0)
+		opt := crossmatch.Options{
+			RadiusArcsec:       c.Match.RadiusArcsec,
+			NSigma:             c.Match.NSigma,
+			RadiusFloorArcsec:  c.Match.RadiusFloorArcsec,
+			AmbiguityRatio:     c.Match.AmbiguityRatio,
+			PrimaryPosErrMas:   cats.Specs[0].PositionErrMas,
+			SecondaryPosErrMas: cats.Specs[k+1].PositionErrMas,
+			Workers:            e.Workers,
+		}
+		res, err := crossmatch.Match(ctx, cats.Primary, t, opt)
+		st.End()
+		if err != nil {
+			return nil, fmt.Errorf("match %s with %s: %w", cats.Primary.Name, t.Name, err)
+		}
+		e.Log.Info().Str("catalog", t.Name).Int("matched", res.Stats.Matched).Int("ambiguous", res.Stats.Ambiguous).
+			Float64("prior", res.Prior).Msg("matched")
+		m.Results = append(m.Results, res)
+	}
+	dup, err := crossmatch.SelfMatch(ctx, cats.Primary, c.Match.DuplicateRadiusArcsec, e.Workers)
+	if err != nil {
+		return nil, fmt.Errorf("self-match %s: %w", cats.Primary.Name, err)
+	}
+	m.DupCount = dup
+	return m, nil
+}
+
+// LoadRules loads the campaign's rule set (or override, when not empty)
+// against the campaign's secondary catalog names.
+func LoadRules(c *campaign.Campaign, override string) (*rules.RuleSet, error) {
+	var names []string
+	for _, cs := range c.Catalogs {
+		if cs.Role != catalog.Astrometry {
+			names = append(names, cs.Name)
+		}
+	}
+	schema := rules.Schema{Catalogs: names}
+	src := c.Rules
+	if override != "" {
+		src = override
+	}
+	if src == "" || src == "default" {
+		return rules.Default(schema)
+	}
+	return rules.Load(src, schema)
+}
+
+// Assess evaluates the given stars against the rule set.
+func (e *Engine) Assess(ctx context.Context, c *campaign.Campaign, rs *rules.RuleSet, stars []quality.Star) ([]quality.Assessment, error) {
+	ev := quality.NewEvaluator(rs, quality.Context{ParallaxZeroPointMas: c.ParallaxZeroPointMas})
+	as := ev.AssessAll(ctx, stars, e.Workers)
+	return as, ctx.Err()
+}
+
+// AssessCatalogs merges every primary star with its counterparts and
+// evaluates it against the rule set.
+func (e *Engine) AssessCatalogs(ctx context.Context, c *campaign.Campaign, rs *rules.RuleSet, cats *Catalogs, m *Matched) ([]quality.Assessment, error) {
+	stars, _, err := mergeAll(ctx, cats, m, e.Workers)
+	if err != nil {
+		return nil, err
+	}
+	return e.Assess(ctx, c, rs, stars)
+}
