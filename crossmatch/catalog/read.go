@@ -14,6 +14,7 @@ import (
 	"sort"
 	"strconv"
 	"strings"
+	"sync"
 )
 
 // Spec says where a catalog is and how to read it.
@@ -78,8 +79,191 @@ type Report struct {
 // campaign names none.
 func DefaultNullMarkers() []string { return []string{"", "NaN", "null"} }
 
-// ctxCheckRows is how many rows Read parses between context checks.
-const ctxCheckRows = 8192
+// batchRows is how many rows the CSV goroutine hands over at a time; the
+// context is checked between batches.
+const batchRows = 4096
+
+// rowRef locates one record inside a batch.
+type rowRef struct {
+	start, end int             // fields[start:end]
+	line       int             // line where the record starts
+	offset     int64           // input bytes consumed after the record
+	parseErr   *csv.ParseError // malformed record, quarantined
+}
+
+type batch struct {
+	fields []string
+	rows   []rowRef
+	vals   []float64     // parsed values, rowParser.width() per row
+	quar   []*Quarantine // per row; nil when the row parsed cleanly
+	fatal  error
+	free   chan *batch
+}
+
+func (b *batch) recycle() {
+	b.fields, b.rows, b.vals, b.quar = b.fields[:0], b.rows[:0], b.vals[:0], b.quar[:0]
+	select {
+	case b.free <- b:
+	default:
+	}
+}
+
+// readBatches runs the reader as a pipeline: one goroutine splits CSV
+// records into batches, a second converts their numbers (rp.parseBatch),
+// and the caller, in file order, checks ids and appends to the table. This
+// spreads the work over two cores. stop must be called when the caller is
+// done; it waits for both goroutines.
+func readBatches(cr *csv.Reader, name string, rp *rowParser) (<-chan *batch, func()) {
+	split := make(chan *batch, 2)
+	out := make(chan *batch, 2)
+	free := make(chan *batch, 6)
+	done := make(chan struct{})
+	for range cap(free) {
+		free <- &batch{fields: make([]string, 0, batchRows*16), rows: make([]rowRef, 0, batchRows), free: free}
+	}
+	var wg sync.WaitGroup
+	wg.Add(2)
+	go func() {
+		defer wg.Done()
+		defer close(split)
+		for {
+			var b *batch
+			select {
+			case b = <-free:
+			case <-done:
+				return
+			}
+			eof := fillBatch(cr, name, b)
+			select {
+			case split <- b:
+			case <-done:
+				return
+			}
+			if eof {
+				return
+			}
+		}
+	}()
+	go func() {
+		defer wg.Done()
+		defer close(out)
+		for b := range split {
+			rp.parseBatch(b)
+			select {
+			case out <- b:
+			case <-done:
+				return
+			}
+		}
+	}()
+	var once sync.Once
+	return out, func() {
+		once.Do(func() {
+			close(done)
+			for range out {
+			}
+			wg.Wait()
+		})
+	}
+}
+
+// fillBatch reads up to batchRows records into b and reports whether the
+// input has ended.
+func fillBatch(cr *csv.Reader, name string, b *batch) (eof bool) {
+	for len(b.rows) < batchRows {
+		rec, err := cr.Read()
+		if err == io.EOF {
+			return true
+		}
+		ref := rowRef{start: len(b.fields)}
+		if err != nil {
+			var pe *csv.ParseError
+			if !errors.As(err, &pe) {
+				b.fatal = &FileError{File: name, Reason: "read error: " + err.Error(), Err: fmt.Errorf("%w: %w", ErrUnreadable, err)}
+				return true
+			}
+			ref.parseErr = pe
+			ref.line = pe.StartLine
+		} else {
+			ref.line, _ = cr.FieldPos(0)
+			b.fields = append(b.fields, rec...)
+		}
+		ref.end = len(b.fields)
+		ref.offset = cr.InputOffset()
+		b.rows = append(b.rows, ref)
+	}
+	return false
+}
+
+// rowParser converts the cells of a batch to canonical numbers.
+type rowParser struct {
+	header  []string
+	plans   []colPlan
+	idIdx   int
+	isNull  func(string) bool
+	distMag bool
+}
+
+// width is the number of values stored per row: one per plan, plus the
+// distance modulus and its error when distances come as moduli.
+func (rp *rowParser) width() int {
+	if rp.distMag {
+		return len(rp.plans) + 2
+	}
+	return len(rp.plans)
+}
+
+func (rp *rowParser) parseBatch(b *batch) {
+	w := rp.width()
+	var row [NumFields]float64
+	for i := range row {
+		row[i] = math.NaN() // fields without a column stay missing
+	}
+	for r := range b.rows {
+		br := &b.rows[r]
+		var q *Quarantine
+		if pe := br.parseErr; pe != nil {
+			q = &Quarantine{Line: pe.StartLine, Column: 0, Reason: pe.Err.Error(), Err: ErrMalformed}
+			if pe.Line != pe.StartLine {
+				q.Reason += fmt.Sprintf(" (at line %d)", pe.Line)
+			}
+		} else {
+			lf := lineFields{start: br.line, rec: b.fields[br.start:br.end]}
+			q = parseRow(lf.rec, rp.header, rp.plans, rp.idIdx, rp.isNull, &row, &lf)
+		}
+		b.quar = append(b.quar, q)
+		if q != nil {
+			b.vals = append(b.vals, make([]float64, w)...)
+			continue
+		}
+		var mu, muErr float64
+		if rp.distMag {
+			mu, muErr = row[Distance], row[DistanceErr]
+			row[Distance], row[DistanceErr] = DistanceFromModulus(mu, muErr)
+		}
+		for _, p := range rp.plans {
+			b.vals = append(b.vals, row[p.field])
+		}
+		if rp.distMag {
+			b.vals = append(b.vals, mu, muErr)
+		}
+	}
+}
+
+// lineFields gives the line on which each field of a record starts; quoted
+// fields may span lines (the reader turns their line breaks into \n).
+type lineFields struct {
+	start int
+	rec   []string
+}
+
+func (lf *lineFields) pos(col int) int {
+	line := lf.start
+	for _, f := range lf.rec[:min(col, len(lf.rec))] {
+		line += strings.Count(f, "\n")
+	}
+	return line
+}
 
 // colPlan says how to read one CSV column.
 type colPlan struct {
@@ -177,73 +361,63 @@ func Read(ctx context.Context, spec Spec, opt ReadOptions) (*Table, *Report, err
 		return false
 	}
 
-	seen := make(map[string]int, 1024)
-	var row [NumFields]float64
-	for n := 0; ; n++ {
-		if n%ctxCheckRows == 0 {
-			if err := ctx.Err(); err != nil {
-				return nil, rep, err
+	rp := &rowParser{header: header, plans: plans, idIdx: idIdx, isNull: isNull, distMag: distMag}
+	width := rp.width()
+	seen := newIDSet(fnv1a)
+	batches, stop := readBatches(cr, name, rp)
+	defer stop()
+	for b := range batches {
+		if err := ctx.Err(); err != nil {
+			return nil, rep, err
+		}
+		if b.fatal != nil {
+			return nil, rep, b.fatal
+		}
+		for r := range b.rows {
+			br := &b.rows[r]
+			rec := b.fields[br.start:br.end]
+			q := b.quar[r]
+			rep.RowsRead++
+			var id string
+			if q == nil {
+				id = rec[idIdx]
+				if first, dup := seen.lookup(id, t); dup {
+					lf := lineFields{start: br.line, rec: rec}
+					q = &Quarantine{Line: lf.pos(idIdx), Column: idIdx + 1, ColumnName: header[idIdx], Value: id,
+						Reason: fmt.Sprintf("%s: first seen on line %d", ErrDuplicateID, first), Err: ErrDuplicateID}
+				}
+			}
+			if q != nil {
+				if br.parseErr == nil {
+					q.Record = append([]string(nil), rec...)
+				}
+				if opt.Strict {
+					return nil, rep, q.rowError(name)
+				}
+				rep.Quarantined = append(rep.Quarantined, *q)
+				continue
+			}
+			if t.Len() == presizeAfterRows && !gz {
+				presize(t, seen, st.Size(), br.offset)
+			}
+			id = strings.Clone(id) // rec shares one backing string per line
+			seen.add(id, t.Len(), br.line)
+			t.IDs = append(t.IDs, id)
+			t.Lines = append(t.Lines, br.line)
+			v := b.vals[r*width : (r+1)*width]
+			for i, p := range plans {
+				t.Cols[p.field] = append(t.Cols[p.field], v[i])
+			}
+			if distMag {
+				if t.Cols[DistMod] != nil {
+					t.Cols[DistMod] = append(t.Cols[DistMod], v[len(plans)])
+				}
+				if t.Cols[DistModErr] != nil {
+					t.Cols[DistModErr] = append(t.Cols[DistModErr], v[len(plans)+1])
+				}
 			}
 		}
-		rec, err := cr.Read()
-		if err == io.EOF {
-			break
-		}
-		var q *Quarantine
-		if err != nil {
-			var pe *csv.ParseError
-			if !errors.As(err, &pe) {
-				return nil, rep, &FileError{File: name, Line: lineOf(cr), Reason: "read error: " + err.Error(), Err: fmt.Errorf("%w: %w", ErrUnreadable, err)}
-			}
-			q = &Quarantine{Line: pe.StartLine, Column: 0, Reason: pe.Err.Error(), Err: ErrMalformed}
-			if pe.Line != pe.StartLine {
-				q.Reason += fmt.Sprintf(" (at line %d)", pe.Line)
-			}
-		} else {
-			q = parseRow(rec, header, plans, idIdx, isNull, &row, cr)
-		}
-		rep.RowsRead++
-		var id string
-		if q == nil {
-			id = rec[idIdx]
-			if first, dup := seen[id]; dup {
-				line, _ := cr.FieldPos(idIdx)
-				q = &Quarantine{Line: line, Column: idIdx + 1, ColumnName: header[idIdx], Value: id,
-					Reason: fmt.Sprintf("%s: first seen on line %d", ErrDuplicateID, first), Err: ErrDuplicateID}
-			}
-		}
-		if q != nil {
-			if err == nil {
-				q.Record = append([]string(nil), rec...)
-			}
-			if opt.Strict {
-				return nil, rep, q.rowError(name)
-			}
-			rep.Quarantined = append(rep.Quarantined, *q)
-			continue
-		}
-		if t.Len() == presizeAfterRows && !gz {
-			seen = presize(t, seen, st.Size(), cr.InputOffset())
-		}
-		line, _ := cr.FieldPos(0)
-		id = strings.Clone(id) // rec shares one backing string per line
-		seen[id] = line
-		t.IDs = append(t.IDs, id)
-		t.Lines = append(t.Lines, line)
-		if distMag {
-			mu, muErr := row[Distance], row[DistanceErr]
-			d, dErr := DistanceFromModulus(mu, muErr)
-			if t.Cols[DistMod] != nil {
-				t.Cols[DistMod] = append(t.Cols[DistMod], mu)
-			}
-			if t.Cols[DistModErr] != nil {
-				t.Cols[DistModErr] = append(t.Cols[DistModErr], muErr)
-			}
-			row[Distance], row[DistanceErr] = d, dErr
-		}
-		for _, p := range plans {
-			t.Cols[p.field] = append(t.Cols[p.field], row[p.field])
-		}
+		b.recycle()
 	}
 	// Drain whatever the CSV reader left (gzip trailer etc.) so the hash
 	// covers the whole file.
@@ -262,9 +436,9 @@ func Read(ctx context.Context, spec Spec, opt ReadOptions) (*Table, *Report, err
 // the bytes used so far and grows every column once, instead of doubling.
 const presizeAfterRows = 4096
 
-func presize(t *Table, seen map[string]int, fileBytes, usedBytes int64) map[string]int {
+func presize(t *Table, seen *idSet, fileBytes, usedBytes int64) {
 	if usedBytes <= 0 {
-		return seen
+		return
 	}
 	est := int(float64(fileBytes)/float64(usedBytes)*float64(t.Len())*1.02) + 16
 	grow := func(c []float64) []float64 {
@@ -284,16 +458,7 @@ func presize(t *Table, seen map[string]int, fileBytes, usedBytes int64) map[stri
 	lines := make([]int, len(t.Lines), est)
 	copy(lines, t.Lines)
 	t.Lines = lines
-	m := make(map[string]int, est)
-	for k, v := range seen {
-		m[k] = v
-	}
-	return m
-}
-
-func lineOf(cr *csv.Reader) int {
-	line, _ := cr.FieldPos(0)
-	return line
+	seen.grow(est)
 }
 
 func (q *Quarantine) rowError(file string) *RowError {
@@ -302,21 +467,19 @@ func (q *Quarantine) rowError(file string) *RowError {
 
 // parseRow converts the mapped cells of rec into row, in canonical units,
 // or returns the first problem found.
-func parseRow(rec, header []string, plans []colPlan, idIdx int, isNull func(string) bool, row *[NumFields]float64, cr *csv.Reader) *Quarantine {
+func parseRow(rec, header []string, plans []colPlan, idIdx int, isNull func(string) bool, row *[NumFields]float64, lf *lineFields) *Quarantine {
 	bad := func(col int, reason string, err error) *Quarantine {
-		line, _ := cr.FieldPos(0)
-		q := &Quarantine{Line: line, Column: col + 1, Reason: reason, Err: err}
+		q := &Quarantine{Line: lf.start, Column: col + 1, Reason: reason, Err: err}
 		if col < len(rec) {
 			q.Value = rec[col]
 			q.ColumnName = header[col]
-			q.Line, _ = cr.FieldPos(col)
+			q.Line = lf.pos(col)
 		}
 		return q
 	}
 	if len(rec) != len(header) {
 		col := min(len(rec), len(header))
-		line, _ := cr.FieldPos(0)
-		return &Quarantine{Line: line, Column: col + 1, Err: ErrFieldCount,
+		return &Quarantine{Line: lf.start, Column: col + 1, Err: ErrFieldCount,
 			Reason: fmt.Sprintf("%s: row has %d fields, header has %d", ErrFieldCount, len(rec), len(header))}
 	}
 	if isNull(rec[idIdx]) {

@@ -7,6 +7,7 @@ import (
 	"encoding/hex"
 	"errors"
 	"fmt"
+	"hash/fnv"
 	"io/fs"
 	"math"
 	"os"
@@ -414,5 +415,75 @@ func TestDistanceFromModulusZeroError(t *testing.T) {
 	// mu = 10 -> 10^3 pc = 1 kpc (definition of the distance modulus).
 	if d != 1 || e != 0 {
 		t.Errorf("got %g, %g", d, e)
+	}
+}
+
+func TestModulusErrorWithoutModulus(t *testing.T) {
+	p := filepath.Join(t.TempDir(), "m.csv")
+	if err := os.WriteFile(p, []byte("id,ra,dec,distance_err\nm-1,1,2,0.1\n"), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	tab, _ := mustRead(t, Spec{File: p, Units: map[string]string{"distance": "mag"}})
+	// Without a modulus the distance is unknown, so its error must be too.
+	if !math.IsNaN(tab.Cols[DistanceErr][0]) || tab.Cols[DistModErr][0] != 0.1 || tab.Cols[Distance] != nil {
+		t.Errorf("distance_err %v, modulus err %v, distance %v", tab.Cols[DistanceErr], tab.Cols[DistModErr], tab.Cols[Distance])
+	}
+}
+
+func TestMultiLineFieldPositions(t *testing.T) {
+	p := filepath.Join(t.TempDir(), "ml.csv")
+	body := "id,ra,dec,parallax\n\"ml\n1\",1,2,x\nml-2,3,4,5\nml-3,3,4,y\n"
+	if err := os.WriteFile(p, []byte(body), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	_, rep := mustRead(t, Spec{File: p})
+	want := [][2]int{{3, 4}, {5, 4}} // field 4 of the first record is on line 3
+	if len(rep.Quarantined) != 2 {
+		t.Fatalf("quarantined %+v", rep.Quarantined)
+	}
+	for i, w := range want {
+		if q := rep.Quarantined[i]; q.Line != w[0] || q.Column != w[1] {
+			t.Errorf("quarantine %d at %d:%d, want %d:%d", i, q.Line, q.Column, w[0], w[1])
+		}
+	}
+}
+
+func TestIDSetCollisions(t *testing.T) {
+	// A constant hash makes every id collide, so the overflow path decides.
+	for _, c := range []struct {
+		name string
+		hash func(string) uint64
+	}{{"fnv1a", fnv1a}, {"all collide", func(string) uint64 { return 7 }}} {
+		t.Run(c.name, func(t *testing.T) {
+			s := newIDSet(c.hash)
+			tab := &Table{}
+			for i, id := range []string{"a", "b", "c", "b", "a", "d", "c"} {
+				line := i + 2
+				first, dup := s.lookup(id, tab)
+				wantDup := i == 3 || i == 4 || i == 6
+				if dup != wantDup {
+					t.Fatalf("%s (line %d): dup = %v, want %v", id, line, dup, wantDup)
+				}
+				if dup {
+					if want := map[string]int{"a": 2, "b": 3, "c": 4}[id]; first != want {
+						t.Errorf("%s first seen on %d, want %d", id, first, want)
+					}
+					continue
+				}
+				s.add(id, tab.Len(), line)
+				tab.IDs = append(tab.IDs, id)
+				tab.Lines = append(tab.Lines, line)
+			}
+		})
+	}
+}
+
+func TestFNV1a(t *testing.T) {
+	for _, s := range []string{"", "a", "bench-00000001", "lark-b"} {
+		h := fnv.New64a() // standard library reference
+		h.Write([]byte(s))
+		if got, want := fnv1a(s), h.Sum64(); got != want {
+			t.Errorf("fnv1a(%q) = %x, want %x", s, got, want)
+		}
 	}
 }
