@@ -2,9 +2,119 @@ package main
 
 import (
 	"context"
-	"errors"
+	"encoding/csv"
+	"fmt"
+	"strconv"
+
+	"starvet/db"
 )
 
+var listColumns = []string{"star_id", "status", "quality", "computed_in_run", "input_hash", "distance_method",
+	"has_rv", "speed_p16_kms", "speed_p50_kms", "speed_p84_kms", "speed_lower_p50_kms", "r_gc_kpc", "v_esc_kms",
+	"p_unbound", "p_unbound_lower", "origin", "p_gc_origin", "gc_consistency", "flight_time_myr", "model_name"}
+
+// csvNum writes missing as an empty field and keeps full precision.
+func csvNum(x float64) string {
+	if x != x {
+		return ""
+	}
+	return strconv.FormatFloat(x, 'g', -1, 64)
+}
+
+func listRecord(v db.VerdictRow) []string {
+	return []string{v.StarID, v.Status, v.Quality, strconv.FormatInt(v.ComputedInRun, 10), v.InputHash,
+		v.DistanceMethod, map[bool]string{true: "1", false: "0"}[v.HasRV], csvNum(v.SpeedP16Kms), csvNum(v.SpeedP50Kms),
+		csvNum(v.SpeedP84Kms), csvNum(v.SpeedLowerP50Kms), csvNum(v.RGCKpc), csvNum(v.VEscKms), csvNum(v.PUnbound),
+		csvNum(v.PUnboundLower), v.Origin, csvNum(v.PGCOrigin), csvNum(v.GCConsistency), csvNum(v.FlightTimeMyr), v.ModelName}
+}
+
 func runList(ctx context.Context, env *Env, args []string) error {
-	return errors.New("list: not built yet")
+	var af auditFlags
+	fs := newFlags(env, "list", "[--ledger PATH] [--status S] [--run N] [--limit N] [--csv | --json]",
+		"List the stars of a run (default: the latest complete run) with their status,\n"+
+			"ordered by star id. Text shows a summary table; --csv and --json give every\n"+
+			"verdict column (missing values empty in CSV, null in JSON).")
+	af.register(fs)
+	status := fs.String("status", "", "only stars with this status")
+	run := fs.Int64("run", 0, "run id (0 = latest complete run)")
+	limit := fs.Int("limit", 0, "at most this many stars (0 = all)")
+	asCSV := fs.Bool("csv", false, "write CSV with a header line")
+	pos, err := auditArgs(env, fs, args)
+	if err != nil {
+		return err
+	}
+	switch {
+	case len(pos) > 0:
+		return usageError("list takes no arguments, got %q", pos)
+	case *run < 0:
+		return usageError("--run %d: want a positive run id or 0", *run)
+	case *limit < 0:
+		return usageError("--limit %d: want 0 or more", *limit)
+	case *asCSV && af.json:
+		return usageError("--csv and --json exclude each other")
+	}
+	l, err := openLedgerRO(ctx, af.ledger)
+	if err != nil {
+		return err
+	}
+	defer l.Close()
+	f := db.ListFilter{Status: *status, Run: *run, Limit: *limit}
+	w := env.Stdout
+	switch {
+	case *asCSV:
+		cw := csv.NewWriter(w)
+		cw.Write(append([]string{"run_id"}, listColumns...))
+		_, err := l.ListRun(ctx, f, func(v db.VerdictRow) error {
+			return cw.Write(append([]string{strconv.FormatInt(v.RunID, 10)}, listRecord(v)...))
+		})
+		cw.Flush()
+		if err != nil {
+			return err
+		}
+		return cw.Error()
+	case af.json:
+		n := 0
+		fmt.Fprint(w, "[")
+		_, err := l.ListRun(ctx, f, func(v db.VerdictRow) error {
+			if n > 0 {
+				fmt.Fprint(w, ",")
+			}
+			n++
+			fmt.Fprint(w, "\n")
+			return writeJSONLine(w, verdictJSON(v))
+		})
+		fmt.Fprint(w, "\n]\n")
+		return err
+	default:
+		n := 0
+		runID, err := l.ListRun(ctx, f, func(v db.VerdictRow) error {
+			if n == 0 {
+				fmt.Fprintf(w, "%-24s %-10s %-7s %-9s %12s %9s\n", "star_id", "status", "quality", "computed", "speed_p50", "p_unbound")
+			}
+			n++
+			q := v.Quality
+			if q == "" {
+				q = "-"
+			}
+			comp := strconv.FormatInt(v.ComputedInRun, 10)
+			if v.Carried() {
+				comp += "*"
+			}
+			_, err := fmt.Fprintf(w, "%-24s %-10s %-7s %-9s %12s %9s\n", v.StarID, v.Status, q, comp, num(v.SpeedP50Kms), num(v.PUnbound))
+			return err
+		})
+		if err != nil {
+			return err
+		}
+		what := "stars"
+		if *status != "" {
+			what = fmt.Sprintf("stars with status %q", *status)
+		}
+		fmt.Fprintf(w, "%d %s in run %d", n, what, runID)
+		if n > 0 {
+			fmt.Fprint(w, " (* = carried forward from that run)")
+		}
+		fmt.Fprintln(w)
+		return nil
+	}
 }

@@ -2,9 +2,202 @@ package main
 
 import (
 	"context"
-	"errors"
+	"fmt"
+	"io"
+	"math"
+
+	"starvet/db"
 )
 
 func runWhy(ctx context.Context, env *Env, args []string) error {
-	return errors.New("why: not built yet")
+	var af auditFlags
+	fs := newFlags(env, "why", "[--ledger PATH] [--json] STAR_ID",
+		"Explain one star: its current status (in the latest complete run), its status in\n"+
+			"every run (marking verdicts carried forward from an earlier run), the reasons\n"+
+			"with value against threshold, the kinematic summary, its matches, and which\n"+
+			"inputs changed between the runs that computed it. Put \"--\" before an id that\n"+
+			"starts with '-'.")
+	af.register(fs)
+	pos, err := auditArgs(env, fs, args)
+	if err != nil {
+		return err
+	}
+	if len(pos) != 1 {
+		return usageError("why takes one STAR_ID, got %d arguments", len(pos))
+	}
+	l, err := openLedgerRO(ctx, af.ledger)
+	if err != nil {
+		return err
+	}
+	defer l.Close()
+	h, err := l.Why(ctx, pos[0])
+	if err != nil {
+		return err
+	}
+	if af.json {
+		return writeJSON(env.Stdout, historyJSON(h))
+	}
+	writeHistory(env.Stdout, h)
+	return nil
+}
+
+func writeHistory(w io.Writer, h *db.StarHistory) {
+	switch {
+	case h.CurrentRun == 0:
+		fmt.Fprintf(w, "star %s: no complete run yet\n", h.StarID)
+	case h.CurrentStatus == "":
+		fmt.Fprintf(w, "star %s: not in the latest complete run (%d)\n", h.StarID, h.CurrentRun)
+	default:
+		fmt.Fprintf(w, "star %s: %s (latest complete run %d)\n", h.StarID, h.CurrentStatus, h.CurrentRun)
+	}
+	fmt.Fprintf(w, "first written in run %d, last in run %d\n\nstatus by run:\n", h.FirstRun, h.LastRun)
+	for _, r := range h.Runs {
+		v := r.Verdict
+		how := "computed in this run"
+		if v.Carried() {
+			how = fmt.Sprintf("carried forward from run %d", v.ComputedInRun)
+		}
+		q := v.Quality
+		if q == "" {
+			q = "-"
+		}
+		fmt.Fprintf(w, "  run %-4d %-22s %-10s quality %-7s %s\n", v.RunID, "("+r.RunState+")", v.Status, q, how)
+	}
+	for _, c := range h.Computations {
+		v := c.Verdict
+		fmt.Fprintf(w, "\ncomputed in run %d: %s\n", c.RunID, v.Status)
+		if c.Inputs != nil {
+			fmt.Fprintf(w, "  input hash %s, %d duplicate rows\n", c.Inputs.InputHash, c.Inputs.DupCount)
+		}
+		if len(c.Changes) > 0 || c.DupCountChange != nil {
+			fmt.Fprintf(w, "  inputs changed since the previous computation:\n")
+			for _, ch := range c.Changes {
+				fmt.Fprintf(w, "    %-22s %s -> %s %s\n", ch.Name, missing(ch.Old), missing(ch.New), ch.Unit)
+			}
+			if d := c.DupCountChange; d != nil {
+				fmt.Fprintf(w, "    %-22s %d -> %d\n", "duplicate rows", d[0], d[1])
+			}
+		}
+		if len(c.Reasons) > 0 {
+			fmt.Fprintf(w, "  reasons:\n")
+			for _, r := range c.Reasons {
+				fmt.Fprintf(w, "    %-8s %-24s value %-10s threshold %-12s", r.Outcome, r.RuleID, num(r.Value), orDash(r.Threshold))
+				if r.Severity != "" {
+					fmt.Fprintf(w, " [%s]", r.Severity)
+				}
+				if r.Message != "" {
+					fmt.Fprintf(w, " %s", r.Message)
+				}
+				fmt.Fprintln(w)
+			}
+		}
+		if hasKinematics(v) {
+			fmt.Fprintf(w, "  kinematics (%s):\n", orDash(v.ModelName))
+			fmt.Fprintf(w, "    distance from %s, radial velocity %s\n", orDash(v.DistanceMethod), map[bool]string{true: "measured", false: "not measured"}[v.HasRV])
+			fmt.Fprintf(w, "    speed p16/p50/p84   %s / %s / %s km/s (lower bound p50 %s km/s)\n",
+				num(v.SpeedP16Kms), num(v.SpeedP50Kms), num(v.SpeedP84Kms), num(v.SpeedLowerP50Kms))
+			fmt.Fprintf(w, "    r_gc %s kpc, escape speed %s km/s, p_unbound %s (lower bound %s)\n",
+				num(v.RGCKpc), num(v.VEscKms), num(v.PUnbound), num(v.PUnboundLower))
+			if v.Origin != "" || !math.IsNaN(v.PGCOrigin) || !math.IsNaN(v.FlightTimeMyr) {
+				fmt.Fprintf(w, "    origin %s, p_gc_origin %s, gc_consistency %s, flight time %s Myr\n",
+					orDash(v.Origin), num(v.PGCOrigin), num(v.GCConsistency), num(v.FlightTimeMyr))
+			}
+		}
+		if len(c.Matches) > 0 {
+			fmt.Fprintf(w, "  matches:\n")
+			for _, m := range c.Matches {
+				amb := ""
+				if m.Ambiguous {
+					amb = " ambiguous"
+				}
+				fmt.Fprintf(w, "    %-16s source %-16s sep %s arcsec, p %s, %d candidates%s\n",
+					m.Catalog, orDash(m.SourceID), num(m.SepArcsec), num(m.MatchProb), m.Candidates, amb)
+			}
+		}
+	}
+}
+
+func hasKinematics(v db.VerdictRow) bool {
+	for _, x := range []float64{v.SpeedP50Kms, v.RGCKpc, v.VEscKms, v.PUnbound} {
+		if !math.IsNaN(x) {
+			return true
+		}
+	}
+	return false
+}
+
+func missing(x float64) string {
+	if math.IsNaN(x) {
+		return "(missing)"
+	}
+	return num(x)
+}
+
+func orDash(s string) string {
+	if s == "" {
+		return "-"
+	}
+	return s
+}
+
+// JSON views: NaN becomes null, names follow the ledger columns.
+
+func verdictJSON(v db.VerdictRow) map[string]any {
+	return map[string]any{
+		"run_id": v.RunID, "star_id": v.StarID, "status": v.Status, "quality": v.Quality,
+		"computed_in_run": v.ComputedInRun, "carried": v.Carried(), "input_hash": v.InputHash,
+		"distance_method": v.DistanceMethod, "has_rv": v.HasRV,
+		"speed_p16_kms": jf(v.SpeedP16Kms), "speed_p50_kms": jf(v.SpeedP50Kms), "speed_p84_kms": jf(v.SpeedP84Kms),
+		"speed_lower_p50_kms": jf(v.SpeedLowerP50Kms), "r_gc_kpc": jf(v.RGCKpc), "v_esc_kms": jf(v.VEscKms),
+		"p_unbound": jf(v.PUnbound), "p_unbound_lower": jf(v.PUnboundLower), "origin": v.Origin,
+		"p_gc_origin": jf(v.PGCOrigin), "gc_consistency": jf(v.GCConsistency), "flight_time_myr": jf(v.FlightTimeMyr),
+		"model_name": v.ModelName,
+	}
+}
+
+func historyJSON(h *db.StarHistory) map[string]any {
+	runs := make([]map[string]any, len(h.Runs))
+	for i, r := range h.Runs {
+		m := verdictJSON(r.Verdict)
+		m["run_state"] = r.RunState
+		runs[i] = m
+	}
+	comps := make([]map[string]any, len(h.Computations))
+	for i, c := range h.Computations {
+		m := map[string]any{"run_id": c.RunID, "verdict": verdictJSON(c.Verdict)}
+		if c.Inputs != nil {
+			in := map[string]any{}
+			for j, x := range c.Inputs.Values {
+				in[db.InputName(j)] = jf(x)
+			}
+			m["input_hash"] = c.Inputs.InputHash
+			m["dup_count"] = c.Inputs.DupCount
+			m["inputs"] = in
+		}
+		changes := []map[string]any{}
+		for _, ch := range c.Changes {
+			changes = append(changes, map[string]any{"name": ch.Name, "unit": ch.Unit, "old": jf(ch.Old), "new": jf(ch.New)})
+		}
+		if d := c.DupCountChange; d != nil {
+			changes = append(changes, map[string]any{"name": "dup_count", "old": d[0], "new": d[1]})
+		}
+		m["changes"] = changes
+		reasons := []map[string]any{}
+		for _, r := range c.Reasons {
+			reasons = append(reasons, map[string]any{"rule_id": r.RuleID, "outcome": r.Outcome, "severity": r.Severity,
+				"value": jf(r.Value), "threshold": r.Threshold, "message": r.Message})
+		}
+		m["reasons"] = reasons
+		matches := []map[string]any{}
+		for _, x := range c.Matches {
+			matches = append(matches, map[string]any{"catalog": x.Catalog, "source_id": x.SourceID,
+				"sep_arcsec": jf(x.SepArcsec), "match_prob": jf(x.MatchProb), "candidates": x.Candidates, "ambiguous": x.Ambiguous})
+		}
+		m["matches"] = matches
+		comps[i] = m
+	}
+	return map[string]any{
+		"star_id": h.StarID, "current_status": h.CurrentStatus, "current_run": h.CurrentRun,
+		"first_run": h.FirstRun, "last_run": h.LastRun, "runs": runs, "computations": comps,
+	}
 }
