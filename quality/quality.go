@@ -67,6 +67,7 @@ type Assessment struct {
 	Outcomes    []Outcome // in RuleSet.Rules order (sorted by rule id)
 	FailedRules []string  // ids of failed rules, in the same order
 	buf         []byte
+	spans       []int
 	scratch     *scratch
 }
 
@@ -122,20 +123,22 @@ func (e *Evaluator) Assess(s *Star, out *Assessment) {
 	}
 	// Messages are written into one buffer and cut out of one string, so a
 	// star costs one allocation for all its messages.
-	var ends [2 * 64]int
-	msgSpan := ends[:0]
-	if 2*n > len(ends) {
-		msgSpan = make([]int, 0, 2*n)
-	}
+	msgSpan := out.spans[:0]
 	worst := 0 // 0 pass, 1 flag, 2 reject
 	for i, r := range e.rs.Rules {
 		o := &out.Outcomes[i]
-		o.RuleID = r.ID
-		o.Severity = string(r.Severity)
-		o.Threshold = e.thresholds[i]
+		// A reused Assessment usually holds these already; skipping the
+		// store saves GC write barriers.
+		if o.RuleID != r.ID || o.Threshold != e.thresholds[i] {
+			o.RuleID = r.ID
+			o.Severity = string(r.Severity)
+			o.Threshold = e.thresholds[i]
+		}
 		o.Value = math.NaN()
 		start := len(out.buf)
-		o.Result = e.eval(r, &e.texts[i], s, o, out)
+		if res := e.eval(r, &e.texts[i], s, o, out); o.Result != res {
+			o.Result = res
+		}
 		msgSpan = append(msgSpan, start, len(out.buf))
 		if o.Result == ResultFail {
 			out.FailedRules = append(out.FailedRules, r.ID)
@@ -146,6 +149,7 @@ func (e *Evaluator) Assess(s *Star, out *Assessment) {
 			}
 		}
 	}
+	out.spans = msgSpan
 	text := string(out.buf)
 	for i := range out.Outcomes {
 		out.Outcomes[i].Message = text[msgSpan[2*i]:msgSpan[2*i+1]]
@@ -170,10 +174,10 @@ func (e *Evaluator) AssessAll(ctx context.Context, stars []Star, workers int) []
 			w.scratch = newScratch()
 		}
 		o := &out[i]
-		o.scratch, o.buf = w.scratch, w.buf
+		o.scratch, o.buf, o.spans = w.scratch, w.buf, w.spans
 		e.Assess(&stars[i], o)
-		w.buf = o.buf
-		o.scratch, o.buf = nil, nil
+		w.buf, w.spans = o.buf, o.spans
+		o.scratch, o.buf, o.spans = nil, nil, nil
 	})
 	return out
 }
@@ -529,14 +533,13 @@ func appendNum(b []byte, v, limit float64) []byte {
 	if !(av >= 0.01 && av < 1e9) && v != 0 {
 		return strconv.AppendFloat(b, v, 'g', -1, 64)
 	}
-	scaled := math.Round(av * 1e4)
-	if v != limit && !math.IsNaN(limit) && scaled == math.Round(math.Abs(limit)*1e4) && (v < 0) == (limit < 0) {
+	u := uint64(av*1e4 + 0.5)
+	if v != limit && !math.IsNaN(limit) && u == uint64(math.Abs(limit)*1e4+0.5) && (v < 0) == (limit < 0) {
 		return strconv.AppendFloat(b, v, 'g', -1, 64)
 	}
 	if v < 0 {
 		b = append(b, '-')
 	}
-	u := uint64(scaled)
 	b = strconv.AppendUint(b, u/10000, 10)
 	frac := u % 10000
 	if frac == 0 {
