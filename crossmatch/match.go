@@ -252,12 +252,12 @@ type query struct{ raDeg, decDeg, sigmaRad float64 }
 func (sd *side) pos(i int) (float64, float64) { return sd.pts[i].raDeg, sd.pts[i].decDeg }
 
 // rowErr names a row's source line (or row number when lines are unknown).
-func rowErr(t *catalog.Table, i int, field catalog.Field, sentinel error, format string, args ...any) error {
+func rowErr(op string, t *catalog.Table, i int, field catalog.Field, sentinel error, format string, args ...any) error {
 	where := fmt.Sprintf("row %d", i+1)
 	if i < len(t.Lines) && t.Lines[i] > 0 {
 		where = fmt.Sprintf("line %d", t.Lines[i])
 	}
-	return fmt.Errorf("match: catalog %q: %s: column %s: %s: %w", t.Name, where,
+	return fmt.Errorf("%s: catalog %q: %s: column %s: %s: %w", op, t.Name, where,
 		catalog.Fields[field].Name, fmt.Sprintf(format, args...), sentinel)
 }
 
@@ -323,18 +323,18 @@ func prepare(ctx context.Context, t *catalog.Table, dtYr float64, move bool, fal
 				continue
 			}
 			if math.IsInf(r, 0) {
-				tl.err = rowErr(t, i, catalog.RA, ErrBadPosition, "value %g", r)
+				tl.err = rowErr("match", t, i, catalog.RA, ErrBadPosition, "value %g", r)
 				return
 			}
 			if !(d >= -90 && d <= 90) {
-				tl.err = rowErr(t, i, catalog.Dec, ErrBadPosition, "value %g outside [-90, 90]", d)
+				tl.err = rowErr("match", t, i, catalog.Dec, ErrBadPosition, "value %g outside [-90, 90]", d)
 				return
 			}
 			r = normRA(r)
 			sigMas, ok := rms(at(raErr, i), at(decErr, i))
 			if !ok {
 				if fallbackMas <= 0 {
-					tl.err = rowErr(t, i, catalog.RAErr, ErrNoPositionError, "no ra_err/dec_err and no fallback positional error")
+					tl.err = rowErr("match", t, i, catalog.RAErr, ErrNoPositionError, "no ra_err/dec_err and no fallback positional error")
 					return
 				}
 				sigMas = fallbackMas
@@ -496,12 +496,17 @@ func resolve(ctx context.Context, pairs []pair, n1, nPos int, opt *Options, p0 f
 	// accepted directly (below); the greedy over the rest gives the same
 	// result as the greedy over all pairs, because a pair's fate depends
 	// only on the pairs sharing its primary or secondary.
-	var hard []int32
+	type hardPair struct {
+		lnB  float64
+		i, j int32
+		k    int32 // index into pairs
+	}
+	var hard []hardPair
 	var shared bool
 	for k := range pairs {
 		pr := &pairs[k]
 		if pr.nc > 1 || nSec(pr.pos) > 1 {
-			hard = append(hard, int32(k))
+			hard = append(hard, hardPair{pr.lnB, pr.i, pr.j, int32(k)})
 			shared = shared || nSec(pr.pos) > 1
 		}
 	}
@@ -515,24 +520,24 @@ func resolve(ctx context.Context, pairs []pair, n1, nPos int, opt *Options, p0 f
 			fill[q]++
 		}
 	}
-	slices.SortFunc(hard, func(a, b int32) int {
-		pa, pb := &pairs[a], &pairs[b]
-		if c := cmpFloat(pb.lnB, pa.lnB); c != 0 {
-			return c
+	slices.SortFunc(hard, func(a, b hardPair) int {
+		switch {
+		case a.lnB > b.lnB:
+			return -1
+		case a.lnB < b.lnB:
+			return 1
+		case a.i != b.i:
+			return int(a.i - b.i)
 		}
-		if pa.i != pb.i {
-			return int(pa.i - pb.i)
-		}
-		return int(pa.j - pb.j)
+		return int(a.j - b.j)
 	})
 	takenSec := make(map[int32]bool)
-	for _, k := range hard {
-		pr := &pairs[k]
-		if out[pr.i].Secondary >= 0 || takenSec[pr.j] {
+	for _, h := range hard {
+		if out[h.i].Secondary >= 0 || takenSec[h.j] {
 			continue
 		}
-		accept(&out[pr.i], pr, post)
-		takenSec[pr.j] = true
+		accept(&out[h.i], &pairs[h.k], post)
+		takenSec[h.j] = true
 	}
 
 	// Per primary (its contiguous run of pairs): trivial accept, candidate

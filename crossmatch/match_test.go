@@ -31,9 +31,9 @@ func randomPair(rng *rand.Rand, n int) (p, s []src, fast map[string]string) {
 			return rng.Float64() * 360, 90 - rng.Float64()*0.003
 		case 2: // south pole
 			return rng.Float64() * 360, -90 + rng.Float64()*0.003
-		case 3: // dense clusters: 5 centres, sources within 5 arcsec
-			c := rng.IntN(5)
-			ra, dec := offset(float64(c)*70+10, float64(c)*30-60, rng.Float64()*5, rng.Float64()*2*math.Pi)
+		case 3: // dense clusters: about 50 sources within 5 arcsec each
+			c := rng.IntN(max(5, n/300))
+			ra, dec := offset(math.Mod(float64(c)*37+10, 360), math.Mod(float64(c)*23, 160)-80, rng.Float64()*5, rng.Float64()*2*math.Pi)
 			return ra, dec
 		default:
 			return rng.Float64() * 360, math.Asin(2*rng.Float64()-1) * degPerRad
@@ -372,7 +372,7 @@ func TestMatchAmbiguity(t *testing.T) {
 func TestMatchDeterministicAcrossWorkers(t *testing.T) {
 	seed := testSeed(t, 99)
 	rng := rand.New(rand.NewPCG(seed, 3))
-	ps, ss, _ := randomPair(rng, 12000) // several batches
+	ps, ss, _ := randomPair(rng, 6000) // two batches
 	pt, st := table("a", 2000, ps), table("b", 2016, ss)
 	var ref *Result
 	for _, w := range []int{1, 2, 3, 8} {

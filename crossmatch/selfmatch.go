@@ -25,10 +25,10 @@ func SelfMatch(ctx context.Context, t *catalog.Table, radiusArcsec float64, work
 	ra, dec := t.Cols[catalog.RA], t.Cols[catalog.Dec]
 	for i := range ra {
 		if math.IsInf(ra[i], 0) {
-			return nil, rowErr(t, i, catalog.RA, ErrBadPosition, "value %g", ra[i])
+			return nil, rowErr("self-match", t, i, catalog.RA, ErrBadPosition, "value %g", ra[i])
 		}
 		if d := dec[i]; !math.IsNaN(d) && !(d >= -90 && d <= 90) {
-			return nil, rowErr(t, i, catalog.Dec, ErrBadPosition, "value %g outside [-90, 90]", d)
+			return nil, rowErr("self-match", t, i, catalog.Dec, ErrBadPosition, "value %g outside [-90, 90]", d)
 		}
 	}
 	ix, err := NewIndex(ctx, ra, dec, workers)
