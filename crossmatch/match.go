@@ -137,16 +137,15 @@ func Match(ctx context.Context, primary, secondary *catalog.Table, opt Options) 
 	if primary.Len() > math.MaxInt32 || secondary.Len() > math.MaxInt32 {
 		return nil, fmt.Errorf("match: more than %d rows", math.MaxInt32)
 	}
-	dtYr := secondary.EpochJyr - primary.EpochJyr
 	res := &Result{}
 	st := &res.Stats
 	st.PrimaryRows, st.SecondaryRows = primary.Len(), secondary.Len()
 
-	p, err := prepare(ctx, primary, dtYr, true, opt.PrimaryPosErrMas, opt.Workers)
+	p, err := prepare(ctx, primary, secondary.EpochJyr, true, opt.PrimaryPosErrMas, opt.Workers)
 	if err != nil {
 		return nil, err
 	}
-	s, err := prepare(ctx, secondary, 0, false, opt.SecondaryPosErrMas, opt.Workers)
+	s, err := prepare(ctx, secondary, secondary.EpochJyr, false, opt.SecondaryPosErrMas, opt.Workers)
 	if err != nil {
 		return nil, err
 	}
@@ -291,7 +290,7 @@ func rms(a, b float64) (float64, bool) {
 // sigma^2 = (ra_err^2 + dec_err^2)/2 + ((pm_ra_err^2 + pm_dec_err^2)/2) dt^2
 // (mas), the first term replaced by the fallback when the row has no
 // position errors.
-func prepare(ctx context.Context, t *catalog.Table, dtYr float64, move bool, fallbackMas float64, workers int) (*side, error) {
+func prepare(ctx context.Context, t *catalog.Table, toJyr float64, move bool, fallbackMas float64, workers int) (*side, error) {
 	n := t.Len()
 	sd := &side{
 		pts: make([]query, n), cells: make([]uint16, n),
@@ -301,7 +300,7 @@ func prepare(ctx context.Context, t *catalog.Table, dtYr float64, move bool, fal
 	pmRA, pmDec := col(t, catalog.PMRA), col(t, catalog.PMDec)
 	pmRAErr, pmDecErr := col(t, catalog.PMRAErr), col(t, catalog.PMDecErr)
 	plx, rv := col(t, catalog.Parallax), col(t, catalog.RV)
-	absDt := math.Abs(dtYr)
+	absDt := math.Abs(toJyr - t.EpochJyr)
 
 	type tally struct {
 		noPos, moved, still, fallback int
@@ -345,7 +344,7 @@ func prepare(ctx context.Context, t *catalog.Table, dtYr float64, move bool, fal
 				r, d, moved = propagate(astrometry{
 					RADeg: r, DecDeg: d, ParallaxMas: at(plx, i),
 					PMRAMasYr: at(pmRA, i), PMDecMasYr: at(pmDec, i), RVKms: at(rv, i),
-				}, 0, dtYr)
+				}, t.EpochJyr, toJyr)
 				if moved {
 					tl.moved++
 				} else {

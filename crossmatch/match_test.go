@@ -62,7 +62,7 @@ func randomPair(rng *rand.Rand, n int) (p, s []src, fast map[string]string) {
 		}
 		r2, d2 := ra, dec
 		if !math.IsNaN(ps.pmRA) {
-			r2, d2, _ = propagate(astrometry{ra, dec, ps.parallaxMas, ps.pmRA, ps.pmDec, ps.rvKms}, fromJyr, toJyr)
+			r2, d2, _ = propagate(astro(ra, dec, ps.parallaxMas, ps.pmRA, ps.pmDec, ps.rvKms), fromJyr, toJyr)
 		}
 		r2, d2 = offset(r2, d2, math.Abs(rng.NormFloat64())*0.2, rng.Float64()*2*math.Pi)
 		ss := newSrc(fmt.Sprintf("s%d", len(s)), r2, d2, 50+rng.Float64()*200)
@@ -92,8 +92,8 @@ func res0Prior(pt, st *catalog.Table) float64 {
 			continue
 		}
 		if !math.IsNaN(pt.Cols[catalog.PMRA][i]) {
-			ra, dec, _ = propagate(astrometry{ra, dec, pt.Cols[catalog.Parallax][i],
-				pt.Cols[catalog.PMRA][i], pt.Cols[catalog.PMDec][i], pt.Cols[catalog.RV][i]}, pt.EpochJyr, st.EpochJyr)
+			ra, dec, _ = propagate(astro(ra, dec, pt.Cols[catalog.Parallax][i],
+				pt.Cols[catalog.PMRA][i], pt.Cols[catalog.PMDec][i], pt.Cols[catalog.RV][i]), pt.EpochJyr, st.EpochJyr)
 		}
 		c1[cellOf(normRA(ra), dec)]++
 	}
@@ -142,8 +142,8 @@ func oracle(t *testing.T, pt, st *catalog.Table, opt Options) ([]Counterpart, []
 			continue
 		}
 		if !math.IsNaN(pt.Cols[catalog.PMRA][i]) {
-			ra, dec, _ = propagate(astrometry{ra, dec, pt.Cols[catalog.Parallax][i],
-				pt.Cols[catalog.PMRA][i], pt.Cols[catalog.PMDec][i], pt.Cols[catalog.RV][i]}, pt.EpochJyr, st.EpochJyr)
+			ra, dec, _ = propagate(astro(ra, dec, pt.Cols[catalog.Parallax][i],
+				pt.Cols[catalog.PMRA][i], pt.Cols[catalog.PMDec][i], pt.Cols[catalog.RV][i]), pt.EpochJyr, st.EpochJyr)
 		}
 		s1 := sigma(pt, i, opt.PrimaryPosErrMas, dt)
 		for j := 0; j < st.Len(); j++ {
@@ -298,7 +298,7 @@ func TestMatchNeedsPropagation(t *testing.T) {
 	// its position is propagated first.
 	p := newSrc("fast", 100, 20, 50)
 	p.pmRA, p.pmDec = 4000, 0
-	ra2, dec2, _ := propagate(astrometry{100, 20, math.NaN(), 4000, 0, math.NaN()}, 2000, 2016)
+	ra2, dec2, _ := propagate(astro(100, 20, math.NaN(), 4000, 0, math.NaN()), 2000, 2016)
 	s := []src{newSrc("far-counterpart", ra2, dec2, 50), newSrc("at-old-place-2arcsec-off", 100, 20+2.0/3600, 50)}
 	res, err := Match(context.Background(), table("a", 2000, []src{p}), table("b", 2016, s), Options{RadiusArcsec: 1})
 	if err != nil {
