@@ -44,8 +44,11 @@ type Figures struct {
 	// origin is "galactic-centre", over the ejectees ending "unbound".
 	OriginAccuracy     float64
 	NOriginDenominator int
-	// TrapsUnbound counts artefacts ending "unbound", per trap kind.
+	// TrapsUnbound counts artefacts ending "unbound", per trap kind;
+	// BoundUnbound counts truly bound non-artefacts ending "unbound", per
+	// population. Together (plus unknown ids) they make NContaminating.
 	TrapsUnbound map[string]int
+	BoundUnbound map[string]int
 	// HighPMWithRV: high proper-motion stars with a usable spectrum in the
 	// truth whose status is neither "needs-rv" nor missing (their spectrum
 	// was matched after epoch propagation), over all such stars.
@@ -73,17 +76,22 @@ func (f Figures) String() string {
 		100*f.Contamination, f.NContaminating, f.NUnbound, 100*f.OriginAccuracy, f.NOriginDenominator)
 	fmt.Fprintf(&b, "; high-pm with rv %.1f%% of %d; bad rows kept %d/%d; missing %d, unknown %d",
 		100*f.HighPMWithRV, f.NHighPM, f.BadRowsKept, f.NBadRows, f.Missing, f.Unknown)
-	if len(f.TrapsUnbound) > 0 {
-		keys := make([]string, 0, len(f.TrapsUnbound))
-		for k := range f.TrapsUnbound {
+	counts := func(title string, m map[string]int) {
+		if len(m) == 0 {
+			return
+		}
+		keys := make([]string, 0, len(m))
+		for k := range m {
 			keys = append(keys, k)
 		}
 		sort.Strings(keys)
-		b.WriteString("; traps ending unbound:")
+		b.WriteString(title)
 		for _, k := range keys {
-			fmt.Fprintf(&b, " %s=%d", k, f.TrapsUnbound[k])
+			fmt.Fprintf(&b, " %s=%d", k, m[k])
 		}
 	}
+	counts("; traps ending unbound:", f.TrapsUnbound)
+	counts("; bound stars ending unbound:", f.BoundUnbound)
 	return b.String()
 }
 
@@ -96,7 +104,7 @@ func ratio(n, d int) float64 {
 
 // Score compares verdicts (keyed by primary star id) with the truth.
 func Score(truth []TruthRow, verdicts map[string]Verdict) Figures {
-	f := Figures{TrapsUnbound: map[string]int{}}
+	f := Figures{TrapsUnbound: map[string]int{}, BoundUnbound: map[string]int{}}
 	known := make(map[string]bool, len(truth))
 	var hpmHits, originHits int
 	for _, t := range truth {
@@ -124,6 +132,8 @@ func Score(truth []TruthRow, verdicts map[string]Verdict) Figures {
 			}
 			if t.Artefact {
 				f.TrapsUnbound[t.Trap]++
+			} else if !t.TrulyUnbound {
+				f.BoundUnbound[t.Population]++
 			}
 			if t.Population == PopGCEjectee {
 				f.NOriginDenominator++

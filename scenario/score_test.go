@@ -64,7 +64,7 @@ func TestScore(t *testing.T) {
 		// origin hits/denominator (as ratios), plus counters.
 		compl, contam, origin, hpm float64
 		nUnbound, nContam          int
-		traps                      map[string]int
+		traps, bound               map[string]int
 		badKept, missing, unknown  int
 		meets                      bool
 	}{
@@ -74,9 +74,9 @@ func TestScore(t *testing.T) {
 		{name: "artefact unbound", verdicts: with(map[string]Verdict{"bin1": {StatusUnbound, "untraced"}}),
 			compl: 1, contam: 0.25, origin: 1, hpm: 1, nUnbound: 4, nContam: 1, traps: map[string]int{TrapBinary: 1}},
 		{name: "bound fast star unbound", verdicts: with(map[string]Verdict{"fast1": {StatusUnbound, "untraced"}}),
-			compl: 1, contam: 0.25, origin: 1, hpm: 1, nUnbound: 4, nContam: 1},
+			compl: 1, contam: 0.25, origin: 1, hpm: 1, nUnbound: 4, nContam: 1, bound: map[string]int{PopHaloFast: 1}},
 		{name: "bound ejectee unbound, wrong origin", verdicts: with(map[string]Verdict{"gc4": {StatusUnbound, "disk"}}),
-			compl: 1, contam: 0.25, origin: 2.0 / 3, hpm: 1, nUnbound: 4, nContam: 1},
+			compl: 1, contam: 0.25, origin: 2.0 / 3, hpm: 1, nUnbound: 4, nContam: 1, bound: map[string]int{PopGCEjectee: 1}},
 		{name: "wrong origin", verdicts: with(map[string]Verdict{"gc1": {StatusUnbound, "untraced"}}),
 			compl: 1, contam: 0, origin: 0.5, hpm: 1, nUnbound: 3, meets: true},
 		{name: "unknown id unbound", verdicts: with(map[string]Verdict{"ghost": {StatusUnbound, ""}}),
@@ -106,9 +106,17 @@ func TestScore(t *testing.T) {
 			if f.NUnbound != c.nUnbound || f.NContaminating != c.nContam {
 				t.Errorf("unbound %d contaminating %d, want %d %d", f.NUnbound, f.NContaminating, c.nUnbound, c.nContam)
 			}
+			if len(f.TrapsUnbound) != len(c.traps) || len(f.BoundUnbound) != len(c.bound) {
+				t.Errorf("traps %v bound %v, want %v %v", f.TrapsUnbound, f.BoundUnbound, c.traps, c.bound)
+			}
 			for k, v := range c.traps {
 				if f.TrapsUnbound[k] != v {
 					t.Errorf("traps %s = %d, want %d", k, f.TrapsUnbound[k], v)
+				}
+			}
+			for k, v := range c.bound {
+				if f.BoundUnbound[k] != v {
+					t.Errorf("bound %s = %d, want %d", k, f.BoundUnbound[k], v)
 				}
 			}
 			if f.BadRowsKept != c.badKept || f.NBadRows != 1 || f.Missing != c.missing || f.Unknown != c.unknown {
