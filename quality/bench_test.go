@@ -119,3 +119,16 @@ func BenchmarkAssessAll1M(b *testing.B) {
 	}
 	reportCPU(b, cpu0)
 }
+
+// BenchmarkAssessStar is the single-goroutine cost of one star against the
+// default rule set, cycling through 4096 stars that stay in cache.
+func BenchmarkAssessStar(b *testing.B) {
+	e := benchEvaluator(b)
+	stars := benchStars(4096, 11)
+	var a Assessment
+	b.ReportAllocs()
+	b.ResetTimer()
+	for i := 0; i < b.N; i++ {
+		e.Assess(&stars[i&4095], &a)
+	}
+}

@@ -129,7 +129,7 @@ func (e *Evaluator) Assess(s *Star, out *Assessment) {
 		o := &out.Outcomes[i]
 		// A reused Assessment usually holds these already; skipping the
 		// store saves GC write barriers.
-		if o.RuleID != r.ID || o.Threshold != e.thresholds[i] {
+		if o.RuleID != r.ID || o.Threshold != e.thresholds[i] || o.Severity != string(r.Severity) {
 			o.RuleID = r.ID
 			o.Severity = string(r.Severity)
 			o.Threshold = e.thresholds[i]
@@ -412,10 +412,15 @@ func (e *Evaluator) match(r *rules.Rule, t *limitTexts, s *Star, o *Outcome, a *
 			a.buf = append(a.buf, " arcsec"...)
 		}
 		if m.Ambiguous && !r.AllowAmbiguous {
-			a.buf = append(a.buf, ", ambiguous ("...)
+			if !math.IsNaN(r.MinProb) || !math.IsNaN(r.MaxSepArcsec) {
+				a.buf = append(a.buf, ", "...)
+			}
+			a.buf = append(a.buf, "ambiguous ("...)
 			a.buf = strconv.AppendInt(a.buf, int64(m.Candidates), 10)
 			a.buf = append(a.buf, " candidates)"...)
 			bad = true
+		} else if math.IsNaN(r.MinProb) && math.IsNaN(r.MaxSepArcsec) {
+			a.buf = append(a.buf, "unambiguous"...)
 		}
 		switch {
 		case bad:

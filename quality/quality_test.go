@@ -493,3 +493,37 @@ func TestAssessAllCancelled(t *testing.T) {
 		t.Error("Each returned nil after cancel")
 	}
 }
+
+func TestAssessmentReusedAcrossRuleSets(t *testing.T) {
+	asFlag := parse(t, "[[rule]]\nid = \"r\"\nseverity = \"flag\"\ncheck = \"fit_residual\"\nlimit = 1.4\n")
+	asReject := parse(t, "[[rule]]\nid = \"r\"\nseverity = \"reject\"\ncheck = \"fit_residual\"\nlimit = 1.4\n")
+	s := with(catalog.FitResidual, 3)
+	var a Assessment
+	NewEvaluator(asFlag, Context{}).Assess(&s, &a)
+	NewEvaluator(asReject, Context{}).Assess(&s, &a)
+	if a.Outcomes[0].Severity != "reject" || a.Quality != Reject {
+		t.Errorf("stale outcome %+v quality %s", a.Outcomes[0], a.Quality)
+	}
+}
+
+func TestMatchAmbiguityOnly(t *testing.T) {
+	rs := parse(t, "[[rule]]\nid = \"m\"\nseverity = \"flag\"\ncheck = \"match\"\ncatalog = \"spec\"\n", "spec")
+	cases := []struct {
+		m      MatchInfo
+		result string
+		msg    string
+	}{
+		{MatchInfo{Matched: true, Prob: nan, SepArcsec: nan, Candidates: 1}, ResultPass, "spec: unambiguous"},
+		{MatchInfo{Matched: true, Ambiguous: true, Candidates: 2}, ResultFail, "spec: ambiguous (2 candidates)"},
+	}
+	for _, c := range cases {
+		t.Run(c.msg, func(t *testing.T) {
+			s := blank()
+			s.Matches = []MatchInfo{c.m}
+			o := one(t, rs, Context{}, s)
+			if o.Result != c.result || o.Message != c.msg {
+				t.Errorf("got %s %q", o.Result, o.Message)
+			}
+		})
+	}
+}
