@@ -301,9 +301,10 @@ func (l *loader) rule(t map[string]any, rp rulePos) (r *Rule, ok bool) {
 	switch Severity(sev) {
 	case Reject, Flag:
 		r.Severity = Severity(sev)
-	case "":
 	default:
-		l.add(keyPos(rp, "severity"), r.ID, ErrSeverity, "severity %q: want reject or flag", sev)
+		if _, isStr := t["severity"].(string); isStr { // absent or not a string: reported by str
+			l.add(keyPos(rp, "severity"), r.ID, ErrSeverity, "severity %q: want reject or flag", sev)
+		}
 	}
 
 	check := str("check", false)
@@ -328,6 +329,10 @@ func (l *loader) rule(t map[string]any, rp rulePos) (r *Rule, ok bool) {
 		}
 	case hasExpr && exprSrc != "":
 		r.Expr = l.compile(exprSrc, "expr", rp, r.ID)
+	case hasCheck:
+		if _, isStr := t["check"].(string); isStr {
+			l.add(keyPos(rp, "check"), r.ID, ErrUnknownCheck, "check is empty")
+		}
 	}
 
 	allowed := map[string]paramKind{}
