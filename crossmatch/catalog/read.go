@@ -381,7 +381,7 @@ func Read(ctx context.Context, spec Spec, opt ReadOptions) (*Table, *Report, err
 			var id string
 			if q == nil {
 				id = rec[idIdx]
-				if first, dup := seen.lookup(id, t); dup {
+				if first, dup := seen.addOrFind(id, t.Len(), t); dup {
 					lf := lineFields{start: br.line, rec: rec}
 					q = &Quarantine{Line: lf.pos(idIdx), Column: idIdx + 1, ColumnName: header[idIdx], Value: id,
 						Reason: fmt.Sprintf("%s: first seen on line %d", ErrDuplicateID, first), Err: ErrDuplicateID}
@@ -401,7 +401,6 @@ func Read(ctx context.Context, spec Spec, opt ReadOptions) (*Table, *Report, err
 				presize(t, seen, st.Size(), br.offset)
 			}
 			id = strings.Clone(id) // rec shares one backing string per line
-			seen.add(id, t.Len(), br.line)
 			t.IDs = append(t.IDs, id)
 			t.Lines = append(t.Lines, br.line)
 			v := b.vals[r*width : (r+1)*width]
@@ -458,7 +457,7 @@ func presize(t *Table, seen *idSet, fileBytes, usedBytes int64) {
 	lines := make([]int, len(t.Lines), est)
 	copy(lines, t.Lines)
 	t.Lines = lines
-	seen.grow(est)
+	seen.grow(2 * est)
 }
 
 func (q *Quarantine) rowError(file string) *RowError {
@@ -494,7 +493,7 @@ func parseRow(rec, header []string, plans []colPlan, idIdx int, isNull func(stri
 			row[p.field] = math.NaN()
 			continue
 		}
-		v, err := strconv.ParseFloat(s, 64)
+		v, err := parseFloat(s)
 		if err != nil {
 			if t := strings.TrimSpace(s); t != s {
 				v, err = strconv.ParseFloat(t, 64)

@@ -457,22 +457,26 @@ func TestIDSetCollisions(t *testing.T) {
 		t.Run(c.name, func(t *testing.T) {
 			s := newIDSet(c.hash)
 			tab := &Table{}
-			for i, id := range []string{"a", "b", "c", "b", "a", "d", "c"} {
+			ids := []string{"a", "b", "c", "b", "a", "d", "c"}
+			for i := range 3000 { // enough to make the table grow
+				ids = append(ids, fmt.Sprint("g", i))
+			}
+			ids = append(ids, "d", "g2999")
+			for i, id := range ids {
 				line := i + 2
-				first, dup := s.lookup(id, tab)
-				wantDup := i == 3 || i == 4 || i == 6
-				if dup != wantDup {
-					t.Fatalf("%s (line %d): dup = %v, want %v", id, line, dup, wantDup)
+				first, dup := s.addOrFind(id, tab.Len(), tab)
+				want, wantDup := map[string]int{"a": 2, "b": 3, "c": 4, "d": 7, "g2999": 3008}[id]
+				wantDup = wantDup && line != want
+				if dup != wantDup || (dup && first != want) {
+					t.Fatalf("%s (line %d): dup = %v first %d, want %v %d", id, line, dup, first, wantDup, want)
 				}
-				if dup {
-					if want := map[string]int{"a": 2, "b": 3, "c": 4}[id]; first != want {
-						t.Errorf("%s first seen on %d, want %d", id, first, want)
-					}
-					continue
+				if !dup {
+					tab.IDs = append(tab.IDs, id)
+					tab.Lines = append(tab.Lines, line)
 				}
-				s.add(id, tab.Len(), line)
-				tab.IDs = append(tab.IDs, id)
-				tab.Lines = append(tab.Lines, line)
+			}
+			if tab.Len() != 3004 {
+				t.Errorf("kept %d ids, want 3004", tab.Len())
 			}
 		})
 	}
