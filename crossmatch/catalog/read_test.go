@@ -1,6 +1,7 @@
 package catalog
 
 import (
+	"compress/gzip"
 	"context"
 	"crypto/sha256"
 	"encoding/csv"
@@ -12,8 +13,10 @@ import (
 	"math"
 	"os"
 	"path/filepath"
+	"runtime"
 	"strings"
 	"testing"
+	"time"
 )
 
 const dataDir = "../../testdata/ingest"
@@ -490,4 +493,45 @@ func TestFNV1a(t *testing.T) {
 			t.Errorf("fnv1a(%q) = %x, want %x", s, got, want)
 		}
 	}
+}
+
+func TestEarlyExitStopsGoroutines(t *testing.T) {
+	dir := t.TempDir()
+	p := filepath.Join(dir, "early.csv.gz")
+	f, err := os.Create(p)
+	if err != nil {
+		t.Fatal(err)
+	}
+	zw := gzip.NewWriter(f)
+	fmt.Fprintln(zw, "id,ra,dec,parallax")
+	for i := range 50000 {
+		plx := "1.0"
+		if i == 10 {
+			plx = "oops"
+		}
+		fmt.Fprintf(zw, "e-%d,%d,0,%s\n", i, i%360, plx)
+	}
+	if err := zw.Close(); err != nil {
+		t.Fatal(err)
+	}
+	if err := f.Close(); err != nil {
+		t.Fatal(err)
+	}
+	before := runtime.NumGoroutine()
+	_, _, err = Read(context.Background(), Spec{File: p}, ReadOptions{Strict: true})
+	var re *RowError
+	if !errors.As(err, &re) || re.Line != 12 || re.Column != 4 {
+		t.Fatalf("err = %v, want row error at 12:4", err)
+	}
+	tab, rep, err := Read(context.Background(), Spec{File: p}, ReadOptions{})
+	if err != nil || tab.Len() != 49999 || rep.RowsRead != 50000 {
+		t.Fatalf("non-strict: %v, kept %d of %d", err, tab.Len(), rep.RowsRead)
+	}
+	for range 100 {
+		if runtime.NumGoroutine() <= before {
+			return
+		}
+		time.Sleep(10 * time.Millisecond)
+	}
+	t.Errorf("%d goroutines left running, %d before", runtime.NumGoroutine(), before)
 }

@@ -555,3 +555,24 @@ func (p *parser) kinematics(c *Campaign, rk *rawKinemat) {
 		}
 	}
 }
+
+// Primary returns the astrometry catalog (Parse guarantees exactly one).
+func (c *Campaign) Primary() *CatalogSpec {
+	for i := range c.Catalogs {
+		if c.Catalogs[i].Role == catalog.Astrometry {
+			return &c.Catalogs[i]
+		}
+	}
+	return nil
+}
+
+// Secondaries returns the other catalogs, in file order.
+func (c *Campaign) Secondaries() []*CatalogSpec {
+	var out []*CatalogSpec
+	for i := range c.Catalogs {
+		if c.Catalogs[i].Role != catalog.Astrometry {
+			out = append(out, &c.Catalogs[i])
+		}
+	}
+	return out
+}

@@ -61,6 +61,9 @@ func TestLoadFull(t *testing.T) {
 			}
 		})
 	}
+	if c.Primary().Name != "lark_astro" || len(c.Secondaries()) != 2 || c.Secondaries()[1].Name != "heron_phot" {
+		t.Errorf("primary %q, secondaries %d", c.Primary().Name, len(c.Secondaries()))
+	}
 	// The specs must be directly usable by the reader.
 	for _, cs := range c.Catalogs {
 		tab, rep, err := catalog.Read(context.Background(), cs.Spec, catalog.ReadOptions{Strict: true})
