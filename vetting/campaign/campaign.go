@@ -402,9 +402,10 @@ func (p *parser) catalogs(c *Campaign, r *raw) {
 		} else if s.Role != catalog.Astrometry {
 			s.PositionErrMas = DefaultSecondaryPositionErrMas
 		}
-		s.NullMarkers = append([]string(nil), c.NullMarkers...)
+		// Never nil: an empty list means "only empty cells", not the defaults.
+		s.NullMarkers = append(make([]string, 0, len(c.NullMarkers)), c.NullMarkers...)
 		if rc.NullMarkers != nil {
-			s.NullMarkers = *rc.NullMarkers
+			s.NullMarkers = append(make([]string, 0, len(*rc.NullMarkers)), *rc.NullMarkers...)
 		}
 		s.Columns = make(map[string]string, len(rc.Columns))
 		for f, h := range rc.Columns {

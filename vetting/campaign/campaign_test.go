@@ -221,6 +221,18 @@ func TestAllErrorsReported(t *testing.T) {
 	}
 }
 
+func TestEmptyNullMarkers(t *testing.T) {
+	c, err := Parse("camp.toml", []byte("null_markers = []\n"+baseText), "/data")
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, cs := range c.Catalogs {
+		if cs.NullMarkers == nil || len(cs.NullMarkers) != 0 {
+			t.Errorf("%s: markers %#v, want empty non-nil (nil would mean the defaults)", cs.Name, cs.NullMarkers)
+		}
+	}
+}
+
 func TestMarginalLine(t *testing.T) {
 	_, err := Parse("camp.toml", []byte(baseText+"[kinematics]\nunbound_p = 0.4\nmarginal_p = 0.45\n"), "/data")
 	var e *Error
