@@ -106,7 +106,7 @@ func BenchmarkKinematics100k(b *testing.B) {
 			b.Fatal(err)
 		}
 	}
-	b.ReportMetric((cpuTime() - cpu0).Seconds()/float64(b.N), "cpu-s/op")
+	b.ReportMetric((cpuTime()-cpu0).Seconds()/float64(b.N), "cpu-s/op")
 	counts := map[string]int{}
 	for i := range res {
 		counts[res[i].Method]++

@@ -23,7 +23,16 @@ type worker struct {
 	// Per-draw kinematics.
 	speed, rgc, vrad, vtan, vesc []float64
 	table                        edsdTable
+	esc                          losEscape
 }
+
+// The escape-speed table along the line of sight (losEscape) is used when a
+// star has at least losMinDraws draws, with at most one cell per
+// losDrawsPerCell draws; otherwise Phi is evaluated for every draw.
+const (
+	losMinDraws     = 128
+	losDrawsPerCell = 8
+)
 
 func (w *worker) init(n int) {
 	if w.rnd == nil {
@@ -234,6 +243,14 @@ func (w *worker) evaluate(s *Star, set *Settings, p potential.Potential, r *Resu
 	keep := min(set.KeepSamples, kept)
 	r.SamplePos = growVec(r.SamplePos, keep)
 	r.SampleVel = growVec(r.SampleVel, keep)
+	dMin, dMax := w.dist[0], w.dist[0]
+	for _, d := range w.dist[1:kept] {
+		dMin, dMax = math.Min(dMin, d), math.Max(dMax, d)
+	}
+	w.esc.ok = false
+	if kept >= losMinDraws {
+		w.esc.build(p, &los, dMin, dMax, set.EscapeRadiusKpc, kept/losDrawsPerCell)
+	}
 	unbound := 0
 	for i := range kept {
 		pos, vel := los.at(w.dist[i], w.pmRA[i], w.pmDec[i], w.rv[i])
@@ -243,7 +260,12 @@ func (w *worker) evaluate(s *Star, set *Settings, p potential.Potential, r *Resu
 		rg := math.Sqrt(dot(pos, pos))
 		v := math.Sqrt(dot(vel, vel))
 		vr := dot(pos, vel) / rg
-		ve := escapeSpeed(p, pos, rg, set.EscapeRadiusKpc)
+		var ve float64
+		if w.esc.ok {
+			ve = w.esc.vesc(w.dist[i])
+		} else {
+			ve = escapeSpeed(p, pos, rg, set.EscapeRadiusKpc)
+		}
 		w.speed[i], w.rgc[i], w.vrad[i], w.vesc[i] = v, rg, vr, ve
 		w.vtan[i] = math.Sqrt(math.Max(0, v*v-vr*vr))
 		if v > ve {

@@ -15,26 +15,59 @@ func percentiles(a []float64) [3]float64 {
 	if n == 0 {
 		return [3]float64{math.NaN(), math.NaN(), math.NaN()}
 	}
-	var out [3]float64
-	from := 0 // a[:from] holds only elements <= every element of a[from:]
+	var k [3]int
+	var frac [3]float64
 	for q, p := range percentileLevels {
 		h := float64(n-1) * p
-		k := int(h)
-		selectK(a, from, n, k)
-		v := a[k]
-		if frac := h - float64(k); frac > 0 && k+1 < n {
-			next := a[k+1]
-			for _, x := range a[k+2:] {
-				if x < next {
-					next = x
-				}
-			}
-			v += frac * (next - v)
+		k[q] = int(h)
+		frac[q] = h - float64(k[q])
+	}
+	// The median first over everything, then the 84th in the upper part
+	// and the 16th in the lower part. next[q] is order statistic k[q]+1.
+	var v, next [3]float64
+	selectK(a, 0, n, k[1])
+	v[1] = a[k[1]]
+	if k[2] > k[1] {
+		selectK(a, k[1]+1, n, k[2])
+		v[2] = a[k[2]]
+		next[1] = minOf(a[k[1]+1 : k[2]+1])
+		if k[2]+1 < n {
+			next[2] = minOf(a[k[2]+1:])
 		}
-		out[q] = v
-		from = k
+	} else {
+		if k[1]+1 < n {
+			next[1] = minOf(a[k[1]+1:])
+		}
+		v[2], next[2] = v[1], next[1]
+	}
+	if k[0] < k[1] {
+		selectK(a, 0, k[1], k[0])
+		v[0] = a[k[0]]
+		next[0] = a[k[1]]
+		if k[0]+1 < k[1] {
+			next[0] = minOf(a[k[0]+1 : k[1]])
+		}
+	} else {
+		v[0], next[0] = v[1], next[1]
+	}
+	var out [3]float64
+	for q := range 3 {
+		out[q] = v[q]
+		if frac[q] > 0 && k[q]+1 < n {
+			out[q] += frac[q] * (next[q] - v[q])
+		}
 	}
 	return out
+}
+
+func minOf(a []float64) float64 {
+	m := a[0]
+	for _, x := range a[1:] {
+		if x < m {
+			m = x
+		}
+	}
+	return m
 }
 
 // selectK reorders a[lo:hi] so that a[k] is the element that would be there

@@ -1,0 +1,130 @@
+package kinematics
+
+import (
+	"math"
+	"sort"
+
+	"starvet/vetting/potential"
+)
+
+// Along one line of sight the position is pos0 + d posR, so the escape speed
+// is a function of the distance alone. losEscape tabulates
+// psi(d) = Phi_lim(d) - Phi(pos(d)) over the drawn distances and
+// interpolates it with cubic Hermite polynomials whose slopes come from the
+// potential's acceleration (dPhi/dd = -a . posR). The Hermite error term is
+// proportional to (d-a)^2 (d-b)^2 (e.g. Burden & Faires, Numerical
+// Analysis, theorem 3.9), largest at a cell's midpoint, so a cell is split
+// in two until the exact psi at its midpoint is matched within vescTolKms
+// of escape speed. When that needs more than maxCells cells (a line of
+// sight grazing the cusp at the centre, say) the escape speed is evaluated
+// exactly for every draw instead.
+type losEscape struct {
+	d, psi, dpsi []float64 // nodes: distance, value and derivative in d
+	ok           bool      // false: evaluate exactly per draw
+}
+
+const (
+	losStartCells = 8
+	losMaxDepth   = 16
+	// vescTolKms bounds the escape-speed error at the cell midpoints: a psi
+	// error eps moves v_esc = sqrt(2 psi) by about eps / v_esc. 1e-4 km/s is
+	// far below any quoted escape-speed precision (tens of km/s, e.g. Piffl
+	// et al. 2014, A&A 562, A91).
+	vescTolKms = 1e-4
+)
+
+// psiAt returns psi and dpsi/dd at distance d.
+func psiAt(p potential.Potential, l *lineOfSight, d, escRadiusKpc float64) (psi, dpsi float64) {
+	var x [3]float64
+	for i := range 3 {
+		x[i] = l.pos0[i] + d*l.posR[i]
+	}
+	a := p.Accel(x)
+	psi, dpsi = -p.Phi(x), dot(a, l.posR)
+	if escRadiusKpc > 0 {
+		r := math.Sqrt(dot(x, x))
+		k := escRadiusKpc / r
+		y := [3]float64{x[0] * k, x[1] * k, x[2] * k}
+		// d y/dd = (R/r) (posR - u (u . posR)), u = x/r.
+		ur := dot(x, l.posR) / r
+		var dy [3]float64
+		for i := range 3 {
+			dy[i] = k * (l.posR[i] - x[i]/r*ur)
+		}
+		psi += p.Phi(y)
+		dpsi -= dot(p.Accel(y), dy)
+	}
+	return psi, dpsi
+}
+
+// build prepares the table for distances in [dMin, dMax].
+func (t *losEscape) build(p potential.Potential, l *lineOfSight, dMin, dMax, escRadiusKpc float64, maxCells int) {
+	t.ok = false
+	t.d, t.psi, t.dpsi = t.d[:0], t.psi[:0], t.dpsi[:0]
+	if !(dMax > dMin) || maxCells < losStartCells {
+		return
+	}
+	// psi is clamped beyond the escape radius; keep the table well inside
+	// it (r(d) is convex along a line, so the ends decide).
+	if escRadiusKpc > 0 {
+		for _, d := range []float64{dMin, dMax} {
+			pos, _ := l.at(d, 0, 0, 0)
+			if math.Sqrt(dot(pos, pos)) >= 0.9*escRadiusKpc {
+				return
+			}
+		}
+	}
+	step := (dMax - dMin) / losStartCells
+	a := dMin
+	pa, da := psiAt(p, l, a, escRadiusKpc)
+	t.d, t.psi, t.dpsi = append(t.d, a), append(t.psi, pa), append(t.dpsi, da)
+	for i := 1; i <= losStartCells; i++ {
+		b := dMin + float64(i)*step
+		if i == losStartCells {
+			b = dMax
+		}
+		pb, db := psiAt(p, l, b, escRadiusKpc)
+		if !t.refine(p, l, escRadiusKpc, a, pa, da, b, pb, db, 0, maxCells) {
+			return
+		}
+		a, pa, da = b, pb, db
+	}
+	t.ok = true
+}
+
+// refine appends the nodes after a up to b, splitting [a, b] until the
+// midpoint check passes; false when the cell budget or depth runs out.
+func (t *losEscape) refine(p potential.Potential, l *lineOfSight, rLim, a, pa, da, b, pb, db float64, depth, maxCells int) bool {
+	mid := 0.5 * (a + b)
+	pm, dm := psiAt(p, l, mid, rLim)
+	if math.Abs(hermite(pa, da, pb, db, b-a, 0.5)-pm) <= vescTolKms*math.Sqrt(2*math.Max(pm, 1)) {
+		t.d, t.psi, t.dpsi = append(t.d, b), append(t.psi, pb), append(t.dpsi, db)
+		return true
+	}
+	if depth >= losMaxDepth || len(t.d)+1 >= maxCells {
+		return false
+	}
+	return t.refine(p, l, rLim, a, pa, da, mid, pm, dm, depth+1, maxCells) &&
+		t.refine(p, l, rLim, mid, pm, dm, b, pb, db, depth+1, maxCells)
+}
+
+// hermite is the cubic with values p0, p1 and slopes d0, d1 at the ends of
+// a cell of width h, at fraction s.
+func hermite(p0, d0, p1, d1, h, s float64) float64 {
+	s2 := s * s
+	s3 := s2 * s
+	return (2*s3-3*s2+1)*p0 + (s3-2*s2+s)*d0*h + (-2*s3+3*s2)*p1 + (s3-s2)*d1*h
+}
+
+// vesc returns the interpolated escape speed at distance d.
+func (t *losEscape) vesc(d float64) float64 {
+	n := len(t.d)
+	i := sort.SearchFloat64s(t.d, d) - 1 // t.d[i] < d <= t.d[i+1]
+	i = max(0, min(i, n-2))
+	h := t.d[i+1] - t.d[i]
+	psi := hermite(t.psi[i], t.dpsi[i], t.psi[i+1], t.dpsi[i+1], h, (d-t.d[i])/h)
+	if psi <= 0 {
+		return 0
+	}
+	return math.Sqrt(2 * psi)
+}

@@ -1,0 +1,84 @@
+package kinematics
+
+import (
+	"math"
+	"math/rand/v2"
+	"testing"
+
+	"starvet/vetting/frames"
+)
+
+// The interpolated escape speed must match sqrt(2 (Phi_lim - Phi)) computed
+// directly, on ordinary lines of sight and on ones grazing the centre.
+func TestLineOfSightEscapeTable(t *testing.T) {
+	sun := frames.DefaultSun()
+	raGC, decGC := frames.GalacticToICRS(0, 0)
+	raNear, decNear := frames.GalacticToICRS(0.002, 0.001)
+	cases := []struct {
+		name             string
+		ra, dec          float64 // rad
+		dMin, dMax, rLim float64
+	}{
+		{"halo", 2.1, 0.4, 0.5, 25, 0},
+		{"halo-escape-radius", 2.1, 0.4, 0.5, 25, 200},
+		{"far", 4, -1, 10, 150, 0},
+		{"narrow", 1, 0.2, 3.999, 4.001, 0},
+		{"toward-centre", raGC, decGC, 6, 10, 0},
+		{"near-centre", raNear, decNear, 2, 14, 0},
+		{"near-centre-escape-radius", raNear, decNear, 2, 14, 50},
+		{"straddles-escape-radius", 2.1, 0.4, 10, 300, 100},
+	}
+	for _, pot := range []struct {
+		name string
+		p    sumPotential
+	}{{"bulge-halo", milkyWayTest()}, {"bulge-disk-halo", milkyWayBench()}} {
+		for _, tc := range cases {
+			t.Run(pot.name+"/"+tc.name, func(t *testing.T) {
+				l := newLineOfSight(sun, tc.ra/degToRad, tc.dec/degToRad)
+				var tab losEscape
+				tab.build(pot.p, &l, tc.dMin, tc.dMax, tc.rLim, 125)
+				t.Logf("table used: %v (%d nodes)", tab.ok, len(tab.psi))
+				if !tab.ok {
+					return
+				}
+				rnd := rand.New(rand.NewPCG(1, 1))
+				worst := 0.0
+				for range 5000 {
+					d := tc.dMin + (tc.dMax-tc.dMin)*rnd.Float64()
+					pos, _ := l.at(d, 0, 0, 0)
+					exact := escapeSpeed(pot.p, pos, norm(pos), tc.rLim)
+					worst = math.Max(worst, math.Abs(tab.vesc(d)-exact))
+				}
+				t.Logf("worst error %.2g km/s", worst)
+				if worst > 2*vescTolKms {
+					t.Errorf("worst escape-speed error %.3g km/s", worst)
+				}
+			})
+		}
+	}
+}
+
+// The table must be in use for ordinary stars (else it saves nothing) and
+// switched off when the draws do not spread.
+func TestLineOfSightEscapeTableUse(t *testing.T) {
+	stars := benchStars(200)
+	set := testSettings()
+	used := 0
+	var w worker
+	var r Result
+	for i := range stars {
+		w.evaluate(&stars[i], &set, milkyWayBench(), &r)
+		if w.esc.ok {
+			used++
+		}
+	}
+	if used < 190 {
+		t.Errorf("table used for %d of 200 stars", used)
+	}
+	s := baseStar("fixed")
+	s.ParallaxErrMas = 0
+	w.evaluate(&s, &set, milkyWayBench(), &r)
+	if w.esc.ok {
+		t.Error("table built for a single distance")
+	}
+}
