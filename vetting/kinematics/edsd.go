@@ -16,7 +16,7 @@ import (
 
 // edsdGridPoints is the size of the per-star table; the grid is uniform in
 // ln r, so its relative resolution is ln(hi/lo)/edsdGridPoints.
-const edsdGridPoints = 2048
+const edsdGridPoints = 1024
 
 // edsdLogDrop bounds the tabulated range: the table ends where the density
 // has fallen by exp(-edsdLogDrop) below the highest mode.
@@ -156,7 +156,7 @@ func (t *edsdTable) build(w, s, l float64) bool {
 	r := lo
 	for i := range n {
 		// r_i = lo ratio^i by repeated multiplication: the drift after
-		// 2048 steps is ~1e-13 relative, far below the grid spacing.
+		// 1024 steps is ~1e-13 relative, far below the grid spacing.
 		if i > 0 {
 			r *= ratio
 		}
