@@ -2,9 +2,52 @@ package main
 
 import (
 	"context"
-	"errors"
+	"fmt"
+
+	"starvet/report"
 )
 
 func runReport(ctx context.Context, env *Env, args []string) error {
-	return errors.New("report: not built yet")
+	fs := newFlags(env, "report", "[--run N] [--ledger PATH] -o DIR",
+		"Write a static HTML page with plots (SVG) for one run (default: the latest\n"+
+			"complete run) into DIR: status counts, rejection reasons, speed against\n"+
+			"distance, sky map, p_unbound histogram, plane crossings, candidate table.\n"+
+			"The page needs no network.")
+	ledger := fs.String("ledger", defaultLedger, "ledger file")
+	run := fs.Int64("run", 0, "run id (0 = latest complete run)")
+	out := fs.String("o", "", "output directory (created if missing)")
+	escR := fs.Float64("escape-radius-kpc", 0, "radius the escape-speed curve escapes to (0 = infinity); the ledger does not record the run's")
+	gcR := fs.Float64("gc-radius-kpc", 0, fmt.Sprintf("centre radius on the crossing plot (0 = %g)", report.DefaultGCRadiusKpc))
+	if err := parseFlags(env, fs, args); err != nil {
+		return err
+	}
+	switch {
+	case fs.NArg() > 0:
+		return usageError("report takes no arguments, got %q", fs.Args())
+	case *out == "":
+		return usageError("report needs -o DIR")
+	case *run < 0:
+		return usageError("--run %d: want a positive run id or 0", *run)
+	case *escR < 0:
+		return usageError("--escape-radius-kpc %g: want 0 or more", *escR)
+	case *gcR < 0:
+		return usageError("--gc-radius-kpc %g: want 0 or more", *gcR)
+	}
+	sum, err := makeReport(ctx, *ledger, *run, *out, report.Options{EscapeRadiusKpc: *escR, GCRadiusKpc: *gcR})
+	if err != nil {
+		return err
+	}
+	fmt.Fprintf(env.Stdout, "report of run %d: %s\n", sum.RunID, sum.Index)
+	return nil
+}
+
+// makeReport opens the ledger read-only and writes the report of runID
+// (0 = latest complete run) into dir.
+func makeReport(ctx context.Context, ledgerPath string, runID int64, dir string, opt report.Options) (*report.Summary, error) {
+	l, err := openLedgerRO(ctx, ledgerPath)
+	if err != nil {
+		return nil, err
+	}
+	defer l.Close()
+	return report.Write(ctx, l, runID, dir, opt)
 }

@@ -1,0 +1,472 @@
+package report
+
+import (
+	"bytes"
+	"fmt"
+	"image/color"
+	"math"
+
+	"gonum.org/v1/plot"
+	"gonum.org/v1/plot/plotter"
+	"gonum.org/v1/plot/vg"
+	"gonum.org/v1/plot/vg/draw"
+	"gonum.org/v1/plot/vg/vgsvg"
+
+	"starvet/vetting/frames"
+	"starvet/vetting/potential"
+)
+
+const degToRad = math.Pi / 180
+
+var (
+	black     = color.RGBA{0, 0, 0, 0xFF}
+	gridGrey  = color.RGBA{0xC8, 0xC8, 0xC8, 0xFF}
+	curveGrey = color.RGBA{0x44, 0x44, 0x44, 0xFF}
+)
+
+func finite(x float64) bool { return !math.IsNaN(x) && !math.IsInf(x, 0) }
+
+func toSVG(p *plot.Plot, w, h vg.Length) ([]byte, error) {
+	c := vgsvg.New(w, h)
+	p.Draw(draw.New(c))
+	var buf bytes.Buffer
+	if _, err := c.WriteTo(&buf); err != nil {
+		return nil, err
+	}
+	return buf.Bytes(), nil
+}
+
+func newPlot(title, xLabel, yLabel string) *plot.Plot {
+	p := plot.New()
+	p.Title.Text = title
+	p.X.Label.Text = xLabel
+	p.Y.Label.Text = yLabel
+	p.Legend.Top = true
+	p.Legend.TextStyle.Font.Size = vg.Points(9)
+	return p
+}
+
+// scatter adds one status's markers with a legend entry "status (n)".
+func scatter(p *plot.Plot, status string, xys plotter.XYs) error {
+	st := styleOf(status)
+	s, err := plotter.NewScatter(xys)
+	if err != nil {
+		return err
+	}
+	s.GlyphStyle = draw.GlyphStyle{Color: st.Color, Shape: st.Shape, Radius: st.Radius}
+	p.Add(s)
+	p.Legend.Add(fmt.Sprintf("%s (%d)", status, len(xys)), s)
+	return nil
+}
+
+func line(p *plot.Plot, xys plotter.XYs, c color.Color, width vg.Length, dashes ...vg.Length) (*plotter.Line, error) {
+	l, err := plotter.NewLine(xys)
+	if err != nil {
+		return nil, err
+	}
+	l.LineStyle = draw.LineStyle{Color: c, Width: width, Dashes: dashes}
+	p.Add(l)
+	return l, nil
+}
+
+// speedPlot is plot 1: Galactocentric speed against distance with the
+// 16-84 per cent range, over the escape speed of the adopted model.
+func speedPlot(d *data) (*PlotSummary, []byte, error) {
+	ps := &PlotSummary{File: "speed.svg", Title: "Galactocentric speed against Galactocentric distance", Points: map[string]int{}}
+	p := newPlot(ps.Title, "Galactocentric distance r (kpc)", "Galactocentric speed (km/s)")
+	pts := map[string]plotter.XYs{}
+	bars := map[string]plotter.YErrors{}
+	present := map[string]bool{}
+	omitted := map[string]int{}
+	var vesc plotter.XYs
+	rMax := 0.0
+	for i := range d.stars {
+		s := &d.stars[i]
+		if !finite(s.SpeedP50Kms) || !finite(s.RGCKpc) {
+			if s.Status != "rejected" && s.Status != "withdrawn" {
+				omitted[s.Status]++
+			}
+			continue
+		}
+		lo, hi := 0.0, 0.0
+		if finite(s.SpeedP16Kms) {
+			lo = math.Max(0, s.SpeedP50Kms-s.SpeedP16Kms)
+		}
+		if finite(s.SpeedP84Kms) {
+			hi = math.Max(0, s.SpeedP84Kms-s.SpeedP50Kms)
+		}
+		pts[s.Status] = append(pts[s.Status], plotter.XY{X: s.RGCKpc, Y: s.SpeedP50Kms})
+		bars[s.Status] = append(bars[s.Status], struct{ Low, High float64 }{lo, hi})
+		present[s.Status] = true
+		rMax = math.Max(rMax, s.RGCKpc)
+		if finite(s.VEscKms) {
+			vesc = append(vesc, plotter.XY{X: s.RGCKpc, Y: s.VEscKms})
+		}
+	}
+	if rMax == 0 {
+		rMax = 50
+	}
+
+	var model *potential.Model
+	if len(d.models) == 1 && d.models[0] != ComponentsModel {
+		model, _ = potential.Builtin(d.models[0])
+	}
+	switch {
+	case model != nil:
+		ps.HasCurve = true
+		var plane, pole plotter.XYs
+		for k := 0; k <= 200; k++ {
+			r := 0.2 + (rMax*1.05-0.2)*float64(k)/200
+			plane = append(plane, plotter.XY{X: r, Y: model.EscapeSpeed([3]float64{r, 0, 0}, d.opt.EscapeRadiusKpc)})
+			pole = append(pole, plotter.XY{X: r, Y: model.EscapeSpeed([3]float64{0, 0, r}, d.opt.EscapeRadiusKpc)})
+		}
+		l1, err := line(p, plane, curveGrey, 1.2)
+		if err != nil {
+			return ps, nil, err
+		}
+		l2, err := line(p, pole, curveGrey, 1.2, vg.Points(5), vg.Points(3))
+		if err != nil {
+			return ps, nil, err
+		}
+		p.Legend.Add("escape speed in the plane", l1)
+		p.Legend.Add("escape speed toward the pole", l2)
+		ps.Note = fmt.Sprintf("Curves: escape speed of model %s %s, in the Galactic plane (solid) and along the axis toward the north Galactic pole (dashed).",
+			d.models[0], escapeText(d.opt.EscapeRadiusKpc))
+	case len(vesc) > 0:
+		s, err := plotter.NewScatter(vesc)
+		if err != nil {
+			return ps, nil, err
+		}
+		s.GlyphStyle = draw.GlyphStyle{Color: black, Shape: draw.RingGlyph{}, Radius: 1.6}
+		p.Add(s)
+		p.Legend.Add("each star's own escape speed", s)
+		ps.Extra = len(vesc)
+		ps.Note = fmt.Sprintf("The model (%s) cannot be rebuilt from the ledger, so no escape-speed curve is drawn; the small black rings are each star's own stored escape speed.", modelsText(d.models))
+	default:
+		ps.Note = "No escape speed to draw: the run has no model name and no stored escape speeds."
+	}
+
+	for _, st := range sortStatuses(present) {
+		eb := &plotter.YErrorBars{XYs: pts[st], YErrors: bars[st], CapWidth: 2,
+			LineStyle: draw.LineStyle{Color: styleOf(st).Color, Width: 0.6}}
+		p.Add(eb)
+	}
+	for _, st := range sortStatuses(present) {
+		if err := scatter(p, st, pts[st]); err != nil {
+			return ps, nil, err
+		}
+		ps.Points[st] = len(pts[st])
+	}
+	p.X.Min = 0
+	p.Y.Min = 0
+	if len(present) == 0 && !ps.HasCurve {
+		p.X.Max, p.Y.Max = rMax, 1000
+	}
+	for _, st := range sortStatuses(boolKeys(omitted)) {
+		ps.Omitted += omitted[st]
+		ps.Note += fmt.Sprintf(" Not drawn: %d %s star(s) without a full speed.", omitted[st], st)
+	}
+	svg, err := toSVG(p, 7.5*vg.Inch, 5.2*vg.Inch)
+	return ps, svg, err
+}
+
+func boolKeys(m map[string]int) map[string]bool {
+	out := map[string]bool{}
+	for k := range m {
+		out[k] = true
+	}
+	return out
+}
+
+func escapeText(rKpc float64) string {
+	if rKpc > 0 {
+		return fmt.Sprintf("(escape to r = %g kpc along the same ray)", rKpc)
+	}
+	return "(escape to infinity)"
+}
+
+func modelsText(ms []string) string {
+	if len(ms) == 0 {
+		return "none recorded"
+	}
+	s := ""
+	for i, m := range ms {
+		if i > 0 {
+			s += ", "
+		}
+		s += m
+	}
+	return s
+}
+
+// skyPlot is plot 2: the stars on an equal-area Hammer-Aitoff map in
+// Galactic coordinates, longitude increasing to the left.
+func skyPlot(d *data) (*PlotSummary, []byte, error) {
+	ps := &PlotSummary{File: "sky.svg", Title: "Sky map in Galactic coordinates (Hammer-Aitoff, equal area)", Points: map[string]int{}}
+	p := newPlot(ps.Title, "", "")
+	p.HideAxes()
+	p.Legend.Left = true
+	const r2 = math.Sqrt2
+	p.X.Min, p.X.Max = -2*r2*1.02, 2*r2*1.02
+	p.Y.Min, p.Y.Max = -r2*1.04, r2*1.18
+
+	proj := func(lDeg, bDeg float64) plotter.XY {
+		x, y := HammerAitoff(wrapLon(lDeg*degToRad), bDeg*degToRad)
+		return plotter.XY{X: -x, Y: y}
+	}
+	for _, lDeg := range []float64{-120, -60, 0, 60, 120} {
+		var m plotter.XYs
+		for b := -90.0; b <= 90; b += 2 {
+			m = append(m, proj(lDeg, b))
+		}
+		if _, err := line(p, m, gridGrey, 0.5); err != nil {
+			return ps, nil, err
+		}
+	}
+	for _, bDeg := range []float64{-60, -30, 0, 30, 60} {
+		var m plotter.XYs
+		for l := -180.0; l <= 180; l += 2 {
+			m = append(m, proj(l, bDeg))
+		}
+		if _, err := line(p, m, gridGrey, 0.5); err != nil {
+			return ps, nil, err
+		}
+	}
+	var outline plotter.XYs
+	for k := 0; k <= 360; k++ {
+		t := float64(k) * degToRad
+		outline = append(outline, plotter.XY{X: 2 * r2 * math.Cos(t), Y: r2 * math.Sin(t)})
+	}
+	if _, err := line(p, outline, curveGrey, 1); err != nil {
+		return ps, nil, err
+	}
+	var lxy plotter.XYs
+	var ltxt []string
+	for _, lDeg := range []float64{120, 60, 0, -60, -120} {
+		q := proj(lDeg, 0)
+		q.Y -= 0.09
+		lxy = append(lxy, q)
+		ltxt = append(ltxt, fmt.Sprintf("%g°", math.Mod(lDeg+360, 360)))
+	}
+	for _, bDeg := range []float64{60, 30, -30, -60} {
+		q := proj(0, bDeg)
+		lxy = append(lxy, q)
+		ltxt = append(ltxt, fmt.Sprintf("%+g°", bDeg))
+	}
+	labels, err := plotter.NewLabels(plotter.XYLabels{XYs: lxy, Labels: ltxt})
+	if err != nil {
+		return ps, nil, err
+	}
+	for i := range labels.TextStyle {
+		labels.TextStyle[i].Font.Size = vg.Points(8)
+		labels.TextStyle[i].Color = curveGrey
+	}
+	p.Add(labels)
+
+	pts := map[string]plotter.XYs{}
+	present := map[string]bool{}
+	for i := range d.stars {
+		s := &d.stars[i]
+		if !s.hasPos {
+			ps.Omitted++
+			continue
+		}
+		l, b := frames.ICRSToGalactic(s.raDeg*degToRad, s.decDeg*degToRad)
+		x, y := HammerAitoff(wrapLon(l), b)
+		pts[s.Status] = append(pts[s.Status], plotter.XY{X: -x, Y: y})
+		present[s.Status] = true
+	}
+	for _, st := range sortStatuses(present) {
+		if err := scatter(p, st, pts[st]); err != nil {
+			return ps, nil, err
+		}
+		ps.Points[st] = len(pts[st])
+	}
+	switch {
+	case !d.havePos:
+		ps.Note = "This ledger gives no star positions, so the map is empty."
+	case ps.Omitted > 0:
+		ps.Note = fmt.Sprintf("Not drawn: %d star(s) without a stored position.", ps.Omitted)
+	}
+	ps.Note = "Longitude l increases to the left, l = 0 at the centre; graticule every 60° in l and 30° in b. " + ps.Note
+	svg, err := toSVG(p, 9*vg.Inch, 5*vg.Inch)
+	return ps, svg, err
+}
+
+// pUnboundBins is the number of equal bins of the p_unbound histogram on
+// [0, 1].
+const pUnboundBins = 20
+
+// pUnboundPlot is plot 3: the histogram of p_unbound over the stars with a
+// radial velocity, stacked by status.
+func pUnboundPlot(d *data) (*PlotSummary, []byte, error) {
+	ps := &PlotSummary{File: "p_unbound.svg", Title: "Probability of being unbound (stars with a radial velocity)", Points: map[string]int{}}
+	p := newPlot(ps.Title, "p_unbound", "stars per bin")
+	h := &stackedHist{counts: map[string][]int{}}
+	present := map[string]bool{}
+	for i := range d.stars {
+		s := &d.stars[i]
+		if !s.HasRV {
+			continue
+		}
+		if !finite(s.PUnbound) {
+			ps.Omitted++
+			continue
+		}
+		k := int(s.PUnbound * pUnboundBins)
+		k = max(0, min(pUnboundBins-1, k))
+		if h.counts[s.Status] == nil {
+			h.counts[s.Status] = make([]int, pUnboundBins)
+		}
+		h.counts[s.Status][k]++
+		present[s.Status] = true
+	}
+	h.order = sortStatuses(present)
+	p.Add(h)
+	for _, st := range h.order {
+		n := 0
+		for _, c := range h.counts[st] {
+			n += c
+			if c > 0 {
+				ps.Points[st]++ // one bar segment per non-empty bin
+			}
+		}
+		p.Legend.Add(fmt.Sprintf("%s (%d)", st, n), histThumb{styleOf(st).Color})
+	}
+	p.X.Min, p.X.Max = 0, 1
+	p.Y.Min = 0
+	if ps.Omitted > 0 {
+		ps.Note = fmt.Sprintf("Not drawn: %d star(s) with a radial velocity but no p_unbound.", ps.Omitted)
+	}
+	ps.Note = fmt.Sprintf("%d bins of width %g, stacked by status. ", pUnboundBins, 1.0/pUnboundBins) + ps.Note
+	svg, err := toSVG(p, 7*vg.Inch, 4.2*vg.Inch)
+	return ps, svg, err
+}
+
+// stackedHist draws per-bin bars stacked in status order; each non-empty
+// (bin, status) cell is one filled rectangle.
+type stackedHist struct {
+	counts map[string][]int
+	order  []string
+}
+
+func (h *stackedHist) Plot(c draw.Canvas, p *plot.Plot) {
+	trX, trY := p.Transforms(&c)
+	for k := range pUnboundBins {
+		x0, x1 := float64(k)/pUnboundBins, float64(k+1)/pUnboundBins
+		base := 0
+		for _, st := range h.order {
+			n := h.counts[st][k]
+			if n == 0 {
+				continue
+			}
+			var r vg.Path
+			r.Move(vg.Point{X: trX(x0), Y: trY(float64(base))})
+			r.Line(vg.Point{X: trX(x1), Y: trY(float64(base))})
+			r.Line(vg.Point{X: trX(x1), Y: trY(float64(base + n))})
+			r.Line(vg.Point{X: trX(x0), Y: trY(float64(base + n))})
+			r.Close()
+			c.SetColor(styleOf(st).Color)
+			c.Fill(r)
+			base += n
+		}
+	}
+}
+
+func (h *stackedHist) DataRange() (xmin, xmax, ymin, ymax float64) {
+	top := 0
+	for k := range pUnboundBins {
+		s := 0
+		for _, st := range h.order {
+			s += h.counts[st][k]
+		}
+		top = max(top, s)
+	}
+	return 0, 1, 0, math.Max(1, float64(top)*1.1)
+}
+
+type histThumb struct{ color color.Color }
+
+func (t histThumb) Thumbnail(c *draw.Canvas) {
+	var r vg.Path
+	r.Move(vg.Point{X: c.Min.X, Y: c.Min.Y})
+	r.Line(vg.Point{X: c.Max.X, Y: c.Min.Y})
+	r.Line(vg.Point{X: c.Max.X, Y: c.Max.Y})
+	r.Line(vg.Point{X: c.Min.X, Y: c.Max.Y})
+	r.Close()
+	c.SetColor(t.color)
+	c.Fill(r)
+}
+
+// crossingPlot is plot 4: where the back-traced orbits crossed the plane
+// z = 0, with the centre radius and the Sun.
+func crossingPlot(d *data) (*PlotSummary, []byte, error) {
+	ps := &PlotSummary{File: "crossings.svg", Title: "Back-traced crossings of the Galactic plane", Points: map[string]int{}}
+	p := newPlot(ps.Title, "x (kpc), Sun to centre", "y (kpc), direction of rotation")
+	pts := map[string]plotter.XYs{}
+	present := map[string]bool{}
+	extent := math.Max(d.opt.SunDistanceKpc+1, 1.5*d.opt.GCRadiusKpc)
+	for i, c := range d.crossings {
+		if !finite(c.XKpc) || !finite(c.YKpc) {
+			ps.Omitted++
+			continue
+		}
+		st := d.crossStat[i]
+		pts[st] = append(pts[st], plotter.XY{X: c.XKpc, Y: c.YKpc})
+		present[st] = true
+		extent = math.Max(extent, math.Max(math.Abs(c.XKpc), math.Abs(c.YKpc)))
+	}
+	extent *= 1.08
+	p.X.Min, p.X.Max, p.Y.Min, p.Y.Max = -extent, extent, -extent, extent
+
+	var circ plotter.XYs
+	for k := 0; k <= 180; k++ {
+		t := float64(k) * 2 * math.Pi / 180
+		circ = append(circ, plotter.XY{X: d.opt.GCRadiusKpc * math.Cos(t), Y: d.opt.GCRadiusKpc * math.Sin(t)})
+	}
+	cl, err := line(p, circ, black, 1, vg.Points(3), vg.Points(2))
+	if err != nil {
+		return ps, nil, err
+	}
+	p.Legend.Add(fmt.Sprintf("centre radius %g kpc", d.opt.GCRadiusKpc), cl)
+	for _, st := range sortStatuses(present) {
+		if err := scatter(p, st, pts[st]); err != nil {
+			return ps, nil, err
+		}
+		ps.Points[st] = len(pts[st])
+	}
+	sun := plotter.XYs{{X: -d.opt.SunDistanceKpc, Y: 0}}
+	ring, err := plotter.NewScatter(sun)
+	if err != nil {
+		return ps, nil, err
+	}
+	ring.GlyphStyle = draw.GlyphStyle{Color: black, Shape: draw.RingGlyph{}, Radius: 4.5}
+	dot, err := plotter.NewScatter(sun)
+	if err != nil {
+		return ps, nil, err
+	}
+	dot.GlyphStyle = draw.GlyphStyle{Color: black, Shape: draw.CircleGlyph{}, Radius: 1.2}
+	p.Add(ring, dot)
+	p.Legend.Add(fmt.Sprintf("Sun (x = %g kpc)", -d.opt.SunDistanceKpc), ring, dot)
+
+	gcText := fmt.Sprintf("The dashed circle is the centre radius, %g kpc (given in the options).", d.opt.GCRadiusKpc)
+	if d.gcDefault {
+		gcText = fmt.Sprintf("The dashed circle is the centre radius, %g kpc: the default, since the ledger does not record the run's setting.", d.opt.GCRadiusKpc)
+	}
+	sunText := fmt.Sprintf("Sun at x = %g kpc", -d.opt.SunDistanceKpc)
+	if d.sunDefault {
+		sunText += " (starvet's default Solar distance; the ledger does not record the run's)"
+	}
+	ps.Note = gcText + " " + sunText + "."
+	switch {
+	case !d.haveCross:
+		ps.Note += " This ledger gives no crossings, so none are drawn."
+	case len(d.crossings) == 0:
+		ps.Note += " No star of this run was traced back."
+	}
+	if ps.Omitted > 0 {
+		ps.Note += fmt.Sprintf(" Not drawn: %d crossing(s) with a missing coordinate.", ps.Omitted)
+	}
+	svg, err := toSVG(p, 6.8*vg.Inch, 6.8*vg.Inch)
+	return ps, svg, err
+}

@@ -1,0 +1,308 @@
+package report
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"math"
+	"os"
+	"path/filepath"
+	"sort"
+
+	"starvet/db"
+	"starvet/vetting/frames"
+)
+
+// ComponentsModel is the model name a verdict carries when the campaign
+// listed its own potential components; the report cannot rebuild it.
+const ComponentsModel = "campaign-components"
+
+// DefaultGCRadiusKpc is the centre radius drawn on the crossing plot when
+// Options gives none (the campaign default, kinematics.gc_radius_kpc).
+const DefaultGCRadiusKpc = 1.0
+
+// DefaultTopReasons is how many rejection reasons the page lists.
+const DefaultTopReasons = 10
+
+// ErrNoRun is returned (wrapped) when the source has no complete run.
+var ErrNoRun = errors.New("no complete run to report on")
+
+// Options are the settings of a report. The ledger does not record the
+// run's campaign settings, so the ones that shape the plots are given here;
+// zero values mean the stated defaults and the page says which were used.
+type Options struct {
+	// EscapeRadiusKpc is the radius the escape-speed curve escapes to;
+	// 0 = infinity (the campaign default).
+	EscapeRadiusKpc float64
+	// GCRadiusKpc is the centre radius on the crossing plot; 0 =
+	// DefaultGCRadiusKpc.
+	GCRadiusKpc float64
+	// SunDistanceKpc places the Sun on the crossing plot at x = -R0; 0 =
+	// frames.DefaultSun().DistanceKpc.
+	SunDistanceKpc float64
+	// TopReasons is how many rejection reasons to list; 0 = DefaultTopReasons.
+	TopReasons int
+}
+
+// PlotSummary describes one written plot.
+type PlotSummary struct {
+	File     string         // file name inside the report directory
+	Title    string         // caption title
+	Points   map[string]int // status -> markers drawn (legend markers excluded)
+	Omitted  int            // stars of the plot's population without the values to draw
+	Extra    int            // other markers (per-star escape speeds on plot 1)
+	Note     string         // what was drawn instead, or why nothing was
+	HasCurve bool           // plot 1: the model's escape-speed curves are drawn
+}
+
+// Summary is what Write produced.
+type Summary struct {
+	RunID      int64
+	Index      string // path of index.html
+	Files      []string
+	Counts     map[string]int64
+	Candidates int // rows of the candidate table
+	Plots      []PlotSummary
+}
+
+// star is what the report keeps of a verdict.
+type star struct {
+	db.VerdictRow
+	hasPos         bool
+	raDeg, decDeg  float64
+}
+
+type reasonCount struct {
+	RuleID  string
+	Stars   int
+	Example string
+	StarID  string // star of the example message
+}
+
+// data is everything the page is made from.
+type data struct {
+	run        *db.Run
+	catalogs   []db.CatalogRow
+	stars      []star // by star id
+	counts     map[string]int64
+	reasons    []reasonCount
+	reasonErrs int // rejected stars whose reasons were not found
+	models     []string
+	crossings  []CrossingRow
+	crossStat  []string // status of each crossing's star
+	haveCross  bool
+	havePos    bool
+	opt        Options
+	gcDefault  bool
+	sunDefault bool
+}
+
+// Write reads run runID (0 = latest complete run) from src and writes
+// dir/index.html and its SVG plots. The same ledger gives the same files.
+func Write(ctx context.Context, src Source, runID int64, dir string, opt Options) (*Summary, error) {
+	d, err := gather(ctx, src, runID, opt)
+	if err != nil {
+		return nil, err
+	}
+	if err := os.MkdirAll(dir, 0o755); err != nil {
+		return nil, fmt.Errorf("report: %w", err)
+	}
+	sum := &Summary{RunID: d.run.ID, Counts: d.counts}
+	plots := []func(*data) (*PlotSummary, []byte, error){speedPlot, skyPlot, pUnboundPlot, crossingPlot}
+	for _, mk := range plots {
+		if err := ctx.Err(); err != nil {
+			return nil, err
+		}
+		ps, svg, err := mk(d)
+		if err != nil {
+			return nil, fmt.Errorf("report %s: %w", ps.File, err)
+		}
+		path := filepath.Join(dir, ps.File)
+		if err := os.WriteFile(path, svg, 0o644); err != nil {
+			return nil, fmt.Errorf("report: %w", err)
+		}
+		sum.Files = append(sum.Files, path)
+		sum.Plots = append(sum.Plots, *ps)
+	}
+	page, ncand, err := renderHTML(d, sum.Plots)
+	if err != nil {
+		return nil, fmt.Errorf("report: %w", err)
+	}
+	sum.Index = filepath.Join(dir, "index.html")
+	if err := os.WriteFile(sum.Index, page, 0o644); err != nil {
+		return nil, fmt.Errorf("report: %w", err)
+	}
+	sum.Files = append(sum.Files, sum.Index)
+	sum.Candidates = ncand
+	return sum, nil
+}
+
+func gather(ctx context.Context, src Source, runID int64, opt Options) (*data, error) {
+	d := &data{opt: opt, counts: map[string]int64{}}
+	if d.opt.GCRadiusKpc <= 0 {
+		d.opt.GCRadiusKpc, d.gcDefault = DefaultGCRadiusKpc, true
+	}
+	if d.opt.SunDistanceKpc <= 0 {
+		d.opt.SunDistanceKpc, d.sunDefault = frames.DefaultSun().DistanceKpc, true
+	}
+	if d.opt.TopReasons <= 0 {
+		d.opt.TopReasons = DefaultTopReasons
+	}
+	var err error
+	if runID == 0 {
+		d.run, err = src.LastCompleteRun(ctx)
+		if err == nil && d.run == nil {
+			err = ErrNoRun
+		}
+	} else {
+		d.run, err = src.Run(ctx, runID)
+	}
+	if err != nil {
+		return nil, fmt.Errorf("report: %w", err)
+	}
+	if d.catalogs, err = src.RunCatalogs(ctx, d.run.ID); err != nil {
+		return nil, fmt.Errorf("report: %w", err)
+	}
+	models := map[string]bool{}
+	n := 0
+	_, err = src.ListRun(ctx, db.ListFilter{Run: d.run.ID}, func(v db.VerdictRow) error {
+		if n++; n%4096 == 0 {
+			if err := ctx.Err(); err != nil {
+				return err
+			}
+		}
+		d.stars = append(d.stars, star{VerdictRow: v})
+		d.counts[v.Status]++
+		if v.ModelName != "" {
+			models[v.ModelName] = true
+		}
+		return nil
+	})
+	if err != nil {
+		return nil, fmt.Errorf("report: %w", err)
+	}
+	// ListRun orders by star id already; sorting again makes the order ours.
+	sort.SliceStable(d.stars, func(i, j int) bool { return d.stars[i].StarID < d.stars[j].StarID })
+	for m := range models {
+		d.models = append(d.models, m)
+	}
+	sort.Strings(d.models)
+	index := make(map[string]int, len(d.stars))
+	for i := range d.stars {
+		index[d.stars[i].StarID] = i
+	}
+	if err := d.gatherReasons(ctx, src); err != nil {
+		return nil, err
+	}
+	if ps, ok := src.(PositionSource); ok {
+		d.havePos = true
+		err := ps.Positions(ctx, d.run.ID, func(id string, ra, dec float64) error {
+			i, ok := index[id]
+			if !ok || math.IsNaN(ra) || math.IsNaN(dec) {
+				return nil
+			}
+			d.stars[i].hasPos, d.stars[i].raDeg, d.stars[i].decDeg = true, ra, dec
+			return nil
+		})
+		if err != nil {
+			return nil, fmt.Errorf("report: positions: %w", err)
+		}
+	}
+	if cs, ok := src.(CrossingSource); ok {
+		d.haveCross = true
+		if err := d.gatherCrossings(ctx, cs, index); err != nil {
+			return nil, err
+		}
+	}
+	return d, nil
+}
+
+// gatherReasons counts, over the rejected stars, the stars each rule
+// failed, keeping the message of the first such star (by id) as example.
+// Reasons live at the verdict's computing run.
+func (d *data) gatherReasons(ctx context.Context, src Source) error {
+	byRule := map[string]*reasonCount{}
+	for i := range d.stars {
+		s := &d.stars[i]
+		if s.Status != "rejected" {
+			continue
+		}
+		if i%1024 == 0 {
+			if err := ctx.Err(); err != nil {
+				return err
+			}
+		}
+		rs, err := src.Reasons(ctx, s.ComputedInRun, s.StarID)
+		if err != nil {
+			return fmt.Errorf("report: %w", err)
+		}
+		if len(rs) == 0 {
+			d.reasonErrs++
+		}
+		seen := map[string]bool{}
+		for _, r := range rs {
+			if r.Outcome != "fail" || seen[r.RuleID] {
+				continue
+			}
+			seen[r.RuleID] = true
+			rc := byRule[r.RuleID]
+			if rc == nil {
+				rc = &reasonCount{RuleID: r.RuleID, Example: r.Message, StarID: s.StarID}
+				byRule[r.RuleID] = rc
+			}
+			rc.Stars++
+		}
+	}
+	for _, rc := range byRule {
+		d.reasons = append(d.reasons, *rc)
+	}
+	sort.Slice(d.reasons, func(i, j int) bool {
+		a, b := d.reasons[i], d.reasons[j]
+		if a.Stars != b.Stars {
+			return a.Stars > b.Stars
+		}
+		return a.RuleID < b.RuleID
+	})
+	return nil
+}
+
+// gatherCrossings asks for the crossings of every run that computed a
+// verdict of this run and keeps those of stars whose verdict that run
+// computed, so a carried-forward star contributes its crossings once.
+func (d *data) gatherCrossings(ctx context.Context, cs CrossingSource, index map[string]int) error {
+	runs := map[int64]bool{}
+	for i := range d.stars {
+		runs[d.stars[i].ComputedInRun] = true
+	}
+	ids := make([]int64, 0, len(runs))
+	for r := range runs {
+		ids = append(ids, r)
+	}
+	sort.Slice(ids, func(i, j int) bool { return ids[i] < ids[j] })
+	type keyed struct {
+		c   CrossingRow
+		run int64
+		seq int
+	}
+	var all []keyed
+	for _, run := range ids {
+		err := cs.Crossings(ctx, run, func(c CrossingRow) error {
+			i, ok := index[c.StarID]
+			if !ok || d.stars[i].ComputedInRun != run {
+				return nil
+			}
+			all = append(all, keyed{c, run, len(all)})
+			return nil
+		})
+		if err != nil {
+			return fmt.Errorf("report: crossings of run %d: %w", run, err)
+		}
+	}
+	// Order by star, then as the source gave them.
+	sort.SliceStable(all, func(i, j int) bool { return all[i].c.StarID < all[j].c.StarID })
+	for _, k := range all {
+		d.crossings = append(d.crossings, k.c)
+		d.crossStat = append(d.crossStat, d.stars[index[k.c.StarID]].Status)
+	}
+	return nil
+}
