@@ -68,7 +68,10 @@ func (l *Ledger) Why(ctx context.Context, starID string) (*StarHistory, error) {
 			h.CurrentRun = r.ID
 		}
 	}
-	rows, err := l.db.QueryContext(ctx, "SELECT "+verdictCols+" FROM verdicts WHERE star_id = ? ORDER BY run_id", starID)
+	// One primary-key probe per run: cheaper to keep than an index on
+	// star_id, which every run would have to update in random order.
+	rows, err := l.db.QueryContext(ctx, "SELECT "+verdictCols+
+		" FROM verdicts WHERE run_id IN (SELECT id FROM runs) AND star_id = ? ORDER BY run_id", starID)
 	if err != nil {
 		return nil, fmt.Errorf("ledger %s: star %q verdicts: %w", l.path, starID, err)
 	}

@@ -36,6 +36,10 @@ const (
 	DefaultBusyTimeout = 5 * time.Second
 	DefaultLockWait    = 10 * time.Second
 	lockPoll           = 50 * time.Millisecond
+	// writerCacheKiB is the page cache per writable connection. The star
+	// indexes take random-order inserts; they must stay in memory or every
+	// insert reads a page back (measured: 15x slower with the 2 MiB default).
+	writerCacheKiB = 256 << 10
 )
 
 // Options tune Open.
@@ -113,7 +117,7 @@ func dsn(p string, opt Options) string {
 	if opt.ReadOnly {
 		q += "&mode=ro"
 	} else {
-		q += "&mode=rwc&_journal_mode=WAL&_synchronous=NORMAL&_txlock=immediate"
+		q += "&mode=rwc&_journal_mode=WAL&_synchronous=NORMAL&_txlock=immediate&_cache_size=" + strconv.Itoa(-writerCacheKiB)
 	}
 	return "file:" + r.Replace(p) + "?" + q
 }

@@ -3,11 +3,14 @@ package db
 import (
 	"context"
 	"database/sql"
+	"database/sql/driver"
 	"encoding/json"
 	"fmt"
 	"maps"
 	"strings"
 	"sync"
+
+	sqlite3 "github.com/mattn/go-sqlite3"
 )
 
 // RunWriter appends one run. It holds the writer lock from BeginRun until
@@ -126,18 +129,6 @@ func placeholders(n int) string {
 	return strings.TrimSuffix(strings.Repeat("?, ", n), ", ")
 }
 
-var (
-	sqlStar = `INSERT INTO stars (star_id, first_run, last_run) VALUES (?, ?, ?)
-		ON CONFLICT (star_id) DO UPDATE SET last_run = excluded.last_run`
-	sqlInput = "INSERT INTO inputs (run_id, star_id, input_hash, " + inputCols + ", dup_count) VALUES (" +
-		placeholders(3+NumInputs+1) + ")"
-	sqlMatch = `INSERT INTO matches (run_id, star_id, catalog, source_id, sep_arcsec, match_prob, candidates, ambiguous)
-		VALUES (?, ?, ?, ?, ?, ?, ?, ?)`
-	sqlVerdict = "INSERT INTO verdicts (" + verdictCols + ") VALUES (" + placeholders(21) + ")"
-	sqlReason  = `INSERT INTO reasons (run_id, star_id, rule_id, outcome, severity, value, threshold, message)
-		VALUES (?, ?, ?, ?, ?, ?, ?, ?)`
-)
-
 // validate catches records the pipeline should never send.
 func (w *RunWriter) validate(r *StarRecord) error {
 	switch {
@@ -164,68 +155,43 @@ func (w *RunWriter) AddStars(ctx context.Context, batch []StarRecord) error {
 	if err := w.check(); err != nil {
 		return err
 	}
+	seen := make(map[string]struct{}, len(batch))
 	for i := range batch {
 		if err := w.validate(&batch[i]); err != nil {
 			return fmt.Errorf("ledger %s run %d: %w", w.l.path, w.id, err)
 		}
+		if _, dup := seen[batch[i].StarID]; dup {
+			return fmt.Errorf("ledger %s run %d: star %q twice in one batch: %w", w.l.path, w.id, batch[i].StarID, ErrBadRecord)
+		}
+		seen[batch[i].StarID] = struct{}{}
 	}
 	if err := ctx.Err(); err != nil {
 		return err
 	}
-	err := w.l.inTx(ctx, func(tx *sql.Tx) error {
-		var sts [5]*sql.Stmt
-		for i, q := range []string{sqlStar, sqlInput, sqlMatch, sqlVerdict, sqlReason} {
-			st, err := tx.PrepareContext(ctx, q)
-			if err != nil {
-				return err
-			}
-			defer st.Close()
-			sts[i] = st
+	conn, err := w.l.db.Conn(ctx)
+	if err != nil {
+		return fmt.Errorf("ledger %s run %d: add stars: %w", w.l.path, w.id, err)
+	}
+	defer conn.Close()
+	err = conn.Raw(func(dc any) error {
+		c, ok := dc.(*sqlite3.SQLiteConn)
+		if !ok {
+			panic(fmt.Sprintf("db: driver connection is %T", dc))
 		}
-		stStar, stInput, stMatch, stVerdict, stReason := sts[0], sts[1], sts[2], sts[3], sts[4]
-		bg := context.Background() // per-row: no cancellation goroutine in the driver
-		args := make([]any, 3+NumInputs+1)
-		for i := range batch {
-			r := &batch[i]
-			if _, err := stStar.ExecContext(bg, r.StarID, w.id, w.id); err != nil {
-				return fmt.Errorf("star %q: %w", r.StarID, err)
-			}
-			v := r.Verdict
-			if r.Computed {
-				v.ComputedInRun = w.id
-			}
-			if r.Computed && r.Inputs != nil {
-				if v.InputHash == "" {
-					v.InputHash = r.Inputs.InputHash
-				}
-				args[0], args[1], args[2] = w.id, r.StarID, r.Inputs.InputHash
-				for j, x := range r.Inputs.Values {
-					args[3+j] = nf(x)
-				}
-				args[3+NumInputs] = r.Inputs.DupCount
-				if _, err := stInput.ExecContext(bg, args...); err != nil {
-					return fmt.Errorf("star %q inputs: %w", r.StarID, err)
-				}
-			}
-			if r.Computed {
-				for _, m := range r.Matches {
-					if _, err := stMatch.ExecContext(bg, w.id, r.StarID, m.Catalog, ns(m.SourceID), nf(m.SepArcsec),
-						nf(m.MatchProb), m.Candidates, b2i(m.Ambiguous)); err != nil {
-						return fmt.Errorf("star %q match in %s: %w", r.StarID, m.Catalog, err)
-					}
-				}
-				for _, x := range r.Reasons {
-					if _, err := stReason.ExecContext(bg, w.id, r.StarID, x.RuleID, x.Outcome, ns(x.Severity), nf(x.Value),
-						ns(x.Threshold), ns(x.Message)); err != nil {
-						return fmt.Errorf("star %q reason %s: %w", r.StarID, x.RuleID, err)
-					}
-				}
-			}
-			if _, err := stVerdict.ExecContext(bg, verdictArgs(w.id, r.StarID, &v)...); err != nil {
-				return fmt.Errorf("star %q verdict: %w", r.StarID, err)
-			}
+		// Fewer, larger checkpoints: index pages rewritten by every batch
+		// are then copied back to the database file once, not per batch.
+		if _, err := c.Exec("PRAGMA wal_autocheckpoint = 16384", nil); err != nil {
+			return err
 		}
-		return ctx.Err()
+		tx, err := c.Begin()
+		if err != nil {
+			return err
+		}
+		if err := w.writeStars(c, batch); err != nil {
+			tx.Rollback()
+			return err
+		}
+		return tx.Commit()
 	})
 	if err != nil {
 		return fmt.Errorf("ledger %s run %d: add stars: %w", w.l.path, w.id, err)
@@ -233,11 +199,71 @@ func (w *RunWriter) AddStars(ctx context.Context, batch []StarRecord) error {
 	return nil
 }
 
-func verdictArgs(runID int64, starID string, v *VerdictRow) []any {
-	return []any{runID, starID, v.Status, ns(v.Quality), v.ComputedInRun, ns(v.InputHash), ns(v.DistanceMethod),
-		b2i(v.HasRV), nf(v.SpeedP16Kms), nf(v.SpeedP50Kms), nf(v.SpeedP84Kms), nf(v.SpeedLowerP50Kms),
-		nf(v.RGCKpc), nf(v.VEscKms), nf(v.PUnbound), nf(v.PUnboundLower), ns(v.Origin), nf(v.PGCOrigin),
-		nf(v.GCConsistency), nf(v.FlightTimeMyr), ns(v.ModelName)}
+// writeStars queues every row of the batch in multi-row inserts. It runs
+// inside AddStars's transaction.
+func (w *RunWriter) writeStars(c *sqlite3.SQLiteConn, batch []StarRecord) error {
+	stars := newBulk(c, "stars", "INSERT INTO stars (star_id, first_run, last_run) VALUES", 3,
+		"ON CONFLICT (star_id) DO UPDATE SET last_run = excluded.last_run")
+	inputs := newBulk(c, "inputs", "INSERT INTO inputs (run_id, star_id, input_hash, "+inputCols+", dup_count) VALUES", 3+NumInputs+1, "")
+	matches := newBulk(c, "matches", "INSERT INTO matches (run_id, star_id, catalog, source_id, sep_arcsec, match_prob, candidates, ambiguous) VALUES", 8, "")
+	verdicts := newBulk(c, "verdicts", "INSERT INTO verdicts ("+verdictCols+") VALUES", 21, "")
+	reasons := newBulk(c, "reasons", "INSERT INTO reasons (run_id, star_id, rule_id, outcome, severity, value, threshold, message) VALUES", 8, "")
+	all := []*bulk{stars, inputs, matches, verdicts, reasons}
+	defer func() {
+		for _, b := range all {
+			b.close()
+		}
+	}()
+	id := w.id
+	in := make([]driver.Value, 3+NumInputs+1)
+	for i := range batch {
+		r := &batch[i]
+		sid := r.StarID
+		if err := stars.add(sid, sid, id, id); err != nil {
+			return err
+		}
+		v := r.Verdict
+		if r.Computed {
+			v.ComputedInRun = id
+			if r.Inputs != nil {
+				if v.InputHash == "" {
+					v.InputHash = r.Inputs.InputHash
+				}
+				in[0], in[1], in[2] = id, sid, r.Inputs.InputHash
+				for j, x := range r.Inputs.Values {
+					in[3+j] = dvf(x)
+				}
+				in[3+NumInputs] = int64(r.Inputs.DupCount)
+				if err := inputs.add(sid, in...); err != nil {
+					return err
+				}
+			}
+			for _, m := range r.Matches {
+				if err := matches.add(sid, id, sid, m.Catalog, dvs(m.SourceID), dvf(m.SepArcsec), dvf(m.MatchProb),
+					int64(m.Candidates), b2i(m.Ambiguous)); err != nil {
+					return err
+				}
+			}
+			for _, x := range r.Reasons {
+				if err := reasons.add(sid, id, sid, x.RuleID, x.Outcome, dvs(x.Severity), dvf(x.Value),
+					dvs(x.Threshold), dvs(x.Message)); err != nil {
+					return err
+				}
+			}
+		}
+		if err := verdicts.add(sid, id, sid, v.Status, dvs(v.Quality), v.ComputedInRun, dvs(v.InputHash),
+			dvs(v.DistanceMethod), b2i(v.HasRV), dvf(v.SpeedP16Kms), dvf(v.SpeedP50Kms), dvf(v.SpeedP84Kms),
+			dvf(v.SpeedLowerP50Kms), dvf(v.RGCKpc), dvf(v.VEscKms), dvf(v.PUnbound), dvf(v.PUnboundLower),
+			dvs(v.Origin), dvf(v.PGCOrigin), dvf(v.GCConsistency), dvf(v.FlightTimeMyr), dvs(v.ModelName)); err != nil {
+			return err
+		}
+	}
+	for _, b := range all {
+		if err := b.flush(); err != nil {
+			return err
+		}
+	}
+	return nil
 }
 
 // CarryForwardBatch is how many stars CarryForward copies per transaction.

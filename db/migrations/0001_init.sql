@@ -87,7 +87,7 @@ CREATE TABLE inputs (
     distance_modulus_err REAL,
     dup_count            INTEGER NOT NULL DEFAULT 0,
     PRIMARY KEY (run_id, star_id)
-) WITHOUT ROWID;
+);
 
 CREATE TABLE matches (
     run_id     INTEGER NOT NULL REFERENCES runs (id),
@@ -124,9 +124,8 @@ CREATE TABLE verdicts (
     flight_time_myr     REAL,
     model_name          TEXT,
     PRIMARY KEY (run_id, star_id)
-) WITHOUT ROWID;
+);
 CREATE INDEX verdicts_by_run_status ON verdicts (run_id, status);
-CREATE INDEX verdicts_by_star ON verdicts (star_id);
 
 CREATE TABLE reasons (
     run_id    INTEGER NOT NULL REFERENCES runs (id),
