@@ -14,9 +14,14 @@
 // rule failed, else flag if any flag rule failed, else pass; FailedRules
 // lists the failed rule ids in order. Skipped rules do not change Quality.
 //
-// Per check: single-value checks report the measured value in Value and a
-// message like "fit_residual 2.31 > 1.4" (numbers to 4 decimals unless that
-// would hide the difference from the limit). duplicate fails on
+// Messages: a failure spells out what was measured, e.g. "fit_residual
+// 2.31 > 1.4" (numbers to 4 decimals unless that would hide the difference
+// from the limit), a skip says why ("skipped: parallax missing"), and a pass
+// states the condition met ("fit_residual <= 1.4"); the measured number is
+// always in Value. Pass and routine skip messages are fixed per rule, so a
+// star that passes everything costs no formatting and no allocation.
+//
+// Per check: single-value checks put the measured value in Value. duplicate fails on
 // duplicate_flag == 1 or DupCount > 0; the self-match count is always
 // known, so a missing catalog flag alone does not skip it (the message says
 // the flag was missing). match tests each catalog of the rule in which the
@@ -26,7 +31,7 @@
 // number of missing fields as Value.
 //
 // Speed: Evaluator is read-only and safe for concurrent use; Assess reuses
-// the caller's Assessment (one string allocation per star for all
-// messages). AssessAll and Each spread stars over worker goroutines
+// the caller's Assessment (at most one string allocation per star, for
+// the messages that are not fixed). AssessAll and Each spread stars over worker goroutines
 // (default GOMAXPROCS) in batches, checking ctx between batches.
 package quality

@@ -86,22 +86,52 @@ type Evaluator struct {
 	rs         *rules.RuleSet
 	ctx        Context
 	thresholds []string
-	texts      []limitTexts
+	texts      []ruleTexts
 	hasExpr    bool
 }
 
-// limitTexts are a rule's numbers already formatted for messages.
-type limitTexts struct{ limit, minProb, maxSep string }
+// ruleTexts are a rule's fixed message parts, built once so that a passing
+// or routinely skipped rule costs no formatting and no allocation.
+type ruleTexts struct {
+	limit, minProb, maxSep string
+	pass                   string // message of a pass
+	skipField              string // "skipped: <field> missing"
+	whenFalse              string
+	exprFalse              string
+}
 
 // NewEvaluator prepares rs for evaluation.
 func NewEvaluator(rs *rules.RuleSet, ctx Context) *Evaluator {
-	e := &Evaluator{rs: rs, ctx: ctx, thresholds: make([]string, len(rs.Rules)), texts: make([]limitTexts, len(rs.Rules))}
+	e := &Evaluator{rs: rs, ctx: ctx, thresholds: make([]string, len(rs.Rules)), texts: make([]ruleTexts, len(rs.Rules))}
 	for i, r := range rs.Rules {
 		e.thresholds[i] = r.Threshold()
-		e.texts[i] = limitTexts{fmtNum(r.Limit), fmtNum(r.MinProb), fmtNum(r.MaxSepArcsec)}
-		if r.Expr != nil || r.When != nil {
+		t := ruleTexts{limit: fmtNum(r.Limit), minProb: fmtNum(r.MinProb), maxSep: fmtNum(r.MaxSepArcsec)}
+		op := " >= "
+		if r.Dir == rules.Max {
+			op = " <= "
+		}
+		switch {
+		case r.Expr != nil:
+			t.pass = "true: " + r.Expr.Source
+			t.exprFalse = "false: " + r.Expr.Source
+		case r.Check == rules.ParallaxSignificance:
+			t.pass = "parallax_over_error" + op + t.limit
+		case r.Check == rules.MatchQuality:
+			t.pass = "every counterpart tested: " + e.thresholds[i]
+		case r.Check == rules.RequiredFields:
+			t.pass = "all present"
+		case r.Field >= 0 && r.Dir != rules.NoLimit:
+			t.pass = catalog.Fields[r.Field].Name + op + t.limit
+			t.skipField = "skipped: " + catalog.Fields[r.Field].Name + " missing"
+		}
+		if r.When != nil {
+			t.whenFalse = "skipped: precondition " + r.When.Source + " is false"
 			e.hasExpr = true
 		}
+		if r.Expr != nil {
+			e.hasExpr = true
+		}
+		e.texts[i] = t
 	}
 	return e
 }
@@ -121,14 +151,15 @@ func (e *Evaluator) Assess(s *Star, out *Assessment) {
 	if e.hasExpr && out.scratch == nil {
 		out.scratch = newScratch()
 	}
-	// Messages are written into one buffer and cut out of one string, so a
-	// star costs one allocation for all its messages.
-	msgSpan := out.spans[:0]
+	// Fixed messages are assigned as they are; the others are written into
+	// one buffer and cut out of one string, so a star costs at most one
+	// allocation for all its messages.
+	spans := out.spans[:0]
 	worst := 0 // 0 pass, 1 flag, 2 reject
 	for i, r := range e.rs.Rules {
 		o := &out.Outcomes[i]
 		// A reused Assessment usually holds these already; skipping the
-		// store saves GC write barriers.
+		// stores saves GC write barriers.
 		if o.RuleID != r.ID || o.Threshold != e.thresholds[i] || o.Severity != string(r.Severity) {
 			o.RuleID = r.ID
 			o.Severity = string(r.Severity)
@@ -136,11 +167,20 @@ func (e *Evaluator) Assess(s *Star, out *Assessment) {
 		}
 		o.Value = math.NaN()
 		start := len(out.buf)
-		if res := e.eval(r, &e.texts[i], s, o, out); o.Result != res {
+		res, msg := e.eval(r, &e.texts[i], s, o, out)
+		if o.Result != res {
 			o.Result = res
 		}
-		msgSpan = append(msgSpan, start, len(out.buf))
-		if o.Result == ResultFail {
+		if msg != "" {
+			out.buf = out.buf[:start]
+			if o.Message != msg {
+				o.Message = msg
+			}
+			spans = append(spans, -1, -1)
+		} else {
+			spans = append(spans, start, len(out.buf))
+		}
+		if res == ResultFail {
 			out.FailedRules = append(out.FailedRules, r.ID)
 			if r.Severity == rules.Reject {
 				worst = 2
@@ -149,10 +189,14 @@ func (e *Evaluator) Assess(s *Star, out *Assessment) {
 			}
 		}
 	}
-	out.spans = msgSpan
-	text := string(out.buf)
-	for i := range out.Outcomes {
-		out.Outcomes[i].Message = text[msgSpan[2*i]:msgSpan[2*i+1]]
+	out.spans = spans
+	if len(out.buf) > 0 {
+		text := string(out.buf)
+		for i := range out.Outcomes {
+			if spans[2*i] >= 0 {
+				out.Outcomes[i].Message = text[spans[2*i]:spans[2*i+1]]
+			}
+		}
 	}
 	out.Quality = [...]string{Pass, Flag, Reject}[worst]
 }
@@ -221,20 +265,19 @@ func (e *Evaluator) each(ctx context.Context, n, workers int, do func(i int, a *
 	wg.Wait()
 }
 
-func (e *Evaluator) eval(r *rules.Rule, t *limitTexts, s *Star, o *Outcome, a *Assessment) string {
+// eval returns the result and either a fixed message or "" when it wrote
+// the message into a.buf.
+func (e *Evaluator) eval(r *rules.Rule, t *ruleTexts, s *Star, o *Outcome, a *Assessment) (string, string) {
 	if r.When != nil {
 		ok, missing := e.run(r.When, s, a)
 		if missing != "" {
 			a.buf = append(a.buf, "skipped: precondition needs "...)
 			a.buf = append(a.buf, missing...)
 			a.buf = append(a.buf, ", which is missing"...)
-			return ResultSkipped
+			return ResultSkipped, ""
 		}
 		if !ok {
-			a.buf = append(a.buf, "skipped: precondition "...)
-			a.buf = append(a.buf, r.When.Source...)
-			a.buf = append(a.buf, " is false"...)
-			return ResultSkipped
+			return ResultSkipped, t.whenFalse
 		}
 	}
 	if r.Expr != nil {
@@ -244,15 +287,11 @@ func (e *Evaluator) eval(r *rules.Rule, t *limitTexts, s *Star, o *Outcome, a *A
 			a.buf = append(a.buf, "skipped: "...)
 			a.buf = append(a.buf, missing...)
 			a.buf = append(a.buf, " missing"...)
-			return ResultSkipped
+			return ResultSkipped, ""
 		case ok:
-			a.buf = append(a.buf, "true: "...)
-			a.buf = append(a.buf, r.Expr.Source...)
-			return ResultPass
+			return ResultPass, t.pass
 		default:
-			a.buf = append(a.buf, "false: "...)
-			a.buf = append(a.buf, r.Expr.Source...)
-			return ResultFail
+			return ResultFail, t.exprFalse
 		}
 	}
 	switch r.Check {
@@ -260,16 +299,15 @@ func (e *Evaluator) eval(r *rules.Rule, t *limitTexts, s *Star, o *Outcome, a *A
 		p, pe := s.Values[catalog.Parallax], s.Values[catalog.ParallaxErr]
 		switch {
 		case math.IsNaN(p):
-			return skipMissing(a, catalog.Parallax)
+			return ResultSkipped, "skipped: parallax missing"
 		case math.IsNaN(pe):
-			return skipMissing(a, catalog.ParallaxErr)
+			return ResultSkipped, "skipped: parallax_err missing"
 		case !(pe > 0):
-			a.buf = append(a.buf, "skipped: parallax_err is not positive"...)
-			return ResultSkipped
+			return ResultSkipped, "skipped: parallax_err is not positive"
 		}
 		return compare(a, o, "parallax_over_error", (p-e.ctx.ParallaxZeroPointMas)/pe, r, t)
 	case rules.Duplicate:
-		return e.duplicate(s, o, a)
+		return duplicate(s, o, a)
 	case rules.MatchQuality:
 		return e.match(r, t, s, o, a)
 	case rules.RequiredFields:
@@ -287,79 +325,96 @@ func (e *Evaluator) eval(r *rules.Rule, t *limitTexts, s *Star, o *Outcome, a *A
 		}
 		o.Value = float64(missing)
 		if missing > 0 {
-			return ResultFail
+			return ResultFail, ""
 		}
-		a.buf = append(a.buf, "all present"...)
-		return ResultPass
+		return ResultPass, t.pass
 	}
 	v := s.Values[r.Field]
 	if math.IsNaN(v) {
-		return skipMissing(a, r.Field)
+		return ResultSkipped, t.skipField
 	}
 	return compare(a, o, catalog.Fields[r.Field].Name, v, r, t)
 }
 
-func skipMissing(a *Assessment, f catalog.Field) string {
-	a.buf = append(a.buf, "skipped: "...)
-	a.buf = append(a.buf, catalog.Fields[f].Name...)
-	a.buf = append(a.buf, " missing"...)
-	return ResultSkipped
-}
-
-// compare tests v against the rule's limit and writes e.g.
-// "fit_residual 2.31 > 1.4".
-func compare(a *Assessment, o *Outcome, name string, v float64, r *rules.Rule, t *limitTexts) string {
+// compare tests v against the rule's limit. A pass gets the fixed message
+// ("fit_residual <= 1.4", the value is in Value); a fail is written out,
+// e.g. "fit_residual 2.31 > 1.4".
+func compare(a *Assessment, o *Outcome, name string, v float64, r *rules.Rule, t *ruleTexts) (string, string) {
 	o.Value = v
-	pass := v >= r.Limit
-	op, bad := " >= ", " < "
+	pass, bad := v >= r.Limit, " < "
 	if r.Dir == rules.Max {
-		pass = v <= r.Limit
-		op, bad = " <= ", " > "
+		pass, bad = v <= r.Limit, " > "
+	}
+	if pass {
+		return ResultPass, t.pass
 	}
 	a.buf = append(a.buf, name...)
 	a.buf = append(a.buf, ' ')
 	a.buf = appendNum(a.buf, v, r.Limit)
-	if pass {
-		a.buf = append(a.buf, op...)
-	} else {
-		a.buf = append(a.buf, bad...)
-	}
+	a.buf = append(a.buf, bad...)
 	a.buf = append(a.buf, t.limit...)
-	if pass {
-		return ResultPass
-	}
-	return ResultFail
+	return ResultFail, ""
 }
 
 // duplicate fails on the catalog's own flag (== 1) or on any self-match
 // duplicate. The self-match count is always known, so a missing catalog
 // flag alone does not skip the rule; the message says it was missing.
-func (e *Evaluator) duplicate(s *Star, o *Outcome, a *Assessment) string {
+func duplicate(s *Star, o *Outcome, a *Assessment) (string, string) {
 	flag := s.Values[catalog.DuplicateFlag]
 	o.Value = float64(s.DupCount)
-	fail := flag == 1 || s.DupCount > 0
-	switch {
-	case math.IsNaN(flag):
+	if s.DupCount == 0 {
+		switch {
+		case flag == 0:
+			return ResultPass, "duplicate_flag 0, dup_count 0"
+		case math.IsNaN(flag):
+			return ResultPass, "duplicate_flag missing, dup_count 0"
+		}
+	}
+	if math.IsNaN(flag) {
 		a.buf = append(a.buf, "duplicate_flag missing, "...)
-	default:
+	} else {
 		a.buf = append(a.buf, "duplicate_flag "...)
 		a.buf = strconv.AppendFloat(a.buf, flag, 'g', -1, 64)
 		a.buf = append(a.buf, ", "...)
 	}
 	a.buf = append(a.buf, "dup_count "...)
 	a.buf = strconv.AppendInt(a.buf, int64(s.DupCount), 10)
-	if fail {
-		return ResultFail
+	if flag == 1 || s.DupCount > 0 {
+		return ResultFail, ""
 	}
-	return ResultPass
+	return ResultPass, ""
+}
+
+// matchVerdict tests one counterpart: bad when a known value fails or it
+// is ambiguous, miss when a needed value is NaN.
+func matchVerdict(r *rules.Rule, m *MatchInfo) (bad, miss bool) {
+	if !math.IsNaN(r.MinProb) {
+		if math.IsNaN(m.Prob) {
+			miss = true
+		} else if m.Prob < r.MinProb {
+			bad = true
+		}
+	}
+	if !math.IsNaN(r.MaxSepArcsec) {
+		if math.IsNaN(m.SepArcsec) {
+			miss = true
+		} else if m.SepArcsec > r.MaxSepArcsec {
+			bad = true
+		}
+	}
+	if m.Ambiguous && !r.AllowAmbiguous {
+		bad = true
+	}
+	return bad, miss
 }
 
 // match tests every counterpart the star has in the rule's catalogs. A
 // catalog without a counterpart is not tested; the rule is skipped when
 // none was tested, fails when any counterpart fails, and is skipped when a
 // counterpart lacks a needed value and none failed. Value is the lowest
-// posterior among the counterparts tested.
-func (e *Evaluator) match(r *rules.Rule, t *limitTexts, s *Star, o *Outcome, a *Assessment) string {
+// posterior among the counterparts tested. Unless it passes, the message
+// lists every counterpart tested.
+func (e *Evaluator) match(r *rules.Rule, t *ruleTexts, s *Star, o *Outcome, a *Assessment) (string, string) {
 	tested, failed, unknown := 0, 0, 0
 	lowest := math.NaN()
 	for _, ci := range r.CatalogIdx {
@@ -371,57 +426,7 @@ func (e *Evaluator) match(r *rules.Rule, t *limitTexts, s *Star, o *Outcome, a *
 		if !(m.Prob >= lowest) {
 			lowest = m.Prob
 		}
-		if tested > 1 {
-			a.buf = append(a.buf, "; "...)
-		}
-		a.buf = append(a.buf, e.rs.Catalogs[ci]...)
-		a.buf = append(a.buf, ": "...)
-		bad, miss := false, false
-		if !math.IsNaN(r.MinProb) {
-			a.buf = append(a.buf, "prob "...)
-			switch {
-			case math.IsNaN(m.Prob):
-				a.buf = append(a.buf, "missing"...)
-				miss = true
-			case m.Prob < r.MinProb:
-				a.buf = appendNum(a.buf, m.Prob, r.MinProb)
-				a.buf = append(a.buf, " < "...)
-				a.buf = append(a.buf, t.minProb...)
-				bad = true
-			default:
-				a.buf = appendNum(a.buf, m.Prob, r.MinProb)
-			}
-		}
-		if !math.IsNaN(r.MaxSepArcsec) {
-			if !math.IsNaN(r.MinProb) {
-				a.buf = append(a.buf, ", "...)
-			}
-			a.buf = append(a.buf, "sep "...)
-			switch {
-			case math.IsNaN(m.SepArcsec):
-				a.buf = append(a.buf, "missing"...)
-				miss = true
-			case m.SepArcsec > r.MaxSepArcsec:
-				a.buf = appendNum(a.buf, m.SepArcsec, r.MaxSepArcsec)
-				a.buf = append(a.buf, " > "...)
-				a.buf = append(a.buf, t.maxSep...)
-				bad = true
-			default:
-				a.buf = appendNum(a.buf, m.SepArcsec, r.MaxSepArcsec)
-			}
-			a.buf = append(a.buf, " arcsec"...)
-		}
-		if m.Ambiguous && !r.AllowAmbiguous {
-			if !math.IsNaN(r.MinProb) || !math.IsNaN(r.MaxSepArcsec) {
-				a.buf = append(a.buf, ", "...)
-			}
-			a.buf = append(a.buf, "ambiguous ("...)
-			a.buf = strconv.AppendInt(a.buf, int64(m.Candidates), 10)
-			a.buf = append(a.buf, " candidates)"...)
-			bad = true
-		} else if math.IsNaN(r.MinProb) && math.IsNaN(r.MaxSepArcsec) {
-			a.buf = append(a.buf, "unambiguous"...)
-		}
+		bad, miss := matchVerdict(r, m)
 		switch {
 		case bad:
 			failed++
@@ -432,15 +437,73 @@ func (e *Evaluator) match(r *rules.Rule, t *limitTexts, s *Star, o *Outcome, a *
 	o.Value = lowest
 	switch {
 	case tested == 0:
-		a.buf = append(a.buf, "skipped: no counterpart"...)
-		return ResultSkipped
-	case failed > 0:
-		return ResultFail
-	case unknown > 0:
-		a.buf = append(a.buf, " (skipped: a value is missing)"...)
-		return ResultSkipped
+		return ResultSkipped, "skipped: no counterpart"
+	case failed == 0 && unknown == 0:
+		return ResultPass, t.pass
 	}
-	return ResultPass
+	n := 0
+	for _, ci := range r.CatalogIdx {
+		if ci >= len(s.Matches) || !s.Matches[ci].Matched {
+			continue
+		}
+		m := &s.Matches[ci]
+		if n > 0 {
+			a.buf = append(a.buf, "; "...)
+		}
+		n++
+		a.buf = append(a.buf, e.rs.Catalogs[ci]...)
+		a.buf = append(a.buf, ": "...)
+		sep := false
+		if !math.IsNaN(r.MinProb) {
+			a.buf = append(a.buf, "prob "...)
+			switch {
+			case math.IsNaN(m.Prob):
+				a.buf = append(a.buf, "missing"...)
+			case m.Prob < r.MinProb:
+				a.buf = appendNum(a.buf, m.Prob, r.MinProb)
+				a.buf = append(a.buf, " < "...)
+				a.buf = append(a.buf, t.minProb...)
+			default:
+				a.buf = appendNum(a.buf, m.Prob, r.MinProb)
+			}
+			sep = true
+		}
+		if !math.IsNaN(r.MaxSepArcsec) {
+			if sep {
+				a.buf = append(a.buf, ", "...)
+			}
+			a.buf = append(a.buf, "sep "...)
+			switch {
+			case math.IsNaN(m.SepArcsec):
+				a.buf = append(a.buf, "missing"...)
+			case m.SepArcsec > r.MaxSepArcsec:
+				a.buf = appendNum(a.buf, m.SepArcsec, r.MaxSepArcsec)
+				a.buf = append(a.buf, " > "...)
+				a.buf = append(a.buf, t.maxSep...)
+			default:
+				a.buf = appendNum(a.buf, m.SepArcsec, r.MaxSepArcsec)
+			}
+			a.buf = append(a.buf, " arcsec"...)
+			sep = true
+		}
+		if !r.AllowAmbiguous {
+			if sep {
+				a.buf = append(a.buf, ", "...)
+			}
+			if m.Ambiguous {
+				a.buf = append(a.buf, "ambiguous ("...)
+				a.buf = strconv.AppendInt(a.buf, int64(m.Candidates), 10)
+				a.buf = append(a.buf, " candidates)"...)
+			} else {
+				a.buf = append(a.buf, "unambiguous"...)
+			}
+		}
+	}
+	if failed > 0 {
+		return ResultFail, ""
+	}
+	a.buf = append(a.buf, " (skipped: a value is missing)"...)
+	return ResultSkipped, ""
 }
 
 // run evaluates a compiled expression. When a float input is NaN and the
