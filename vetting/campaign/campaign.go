@@ -6,6 +6,7 @@ import (
 	"os"
 	"path/filepath"
 	"regexp"
+	"sort"
 	"strconv"
 	"strings"
 
@@ -237,6 +238,11 @@ func Parse(name string, data []byte, dir string) (*Campaign, error) {
 	}
 	c := p.build(&r, name, dir)
 	if len(p.errs) > 0 {
+		// File order; problems without a line (e.g. no astrometry catalog) last.
+		sort.SliceStable(p.errs, func(i, j int) bool {
+			li, lj := p.errs[i].Line, p.errs[j].Line
+			return li != 0 && (lj == 0 || li < lj)
+		})
 		return nil, p.errs
 	}
 	return c, nil

@@ -9,7 +9,7 @@ import (
 // Sentinel errors, wrapped by *Error.
 var (
 	ErrRead         = errors.New("cannot read campaign file")
-	ErrSyntax       = errors.New("campaign file is not valid TOML")
+	ErrSyntax       = errors.New("not valid TOML or a value of the wrong type")
 	ErrUnknownKey   = errors.New("unknown key")
 	ErrUnknownField = errors.New("unknown canonical field")
 	ErrBadUnit      = errors.New("unknown unit")
