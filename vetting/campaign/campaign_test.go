@@ -147,7 +147,7 @@ func TestErrors(t *testing.T) {
 		{"unknown match key", baseText + "[match]\nradius = 1\n", ErrUnknownKey, 13, "match.radius"},
 		{"unknown catalog key", strings.Replace(baseText, "epoch = 2020.5", "epoch = 2020.5\nepoc = 2000", 1), ErrUnknownKey, 12, "catalog.epoc"},
 		{"unknown table", baseText + "[galaxi]\nsun_height_pc = 1\n", ErrUnknownKey, 12, "galaxi"},
-		{"unknown component key", baseText + "[potential]\n[[potential.component]]\nkind = \"point\"\nmass = 1\n", ErrUnknownKey, 15, "potential.component.mass"},
+		{"unknown component key", baseText + "[potential]\n[[potential.component]]\nkind = \"point\"\nmass_msun = 1e6\nmass = 1\n", ErrUnknownKey, 16, "potential.component.mass"},
 		{"unknown column field", baseText + "[catalog.columns]\nparalax = \"plx\"\n", ErrUnknownField, 13, "catalog[2].columns.paralax"},
 		{"derived column field", baseText + "[catalog.columns]\ndistance_modulus = \"dm\"\n", ErrUnknownField, 13, "catalog[2].columns.distance_modulus"},
 		{"unknown unit field", baseText + "[catalog.units]\nvelocity = \"m/s\"\n", ErrUnknownField, 13, "catalog[2].units.velocity"},
