@@ -73,16 +73,16 @@ func line(p *plot.Plot, xys plotter.XYs, c color.Color, width vg.Length, dashes 
 // 16-84 per cent range, over the escape speed of the adopted model.
 func speedPlot(d *data) (*PlotSummary, []byte, error) {
 	ps := &PlotSummary{File: "speed.svg", Title: "Galactocentric speed against Galactocentric distance", Points: map[string]int{}}
-	p := newPlot(ps.Title, "Galactocentric distance r (kpc)", "Galactocentric speed (km/s)")
+	p := newPlot(ps.Title, "Galactocentric distance r (kpc, logarithmic)", "Galactocentric speed (km/s)")
 	pts := map[string]plotter.XYs{}
 	bars := map[string]plotter.YErrors{}
 	present := map[string]bool{}
 	omitted := map[string]int{}
 	var vesc plotter.XYs
-	rMax := 0.0
+	rMin, rMax := math.Inf(1), 0.0
 	for i := range d.stars {
 		s := &d.stars[i]
-		if !finite(s.SpeedP50Kms) || !finite(s.RGCKpc) {
+		if !finite(s.SpeedP50Kms) || !(s.RGCKpc > 0) || math.IsInf(s.RGCKpc, 0) {
 			if s.Status != "rejected" && s.Status != "withdrawn" {
 				omitted[s.Status]++
 			}
@@ -98,14 +98,17 @@ func speedPlot(d *data) (*PlotSummary, []byte, error) {
 		pts[s.Status] = append(pts[s.Status], plotter.XY{X: s.RGCKpc, Y: s.SpeedP50Kms})
 		bars[s.Status] = append(bars[s.Status], struct{ Low, High float64 }{lo, hi})
 		present[s.Status] = true
-		rMax = math.Max(rMax, s.RGCKpc)
+		rMin, rMax = math.Min(rMin, s.RGCKpc), math.Max(rMax, s.RGCKpc)
 		if finite(s.VEscKms) {
 			vesc = append(vesc, plotter.XY{X: s.RGCKpc, Y: s.VEscKms})
 		}
 	}
 	if rMax == 0 {
-		rMax = 50
+		rMin, rMax = 1, 100
 	}
+	// Distances span two decades: a logarithmic axis keeps the stars near
+	// the Sun apart from the fast ones far out.
+	rLo, rHi := math.Min(rMin/1.25, 1), rMax*1.25
 
 	var model *potential.Model
 	if len(d.models) == 1 && d.models[0] != ComponentsModel {
@@ -116,7 +119,7 @@ func speedPlot(d *data) (*PlotSummary, []byte, error) {
 		ps.HasCurve = true
 		var plane, pole plotter.XYs
 		for k := 0; k <= 200; k++ {
-			r := 0.2 + (rMax*1.05-0.2)*float64(k)/200
+			r := rLo * math.Pow(rHi/rLo, float64(k)/200)
 			plane = append(plane, plotter.XY{X: r, Y: model.EscapeSpeed([3]float64{r, 0, 0}, d.opt.EscapeRadiusKpc)})
 			pole = append(pole, plotter.XY{X: r, Y: model.EscapeSpeed([3]float64{0, 0, r}, d.opt.EscapeRadiusKpc)})
 		}
@@ -157,10 +160,11 @@ func speedPlot(d *data) (*PlotSummary, []byte, error) {
 		}
 		ps.Points[st] = len(pts[st])
 	}
-	p.X.Min = 0
+	p.X.Scale, p.X.Tick.Marker = plot.LogScale{}, plot.LogTicks{Prec: -1}
+	p.X.Min, p.X.Max = rLo, rHi
 	p.Y.Min = 0
 	if len(present) == 0 && !ps.HasCurve {
-		p.X.Max, p.Y.Max = rMax, 1000
+		p.Y.Max = 1000
 	}
 	for _, st := range sortStatuses(boolKeys(omitted)) {
 		ps.Omitted += omitted[st]

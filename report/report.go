@@ -68,8 +68,8 @@ type Summary struct {
 // star is what the report keeps of a verdict.
 type star struct {
 	db.VerdictRow
-	hasPos         bool
-	raDeg, decDeg  float64
+	hasPos        bool
+	raDeg, decDeg float64
 }
 
 type reasonCount struct {
