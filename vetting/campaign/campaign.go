@@ -233,8 +233,18 @@ func Parse(name string, data []byte, dir string) (*Campaign, error) {
 		return nil, e
 	}
 	p := &parser{file: name, lines: scanKeyLines(string(data))}
+	var reported []string
 	for _, k := range md.Undecoded() {
-		p.bad(p.lines.line(k...), k.String(), ErrUnknownKey, "unknown key")
+		ks := k.String()
+		inner := false // keys inside an unknown table add nothing
+		for _, r := range reported {
+			inner = inner || strings.HasPrefix(ks, r+".")
+		}
+		if inner {
+			continue
+		}
+		reported = append(reported, ks)
+		p.bad(p.lines.line(k...), ks, ErrUnknownKey, "unknown key")
 	}
 	c := p.build(&r, name, dir)
 	if len(p.errs) > 0 {

@@ -195,6 +195,9 @@ func TestErrors(t *testing.T) {
 			if !errors.As(err, &e) {
 				t.Fatalf("err %T is not *Error", err)
 			}
+			if es, ok := err.(Errors); ok && len(es) != 1 {
+				t.Errorf("want exactly one problem, got:\n%v", err)
+			}
 			if e.Line != c.line || e.Key != c.key || e.File != "camp.toml" {
 				t.Errorf("got %s:%d key %q (%v), want line %d key %q", e.File, e.Line, e.Key, err, c.line, c.key)
 			}
