@@ -111,6 +111,7 @@ func TestSIGKILLMidRun(t *testing.T) {
 			}
 			// Committed batches are whole: 200 verdicts each, one per reason pair.
 			nv := countRows(t, l, "verdicts", killedRun)
+			t.Logf("killed run %d after %d batches + %v: %d verdicts committed", killedRun, afterBatches, extra, nv)
 			if nv%200 != 0 || countRows(t, l, "reasons", killedRun) != 2*nv {
 				t.Errorf("killed run %d holds a partial batch: %d verdicts", killedRun, nv)
 			}

@@ -67,7 +67,7 @@ func writeHistory(w io.Writer, h *db.StarHistory) {
 		v := c.Verdict
 		fmt.Fprintf(w, "\ncomputed in run %d: %s\n", c.RunID, v.Status)
 		if c.Inputs != nil {
-			fmt.Fprintf(w, "  input hash %s, %d duplicate rows\n", c.Inputs.InputHash, c.Inputs.DupCount)
+			fmt.Fprintf(w, "  input hash %s, dup_count %d\n", c.Inputs.InputHash, c.Inputs.DupCount)
 		}
 		if len(c.Changes) > 0 || c.DupCountChange != nil {
 			fmt.Fprintf(w, "  inputs changed since the previous computation:\n")
