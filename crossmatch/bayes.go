@@ -51,11 +51,20 @@ func PosteriorLog(lnB, p0 float64) float64 {
 
 // posterior evaluates PosteriorLog for a fixed prior.
 type posterior struct {
-	p0, lnOdds float64 // lnOdds = ln((1-P0)/P0)
+	p0, odds, lnOdds float64 // odds = (1-P0)/P0
 }
 
 func newPosterior(p0 float64) posterior {
-	return posterior{p0: p0, lnOdds: math.Log((1 - p0) / p0)}
+	return posterior{p0: p0, odds: (1 - p0) / p0, lnOdds: math.Log((1 - p0) / p0)}
+}
+
+// ofB is of for b = exp(lnB) already computed; it avoids a second exp
+// unless b under- or overflowed.
+func (q posterior) ofB(b, lnB float64) float64 {
+	if q.p0 <= 0 || q.p0 >= 1 || b == 0 || math.IsInf(b, 0) {
+		return q.of(lnB)
+	}
+	return 1 / (1 + q.odds/b)
 }
 
 func (q posterior) of(lnB float64) float64 {

@@ -92,17 +92,26 @@ func NewIndex(ctx context.Context, raDeg, decDeg []float64, workers int) (*Index
 			return nil, fmt.Errorf("index: row %d: position (%g, %g) deg: %w", i, ra, dec, ErrBadPosition)
 		}
 	}
-	return newIndex(ctx, len(raDeg), func(i int) (float64, float64) { return raDeg[i], decDeg[i] }, workers)
+	keys := make([]int32, len(raDeg))
+	for i := range raDeg {
+		keys[i] = spatialKey(raDeg[i], decDeg[i])
+	}
+	return newIndex(ctx, func(i int) (float64, float64) { return raDeg[i], decDeg[i] }, keys, workers)
 }
 
-// newIndex is NewIndex for valid positions given by an accessor.
-func newIndex(ctx context.Context, n int, pos func(int) (raDeg, decDeg float64), workers int) (*Index, error) {
-	order, zoneStart := spatialOrder(n, pos, binsPerZone)
+// newIndex is NewIndex for valid positions given by an accessor, with
+// their spatialKey already computed (-1: left out).
+func newIndex(ctx context.Context, pos func(int) (raDeg, decDeg float64), keys []int32, workers int) (*Index, error) {
+	order, zoneStart := spatialOrder(keys)
 	m := len(order)
-	ix := &Index{pts: make([]point, m), row: order, n: n}
-	for k, r := range order {
-		ra, dec := pos(int(r))
-		ix.pts[k] = point{normRA(ra), dec}
+	ix := &Index{pts: make([]point, m), row: order, n: len(keys)}
+	if err := parallelBatches(ctx, (m+batchRows-1)/batchRows, workers, func(b int) {
+		for k := b * batchRows; k < min(m, (b+1)*batchRows); k++ {
+			ra, dec := pos(int(order[k]))
+			ix.pts[k] = point{normRA(ra), dec}
+		}
+	}); err != nil {
+		return nil, err
 	}
 	// Run numbers of zone z start at runBase[z].
 	var runBase [numZones + 1]int
@@ -138,30 +147,32 @@ func newIndex(ctx context.Context, n int, pos func(int) (raDeg, decDeg float64),
 	return ix, nil
 }
 
-// spatialOrder returns the rows with finite positions ordered by zone, then
-// ra bin (raBins per zone), then row (a stable counting sort), and the
-// start of each zone in that order. Positions must be valid.
-func spatialOrder(n int, pos func(int) (raDeg, decDeg float64), raBins int) (order []int32, zoneStart [numZones + 1]int) {
-	nKeys := numZones * raBins
-	counts := make([]int32, nKeys+1)
-	keys := make([]int32, n)
-	for i := range n {
-		ra, dec := pos(i)
-		if math.IsNaN(ra) || math.IsNaN(dec) {
-			keys[i] = -1
-			continue
-		}
-		b := min(int(normRA(ra)/360*float64(raBins)), raBins-1)
-		k := int32(zoneOf(dec)*raBins + b)
-		keys[i] = k
-		counts[k+1]++
+// spatialKey is the sort key of a position: zone, then ra bin (binsPerZone
+// per zone); -1 for a NaN coordinate. Positions must be valid otherwise.
+func spatialKey(raDeg, decDeg float64) int32 {
+	if math.IsNaN(raDeg) || math.IsNaN(decDeg) {
+		return -1
 	}
+	b := min(int(normRA(raDeg)/360*binsPerZone), binsPerZone-1)
+	return int32(zoneOf(decDeg)*binsPerZone + b)
+}
+
+// spatialOrder returns the rows with a key >= 0 ordered by key, then row (a
+// stable counting sort), and the start of each zone in that order.
+func spatialOrder(keys []int32) (order []int32, zoneStart [numZones + 1]int) {
+	const nKeys = numZones * binsPerZone
+	counts := make([]int32, nKeys+1)
+	for _, k := range keys {
+		counts[k+1]++ // k = -1 lands in counts[0], dropped below
+	}
+	dropped := counts[0]
+	counts[0] = 0
 	for k := 1; k <= nKeys; k++ {
 		counts[k] += counts[k-1]
 	}
-	order = make([]int32, counts[nKeys])
+	order = make([]int32, len(keys)-int(dropped))
 	for z := 0; z <= numZones; z++ {
-		zoneStart[z] = int(counts[z*raBins])
+		zoneStart[z] = int(counts[z*binsPerZone])
 	}
 	for i, k := range keys {
 		if k >= 0 {

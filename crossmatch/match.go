@@ -160,30 +160,32 @@ func Match(ctx context.Context, primary, secondary *catalog.Table, opt Options) 
 	done := make(chan struct{})
 	go func() {
 		defer close(done)
-		order, _ = spatialOrder(len(p.pts), p.pos, binsPerZone)
+		order, _ = spatialOrder(p.keys)
 		res.Prior, res.OverlapSqDeg, nc, n1, n2 = overlapPrior(p.cells, s.cells)
 	}()
-	ix, err := newIndex(ctx, len(s.pts), s.pos, opt.Workers)
+	ix, err := newIndex(ctx, s.pos, s.keys, opt.Workers)
 	<-done
 	if err != nil {
 		return nil, fmt.Errorf("match: catalog %q: %w", secondary.Name, err)
 	}
 	st.OverlapCells, st.PrimaryInOverlap, st.SecondaryInOverlap = nc, n1, n2
 
-	pairs, maxR, err := searchAll(ctx, ix, order, p, s, &opt)
+	batches, maxR, err := searchAll(ctx, ix, order, p, s, &opt)
 	if err != nil {
 		return nil, err
 	}
-	st.CandidatePairs = len(pairs)
+	for _, ps := range batches {
+		st.CandidatePairs += len(ps)
+	}
 	st.MaxSearchRadiusArcsec = maxR / radPerArcsec
 
-	res.Matches, err = resolve(ctx, pairs, primary.Len(), ix.Indexed(), &opt, res.Prior, st)
+	res.Matches, err = resolve(ctx, batches, order, primary.Len(), ix.Indexed(), secondary.IDs, &opt, res.Prior, st)
 	if err != nil {
 		return nil, err
 	}
-	for i := range res.Matches {
-		if m := &res.Matches[i]; m.Secondary >= 0 {
-			m.SourceID = secondary.IDs[m.Secondary]
+	for i, k := range p.keys { // rows without a position are not in order
+		if k < 0 {
+			res.Matches[i] = noMatch()
 		}
 	}
 	return res, nil
@@ -237,6 +239,7 @@ func checkTable(t *catalog.Table) error {
 // side is one catalog made ready for matching.
 type side struct {
 	pts           []query // at the secondary epoch; NaN ra for no position
+	keys          []int32 // spatialKey of pts
 	cells         []uint16
 	maxSigmaRad   float64
 	noPos         int
@@ -293,7 +296,7 @@ func rms(a, b float64) (float64, bool) {
 func prepare(ctx context.Context, t *catalog.Table, toJyr float64, move bool, fallbackMas float64, workers int) (*side, error) {
 	n := t.Len()
 	sd := &side{
-		pts: make([]query, n), cells: make([]uint16, n),
+		pts: make([]query, n), cells: make([]uint16, n), keys: make([]int32, n),
 	}
 	ra, dec := col(t, catalog.RA), col(t, catalog.Dec)
 	raErr, decErr := col(t, catalog.RAErr), col(t, catalog.DecErr)
@@ -319,6 +322,7 @@ func prepare(ctx context.Context, t *catalog.Table, toJyr float64, move bool, fa
 				tl.noPos++
 				sd.pts[i] = query{math.NaN(), math.NaN(), math.NaN()}
 				sd.cells[i] = noCell
+				sd.keys[i] = -1
 				continue
 			}
 			if math.IsInf(r, 0) {
@@ -358,6 +362,7 @@ func prepare(ctx context.Context, t *catalog.Table, toJyr float64, move bool, fa
 			sd.pts[i] = query{r, d, sig}
 			tl.maxSigma = max(tl.maxSigma, sig)
 			sd.cells[i] = cellOf(r, d)
+			sd.keys[i] = spatialKey(r, d)
 		}
 	})
 	if err != nil {
@@ -405,10 +410,11 @@ func parallelBatches(ctx context.Context, nb, workers int, fn func(b int)) error
 }
 
 // searchAll finds every candidate pair. Queries run in spatial order (for
-// cache locality) and pairs come out in that order, each primary's pairs
-// contiguous and ordered by secondary row; the order does not depend on the
-// worker count.
-func searchAll(ctx context.Context, ix *Index, order []int32, p, s *side, opt *Options) ([]pair, float64, error) {
+// cache locality), in batches of batchRows; batch b holds the pairs of the
+// primaries order[b*batchRows:(b+1)*batchRows], each primary's pairs
+// contiguous and ordered by secondary row. Nothing depends on the worker
+// count.
+func searchAll(ctx context.Context, ix *Index, order []int32, p, s *side, opt *Options) ([][]pair, float64, error) {
 	// Secondary errors in index order, read near-sequentially below.
 	sigByPos := make([]float64, ix.Indexed())
 	if err := parallelBatches(ctx, (len(sigByPos)+batchRows-1)/batchRows, opt.Workers, func(b int) {
@@ -424,10 +430,17 @@ func searchAll(ctx context.Context, ix *Index, order []int32, p, s *side, opt *O
 	fixedRad := opt.RadiusArcsec * radPerArcsec
 	floorRad := opt.RadiusFloorArcsec * radPerArcsec
 	err := parallelBatches(ctx, nb, opt.Workers, func(b int) {
+		rows := order[b*batchRows : min(len(order), (b+1)*batchRows)]
+		// Gather the batch's queries first: independent loads overlap
+		// their cache misses, the search loop then reads sequentially.
+		var qs [batchRows]query
+		for k, i := range rows {
+			qs[k] = p.pts[i]
+		}
 		var hits []hit
-		ps := make([]pair, 0, batchRows+batchRows/4)
-		for _, i := range order[b*batchRows : min(len(order), (b+1)*batchRows)] {
-			q := p.pts[i]
+		ps := make([]pair, 0, len(rows)+len(rows)/4)
+		for k, i := range rows {
+			q := qs[k]
 			s1 := q.sigmaRad
 			rSearch := fixedRad
 			if opt.NSigma > 0 {
@@ -456,35 +469,27 @@ func searchAll(ctx context.Context, ix *Index, order []int32, p, s *side, opt *O
 	if err != nil {
 		return nil, 0, err
 	}
-	offs := make([]int, nb+1)
-	for b, ps := range out {
-		offs[b+1] = offs[b] + len(ps)
-	}
-	all := make([]pair, offs[nb])
-	if err := parallelBatches(ctx, nb, opt.Workers, func(b int) {
-		copy(all[offs[b]:], out[b])
-		out[b] = nil
-	}); err != nil {
-		return nil, 0, err
-	}
-	return all, slices.Max(append(maxR, 0)), nil
+	return out, slices.Max(append(maxR, 0)), nil
 }
 
+// pairRef locates a pair: batch and index in it.
+type pairRef struct{ b, k int32 }
+
 // resolve applies the one-to-one greedy and the ambiguity rule (see Match).
-// Each primary's pairs are contiguous in pairs; nPos is the number of index
-// positions (pair.pos is below it). No decision depends on the order of
-// pairs.
-func resolve(ctx context.Context, pairs []pair, n1, nPos int, opt *Options, p0 float64, st *Stats) ([]Counterpart, error) {
+// Each primary's pairs are contiguous in one batch; nPos is the number of
+// index positions (pair.pos is below it). No decision depends on the order
+// of the pairs.
+func resolve(ctx context.Context, batches [][]pair, order []int32, n1, nPos int, ids []string, opt *Options, p0 float64, st *Stats) ([]Counterpart, error) {
 	lnRatio := math.Log(opt.AmbiguityRatio)
 	post := newPosterior(p0)
 	out := make([]Counterpart, n1)
-	for i := range out {
-		out[i] = Counterpart{Secondary: -1, SepArcsec: math.NaN(), BayesFactor: math.NaN()}
-	}
+	none := noMatch()
 	// Primaries per secondary (by index position), as CSR.
 	secStart := make([]int32, nPos+1)
-	for k := range pairs {
-		secStart[pairs[k].pos+1]++
+	for _, ps := range batches {
+		for k := range ps {
+			secStart[ps[k].pos+1]++
+		}
 	}
 	for q := 1; q <= nPos; q++ {
 		secStart[q] += secStart[q-1]
@@ -498,25 +503,29 @@ func resolve(ctx context.Context, pairs []pair, n1, nPos int, opt *Options, p0 f
 	type hardPair struct {
 		lnB  float64
 		i, j int32
-		k    int32 // index into pairs
+		ref  pairRef
 	}
 	var hard []hardPair
 	var shared bool
-	for k := range pairs {
-		pr := &pairs[k]
-		if pr.nc > 1 || nSec(pr.pos) > 1 {
-			hard = append(hard, hardPair{pr.lnB, pr.i, pr.j, int32(k)})
-			shared = shared || nSec(pr.pos) > 1
+	for b, ps := range batches {
+		for k := range ps {
+			pr := &ps[k]
+			if pr.nc > 1 || nSec(pr.pos) > 1 {
+				hard = append(hard, hardPair{pr.lnB, pr.i, pr.j, pairRef{int32(b), int32(k)}})
+				shared = shared || nSec(pr.pos) > 1
+			}
 		}
 	}
-	var secPairs []int32 // pair indices by secondary, only when shared
+	var secPairs []pairRef // pairs by secondary, only when shared
 	if shared {
-		secPairs = make([]int32, len(pairs))
+		secPairs = make([]pairRef, secStart[nPos])
 		fill := slices.Clone(secStart[:nPos])
-		for k := range pairs {
-			q := pairs[k].pos
-			secPairs[fill[q]] = int32(k)
-			fill[q]++
+		for b, ps := range batches {
+			for k := range ps {
+				q := ps[k].pos
+				secPairs[fill[q]] = pairRef{int32(b), int32(k)}
+				fill[q]++
+			}
 		}
 	}
 	slices.SortFunc(hard, func(a, b hardPair) int {
@@ -531,31 +540,36 @@ func resolve(ctx context.Context, pairs []pair, n1, nPos int, opt *Options, p0 f
 		return int(a.j - b.j)
 	})
 	takenSec := make(map[int32]bool)
+	won := make(map[int32]pairRef) // primary -> accepted pair, from the greedy
 	for _, h := range hard {
-		if out[h.i].Secondary >= 0 || takenSec[h.j] {
+		if _, ok := won[h.i]; ok || takenSec[h.j] {
 			continue
 		}
-		accept(&out[h.i], &pairs[h.k], post)
+		won[h.i] = h.ref
 		takenSec[h.j] = true
 	}
 
-	// Per primary (its contiguous run of pairs): trivial accept, candidate
-	// count, ambiguity. Chunks start at run boundaries; primaries differ
-	// between runs, so the writes do not overlap.
+	// Per primary, in batch order (its contiguous run of pairs in one
+	// batch): the whole Counterpart is written once here.
 	type tally struct{ matched, ambiguous, bestTaken int }
-	nb := (len(pairs) + batchRows - 1) / batchRows
-	tallies := make([]tally, nb)
-	err := parallelBatches(ctx, nb, opt.Workers, func(b int) {
-		start := b * batchRows
-		for start > 0 && start < len(pairs) && pairs[start-1].i == pairs[start].i {
-			start++ // this run belongs to the previous chunk
-		}
+	tallies := make([]tally, len(batches))
+	err := parallelBatches(ctx, len(batches), opt.Workers, func(b int) {
+		pairs := batches[b]
 		tl := &tallies[b]
-		for start < len(pairs) && start < (b+1)*batchRows {
-			i := pairs[start].i
-			end := start + int(pairs[start].nc)
+		start := 0
+		for _, i := range order[b*batchRows : min(len(order), (b+1)*batchRows)] {
 			m := &out[i]
+			*m = none
+			if start == len(pairs) || pairs[start].i != i {
+				continue // no candidates
+			}
+			end := start + int(pairs[start].nc)
 			m.Candidates = pairs[start].nc
+			if first := &pairs[start]; first.nc == 1 && nSec(first.pos) == 1 {
+				accept(m, first, post, ids) // alone in its component
+			} else if r, ok := won[i]; ok {
+				accept(m, &batches[r.b][r.k], post, ids)
+			}
 			best := start
 			for k := start + 1; k < end; k++ {
 				if pairs[k].lnB > pairs[best].lnB {
@@ -568,13 +582,11 @@ func resolve(ctx context.Context, pairs []pair, n1, nPos int, opt *Options, p0 f
 				amb = k != best && pairs[k].lnB >= bp.lnB-lnRatio
 			}
 			if nSec(bp.pos) > 1 {
-				for _, k := range secPairs[secStart[bp.pos]:secStart[bp.pos+1]] {
-					if pairs[k].i != i && math.Abs(pairs[k].lnB-bp.lnB) <= lnRatio {
+				for _, r := range secPairs[secStart[bp.pos]:secStart[bp.pos+1]] {
+					if o := &batches[r.b][r.k]; o.i != i && math.Abs(o.lnB-bp.lnB) <= lnRatio {
 						amb = true
 					}
 				}
-			} else if bp.nc == 1 {
-				accept(m, bp, post)
 			}
 			m.Ambiguous = amb
 			if m.Secondary != bp.j {
@@ -600,9 +612,15 @@ func resolve(ctx context.Context, pairs []pair, n1, nPos int, opt *Options, p0 f
 	return out, nil
 }
 
-func accept(m *Counterpart, pr *pair, post posterior) {
+// noMatch is the Counterpart of a primary without a match.
+func noMatch() Counterpart {
+	return Counterpart{Secondary: -1, SepArcsec: math.NaN(), BayesFactor: math.NaN()}
+}
+
+func accept(m *Counterpart, pr *pair, post posterior, ids []string) {
 	m.Secondary = pr.j
-	m.Prob = post.of(pr.lnB)
+	m.SourceID = ids[pr.j]
 	m.SepArcsec = pr.sepRad / radPerArcsec
 	m.BayesFactor = math.Exp(pr.lnB)
+	m.Prob = post.ofB(m.BayesFactor, pr.lnB)
 }
