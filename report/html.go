@@ -257,10 +257,13 @@ dd { margin: 0; }
 {{else}}<tr><td colspan="12">no unbound or marginal stars in this run</td></tr>
 {{end}}</table>
 <script>
-// Marks each plot as loaded (or not) so a headless check can read it.
+// Marks each plot as loaded (or not), with its place on the page, so a
+// headless check can read both from the DOM.
 window.addEventListener("load", function () {
   document.querySelectorAll("img[data-plot]").forEach(function (im) {
+    var r = im.getBoundingClientRect();
     im.setAttribute("data-loaded", im.complete && im.naturalWidth > 0 ? "yes" : "no");
+    im.setAttribute("data-rect", [r.left + window.scrollX, r.top + window.scrollY, r.width, r.height].map(Math.round).join(","));
   });
 });
 </script>
