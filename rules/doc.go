@@ -61,5 +61,9 @@
 // and version do not change them.
 //
 // Load errors are LoadErrors: every problem, each with file, line, column
-// and rule id, wrapping one of the Err* sentinels.
+// and rule id (or the rule's number when it has no id), wrapping one of the
+// Err* sentinels; printed as FILE:LINE:COL: rule "ID": message. The line is
+// the offending key's, else the rule's [[rule]] header. An expression
+// reports the first problem the expr checker finds, with its column inside
+// the expression.
 package rules

@@ -30,6 +30,7 @@ type LoadError struct {
 	Line   int    // 1-based; the offending key's line, else the rule's [[rule]] header
 	Col    int    // 1-based
 	RuleID string // "" when the problem is outside any rule or the rule has no id
+	RuleNo int    // 1-based position of the rule in the file; 0 outside any rule
 	Kind   error  // one of the Err* sentinels
 	Msg    string
 }
@@ -37,8 +38,11 @@ type LoadError struct {
 func (e *LoadError) Error() string {
 	var b strings.Builder
 	fmt.Fprintf(&b, "%s:%d:%d: ", e.File, e.Line, e.Col)
-	if e.RuleID != "" {
+	switch {
+	case e.RuleID != "":
 		fmt.Fprintf(&b, "rule %q: ", e.RuleID)
+	case e.RuleNo > 0:
+		fmt.Fprintf(&b, "rule #%d (no id): ", e.RuleNo)
 	}
 	b.WriteString(e.Msg)
 	return b.String()

@@ -100,6 +100,7 @@ func Load(path string, schema Schema) (*RuleSet, error) {
 var idRe = regexp.MustCompile(`^[a-z0-9]+(-[a-z0-9]+)*$`)
 
 type loader struct {
+	ruleNo int // 1-based number of the rule being checked, 0 outside rules
 	file   string
 	lay    layout
 	errs   LoadErrors
@@ -111,7 +112,7 @@ func (l *loader) add(p pos, ruleID string, kind error, format string, a ...any) 
 	if p.Line < 1 {
 		p = pos{1, 1}
 	}
-	l.errs = append(l.errs, &LoadError{File: l.file, Line: p.Line, Col: p.Col, RuleID: ruleID, Kind: kind, Msg: fmt.Sprintf(format, a...)})
+	l.errs = append(l.errs, &LoadError{File: l.file, Line: p.Line, Col: p.Col, RuleID: ruleID, RuleNo: l.ruleNo, Kind: kind, Msg: fmt.Sprintf(format, a...)})
 }
 
 // Parse compiles rule-file text; name is used in error messages. On error it
@@ -142,7 +143,8 @@ func Parse(name string, data []byte, schema Schema) (*RuleSet, error) {
 	l.lay = scanLayout(text)
 
 	rs := &RuleSet{File: name}
-	for k, v := range raw {
+	for _, k := range sortedKeys(raw) {
+		v := raw[k]
 		p := l.lay.top[k]
 		if op, ok := l.lay.other[k]; ok && p.Line == 0 {
 			p = op
@@ -207,6 +209,7 @@ func Parse(name string, data []byte, schema Schema) (*RuleSet, error) {
 		} else {
 			rp = rulePos{header: l.lay.top["rule"], keys: map[string]pos{}}
 		}
+		l.ruleNo = i + 1
 		r, ok := l.rule(t, rp)
 		if r.ID != "" {
 			if first, dup := ids[r.ID]; dup {
@@ -220,6 +223,7 @@ func Parse(name string, data []byte, schema Schema) (*RuleSet, error) {
 			rs.Rules = append(rs.Rules, r)
 		}
 	}
+	l.ruleNo = 0
 	if len(l.errs) > 0 {
 		sort.SliceStable(l.errs, func(i, j int) bool {
 			if l.errs[i].Line != l.errs[j].Line {

@@ -209,6 +209,14 @@ expr = "mag <"
 	}
 }
 
+func TestRuleWithoutID(t *testing.T) {
+	_, err := Parse("n.toml", []byte(head+"[[rule]]\nid = \"a\"\nseverity = \"flag\"\ncheck = \"duplicate\"\n[[rule]]\nseverity = \"flag\"\ncheck = \"duplicate\"\n"), Schema{})
+	want := `n.toml:7:1: rule #2 (no id): missing id`
+	if err == nil || err.Error() != want {
+		t.Errorf("got %v, want %s", err, want)
+	}
+}
+
 func TestExprColumn(t *testing.T) {
 	_, err := Parse("c.toml", []byte(head+"[[rule]]\nid = \"a\"\nseverity = \"flag\"\nexpr = \"mag < 3 && nosuch\"\n"), Schema{})
 	if err == nil || !strings.Contains(err.Error(), "column 12 of the expression") {
