@@ -593,3 +593,41 @@ func TestStaleRun(t *testing.T) {
 		t.Errorf("after writable open: %+v", r)
 	}
 }
+
+// The example queries in SCHEMA.md must run against a real ledger.
+func TestSchemaExamples(t *testing.T) {
+	b, err := os.ReadFile("SCHEMA.md")
+	if err != nil {
+		t.Fatal(err)
+	}
+	doc := string(b)
+	i := strings.Index(doc, "```sql\n")
+	j := strings.LastIndex(doc, "```")
+	if i < 0 || j <= i {
+		t.Fatal("no sql block in SCHEMA.md")
+	}
+	l := openT(t, tempLedger(t), Options{})
+	writeRun(t, l, []StarRecord{record("HV-0001", 1, 0, "rejected")})
+	writeRun(t, l, []StarRecord{record("HV-0001", 1, 1, "accepted")})
+	want := []int{1, 2, 2} // rows per query: one status, two runs, two reasons
+	for k, q := range strings.Split(strings.TrimSpace(doc[i+len("```sql\n"):j]), ";") {
+		q = strings.TrimSpace(q)
+		if q == "" {
+			continue
+		}
+		t.Run(fmt.Sprint(k), func(t *testing.T) {
+			rows, err := l.db.Query(q)
+			if err != nil {
+				t.Fatalf("%s: %v", q, err)
+			}
+			defer rows.Close()
+			n := 0
+			for rows.Next() {
+				n++
+			}
+			if n != want[k] {
+				t.Errorf("%s: %d rows, want %d", q, n, want[k])
+			}
+		})
+	}
+}
