@@ -377,7 +377,7 @@ limit = 20
 	e := NewEvaluator(rs, Context{})
 	cases := []struct {
 		name          string
-		ruwe, snr, rv float64
+		fitRes, snr, rv float64
 		quality       string
 		failed        string
 	}{
@@ -391,7 +391,7 @@ limit = 20
 	for _, c := range cases {
 		t.Run(c.name, func(t *testing.T) {
 			s := blank()
-			s.Values[catalog.FitResidual], s.Values[catalog.SNR], s.Values[catalog.RVErr] = c.ruwe, c.snr, c.rv
+			s.Values[catalog.FitResidual], s.Values[catalog.SNR], s.Values[catalog.RVErr] = c.fitRes, c.snr, c.rv
 			e.Assess(&s, &a)
 			if a.Quality != c.quality || strings.Join(a.FailedRules, ",") != c.failed {
 				t.Errorf("got %s [%s], want %s [%s]", a.Quality, strings.Join(a.FailedRules, ","), c.quality, c.failed)
