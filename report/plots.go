@@ -162,10 +162,8 @@ func speedPlot(d *data) (*PlotSummary, []byte, error) {
 	}
 	p.X.Scale, p.X.Tick.Marker = plot.LogScale{}, plot.LogTicks{Prec: -1}
 	p.X.Min, p.X.Max = rLo, rHi
-	p.Y.Min = 0
-	if len(present) == 0 && !ps.HasCurve {
-		p.Y.Max = 1000
-	}
+	// Head room above the data for the legend in the top right corner.
+	p.Y.Min, p.Y.Max = 0, 1.3*math.Max(p.Y.Max, 100)
 	for _, st := range sortStatuses(boolKeys(omitted)) {
 		ps.Omitted += omitted[st]
 		ps.Note += fmt.Sprintf(" Not drawn: %d %s star(s) without a full speed.", omitted[st], st)
@@ -335,7 +333,7 @@ func pUnboundPlot(d *data) (*PlotSummary, []byte, error) {
 				ps.Points[st]++ // one bar segment per non-empty bin
 			}
 		}
-		p.Legend.Add(fmt.Sprintf("%s (%d)", st, n), histThumb{styleOf(st).Color})
+		p.Legend.Add(fmt.Sprintf("%s (%d)", st, n), histThumb{st})
 	}
 	p.X.Min, p.X.Max = 0, 1
 	p.Y.Min = 0
@@ -372,6 +370,12 @@ func (h *stackedHist) Plot(c draw.Canvas, p *plot.Plot) {
 			r.Close()
 			c.SetColor(styleOf(st).Color)
 			c.Fill(r)
+			// The status's shape in white inside the bar, so colour is not
+			// the only cue; white fills are not counted as bars.
+			ctr := vg.Point{X: (trX(x0) + trX(x1)) / 2, Y: (trY(float64(base)) + trY(float64(base+n))) / 2}
+			if g := histGlyph(st); trY(float64(base+n))-trY(float64(base)) > 2*g.Radius+2 {
+				c.DrawGlyph(g, ctr)
+			}
 			base += n
 		}
 	}
@@ -386,10 +390,16 @@ func (h *stackedHist) DataRange() (xmin, xmax, ymin, ymax float64) {
 		}
 		top = max(top, s)
 	}
-	return 0, 1, 0, math.Max(1, float64(top)*1.1)
+	// Head room for the legend.
+	return 0, 1, 0, math.Max(1, float64(top)*1.4)
 }
 
-type histThumb struct{ color color.Color }
+func histGlyph(status string) draw.GlyphStyle {
+	st := styleOf(status)
+	return draw.GlyphStyle{Color: color.White, Shape: st.Shape, Radius: 2.4}
+}
+
+type histThumb struct{ status string }
 
 func (t histThumb) Thumbnail(c *draw.Canvas) {
 	var r vg.Path
@@ -398,8 +408,9 @@ func (t histThumb) Thumbnail(c *draw.Canvas) {
 	r.Line(vg.Point{X: c.Max.X, Y: c.Max.Y})
 	r.Line(vg.Point{X: c.Min.X, Y: c.Max.Y})
 	r.Close()
-	c.SetColor(t.color)
+	c.SetColor(styleOf(t.status).Color)
 	c.Fill(r)
+	c.DrawGlyph(histGlyph(t.status), vg.Point{X: (c.Min.X + c.Max.X) / 2, Y: (c.Min.Y + c.Max.Y) / 2})
 }
 
 // crossingPlot is plot 4: where the back-traced orbits crossed the plane
