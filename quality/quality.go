@@ -227,8 +227,9 @@ func (e *Evaluator) AssessAll(ctx context.Context, stars []Star, workers int) []
 }
 
 // Each assesses stars on workers goroutines and hands each result to fn,
-// which may be called concurrently and must not keep a (reused)
-// Assessment. It returns ctx.Err() if it stopped early.
+// which may be called concurrently. The Assessment is reused for the next
+// star: fn may keep its strings but must copy the slices it wants to keep.
+// It returns ctx.Err() if it stopped early.
 func (e *Evaluator) Each(ctx context.Context, stars []Star, workers int, fn func(i int, a *Assessment)) error {
 	e.each(ctx, len(stars), workers, func(i int, a *Assessment) {
 		e.Assess(&stars[i], a)
