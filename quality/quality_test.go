@@ -376,10 +376,10 @@ limit = 20
 `)
 	e := NewEvaluator(rs, Context{})
 	cases := []struct {
-		name          string
+		name            string
 		fitRes, snr, rv float64
-		quality       string
-		failed        string
+		quality         string
+		failed          string
 	}{
 		{"pass", 1, 20, 5, Pass, ""},
 		{"flag", 1, 5, 5, Flag, "a-flag"},
