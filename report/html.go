@@ -161,15 +161,21 @@ func renderHTML(d *data, plots []PlotSummary) ([]byte, int, error) {
 		}
 		v.Plots = append(v.Plots, plotView{PlotSummary: ps, Drawn: fmt.Sprintf("%d %s", n, unit)})
 	}
+	src := d.opt.SettingsSource
+	if src == "" {
+		src = "given in the options"
+	}
 	v.EscapeText = "escape to infinity (the campaign default; the ledger does not record the run's setting)"
 	if d.opt.EscapeRadiusKpc > 0 {
-		v.EscapeText = fmt.Sprintf("escape to r = %g kpc (given in the options)", d.opt.EscapeRadiusKpc)
+		v.EscapeText = fmt.Sprintf("escape to r = %g kpc (%s)", d.opt.EscapeRadiusKpc, src)
+	} else if d.opt.SettingsSource != "" {
+		v.EscapeText = fmt.Sprintf("escape to infinity (%s)", src)
 	}
-	v.GCText = fmt.Sprintf("%g kpc (given in the options)", d.opt.GCRadiusKpc)
+	v.GCText = fmt.Sprintf("%g kpc (%s)", d.opt.GCRadiusKpc, src)
 	if d.gcDefault {
 		v.GCText = fmt.Sprintf("%g kpc (default; not recorded in the ledger)", d.opt.GCRadiusKpc)
 	}
-	v.SunText = fmt.Sprintf("%g kpc (given in the options)", d.opt.SunDistanceKpc)
+	v.SunText = fmt.Sprintf("%g kpc (%s)", d.opt.SunDistanceKpc, src)
 	if d.sunDefault {
 		v.SunText = fmt.Sprintf("%g kpc (default; not recorded in the ledger)", d.opt.SunDistanceKpc)
 	}

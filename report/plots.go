@@ -464,7 +464,11 @@ func crossingPlot(d *data) (*PlotSummary, []byte, error) {
 	p.Add(ring, dot)
 	p.Legend.Add(fmt.Sprintf("Sun (x = %g kpc)", -d.opt.SunDistanceKpc), ring, dot)
 
-	gcText := fmt.Sprintf("The dashed circle is the centre radius, %g kpc (given in the options).", d.opt.GCRadiusKpc)
+	src := d.opt.SettingsSource
+	if src == "" {
+		src = "given in the options"
+	}
+	gcText := fmt.Sprintf("The dashed circle is the centre radius, %g kpc (%s).", d.opt.GCRadiusKpc, src)
 	if d.gcDefault {
 		gcText = fmt.Sprintf("The dashed circle is the centre radius, %g kpc: the default, since the ledger does not record the run's setting.", d.opt.GCRadiusKpc)
 	}

@@ -42,6 +42,10 @@ type Options struct {
 	SunDistanceKpc float64
 	// TopReasons is how many rejection reasons to list; 0 = DefaultTopReasons.
 	TopReasons int
+	// SettingsSource says where the non-zero settings above come from
+	// (e.g. a campaign file and whether it is the run's); shown on the
+	// page. "" = "given in the options".
+	SettingsSource string
 }
 
 // PlotSummary describes one written plot.

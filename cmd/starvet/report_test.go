@@ -78,6 +78,8 @@ func TestReportCommand(t *testing.T) {
 		{"negative run", []string{"report", "--run", "-1", "--ledger", ledger, "-o", out}, 2, "", "--run -1", false},
 		{"bad flag", []string{"report", "--frobnicate", "-o", out}, 2, "", "frobnicate", false},
 		{"negative radius", []string{"report", "--gc-radius-kpc", "-1", "--ledger", ledger, "-o", out}, 2, "", "--gc-radius-kpc -1", false},
+		{"campaign and radius", []string{"report", "--campaign", "c.toml", "--gc-radius-kpc", "2", "--ledger", ledger, "-o", out}, 2, "", "--campaign excludes", false},
+		{"missing campaign", []string{"report", "--campaign", filepath.Join(t.TempDir(), "none.toml"), "--ledger", ledger, "-o", out}, 1, "", "none.toml", false},
 		{"unknown run", []string{"report", "--run", "7", "--ledger", ledger, "-o", out}, 1, "", "no run 7", false},
 		{"missing ledger", []string{"report", "--ledger", filepath.Join(t.TempDir(), "none.db"), "-o", out}, 1, "", "does not exist", false},
 	}
