@@ -92,7 +92,7 @@ var checkSpecs = map[Check]checkSpec{
 // commonKeys are allowed in every rule.
 var commonKeys = map[string]bool{
 	"id": true, "description": true, "severity": true, "check": true,
-	"expr": true, "when": true, "source": true,
+	"expr": true, "when": true, "source": true, "voids": true,
 }
 
 // fieldByName maps canonical field names (not "id") to fields.

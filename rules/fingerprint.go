@@ -28,6 +28,7 @@ type canonicalRule struct {
 	MinProb        string   `json:"min_prob,omitempty"`
 	MaxSepArcsec   string   `json:"max_sep_arcsec,omitempty"`
 	AllowAmbiguous bool     `json:"allow_ambiguous,omitempty"`
+	Voids          []string `json:"voids,omitempty"`
 }
 
 func canonNum(x float64) string {
@@ -61,6 +62,10 @@ func ruleFingerprint(r *Rule) string {
 		c.Fields = append(c.Fields, catalog.Fields[f].Name)
 	}
 	sort.Strings(c.Fields) // the order of required fields does not matter
+	for _, f := range r.Voids {
+		c.Voids = append(c.Voids, catalog.Fields[f].Name)
+	}
+	sort.Strings(c.Voids)
 	b, err := json.Marshal(c)
 	if err != nil {
 		panic(err) // only strings and bools: cannot fail

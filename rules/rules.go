@@ -60,6 +60,11 @@ type Rule struct {
 	MaxSepArcsec   float64 // NaN when not set
 	AllowAmbiguous bool
 
+	// Voids lists fields that later stages must treat as missing when the
+	// rule fails: a flag on a low signal-to-noise spectrum can keep the
+	// star but stop its radial velocity from deciding the verdict.
+	Voids []catalog.Field
+
 	Fingerprint string
 }
 
@@ -271,6 +276,34 @@ func keyPos(rp rulePos, key string) pos {
 	return rp.header
 }
 
+// fieldList reads a list of canonical field names, reporting problems at p.
+func (l *loader) fieldList(v any, p pos, id, key string) []catalog.Field {
+	list, ok := v.([]any)
+	if !ok {
+		l.add(p, id, ErrParamType, "%s must be a list of field names, got %s", key, tomlType(v))
+		return nil
+	}
+	var out []catalog.Field
+	seen := map[catalog.Field]bool{}
+	for _, e := range list {
+		s, ok := e.(string)
+		if !ok {
+			l.add(p, id, ErrParamType, "%s must hold strings, got %s", key, tomlType(e))
+			continue
+		}
+		f, ok := fieldByName[s]
+		if !ok {
+			l.add(p, id, ErrUnknownField, "unknown field %q", s)
+			continue
+		}
+		if !seen[f] {
+			seen[f] = true
+			out = append(out, f)
+		}
+	}
+	return out
+}
+
 // rule checks and compiles one [[rule]] table; ok is false when the table
 // has errors (which are recorded).
 func (l *loader) rule(t map[string]any, rp rulePos) (r *Rule, ok bool) {
@@ -468,6 +501,10 @@ func (l *loader) rule(t map[string]any, rp rulePos) (r *Rule, ok bool) {
 	}
 	if r.Check == MatchQuality && math.IsNaN(r.MinProb) && math.IsNaN(r.MaxSepArcsec) && r.AllowAmbiguous {
 		l.add(rp.header, r.ID, ErrMissingParam, "match check tests nothing: give min_prob, max_sep_arcsec, or leave allow_ambiguous false")
+	}
+
+	if v, ok := t["voids"]; ok {
+		r.Voids = l.fieldList(v, keyPos(rp, "voids"), r.ID, "voids")
 	}
 
 	if _, ok := t["when"]; ok {

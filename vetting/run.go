@@ -6,6 +6,7 @@ import (
 	"math"
 	"path/filepath"
 	"sort"
+	"strings"
 	"time"
 
 	"starvet/crossmatch/catalog"
@@ -307,6 +308,7 @@ func (e *Engine) compute(ctx context.Context, c *campaign.Campaign, rs *rules.Ru
 		recs[k] = e.baseRecord(cats, m, &sub[k], hashes[i], i, &as[k])
 		if as[k].Quality != "reject" {
 			kin = append(kin, k)
+			voidFields(rs, &as[k], &sub[k], &recs[k])
 		}
 	}
 	if err := e.kinematics(ctx, c, model, modelName, kset, sub, kin, recs); err != nil {
@@ -346,6 +348,30 @@ func (e *Engine) baseRecord(cats *Catalogs, m *Matched, s *quality.Star, hash st
 	r.Verdict = db.VerdictRow{Quality: a.Quality, InputHash: hash, Status: StatusRejected}
 	nanVerdict(&r.Verdict)
 	return r
+}
+
+// voidFields blanks, in the star's kinematic input, the fields that failed
+// rules declare void (for example a radial velocity from a low
+// signal-to-noise spectrum), and says so among its reasons. The ledger's
+// inputs keep the measured values.
+func voidFields(rs *rules.RuleSet, a *quality.Assessment, s *quality.Star, rec *db.StarRecord) {
+	for i, o := range a.Outcomes {
+		r := rs.Rules[i]
+		if o.Result != quality.ResultFail || len(r.Voids) == 0 {
+			continue
+		}
+		var names []string
+		for _, f := range r.Voids {
+			if !math.IsNaN(s.Values[f]) {
+				s.Values[f] = math.NaN()
+				names = append(names, catalog.Fields[f].Name)
+			}
+		}
+		if len(names) > 0 {
+			rec.Reasons = append(rec.Reasons, db.ReasonRow{RuleID: "void." + r.ID, Outcome: "info", Value: math.NaN(),
+				Message: fmt.Sprintf("%s not used for the kinematics because rule %s failed", strings.Join(names, ", "), r.ID)})
+		}
+	}
 }
 
 func nanVerdict(v *db.VerdictRow) {

@@ -363,7 +363,7 @@ func Read(ctx context.Context, spec Spec, opt ReadOptions) (*Table, *Report, err
 
 	rp := &rowParser{header: header, plans: plans, idIdx: idIdx, isNull: isNull, distMag: distMag}
 	width := rp.width()
-	seen := newIDSet(fnv1a)
+	seen := make(map[string]int) // id -> line of its first kept row
 	batches, stop := readBatches(cr, name, rp)
 	defer stop()
 	for b := range batches {
@@ -381,7 +381,7 @@ func Read(ctx context.Context, spec Spec, opt ReadOptions) (*Table, *Report, err
 			var id string
 			if q == nil {
 				id = rec[idIdx]
-				if first, dup := seen.addOrFind(id, t.Len(), t); dup {
+				if first, dup := seen[id]; dup {
 					lf := lineFields{start: br.line, rec: rec}
 					q = &Quarantine{Line: lf.pos(idIdx), Column: idIdx + 1, ColumnName: header[idIdx], Value: id,
 						Reason: fmt.Sprintf("%s: first seen on line %d", ErrDuplicateID, first), Err: ErrDuplicateID}
@@ -398,9 +398,10 @@ func Read(ctx context.Context, spec Spec, opt ReadOptions) (*Table, *Report, err
 				continue
 			}
 			if t.Len() == presizeAfterRows && !gz {
-				presize(t, seen, st.Size(), br.offset)
+				seen = presize(t, seen, st.Size(), br.offset)
 			}
 			id = strings.Clone(id) // rec shares one backing string per line
+			seen[id] = br.line
 			t.IDs = append(t.IDs, id)
 			t.Lines = append(t.Lines, br.line)
 			v := b.vals[r*width : (r+1)*width]
@@ -435,9 +436,9 @@ func Read(ctx context.Context, spec Spec, opt ReadOptions) (*Table, *Report, err
 // the bytes used so far and grows every column once, instead of doubling.
 const presizeAfterRows = 4096
 
-func presize(t *Table, seen *idSet, fileBytes, usedBytes int64) {
+func presize(t *Table, seen map[string]int, fileBytes, usedBytes int64) map[string]int {
 	if usedBytes <= 0 {
-		return
+		return seen
 	}
 	est := int(float64(fileBytes)/float64(usedBytes)*float64(t.Len())*1.02) + 16
 	grow := func(c []float64) []float64 {
@@ -457,7 +458,11 @@ func presize(t *Table, seen *idSet, fileBytes, usedBytes int64) {
 	lines := make([]int, len(t.Lines), est)
 	copy(lines, t.Lines)
 	t.Lines = lines
-	seen.grow(2 * est)
+	grown := make(map[string]int, est)
+	for id, line := range seen {
+		grown[id] = line
+	}
+	return grown
 }
 
 func (q *Quarantine) rowError(file string) *RowError {
@@ -493,7 +498,7 @@ func parseRow(rec, header []string, plans []colPlan, idIdx int, isNull func(stri
 			row[p.field] = math.NaN()
 			continue
 		}
-		v, err := parseFloat(s)
+		v, err := strconv.ParseFloat(s, 64)
 		if err != nil {
 			if t := strings.TrimSpace(s); t != s {
 				v, err = strconv.ParseFloat(t, 64)

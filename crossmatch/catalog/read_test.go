@@ -8,7 +8,6 @@ import (
 	"encoding/hex"
 	"errors"
 	"fmt"
-	"hash/fnv"
 	"io/fs"
 	"math"
 	"os"
@@ -447,50 +446,6 @@ func TestMultiLineFieldPositions(t *testing.T) {
 	for i, w := range want {
 		if q := rep.Quarantined[i]; q.Line != w[0] || q.Column != w[1] {
 			t.Errorf("quarantine %d at %d:%d, want %d:%d", i, q.Line, q.Column, w[0], w[1])
-		}
-	}
-}
-
-func TestIDSetCollisions(t *testing.T) {
-	// A constant hash makes every id collide, so the overflow path decides.
-	for _, c := range []struct {
-		name string
-		hash func(string) uint64
-	}{{"fnv1a", fnv1a}, {"all collide", func(string) uint64 { return 7 }}} {
-		t.Run(c.name, func(t *testing.T) {
-			s := newIDSet(c.hash)
-			tab := &Table{}
-			ids := []string{"a", "b", "c", "b", "a", "d", "c"}
-			for i := range 3000 { // enough to make the table grow
-				ids = append(ids, fmt.Sprint("g", i))
-			}
-			ids = append(ids, "d", "g2999")
-			for i, id := range ids {
-				line := i + 2
-				first, dup := s.addOrFind(id, tab.Len(), tab)
-				want, wantDup := map[string]int{"a": 2, "b": 3, "c": 4, "d": 7, "g2999": 3008}[id]
-				wantDup = wantDup && line != want
-				if dup != wantDup || (dup && first != want) {
-					t.Fatalf("%s (line %d): dup = %v first %d, want %v %d", id, line, dup, first, wantDup, want)
-				}
-				if !dup {
-					tab.IDs = append(tab.IDs, id)
-					tab.Lines = append(tab.Lines, line)
-				}
-			}
-			if tab.Len() != 3004 {
-				t.Errorf("kept %d ids, want 3004", tab.Len())
-			}
-		})
-	}
-}
-
-func TestFNV1a(t *testing.T) {
-	for _, s := range []string{"", "a", "bench-00000001", "lark-b"} {
-		h := fnv.New64a() // standard library reference
-		h.Write([]byte(s))
-		if got, want := fnv1a(s), h.Sum64(); got != want {
-			t.Errorf("fnv1a(%q) = %x, want %x", s, got, want)
 		}
 	}
 }
