@@ -198,6 +198,8 @@ h2 { font-size: 1.25em; margin-top: 1.6em; border-bottom: 1px solid #ccc; }
 table { border-collapse: collapse; margin: 0.5em 0; font-size: 0.92em; }
 th, td { border: 1px solid #ccc; padding: 0.2em 0.6em; text-align: left; }
 td.n { text-align: right; font-variant-numeric: tabular-nums; }
+#candidates td { white-space: nowrap; }
+.wide { overflow-x: auto; }
 th { background: #f0f0f0; }
 .caution { border: 2px solid #D55E00; background: #fff4ec; padding: 0.7em 1em; margin: 1em 0; }
 .sw { display: inline-block; width: 0.9em; height: 0.9em; vertical-align: middle; margin-right: 0.4em; border: 1px solid #555; }
@@ -257,11 +259,11 @@ dd { margin: 0; }
 {{end}}
 <h2>Candidates: unbound and marginal stars</h2>
 <p>Sorted by p_unbound, most probable first. Speeds are Galactocentric, median with the 16–84 per cent range; r_gc is the Galactocentric distance. A star marked * was computed in an earlier run and carried forward.</p>
-<table id="candidates">
+<div class="wide"><table id="candidates">
 <tr><th>star</th><th>status</th><th>speed (km/s)</th><th>16–84 (km/s)</th><th>r_gc (kpc)</th><th>v_esc (km/s)</th><th>p_unbound</th><th>p_unbound, rv lower bound</th><th>origin</th><th>gc_consistency</th><th>flight time (Myr)</th><th>distance method</th></tr>
 {{range .Candidates}}<tr class="candidate"><td>{{.StarID}}{{if .Carried}}*{{end}}</td><td><span class="sw" style="background: {{.Color}}"></span>{{.Status}}</td><td class="n">{{.Speed}}</td><td class="n">{{.Range}}</td><td class="n">{{.RGC}}</td><td class="n">{{.VEsc}}</td><td class="n">{{.PUnbound}}</td><td class="n">{{.PUnboundL}}</td><td>{{.Origin}}</td><td class="n">{{.GCCons}}</td><td class="n">{{.Flight}}</td><td>{{.DistMethod}}</td></tr>
 {{else}}<tr><td colspan="12">no unbound or marginal stars in this run</td></tr>
-{{end}}</table>
+{{end}}</table></div>
 <script>
 // Marks each plot as loaded (or not), with its place on the page, so a
 // headless check can read both from the DOM.
