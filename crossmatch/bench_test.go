@@ -61,6 +61,7 @@ func benchMatch(b *testing.B, n int) {
 	var res *Result
 	cpu0 := cpuSeconds()
 	for b.Loop() {
+		res = nil // let the previous result go: one Match per op
 		var err error
 		res, err = Match(context.Background(), p, s, Options{RadiusArcsec: 1})
 		if err != nil {

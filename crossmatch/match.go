@@ -516,15 +516,15 @@ func resolve(ctx context.Context, batches [][]pair, order []int32, n1, nPos int,
 			}
 		}
 	}
-	var secPairs []pairRef // pairs by secondary, only when shared
+	// Pairs of the secondaries that several primaries share (rare outside
+	// crowded fields), by index position.
+	var secPairs map[int32][]pairRef
 	if shared {
-		secPairs = make([]pairRef, secStart[nPos])
-		fill := slices.Clone(secStart[:nPos])
-		for b, ps := range batches {
-			for k := range ps {
-				q := ps[k].pos
-				secPairs[fill[q]] = pairRef{int32(b), int32(k)}
-				fill[q]++
+		secPairs = make(map[int32][]pairRef)
+		for _, h := range hard {
+			pr := &batches[h.ref.b][h.ref.k]
+			if nSec(pr.pos) > 1 {
+				secPairs[pr.pos] = append(secPairs[pr.pos], h.ref)
 			}
 		}
 	}
@@ -582,7 +582,7 @@ func resolve(ctx context.Context, batches [][]pair, order []int32, n1, nPos int,
 				amb = k != best && pairs[k].lnB >= bp.lnB-lnRatio
 			}
 			if nSec(bp.pos) > 1 {
-				for _, r := range secPairs[secStart[bp.pos]:secStart[bp.pos+1]] {
+				for _, r := range secPairs[bp.pos] {
 					if o := &batches[r.b][r.k]; o.i != i && math.Abs(o.lnB-bp.lnB) <= lnRatio {
 						amb = true
 					}

@@ -444,3 +444,31 @@ func TestMatchErrors(t *testing.T) {
 		}
 	})
 }
+
+func TestMatchEmpty(t *testing.T) {
+	one := []src{newSrc("a", 1, 1, 100)}
+	cases := []struct {
+		name string
+		p, s []src
+	}{
+		{"empty primary", nil, one},
+		{"empty secondary", one, nil},
+		{"both empty", nil, nil},
+	}
+	for _, c := range cases {
+		t.Run(c.name, func(t *testing.T) {
+			res, err := Match(context.Background(), table("p", 2000, c.p), table("s", 2000, c.s), Options{})
+			if err != nil {
+				t.Fatal(err)
+			}
+			if len(res.Matches) != len(c.p) || res.Prior != 0 || res.Stats.CandidatePairs != 0 {
+				t.Errorf("got %d matches, prior %g, %d pairs", len(res.Matches), res.Prior, res.Stats.CandidatePairs)
+			}
+			for _, m := range res.Matches {
+				if m.Secondary != -1 || !math.IsNaN(m.SepArcsec) {
+					t.Errorf("match %+v, want none", m)
+				}
+			}
+		})
+	}
+}
