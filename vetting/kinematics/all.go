@@ -19,7 +19,8 @@ const batchSize = 64
 // streams, so the results do not depend on the worker count or the order of
 // stars. progress, if not nil, is called with the number of stars done so
 // far after each batch; calls are serialised. On cancellation the context's
-// error is returned with the results computed so far.
+// error is returned with the results computed so far (stars not reached
+// have a zero Result, with an empty ID). p is shared by the goroutines.
 func EvaluateAll(ctx context.Context, stars []Star, set *Settings, p potential.Potential, workers int, progress func(done int)) ([]Result, error) {
 	if err := set.Validate(); err != nil {
 		return nil, err

@@ -52,7 +52,13 @@
 //
 // Escape speed: sqrt(2 (Phi(r_lim) - Phi(x))), Phi(r_lim) = 0 for escape to
 // infinity, else Phi at EscapeRadiusKpc along the direction of x; zero at
-// or beyond the escape radius.
+// or beyond the escape radius. Along a line of sight the position depends on
+// the distance only, so the escape speed is tabulated per star over the
+// drawn distances (adaptive cubic Hermite in distance with slopes from the
+// acceleration, split until every cell midpoint agrees with the exact value
+// within 1e-4 km/s; exact evaluation per draw when the table would need more
+// than one cell per 8 draws, or for fewer than 128 draws). The potential
+// must be safe for concurrent use (EvaluateAll shares it).
 //
 // Entry points: Evaluate for one star, EvaluateAll for many on several
 // goroutines (ctx checked between batches of 64 stars).
