@@ -85,6 +85,9 @@ func (f *fakeSource) Positions(ctx context.Context, runID int64, fn func(string,
 }
 
 func (f *fakeSource) Crossings(ctx context.Context, runID int64, fn func(CrossingRow) error) error {
+	if f.failOn == "Crossings" {
+		return errBoom
+	}
 	for _, c := range f.crossings[runID] {
 		if err := fn(c); err != nil {
 			return err

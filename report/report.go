@@ -283,30 +283,25 @@ func (d *data) gatherCrossings(ctx context.Context, cs CrossingSource, index map
 		ids = append(ids, r)
 	}
 	sort.Slice(ids, func(i, j int) bool { return ids[i] < ids[j] })
-	type keyed struct {
-		c   CrossingRow
-		run int64
-		seq int
-	}
-	var all []keyed
+	var all []CrossingRow
 	for _, run := range ids {
 		err := cs.Crossings(ctx, run, func(c CrossingRow) error {
 			i, ok := index[c.StarID]
 			if !ok || d.stars[i].ComputedInRun != run {
 				return nil
 			}
-			all = append(all, keyed{c, run, len(all)})
+			all = append(all, c)
 			return nil
 		})
 		if err != nil {
 			return fmt.Errorf("report: crossings of run %d: %w", run, err)
 		}
 	}
-	// Order by star, then as the source gave them.
-	sort.SliceStable(all, func(i, j int) bool { return all[i].c.StarID < all[j].c.StarID })
-	for _, k := range all {
-		d.crossings = append(d.crossings, k.c)
-		d.crossStat = append(d.crossStat, d.stars[index[k.c.StarID]].Status)
+	// By star, then in the order the source gave them.
+	sort.SliceStable(all, func(i, j int) bool { return all[i].StarID < all[j].StarID })
+	d.crossings = all
+	for _, c := range all {
+		d.crossStat = append(d.crossStat, d.stars[index[c.StarID]].Status)
 	}
 	return nil
 }

@@ -254,6 +254,7 @@ func TestErrors(t *testing.T) {
 		{"no such run", fixture("x"), 9, db.ErrNoRun, "no run 9"},
 		{"no complete run", &fakeSource{}, 0, ErrNoRun, "no complete run"},
 		{"reasons fail", func() *fakeSource { f := fixture("x"); f.failOn = "Reasons"; return f }(), 2, errBoom, `star "R1"`},
+		{"crossings fail", func() *fakeSource { f := fixture("x"); f.failOn = "Crossings"; return f }(), 2, errBoom, "crossings of run 1"},
 		{"run fails", func() *fakeSource { f := fixture("x"); f.failOn = "Run"; return f }(), 2, errBoom, "fake source failure"},
 	}
 	for _, c := range cases {
