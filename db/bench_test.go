@@ -99,3 +99,62 @@ func cpuTime() time.Duration {
 	}
 	return time.Duration(ru.Utime.Nano() + ru.Stime.Nano())
 }
+
+// BenchmarkIncremental measures what an incremental run needs from a 1M-star
+// ledger: PreviousState (one query into a map) and CarryForward of every
+// star. The ledger is built once, outside the timings.
+func BenchmarkIncremental(b *testing.B) {
+	const nStars, batchSize = 1_000_000, 20_000
+	ctx := context.Background()
+	l, err := Open(ctx, tempLedger(b), Options{})
+	if err != nil {
+		b.Fatal(err)
+	}
+	defer l.Close()
+	w, err := l.BeginRun(ctx, RunInfo{ToolVersion: "bench"})
+	if err != nil {
+		b.Fatal(err)
+	}
+	batch := make([]StarRecord, batchSize)
+	for i := range batch {
+		batch[i] = record("", i, 0, "accepted")
+	}
+	ids := make([]string, 0, nStars)
+	for start := 0; start < nStars; start += batchSize {
+		for i := range batch {
+			batch[i].StarID = fmt.Sprintf("bench-%07d", start+i)
+			ids = append(ids, batch[i].StarID)
+		}
+		if err := w.AddStars(ctx, batch); err != nil {
+			b.Fatal(err)
+		}
+	}
+	if err := w.Finish(ctx, RunSummary{}); err != nil {
+		b.Fatal(err)
+	}
+	first := w.ID()
+	b.Run("PreviousState", func(b *testing.B) {
+		for b.Loop() {
+			m, err := l.PreviousState(ctx, first)
+			if err != nil || len(m) != nStars {
+				b.Fatalf("%d stars, %v", len(m), err)
+			}
+		}
+		b.ReportMetric(float64(nStars*b.N)/b.Elapsed().Seconds(), "stars/s")
+	})
+	b.Run("CarryForward", func(b *testing.B) {
+		for b.Loop() {
+			w, err := l.BeginRun(ctx, RunInfo{ToolVersion: "bench"})
+			if err != nil {
+				b.Fatal(err)
+			}
+			if err := w.CarryForward(ctx, first, ids); err != nil {
+				b.Fatal(err)
+			}
+			if err := w.Finish(ctx, RunSummary{}); err != nil {
+				b.Fatal(err)
+			}
+		}
+		b.ReportMetric(float64(nStars*b.N)/b.Elapsed().Seconds(), "stars/s")
+	})
+}

@@ -473,6 +473,9 @@ func TestBadRecords(t *testing.T) {
 	if n := countRows(t, l, "verdicts", w.ID()); n != 0 {
 		t.Errorf("%d verdicts left by a failed carry-forward batch", n)
 	}
+	if err := w.CarryForward(ctx, r1, []string{"ok", "ok"}); !errors.Is(err, ErrBadRecord) || !strings.Contains(err.Error(), "twice") {
+		t.Errorf("carry forward duplicate: %v", err)
+	}
 	if err := w.AddStars(ctx, []StarRecord{record("ok", 1, 1, "accepted")}); err != nil {
 		t.Fatal(err)
 	}

@@ -271,7 +271,8 @@ const CarryForwardBatch = 20000
 
 // CarryForward copies the verdicts of starIDs from run fromRun into this
 // run unchanged, computed_in_run included, in batched transactions. A star
-// without a verdict in fromRun is an error naming it.
+// without a verdict in fromRun is an error naming it, and its batch is
+// not written.
 func (w *RunWriter) CarryForward(ctx context.Context, fromRun int64, starIDs []string) error {
 	w.mu.Lock()
 	defer w.mu.Unlock()
@@ -281,44 +282,92 @@ func (w *RunWriter) CarryForward(ctx context.Context, fromRun int64, starIDs []s
 	if fromRun <= 0 || fromRun >= w.id {
 		return fmt.Errorf("ledger %s run %d: carry forward from run %d: must be an earlier run: %w", w.l.path, w.id, fromRun, ErrNoRun)
 	}
-	copySQL := "INSERT INTO verdicts (" + verdictCols + ") SELECT ?, " +
-		strings.TrimPrefix(verdictCols, "run_id, ") + " FROM verdicts WHERE run_id = ? AND star_id = ?"
-	for start := 0; start < len(starIDs); start += CarryForwardBatch {
-		if err := ctx.Err(); err != nil {
+	conn, err := w.l.db.Conn(ctx)
+	if err != nil {
+		return fmt.Errorf("ledger %s run %d: carry forward: %w", w.l.path, w.id, err)
+	}
+	defer conn.Close()
+	err = conn.Raw(func(dc any) error {
+		c := dc.(*sqlite3.SQLiteConn)
+		if _, err := c.Exec("CREATE TEMP TABLE IF NOT EXISTS carry_ids (star_id TEXT PRIMARY KEY) WITHOUT ROWID", nil); err != nil {
 			return err
 		}
-		ids := starIDs[start:min(start+CarryForwardBatch, len(starIDs))]
-		err := w.l.inTx(ctx, func(tx *sql.Tx) error {
-			stCopy, err := tx.PrepareContext(ctx, copySQL)
-			if err != nil {
+		for start := 0; start < len(starIDs); start += CarryForwardBatch {
+			if err := ctx.Err(); err != nil {
 				return err
 			}
-			defer stCopy.Close()
-			stStar, err := tx.PrepareContext(ctx, `UPDATE stars SET last_run = ? WHERE star_id = ?`)
-			if err != nil {
+			ids := starIDs[start:min(start+CarryForwardBatch, len(starIDs))]
+			if err := w.carryBatch(c, fromRun, ids); err != nil {
 				return err
 			}
-			defer stStar.Close()
-			bg := context.Background()
-			for _, id := range ids {
-				res, err := stCopy.ExecContext(bg, w.id, fromRun, id)
-				if err != nil {
-					return fmt.Errorf("star %q: %w", id, err)
-				}
-				if n, _ := res.RowsAffected(); n != 1 {
-					return fmt.Errorf("star %q has no verdict in run %d: %w", id, fromRun, ErrUnknownStar)
-				}
-				if _, err := stStar.ExecContext(bg, w.id, id); err != nil {
-					return fmt.Errorf("star %q: %w", id, err)
-				}
-			}
-			return nil
-		})
-		if err != nil {
-			return fmt.Errorf("ledger %s run %d: carry forward from run %d: %w", w.l.path, w.id, fromRun, err)
 		}
+		return nil
+	})
+	if err != nil {
+		return fmt.Errorf("ledger %s run %d: carry forward from run %d: %w", w.l.path, w.id, fromRun, err)
 	}
 	return nil
+}
+
+// carryBatch stages ids in a temporary table and copies their verdicts
+// with one INSERT ... SELECT, in one transaction.
+func (w *RunWriter) carryBatch(c *sqlite3.SQLiteConn, fromRun int64, ids []string) (err error) {
+	tx, err := c.Begin()
+	if err != nil {
+		return err
+	}
+	defer func() {
+		if err != nil {
+			tx.Rollback()
+		}
+	}()
+	if _, err := c.Exec("DELETE FROM carry_ids", nil); err != nil {
+		return err
+	}
+	stage := newBulk(c, "carried ids", "INSERT INTO carry_ids (star_id) VALUES", 1, "")
+	defer stage.close()
+	for _, id := range ids {
+		if err := stage.add(id, id); err != nil {
+			if strings.Contains(err.Error(), "UNIQUE") {
+				return fmt.Errorf("star %q listed twice: %w", id, ErrBadRecord)
+			}
+			return err
+		}
+	}
+	if err := stage.flush(); err != nil {
+		if strings.Contains(err.Error(), "UNIQUE") {
+			return fmt.Errorf("a star listed twice: %w: %v", ErrBadRecord, err)
+		}
+		return err
+	}
+	bg := context.Background()
+	copySQL := "INSERT INTO verdicts (" + verdictCols + ") SELECT ?, v." +
+		strings.ReplaceAll(strings.TrimPrefix(verdictCols, "run_id, "), ", ", ", v.") +
+		" FROM carry_ids t CROSS JOIN verdicts v ON v.run_id = ? AND v.star_id = t.star_id" // CROSS JOIN: SQLite keeps carry_ids as the outer loop
+	res, err := c.ExecContext(bg, copySQL, []driver.NamedValue{{Ordinal: 1, Value: w.id}, {Ordinal: 2, Value: fromRun}})
+	if err != nil {
+		return err
+	}
+	if n, _ := res.RowsAffected(); n != int64(len(ids)) {
+		rows, err := c.QueryContext(bg, "SELECT star_id FROM carry_ids WHERE star_id NOT IN (SELECT star_id FROM verdicts WHERE run_id = ?) ORDER BY star_id LIMIT 1",
+			[]driver.NamedValue{{Ordinal: 1, Value: fromRun}})
+		if err != nil {
+			return err
+		}
+		dest := make([]driver.Value, 1)
+		missing := "?"
+		if rows.Next(dest) == nil {
+			missing = fmt.Sprint(dest[0])
+		}
+		rows.Close()
+		return fmt.Errorf("star %q has no verdict in run %d (%d of %d carried stars missing): %w",
+			missing, fromRun, int64(len(ids))-n, len(ids), ErrUnknownStar)
+	}
+	if _, err := c.ExecContext(bg, "UPDATE stars SET last_run = ? WHERE star_id IN (SELECT star_id FROM carry_ids)",
+		[]driver.NamedValue{{Ordinal: 1, Value: w.id}}); err != nil {
+		return err
+	}
+	return tx.Commit()
 }
 
 // Finish marks the run complete, stores its summary and releases the lock.
