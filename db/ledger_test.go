@@ -150,7 +150,8 @@ func TestRoundTripAndAudit(t *testing.T) {
 	if err := w.CarryForward(ctx, r1, []string{"A-2"}); err != nil {
 		t.Fatal(err)
 	}
-	if err := w.Finish(ctx, RunSummary{StarsTotal: 5, StarsComputed: 4, StarsCarried: 1}); err != nil {
+	if err := w.Finish(ctx, RunSummary{StarsTotal: 5, StarsComputed: 4, StarsCarried: 1,
+		Counts: map[string]int64{"accepted": 3, "rejected": 1, "withdrawn": 1, "bound": 0}}); err != nil {
 		t.Fatal(err)
 	}
 	r2 := w.ID()
@@ -482,6 +483,10 @@ func TestBadRecords(t *testing.T) {
 	err = w.Finish(ctx, RunSummary{StarsTotal: 3})
 	if !errors.Is(err, ErrSummary) || !strings.Contains(err.Error(), "stars_total is 3 but the ledger holds 1") {
 		t.Errorf("finish with wrong total: %v", err)
+	}
+	err = w.Finish(ctx, RunSummary{Counts: map[string]int64{"accepted": 2}})
+	if !errors.Is(err, ErrSummary) || !strings.Contains(err.Error(), "status counts") {
+		t.Errorf("finish with wrong counts: %v", err)
 	}
 }
 

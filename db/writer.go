@@ -403,7 +403,7 @@ func (w *RunWriter) Finish(ctx context.Context, s RunSummary) error {
 			return fmt.Errorf("ledger %s run %d: %s is %d but the ledger holds %d: %w", w.l.path, w.id, c.name, c.got, c.have, ErrSummary)
 		}
 	}
-	if s.Counts != nil && !maps.Equal(s.Counts, counts) {
+	if s.Counts != nil && !maps.Equal(nonZero(s.Counts), counts) {
 		return fmt.Errorf("ledger %s run %d: status counts %v but the ledger holds %v: %w", w.l.path, w.id, s.Counts, counts, ErrSummary)
 	}
 	// The pipeline may cap stored quarantine rows; its own total wins.
@@ -453,4 +453,15 @@ func (w *RunWriter) Fail(ctx context.Context, cause error) error {
 		return fmt.Errorf("ledger %s run %d: mark failed: %w", w.l.path, w.id, err)
 	}
 	return nil
+}
+
+// nonZero drops zero counts, which the ledger cannot hold.
+func nonZero(m map[string]int64) map[string]int64 {
+	out := make(map[string]int64, len(m))
+	for k, v := range m {
+		if v != 0 {
+			out[k] = v
+		}
+	}
+	return out
 }
