@@ -128,14 +128,41 @@ func Match(ctx context.Context, primary, secondary *catalog.Table, opt Options) 
 	if err := opt.normalize(); err != nil {
 		return nil, err
 	}
-	if err := checkTable(primary); err != nil {
+	res, c, err := findCandidates(ctx, primary, secondary, &opt)
+	if err != nil {
 		return nil, err
+	}
+	res.Matches, err = resolve(ctx, c.batches, c.order, primary.Len(), c.nPos, secondary.IDs, &opt, res.Prior, &res.Stats)
+	if err != nil {
+		return nil, err
+	}
+	for i, k := range c.keys { // rows without a position are not in order
+		if k < 0 {
+			res.Matches[i] = noMatch()
+		}
+	}
+	return res, nil
+}
+
+// candidateSet is what resolve needs from the search.
+type candidateSet struct {
+	batches [][]pair // see searchAll
+	order   []int32  // primary rows in query order
+	keys    []int32  // primary spatial keys (-1: no position)
+	nPos    int      // secondary rows in the index
+}
+
+// findCandidates validates, propagates, builds the index, estimates the
+// prior and finds every candidate pair; opt is normalised.
+func findCandidates(ctx context.Context, primary, secondary *catalog.Table, opt *Options) (*Result, *candidateSet, error) {
+	if err := checkTable(primary); err != nil {
+		return nil, nil, err
 	}
 	if err := checkTable(secondary); err != nil {
-		return nil, err
+		return nil, nil, err
 	}
 	if primary.Len() > math.MaxInt32 || secondary.Len() > math.MaxInt32 {
-		return nil, fmt.Errorf("match: more than %d rows", math.MaxInt32)
+		return nil, nil, fmt.Errorf("match: more than %d rows", math.MaxInt32)
 	}
 	res := &Result{}
 	st := &res.Stats
@@ -143,11 +170,11 @@ func Match(ctx context.Context, primary, secondary *catalog.Table, opt Options) 
 
 	p, err := prepare(ctx, primary, secondary.EpochJyr, true, opt.PrimaryPosErrMas, opt.Workers)
 	if err != nil {
-		return nil, err
+		return nil, nil, err
 	}
 	s, err := prepare(ctx, secondary, secondary.EpochJyr, false, opt.SecondaryPosErrMas, opt.Workers)
 	if err != nil {
-		return nil, err
+		return nil, nil, err
 	}
 	st.PrimaryNoPosition, st.SecondaryNoPosition = p.noPos, s.noPos
 	st.Propagated, st.NotPropagated = p.propagated, p.notPropagated
@@ -166,29 +193,20 @@ func Match(ctx context.Context, primary, secondary *catalog.Table, opt Options) 
 	ix, err := newIndex(ctx, s.pos, s.keys, opt.Workers)
 	<-done
 	if err != nil {
-		return nil, fmt.Errorf("match: catalog %q: %w", secondary.Name, err)
+		return nil, nil, fmt.Errorf("match: catalog %q: %w", secondary.Name, err)
 	}
 	st.OverlapCells, st.PrimaryInOverlap, st.SecondaryInOverlap = nc, n1, n2
 
-	batches, maxR, err := searchAll(ctx, ix, order, p, s, &opt)
+	batches, maxR, err := searchAll(ctx, ix, order, p, s, opt)
 	if err != nil {
-		return nil, err
+		return nil, nil, err
 	}
 	for _, ps := range batches {
 		st.CandidatePairs += len(ps)
 	}
 	st.MaxSearchRadiusArcsec = maxR / radPerArcsec
 
-	res.Matches, err = resolve(ctx, batches, order, primary.Len(), ix.Indexed(), secondary.IDs, &opt, res.Prior, st)
-	if err != nil {
-		return nil, err
-	}
-	for i, k := range p.keys { // rows without a position are not in order
-		if k < 0 {
-			res.Matches[i] = noMatch()
-		}
-	}
-	return res, nil
+	return res, &candidateSet{batches: batches, order: order, keys: p.keys, nPos: ix.Indexed()}, nil
 }
 
 func (o *Options) normalize() error {

@@ -241,6 +241,32 @@ func TestMatchAgainstBruteForce(t *testing.T) {
 			if res.Stats.CandidatePairs != len(wantPairs) {
 				t.Errorf("CandidatePairs = %d, brute force %d", res.Stats.CandidatePairs, len(wantPairs))
 			}
+			// The candidate sets themselves, pair by pair.
+			opt := c.opt
+			if err := opt.normalize(); err != nil {
+				t.Fatal(err)
+			}
+			_, cs, err := findCandidates(context.Background(), pt, st, &opt)
+			if err != nil {
+				t.Fatal(err)
+			}
+			var gotPairs []pair
+			for _, ps := range cs.batches {
+				for _, pr := range ps {
+					gotPairs = append(gotPairs, pair{i: pr.i, j: pr.j, sepRad: pr.sepRad, lnB: pr.lnB})
+				}
+			}
+			byRows := func(a, b pair) int { return cmp.Or(cmp.Compare(a.i, b.i), cmp.Compare(a.j, b.j)) }
+			slices.SortFunc(gotPairs, byRows)
+			slices.SortFunc(wantPairs, byRows)
+			if !slices.Equal(gotPairs, wantPairs) {
+				for k := range min(len(gotPairs), len(wantPairs)) {
+					if gotPairs[k] != wantPairs[k] {
+						t.Fatalf("candidate %d: %+v, brute force %+v", k, gotPairs[k], wantPairs[k])
+					}
+				}
+				t.Fatalf("%d candidates, brute force %d", len(gotPairs), len(wantPairs))
+			}
 			var matched, amb, multi int
 			for i := range want {
 				g, w := res.Matches[i], want[i]
