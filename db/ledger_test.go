@@ -639,3 +639,88 @@ func TestSchemaExamples(t *testing.T) {
 		})
 	}
 }
+
+func TestCrossingsAndPositions(t *testing.T) {
+	ctx := context.Background()
+	l := openT(t, tempLedger(t), Options{})
+	a := record("A", 1, 0, "accepted")
+	a.Crossings = []CrossingRow{{XKpc: 0.5, YKpc: -0.25, TMyr: 30}, {XKpc: 1, YKpc: 2, TMyr: 31}}
+	b := record("B", 2, 0, "rejected")
+	b.Inputs.Values[0], b.Inputs.Values[1] = 123.25, math.NaN() // ra, dec
+	r1 := writeRun(t, l, []StarRecord{a, b})
+	w, err := l.BeginRun(ctx, RunInfo{ToolVersion: "test"})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if err := w.AddStars(ctx, []StarRecord{record("B", 2, 1, "rejected")}); err != nil {
+		t.Fatal(err)
+	}
+	if err := w.CarryForward(ctx, r1, []string{"A"}); err != nil {
+		t.Fatal(err)
+	}
+	if err := w.Finish(ctx, RunSummary{}); err != nil {
+		t.Fatal(err)
+	}
+	var cs []string
+	if err := l.Crossings(ctx, w.ID(), func(c CrossingRow) error {
+		cs = append(cs, fmt.Sprint(c))
+		return nil
+	}); err != nil {
+		t.Fatal(err)
+	}
+	// A's crossings come from run 1, where it was computed.
+	if fmt.Sprint(cs) != "[{A 0.5 -0.25 30} {A 1 2 31}]" {
+		t.Errorf("crossings %v", cs)
+	}
+	var ps []string
+	if err := l.Positions(ctx, r1, func(id string, ra, dec float64) error {
+		ps = append(ps, fmt.Sprint(id, ra, dec))
+		return nil
+	}); err != nil {
+		t.Fatal(err)
+	}
+	// record() sets ra = i*0.001 + 0 + salt, dec = i*0.001 + 1 + salt.
+	if fmt.Sprint(ps) != "[A0.001 1.001 B123.25 NaN]" {
+		t.Errorf("positions %v", ps)
+	}
+}
+
+// A ledger at schema 1 is upgraded in place by a writable open and its
+// rows survive; a read-only open refuses it until then.
+func TestMigrateFromSchema1(t *testing.T) {
+	ctx := context.Background()
+	p := tempLedger(t)
+	sdb, err := sql.Open("sqlite3", p)
+	if err != nil {
+		t.Fatal(err)
+	}
+	m1 := loadMigrations()[0]
+	if _, err := sdb.Exec(m1.sql); err != nil {
+		t.Fatal(err)
+	}
+	if _, err := sdb.Exec("PRAGMA user_version = 1"); err != nil {
+		t.Fatal(err)
+	}
+	if _, err := sdb.Exec(`INSERT INTO runs (id, started_at, state, tool_version, seed, "full") VALUES (1, '2026-01-01T00:00:00Z', 'complete', 'old', 3, 0)`); err != nil {
+		t.Fatal(err)
+	}
+	sdb.Close()
+	if SchemaVersion() < 2 {
+		t.Skip("only one migration")
+	}
+	if _, err := Open(ctx, p, Options{ReadOnly: true}); !errors.Is(err, ErrNotLedger) || !strings.Contains(err.Error(), "has schema 1") {
+		t.Errorf("read-only open of schema 1: %v", err)
+	}
+	l := openT(t, p, Options{})
+	var v int
+	if err := l.db.QueryRow("PRAGMA user_version").Scan(&v); err != nil || v != SchemaVersion() {
+		t.Errorf("user_version %d, %v", v, err)
+	}
+	r, err := l.Run(ctx, 1)
+	if err != nil || r.ToolVersion != "old" || r.Seed != 3 {
+		t.Errorf("old run after upgrade: %+v, %v", r, err)
+	}
+	if err := l.Crossings(ctx, 1, func(CrossingRow) error { return nil }); err != nil {
+		t.Errorf("crossings table after upgrade: %v", err)
+	}
+}

@@ -311,3 +311,51 @@ func (l *Ledger) Quarantine(ctx context.Context, runID int64, fn func(Quarantine
 func sameValue(a, b float64) bool {
 	return a == b || (math.IsNaN(a) && math.IsNaN(b))
 }
+
+// Crossings calls fn for the plane crossings of every star of a run, taken
+// from each star's computing run, ordered by star id.
+func (l *Ledger) Crossings(ctx context.Context, runID int64, fn func(CrossingRow) error) error {
+	rows, err := l.db.QueryContext(ctx,
+		`SELECT v.star_id, c.x_kpc, c.y_kpc, c.t_myr FROM verdicts v
+		 JOIN crossings c ON c.run_id = v.computed_in_run AND c.star_id = v.star_id
+		 WHERE v.run_id = ? ORDER BY v.star_id, c.rowid`, runID)
+	if err != nil {
+		return fmt.Errorf("ledger %s run %d: crossings: %w", l.path, runID, err)
+	}
+	defer rows.Close()
+	for rows.Next() {
+		var c CrossingRow
+		if err := rows.Scan(&c.StarID, &c.XKpc, &c.YKpc, &c.TMyr); err != nil {
+			return fmt.Errorf("ledger %s run %d: crossings: %w", l.path, runID, err)
+		}
+		if err := fn(c); err != nil {
+			return err
+		}
+	}
+	return rows.Err()
+}
+
+// Positions calls fn with the ICRS position (deg, catalog epoch) of every
+// star of a run that has inputs in its computing run, ordered by star id.
+// Missing coordinates are NaN.
+func (l *Ledger) Positions(ctx context.Context, runID int64, fn func(starID string, raDeg, decDeg float64) error) error {
+	rows, err := l.db.QueryContext(ctx,
+		`SELECT v.star_id, i.ra, i.dec FROM verdicts v
+		 JOIN inputs i ON i.run_id = v.computed_in_run AND i.star_id = v.star_id
+		 WHERE v.run_id = ? ORDER BY v.star_id`, runID)
+	if err != nil {
+		return fmt.Errorf("ledger %s run %d: positions: %w", l.path, runID, err)
+	}
+	defer rows.Close()
+	for rows.Next() {
+		var id string
+		var ra, dec sql.NullFloat64
+		if err := rows.Scan(&id, &ra, &dec); err != nil {
+			return fmt.Errorf("ledger %s run %d: positions: %w", l.path, runID, err)
+		}
+		if err := fn(id, fv(ra), fv(dec)); err != nil {
+			return err
+		}
+	}
+	return rows.Err()
+}

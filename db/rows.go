@@ -167,6 +167,17 @@ type StarRecord struct {
 	Matches  []MatchRow
 	Verdict  VerdictRow
 	Reasons  []ReasonRow
+	// Crossings are back-traced crossings of the Galactic plane (computed
+	// stars only; StarID is taken from the record).
+	Crossings []CrossingRow
+}
+
+// CrossingRow is one back-traced crossing of the Galactic plane z = 0:
+// Galactocentric x, y in kpc and the time before now in Myr.
+type CrossingRow struct {
+	StarID     string // filled by readers
+	XKpc, YKpc float64
+	TMyr       float64
 }
 
 // PrevStar is what an incremental run needs about a star's last verdict.

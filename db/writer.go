@@ -138,7 +138,7 @@ func (w *RunWriter) validate(r *StarRecord) error {
 		return fmt.Errorf("star %q: empty status: %w", r.StarID, ErrBadRecord)
 	case r.Computed && r.Verdict.ComputedInRun != 0 && r.Verdict.ComputedInRun != w.id:
 		return fmt.Errorf("star %q: computed in this run (%d) but verdict says %d: %w", r.StarID, w.id, r.Verdict.ComputedInRun, ErrBadRecord)
-	case !r.Computed && (r.Inputs != nil || len(r.Matches) > 0 || len(r.Reasons) > 0):
+	case !r.Computed && (r.Inputs != nil || len(r.Matches) > 0 || len(r.Reasons) > 0 || len(r.Crossings) > 0):
 		return fmt.Errorf("star %q: not computed in this run but carries inputs, matches or reasons (they live in its computing run): %w", r.StarID, ErrBadRecord)
 	case !r.Computed && (r.Verdict.ComputedInRun <= 0 || r.Verdict.ComputedInRun >= w.id):
 		return fmt.Errorf("star %q: not computed in this run, so computed_in_run must name an earlier run (got %d): %w", r.StarID, r.Verdict.ComputedInRun, ErrBadRecord)
@@ -208,7 +208,8 @@ func (w *RunWriter) writeStars(c *sqlite3.SQLiteConn, batch []StarRecord) error 
 	matches := newBulk(c, "matches", "INSERT INTO matches (run_id, star_id, catalog, source_id, sep_arcsec, match_prob, candidates, ambiguous) VALUES", 8, "")
 	verdicts := newBulk(c, "verdicts", "INSERT INTO verdicts ("+verdictCols+") VALUES", 21, "")
 	reasons := newBulk(c, "reasons", "INSERT INTO reasons (run_id, star_id, rule_id, outcome, severity, value, threshold, message) VALUES", 8, "")
-	all := []*bulk{stars, inputs, matches, verdicts, reasons}
+	crossings := newBulk(c, "crossings", "INSERT INTO crossings (run_id, star_id, x_kpc, y_kpc, t_myr) VALUES", 5, "")
+	all := []*bulk{stars, inputs, matches, verdicts, reasons, crossings}
 	defer func() {
 		for _, b := range all {
 			b.close()
@@ -241,6 +242,11 @@ func (w *RunWriter) writeStars(c *sqlite3.SQLiteConn, batch []StarRecord) error 
 			for _, m := range r.Matches {
 				if err := matches.add(sid, id, sid, m.Catalog, dvs(m.SourceID), dvf(m.SepArcsec), dvf(m.MatchProb),
 					int64(m.Candidates), b2i(m.Ambiguous)); err != nil {
+					return err
+				}
+			}
+			for _, x := range r.Crossings {
+				if err := crossings.add(sid, id, sid, x.XKpc, x.YKpc, x.TMyr); err != nil {
 					return err
 				}
 			}
