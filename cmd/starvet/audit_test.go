@@ -5,6 +5,7 @@ import (
 	"context"
 	"encoding/csv"
 	"encoding/json"
+	"errors"
 	"math"
 	"path/filepath"
 	"strings"
@@ -58,6 +59,19 @@ func auditLedger(t *testing.T) string {
 		}
 		return w.ID()
 	}
+	defer func() {
+		// A third run that fails after one batch: runs must show what it wrote.
+		w, err := l.BeginRun(ctx, db.RunInfo{ToolVersion: "test"})
+		if err != nil {
+			t.Fatal(err)
+		}
+		if err := w.AddStars(ctx, []db.StarRecord{star("HV-009", 1, "rejected")}); err != nil {
+			t.Fatal(err)
+		}
+		if err := w.Fail(ctx, errors.New("disk full (invented)")); err != nil {
+			t.Fatal(err)
+		}
+	}()
 	hostile := "'); DROP TABLE runs; --"
 	r1 := write([]db.StarRecord{star("Ωμέγα-星-7", math.NaN(), "rejected"), star("HV-002", math.NaN(), "accepted"), star(hostile, 1, "rejected")}, nil, 0)
 	write([]db.StarRecord{star("Ωμέγα-星-7", 705.25, "accepted"), star("HV-003", 1, "rejected"), star(hostile, 1, "accepted")}, []string{"HV-002"}, r1)
@@ -116,7 +130,8 @@ func TestAuditCommands(t *testing.T) {
 		{"list run 1", []string{"list", "--ledger", p, "--run", "1", "--status", "accepted"}, 0, []string{"HV-002", "in run 1"}, []string{"Ωμέγα"}},
 		{"list bad flag", []string{"list", "--ledger", p, "--run", "x"}, 2, []string{"invalid value"}, nil},
 		{"list csv json", []string{"list", "--ledger", p, "--csv", "--json"}, 2, []string{"exclude each other"}, nil},
-		{"runs", []string{"runs", "--ledger", p}, 0, []string{"complete", "accepted=1 rejected=2", "accepted=3 rejected=1", "3/1"}, nil},
+		{"runs", []string{"runs", "--ledger", p}, 0, []string{"complete", "accepted=1 rejected=2", "accepted=3 rejected=1", "3/1",
+			"failed", "rejected=1", "note: disk full (invented)"}, nil},
 		{"runs args", []string{"runs", "--ledger", p, "extra"}, 2, []string{"no arguments"}, nil},
 	}
 	for _, tc := range tests {
@@ -241,7 +256,7 @@ func TestAuditJSONAndCSV(t *testing.T) {
 		if err := json.Unmarshal([]byte(out), &runs); err != nil {
 			t.Fatalf("%v\n%s", err, out)
 		}
-		if len(runs) != 2 || runs[1].State != "complete" || runs[1].StarsCarried != 1 || runs[1].Counts["accepted"] != 3 {
+		if len(runs) != 3 || runs[2].State != "failed" || runs[1].State != "complete" || runs[1].StarsCarried != 1 || runs[1].Counts["accepted"] != 3 {
 			t.Errorf("runs %+v", runs)
 		}
 	})

@@ -184,6 +184,20 @@ func runRuns(ctx context.Context, env *Env, args []string) error {
 	if err != nil {
 		return err
 	}
+	// A running or failed run has no summary; count what it wrote so far.
+	for i := range runs {
+		if runs[i].Counts != nil {
+			continue
+		}
+		c, err := l.StatusCounts(ctx, runs[i].ID)
+		if err != nil {
+			return err
+		}
+		runs[i].Counts = c
+		for _, n := range c {
+			runs[i].StarsTotal += n
+		}
+	}
 	if af.json {
 		out := make([]runJSON, len(runs))
 		for i, r := range runs {
