@@ -502,17 +502,16 @@ func resolve(ctx context.Context, batches [][]pair, order []int32, n1, nPos int,
 	post := newPosterior(p0)
 	out := make([]Counterpart, n1)
 	none := noMatch()
-	// Primaries per secondary (by index position), as CSR.
-	secStart := make([]int32, nPos+1)
-	for _, ps := range batches {
-		for k := range ps {
-			secStart[ps[k].pos+1]++
+	// Number of primaries per secondary (by index position).
+	secCount := make([]int32, nPos)
+	if err := parallelBatches(ctx, len(batches), opt.Workers, func(b int) {
+		for k := range batches[b] {
+			atomic.AddInt32(&secCount[batches[b][k].pos], 1)
 		}
+	}); err != nil {
+		return nil, err
 	}
-	for q := 1; q <= nPos; q++ {
-		secStart[q] += secStart[q-1]
-	}
-	nSec := func(pos int32) int32 { return secStart[pos+1] - secStart[pos] }
+	nSec := func(pos int32) int32 { return secCount[pos] }
 
 	// A pair alone in its connected component of the candidate graph is
 	// accepted directly (below); the greedy over the rest gives the same
@@ -523,17 +522,21 @@ func resolve(ctx context.Context, batches [][]pair, order []int32, n1, nPos int,
 		i, j int32
 		ref  pairRef
 	}
-	var hard []hardPair
-	var shared bool
-	for b, ps := range batches {
+	hardOf := make([][]hardPair, len(batches))
+	if err := parallelBatches(ctx, len(batches), opt.Workers, func(b int) {
+		ps := batches[b]
 		for k := range ps {
-			pr := &ps[k]
-			if pr.nc > 1 || nSec(pr.pos) > 1 {
-				hard = append(hard, hardPair{pr.lnB, pr.i, pr.j, pairRef{int32(b), int32(k)}})
-				shared = shared || nSec(pr.pos) > 1
+			if pr := &ps[k]; pr.nc > 1 || nSec(pr.pos) > 1 {
+				hardOf[b] = append(hardOf[b], hardPair{pr.lnB, pr.i, pr.j, pairRef{int32(b), int32(k)}})
 			}
 		}
+	}); err != nil {
+		return nil, err
 	}
+	hard := slices.Concat(hardOf...)
+	shared := slices.ContainsFunc(hard, func(h hardPair) bool {
+		return nSec(batches[h.ref.b][h.ref.k].pos) > 1
+	})
 	// Pairs of the secondaries that several primaries share (rare outside
 	// crowded fields), by index position.
 	var secPairs map[int32][]pairRef
