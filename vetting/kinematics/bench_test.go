@@ -147,3 +147,19 @@ func BenchmarkStar(b *testing.B) {
 		})
 	}
 }
+
+// BenchmarkPercentiles: the 16/50/84 selection on 1000 draws.
+func BenchmarkPercentiles(b *testing.B) {
+	rnd := rand.New(rand.NewPCG(1, 2))
+	a := make([]float64, 1000)
+	c := make([]float64, 1000)
+	for i := range a {
+		a[i] = rnd.NormFloat64()
+	}
+	cpu0 := cpuTime()
+	for b.Loop() {
+		copy(c, a)
+		percentiles(c)
+	}
+	b.ReportMetric(float64((cpuTime()-cpu0).Nanoseconds())/float64(b.N), "cpu-ns/op")
+}

@@ -605,14 +605,22 @@ func TestEvaluateAllCancelled(t *testing.T) {
 // percentiles against a sort-based reference of Hyndman & Fan definition 7.
 func TestPercentiles(t *testing.T) {
 	rnd := rand.New(rand.NewPCG(11, 12))
-	for _, n := range []int{1, 2, 3, 10, 11, 100, 1000, 1001} {
-		for _, dup := range []bool{false, true} {
-			t.Run(fmt.Sprint(n, dup), func(t *testing.T) {
+	for _, n := range []int{1, 2, 3, 10, 11, 100, 601, 602, 1000, 1001, 5000} {
+		for _, kind := range []string{"normal", "duplicates", "constant", "sorted", "reversed"} {
+			t.Run(fmt.Sprint(n, kind), func(t *testing.T) {
 				a := make([]float64, n)
 				for i := range a {
-					a[i] = rnd.NormFloat64()
-					if dup {
-						a[i] = math.Round(a[i] * 2)
+					switch kind {
+					case "normal":
+						a[i] = rnd.NormFloat64()
+					case "duplicates":
+						a[i] = math.Round(rnd.NormFloat64() * 2)
+					case "constant":
+						a[i] = 3
+					case "sorted":
+						a[i] = float64(i)
+					case "reversed":
+						a[i] = float64(-i)
 					}
 				}
 				s := slices.Clone(a)
@@ -631,5 +639,8 @@ func TestPercentiles(t *testing.T) {
 				}
 			})
 		}
+	}
+	if got := percentiles([]float64{1, math.NaN(), 2}); !math.IsNaN(got[1]) {
+		t.Errorf("NaN input gave %v", got)
 	}
 }
