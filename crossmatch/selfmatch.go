@@ -35,28 +35,30 @@ func SelfMatch(ctx context.Context, t *catalog.Table, radiusArcsec float64, work
 	if err != nil {
 		return nil, fmt.Errorf("self-match: catalog %q: %w", t.Name, err)
 	}
-	n := t.Len()
-	counts := make([]int32, n)
+	counts := make([]int32, t.Len())
+	for i := range counts {
+		if math.IsNaN(ra[i]) || math.IsNaN(dec[i]) {
+			counts[i] = -1
+		}
+	}
 	radiusRad := radiusArcsec * radPerArcsec
-	nb := (n + batchRows - 1) / batchRows
 	if workers <= 0 {
 		workers = runtime.GOMAXPROCS(0)
 	}
-	err = parallelBatches(ctx, nb, workers, func(b int) {
-		var buf []Neighbor
-		for i := b * batchRows; i < min(n, (b+1)*batchRows); i++ {
-			if math.IsNaN(ra[i]) || math.IsNaN(dec[i]) {
-				counts[i] = -1
-				continue
-			}
-			buf = ix.Within(ra[i], dec[i], radiusArcsec/arcsecPerDeg, buf[:0])
+	// Query in the index's own (spatial) order, for cache locality.
+	m := ix.Indexed()
+	err = parallelBatches(ctx, (m+batchRows-1)/batchRows, workers, func(b int) {
+		var buf []hit
+		for p := b * batchRows; p < min(m, (b+1)*batchRows); p++ {
+			q := ix.pts[p]
+			buf = ix.within(q.raDeg, q.decDeg, radiusArcsec/arcsecPerDeg, buf[:0])
 			c := int32(0)
-			for _, nb := range buf {
-				if int(nb.Row) != i && nb.SepRad < radiusRad {
+			for _, h := range buf {
+				if int(h.pos) != p && h.sepRad < radiusRad {
 					c++
 				}
 			}
-			counts[i] = c
+			counts[ix.row[p]] = c
 		}
 	})
 	if err != nil {
