@@ -24,6 +24,7 @@ type worker struct {
 	speed, rgc, vrad, vtan, vesc []float64
 	table                        edsdTable
 	esc                          losEscape
+	exactEscape                  bool // never tabulate the escape speed (for tests)
 }
 
 // The escape-speed table along the line of sight (losEscape) is used when a
@@ -248,7 +249,7 @@ func (w *worker) evaluate(s *Star, set *Settings, p potential.Potential, r *Resu
 		dMin, dMax = math.Min(dMin, d), math.Max(dMax, d)
 	}
 	w.esc.ok = false
-	if kept >= losMinDraws {
+	if kept >= losMinDraws && !w.exactEscape {
 		w.esc.build(p, &los, dMin, dMax, set.EscapeRadiusKpc, kept/losDrawsPerCell)
 	}
 	unbound := 0

@@ -72,6 +72,7 @@ func TestLineOfSightEscapeTableUse(t *testing.T) {
 			used++
 		}
 	}
+	t.Logf("table used for %d of 200 stars", used)
 	if used < 190 {
 		t.Errorf("table used for %d of 200 stars", used)
 	}
@@ -80,5 +81,34 @@ func TestLineOfSightEscapeTableUse(t *testing.T) {
 	w.evaluate(&s, &set, milkyWayBench(), &r)
 	if w.esc.ok {
 		t.Error("table built for a single distance")
+	}
+}
+
+// Whole results with the table and with exact escape speeds agree: escape
+// speeds within 2e-4 km/s, p_unbound to a draw or so.
+func TestLineOfSightEscapeTableResults(t *testing.T) {
+	stars := benchStars(300)
+	set := testSettings()
+	set.EscapeRadiusKpc = 80
+	var fast, exact worker
+	exact.exactEscape = true
+	flips := 0
+	for i := range stars {
+		var a, b Result
+		fast.evaluate(&stars[i], &set, milkyWayBench(), &a)
+		exact.evaluate(&stars[i], &set, milkyWayBench(), &b)
+		for k := range 3 {
+			if d := math.Abs(a.VEscKms[k] - b.VEscKms[k]); d > 2*vescTolKms || math.IsNaN(d) {
+				t.Fatalf("star %s: v_esc %v vs exact %v", stars[i].ID, a.VEscKms, b.VEscKms)
+			}
+		}
+		pa, pb := a.PUnbound, b.PUnbound
+		if !a.HasRV {
+			pa, pb = a.PUnboundLower, b.PUnboundLower
+		}
+		flips += int(math.Round(math.Abs(pa-pb) * float64(a.Samples)))
+	}
+	if flips > 3 {
+		t.Errorf("%d draws changed bound/unbound over 300 stars", flips)
 	}
 }
