@@ -39,7 +39,7 @@ func bigFixture(n int) *fakeSource {
 			if st == "unbound" && traced < 100 {
 				traced++
 				for range 200 {
-					f.crossings[2] = append(f.crossings[2], CrossingRow{StarID: id, XKpc: rng.NormFloat64(), YKpc: rng.NormFloat64(), TMyr: 50})
+					f.crossings[2] = append(f.crossings[2], db.CrossingRow{StarID: id, XKpc: rng.NormFloat64(), YKpc: rng.NormFloat64(), TMyr: 50})
 				}
 			}
 		}

@@ -9,17 +9,15 @@ import (
 	"starvet/db"
 )
 
-// fakeSource is a ledger of known content; it implements Source,
-// PositionSource and CrossingSource.
+// fakeSource is a ledger of known content.
 type fakeSource struct {
 	runs      []db.Run
 	catalogs  map[int64][]db.CatalogRow
-	verdicts  map[int64][]db.VerdictRow // by run, in star id order
-	reasons   map[string][]db.ReasonRow // key "run/star"
-	positions map[string][2]float64     // star -> ra, dec (deg)
-	crossings map[int64][]CrossingRow   // by computing run
-	failOn    string                    // method name that returns errBoom
-	noPos     bool
+	verdicts  map[int64][]db.VerdictRow  // by run, in star id order
+	reasons   map[string][]db.ReasonRow  // key "run/star"
+	positions map[string][2]float64      // star -> ra, dec (deg)
+	crossings map[int64][]db.CrossingRow // by computing run
+	failOn    string                     // method name that returns errBoom
 }
 
 var errBoom = fmt.Errorf("fake source failure")
@@ -71,9 +69,6 @@ func (f *fakeSource) Reasons(ctx context.Context, runID int64, starID string) ([
 }
 
 func (f *fakeSource) Positions(ctx context.Context, runID int64, fn func(string, float64, float64) error) error {
-	if f.noPos {
-		return nil
-	}
 	for _, v := range f.verdicts[runID] {
 		if p, ok := f.positions[v.StarID]; ok {
 			if err := fn(v.StarID, p[0], p[1]); err != nil {
@@ -84,13 +79,20 @@ func (f *fakeSource) Positions(ctx context.Context, runID int64, fn func(string,
 	return nil
 }
 
-func (f *fakeSource) Crossings(ctx context.Context, runID int64, fn func(CrossingRow) error) error {
+// Crossings follows db.Ledger: the crossings of each star of runID as
+// stored by the run that computed its verdict, by star.
+func (f *fakeSource) Crossings(ctx context.Context, runID int64, fn func(db.CrossingRow) error) error {
 	if f.failOn == "Crossings" {
 		return errBoom
 	}
-	for _, c := range f.crossings[runID] {
-		if err := fn(c); err != nil {
-			return err
+	for _, v := range f.verdicts[runID] {
+		for _, c := range f.crossings[v.ComputedInRun] {
+			if c.StarID != v.StarID {
+				continue
+			}
+			if err := fn(c); err != nil {
+				return err
+			}
 		}
 	}
 	return nil
@@ -142,7 +144,7 @@ func fixture(model string) *fakeSource {
 		}},
 		reasons:   map[string][]db.ReasonRow{},
 		positions: map[string][2]float64{},
-		crossings: map[int64][]CrossingRow{},
+		crossings: map[int64][]db.CrossingRow{},
 	}
 	var vs []db.VerdictRow
 	add := func(v db.VerdictRow) { vs = append(vs, v) }
@@ -193,13 +195,13 @@ func fixture(model string) *fakeSource {
 		f.positions[v.StarID] = [2]float64{float64(i) * 21.7, -60 + float64(i)*7.3}
 		i++
 	}
-	f.crossings[2] = []CrossingRow{
+	f.crossings[2] = []db.CrossingRow{
 		{StarID: "U1", XKpc: 0.1, YKpc: -0.2, TMyr: 50}, {StarID: "U1", XKpc: 0.3, YKpc: 0.1, TMyr: 52}, {StarID: "U1", XKpc: -0.5, YKpc: 0.4, TMyr: 56},
 		{StarID: "U2", XKpc: 2, YKpc: 1, TMyr: 40}, {StarID: "U2", XKpc: nan, YKpc: 1, TMyr: 41},
 		{StarID: "M1", XKpc: -11, YKpc: 4, TMyr: 38},
 		{StarID: "U3", XKpc: 9, YKpc: 9, TMyr: 1}, // U3 was computed in run 1: ignored here
 	}
-	f.crossings[1] = []CrossingRow{
+	f.crossings[1] = []db.CrossingRow{
 		{StarID: "U3", XKpc: 0.2, YKpc: 0.2, TMyr: 60}, {StarID: "U3", XKpc: -0.1, YKpc: 0.3, TMyr: 61},
 		{StarID: "B1", XKpc: 5, YKpc: 5, TMyr: 10}, // B1's verdict in run 2 was computed in run 2: ignored
 		{StarID: "ZZ", XKpc: 1, YKpc: 1, TMyr: 10}, // not in run 2

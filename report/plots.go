@@ -284,10 +284,7 @@ func skyPlot(d *data) (*PlotSummary, []byte, error) {
 		}
 		ps.Points[st] = len(pts[st])
 	}
-	switch {
-	case !d.havePos:
-		ps.Note = "This ledger gives no star positions, so the map is empty."
-	case ps.Omitted > 0:
+	if ps.Omitted > 0 {
 		ps.Note = fmt.Sprintf("Not drawn: %d star(s) without a stored position.", ps.Omitted)
 	}
 	ps.Note = "Longitude l increases to the left, l = 0 at the centre; graticule every 60° in l and 30° in b. " + ps.Note
@@ -477,11 +474,8 @@ func crossingPlot(d *data) (*PlotSummary, []byte, error) {
 		sunText += " (starvet's default Solar distance; the ledger does not record the run's)"
 	}
 	ps.Note = gcText + " " + sunText + "."
-	switch {
-	case !d.haveCross:
-		ps.Note += " This ledger gives no crossings, so none are drawn."
-	case len(d.crossings) == 0:
-		ps.Note += " No star of this run was traced back."
+	if len(d.crossings) == 0 {
+		ps.Note += " The ledger holds no crossings for the stars of this run (none was traced back, or the run predates the crossings table)."
 	}
 	if ps.Omitted > 0 {
 		ps.Note += fmt.Sprintf(" Not drawn: %d crossing(s) with a missing coordinate.", ps.Omitted)

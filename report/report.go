@@ -92,10 +92,8 @@ type data struct {
 	reasons    []reasonCount
 	reasonErrs int // rejected stars whose reasons were not found
 	models     []string
-	crossings  []CrossingRow
+	crossings  []db.CrossingRow
 	crossStat  []string // status of each crossing's star
-	haveCross  bool
-	havePos    bool
 	opt        Options
 	gcDefault  bool
 	sunDefault bool
@@ -198,25 +196,19 @@ func gather(ctx context.Context, src Source, runID int64, opt Options) (*data, e
 	if err := d.gatherReasons(ctx, src); err != nil {
 		return nil, err
 	}
-	if ps, ok := src.(PositionSource); ok {
-		d.havePos = true
-		err := ps.Positions(ctx, d.run.ID, func(id string, ra, dec float64) error {
-			i, ok := index[id]
-			if !ok || math.IsNaN(ra) || math.IsNaN(dec) {
-				return nil
-			}
-			d.stars[i].hasPos, d.stars[i].raDeg, d.stars[i].decDeg = true, ra, dec
+	err = src.Positions(ctx, d.run.ID, func(id string, ra, dec float64) error {
+		i, ok := index[id]
+		if !ok || math.IsNaN(ra) || math.IsNaN(dec) {
 			return nil
-		})
-		if err != nil {
-			return nil, fmt.Errorf("report: positions: %w", err)
 		}
+		d.stars[i].hasPos, d.stars[i].raDeg, d.stars[i].decDeg = true, ra, dec
+		return nil
+	})
+	if err != nil {
+		return nil, fmt.Errorf("report: %w", err)
 	}
-	if cs, ok := src.(CrossingSource); ok {
-		d.haveCross = true
-		if err := d.gatherCrossings(ctx, cs, index); err != nil {
-			return nil, err
-		}
+	if err := d.gatherCrossings(ctx, src, index); err != nil {
+		return nil, err
 	}
 	return d, nil
 }
@@ -270,37 +262,20 @@ func (d *data) gatherReasons(ctx context.Context, src Source) error {
 	return nil
 }
 
-// gatherCrossings asks for the crossings of every run that computed a
-// verdict of this run and keeps those of stars whose verdict that run
-// computed, so a carried-forward star contributes its crossings once.
-func (d *data) gatherCrossings(ctx context.Context, cs CrossingSource, index map[string]int) error {
-	runs := map[int64]bool{}
-	for i := range d.stars {
-		runs[d.stars[i].ComputedInRun] = true
-	}
-	ids := make([]int64, 0, len(runs))
-	for r := range runs {
-		ids = append(ids, r)
-	}
-	sort.Slice(ids, func(i, j int) bool { return ids[i] < ids[j] })
-	var all []CrossingRow
-	for _, run := range ids {
-		err := cs.Crossings(ctx, run, func(c CrossingRow) error {
-			i, ok := index[c.StarID]
-			if !ok || d.stars[i].ComputedInRun != run {
-				return nil
-			}
-			all = append(all, c)
-			return nil
-		})
-		if err != nil {
-			return fmt.Errorf("report: crossings of run %d: %w", run, err)
+// gatherCrossings keeps the crossings of the run's stars, ordered by star
+// and then as the source gave them.
+func (d *data) gatherCrossings(ctx context.Context, src Source, index map[string]int) error {
+	err := src.Crossings(ctx, d.run.ID, func(c db.CrossingRow) error {
+		if _, ok := index[c.StarID]; ok {
+			d.crossings = append(d.crossings, c)
 		}
+		return nil
+	})
+	if err != nil {
+		return fmt.Errorf("report: %w", err)
 	}
-	// By star, then in the order the source gave them.
-	sort.SliceStable(all, func(i, j int) bool { return all[i].StarID < all[j].StarID })
-	d.crossings = all
-	for _, c := range all {
+	sort.SliceStable(d.crossings, func(i, j int) bool { return d.crossings[i].StarID < d.crossings[j].StarID })
+	for _, c := range d.crossings {
 		d.crossStat = append(d.crossStat, d.stars[index[c.StarID]].Status)
 	}
 	return nil

@@ -254,7 +254,7 @@ func TestErrors(t *testing.T) {
 		{"no such run", fixture("x"), 9, db.ErrNoRun, "no run 9"},
 		{"no complete run", &fakeSource{}, 0, ErrNoRun, "no complete run"},
 		{"reasons fail", func() *fakeSource { f := fixture("x"); f.failOn = "Reasons"; return f }(), 2, errBoom, `star "R1"`},
-		{"crossings fail", func() *fakeSource { f := fixture("x"); f.failOn = "Crossings"; return f }(), 2, errBoom, "crossings of run 1"},
+		{"crossings fail", func() *fakeSource { f := fixture("x"); f.failOn = "Crossings"; return f }(), 2, errBoom, "fake source failure"},
 		{"run fails", func() *fakeSource { f := fixture("x"); f.failOn = "Run"; return f }(), 2, errBoom, "fake source failure"},
 	}
 	for _, c := range cases {
@@ -279,17 +279,14 @@ func TestErrors(t *testing.T) {
 	}
 }
 
-func TestWithoutOptionalSources(t *testing.T) {
-	// A Source without positions or crossings still gives a page that says
-	// what is missing.
-	type bare struct{ Source }
-	dir := t.TempDir()
-	s, err := Write(context.Background(), bare{fixture(potential.DefaultModel)}, 2, dir, Options{})
-	if err != nil {
-		t.Fatal(err)
-	}
+func TestNoPositionsNoCrossings(t *testing.T) {
+	// A ledger without positions or crossings (e.g. a run from before the
+	// crossings table) still gives a page that says what is missing.
+	f := fixture(potential.DefaultModel)
+	f.positions, f.crossings = nil, nil
+	dir, s := writeFixture(t, f, 2, Options{})
 	page := string(readFile(t, s.Index))
-	for _, want := range []string{"gives no star positions", "gives no crossings"} {
+	for _, want := range []string{"Not drawn: 17 star(s) without a stored position", "holds no crossings for the stars of this run"} {
 		if !strings.Contains(page, want) {
 			t.Errorf("page lacks %q", want)
 		}
@@ -298,7 +295,7 @@ func TestWithoutOptionalSources(t *testing.T) {
 		svg := readFile(t, filepath.Join(dir, f))
 		for _, st := range tableOrder {
 			if n := markers(svg, st); n != 0 {
-				t.Errorf("%s: %d %s markers without the source, want 0", f, n, st)
+				t.Errorf("%s: %d %s markers without data, want 0", f, n, st)
 			}
 		}
 	}
