@@ -505,6 +505,10 @@ func applyKinematics(rec *db.StarRecord, r *kinematics.Result, t *orbit.TraceRes
 	}
 	if t != nil {
 		v.Origin, v.PGCOrigin, v.GCConsistency, v.FlightTimeMyr = t.Origin, t.PGCOrigin, t.GCConsistency, t.FlightTimeMyr
+		rec.Crossings = make([]db.CrossingRow, len(t.Crossings))
+		for i, c := range t.Crossings {
+			rec.Crossings[i] = db.CrossingRow{XKpc: c.XKpc, YKpc: c.YKpc, TMyr: c.TMyr}
+		}
 		reason("kinematics.origin", "info", t.GCConsistency, "<= 0.95",
 			"origin %s: the centre lies at containment level %.3f of the plane crossings (%d of %d samples crossed within %g Myr; %.2f within %g kpc of the centre; flight time %.0f Myr)",
 			t.Origin, t.GCConsistency, len(t.Crossings), t.Samples, k.TraceMyr, t.PGCOrigin, k.GCRadiusKpc, t.FlightTimeMyr)
