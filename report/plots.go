@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"image/color"
 	"math"
+	"strconv"
 
 	"gonum.org/v1/plot"
 	"gonum.org/v1/plot/plotter"
@@ -164,12 +165,44 @@ func speedPlot(d *data) (*PlotSummary, []byte, error) {
 	p.X.Min, p.X.Max = rLo, rHi
 	// Head room above the data for the legend in the top right corner.
 	p.Y.Min, p.Y.Max = 0, 1.3*math.Max(p.Y.Max, 100)
+	p.Y.Tick.Marker = linearTicks{}
 	for _, st := range sortStatuses(boolKeys(omitted)) {
 		ps.Omitted += omitted[st]
 		ps.Note += fmt.Sprintf(" Not drawn: %d %s star(s) without a full speed.", omitted[st], st)
 	}
 	svg, err := toSVG(p, 7.5*vg.Inch, 5.2*vg.Inch)
 	return ps, svg, err
+}
+
+// linearTicks labels round steps (1, 2 or 5 times a power of ten) with
+// about five to ten labelled ticks and four minor ticks between them.
+type linearTicks struct{}
+
+func (linearTicks) Ticks(lo, hi float64) []plot.Tick {
+	if !(hi > lo) {
+		return nil
+	}
+	raw := (hi - lo) / 6
+	mag := math.Pow(10, math.Floor(math.Log10(raw)))
+	step := mag
+	for _, m := range []float64{1, 2, 5, 10} {
+		if m*mag >= raw {
+			step = m * mag
+			break
+		}
+	}
+	decimals := max(0, int(-math.Floor(math.Log10(step)+1e-9)))
+	var ts []plot.Tick
+	minor := step / 5
+	for k := math.Ceil(lo / minor); k*minor <= hi; k++ {
+		v := k * minor
+		t := plot.Tick{Value: v}
+		if math.Abs(math.Remainder(v, step)) < minor/100 {
+			t.Label = strconv.FormatFloat(v, 'f', decimals, 64)
+		}
+		ts = append(ts, t)
+	}
+	return ts
 }
 
 func boolKeys(m map[string]int) map[string]bool {
@@ -300,7 +333,7 @@ const pUnboundBins = 20
 // radial velocity, stacked by status.
 func pUnboundPlot(d *data) (*PlotSummary, []byte, error) {
 	ps := &PlotSummary{File: "p_unbound.svg", Title: "Probability of being unbound (stars with a radial velocity)", Points: map[string]int{}}
-	p := newPlot(ps.Title, "p_unbound", "stars per bin")
+	p := newPlot(ps.Title, "p_unbound", "stars per bin (logarithmic)")
 	h := &stackedHist{counts: map[string][]int{}}
 	present := map[string]bool{}
 	for i := range d.stars {
@@ -332,8 +365,11 @@ func pUnboundPlot(d *data) (*PlotSummary, []byte, error) {
 		}
 		p.Legend.Add(fmt.Sprintf("%s (%d)", st, n), histThumb{st})
 	}
+	// Logarithmic counts: the bins near 0 and 1 hold most stars and would
+	// hide the few in between. Bars start at histFloor.
+	p.Y.Scale, p.Y.Tick.Marker = plot.LogScale{}, plot.LogTicks{Prec: -1}
 	p.X.Min, p.X.Max = 0, 1
-	p.Y.Min = 0
+	p.Y.Min = histFloor
 	if ps.Omitted > 0 {
 		ps.Note = fmt.Sprintf("Not drawn: %d star(s) with a radial velocity but no p_unbound.", ps.Omitted)
 	}
@@ -341,6 +377,9 @@ func pUnboundPlot(d *data) (*PlotSummary, []byte, error) {
 	svg, err := toSVG(p, 7*vg.Inch, 4.2*vg.Inch)
 	return ps, svg, err
 }
+
+// histFloor is where the bars start on the logarithmic count axis.
+const histFloor = 0.5
 
 // stackedHist draws per-bin bars stacked in status order; each non-empty
 // (bin, status) cell is one filled rectangle.
@@ -359,9 +398,10 @@ func (h *stackedHist) Plot(c draw.Canvas, p *plot.Plot) {
 			if n == 0 {
 				continue
 			}
+			y0 := trY(math.Max(float64(base), histFloor))
 			var r vg.Path
-			r.Move(vg.Point{X: trX(x0), Y: trY(float64(base))})
-			r.Line(vg.Point{X: trX(x1), Y: trY(float64(base))})
+			r.Move(vg.Point{X: trX(x0), Y: y0})
+			r.Line(vg.Point{X: trX(x1), Y: y0})
 			r.Line(vg.Point{X: trX(x1), Y: trY(float64(base + n))})
 			r.Line(vg.Point{X: trX(x0), Y: trY(float64(base + n))})
 			r.Close()
@@ -369,8 +409,8 @@ func (h *stackedHist) Plot(c draw.Canvas, p *plot.Plot) {
 			c.Fill(r)
 			// The status's shape in white inside the bar, so colour is not
 			// the only cue; white fills are not counted as bars.
-			ctr := vg.Point{X: (trX(x0) + trX(x1)) / 2, Y: (trY(float64(base)) + trY(float64(base+n))) / 2}
-			if g := histGlyph(st); trY(float64(base+n))-trY(float64(base)) > 2*g.Radius+2 {
+			ctr := vg.Point{X: (trX(x0) + trX(x1)) / 2, Y: (y0 + trY(float64(base+n))) / 2}
+			if g := histGlyph(st); trY(float64(base+n))-y0 > 2*g.Radius+2 {
 				c.DrawGlyph(g, ctr)
 			}
 			base += n
@@ -387,8 +427,8 @@ func (h *stackedHist) DataRange() (xmin, xmax, ymin, ymax float64) {
 		}
 		top = max(top, s)
 	}
-	// Head room for the legend.
-	return 0, 1, 0, math.Max(1, float64(top)*1.4)
+	// Head room for the legend (a factor on the logarithmic axis).
+	return 0, 1, histFloor, math.Max(10, float64(top)*4)
 }
 
 func histGlyph(status string) draw.GlyphStyle {

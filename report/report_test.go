@@ -4,6 +4,7 @@ import (
 	"bytes"
 	"context"
 	"errors"
+	"fmt"
 	"math"
 	"os"
 	"path/filepath"
@@ -298,5 +299,33 @@ func TestNoPositionsNoCrossings(t *testing.T) {
 				t.Errorf("%s: %d %s markers without data, want 0", f, n, st)
 			}
 		}
+	}
+}
+
+func TestLinearTicks(t *testing.T) {
+	cases := []struct {
+		lo, hi float64
+		want   string // labelled values
+	}{
+		{0, 1300, "0,200,400,600,800,1000,1200"},
+		{0, 2912.3, "0,500,1000,1500,2000,2500"},
+		{0, 130, "0,20,40,60,80,100,120"},
+		{0, 0.9, "0,0.2,0.4,0.6,0.8"},
+	}
+	for _, c := range cases {
+		t.Run(fmt.Sprint(c.hi), func(t *testing.T) {
+			var got []string
+			for _, tk := range (linearTicks{}).Ticks(c.lo, c.hi) {
+				if tk.Label != "" {
+					got = append(got, tk.Label)
+				}
+			}
+			if strings.Join(got, ",") != c.want {
+				t.Errorf("labels %v, want %s", got, c.want)
+			}
+		})
+	}
+	if ts := (linearTicks{}).Ticks(5, 5); ts != nil {
+		t.Errorf("empty range gave %d ticks", len(ts))
 	}
 }
