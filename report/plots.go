@@ -175,14 +175,14 @@ func speedPlot(d *data) (*PlotSummary, []byte, error) {
 }
 
 // linearTicks labels round steps (1, 2 or 5 times a power of ten) with
-// about five to ten labelled ticks and four minor ticks between them.
+// three to eight labelled ticks and four minor ticks between them.
 type linearTicks struct{}
 
 func (linearTicks) Ticks(lo, hi float64) []plot.Tick {
 	if !(hi > lo) {
 		return nil
 	}
-	raw := (hi - lo) / 6
+	raw := (hi - lo) / 8
 	mag := math.Pow(10, math.Floor(math.Log10(raw)))
 	step := mag
 	for _, m := range []float64{1, 2, 5, 10} {
