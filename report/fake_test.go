@@ -85,11 +85,15 @@ func (f *fakeSource) Crossings(ctx context.Context, runID int64, fn func(db.Cros
 	if f.failOn == "Crossings" {
 		return errBoom
 	}
+	byStar := map[int64]map[string][]db.CrossingRow{}
+	for run, cs := range f.crossings {
+		byStar[run] = map[string][]db.CrossingRow{}
+		for _, c := range cs {
+			byStar[run][c.StarID] = append(byStar[run][c.StarID], c)
+		}
+	}
 	for _, v := range f.verdicts[runID] {
-		for _, c := range f.crossings[v.ComputedInRun] {
-			if c.StarID != v.StarID {
-				continue
-			}
+		for _, c := range byStar[v.ComputedInRun][v.StarID] {
 			if err := fn(c); err != nil {
 				return err
 			}
