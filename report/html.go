@@ -119,7 +119,7 @@ func renderHTML(d *data, plots []PlotSummary) ([]byte, int, error) {
 		RunID: r.ID, State: r.StateText(), Started: stamp(r.StartedAt), Finished: stamp(r.FinishedAt),
 		ToolVersion: r.ToolVersion, Note: r.Note, Seed: r.Seed, Full: r.Full,
 		Total: r.StarsTotal, Computed: r.StarsComputed, Carried: r.StarsCarried, Quarantined: r.RowsQuarantined,
-		Models: modelsText(d.models), TotalStars: len(d.stars), RejectedNoReason: d.reasonErrs,
+		Models: modelsText(d.models), TotalStars: len(d.stars), RejectedNoReason: d.rejectedNoReasons,
 		Candidates: candidates(d),
 	}
 	for _, c := range d.catalogs {

@@ -85,18 +85,18 @@ type reasonCount struct {
 
 // data is everything the page is made from.
 type data struct {
-	run        *db.Run
-	catalogs   []db.CatalogRow
-	stars      []star // by star id
-	counts     map[string]int64
-	reasons    []reasonCount
-	reasonErrs int // rejected stars whose reasons were not found
-	models     []string
-	crossings  []db.CrossingRow
-	crossStat  []string // status of each crossing's star
-	opt        Options
-	gcDefault  bool
-	sunDefault bool
+	run               *db.Run
+	catalogs          []db.CatalogRow
+	stars             []star // by star id
+	counts            map[string]int64
+	reasons           []reasonCount
+	rejectedNoReasons int // rejected stars with no stored reasons
+	models            []string
+	crossings         []db.CrossingRow
+	crossStat         []string // status of each crossing's star
+	opt               Options
+	gcDefault         bool
+	sunDefault        bool
 }
 
 // Write reads run runID (0 = latest complete run) from src and writes
@@ -233,7 +233,7 @@ func (d *data) gatherReasons(ctx context.Context, src Source) error {
 			return fmt.Errorf("report: %w", err)
 		}
 		if len(rs) == 0 {
-			d.reasonErrs++
+			d.rejectedNoReasons++
 		}
 		seen := map[string]bool{}
 		for _, r := range rs {
