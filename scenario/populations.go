@@ -287,14 +287,25 @@ func (s *sampler) diskRunaway() (*star, error) {
 	return nil, fmt.Errorf("scenario: disk runaway: %w", ErrSampling)
 }
 
-// haloFast draws a halo star at 3-60 kpc moving at 0.6-0.95 of the local
-// escape speed in an isotropic direction: bound, but fast.
+// haloTailIndex is k in the speed distribution of the halo's high-velocity
+// tail, f(v) ∝ (v_esc - v)^k (Leonard & Tremaine 1990, ApJ 353, 486; Piffl
+// et al. 2014, A&A 562, A91 fit k between about 2.3 and 3.7, from memory).
+const haloTailIndex = 3.0
+
+// haloFast draws a halo star at 3-60 kpc moving at a fraction fMin..fMax of
+// the local escape speed in an isotropic direction: bound, but fast. The
+// fraction follows the tail law (1 - f)^k, so stars just below the escape
+// speed are as rare as the halo makes them.
 func (s *sampler) haloFast(fMin, fMax float64) (*star, error) {
+	const k1 = haloTailIndex + 1
+	a, b := math.Pow(1-fMin, k1), math.Pow(1-fMax, k1)
 	for range maxTries / 10 {
 		r := s.haloRadius(3, 60)
 		d := s.isotropic()
 		x := [3]float64{r * d[0], r * d[1], r * d[2]}
-		sp := s.uniform(fMin, fMax) * s.g.vesc(x)
+		// Inverse CDF of (1 - f)^k on [fMin, fMax].
+		f := 1 - math.Pow(a-s.rng.Float64()*(a-b), 1/k1)
+		sp := f * s.g.vesc(x)
 		e := s.isotropic()
 		st := &star{pop: PopHaloFast, origin: OriginHalo, flightMyr: math.NaN(), posKpc: x,
 			velKms: [3]float64{sp * e[0], sp * e[1], sp * e[2]},

@@ -30,7 +30,12 @@
 //     joint posterior, so parallax-pm correlations are kept.
 //   - catalog: the independent distance, normal in kpc truncated at d > 0,
 //     or, when a distance modulus is given (it is preferred), normal in mag
-//     with d = 10^(mu/5+1) pc. Proper motions from their own normal.
+//     with d = 10^(mu/5+1) pc. When the star also has a parallax, the
+//     catalog distance is the prior and the parallax the likelihood: draws
+//     are kept by rejection with probability L(d)/L_max, and the proper
+//     motions come from their normal conditional on 1/d, as for edsd. A
+//     parallax that excludes the catalog distance is a fatal reason.
+//     Without a parallax the proper motions come from their own normal.
 //   - auto (default): inverse when (w - zp)/s >= MinParallaxOverError, else
 //     catalog when usable, else edsd.
 //

@@ -169,8 +169,8 @@ func (w *worker) evaluate(s *Star, set *Settings, p potential.Potential, r *Resu
 	// Covariance of (parallax, pm_ra, pm_dec); the parallax row is only
 	// used by the parallax methods.
 	sw, sa, sd := s.ParallaxErrMas, s.PMRAErrMasYr, s.PMDecErrMasYr
-	if method == MethodCatalog {
-		sw = 0
+	if method == MethodCatalog && !(finite(s.ParallaxMas) && sw > 0) {
+		sw = 0 // no parallax to weigh the catalog distance with
 	}
 	cov := [3][3]float64{
 		{sw * sw, corr[0] * sw * sa, corr[1] * sw * sd},
@@ -212,10 +212,16 @@ func (w *worker) evaluate(s *Star, set *Settings, p potential.Potential, r *Resu
 		}
 		kept = n
 	case MethodCatalog:
-		for i := range n {
-			var x [3]float64
-			joint.draw(w.rnd, &x)
-			w.dist[i], w.plx[i], w.pmRA[i], w.pmDec[i] = catDist.draw(w.rnd), math.NaN(), x[1], x[2]
+		if sw > 0 {
+			if !w.drawCatalogWithParallax(set, &cov, mean, catDist, r) {
+				return
+			}
+		} else {
+			for i := range n {
+				var x [3]float64
+				joint.draw(w.rnd, &x)
+				w.dist[i], w.plx[i], w.pmRA[i], w.pmDec[i] = catDist.draw(w.rnd), math.NaN(), x[1], x[2]
+			}
 		}
 		kept = n
 	}
@@ -313,24 +319,7 @@ func (w *worker) evaluate(s *Star, set *Settings, p potential.Potential, r *Resu
 func (w *worker) drawEDSD(s *Star, set *Settings, cov *[3][3]float64, mean [3]float64, r *Result) bool {
 	n := set.Samples
 	wObs, sw := mean[0], math.Sqrt(cov[0][0])
-	var beta [2]float64
-	var cond [3][3]float64
-	for i := range 2 {
-		for j := range 2 {
-			cond[i][j] = cov[i+1][j+1]
-		}
-	}
-	if sw > 0 {
-		for i := range 2 {
-			beta[i] = cov[0][i+1] / cov[0][0]
-		}
-		for i := range 2 {
-			for j := range 2 {
-				cond[i][j] -= cov[0][i+1] * cov[0][j+1] / cov[0][0]
-			}
-		}
-	}
-	g, ok := newGauss(2, [3]float64{}, &cond, w.rnd)
+	beta, g, ok := conditionalPM(cov, w)
 	if !ok {
 		r.fail(ReasonCovariance, "covariance of parallax and proper motions not positive definite")
 		return false
@@ -350,14 +339,95 @@ func (w *worker) drawEDSD(s *Star, set *Settings, cov *[3][3]float64, mean [3]fl
 		if sw > 0 {
 			d = w.table.quantile(w.rnd.Float64())
 		}
-		plx := 1 / d
-		var x [3]float64
-		g.draw(w.rnd, &x)
-		w.dist[i], w.plx[i] = d, plx
-		w.pmRA[i] = mean[1] + beta[0]*(plx-wObs) + x[0]
-		w.pmDec[i] = mean[2] + beta[1]*(plx-wObs) + x[1]
+		w.drawPM(i, d, wObs, mean, beta, &g)
 	}
 	return true
+}
+
+// drawPM stores distance d and proper motions drawn from their normal
+// conditional on the true parallax 1/d in draw i.
+func (w *worker) drawPM(i int, d, wObs float64, mean [3]float64, beta [2]float64, g *gauss) {
+	plx := 1 / d
+	var x [3]float64
+	g.draw(w.rnd, &x)
+	w.dist[i], w.plx[i] = d, plx
+	w.pmRA[i] = mean[1] + beta[0]*(plx-wObs) + x[0]
+	w.pmDec[i] = mean[2] + beta[1]*(plx-wObs) + x[1]
+}
+
+// maxCatalogTries bounds the rejection draws per kept catalog distance.
+const maxCatalogTries = 200
+
+// drawCatalogWithParallax fills the draws for an independent (catalog)
+// distance that the star's own parallax also constrains. The catalog
+// distance is the prior and the parallax the likelihood:
+//
+//	p(d | w) ∝ p_cat(d) exp(-(w - 1/d)^2 / (2 s^2))
+//
+// (Bayes' theorem with a normal parallax likelihood, as in Bailer-Jones
+// 2015, PASP 127, 994, with the catalog distance in place of a space-density
+// prior), sampled by rejection: a catalog draw is kept with probability
+// L(d)/L_max, where L_max = 1 if w > 0 (1/d = w is reachable) and
+// exp(-w^2/(2 s^2)) otherwise (d -> infinity). The proper motions then come
+// from their normal conditional on the true parallax 1/d, as for EDSD, so
+// the parallax-pm correlations are kept. A parallax of low significance
+// leaves the catalog distance almost unchanged; a discordant one pulls it.
+func (w *worker) drawCatalogWithParallax(set *Settings, cov *[3][3]float64, mean [3]float64, cat catalogDistance, r *Result) bool {
+	n := set.Samples
+	wObs, sw := mean[0], math.Sqrt(cov[0][0])
+	beta, g, ok := conditionalPM(cov, w)
+	if !ok {
+		r.fail(ReasonCovariance, "covariance of parallax and proper motions not positive definite")
+		return false
+	}
+	lnLMax := 0.0
+	if wObs <= 0 {
+		lnLMax = -wObs * wObs / (2 * sw * sw)
+	}
+	tries := 0
+	for i := range n {
+		for {
+			if tries >= maxCatalogTries*n {
+				r.fail(ReasonPlxConflict, "the parallax %.4g +- %.2g mas excludes the catalog distance (no draw kept in %d)", wObs, sw, tries)
+				return false
+			}
+			tries++
+			d := cat.draw(w.rnd)
+			z := (wObs - 1/d) / sw
+			if math.Log(w.rnd.Float64()) < -z*z/2-lnLMax {
+				w.drawPM(i, d, wObs, mean, beta, &g)
+				break
+			}
+		}
+	}
+	if acc := float64(n) / float64(tries); acc < 0.05 {
+		r.note(ReasonPlxConflict, "the parallax %.4g +- %.2g mas and the catalog distance disagree: %.1f%% of catalog draws kept", wObs, sw, 100*acc)
+	}
+	return true
+}
+
+// conditionalPM returns the regression of the proper motions on the
+// parallax and a sampler of their conditional normal.
+func conditionalPM(cov *[3][3]float64, w *worker) ([2]float64, gauss, bool) {
+	var beta [2]float64
+	var cond [3][3]float64
+	for i := range 2 {
+		for j := range 2 {
+			cond[i][j] = cov[i+1][j+1]
+		}
+	}
+	if cov[0][0] > 0 {
+		for i := range 2 {
+			beta[i] = cov[0][i+1] / cov[0][0]
+		}
+		for i := range 2 {
+			for j := range 2 {
+				cond[i][j] -= cov[0][i+1] * cov[0][j+1] / cov[0][0]
+			}
+		}
+	}
+	g, ok := newGauss(2, [3]float64{}, &cond, w.rnd)
+	return beta, g, ok
 }
 
 func growVec(b [][3]float64, n int) [][3]float64 {

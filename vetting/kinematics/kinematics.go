@@ -19,19 +19,20 @@ const (
 
 // Reason codes. A fatal reason leaves Result.OK false and the numbers NaN.
 const (
-	ReasonSettings         = "settings"                // fatal: Settings failed Validate
-	ReasonNoPosition       = "no-position"             // fatal: ra or dec missing
-	ReasonProperMotion     = "no-proper-motion"        // fatal: pm or its uncertainty missing or invalid
-	ReasonNoDistance       = "no-distance"             // fatal: neither a usable parallax nor a catalog distance
-	ReasonNoParallax       = "no-parallax"             // fatal: method needs a parallax that is missing or invalid
-	ReasonNonPositivePlx   = "non-positive-parallax"   // fatal: inverse distance of a non-positive parallax
-	ReasonPlxDrawsDropped  = "parallax-draws-dropped"  // some inverse-distance draws had parallax <= 0 and were dropped
-	ReasonCovariance       = "covariance-not-pd"       // fatal: covariance of parallax and proper motions not positive definite
-	ReasonCatalogDistance  = "catalog-distance"        // fatal under "catalog", note under "auto": catalog distance unusable
-	ReasonNoRV             = "no-radial-velocity"      // not fatal: speeds are lower bounds
-	ReasonBadUncertainty   = "bad-uncertainty"         // fatal: a negative uncertainty
-	ReasonBadCorrelation   = "bad-correlation"         // fatal: a correlation outside [-1, 1]
-	ReasonDegenerateSample = "degenerate-distance-pdf" // fatal: the EDSD posterior could not be tabulated
+	ReasonSettings         = "settings"                  // fatal: Settings failed Validate
+	ReasonNoPosition       = "no-position"               // fatal: ra or dec missing
+	ReasonProperMotion     = "no-proper-motion"          // fatal: pm or its uncertainty missing or invalid
+	ReasonNoDistance       = "no-distance"               // fatal: neither a usable parallax nor a catalog distance
+	ReasonNoParallax       = "no-parallax"               // fatal: method needs a parallax that is missing or invalid
+	ReasonNonPositivePlx   = "non-positive-parallax"     // fatal: inverse distance of a non-positive parallax
+	ReasonPlxDrawsDropped  = "parallax-draws-dropped"    // some inverse-distance draws had parallax <= 0 and were dropped
+	ReasonCovariance       = "covariance-not-pd"         // fatal: covariance of parallax and proper motions not positive definite
+	ReasonCatalogDistance  = "catalog-distance"          // fatal under "catalog", note under "auto": catalog distance unusable
+	ReasonNoRV             = "no-radial-velocity"        // not fatal: speeds are lower bounds
+	ReasonBadUncertainty   = "bad-uncertainty"           // fatal: a negative uncertainty
+	ReasonBadCorrelation   = "bad-correlation"           // fatal: a correlation outside [-1, 1]
+	ReasonDegenerateSample = "degenerate-distance-pdf"   // fatal: the EDSD posterior could not be tabulated
+	ReasonPlxConflict      = "catalog-parallax-conflict" // the parallax and the catalog distance disagree (fatal when no draw survives)
 )
 
 // ErrSettings is wrapped by every Settings.Validate error.
