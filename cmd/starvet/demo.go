@@ -8,6 +8,7 @@ import (
 	"time"
 
 	"starvet/db"
+	"starvet/report"
 	"starvet/scenario"
 	"starvet/vetting"
 	"starvet/vetting/campaign"
@@ -74,7 +75,16 @@ func runDemo(ctx context.Context, env *Env, args []string) error {
 		return err
 	}
 	reportDir := filepath.Join(dir, "report")
-	if err := writeReport(ctx, first.LedgerPath, second.RunID, reportDir); err != nil {
+	c, err := campaign.Load(sc.CampaignPath)
+	if err != nil {
+		return err
+	}
+	if _, err := makeReport(ctx, second.LedgerPath, second.RunID, reportDir, report.Options{
+		EscapeRadiusKpc: c.Potential.EscapeRadiusKpc,
+		GCRadiusKpc:     c.Kinematics.GCRadiusKpc,
+		SunDistanceKpc:  c.Galaxy.SunDistanceKpc,
+		SettingsSource:  "from the demo campaign " + sc.CampaignPath,
+	}); err != nil {
 		return err
 	}
 
@@ -105,8 +115,10 @@ func runDemo(ctx context.Context, env *Env, args []string) error {
 	fmt.Fprintf(out, "  details: %s\n", fig)
 	fmt.Fprintf(out, "\nAn \"unbound\" verdict depends on the adopted potential (%s) and Solar parameters;\nit marks a candidate for follow-up observations, not a discovery.\n", second.ModelName)
 	fmt.Fprintf(out, "demo finished in %s\n", time.Since(t0).Round(time.Millisecond))
-	if !fig.MeetsTargets() {
-		return fmt.Errorf("demo: recovery figures miss the targets: %s", fig)
+	if fig.MeetsTargets() {
+		fmt.Fprintf(out, "recovery targets met (completeness >= %.0f%%, contamination <= %.0f%%)\n", 100*scenario.TargetCompleteness, 100*scenario.TargetContamination)
+	} else {
+		fmt.Fprintf(out, "recovery targets MISSED for this seed (completeness >= %.0f%%, contamination <= %.0f%%); see the details above\n", 100*scenario.TargetCompleteness, 100*scenario.TargetContamination)
 	}
 	return nil
 }
