@@ -1,0 +1,81 @@
+package vetting
+
+import (
+	"context"
+	"path/filepath"
+	"testing"
+
+	"starvet/db"
+	"starvet/scenario"
+)
+
+// TestRecoveryOnSmallScenarios runs the demo's job (generate, run, update,
+// incremental run) on three small invented scenarios and scores the final
+// verdicts against the truth. The demo's targets (completeness >= 95%,
+// contamination <= 2%) are statistical: with ten or so unbound stars per
+// small scenario one borderline star moves a figure by ten per cent, so this
+// test pools the seeds, holds them to looser bounds, and requires the
+// deterministic parts exactly: no artefact ends unbound, every bad row is
+// quarantined, and every high-proper-motion star with a spectrum is matched.
+func TestRecoveryOnSmallScenarios(t *testing.T) {
+	if testing.Short() {
+		t.Skip("runs three 10,000-star campaigns")
+	}
+	var hits, denom, contaminating, unbound int
+	for _, seed := range []uint64{1, 2, 3} {
+		dir := t.TempDir()
+		sc, err := scenario.Generate(scenario.Config{Seed: seed, Stars: 10000}, dir)
+		if err != nil {
+			t.Fatal(err)
+		}
+		ledger := filepath.Join(dir, "starvet.db")
+		runCampaign(t, sc.CampaignPath, ledger, false)
+		if err := scenario.Update(sc, dir, seed+1); err != nil {
+			t.Fatal(err)
+		}
+		s2 := runCampaign(t, sc.CampaignPath, ledger, false)
+		verdicts := map[string]scenario.Verdict{}
+		l, err := db.Open(context.Background(), ledger, db.Options{ReadOnly: true})
+		if err != nil {
+			t.Fatal(err)
+		}
+		err = l.List(context.Background(), db.ListFilter{Run: s2.RunID}, func(v db.VerdictRow) error {
+			verdicts[v.StarID] = scenario.Verdict{Status: v.Status, Origin: v.Origin}
+			return nil
+		})
+		l.Close()
+		if err != nil {
+			t.Fatal(err)
+		}
+		f := scenario.Score(sc.Truth, verdicts)
+		t.Logf("seed %d: %s", seed, f)
+		for trap, n := range f.TrapsUnbound {
+			t.Errorf("seed %d: %d artefacts of kind %s end unbound", seed, n, trap)
+		}
+		if f.BadRowsKept != 0 {
+			t.Errorf("seed %d: %d of %d bad rows kept a status", seed, f.BadRowsKept, f.NBadRows)
+		}
+		if f.NHighPM == 0 || f.HighPMWithRV != 1 {
+			t.Errorf("seed %d: high-proper-motion stars matched to their spectrum: %.2f of %d, want all", seed, f.HighPMWithRV, f.NHighPM)
+		}
+		if f.Missing != 0 || f.Unknown != 0 {
+			t.Errorf("seed %d: %d truth rows without a verdict, %d verdicts not in the truth", seed, f.Missing, f.Unknown)
+		}
+		hits += f.NCompletenessHits
+		denom += f.NCompletenessDenominator
+		contaminating += f.NContaminating
+		unbound += f.NUnbound
+	}
+	completeness := float64(hits) / float64(denom)
+	contamination := float64(contaminating) / float64(unbound)
+	t.Logf("pooled: completeness %.3f (%d/%d), contamination %.3f (%d/%d)", completeness, hits, denom, contamination, contaminating, unbound)
+	if denom < 20 {
+		t.Fatalf("only %d injected unbound stars with adequate data: the scenarios are too small to score", denom)
+	}
+	if completeness < 0.85 {
+		t.Errorf("pooled completeness %.3f < 0.85", completeness)
+	}
+	if contamination > 0.10 {
+		t.Errorf("pooled contamination %.3f > 0.10", contamination)
+	}
+}
