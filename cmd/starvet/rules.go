@@ -8,6 +8,7 @@ import (
 	"strings"
 	"text/tabwriter"
 
+	"starvet/crossmatch/catalog"
 	"starvet/rules"
 )
 
@@ -130,7 +131,7 @@ func rulesShow(env *Env, args []string) error {
 	}
 	fmt.Fprintf(w, "catalogs:    %s\n\n", catList)
 	tw := tabwriter.NewWriter(w, 0, 0, 2, ' ', 0)
-	fmt.Fprintln(tw, "ID\tSEVERITY\tTEST\tTHRESHOLD\tWHEN\tSOURCE\tRULE FINGERPRINT")
+	fmt.Fprintln(tw, "ID\tSEVERITY\tTEST\tTHRESHOLD\tWHEN\tVOIDS ON FAIL\tSOURCE\tRULE FINGERPRINT")
 	for _, r := range rs.Rules {
 		when := "-"
 		if r.When != nil {
@@ -140,7 +141,15 @@ func rulesShow(env *Env, args []string) error {
 		if src == "" {
 			src = "(none given)"
 		}
-		fmt.Fprintf(tw, "%s\t%s\t%s\t%s\t%s\t%s\t%s\n", r.ID, r.Severity, oneLine(r.Describe()), r.Threshold(), oneLine(when), src, r.Fingerprint[:12])
+		voids := "-"
+		if len(r.Voids) > 0 {
+			names := make([]string, len(r.Voids))
+			for i, f := range r.Voids {
+				names[i] = catalog.Fields[f].Name
+			}
+			voids = strings.Join(names, ",")
+		}
+		fmt.Fprintf(tw, "%s\t%s\t%s\t%s\t%s\t%s\t%s\t%s\n", r.ID, r.Severity, oneLine(r.Describe()), r.Threshold(), oneLine(when), voids, src, r.Fingerprint[:12])
 	}
 	if err := tw.Flush(); err != nil {
 		return err
