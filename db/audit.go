@@ -261,10 +261,15 @@ func (l *Ledger) DiffN(ctx context.Context, runA, runB int64, limit int) (*DiffR
 		}
 	}
 	d := &DiffResult{RunA: runA, RunB: runB}
-	const pairs = `SELECT coalesce(a.star_id, b.star_id) AS star_id, coalesce(a.status, '` + NoStatus + `') AS s_from,
-		coalesce(b.status, '` + NoStatus + `') AS s_to
-		FROM (SELECT star_id, status FROM verdicts WHERE run_id = ?) a
-		FULL OUTER JOIN (SELECT star_id, status FROM verdicts WHERE run_id = ?) b ON a.star_id = b.star_id`
+	// Two indexed halves instead of a FULL OUTER JOIN, which SQLite runs
+	// as a nested scan (quadratic at 1M stars): stars of A looked up in B,
+	// then stars only in B.
+	const pairs = `SELECT a.star_id AS star_id, a.status AS s_from, coalesce(b.status, '` + NoStatus + `') AS s_to
+		FROM verdicts a LEFT JOIN verdicts b ON b.run_id = ?2 AND b.star_id = a.star_id
+		WHERE a.run_id = ?1
+		UNION ALL
+		SELECT b.star_id, '` + NoStatus + `', b.status FROM verdicts b
+		WHERE b.run_id = ?2 AND NOT EXISTS (SELECT 1 FROM verdicts a WHERE a.run_id = ?1 AND a.star_id = b.star_id)`
 	rows, err := l.db.QueryContext(ctx,
 		"SELECT s_from, s_to, count(*) FROM ("+pairs+") GROUP BY s_from, s_to", runA, runB)
 	if err != nil {

@@ -157,4 +157,30 @@ func BenchmarkIncremental(b *testing.B) {
 		}
 		b.ReportMetric(float64(nStars*b.N)/b.Elapsed().Seconds(), "stars/s")
 	})
+	// The audit queries against the same ledger (now two complete runs of
+	// 1M stars each, or more).
+	b.Run("Diff", func(b *testing.B) {
+		for b.Loop() {
+			d, err := l.DiffN(ctx, first, 0, 50)
+			if err != nil || d.Unchanged != nStars {
+				b.Fatalf("%+v, %v", d, err)
+			}
+		}
+	})
+	b.Run("Why", func(b *testing.B) {
+		for b.Loop() {
+			h, err := l.Why(ctx, "bench-0500000")
+			if err != nil || len(h.Runs) < 2 {
+				b.Fatalf("%+v, %v", h, err)
+			}
+		}
+	})
+	b.Run("ListStatus", func(b *testing.B) {
+		for b.Loop() {
+			n := 0
+			if err := l.List(ctx, ListFilter{Status: "accepted"}, func(VerdictRow) error { n++; return nil }); err != nil || n != nStars {
+				b.Fatalf("%d rows, %v", n, err)
+			}
+		}
+	})
 }
