@@ -143,7 +143,7 @@ func TestRoundTripAndAudit(t *testing.T) {
 	a1.Inputs.DupCount = 2
 	a3 := record("A-3", 2, 0, "rejected")
 	a5 := record("A-5", 5, 0, "accepted")
-	withdrawn := StarRecord{StarID: "A-4", Computed: true, Verdict: VerdictRow{Status: "withdrawn"}}
+	withdrawn := StarRecord{StarID: "A-4", Computed: true, Verdict: NewVerdictRow("withdrawn")}
 	if err := w.AddStars(ctx, []StarRecord{a1, a3, a5, withdrawn}); err != nil {
 		t.Fatal(err)
 	}
@@ -240,6 +240,14 @@ func TestRoundTripAndAudit(t *testing.T) {
 		}
 		if v := c.Verdict; v.SpeedP50Kms != 500 || !math.IsNaN(v.PUnboundLower) || v.ModelName != "test-model" {
 			t.Errorf("verdict = %+v", v)
+		}
+
+		h4, err := l.Why(ctx, "A-4")
+		if err != nil {
+			t.Fatal(err)
+		}
+		if v := h4.Runs[1].Verdict; v.Status != "withdrawn" || !math.IsNaN(v.SpeedP50Kms) || !math.IsNaN(v.PUnbound) || h4.Computations[1].Inputs != nil {
+			t.Errorf("withdrawn verdict %+v", v)
 		}
 
 		h2, err := l.Why(ctx, "A-2")

@@ -152,6 +152,15 @@ type VerdictRow struct {
 	ModelName        string
 }
 
+// NewVerdictRow returns a verdict with the given status and every numeric
+// column missing (NaN, stored as NULL). A zero-valued VerdictRow{} would
+// store 0 km/s speeds and probabilities instead.
+func NewVerdictRow(status string) VerdictRow {
+	nan := math.NaN()
+	return VerdictRow{Status: status, SpeedP16Kms: nan, SpeedP50Kms: nan, SpeedP84Kms: nan, SpeedLowerP50Kms: nan,
+		RGCKpc: nan, VEscKms: nan, PUnbound: nan, PUnboundLower: nan, PGCOrigin: nan, GCConsistency: nan, FlightTimeMyr: nan}
+}
+
 // Carried reports whether the verdict was carried forward from an earlier
 // run rather than computed in its own.
 func (v *VerdictRow) Carried() bool { return v.ComputedInRun != v.RunID }
