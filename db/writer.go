@@ -376,6 +376,42 @@ func (w *RunWriter) carryBatch(c *sqlite3.SQLiteConn, fromRun int64, ids []strin
 	return tx.Commit()
 }
 
+// CarryForwardRest copies into this run, unchanged (computed_in_run
+// included), the verdict of every star of run fromRun that has no verdict in
+// this run yet, and returns how many it copied. It is one set-based
+// statement, so carrying a million unchanged stars costs one pass over the
+// earlier run's rows; call it after the run's computed stars are written.
+func (w *RunWriter) CarryForwardRest(ctx context.Context, fromRun int64) (int64, error) {
+	w.mu.Lock()
+	defer w.mu.Unlock()
+	if err := w.check(); err != nil {
+		return 0, err
+	}
+	if fromRun <= 0 || fromRun >= w.id {
+		return 0, fmt.Errorf("ledger %s run %d: carry forward from run %d: must be an earlier run: %w", w.l.path, w.id, fromRun, ErrNoRun)
+	}
+	copySQL := "INSERT INTO verdicts (" + verdictCols + ") SELECT ?, " +
+		strings.TrimPrefix(verdictCols, "run_id, ") + " FROM verdicts AS old WHERE old.run_id = ? " +
+		"AND NOT EXISTS (SELECT 1 FROM verdicts AS cur WHERE cur.run_id = ? AND cur.star_id = old.star_id)"
+	var n int64
+	err := w.l.inTx(ctx, func(tx *sql.Tx) error {
+		res, err := tx.ExecContext(ctx, copySQL, w.id, fromRun, w.id)
+		if err != nil {
+			return err
+		}
+		if n, err = res.RowsAffected(); err != nil {
+			return err
+		}
+		_, err = tx.ExecContext(ctx, `UPDATE stars SET last_run = ? WHERE last_run < ? AND star_id IN (SELECT star_id FROM verdicts WHERE run_id = ?)`,
+			w.id, w.id, w.id)
+		return err
+	})
+	if err != nil {
+		return 0, fmt.Errorf("ledger %s run %d: carry forward from run %d: %w", w.l.path, w.id, fromRun, err)
+	}
+	return n, nil
+}
+
 // Finish marks the run complete, stores its summary and releases the lock.
 func (w *RunWriter) Finish(ctx context.Context, s RunSummary) error {
 	w.mu.Lock()

@@ -241,7 +241,7 @@ func (e *Engine) Run(ctx context.Context, c *campaign.Campaign, opt RunOptions) 
 	sort.Strings(stillWithdrawn)
 	for _, id := range gone {
 		recs = append(recs, db.StarRecord{StarID: id, Computed: true,
-			Verdict: db.VerdictRow{Status: StatusWithdrawn},
+			Verdict: db.NewVerdictRow(StatusWithdrawn),
 			Reasons: []db.ReasonRow{{RuleID: "withdrawn", Outcome: "info", Value: math.NaN(),
 				Message: fmt.Sprintf("absent from the primary catalog %s (release %s); status in run %d was %s",
 					cats.Primary.Name, cats.Primary.Release, prevRun.ID, prev[id].Status)}}})
@@ -254,8 +254,10 @@ func (e *Engine) Run(ctx context.Context, c *campaign.Campaign, opt RunOptions) 
 	sum.Carried += len(stillWithdrawn)
 	carried = append(carried, stillWithdrawn...)
 
+	// Star-id order keeps each batch's index updates local in the ledger.
+	sort.Slice(recs, func(a, b int) bool { return recs[a].StarID < recs[b].StarID })
 	const batch = 20000
-	st := begin(e.Progress, "ledger", len(recs)+len(carried))
+	st := begin(e.Progress, "ledger", len(recs))
 	for lo := 0; lo < len(recs); lo += batch {
 		if err := w.AddStars(ctx, recs[lo:min(lo+batch, len(recs))]); err != nil {
 			st.End()
@@ -263,13 +265,16 @@ func (e *Engine) Run(ctx context.Context, c *campaign.Campaign, opt RunOptions) 
 		}
 		st.Set(min(lo+batch, len(recs)))
 	}
+	st.End()
 	if len(carried) > 0 {
-		if err := w.CarryForward(ctx, prevRun.ID, carried); err != nil {
-			st.End()
+		n, err := w.CarryForwardRest(ctx, prevRun.ID)
+		if err != nil {
 			return nil, err
 		}
+		if n != int64(len(carried)) {
+			return nil, fmt.Errorf("ledger %s run %d: carried %d verdicts forward from run %d, expected %d", ledgerPath, w.ID(), n, prevRun.ID, len(carried))
+		}
 	}
-	st.End()
 	counts := make(map[string]int64, len(sum.Counts))
 	for k, v := range sum.Counts {
 		counts[k] = int64(v)
