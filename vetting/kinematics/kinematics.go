@@ -142,7 +142,10 @@ type Result struct {
 
 	// With HasRV: Galactocentric speed, radial and tangential velocity about
 	// the Galactic centre, and the share of draws faster than the escape
-	// speed at their own position. NaN without HasRV.
+	// speed at their own position. NaN without HasRV. Each [3] holds the
+	// 16th, 50th and 84th percentiles, except VRadialKms, VTangentialKms,
+	// RGCKpc and VEscKms, whose spread is not used: only [1], the median,
+	// is computed and [0], [2] are NaN.
 	SpeedKms       [3]float64
 	VRadialKms     [3]float64
 	VTangentialKms [3]float64

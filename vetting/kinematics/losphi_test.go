@@ -98,6 +98,9 @@ func TestLineOfSightEscapeTableResults(t *testing.T) {
 		fast.evaluate(&stars[i], &set, milkyWayBench(), &a)
 		exact.evaluate(&stars[i], &set, milkyWayBench(), &b)
 		for k := range 3 {
+			if math.IsNaN(a.VEscKms[k]) && math.IsNaN(b.VEscKms[k]) {
+				continue // only the median is computed
+			}
 			if d := math.Abs(a.VEscKms[k] - b.VEscKms[k]); d > 2*vescTolKms || math.IsNaN(d) {
 				t.Fatalf("star %s: v_esc %v vs exact %v", stars[i].ID, a.VEscKms, b.VEscKms)
 			}

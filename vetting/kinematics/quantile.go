@@ -6,6 +6,30 @@ import "math"
 // the ±1 sigma points of a normal (common practice).
 var percentileLevels = [3]float64{0.16, 0.50, 0.84}
 
+// median returns {NaN, median, NaN} of a (reordered in place), with the
+// same definition as percentiles: for the quantities whose spread nobody
+// reads it halves the selection work.
+func median(a []float64) [3]float64 {
+	n := len(a)
+	out := [3]float64{math.NaN(), math.NaN(), math.NaN()}
+	if n == 0 {
+		return out
+	}
+	for _, x := range a {
+		if x != x {
+			return out
+		}
+	}
+	h := float64(n-1) * 0.5
+	k := int(h)
+	selectK(a, 0, n, k)
+	out[1] = a[k]
+	if frac := h - float64(k); frac > 0 && k+1 < n {
+		out[1] += frac * (minOf(a[k+1:]) - a[k])
+	}
+	return out
+}
+
 // percentiles returns the 16th, 50th and 84th percentiles of a (reordered in
 // place) by Hyndman & Fan 1996 (Am. Stat. 50, 361) definition 7: position
 // h = (n-1) p, interpolated linearly between the order statistics floor(h)
