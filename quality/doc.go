@@ -8,7 +8,9 @@
 //
 // Out: an Assessment per star. Outcomes come in the rule set's order
 // (sorted by rule id), one per rule, every rule evaluated even after a
-// reject. Result is pass, fail or skipped; a missing or NaN input is never a
+// reject. Rules are evaluated cheap first: built-in checks without a
+// precondition, then the rules that run an expression; the order of
+// evaluation never changes an outcome. Result is pass, fail or skipped; a missing or NaN input is never a
 // pass: it is skipped with the reason in Message ("skipped: snr missing"),
 // except for required_fields, which fails. Quality is reject if any reject
 // rule failed, else flag if any flag rule failed, else pass; FailedRules

@@ -88,6 +88,10 @@ type Evaluator struct {
 	thresholds []string
 	texts      []ruleTexts
 	hasExpr    bool
+	// order is the evaluation order: built-in checks without a precondition
+	// first, then rules that run an expression (cheap checks first).
+	// Outcomes are stored in rule order whatever the evaluation order.
+	order []int
 }
 
 // ruleTexts are a rule's fixed message parts, built once so that a passing
@@ -103,6 +107,15 @@ type ruleTexts struct {
 // NewEvaluator prepares rs for evaluation.
 func NewEvaluator(rs *rules.RuleSet, ctx Context) *Evaluator {
 	e := &Evaluator{rs: rs, ctx: ctx, thresholds: make([]string, len(rs.Rules)), texts: make([]ruleTexts, len(rs.Rules))}
+	var later []int
+	for i, r := range rs.Rules {
+		if r.Expr != nil || r.When != nil {
+			later = append(later, i)
+		} else {
+			e.order = append(e.order, i)
+		}
+	}
+	e.order = append(e.order, later...)
 	for i, r := range rs.Rules {
 		e.thresholds[i] = r.Threshold()
 		t := ruleTexts{limit: fmtNum(r.Limit), minProb: fmtNum(r.MinProb), maxSep: fmtNum(r.MaxSepArcsec)}
@@ -155,8 +168,12 @@ func (e *Evaluator) Assess(s *Star, out *Assessment) {
 	// one buffer and cut out of one string, so a star costs at most one
 	// allocation for all its messages.
 	spans := out.spans[:0]
+	for range n {
+		spans = append(spans, -1, -1)
+	}
 	worst := 0 // 0 pass, 1 flag, 2 reject
-	for i, r := range e.rs.Rules {
+	for _, i := range e.order {
+		r := e.rs.Rules[i]
 		o := &out.Outcomes[i]
 		// A reused Assessment usually holds these already; skipping the
 		// stores saves GC write barriers.
@@ -176,17 +193,20 @@ func (e *Evaluator) Assess(s *Star, out *Assessment) {
 			if o.Message != msg {
 				o.Message = msg
 			}
-			spans = append(spans, -1, -1)
 		} else {
-			spans = append(spans, start, len(out.buf))
+			spans[2*i], spans[2*i+1] = start, len(out.buf)
 		}
 		if res == ResultFail {
-			out.FailedRules = append(out.FailedRules, r.ID)
 			if r.Severity == rules.Reject {
 				worst = 2
 			} else if worst < 1 {
 				worst = 1
 			}
+		}
+	}
+	for i := range out.Outcomes {
+		if out.Outcomes[i].Result == ResultFail {
+			out.FailedRules = append(out.FailedRules, e.rs.Rules[i].ID)
 		}
 	}
 	out.spans = spans
