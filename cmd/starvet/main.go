@@ -74,7 +74,7 @@ func Run(ctx context.Context, args []string, stdout, stderr io.Writer) error {
 	fs.SetOutput(io.Discard)
 	level := fs.String("log-level", "info", "log level: debug, info, warn, error")
 	format := fs.String("log-format", "console", "log format on stderr: console or json")
-	quiet := fs.Bool("quiet", false, "no progress bars or progress log lines")
+	quiet := fs.Bool("quiet", false, "no progress bars, progress log lines or per-stage info lines (warnings and errors still show)")
 	if err := fs.Parse(args); err != nil {
 		if errors.Is(err, flag.ErrHelp) {
 			mainUsage(stdout, fs)
@@ -95,6 +95,11 @@ func Run(ctx context.Context, args []string, stdout, stderr io.Writer) error {
 	lvl, err := zerolog.ParseLevel(strings.ToLower(*level))
 	if err != nil {
 		return usageError("--log-level %q: want debug, info, warn or error", *level)
+	}
+	levelSet := false
+	fs.Visit(func(f *flag.Flag) { levelSet = levelSet || f.Name == "log-level" })
+	if *quiet && !levelSet && lvl < zerolog.WarnLevel {
+		lvl = zerolog.WarnLevel // --quiet also drops the per-stage info lines
 	}
 	var lw io.Writer
 	switch *format {
