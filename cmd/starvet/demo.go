@@ -23,15 +23,16 @@ func runDemo(ctx context.Context, env *Env, args []string) error {
 	stars := fs.Int("stars", scenario.DefaultStars, "primary stars in the invented catalog")
 	seed := fs.Uint64("seed", 7, "seed of the invented scenario")
 	workers := fs.Int("workers", 0, "worker goroutines (0: one per core)")
-	if err := parseFlags(env, fs, args); err != nil {
+	pos, err := parseArgs(env, fs, args)
+	if err != nil {
 		return err
 	}
-	if fs.NArg() > 1 {
-		return usageError("demo wants at most one directory, got %d arguments", fs.NArg())
+	if len(pos) > 1 {
+		return usageError("demo wants at most one directory, got %d arguments", len(pos))
 	}
 	dir := "starvet-demo"
-	if fs.NArg() == 1 {
-		dir = fs.Arg(0)
+	if len(pos) == 1 {
+		dir = pos[0]
 	}
 	if err := os.MkdirAll(dir, 0o755); err != nil {
 		return err

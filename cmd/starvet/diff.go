@@ -14,7 +14,7 @@ func runDiff(ctx context.Context, env *Env, args []string) error {
 	af.register(fs)
 	limit := fs.Int("limit", 50, "at most this many per-star lines")
 	all := fs.Bool("all", false, "print every changed star (overrides --limit)")
-	pos, err := auditArgs(env, fs, args)
+	pos, err := parseArgs(env, fs, args)
 	if err != nil {
 		return err
 	}

@@ -39,7 +39,7 @@ func runList(ctx context.Context, env *Env, args []string) error {
 	run := fs.Int64("run", 0, "run id (0 = latest complete run)")
 	limit := fs.Int("limit", 0, "at most this many stars (0 = all)")
 	asCSV := fs.Bool("csv", false, "write CSV with a header line")
-	pos, err := auditArgs(env, fs, args)
+	pos, err := parseArgs(env, fs, args)
 	if err != nil {
 		return err
 	}

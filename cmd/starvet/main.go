@@ -191,3 +191,25 @@ func parseFlags(env *Env, fs *flag.FlagSet, args []string) error {
 
 // errHelpShown ends a command successfully after --help.
 var errHelpShown = errors.New("help shown")
+
+// parseArgs parses a subcommand's flags, which may come before or after
+// its positional arguments, and returns the positional ones; "--" ends
+// the flags.
+func parseArgs(env *Env, fs *flag.FlagSet, args []string) ([]string, error) {
+	var pos []string
+	for {
+		if err := parseFlags(env, fs, args); err != nil {
+			return nil, err
+		}
+		rest := fs.Args()
+		if len(rest) == 0 {
+			return pos, nil
+		}
+		// flag stops at "--" too; everything after it is positional.
+		if i := len(args) - len(rest); i > 0 && args[i-1] == "--" {
+			return append(pos, rest...), nil
+		}
+		pos = append(pos, rest[0])
+		args = rest[1:]
+	}
+}

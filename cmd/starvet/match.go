@@ -19,16 +19,17 @@ func runMatch(ctx context.Context, env *Env, args []string) error {
 	strict := fs.Bool("strict", false, "stop at the first bad input row instead of quarantining it")
 	rulesPath := fs.String("rules", "", "rule-set file replacing the campaign's (\"default\" for the embedded set)")
 	workers := fs.Int("workers", 0, "worker goroutines (0: one per core)")
-	if err := parseFlags(env, fs, args); err != nil {
+	pos, err := parseArgs(env, fs, args)
+	if err != nil {
 		return err
 	}
-	if fs.NArg() != 1 {
-		return usageError("match wants one campaign file, got %d arguments", fs.NArg())
+	if len(pos) != 1 {
+		return usageError("match wants one campaign file, got %d arguments", len(pos))
 	}
 	if *out == "" {
 		return usageError("match: -o merged.csv is required")
 	}
-	c, err := campaign.Load(fs.Arg(0))
+	c, err := campaign.Load(pos[0])
 	if err != nil {
 		return err
 	}

@@ -48,22 +48,6 @@ func rulesFlags(env *Env, action, synopsis string) (*flag.FlagSet, *string) {
 	return fs, cats
 }
 
-// parseInterspersed lets flags follow the file argument.
-func parseInterspersed(env *Env, fs *flag.FlagSet, args []string) ([]string, error) {
-	var pos []string
-	for {
-		if err := parseFlags(env, fs, args); err != nil {
-			return nil, err
-		}
-		args = fs.Args()
-		if len(args) == 0 {
-			return pos, nil
-		}
-		pos = append(pos, args[0])
-		args = args[1:]
-	}
-}
-
 func schemaFrom(cats string) (rules.Schema, error) {
 	if cats == "" {
 		return rules.Schema{AnyCatalog: true}, nil
@@ -107,7 +91,7 @@ func loadRules(env *Env, file, cats string) (*rules.RuleSet, error) {
 
 func rulesShow(env *Env, args []string) error {
 	fs, cats := rulesFlags(env, "show", "[--catalogs NAME,...] [FILE]")
-	pos, err := parseInterspersed(env, fs, args)
+	pos, err := parseArgs(env, fs, args)
 	if err != nil {
 		return err
 	}
@@ -167,7 +151,7 @@ func oneLine(s string) string { return strings.Join(strings.Fields(s), " ") }
 
 func rulesCheck(env *Env, args []string) error {
 	fs, cats := rulesFlags(env, "check", "[--catalogs NAME,...] FILE")
-	pos, err := parseInterspersed(env, fs, args)
+	pos, err := parseArgs(env, fs, args)
 	if err != nil {
 		return err
 	}

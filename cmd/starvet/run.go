@@ -24,13 +24,14 @@ func runRun(ctx context.Context, env *Env, args []string) error {
 	rulesPath := fs.String("rules", "", "rule-set file replacing the campaign's")
 	wait := fs.Duration("wait", 10*time.Second, "how long to wait for a ledger another run is writing")
 	workers := fs.Int("workers", 0, "worker goroutines (0: one per core)")
-	if err := parseFlags(env, fs, args); err != nil {
+	pos, err := parseArgs(env, fs, args)
+	if err != nil {
 		return err
 	}
-	if fs.NArg() != 1 {
-		return usageError("run wants one campaign file, got %d arguments", fs.NArg())
+	if len(pos) != 1 {
+		return usageError("run wants one campaign file, got %d arguments", len(pos))
 	}
-	c, err := campaign.Load(fs.Arg(0))
+	c, err := campaign.Load(pos[0])
 	if err != nil {
 		return err
 	}

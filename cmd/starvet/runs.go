@@ -33,27 +33,6 @@ func (a *auditFlags) register(fs *flag.FlagSet) {
 	fs.BoolVar(&a.json, "json", false, "write JSON instead of text")
 }
 
-// auditArgs parses flags that may come before or after positional
-// arguments; "--" ends the flags.
-func auditArgs(env *Env, fs *flag.FlagSet, args []string) ([]string, error) {
-	var pos []string
-	for {
-		if err := parseFlags(env, fs, args); err != nil {
-			return nil, err
-		}
-		rest := fs.Args()
-		if len(rest) == 0 {
-			return pos, nil
-		}
-		// flag stops at "--" too; everything after it is positional.
-		if i := len(args) - len(rest); i > 0 && args[i-1] == "--" {
-			return append(pos, rest...), nil
-		}
-		pos = append(pos, rest[0])
-		args = rest[1:]
-	}
-}
-
 func openLedgerRO(ctx context.Context, path string) (*db.Ledger, error) {
 	if _, err := os.Stat(path); errors.Is(err, os.ErrNotExist) {
 		return nil, fmt.Errorf("ledger %s does not exist (give its path with --ledger)", path)
@@ -168,7 +147,7 @@ func runRuns(ctx context.Context, env *Env, args []string) error {
 			"computed/carried and the status counts. A run whose writer died shows as\n"+
 			"'failed (interrupted)'.")
 	af.register(fs)
-	pos, err := auditArgs(env, fs, args)
+	pos, err := parseArgs(env, fs, args)
 	if err != nil {
 		return err
 	}

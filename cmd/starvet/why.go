@@ -18,7 +18,7 @@ func runWhy(ctx context.Context, env *Env, args []string) error {
 			"inputs changed between the runs that computed it. Put \"--\" before an id that\n"+
 			"starts with '-'.")
 	af.register(fs)
-	pos, err := auditArgs(env, fs, args)
+	pos, err := parseArgs(env, fs, args)
 	if err != nil {
 		return err
 	}
