@@ -1,2 +1,35 @@
-// Package vetting is part of starvet; see DEVELOPERS.md.
+// Package vetting is the pipeline of a vetting campaign: it ties the stages
+// together and hands every star's verdict to the ledger.
+//
+// In: a *campaign.Campaign (its catalogs, match settings, rule set, Solar
+// parameters, potential and Monte Carlo settings) and RunOptions.
+//
+// Stages, each taking the previous stage's value:
+//
+//	Ingest     catalog files  -> Catalogs (columnar tables in canonical units, quarantine)
+//	Match      Catalogs       -> Matched (one counterpart per primary row and secondary, duplicate counts)
+//	mergeAll   both           -> one quality.Star per primary row and its input hash
+//	Assess     stars          -> quality.Assessment per star (rules package)
+//	kinematics accepted stars -> Monte Carlo Galactocentric speed, escape speed, p_unbound
+//	                             (subpackage kinematics, potential), back-traces of the fast
+//	                             ones (subpackage orbit)
+//	Run        all of it      -> db ledger rows: inputs, matches, reasons, crossings, verdicts
+//
+// Units: every number is canonical from ingest on (see
+// starvet/crossmatch/catalog): degrees, mas, mas/yr, km/s, kpc; the
+// Galactocentric frame of starvet/vetting/frames (x from the Sun toward the
+// centre, y along rotation, z toward the north Galactic pole); times in Myr.
+//
+// Statuses: rejected (a reject rule failed, or the kinematics could not be
+// computed), needs-rv, bound, marginal, unbound and withdrawn. An unbound
+// verdict depends on the adopted potential and Solar parameters and marks a
+// candidate for follow-up, not a discovery.
+//
+// Incremental runs: a star is recomputed only when its input hash (merged
+// canonical values, match results, duplicate count) or the rule set's or the
+// model's fingerprint changed since the last complete run; otherwise its
+// verdict is carried forward with computed_in_run naming the run that
+// computed it. Per-star work is a pure function of the star's inputs, the
+// settings and the seed, so an incremental run gives exactly the verdicts
+// of a full one, and the stages use every core.
 package vetting
