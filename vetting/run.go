@@ -205,7 +205,6 @@ func (e *Engine) Run(ctx context.Context, c *campaign.Campaign, opt RunOptions) 
 		todo = append(todo, i)
 	}
 	sum.Carried = len(carried)
-	sum.Computed = len(todo)
 
 	recs, err := e.compute(ctx, c, rs, model, modelName, &kset, cats, m, stars, hashes, todo)
 	if err != nil {
@@ -479,8 +478,8 @@ func applyKinematics(rec *db.StarRecord, r *kinematics.Result, t *orbit.TraceRes
 		v.Status = StatusRejected
 		return
 	}
-	reason("kinematics.distance", "info", r.DistKpc[1], "", "distance %s kpc (16-50-84%%: %.3g, %.3g, %.3g) from method %q",
-		fmtG(r.DistKpc[1]), r.DistKpc[0], r.DistKpc[1], r.DistKpc[2], r.Method)
+	reason("kinematics.distance", "info", r.DistKpc[1], "", "distance %.3g kpc (16-50-84%%: %.3g, %.3g, %.3g) from method %q",
+		r.DistKpc[1], r.DistKpc[0], r.DistKpc[1], r.DistKpc[2], r.Method)
 	v.RGCKpc, v.VEscKms = r.RGCKpc[1], r.VEscKms[1]
 	if !r.HasRV {
 		v.Status = StatusNeedsRV
@@ -519,5 +518,3 @@ func applyKinematics(rec *db.StarRecord, r *kinematics.Result, t *orbit.TraceRes
 			t.Origin, t.GCConsistency, len(t.Crossings), t.Samples, k.TraceMyr, t.PGCOrigin, k.GCRadiusKpc, t.FlightTimeMyr)
 	}
 }
-
-func fmtG(x float64) string { return fmt.Sprintf("%.3g", x) }
