@@ -37,7 +37,10 @@
 //
 // Score(truth, verdicts) compares final statuses and origins, keyed by
 // primary id, with the truth: completeness over injected, truly unbound
-// stars with adequate data, contamination among stars ending "unbound",
+// stars with adequate data whose speed exceeds the escape speed by at least
+// DecidableSigma times the uncertainty their errors imply (speedMargin, a
+// first-order propagation; the completeness over every margin is reported
+// too), contamination among stars ending "unbound",
 // origin accuracy of Galactic Centre ejectees, and trap counts. The demo
 // targets are completeness >= 95 per cent and contamination <= 2 per cent.
 package scenario

@@ -56,7 +56,16 @@ type TruthRow struct {
 	// snr >= 10 (so it lies in the spectroscopic footprint); and either
 	// parallax/parallax_err >= 5 or the spectrum gives a distance. Defined
 	// from data quality only, never from a verdict.
-	AdequateData      bool
+	AdequateData bool
+	// MarginSigma is (true speed - true escape speed) over the uncertainty
+	// of that difference implied by the star's published errors
+	// (speedMargin); NaN without a usable spectrum and distance.
+	MarginSigma float64
+	// Decidable: truly unbound with adequate data and a margin of at least
+	// DecidableSigma, so that its data can show it unbound. The
+	// completeness denominator counts these stars; the completeness over
+	// every adequate-data unbound star is reported beside it.
+	Decidable         bool
 	Trap              string // "" or a Trap* label
 	Artefact          bool   // must not end "unbound"
 	OriginTrue        string
@@ -393,6 +402,11 @@ func (s *Scenario) truth() []TruthRow {
 			r.HasSpectrum, r.SpecID = true, sp.id
 		}
 		r.AdequateData = s.adequate(st)
+		r.MarginSigma = math.NaN()
+		if r.AdequateData {
+			r.MarginSigma = s.speedMargin(st)
+		}
+		r.Decidable = r.TrulyUnbound && r.AdequateData && r.MarginSigma >= DecidableSigma
 		rows[i] = r
 	}
 	return rows

@@ -616,6 +616,10 @@ func sameTruth(a, b TruthRow) bool {
 	if !eq(a.FlightTimeMyrTrue, b.FlightTimeMyrTrue) {
 		return false
 	}
+	if !eq(a.MarginSigma, b.MarginSigma) {
+		return false
+	}
 	a.FlightTimeMyrTrue, b.FlightTimeMyrTrue = 0, 0
+	a.MarginSigma, b.MarginSigma = 0, 0
 	return a == b
 }

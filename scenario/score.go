@@ -28,12 +28,17 @@ const (
 // Figures are the recovery figures of a run against the truth. A ratio
 // whose denominator is zero is NaN.
 type Figures struct {
-	// Completeness: injected (gc_ejectee, disk_runaway, halo_fast), truly
-	// unbound, adequate-data, non-artefact stars ending "unbound", over all
-	// such stars.
+	// Completeness: injected (gc_ejectee, disk_runaway, halo_fast),
+	// decidable (truly unbound, adequate data, margin >= DecidableSigma),
+	// non-artefact stars ending "unbound", over all such stars.
 	Completeness             float64
 	NCompletenessDenominator int
 	NCompletenessHits        int
+	// CompletenessAdequate is the same ratio over every injected, truly
+	// unbound, adequate-data, non-artefact star, whatever its margin.
+	CompletenessAdequate float64
+	NAdequateDenominator int
+	NAdequateHits        int
 	// Contamination: stars ending "unbound" that are truly bound or
 	// artefacts (or absent from the truth), over all stars ending
 	// "unbound".
@@ -71,8 +76,9 @@ func (f Figures) MeetsTargets() bool {
 // String is a short human-readable summary.
 func (f Figures) String() string {
 	var b strings.Builder
-	fmt.Fprintf(&b, "completeness %.1f%% (%d/%d), contamination %.1f%% (%d/%d), origin accuracy %.1f%% of %d",
+	fmt.Fprintf(&b, "completeness %.1f%% (%d/%d; %.1f%% (%d/%d) counting every margin), contamination %.1f%% (%d/%d), origin accuracy %.1f%% of %d",
 		100*f.Completeness, f.NCompletenessHits, f.NCompletenessDenominator,
+		100*f.CompletenessAdequate, f.NAdequateHits, f.NAdequateDenominator,
 		100*f.Contamination, f.NContaminating, f.NUnbound, 100*f.OriginAccuracy, f.NOriginDenominator)
 	fmt.Fprintf(&b, "; high-pm with rv %.1f%% of %d; bad rows kept %d/%d; missing %d, unknown %d",
 		100*f.HighPMWithRV, f.NHighPM, f.BadRowsKept, f.NBadRows, f.Missing, f.Unknown)
@@ -120,9 +126,15 @@ func Score(truth []TruthRow, verdicts map[string]Verdict) Figures {
 			f.Missing++
 		}
 		if Injected(t.Population) && t.TrulyUnbound && t.AdequateData && !t.Artefact {
-			f.NCompletenessDenominator++
+			f.NAdequateDenominator++
 			if unbound {
-				f.NCompletenessHits++
+				f.NAdequateHits++
+			}
+			if t.Decidable {
+				f.NCompletenessDenominator++
+				if unbound {
+					f.NCompletenessHits++
+				}
 			}
 		}
 		if unbound {
@@ -159,6 +171,7 @@ func Score(truth []TruthRow, verdicts map[string]Verdict) Figures {
 		}
 	}
 	f.Completeness = ratio(f.NCompletenessHits, f.NCompletenessDenominator)
+	f.CompletenessAdequate = ratio(f.NAdequateHits, f.NAdequateDenominator)
 	f.Contamination = ratio(f.NContaminating, f.NUnbound)
 	f.OriginAccuracy = ratio(originHits, f.NOriginDenominator)
 	f.HighPMWithRV = ratio(hpmHits, f.NHighPM)
@@ -252,7 +265,7 @@ func readTruth(r io.Reader, name string) ([]TruthRow, error) {
 		str := func(h string) string { s, _ := get(h); return s }
 		t := TruthRow{
 			StarID: str("star_id"), Population: str("population"), TrulyUnbound: flag("truly_unbound"),
-			AdequateData: flag("adequate_data"), Trap: str("trap"), Artefact: flag("artefact"),
+			AdequateData: flag("adequate_data"), MarginSigma: num("margin_sigma"), Decidable: flag("decidable"), Trap: str("trap"), Artefact: flag("artefact"),
 			OriginTrue: str("origin_true"), FlightTimeMyrTrue: num("flight_time_myr_true"),
 			VGCTrueKms: num("v_gc_true_kms"), VEscTrueKms: num("v_esc_true_kms"), DistTrueKpc: num("dist_true_kpc"),
 			PosKpc:      [3]float64{num("x_kpc"), num("y_kpc"), num("z_kpc")},

@@ -13,10 +13,18 @@ import (
 func handTruth() []TruthRow {
 	nan := math.NaN()
 	row := func(id, pop string, unbound, adequate bool, trap string) TruthRow {
-		return TruthRow{StarID: id, Population: pop, TrulyUnbound: unbound, AdequateData: adequate, Trap: trap,
-			Artefact: trap != "" && trap != TrapHighPM, FlightTimeMyrTrue: nan}
+		r := TruthRow{StarID: id, Population: pop, TrulyUnbound: unbound, AdequateData: adequate, Trap: trap,
+			Artefact: trap != "" && trap != TrapHighPM, FlightTimeMyrTrue: nan, MarginSigma: nan}
+		if adequate {
+			r.MarginSigma = 5
+		}
+		r.Decidable = unbound && adequate && r.MarginSigma >= DecidableSigma
+		return r
 	}
+	close := row("run2", PopDiskRunaway, true, true, "") // unbound by less than its errors can show
+	close.MarginSigma, close.Decidable = 1, false
 	return []TruthRow{
+		close,
 		row("gc1", PopGCEjectee, true, true, ""),
 		row("gc2", PopGCEjectee, true, true, ""),
 		row("gc3", PopGCEjectee, true, false, ""), // no usable data: not in the denominator
@@ -42,7 +50,7 @@ func TestScore(t *testing.T) {
 		"gc1": {StatusUnbound, "galactic-centre"}, "gc2": {StatusUnbound, "galactic-centre"},
 		"gc3": {StatusNeedsRV, ""}, "gc4": {"bound", "galactic-centre"}, "run1": {StatusUnbound, "disk"},
 		"fast1": {"bound", "untraced"}, "bin1": {StatusRejected, ""}, "dup1": {StatusRejected, ""},
-		"hpm1": {"bound", "disk"}, "back1": {"rejected", ""},
+		"hpm1": {"bound", "disk"}, "back1": {"rejected", ""}, "run2": {"marginal", ""},
 	}
 	with := func(changes map[string]Verdict, drop ...string) map[string]Verdict {
 		m := map[string]Verdict{}
@@ -86,7 +94,7 @@ func TestScore(t *testing.T) {
 		{name: "missing verdicts", verdicts: with(nil, "gc1", "back1"),
 			compl: 2.0 / 3, contam: 0, origin: 1, hpm: 1, nUnbound: 2, missing: 2},
 		{name: "nothing unbound", verdicts: map[string]Verdict{},
-			compl: 0, contam: math.NaN(), origin: math.NaN(), hpm: 0, nUnbound: 0, missing: 10},
+			compl: 0, contam: math.NaN(), origin: math.NaN(), hpm: 0, nUnbound: 0, missing: 11},
 	}
 	for _, c := range cases {
 		t.Run(c.name, func(t *testing.T) {
@@ -102,6 +110,11 @@ func TestScore(t *testing.T) {
 			check("high-pm with rv", f.HighPMWithRV, c.hpm)
 			if f.NCompletenessDenominator != 3 {
 				t.Errorf("completeness denominator %d, want 3 (gc1, gc2, run1)", f.NCompletenessDenominator)
+			}
+			// run2 joins the every-margin denominator and is missed
+			// (marginal, or absent) in every case.
+			if f.NAdequateDenominator != 4 || f.NAdequateHits != f.NCompletenessHits {
+				t.Errorf("every-margin completeness %d/%d, want %d/4", f.NAdequateHits, f.NAdequateDenominator, f.NCompletenessHits)
 			}
 			if f.NUnbound != c.nUnbound || f.NContaminating != c.nContam {
 				t.Errorf("unbound %d contaminating %d, want %d %d", f.NUnbound, f.NContaminating, c.nUnbound, c.nContam)
@@ -178,7 +191,7 @@ func TestScoreOracle(t *testing.T) {
 
 func TestLoadTruthErrors(t *testing.T) {
 	header := strings.Join(truthHeader, ",")
-	good := "PL-1,halo,false,true,,false,halo,,300,500,4,1,2,3,4,5,6,true,true,VB-1"
+	good := "PL-1,halo,false,true,,false,,false,halo,,300,500,4,1,2,3,4,5,6,true,true,VB-1"
 	cases := []struct {
 		name       string
 		text       string
@@ -186,8 +199,8 @@ func TestLoadTruthErrors(t *testing.T) {
 		reasonPart string
 	}{
 		{"bad bool", header + "\n" + good + "\n" + strings.Replace(good, "halo,false,true", "halo,maybe,true", 1) + "\n", 3, 3, "truly_unbound"},
-		{"bad number", header + "\n" + strings.Replace(good, ",300,", ",3o0,", 1) + "\n", 2, 9, "v_gc_true_kms"},
-		{"missing column", strings.Replace(header, ",spec_id", "", 1) + "\n", 1, 20, "spec_id"},
+		{"bad number", header + "\n" + strings.Replace(good, ",300,", ",3o0,", 1) + "\n", 2, 11, "v_gc_true_kms"},
+		{"missing column", strings.Replace(header, ",spec_id", "", 1) + "\n", 1, 22, "spec_id"},
 		{"short row", header + "\n" + "PL-1,halo\n", 2, 3, "fields"},
 		{"empty id", header + "\n" + strings.Replace(good, "PL-1", "", 1) + "\n", 2, 1, "star_id"},
 	}

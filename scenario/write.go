@@ -152,7 +152,7 @@ func (s *Scenario) writePhotometry() error {
 }
 
 // truthHeader is the header of truth.csv.
-var truthHeader = []string{"star_id", "population", "truly_unbound", "adequate_data", "trap", "artefact", "origin_true",
+var truthHeader = []string{"star_id", "population", "truly_unbound", "adequate_data", "margin_sigma", "decidable", "trap", "artefact", "origin_true",
 	"flight_time_myr_true", "v_gc_true_kms", "v_esc_true_kms", "dist_true_kpc",
 	"x_kpc", "y_kpc", "z_kpc", "vx_kms", "vy_kms", "vz_kms", "in_footprint", "has_spectrum", "spec_id"}
 
@@ -172,7 +172,7 @@ func writeTruth(path string, rows []TruthRow) error {
 	cw.row(truthHeader)
 	for _, r := range rows {
 		cw.row([]string{r.StarID, r.Population, strconv.FormatBool(r.TrulyUnbound), strconv.FormatBool(r.AdequateData),
-			r.Trap, strconv.FormatBool(r.Artefact), r.OriginTrue, fg(r.FlightTimeMyrTrue), fg(r.VGCTrueKms),
+			fg(r.MarginSigma), strconv.FormatBool(r.Decidable), r.Trap, strconv.FormatBool(r.Artefact), r.OriginTrue, fg(r.FlightTimeMyrTrue), fg(r.VGCTrueKms),
 			fg(r.VEscTrueKms), fg(r.DistTrueKpc), fg(r.PosKpc[0]), fg(r.PosKpc[1]), fg(r.PosKpc[2]),
 			fg(r.VelKms[0]), fg(r.VelKms[1]), fg(r.VelKms[2]), strconv.FormatBool(r.InFootprint),
 			strconv.FormatBool(r.HasSpectrum), r.SpecID})
