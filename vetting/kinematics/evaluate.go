@@ -20,11 +20,15 @@ type worker struct {
 	// Draws: distance (kpc), parallax implied or drawn (mas, zero point
 	// removed), proper motions (mas/yr), rv (km/s).
 	dist, plx, pmRA, pmDec, rv []float64
-	// Per-draw kinematics.
-	speed, rgc, vrad, vtan, vesc []float64
-	table                        edsdTable
-	esc                          losEscape
-	exactEscape                  bool // never tabulate the escape speed (for tests)
+	// Per-draw kinematics, stored as squares so that no draw needs a
+	// square root (the quantiler undoes the map on the order statistics):
+	// speed^2, r_gc^2, v_esc^2 and v_tan^2, and v_r |v_r| for the radial
+	// velocity, whose sign matters.
+	speed2, rgc2, vrad2, vtan2, vesc2 []float64
+	table                             edsdTable
+	esc                               losEscape
+	quant                             quantiler
+	exactEscape                       bool // never tabulate the escape speed (for tests)
 }
 
 // The escape-speed table along the line of sight (losEscape) is used when a
@@ -40,7 +44,7 @@ func (w *worker) init(n int) {
 		w.rnd = rand.New(&w.pcg)
 		w.rndV = rand.New(&w.pcgV)
 	}
-	for _, b := range []*[]float64{&w.dist, &w.plx, &w.pmRA, &w.pmDec, &w.rv, &w.speed, &w.rgc, &w.vrad, &w.vtan, &w.vesc} {
+	for _, b := range []*[]float64{&w.dist, &w.plx, &w.pmRA, &w.pmDec, &w.rv, &w.speed2, &w.rgc2, &w.vrad2, &w.vtan2, &w.vesc2} {
 		*b = resize(*b, n)
 	}
 }
@@ -92,6 +96,17 @@ func (l *lineOfSight) minSpeedVelocity(vel [3]float64) [3]float64 {
 	return [3]float64{vel[0] - k*u[0], vel[1] - k*u[1], vel[2] - k*u[2]}
 }
 
+// minSpeed returns the map whose velocities are the minimum-speed ones of
+// l for every distance and proper motion: the removal of the line-of-sight
+// component is linear, so it applies to vel0, velA and velD once per star
+// instead of once per draw; the rv term vanishes.
+func (l *lineOfSight) minSpeed() lineOfSight {
+	m := *l
+	m.vel0, m.velA, m.velD = l.minSpeedVelocity(l.vel0), l.minSpeedVelocity(l.velA), l.minSpeedVelocity(l.velD)
+	m.velR = [3]float64{}
+	return m
+}
+
 func dot(a, b [3]float64) float64 { return a[0]*b[0] + a[1]*b[1] + a[2]*b[2] }
 
 // escapeSpeed is sqrt(2 (Phi(r_lim) - Phi(x))) with Phi(r_lim) = 0 when
@@ -99,6 +114,11 @@ func dot(a, b [3]float64) float64 { return a[0]*b[0] + a[1]*b[1] + a[2]*b[2] }
 // direction of x; 0 at or beyond the escape radius (common practice, e.g.
 // Piffl et al. 2014, A&A 562, A91, eq. 1).
 func escapeSpeed(p potential.Potential, x [3]float64, rKpc, escRadiusKpc float64) float64 {
+	return math.Sqrt(escapeSpeed2(p, x, rKpc, escRadiusKpc))
+}
+
+// escapeSpeed2 is the square of escapeSpeed.
+func escapeSpeed2(p potential.Potential, x [3]float64, rKpc, escRadiusKpc float64) float64 {
 	phiLim := 0.0
 	if escRadiusKpc > 0 {
 		if rKpc >= escRadiusKpc {
@@ -111,7 +131,7 @@ func escapeSpeed(p potential.Potential, x [3]float64, rKpc, escRadiusKpc float64
 	if d <= 0 {
 		return 0
 	}
-	return math.Sqrt(2 * d)
+	return 2 * d
 }
 
 func (w *worker) evaluate(s *Star, set *Settings, p potential.Potential, r *Result) {
@@ -247,6 +267,9 @@ func (w *worker) evaluate(s *Star, set *Settings, p potential.Potential, r *Resu
 	}
 
 	los := newLineOfSight(set.Sun, s.RADeg, s.DecDeg)
+	if !r.HasRV {
+		los = los.minSpeed()
+	}
 	keep := min(set.KeepSamples, kept)
 	r.SamplePos = growVec(r.SamplePos, keep)
 	r.SampleVel = growVec(r.SampleVel, keep)
@@ -268,21 +291,18 @@ func (w *worker) evaluate(s *Star, set *Settings, p potential.Potential, r *Resu
 	unbound := 0
 	for i := range kept {
 		pos, vel := los.at(w.dist[i], w.pmRA[i], w.pmDec[i], w.rv[i])
-		if !r.HasRV {
-			vel = los.minSpeedVelocity(vel)
-		}
-		rg := math.Sqrt(dot(pos, pos))
-		v := math.Sqrt(dot(vel, vel))
-		vr := dot(pos, vel) / rg
-		var ve float64
+		r2, v2, pv := dot(pos, pos), dot(vel, vel), dot(pos, vel)
+		var ve2 float64
 		if w.esc.ok {
-			ve = w.esc.vesc(w.dist[i])
+			ve2 = w.esc.vesc2(w.dist[i])
 		} else {
-			ve = escapeSpeed(p, pos, rg, set.EscapeRadiusKpc)
+			ve2 = escapeSpeed2(p, pos, math.Sqrt(r2), set.EscapeRadiusKpc)
 		}
-		w.speed[i], w.rgc[i], w.vrad[i], w.vesc[i] = v, rg, vr, ve
-		w.vtan[i] = math.Sqrt(math.Max(0, v*v-vr*vr))
-		if v > ve {
+		vr2 := pv * pv / r2 // v_r = pos.vel / r_gc
+		w.speed2[i], w.rgc2[i], w.vesc2[i] = v2, r2, ve2
+		w.vrad2[i] = math.Copysign(vr2, pv)
+		w.vtan2[i] = max(0, v2-vr2)
+		if v2 > ve2 { // v > v_esc
 			unbound++
 		}
 		if i < keep {
@@ -290,16 +310,17 @@ func (w *worker) evaluate(s *Star, set *Settings, p potential.Potential, r *Resu
 		}
 	}
 	pUnbound := float64(unbound) / float64(kept)
-	r.DistKpc = percentiles(w.dist[:kept])
-	r.RGCKpc = median(w.rgc[:kept])
-	r.VEscKms = median(w.vesc[:kept])
+	q := &w.quant
+	r.DistKpc = q.percentiles(w.dist[:kept], nil)
+	r.RGCKpc = q.median(w.rgc2[:kept], math.Sqrt)
+	r.VEscKms = q.median(w.vesc2[:kept], math.Sqrt)
 	if r.HasRV {
-		r.SpeedKms = percentiles(w.speed[:kept])
-		r.VRadialKms = median(w.vrad[:kept])
-		r.VTangentialKms = median(w.vtan[:kept])
+		r.SpeedKms = q.percentiles(w.speed2[:kept], math.Sqrt)
+		r.VRadialKms = q.median(w.vrad2[:kept], signedSqrt)
+		r.VTangentialKms = q.median(w.vtan2[:kept], math.Sqrt)
 		r.PUnbound = pUnbound
 	} else {
-		r.SpeedLowerKms = percentiles(w.speed[:kept])
+		r.SpeedLowerKms = q.percentiles(w.speed2[:kept], math.Sqrt)
 		r.PUnboundLower = pUnbound
 	}
 	rvNom := 0.0
@@ -307,10 +328,10 @@ func (w *worker) evaluate(s *Star, set *Settings, p potential.Potential, r *Resu
 		rvNom = rvKms
 	}
 	r.PosKpc, r.VelKms = los.at(r.DistKpc[1], s.PMRAMasYr, s.PMDecMasYr, rvNom)
-	if !r.HasRV {
-		r.VelKms = los.minSpeedVelocity(r.VelKms)
-	}
 }
+
+// signedSqrt undoes x -> x |x|.
+func signedSqrt(x float64) float64 { return math.Copysign(math.Sqrt(math.Abs(x)), x) }
 
 // drawEDSD fills dist, plx, pmRA and pmDec. The distance r comes from the
 // EDSD posterior; the proper motions from their normal conditional on the

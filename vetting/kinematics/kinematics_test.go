@@ -606,7 +606,7 @@ func TestEvaluateAllCancelled(t *testing.T) {
 func TestPercentiles(t *testing.T) {
 	rnd := rand.New(rand.NewPCG(11, 12))
 	for _, n := range []int{1, 2, 3, 10, 11, 100, 601, 602, 1000, 1001, 5000} {
-		for _, kind := range []string{"normal", "duplicates", "constant", "sorted", "reversed"} {
+		for _, kind := range []string{"normal", "duplicates", "constant", "sorted", "reversed", "outlier", "denormal", "heavy-tail"} {
 			t.Run(fmt.Sprint(n, kind), func(t *testing.T) {
 				a := make([]float64, n)
 				for i := range a {
@@ -621,6 +621,15 @@ func TestPercentiles(t *testing.T) {
 						a[i] = float64(i)
 					case "reversed":
 						a[i] = float64(-i)
+					case "outlier": // one far value: every other value in one bucket
+						a[i] = rnd.NormFloat64()
+						if i == n/3 {
+							a[i] = 1e300
+						}
+					case "denormal": // a range too small for bucket arithmetic
+						a[i] = float64(rnd.IntN(7)) * 5e-324
+					case "heavy-tail": // Cauchy-like ratio of normals
+						a[i] = rnd.NormFloat64() / rnd.NormFloat64()
 					}
 				}
 				s := slices.Clone(a)
@@ -633,7 +642,7 @@ func TestPercentiles(t *testing.T) {
 					if k+1 < n {
 						want += (h - float64(k)) * (s[k+1] - s[k])
 					}
-					if math.Abs(got[q]-want) > 1e-12 {
+					if math.Abs(got[q]-want) > 1e-12*math.Abs(want) { // relative: also exact for denormals
 						t.Errorf("p%.0f: %v, want %v", 100*p, got[q], want)
 					}
 				}

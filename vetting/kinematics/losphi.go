@@ -2,7 +2,6 @@ package kinematics
 
 import (
 	"math"
-	"sort"
 
 	"starvet/vetting/potential"
 )
@@ -20,6 +19,8 @@ import (
 // exactly for every draw instead.
 type losEscape struct {
 	d, psi, dpsi []float64 // nodes: distance, value and derivative in d
+	guide        []int     // cell lookup, see buildGuide
+	guideScale   float64   // guide entries per kpc
 	ok           bool      // false: evaluate exactly per draw
 }
 
@@ -89,6 +90,7 @@ func (t *losEscape) build(p potential.Potential, l *lineOfSight, dMin, dMax, esc
 		}
 		a, pa, da = b, pb, db
 	}
+	t.buildGuide()
 	t.ok = true
 }
 
@@ -117,14 +119,42 @@ func hermite(p0, d0, p1, d1, h, s float64) float64 {
 }
 
 // vesc returns the interpolated escape speed at distance d.
-func (t *losEscape) vesc(d float64) float64 {
+func (t *losEscape) vesc(d float64) float64 { return math.Sqrt(t.vesc2(d)) }
+
+// vesc2 returns the interpolated square of the escape speed at distance d.
+func (t *losEscape) vesc2(d float64) float64 {
 	n := len(t.d)
-	i := sort.SearchFloat64s(t.d, d) - 1 // t.d[i] < d <= t.d[i+1]
-	i = max(0, min(i, n-2))
+	g := int((d - t.d[0]) * t.guideScale)
+	i := t.guide[max(0, min(g, len(t.guide)-1))]
+	for i < n-2 && d > t.d[i+1] {
+		i++
+	}
+	for i > 0 && d < t.d[i] { // rounding in g
+		i--
+	}
 	h := t.d[i+1] - t.d[i]
 	psi := hermite(t.psi[i], t.dpsi[i], t.psi[i+1], t.dpsi[i+1], h, (d-t.d[i])/h)
 	if psi <= 0 {
 		return 0
 	}
-	return math.Sqrt(2 * psi)
+	return 2 * psi
+}
+
+// buildGuide fills the guide: guide[g] is the cell holding the start of
+// the g-th of len(guide) equal distance intervals, so a lookup scans a cell
+// or two from there (a guide table as in Chen & Asau 1974, J. Chinese Inst.
+// Eng. 2, 197, from memory, on distances instead of probabilities).
+func (t *losEscape) buildGuide() {
+	n := len(t.d)
+	ng := 2 * (n - 1)
+	t.guide = resizeInt(t.guide, ng)
+	t.guideScale = float64(ng) / (t.d[n-1] - t.d[0])
+	i := 0
+	for g := range ng {
+		x := t.d[0] + float64(g)/t.guideScale
+		for i < n-2 && x >= t.d[i+1] {
+			i++
+		}
+		t.guide[g] = i
+	}
 }

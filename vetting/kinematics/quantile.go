@@ -6,112 +6,233 @@ import "math"
 // the ±1 sigma points of a normal (common practice).
 var percentileLevels = [3]float64{0.16, 0.50, 0.84}
 
-// median returns {NaN, median, NaN} of a (reordered in place), with the
-// same definition as percentiles: for the quantities whose spread nobody
-// reads it halves the selection work.
-func median(a []float64) [3]float64 {
+// quantiler selects order statistics; it holds scratch space so that a
+// worker selects without allocating. The zero value is ready to use.
+//
+// Percentiles follow Hyndman & Fan 1996 (Am. Stat. 50, 361) definition 7:
+// position h = (n-1) p, interpolated linearly between the order statistics
+// floor(h) and floor(h)+1.
+//
+// The values may be stored through a monotone non-decreasing map (a square,
+// say, to spare a square root per draw): back is applied to the two order
+// statistics before interpolating, which gives the percentiles of the
+// unmapped values, because a monotone map keeps the order.
+type quantiler struct {
+	bucket []uint8   // bucket of each value
+	picked []float64 // the values of the buckets that hold a wanted rank
+}
+
+// selectBuckets is the number of equal-width value buckets of the
+// distribution selection (orderStats); with n = 1000 draws about four
+// values share a bucket.
+const selectBuckets = 256
+
+// smallSort: collections up to this length are insertion-sorted, longer
+// ones go through Floyd-Rivest selection.
+const smallSort = 48
+
+// percentiles returns the 16th, 50th and 84th percentiles of a (a may be
+// reordered). back, if not nil, maps stored values to reported ones
+// (see quantiler). Any NaN gives NaN.
+func (q *quantiler) percentiles(a []float64, back func(float64) float64) [3]float64 {
 	n := len(a)
 	out := [3]float64{math.NaN(), math.NaN(), math.NaN()}
 	if n == 0 {
 		return out
 	}
-	for _, x := range a {
-		if x != x {
-			return out
-		}
+	var ranks [6]int
+	var frac [3]float64
+	for i, p := range percentileLevels {
+		h := float64(n-1) * p
+		k := int(h)
+		frac[i] = h - float64(k)
+		ranks[2*i], ranks[2*i+1] = k, min(k+1, n-1)
+	}
+	var v [6]float64
+	if !q.orderStats(a, ranks[:], v[:]) {
+		return out
+	}
+	for i := range 3 {
+		out[i] = interpolate(v[2*i], v[2*i+1], frac[i], back)
+	}
+	return out
+}
+
+// median returns {NaN, median, NaN} of a with the same definition as
+// percentiles, for the quantities whose spread nobody reads.
+func (q *quantiler) median(a []float64, back func(float64) float64) [3]float64 {
+	n := len(a)
+	out := [3]float64{math.NaN(), math.NaN(), math.NaN()}
+	if n == 0 {
+		return out
 	}
 	h := float64(n-1) * 0.5
 	k := int(h)
-	selectK(a, 0, n, k)
-	out[1] = a[k]
-	if frac := h - float64(k); frac > 0 && k+1 < n {
-		out[1] += frac * (minOf(a[k+1:]) - a[k])
+	ranks := [2]int{k, min(k+1, n-1)}
+	var v [2]float64
+	if !q.orderStats(a, ranks[:], v[:]) {
+		return out
 	}
+	out[1] = interpolate(v[0], v[1], h-float64(k), back)
 	return out
 }
 
-// percentiles returns the 16th, 50th and 84th percentiles of a (reordered in
-// place) by Hyndman & Fan 1996 (Am. Stat. 50, 361) definition 7: position
-// h = (n-1) p, interpolated linearly between the order statistics floor(h)
-// and floor(h)+1. Selection instead of sorting keeps it O(n).
-func percentiles(a []float64) [3]float64 {
+func interpolate(lo, hi, frac float64, back func(float64) float64) float64 {
+	if back != nil {
+		lo, hi = back(lo), back(hi)
+	}
+	if frac > 0 {
+		return lo + frac*(hi-lo)
+	}
+	return lo
+}
+
+// percentiles and median without a reusable quantiler (tests).
+func percentiles(a []float64) [3]float64 { return new(quantiler).percentiles(a, nil) }
+func median(a []float64) [3]float64      { return new(quantiler).median(a, nil) }
+
+// orderStats stores in v[i] the order statistic of rank ranks[i] (0-based:
+// the value at that index after sorting a; at most 8 ranks). It returns
+// false when a holds a NaN, which has no place in the order. a may be
+// reordered.
+//
+// Distribution selection (e.g. Knuth, TAOCP vol. 3, 2nd ed., sec. 5.2.5,
+// distribution sorting, here stopped after one pass): the values are
+// spread over equal-width buckets between their minimum and maximum, the
+// bucket counts locate the bucket of every wanted rank, and only the
+// values in those buckets are collected and ordered. Three linear passes
+// over a with few unpredictable branches; partition-based selection
+// spends most of its time on mispredicted comparisons.
+func (q *quantiler) orderStats(a []float64, ranks []int, v []float64) bool {
 	n := len(a)
-	if n == 0 {
-		return [3]float64{math.NaN(), math.NaN(), math.NaN()}
-	}
+	lo, hi := a[0], a[0]
 	for _, x := range a {
-		if x != x { // NaN: no order; selection needs a total order
-			return [3]float64{math.NaN(), math.NaN(), math.NaN()}
+		if x != x {
+			return false
+		}
+		if x < lo {
+			lo = x
+		}
+		if x > hi {
+			hi = x
 		}
 	}
-	var k [3]int
-	var frac [3]float64
-	for q, p := range percentileLevels {
-		h := float64(n-1) * p
-		k[q] = int(h)
-		frac[q] = h - float64(k[q])
-	}
-	// The median first over everything, then the 84th in the upper part
-	// and the 16th in the lower part. next[q] is order statistic k[q]+1.
-	var v, next [3]float64
-	selectK(a, 0, n, k[1])
-	v[1] = a[k[1]]
-	if k[2] > k[1] {
-		selectK(a, k[1]+1, n, k[2])
-		v[2] = a[k[2]]
-		next[1] = minOf(a[k[1]+1 : k[2]+1])
-		if k[2]+1 < n {
-			next[2] = minOf(a[k[2]+1:])
+	if lo == hi {
+		for i := range ranks {
+			v[i] = lo
 		}
-	} else {
-		if k[1]+1 < n {
-			next[1] = minOf(a[k[1]+1:])
-		}
-		v[2], next[2] = v[1], next[1]
+		return true
 	}
-	if k[0] < k[1] {
-		selectK(a, 0, k[1], k[0])
-		v[0] = a[k[0]]
-		next[0] = a[k[1]]
-		if k[0]+1 < k[1] {
-			next[0] = minOf(a[k[0]+1 : k[1]])
-		}
-	} else {
-		v[0], next[0] = v[1], next[1]
+	scale := selectBuckets / (hi - lo)
+	if math.IsInf(scale, 0) || math.IsInf(hi-lo, 0) {
+		// A range too small or too large for the bucket arithmetic.
+		q.selectEach(a, ranks, v)
+		return true
 	}
-	var out [3]float64
-	for q := range 3 {
-		out[q] = v[q]
-		if frac[q] > 0 && k[q]+1 < n {
-			out[q] += frac[q] * (next[q] - v[q])
+	q.bucket = resizeUint8(q.bucket, n)
+	var count [selectBuckets]int32
+	for i, x := range a {
+		// x - lo and the product are monotone in x, so buckets keep the
+		// order: a value in a lower bucket is never larger.
+		b := min(int((x-lo)*scale), selectBuckets-1)
+		q.bucket[i] = uint8(b)
+		count[b]++
+	}
+	// first[b]: rank of the smallest value in bucket b.
+	var first [selectBuckets + 1]int32
+	for b := range selectBuckets {
+		first[b+1] = first[b] + count[b]
+	}
+	var wanted [selectBuckets]bool
+	var where [8]int // bucket of each rank
+	for i, k := range ranks {
+		b := bucketOfRank(&first, k)
+		where[i] = b
+		wanted[b] = true
+	}
+	// The wanted buckets' values, grouped by bucket in increasing order
+	// (a counting-sort placement): bucket b's values start at offset[b].
+	var offset, fill [selectBuckets]int32
+	total := int32(0)
+	for b := range selectBuckets {
+		if wanted[b] {
+			offset[b] = total
+			total += count[b]
 		}
 	}
-	return out
+	q.picked = resize(q.picked, int(total))
+	for i, x := range a {
+		if b := q.bucket[i]; wanted[b] {
+			q.picked[offset[b]+fill[b]] = x
+			fill[b]++
+		}
+	}
+	// Order within a bucket: sort it when small, else select (a narrow
+	// peak with far outliers puts many values in a few buckets).
+	var sorted [selectBuckets]bool
+	for i, k := range ranks {
+		b := where[i]
+		seg := q.picked[offset[b] : offset[b]+count[b]]
+		j := k - int(first[b])
+		if !sorted[b] && len(seg) <= smallSort {
+			insertionSort(seg)
+			sorted[b] = true
+		}
+		if !sorted[b] {
+			floydRivest(seg, 0, len(seg)-1, j)
+		}
+		v[i] = seg[j]
+	}
+	return true
 }
 
-func minOf(a []float64) float64 {
-	m := a[0]
-	for _, x := range a[1:] {
-		if x < m {
-			m = x
+// bucketOfRank returns the bucket b with first[b] <= k < first[b+1].
+func bucketOfRank(first *[selectBuckets + 1]int32, k int) int {
+	lo, hi := 0, selectBuckets // first[lo] <= k < first[hi]
+	for hi-lo > 1 {
+		mid := (lo + hi) / 2
+		if int(first[mid]) <= k {
+			lo = mid
+		} else {
+			hi = mid
 		}
 	}
-	return m
+	return lo
 }
 
-// selectK reorders a[lo:hi] so that a[k] is the element that would be there
-// after sorting, smaller or equal ones before it and larger or equal ones
-// after. Floyd & Rivest 1975 (CACM 18, 173, algorithm SELECT): a recursive
-// call on a small sample places a pivot close to rank k, so one partition
-// pass over the range is nearly all the work (about n + min(k, n-k)
-// comparisons against some 3n for Hoare's FIND).
-func selectK(a []float64, lo, hi, k int) {
-	floydRivest(a, lo, hi-1, k)
+// selectEach is orderStats by Floyd-Rivest selection, one rank at a time
+// (each selection is correct from any arrangement of a); it reorders a.
+func (q *quantiler) selectEach(a []float64, ranks []int, v []float64) {
+	for i, k := range ranks {
+		floydRivest(a, 0, len(a)-1, k)
+		v[i] = a[k]
+	}
 }
 
-// floydRivest works on the inclusive range [left, right]; the constants 600,
-// 0.5 and 2/3 are the published ones (as given, e.g., by Kiwiel 2005, Comput.
-// Optim. Appl. 32, 183; from memory).
+func insertionSort(a []float64) {
+	for i := 1; i < len(a); i++ {
+		x := a[i]
+		j := i
+		for ; j > 0 && a[j-1] > x; j-- {
+			a[j] = a[j-1]
+		}
+		a[j] = x
+	}
+}
+
+func resizeUint8(b []uint8, n int) []uint8 {
+	if cap(b) >= n {
+		return b[:n]
+	}
+	return make([]uint8, n)
+}
+
+// floydRivest reorders a[left:right+1] so that a[k] is the element that
+// would be there after sorting, smaller or equal ones before it and larger
+// or equal ones after. Floyd & Rivest 1975 (CACM 18, 173, algorithm
+// SELECT): a recursive call on a small sample places a pivot close to rank
+// k; the constants 600, 0.5 and 2/3 are the published ones (as given, e.g.,
+// by Kiwiel 2005, Comput. Optim. Appl. 32, 183; from memory).
 func floydRivest(a []float64, left, right, k int) {
 	for right > left {
 		if right-left > 600 {
