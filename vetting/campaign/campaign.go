@@ -86,13 +86,17 @@ type Kinematics struct {
 	EDSDLengthKpc        float64
 	MinParallaxOverError float64
 	Samples              int
-	UnboundP             float64
-	MarginalP            float64
-	TraceMinP            float64
-	TraceSamples         int
-	TraceMyr             float64
-	GCRadiusKpc          float64
-	DiskRadiusKpc        float64
+	// VelocityPriorKms is the dispersion of the isotropic normal prior on
+	// the Galactocentric velocity that reweights the Monte Carlo draws
+	// (kinematics package doc); 0 keeps the flat prior.
+	VelocityPriorKms float64
+	UnboundP         float64
+	MarginalP        float64
+	TraceMinP        float64
+	TraceSamples     int
+	TraceMyr         float64
+	GCRadiusKpc      float64
+	DiskRadiusKpc    float64
 }
 
 // Defaults that are not taken from another package.
@@ -111,10 +115,17 @@ const (
 	DefaultSecondaryPositionErrMas = 100.0
 )
 
+// DefaultVelocityPriorKms is the default velocity prior: wider than the
+// stellar halo's velocity ellipsoid in every direction (sigma_r, sigma_phi,
+// sigma_theta about 141, 75 and 85 km/s near the Sun, Bond et al. 2010, ApJ
+// 716, 1, from memory), so it only bites where the measurement errors are
+// larger than the halo's own spread. The value is our choice.
+const DefaultVelocityPriorKms = 150.0
+
 // DefaultKinematics returns the [kinematics] defaults (our choices).
 func DefaultKinematics() Kinematics {
 	return Kinematics{Distance: "auto", EDSDLengthKpc: 1.35, MinParallaxOverError: 5, Samples: 1000,
-		UnboundP: 0.8, MarginalP: 0.5, TraceMinP: 0.5, TraceSamples: 200, TraceMyr: 300,
+		VelocityPriorKms: DefaultVelocityPriorKms, UnboundP: 0.8, MarginalP: 0.5, TraceMinP: 0.5, TraceSamples: 200, TraceMyr: 300,
 		GCRadiusKpc: 1, DiskRadiusKpc: 25}
 }
 
@@ -201,6 +212,7 @@ type rawKinemat struct {
 	EDSDLengthKpc        *float64 `toml:"edsd_length_kpc"`
 	MinParallaxOverError *float64 `toml:"min_parallax_over_error"`
 	Samples              *int     `toml:"samples"`
+	VelocityPriorKms     *float64 `toml:"velocity_prior_kms"`
 	UnboundP             *float64 `toml:"unbound_p"`
 	MarginalP            *float64 `toml:"marginal_p"`
 	TraceMinP            *float64 `toml:"trace_min_p"`
@@ -542,6 +554,7 @@ func (p *parser) kinematics(c *Campaign, rk *rawKinemat) {
 	}
 	f(&k.EDSDLengthKpc, rk.EDSDLengthKpc, "edsd_length_kpc", 0, false)
 	f(&k.MinParallaxOverError, rk.MinParallaxOverError, "min_parallax_over_error", 0, false)
+	f(&k.VelocityPriorKms, rk.VelocityPriorKms, "velocity_prior_kms", 0, true)
 	f(&k.UnboundP, rk.UnboundP, "unbound_p", 0, true)
 	f(&k.MarginalP, rk.MarginalP, "marginal_p", 0, true)
 	f(&k.TraceMinP, rk.TraceMinP, "trace_min_p", 0, true)

@@ -51,7 +51,7 @@ func TestLoadFull(t *testing.T) {
 		{"potential", c.Potential, Potential{EscapeRadiusKpc: 50, Components: []Component{
 			{Kind: "point", MassMsun: 4e6}, {Kind: "hernquist", MassMsun: 3.76e9, AKpc: 0.1},
 			{Kind: "miyamoto-nagai", MassMsun: 6e10, AKpc: 2.75, BKpc: 0.3}, {Kind: "nfw", MassMsun: 8e11, ScaleKpc: 20}}}},
-		{"kinematics", c.Kinematics, Kinematics{Distance: "edsd", EDSDLengthKpc: 1.5, MinParallaxOverError: 4, Samples: 500,
+		{"kinematics", c.Kinematics, Kinematics{Distance: "edsd", EDSDLengthKpc: 1.5, MinParallaxOverError: 4, Samples: 500, VelocityPriorKms: 120,
 			UnboundP: 0.9, MarginalP: 0.6, TraceMinP: 0.4, TraceSamples: 100, TraceMyr: 250, GCRadiusKpc: 2, DiskRadiusKpc: 30}},
 	}
 	for _, ch := range checks {
@@ -99,7 +99,7 @@ func TestDefaults(t *testing.T) {
 		// 2019, MNRAS 482, 1417; (U,V,W): Drimmel & Poggio 2018, RNAAS 2, 210.
 		{"galaxy", c.Galaxy, Galaxy{SunDistanceKpc: 8.122, SunHeightPc: 20.8, SunVelocityKms: [3]float64{12.9, 245.6, 7.78}}},
 		{"potential left to integrator", c.Potential, Potential{}},
-		{"kinematics", c.Kinematics, Kinematics{Distance: "auto", EDSDLengthKpc: 1.35, MinParallaxOverError: 5, Samples: 1000,
+		{"kinematics", c.Kinematics, Kinematics{Distance: "auto", EDSDLengthKpc: 1.35, MinParallaxOverError: 5, Samples: 1000, VelocityPriorKms: 150,
 			UnboundP: 0.8, MarginalP: 0.5, TraceMinP: 0.5, TraceSamples: 200, TraceMyr: 300, GCRadiusKpc: 1, DiskRadiusKpc: 25}},
 		{"primary pos err", c.Catalogs[0].PositionErrMas, 0.0},
 		{"secondary pos err", c.Catalogs[1].PositionErrMas, 100.0},
@@ -180,6 +180,7 @@ func TestErrors(t *testing.T) {
 		{"zero samples", baseText + "[kinematics]\nsamples = 0\n", ErrBadValue, 13, "kinematics.samples"},
 		{"samples not integer", baseText + "[kinematics]\nsamples = 10.5\n", ErrSyntax, 13, ""},
 		{"negative edsd length", baseText + "[kinematics]\nedsd_length_kpc = -1\n", ErrBadValue, 13, "kinematics.edsd_length_kpc"},
+		{"negative velocity prior", baseText + "[kinematics]\nvelocity_prior_kms = -5\n", ErrBadValue, 13, "kinematics.velocity_prior_kms"},
 		{"dotted key in table", strings.Replace(baseText, "epoch = 2020.5", "epoch = 2020.5\ncolumns.paralax = \"p\"", 1), ErrUnknownField, 12, "catalog[2].columns.paralax"},
 	}
 	for _, c := range cases {
