@@ -2,6 +2,7 @@ package kinematics
 
 import (
 	"math"
+	"math/rand/v2"
 	"testing"
 )
 
@@ -78,5 +79,29 @@ func TestCatalogDistanceExcludedByParallax(t *testing.T) {
 	r := eval(s, set)
 	if r.OK || !hasReason(r, ReasonPlxConflict) {
 		t.Fatalf("want a fatal %s reason, got ok=%v %+v", ReasonPlxConflict, r.OK, r.Reasons)
+	}
+}
+
+// logBelow decides ln(u) < t as math.Log does, near and far from the
+// bounds it uses.
+func TestLogBelow(t *testing.T) {
+	rnd := rand.New(rand.NewPCG(21, 22))
+	for i := range 200000 {
+		u := rnd.Float64()
+		var th float64
+		switch i % 3 {
+		case 0:
+			th = -3 * rnd.Float64()
+		case 1:
+			th = math.Log(u) * (1 + 1e-9*rnd.NormFloat64()) // at the boundary
+		default:
+			th = (u - 1) * (1 - 1e-6*rnd.Float64())
+		}
+		if got, want := logBelow(u, th), math.Log(u) < th; got != want {
+			t.Fatalf("logBelow(%v, %v) = %v, want %v", u, th, got, want)
+		}
+	}
+	if !logBelow(0, -50) || logBelow(0.5, math.Log(0.5)) {
+		t.Error("edge cases")
 	}
 }

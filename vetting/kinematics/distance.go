@@ -10,12 +10,21 @@ import (
 type catalogDistance struct {
 	modulus     bool
 	mean, sigma float64 // kpc, or mag for a modulus
+	// A modulus mu + sigma z is the distance d(mu) exp(z sigma ln(10)/5)
+	// (from d = 10^(mu/5 + 1) pc): one exp per draw instead of a pow.
+	modKpc, lnSpread float64
+}
+
+// newModulusDistance is the catalog distance of a modulus muMag +- sigmaMag.
+func newModulusDistance(muMag, sigmaMag float64) catalogDistance {
+	return catalogDistance{modulus: true, mean: muMag, sigma: sigmaMag,
+		modKpc: distanceFromModulusKpc(muMag), lnSpread: sigmaMag * math.Ln10 / 5}
 }
 
 // draw returns one distance in kpc.
 func (c catalogDistance) draw(rnd *rand.Rand) float64 {
 	if c.modulus {
-		return distanceFromModulusKpc(c.mean + c.sigma*rnd.NormFloat64())
+		return c.modKpc * math.Exp(c.lnSpread*rnd.NormFloat64())
 	}
 	if c.sigma == 0 {
 		return c.mean
@@ -47,7 +56,7 @@ func chooseDistance(s *Star, set *Settings, r *Result) (string, catalogDistance)
 	var catProblem string
 	switch {
 	case finite(s.DistMod) && finite(s.DistModErr):
-		cat, catOK = catalogDistance{modulus: true, mean: s.DistMod, sigma: s.DistModErr}, true
+		cat, catOK = newModulusDistance(s.DistMod, s.DistModErr), true
 	case finite(s.DistKpc) && finite(s.DistErrKpc) && s.DistKpc > 0:
 		cat, catOK = catalogDistance{mean: s.DistKpc, sigma: s.DistErrKpc}, true
 	case finite(s.DistMod):

@@ -44,7 +44,7 @@ func splitmix64(x uint64) uint64 {
 // gauss draws from a normal of up to three dimensions. Components with zero
 // variance are held at their mean (a zero uncertainty collapses the draw to
 // the measured value); the others go through distmv, which checks that their
-// covariance is positive definite.
+// covariance is positive definite and factorises it.
 type gauss struct {
 	dim    int
 	mean   [3]float64
@@ -55,7 +55,7 @@ type gauss struct {
 
 // newGauss prepares draws from N(mean, cov) over the first dim components.
 // ok is false when the covariance of the active components is not positive
-// definite.
+// definite. Called once per star: the per-draw work is in draw.
 func newGauss(dim int, mean [3]float64, cov *[3][3]float64, src rand.Source) (g gauss, ok bool) {
 	g.dim, g.mean = dim, mean
 	for i := range dim {
@@ -64,33 +64,54 @@ func newGauss(dim int, mean [3]float64, cov *[3][3]float64, src rand.Source) (g 
 			g.nAct++
 		}
 	}
-	if g.nAct == 0 {
+	n := g.nAct
+	if n == 0 {
 		return g, true
 	}
-	sym := mat.NewSymDense(g.nAct, nil)
-	mu := make([]float64, g.nAct)
-	for a := range g.nAct {
-		mu[a] = mean[g.active[a]]
-		for b := a; b < g.nAct; b++ {
+	sym := mat.NewSymDense(n, nil)
+	for a := range n {
+		for b := a; b < n; b++ {
 			sym.SetSym(a, b, cov[g.active[a]][g.active[b]])
 		}
 	}
-	if _, ok := distmv.NewNormal(mu, sym, src); !ok {
+	// Zero mean: distmv then maps a unit vector e_b to column b of its
+	// Cholesky factor exactly, so the factor used per draw is distmv's own.
+	var zero, e, col [3]float64
+	nrm, ok := distmv.NewNormal(zero[:n], sym, src)
+	if !ok {
 		return g, false
 	}
-	// distmv keeps its factor private; factorise again for the fast
-	// per-draw transform (identical numbers, see TestGaussMatchesDistmv).
-	var chol mat.Cholesky
-	if !chol.Factorize(sym) {
-		return g, false
-	}
-	u := chol.RawU()
-	for a := range g.nAct {
-		for b := 0; b <= a; b++ {
-			g.lower[a][b] = u.At(b, a)
+	for b := range n {
+		e = [3]float64{}
+		e[b] = 1
+		nrm.TransformNormal(col[:n], e[:n])
+		for a := range n {
+			g.lower[a][b] = col[a]
 		}
 	}
 	return g, true
+}
+
+// conditionalOnFirst returns the sampler of components 1..dim-1 given
+// component 0, with zero mean (the caller adds the regression on component
+// 0). With L = [[l11, 0], [L21, L22]] the covariance of the rest given the
+// first, S22 - S21 S12 / S11, equals L22 L22^T (the block form of the
+// Cholesky factorisation, e.g. Golub & Van Loan 2013, Matrix Computations,
+// 4th ed., sec. 4.2.5), so the factor needs no second factorisation.
+func (g *gauss) conditionalOnFirst() gauss {
+	c := gauss{dim: g.dim - 1}
+	skip := 0
+	if g.nAct > 0 && g.active[0] == 0 {
+		skip = 1
+	}
+	for a := skip; a < g.nAct; a++ {
+		c.active[c.nAct] = g.active[a] - 1
+		for b := skip; b <= a; b++ {
+			c.lower[a-skip][b-skip] = g.lower[a][b]
+		}
+		c.nAct++
+	}
+	return c
 }
 
 // draw fills x[:dim] with one draw, taking nAct standard normals from rnd in

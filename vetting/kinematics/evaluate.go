@@ -227,13 +227,13 @@ func (w *worker) evaluate(s *Star, set *Settings, p potential.Potential, r *Resu
 			return
 		}
 	case MethodEDSD:
-		if !w.drawEDSD(s, set, &cov, mean, r) {
+		if !w.drawEDSD(s, set, &cov, &joint, mean, r) {
 			return
 		}
 		kept = n
 	case MethodCatalog:
 		if sw > 0 {
-			if !w.drawCatalogWithParallax(set, &cov, mean, catDist, r) {
+			if !w.drawCatalogWithParallax(set, &cov, &joint, mean, catDist, r) {
 				return
 			}
 		} else {
@@ -344,14 +344,10 @@ func signedSqrt(x float64) float64 { return math.Copysign(math.Sqrt(math.Abs(x))
 // prior on the true proper motions this is the exact joint posterior of
 // (r, mu): the marginal of r is the EDSD posterior of the parallax alone, and
 // the parallax-pm correlations survive in the draws.
-func (w *worker) drawEDSD(s *Star, set *Settings, cov *[3][3]float64, mean [3]float64, r *Result) bool {
+func (w *worker) drawEDSD(s *Star, set *Settings, cov *[3][3]float64, joint *gauss, mean [3]float64, r *Result) bool {
 	n := set.Samples
 	wObs, sw := mean[0], math.Sqrt(cov[0][0])
-	beta, g, ok := conditionalPM(cov, w)
-	if !ok {
-		r.fail(ReasonCovariance, "covariance of parallax and proper motions not positive definite")
-		return false
-	}
+	beta, g := conditionalPM(cov, joint)
 	if sw == 0 {
 		// A zero parallax error: the posterior is the point 1/w.
 		if wObs <= 0 {
@@ -400,14 +396,10 @@ const maxCatalogTries = 200
 // from their normal conditional on the true parallax 1/d, as for EDSD, so
 // the parallax-pm correlations are kept. A parallax of low significance
 // leaves the catalog distance almost unchanged; a discordant one pulls it.
-func (w *worker) drawCatalogWithParallax(set *Settings, cov *[3][3]float64, mean [3]float64, cat catalogDistance, r *Result) bool {
+func (w *worker) drawCatalogWithParallax(set *Settings, cov *[3][3]float64, joint *gauss, mean [3]float64, cat catalogDistance, r *Result) bool {
 	n := set.Samples
 	wObs, sw := mean[0], math.Sqrt(cov[0][0])
-	beta, g, ok := conditionalPM(cov, w)
-	if !ok {
-		r.fail(ReasonCovariance, "covariance of parallax and proper motions not positive definite")
-		return false
-	}
+	beta, g := conditionalPM(cov, joint)
 	lnLMax := 0.0
 	if wObs <= 0 {
 		lnLMax = -wObs * wObs / (2 * sw * sw)
@@ -422,7 +414,7 @@ func (w *worker) drawCatalogWithParallax(set *Settings, cov *[3][3]float64, mean
 			tries++
 			d := cat.draw(w.rnd)
 			z := (wObs - 1/d) / sw
-			if math.Log(w.rnd.Float64()) < -z*z/2-lnLMax {
+			if logBelow(w.rnd.Float64(), -z*z/2-lnLMax) {
 				w.drawPM(i, d, wObs, mean, beta, &g)
 				break
 			}
@@ -434,28 +426,32 @@ func (w *worker) drawCatalogWithParallax(set *Settings, cov *[3][3]float64, mean
 	return true
 }
 
-// conditionalPM returns the regression of the proper motions on the
-// parallax and a sampler of their conditional normal.
-func conditionalPM(cov *[3][3]float64, w *worker) ([2]float64, gauss, bool) {
-	var beta [2]float64
-	var cond [3][3]float64
-	for i := range 2 {
-		for j := range 2 {
-			cond[i][j] = cov[i+1][j+1]
-		}
+// logBelow reports ln(u) < t for u in [0, 1). The bounds
+// 1 - 1/u <= ln(u) <= u - 1 (from ln(x) <= x - 1, e.g. Abramowitz & Stegun
+// 1964, 4.1.33, from memory) decide most cases without the logarithm; the margin keeps
+// the decision that of math.Log.
+func logBelow(u, t float64) bool {
+	const margin = 1e-12
+	switch {
+	case u-1 < t-margin:
+		return true
+	case 1-1/u > t+margin:
+		return false
 	}
+	return math.Log(u) < t
+}
+
+// conditionalPM returns the regression of the proper motions on the
+// parallax and a sampler of their conditional normal; joint is the sampler
+// of (parallax, pm_ra, pm_dec) with covariance cov.
+func conditionalPM(cov *[3][3]float64, joint *gauss) ([2]float64, gauss) {
+	var beta [2]float64
 	if cov[0][0] > 0 {
 		for i := range 2 {
 			beta[i] = cov[0][i+1] / cov[0][0]
 		}
-		for i := range 2 {
-			for j := range 2 {
-				cond[i][j] -= cov[0][i+1] * cov[0][j+1] / cov[0][0]
-			}
-		}
 	}
-	g, ok := newGauss(2, [3]float64{}, &cond, w.rnd)
-	return beta, g, ok
+	return beta, joint.conditionalOnFirst()
 }
 
 func growVec(b [][3]float64, n int) [][3]float64 {
