@@ -2,7 +2,6 @@ package kinematics
 
 import (
 	"math"
-	"math/rand/v2"
 )
 
 // catalogDistance is an independent distance: normal in kpc truncated at
@@ -22,9 +21,9 @@ func newModulusDistance(muMag, sigmaMag float64) catalogDistance {
 }
 
 // draw returns one distance in kpc.
-func (c catalogDistance) draw(rnd *rand.Rand) float64 {
+func (c catalogDistance) draw(rnd *stream) float64 {
 	if c.modulus {
-		return c.modKpc * math.Exp(c.lnSpread*rnd.NormFloat64())
+		return c.modKpc * math.Exp(c.lnSpread*rnd.norm())
 	}
 	if c.sigma == 0 {
 		return c.mean
@@ -32,7 +31,7 @@ func (c catalogDistance) draw(rnd *rand.Rand) float64 {
 	// Rejection from the untruncated normal; the mean is positive, so at
 	// least half the draws are accepted.
 	for {
-		if d := c.mean + c.sigma*rnd.NormFloat64(); d > 0 {
+		if d := c.mean + c.sigma*rnd.norm(); d > 0 {
 			return d
 		}
 	}

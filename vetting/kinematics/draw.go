@@ -116,11 +116,11 @@ func (g *gauss) conditionalOnFirst() gauss {
 
 // draw fills x[:dim] with one draw, taking nAct standard normals from rnd in
 // the same order as distmv.Normal.Rand.
-func (g *gauss) draw(rnd *rand.Rand, x *[3]float64) {
+func (g *gauss) draw(rnd *stream, x *[3]float64) {
 	*x = g.mean
 	var z [3]float64
 	for a := range g.nAct {
-		z[a] = rnd.NormFloat64()
+		z[a] = rnd.norm()
 	}
 	for a := range g.nAct {
 		var s float64

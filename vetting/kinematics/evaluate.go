@@ -2,7 +2,6 @@ package kinematics
 
 import (
 	"math"
-	"math/rand/v2"
 
 	"starvet/vetting/frames"
 	"starvet/vetting/potential"
@@ -12,10 +11,8 @@ const degToRad = math.Pi / 180
 
 // worker holds the per-goroutine scratch space; one worker per goroutine.
 type worker struct {
-	pcg  rand.PCG
-	rnd  *rand.Rand
-	pcgV rand.PCG
-	rndV *rand.Rand
+	rnd  stream // astrometry and distance
+	rndV stream // radial velocity
 
 	// Draws: distance (kpc), parallax implied or drawn (mas, zero point
 	// removed), proper motions (mas/yr), rv (km/s).
@@ -40,10 +37,6 @@ const (
 )
 
 func (w *worker) init(n int) {
-	if w.rnd == nil {
-		w.rnd = rand.New(&w.pcg)
-		w.rndV = rand.New(&w.pcgV)
-	}
 	for _, b := range []*[]float64{&w.dist, &w.plx, &w.pmRA, &w.pmDec, &w.rv, &w.speed2, &w.rgc2, &w.vrad2, &w.vtan2, &w.vesc2} {
 		*b = resize(*b, n)
 	}
@@ -183,8 +176,8 @@ func (w *worker) evaluate(s *Star, set *Settings, p potential.Potential, r *Resu
 
 	n := set.Samples
 	w.init(n)
-	w.pcg.Seed(starSeed(set.Seed, s.ID, streamAstrometry))
-	w.pcgV.Seed(starSeed(set.Seed, s.ID, streamRV))
+	w.rnd.seed(starSeed(set.Seed, s.ID, streamAstrometry))
+	w.rndV.seed(starSeed(set.Seed, s.ID, streamRV))
 
 	// Covariance of (parallax, pm_ra, pm_dec); the parallax row is only
 	// used by the parallax methods.
@@ -199,7 +192,7 @@ func (w *worker) evaluate(s *Star, set *Settings, p potential.Potential, r *Resu
 	}
 	wCorr := s.ParallaxMas - set.ParallaxZeroPointMas
 	mean := [3]float64{wCorr, s.PMRAMasYr, s.PMDecMasYr}
-	joint, ok := newGauss(3, mean, &cov, w.rnd)
+	joint, ok := newGauss(3, mean, &cov, &w.rnd)
 	if !ok {
 		r.fail(ReasonCovariance, "covariance of parallax and proper motions not positive definite")
 		return
@@ -211,7 +204,7 @@ func (w *worker) evaluate(s *Star, set *Settings, p potential.Potential, r *Resu
 		dropped := 0
 		for range n {
 			var x [3]float64
-			joint.draw(w.rnd, &x)
+			joint.draw(&w.rnd, &x)
 			if x[0] <= 0 {
 				dropped++
 				continue
@@ -239,8 +232,8 @@ func (w *worker) evaluate(s *Star, set *Settings, p potential.Potential, r *Resu
 		} else {
 			for i := range n {
 				var x [3]float64
-				joint.draw(w.rnd, &x)
-				w.dist[i], w.plx[i], w.pmRA[i], w.pmDec[i] = catDist.draw(w.rnd), math.NaN(), x[1], x[2]
+				joint.draw(&w.rnd, &x)
+				w.dist[i], w.plx[i], w.pmRA[i], w.pmDec[i] = catDist.draw(&w.rnd), math.NaN(), x[1], x[2]
 			}
 		}
 		kept = n
@@ -260,7 +253,7 @@ func (w *worker) evaluate(s *Star, set *Settings, p potential.Potential, r *Resu
 	}
 	for i := range kept {
 		if r.HasRV {
-			w.rv[i] = rvKms + rvErr*w.rndV.NormFloat64()
+			w.rv[i] = rvKms + rvErr*w.rndV.norm()
 		} else {
 			w.rv[i] = 0
 		}
@@ -289,14 +282,23 @@ func (w *worker) evaluate(s *Star, set *Settings, p potential.Potential, r *Resu
 		w.esc.build(p, &los, dMin, dMax, set.EscapeRadiusKpc, kept/losDrawsPerCell)
 	}
 	unbound := 0
+	// l is los.at written out on scalars: Go keeps arrays in memory, and
+	// this loop does most of a star's arithmetic.
+	l := &los
 	for i := range kept {
-		pos, vel := los.at(w.dist[i], w.pmRA[i], w.pmDec[i], w.rv[i])
-		r2, v2, pv := dot(pos, pos), dot(vel, vel), dot(pos, vel)
+		d, pmRA, pmDec, rv := w.dist[i], w.pmRA[i], w.pmDec[i], w.rv[i]
+		x := l.pos0[0] + d*l.posR[0]
+		y := l.pos0[1] + d*l.posR[1]
+		z := l.pos0[2] + d*l.posR[2]
+		vx := l.vel0[0] + rv*l.velR[0] + d*(pmRA*l.velA[0]+pmDec*l.velD[0])
+		vy := l.vel0[1] + rv*l.velR[1] + d*(pmRA*l.velA[1]+pmDec*l.velD[1])
+		vz := l.vel0[2] + rv*l.velR[2] + d*(pmRA*l.velA[2]+pmDec*l.velD[2])
+		r2, v2, pv := x*x+y*y+z*z, vx*vx+vy*vy+vz*vz, x*vx+y*vy+z*vz
 		var ve2 float64
 		if w.esc.ok {
-			ve2 = w.esc.vesc2(w.dist[i])
+			ve2 = w.esc.vesc2(d)
 		} else {
-			ve2 = escapeSpeed2(p, pos, math.Sqrt(r2), set.EscapeRadiusKpc)
+			ve2 = escapeSpeed2(p, [3]float64{x, y, z}, math.Sqrt(r2), set.EscapeRadiusKpc)
 		}
 		vr2 := pv * pv / r2 // v_r = pos.vel / r_gc
 		w.speed2[i], w.rgc2[i], w.vesc2[i] = v2, r2, ve2
@@ -306,7 +308,7 @@ func (w *worker) evaluate(s *Star, set *Settings, p potential.Potential, r *Resu
 			unbound++
 		}
 		if i < keep {
-			r.SamplePos[i], r.SampleVel[i] = pos, vel
+			r.SamplePos[i], r.SampleVel[i] = [3]float64{x, y, z}, [3]float64{vx, vy, vz}
 		}
 	}
 	pUnbound := float64(unbound) / float64(kept)
@@ -361,7 +363,7 @@ func (w *worker) drawEDSD(s *Star, set *Settings, cov *[3][3]float64, joint *gau
 	for i := range n {
 		d := 1 / wObs
 		if sw > 0 {
-			d = w.table.quantile(w.rnd.Float64())
+			d = w.table.quantile(w.rnd.float64())
 		}
 		w.drawPM(i, d, wObs, mean, beta, &g)
 	}
@@ -373,7 +375,7 @@ func (w *worker) drawEDSD(s *Star, set *Settings, cov *[3][3]float64, joint *gau
 func (w *worker) drawPM(i int, d, wObs float64, mean [3]float64, beta [2]float64, g *gauss) {
 	plx := 1 / d
 	var x [3]float64
-	g.draw(w.rnd, &x)
+	g.draw(&w.rnd, &x)
 	w.dist[i], w.plx[i] = d, plx
 	w.pmRA[i] = mean[1] + beta[0]*(plx-wObs) + x[0]
 	w.pmDec[i] = mean[2] + beta[1]*(plx-wObs) + x[1]
@@ -412,9 +414,9 @@ func (w *worker) drawCatalogWithParallax(set *Settings, cov *[3][3]float64, join
 				return false
 			}
 			tries++
-			d := cat.draw(w.rnd)
+			d := cat.draw(&w.rnd)
 			z := (wObs - 1/d) / sw
-			if logBelow(w.rnd.Float64(), -z*z/2-lnLMax) {
+			if logBelow(w.rnd.float64(), -z*z/2-lnLMax) {
 				w.drawPM(i, d, wObs, mean, beta, &g)
 				break
 			}
