@@ -22,12 +22,13 @@
 //     reason (this truncates the parallax posterior at zero).
 //   - edsd: the posterior with prior P(r) ∝ r^2 exp(-r/L) times the normal
 //     parallax likelihood (Bailer-Jones 2015, PASP 127, 994), tabulated per
-//     star on a 1024-point grid uniform in ln r spanning every mode (roots
+//     star on a 512-point grid uniform in ln r spanning every mode (roots
 //     of r^3/L - 2r^2 + (w/s^2) r - 1/s^2 = 0) out to where the density is
-//     exp(-36) of its peak, and sampled by inverse CDF. The proper motions
-//     are then drawn from their normal conditional on the true parallax
-//     1/r; with a flat prior on the true proper motions this is the exact
-//     joint posterior, so parallax-pm correlations are kept.
+//     exp(-36) of its peak (CDF error below 1e-4), and sampled by inverse
+//     CDF. The proper motions are then drawn from their normal conditional
+//     on the true parallax 1/r; with a flat prior on the true proper
+//     motions this is the exact joint posterior, so parallax-pm
+//     correlations are kept.
 //   - catalog: the independent distance, normal in kpc truncated at d > 0,
 //     or, when a distance modulus is given (it is preferred), normal in mag
 //     with d = 10^(mu/5+1) pc. When the star also has a parallax, the

@@ -15,8 +15,13 @@ import (
 // With r in kpc, 1/r is a parallax in mas, so the units are consistent.
 
 // edsdGridPoints is the size of the per-star table; the grid is uniform in
-// ln r, so its relative resolution is ln(hi/lo)/edsdGridPoints.
-const edsdGridPoints = 1024
+// ln r, so its relative resolution is ln(hi/lo)/edsdGridPoints. The CDF
+// error of the piecewise-linear density falls as the square of the spacing:
+// measured against quadrature (TestEDSDTableAccuracy) it is at most 4e-5
+// with 512 points (1e-5 with 1024, 1.5e-4 with 256), some 300 times below
+// the Monte Carlo error of a percentile from 1000 draws (1.2e-2 at the
+// median).
+const edsdGridPoints = 512
 
 // edsdLogDrop bounds the tabulated range: the table ends where the density
 // has fallen by exp(-edsdLogDrop) below the highest mode.
@@ -91,7 +96,14 @@ func edsdModes(w, s, l float64) []float64 {
 // edsdTable is the posterior CDF tabulated on a grid uniform in ln r.
 type edsdTable struct {
 	r, f, cdf []float64 // abscissae, density (relative), cumulative mass
-	guide     []int     // see build
+	cells     []edsdCell
+	guide     []int // see build
+}
+
+// edsdCell is grid cell [r[i], r[i+1]] as quantile reads it: start, width,
+// density and its slope at the start, CDF at the start.
+type edsdCell struct {
+	r0, h, f0, slope, cdf0 float64
 }
 
 // build tabulates the posterior; it returns false when no mode is found
@@ -174,15 +186,23 @@ func (t *edsdTable) build(w, s, l float64) bool {
 	// "guide table" method, from memory): guide[k] is the first cell whose
 	// upper CDF reaches k/len(guide) of the total, so a lookup scans a
 	// cell or two instead of bisecting.
+	t.cells = t.cells[:0]
+	for i := range n - 1 {
+		h := t.r[i+1] - t.r[i]
+		t.cells = append(t.cells, edsdCell{r0: t.r[i], h: h, f0: t.f[i], slope: (t.f[i+1] - t.f[i]) / h, cdf0: t.cdf[i]})
+	}
+	// guide[k] is the first cell whose upper CDF reaches k/len(guide) of
+	// the total, twice as many entries as cells.
 	total := t.cdf[n-1]
-	t.guide = resizeInt(t.guide, n)
+	ng := 2 * n
+	t.guide = resizeInt(t.guide, ng)
 	j := 1
 	for k := range t.guide {
-		m := float64(k) / float64(n) * total
+		m := float64(k) / float64(ng) * total
 		for j < n-1 && t.cdf[j] < m {
 			j++
 		}
-		t.guide[k] = j
+		t.guide[k] = j - 1
 	}
 	return t.cdf[n-1] > 0
 }
@@ -192,34 +212,30 @@ func (t *edsdTable) build(w, s, l float64) bool {
 func (t *edsdTable) quantile(u float64) float64 {
 	n := len(t.cdf)
 	m := u * t.cdf[n-1]
-	// First i >= 1 with cdf[i] >= m, starting from the guide entry, which
-	// never overshoots it.
+	// First cell whose upper CDF reaches m, starting from the guide entry,
+	// which never overshoots it.
 	k := int(u * float64(len(t.guide)))
 	if k >= len(t.guide) {
 		return t.r[n-1]
 	}
 	i := t.guide[k]
-	for i < n-1 && t.cdf[i] < m {
+	for i < n-2 && t.cdf[i+1] < m {
 		i++
 	}
-	a, h := t.r[i-1], t.r[i]-t.r[i-1]
-	f0, f1 := t.f[i-1], t.f[i]
-	m -= t.cdf[i-1]
-	// Solve f0 x + (f1-f0) x^2/(2h) = m for x in [0, h], in the form that
-	// stays accurate for either sign of f1-f0.
-	disc := f0*f0 + 2*(f1-f0)*m/h
+	c := &t.cells[i]
+	m -= c.cdf0
+	// Solve f0 x + slope x^2/2 = m for x in [0, h], in the form that stays
+	// accurate for either sign of the slope.
+	disc := c.f0*c.f0 + 2*c.slope*m
 	if disc < 0 {
 		disc = 0
 	}
-	den := f0 + math.Sqrt(disc)
+	den := c.f0 + math.Sqrt(disc)
 	if den <= 0 {
-		return a + 0.5*h
+		return c.r0 + 0.5*c.h
 	}
-	x := 2 * m / den
-	if x > h {
-		x = h
-	}
-	return a + x
+	x := min(2*m/den, c.h)
+	return c.r0 + x
 }
 
 // cdfAt is the tabulated CDF at r (for tests and diagnostics).

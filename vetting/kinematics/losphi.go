@@ -19,9 +19,10 @@ import (
 // exactly for every draw instead.
 type losEscape struct {
 	d, psi, dpsi []float64 // nodes: distance, value and derivative in d
-	guide        []int     // cell lookup, see buildGuide
-	guideScale   float64   // guide entries per kpc
-	ok           bool      // false: evaluate exactly per draw
+	cells        []hermiteCell
+	guide        []int   // cell lookup, see buildGuide
+	guideScale   float64 // guide entries per kpc
+	ok           bool    // false: evaluate exactly per draw
 }
 
 const (
@@ -123,21 +124,39 @@ func (t *losEscape) vesc(d float64) float64 { return math.Sqrt(t.vesc2(d)) }
 
 // vesc2 returns the interpolated square of the escape speed at distance d.
 func (t *losEscape) vesc2(d float64) float64 {
-	n := len(t.d)
 	g := int((d - t.d[0]) * t.guideScale)
 	i := t.guide[max(0, min(g, len(t.guide)-1))]
-	for i < n-2 && d > t.d[i+1] {
+	for i < len(t.cells)-1 && d > t.cells[i+1].d0 {
 		i++
 	}
-	for i > 0 && d < t.d[i] { // rounding in g
+	for i > 0 && d < t.cells[i].d0 { // rounding in g
 		i--
 	}
-	h := t.d[i+1] - t.d[i]
-	psi := hermite(t.psi[i], t.dpsi[i], t.psi[i+1], t.dpsi[i+1], h, (d-t.d[i])/h)
+	c := &t.cells[i]
+	s := (d - c.d0) * c.invH
+	psi := c.c[0] + s*(c.c[1]+s*(c.c[2]+s*c.c[3]))
 	if psi <= 0 {
 		return 0
 	}
 	return 2 * psi
+}
+
+// hermiteCell is one cell's cubic in power form, psi = sum c[k] s^k with
+// s = (d - d0) / h: the coefficients of hermite collected once per cell
+// so that a lookup is three multiply-adds.
+type hermiteCell struct {
+	d0, invH float64
+	c        [4]float64
+}
+
+func newHermiteCell(d0, d1, p0, dp0, p1, dp1 float64) hermiteCell {
+	h := d1 - d0
+	return hermiteCell{d0: d0, invH: 1 / h, c: [4]float64{
+		p0,
+		h * dp0,
+		-3*p0 - 2*h*dp0 + 3*p1 - h*dp1,
+		2*p0 + h*dp0 - 2*p1 + h*dp1,
+	}}
 }
 
 // buildGuide fills the guide: guide[g] is the cell holding the start of
@@ -146,7 +165,11 @@ func (t *losEscape) vesc2(d float64) float64 {
 // Eng. 2, 197, from memory, on distances instead of probabilities).
 func (t *losEscape) buildGuide() {
 	n := len(t.d)
-	ng := 2 * (n - 1)
+	t.cells = t.cells[:0]
+	for i := range n - 1 {
+		t.cells = append(t.cells, newHermiteCell(t.d[i], t.d[i+1], t.psi[i], t.dpsi[i], t.psi[i+1], t.dpsi[i+1]))
+	}
+	ng := 4 * (n - 1)
 	t.guide = resizeInt(t.guide, ng)
 	t.guideScale = float64(ng) / (t.d[n-1] - t.d[0])
 	i := 0
