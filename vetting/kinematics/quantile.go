@@ -92,7 +92,7 @@ func percentiles(a []float64) [3]float64 { return new(quantiler).percentiles(a, 
 func median(a []float64) [3]float64      { return new(quantiler).median(a, nil) }
 
 // orderStats stores in v[i] the order statistic of rank ranks[i] (0-based:
-// the value at that index after sorting a; at most 8 ranks). It returns
+// the value at that index after sorting a; at most 8 ranks, ascending). It returns
 // false when a holds a NaN, which has no place in the order. a may be
 // reordered.
 //
@@ -123,19 +123,24 @@ func (q *quantiler) orderStats(a []float64, ranks []int, v []float64) bool {
 		}
 		return true
 	}
-	scale := selectBuckets / (hi - lo)
+	// Slightly under selectBuckets per range, so that hi maps below
+	// selectBuckets after rounding.
+	scale := selectBuckets * (1 - 0x1p-40) / (hi - lo)
 	if math.IsInf(scale, 0) || math.IsInf(hi-lo, 0) {
 		// A range too small or too large for the bucket arithmetic.
 		q.selectEach(a, ranks, v)
 		return true
 	}
 	q.bucket = resizeUint8(q.bucket, n)
+	bucket := q.bucket[:n]
 	var count [selectBuckets]int32
 	for i, x := range a {
 		// x - lo and the product are monotone in x, so buckets keep the
-		// order: a value in a lower bucket is never larger.
-		b := min(int((x-lo)*scale), selectBuckets-1)
-		q.bucket[i] = uint8(b)
+		// order: a value in a lower bucket is never larger. The mask
+		// changes nothing (the product is below selectBuckets) but spares
+		// the bounds check.
+		b := int((x-lo)*scale) & (selectBuckets - 1)
+		bucket[i] = uint8(b)
 		count[b]++
 	}
 	// first[b]: rank of the smallest value in bucket b.
@@ -154,7 +159,7 @@ func (q *quantiler) orderStats(a []float64, ranks []int, v []float64) bool {
 	// (a counting-sort placement): bucket b's values start at offset[b].
 	var offset, fill [selectBuckets]int32
 	total := int32(0)
-	for b := range selectBuckets {
+	for b := where[0]; b <= where[len(ranks)-1]; b++ { // ranks ascend
 		if wanted[b] {
 			offset[b] = total
 			total += count[b]
@@ -162,7 +167,7 @@ func (q *quantiler) orderStats(a []float64, ranks []int, v []float64) bool {
 	}
 	q.picked = resize(q.picked, int(total))
 	for i, x := range a {
-		if b := q.bucket[i]; wanted[b] {
+		if b := bucket[i]; wanted[b] {
 			q.picked[offset[b]+fill[b]] = x
 			fill[b]++
 		}
