@@ -118,6 +118,24 @@ func (g *gauss) conditionalOnFirst() gauss {
 // the same order as distmv.Normal.Rand.
 func (g *gauss) draw(rnd *stream, x *[3]float64) {
 	*x = g.mean
+	// Every component active, the usual case: the loop below written out
+	// (same draws, same order of operations).
+	if g.nAct == g.dim {
+		l := &g.lower
+		switch g.dim {
+		case 3:
+			z0, z1, z2 := rnd.norm(), rnd.norm(), rnd.norm()
+			x[0] += l[0][0] * z0
+			x[1] += l[1][0]*z0 + l[1][1]*z1
+			x[2] += l[2][0]*z0 + l[2][1]*z1 + l[2][2]*z2
+			return
+		case 2:
+			z0, z1 := rnd.norm(), rnd.norm()
+			x[0] += l[0][0] * z0
+			x[1] += l[1][0]*z0 + l[1][1]*z1
+			return
+		}
+	}
 	var z [3]float64
 	for a := range g.nAct {
 		z[a] = rnd.norm()

@@ -219,6 +219,11 @@ func (t *edsdTable) quantile(u float64) float64 {
 		return t.r[n-1]
 	}
 	i := t.guide[k]
+	// Usually the guide's cell or the next: the first step without a
+	// branch (+1 from the sign bit of cdf[i+1] - m), the rare rest by a loop.
+	if i < n-2 {
+		i += int(math.Float64bits(t.cdf[i+1]-m) >> 63)
+	}
 	for i < n-2 && t.cdf[i+1] < m {
 		i++
 	}

@@ -266,17 +266,7 @@ func (w *worker) evaluate(s *Star, set *Settings, p potential.Potential, r *Resu
 	keep := min(set.KeepSamples, kept)
 	r.SamplePos = growVec(r.SamplePos, keep)
 	r.SampleVel = growVec(r.SampleVel, keep)
-	dMin, dMax := w.dist[0], w.dist[0]
-	for _, d := range w.dist[1:kept] {
-		// Plain comparisons: the draws are finite, and math.Min's NaN and
-		// signed-zero handling costs a tenth of the star's time here.
-		if d < dMin {
-			dMin = d
-		}
-		if d > dMax {
-			dMax = d
-		}
-	}
+	dMin, dMax := span(w.dist[:kept])
 	w.esc.ok = false
 	if kept >= losMinDraws && !w.exactEscape {
 		w.esc.build(p, &los, dMin, dMax, set.EscapeRadiusKpc, kept/losDrawsPerCell)

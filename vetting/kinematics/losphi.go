@@ -126,7 +126,10 @@ func (t *losEscape) vesc(d float64) float64 { return math.Sqrt(t.vesc2(d)) }
 func (t *losEscape) vesc2(d float64) float64 {
 	g := int((d - t.d[0]) * t.guideScale)
 	i := t.guide[max(0, min(g, len(t.guide)-1))]
-	for i < len(t.cells)-1 && d > t.cells[i+1].d0 {
+	// Usually the guide's cell or the next: one step without a loop (the
+	// last cell is a sentinel starting at +Inf), the rare rest by loops.
+	i += int(math.Float64bits(t.cells[i+1].d0-d) >> 63) // +1 when d > d0 (sign bit), no branch to mispredict
+	for d > t.cells[i+1].d0 {
 		i++
 	}
 	for i > 0 && d < t.cells[i].d0 { // rounding in g
@@ -169,6 +172,7 @@ func (t *losEscape) buildGuide() {
 	for i := range n - 1 {
 		t.cells = append(t.cells, newHermiteCell(t.d[i], t.d[i+1], t.psi[i], t.dpsi[i], t.psi[i+1], t.dpsi[i+1]))
 	}
+	t.cells = append(t.cells, hermiteCell{d0: math.Inf(1)})
 	ng := 4 * (n - 1)
 	t.guide = resizeInt(t.guide, ng)
 	t.guideScale = float64(ng) / (t.d[n-1] - t.d[0])

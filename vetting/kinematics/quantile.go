@@ -105,17 +105,9 @@ func median(a []float64) [3]float64      { return new(quantiler).median(a, nil) 
 // spends most of its time on mispredicted comparisons.
 func (q *quantiler) orderStats(a []float64, ranks []int, v []float64) bool {
 	n := len(a)
-	lo, hi := a[0], a[0]
-	for _, x := range a {
-		if x != x {
-			return false
-		}
-		if x < lo {
-			lo = x
-		}
-		if x > hi {
-			hi = x
-		}
+	lo, hi := span(a)
+	if lo != lo || hi != hi {
+		return false
 	}
 	if lo == hi {
 		for i := range ranks {
@@ -189,6 +181,26 @@ func (q *quantiler) orderStats(a []float64, ranks []int, v []float64) bool {
 		v[i] = seg[j]
 	}
 	return true
+}
+
+// span returns the minimum and maximum of a, NaN if a holds a NaN (the
+// built-in min and max propagate it). Four running pairs: one pair is a
+// chain of dependent comparisons that runs at a quarter of the speed.
+func span(a []float64) (lo, hi float64) {
+	l0, l1, l2, l3 := a[0], a[0], a[0], a[0]
+	h0, h1, h2, h3 := a[0], a[0], a[0], a[0]
+	i := 0
+	for ; i+4 <= len(a); i += 4 {
+		x := a[i : i+4 : i+4]
+		l0, h0 = min(l0, x[0]), max(h0, x[0])
+		l1, h1 = min(l1, x[1]), max(h1, x[1])
+		l2, h2 = min(l2, x[2]), max(h2, x[2])
+		l3, h3 = min(l3, x[3]), max(h3, x[3])
+	}
+	for ; i < len(a); i++ {
+		l0, h0 = min(l0, a[i]), max(h0, a[i])
+	}
+	return min(l0, l1, l2, l3), max(h0, h1, h2, h3)
 }
 
 // bucketOfRank returns the bucket b with first[b] <= k < first[b+1].

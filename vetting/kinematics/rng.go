@@ -92,11 +92,11 @@ func (s *stream) normEdge(j int32, i uint64) float64 {
 	}
 }
 
+// absInt32 is |i| without a branch: the sign of a random draw is a coin
+// toss that a branch predictor misses half the time.
 func absInt32(i int32) uint32 {
-	if i < 0 {
-		return uint32(-i)
-	}
-	return uint32(i)
+	m := i >> 31 // 0 or -1
+	return uint32((i ^ m) - m)
 }
 
 // zigR is the start of the tail and zigV the area of each strip for 128
