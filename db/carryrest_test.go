@@ -59,3 +59,55 @@ func TestCarryForwardRest(t *testing.T) {
 		t.Error("run 1's rows changed")
 	}
 }
+
+// TestCarryForwardRestLastRun: after a carry, stars.last_run names the
+// carrying run for every star it holds and nothing else, also when a failed
+// run between the two wrote stars of its own (last_run is the latest run
+// with a verdict for the star, failed runs included).
+func TestCarryForwardRestLastRun(t *testing.T) {
+	ctx := context.Background()
+	l := openT(t, tempLedger(t), Options{})
+	r1 := writeRun(t, l, []StarRecord{record("A", 1, 0, "bound"), record("B", 2, 0, "bound"), record("C", 3, 0, "bound")})
+
+	// Run 2 writes B (again) and D, then fails.
+	w2, err := l.BeginRun(ctx, RunInfo{ToolVersion: "test"})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if err := w2.AddStars(ctx, []StarRecord{record("B", 2, 1, "unbound"), record("D", 4, 0, "bound")}); err != nil {
+		t.Fatal(err)
+	}
+	if err := w2.Fail(ctx, nil); err != nil {
+		t.Fatal(err)
+	}
+	// Run 3 computes C and E and carries the rest of run 1.
+	w3, err := l.BeginRun(ctx, RunInfo{ToolVersion: "test"})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if err := w3.AddStars(ctx, []StarRecord{record("C", 3, 1, "bound"), record("E", 5, 0, "bound")}); err != nil {
+		t.Fatal(err)
+	}
+	if n, err := w3.CarryForwardRest(ctx, r1); err != nil || n != 2 {
+		t.Fatalf("carried %d, %v; want A and B", n, err)
+	}
+	if err := w3.Finish(ctx, RunSummary{}); err != nil {
+		t.Fatal(err)
+	}
+	for _, tc := range []struct {
+		id          string
+		first, last int64
+	}{
+		{"A", r1, w3.ID()}, {"B", r1, w3.ID()}, {"C", r1, w3.ID()}, {"D", w2.ID(), w2.ID()}, {"E", w3.ID(), w3.ID()},
+	} {
+		t.Run(tc.id, func(t *testing.T) {
+			var first, last int64
+			if err := l.db.QueryRow("SELECT first_run, last_run FROM stars WHERE star_id = ?", tc.id).Scan(&first, &last); err != nil {
+				t.Fatal(err)
+			}
+			if first != tc.first || last != tc.last {
+				t.Errorf("first_run %d last_run %d, want %d %d", first, last, tc.first, tc.last)
+			}
+		})
+	}
+}

@@ -29,6 +29,13 @@ func TestOpenCreatesSchema(t *testing.T) {
 	if mode != "wal" {
 		t.Errorf("journal_mode = %q, want wal", mode)
 	}
+	var pageSize int
+	if err := l.db.QueryRow("PRAGMA page_size").Scan(&pageSize); err != nil {
+		t.Fatal(err)
+	}
+	if pageSize != newLedgerPageSize {
+		t.Errorf("page_size = %d, want %d for a new ledger", pageSize, newLedgerPageSize)
+	}
 	var fk int
 	if err := l.db.QueryRow("PRAGMA foreign_keys").Scan(&fk); err != nil {
 		t.Fatal(err)

@@ -82,6 +82,10 @@ func TestMigrateFromSchema2(t *testing.T) {
 	sdb.Close()
 
 	l := openT(t, old, Options{})
+	var pageSize int
+	if err := l.db.QueryRow("PRAGMA page_size").Scan(&pageSize); err != nil || pageSize != 4096 {
+		t.Errorf("an existing ledger keeps its page size: %d, %v (want SQLite's default 4096)", pageSize, err)
+	}
 	var v int
 	if err := l.db.QueryRow("PRAGMA user_version").Scan(&v); err != nil || v != SchemaVersion() {
 		t.Fatalf("user_version %d, %v", v, err)

@@ -394,7 +394,17 @@ func (w *RunWriter) CarryForwardRest(ctx context.Context, fromRun int64) (int64,
 		strings.TrimPrefix(verdictCols, "run_id, ") + " FROM verdicts AS old WHERE old.run_id = ? " +
 		"AND NOT EXISTS (SELECT 1 FROM verdicts AS cur WHERE cur.run_id = ? AND cur.star_id = old.star_id)"
 	var n int64
-	err := w.l.inTx(ctx, func(tx *sql.Tx) error {
+	conn, err := w.l.db.Conn(ctx)
+	if err != nil {
+		return 0, fmt.Errorf("ledger %s run %d: carry forward from run %d: %w", w.l.path, w.id, fromRun, err)
+	}
+	defer conn.Close()
+	// SQLite stages the copied rows in a temporary table (source and target
+	// are the same table); keep it in memory, not in a temporary file.
+	if _, err := conn.ExecContext(ctx, "PRAGMA temp_store = MEMORY"); err != nil {
+		return 0, fmt.Errorf("ledger %s run %d: carry forward from run %d: %w", w.l.path, w.id, fromRun, err)
+	}
+	err = inConnTx(ctx, conn, func(tx *sql.Tx) error {
 		res, err := tx.ExecContext(ctx, copySQL, w.id, fromRun, w.id)
 		if err != nil {
 			return err
@@ -402,14 +412,32 @@ func (w *RunWriter) CarryForwardRest(ctx context.Context, fromRun int64) (int64,
 		if n, err = res.RowsAffected(); err != nil {
 			return err
 		}
-		_, err = tx.ExecContext(ctx, `UPDATE stars SET last_run = ? WHERE last_run < ? AND star_id IN (SELECT star_id FROM verdicts WHERE run_id = ?)`,
-			w.id, w.id, w.id)
+		// Every star with a verdict in fromRun now has one in this run.
+		// Such a star has last_run >= fromRun (last_run is its latest
+		// run); a star whose last_run is fromRun itself needs no probe.
+		// Stars of this run's computed batches already say this run.
+		_, err = tx.ExecContext(ctx, `UPDATE stars SET last_run = ?1
+			WHERE last_run >= ?2 AND last_run < ?1
+			AND (last_run = ?2 OR EXISTS (SELECT 1 FROM verdicts v WHERE v.run_id = ?2 AND v.star_id = stars.star_id))`,
+			w.id, fromRun)
 		return err
 	})
 	if err != nil {
 		return 0, fmt.Errorf("ledger %s run %d: carry forward from run %d: %w", w.l.path, w.id, fromRun, err)
 	}
 	return n, nil
+}
+
+func inConnTx(ctx context.Context, conn *sql.Conn, fn func(*sql.Tx) error) error {
+	tx, err := conn.BeginTx(ctx, nil)
+	if err != nil {
+		return err
+	}
+	if err := fn(tx); err != nil {
+		tx.Rollback()
+		return err
+	}
+	return tx.Commit()
 }
 
 // Finish marks the run complete, stores its summary and releases the lock.

@@ -5,8 +5,10 @@ import (
 	"fmt"
 	"math"
 	"path/filepath"
+	"slices"
 	"sort"
 	"strings"
+	"sync"
 	"time"
 
 	"starvet/crossmatch/catalog"
@@ -44,7 +46,18 @@ type Summary struct {
 	RecomputeAll string
 	ModelName    string
 	Elapsed      time.Duration
+	// Stages is the wall time of the stages Run times itself: "merge",
+	// "previous-state" (read concurrently with ingest and match),
+	// "previous-wait" (how long the run then waited for it), "quality",
+	// "monte carlo", "tracing" (within "monte carlo"), "ledger" (the
+	// batch writes, concurrent with quality and Monte Carlo),
+	// "carry-forward" and "finish".
+	Stages map[string]time.Duration
 }
+
+func (s *Summary) addStage(name string, since time.Time) { s.Stages[name] += time.Since(since) }
+
+func (s *Summary) addDuration(name string, d time.Duration) { s.Stages[name] += d }
 
 // Model returns the campaign's Galactic potential: its own components when
 // it lists any, else the named (or default) built-in model.
@@ -136,9 +149,40 @@ func (e *Engine) Run(ctx context.Context, c *campaign.Campaign, opt RunOptions) 
 		}
 	}()
 	sum = &Summary{RunID: w.ID(), LedgerPath: ledgerPath, ModelName: modelName,
-		Counts: map[string]int{}, Transitions: map[string]int{}}
+		Counts: map[string]int{}, Transitions: map[string]int{}, Stages: map[string]time.Duration{}}
 
-	cats, err := e.Ingest(ctx, c, opt.Strict, filepath.Dir(ledgerPath))
+	// The previous run's state needs only the ledger: read it while the
+	// catalogs are ingested and matched.
+	prevRun, err := l.LastCompleteRun(ctx)
+	if err != nil {
+		return nil, err
+	}
+	type prevState struct {
+		m   map[string]db.PrevStar
+		err error
+		d   time.Duration
+	}
+	prevDone := make(chan prevState, 1)
+	prevWaited := false
+	if prevRun == nil {
+		prevDone <- prevState{m: map[string]db.PrevStar{}}
+	} else {
+		sum.PrevRunID = prevRun.ID
+		prevCtx, cancelPrev := context.WithCancel(ctx)
+		defer func() {
+			cancelPrev()
+			if !prevWaited {
+				<-prevDone // the reader ends before the ledger is closed
+			}
+		}()
+		go func() {
+			t := time.Now()
+			m, err := l.PreviousState(prevCtx, prevRun.ID)
+			prevDone <- prevState{m: m, err: err, d: time.Since(t)}
+		}()
+	}
+
+	cats, err := e.ingestConcurrently(ctx, c, opt.Strict, filepath.Dir(ledgerPath))
 	if err != nil {
 		return nil, err
 	}
@@ -165,22 +209,22 @@ func (e *Engine) Run(ctx context.Context, c *campaign.Campaign, opt RunOptions) 
 	if err != nil {
 		return nil, err
 	}
+	t := time.Now()
 	stars, hashes, err := mergeAll(ctx, cats, m, e.Workers)
 	if err != nil {
 		return nil, err
 	}
+	sum.addStage("merge", t)
 
-	prevRun, err := l.LastCompleteRun(ctx)
-	if err != nil {
-		return nil, err
+	t = time.Now()
+	ps := <-prevDone
+	prevWaited = true
+	if ps.err != nil {
+		return nil, ps.err
 	}
-	prev := map[string]db.PrevStar{}
-	if prevRun != nil {
-		sum.PrevRunID = prevRun.ID
-		if prev, err = l.PreviousState(ctx, prevRun.ID); err != nil {
-			return nil, err
-		}
-	}
+	sum.addStage("previous-wait", t)
+	sum.addDuration("previous-state", ps.d)
+	prev := ps.m
 	switch {
 	case prevRun == nil:
 		sum.RecomputeAll = "first run of this ledger"
@@ -194,119 +238,275 @@ func (e *Engine) Run(ctx context.Context, c *campaign.Campaign, opt RunOptions) 
 
 	// Which stars to compute.
 	var todo []int
-	var carried []string
+	carried := 0
+	inPrev := 0 // primary stars that the previous run holds
 	for i, id := range cats.Primary.IDs {
 		p, seen := prev[id]
+		if seen {
+			inPrev++
+		}
 		if sum.RecomputeAll == "" && seen && p.Status != StatusWithdrawn && p.InputHash == hashes[i] {
-			carried = append(carried, id)
+			carried++
 			sum.Counts[p.Status]++
 			continue
 		}
 		todo = append(todo, i)
 	}
-	sum.Carried = len(carried)
-
-	recs, err := e.compute(ctx, c, rs, model, modelName, &kset, cats, m, stars, hashes, todo)
-	if err != nil {
-		return nil, err
-	}
-	for i := range recs {
-		st := recs[i].Verdict.Status
-		sum.Counts[st]++
-		if p, ok := prev[recs[i].StarID]; !ok {
-			sum.Transitions["(new) -> "+st]++
-		} else if p.Status != st {
-			sum.Transitions[p.Status+" -> "+st]++
-		}
-	}
-	// Withdrawn: in the previous run, absent now.
-	present := make(map[string]struct{}, cats.Primary.Len())
-	for _, id := range cats.Primary.IDs {
-		present[id] = struct{}{}
-	}
-	var stillWithdrawn []string
+	// Withdrawn: in the previous run, absent now. When every star of the
+	// previous run is still in the primary catalog there is none to look for.
 	var gone []string
-	for id, p := range prev {
-		if _, ok := present[id]; ok {
-			continue
+	stillWithdrawn := 0
+	if inPrev < len(prev) {
+		present := make(map[string]struct{}, cats.Primary.Len())
+		for _, id := range cats.Primary.IDs {
+			present[id] = struct{}{}
 		}
-		if p.Status == StatusWithdrawn {
-			stillWithdrawn = append(stillWithdrawn, id)
-		} else {
-			gone = append(gone, id)
+		for id, p := range prev {
+			if _, ok := present[id]; ok {
+				continue
+			}
+			if p.Status == StatusWithdrawn {
+				stillWithdrawn++
+			} else {
+				gone = append(gone, id)
+			}
 		}
 	}
 	sort.Strings(gone)
-	sort.Strings(stillWithdrawn)
-	for _, id := range gone {
-		recs = append(recs, db.StarRecord{StarID: id, Computed: true,
+	if stillWithdrawn > 0 {
+		sum.Counts[StatusWithdrawn] += stillWithdrawn
+	}
+	carried += stillWithdrawn
+	sum.Carried = carried
+
+	// Star-id order keeps each batch's index updates local in the ledger,
+	// and lets batches be written while the next ones are computed.
+	ids := cats.Primary.IDs
+	slices.SortFunc(todo, func(a, b int) int { return strings.Compare(ids[a], ids[b]) })
+	withdrawn := func(id string) db.StarRecord {
+		return db.StarRecord{StarID: id, Computed: true,
 			Verdict: db.NewVerdictRow(StatusWithdrawn),
 			Reasons: []db.ReasonRow{{RuleID: "withdrawn", Outcome: "info", Value: math.NaN(),
 				Message: fmt.Sprintf("absent from the primary catalog %s (release %s); status in run %d was %s",
-					cats.Primary.Name, cats.Primary.Release, prevRun.ID, prev[id].Status)}}})
-		sum.Transitions[prev[id].Status+" -> "+StatusWithdrawn]++
-		sum.Counts[StatusWithdrawn]++
+					cats.Primary.Name, cats.Primary.Release, prevRun.ID, prev[id].Status)}}}
 	}
-	if len(stillWithdrawn) > 0 {
-		sum.Counts[StatusWithdrawn] += len(stillWithdrawn)
-	}
-	sum.Carried += len(stillWithdrawn)
-	carried = append(carried, stillWithdrawn...)
-
-	// Star-id order keeps each batch's index updates local in the ledger.
-	sort.Slice(recs, func(a, b int) bool { return recs[a].StarID < recs[b].StarID })
-	const batch = 20000
-	st := begin(e.Progress, "ledger", len(recs))
-	for lo := 0; lo < len(recs); lo += batch {
-		if err := w.AddStars(ctx, recs[lo:min(lo+batch, len(recs))]); err != nil {
-			st.End()
-			return nil, err
+	computed := 0
+	err = e.computeAndWrite(ctx, w, len(todo)+len(gone), sum, func(ctx context.Context, recs []db.StarRecord) ([]db.StarRecord, bool, error) {
+		// The next batch: up to ledgerBatch stars in id order, from todo
+		// and gone merged.
+		var part []int
+		var partGone []string
+		for len(part)+len(partGone) < ledgerBatch && (len(todo) > 0 || len(gone) > 0) {
+			if len(gone) == 0 || (len(todo) > 0 && ids[todo[0]] < gone[0]) {
+				part, todo = append(part, todo[0]), todo[1:]
+			} else {
+				partGone, gone = append(partGone, gone[0]), gone[1:]
+			}
 		}
-		st.Set(min(lo+batch, len(recs)))
+		if len(part) == 0 && len(partGone) == 0 {
+			return recs, false, nil
+		}
+		recs, err := e.compute(ctx, c, rs, model, modelName, &kset, cats, m, stars, hashes, part, recs[:0], sum)
+		if err != nil {
+			return nil, false, err
+		}
+		for i := range recs {
+			st := recs[i].Verdict.Status
+			sum.Counts[st]++
+			if p, ok := prev[recs[i].StarID]; !ok {
+				sum.Transitions["(new) -> "+st]++
+			} else if p.Status != st {
+				sum.Transitions[p.Status+" -> "+st]++
+			}
+		}
+		for _, id := range partGone {
+			recs = append(recs, withdrawn(id))
+			sum.Transitions[prev[id].Status+" -> "+StatusWithdrawn]++
+			sum.Counts[StatusWithdrawn]++
+		}
+		if len(partGone) > 0 {
+			slices.SortFunc(recs, func(a, b db.StarRecord) int { return strings.Compare(a.StarID, b.StarID) })
+		}
+		computed += len(recs)
+		return recs, true, nil
+	})
+	if err != nil {
+		return nil, err
 	}
-	st.End()
-	if len(carried) > 0 {
+	if carried > 0 {
+		t := time.Now()
 		n, err := w.CarryForwardRest(ctx, prevRun.ID)
 		if err != nil {
 			return nil, err
 		}
-		if n != int64(len(carried)) {
-			return nil, fmt.Errorf("ledger %s run %d: carried %d verdicts forward from run %d, expected %d", ledgerPath, w.ID(), n, prevRun.ID, len(carried))
+		if n != int64(carried) {
+			return nil, fmt.Errorf("ledger %s run %d: carried %d verdicts forward from run %d, expected %d", ledgerPath, w.ID(), n, prevRun.ID, carried)
 		}
+		sum.addStage("carry-forward", t)
 	}
 	counts := make(map[string]int64, len(sum.Counts))
 	for k, v := range sum.Counts {
 		counts[k] = int64(v)
 	}
+	t = time.Now()
 	if err := w.Finish(ctx, db.RunSummary{
-		StarsTotal:      int64(len(recs) + len(carried)),
-		StarsComputed:   int64(len(recs)),
-		StarsCarried:    int64(len(carried)),
+		StarsTotal:      int64(computed + carried),
+		StarsComputed:   int64(computed),
+		StarsCarried:    int64(carried),
 		RowsQuarantined: int64(sum.Quarantined),
 		Counts:          counts,
 	}); err != nil {
 		return nil, err
 	}
-	sum.Computed = len(recs)
+	sum.addStage("finish", t)
+	sum.Computed = computed
 	sum.Elapsed = time.Since(t0)
 	return sum, nil
+}
+
+// ingestConcurrently is Engine.Ingest with the catalog files read at the
+// same time (each reader is a pipeline whose CSV splitting is sequential,
+// so two files overlap well on two cores). Results, log lines, rejected-row
+// files and the error returned (the first in campaign order) are those of
+// Ingest.
+func (e *Engine) ingestConcurrently(ctx context.Context, c *campaign.Campaign, strict bool, rejectDir string) (*Catalogs, error) {
+	type result struct {
+		t   *catalog.Table
+		rep *catalog.Report
+		err error
+	}
+	res := make([]result, len(c.Catalogs))
+	st := begin(e.Progress, "ingest", 0)
+	var wg sync.WaitGroup
+	for k, cs := range c.Catalogs {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			t, rep, err := catalog.Read(ctx, cs.Spec, catalog.ReadOptions{Strict: strict})
+			res[k] = result{t, rep, err}
+		}()
+	}
+	wg.Wait()
+	st.End()
+	out := &Catalogs{}
+	for k, cs := range c.Catalogs {
+		spec := cs.Spec
+		t, rep, err := res[k].t, res[k].rep, res[k].err
+		if err != nil {
+			return nil, err
+		}
+		e.Log.Info().Str("catalog", spec.Name).Int("rows_read", rep.RowsRead).Int("rows_kept", rep.RowsKept).
+			Int("rows_quarantined", len(rep.Quarantined)).Msg("ingested")
+		if rejectDir != "" && len(rep.Quarantined) > 0 {
+			p := filepath.Join(rejectDir, spec.Name+".rejected.csv")
+			if err := catalog.WriteRejected(p, rep.Header, rep.Quarantined); err != nil {
+				return nil, err
+			}
+		}
+		if spec.Role == catalog.Astrometry {
+			out.Primary = t
+			out.Reports = append([]*catalog.Report{rep}, out.Reports...)
+			out.Specs = append([]catalog.Spec{spec}, out.Specs...)
+		} else {
+			out.Secondaries = append(out.Secondaries, t)
+			out.Reports = append(out.Reports, rep)
+			out.Specs = append(out.Specs, spec)
+		}
+	}
+	if out.Primary == nil {
+		return nil, fmt.Errorf("campaign %s: no astrometry catalog", c.File)
+	}
+	return out, nil
+}
+
+// ledgerBatch is how many stars go into one ledger transaction.
+const ledgerBatch = 20000
+
+// computeAndWrite alternates between computing the next batch of records
+// (next, on the caller's goroutine, with all workers) and writing the
+// previous one (on a writer goroutine, one transaction per batch), so that
+// the ledger's single-threaded inserts overlap the Monte Carlo. next
+// returns false when there is nothing left; it receives a spent batch's
+// slice to reuse. The first error of either side stops both.
+func (e *Engine) computeAndWrite(ctx context.Context, w *db.RunWriter, total int, sum *Summary,
+	next func(ctx context.Context, reuse []db.StarRecord) ([]db.StarRecord, bool, error)) error {
+	ctx, cancel := context.WithCancelCause(ctx)
+	defer cancel(nil)
+	st := begin(e.Progress, "vetting", total)
+	defer st.End()
+	todo := make(chan []db.StarRecord) // unbuffered: at most one batch computed ahead
+	spent := make(chan []db.StarRecord, 2)
+	werr := make(chan error, 1)
+	var writeTime time.Duration
+	go func() {
+		done := 0
+		var err error
+		for recs := range todo {
+			if err == nil {
+				t := time.Now()
+				if err = w.AddStars(ctx, recs); err != nil {
+					cancel(err)
+				}
+				writeTime += time.Since(t)
+				done += len(recs)
+				st.Set(done)
+			}
+			select {
+			case spent <- recs:
+			default:
+			}
+		}
+		werr <- err
+	}()
+	var err error
+	for {
+		var reuse []db.StarRecord
+		select {
+		case reuse = <-spent:
+		default:
+		}
+		recs, more, nerr := next(ctx, reuse)
+		if nerr != nil {
+			err = nerr
+			break
+		}
+		if !more {
+			break
+		}
+		select {
+		case todo <- recs:
+			continue
+		case <-ctx.Done():
+		}
+		break
+	}
+	close(todo)
+	if wErr := <-werr; wErr != nil {
+		err = wErr // the cause of a cancellation seen by next
+	}
+	sum.addDuration("ledger", writeTime)
+	if err == nil {
+		err = ctx.Err()
+	}
+	return err
 }
 
 // compute runs quality, kinematics and tracing for the primary rows todo and
 // returns their ledger records in row order.
 func (e *Engine) compute(ctx context.Context, c *campaign.Campaign, rs *rules.RuleSet, model *potential.Model, modelName string,
-	kset *kinematics.Settings, cats *Catalogs, m *Matched, stars []quality.Star, hashes []string, todo []int) ([]db.StarRecord, error) {
+	kset *kinematics.Settings, cats *Catalogs, m *Matched, stars []quality.Star, hashes []string, todo []int,
+	recs []db.StarRecord, sum *Summary) ([]db.StarRecord, error) {
 	sub := make([]quality.Star, len(todo))
 	for k, i := range todo {
 		sub[k] = stars[i]
 	}
-	st := begin(e.Progress, "quality", len(sub))
+	t := time.Now()
 	as, err := e.Assess(ctx, c, rs, sub)
-	st.End()
+	sum.addStage("quality", t)
 	if err != nil {
 		return nil, err
 	}
-	recs := make([]db.StarRecord, len(todo))
+	recs = slices.Grow(recs[:0], len(todo))[:len(todo)]
 	var kin []int // indexes into todo of stars that passed the cuts
 	for k, i := range todo {
 		recs[k] = e.baseRecord(cats, m, &sub[k], hashes[i], i, &as[k])
@@ -315,7 +515,7 @@ func (e *Engine) compute(ctx context.Context, c *campaign.Campaign, rs *rules.Ru
 			voidFields(rs, &as[k], &sub[k], &recs[k])
 		}
 	}
-	if err := e.kinematics(ctx, c, model, modelName, kset, sub, kin, recs); err != nil {
+	if err := e.kinematics(ctx, c, model, modelName, kset, sub, kin, recs, sum); err != nil {
 		return nil, err
 	}
 	return recs, nil
@@ -392,11 +592,11 @@ const kinematicsBatch = 4096
 // kinematics computes the Galactic rest-frame verdict of the stars sub[kin]
 // and traces the fast ones back, in batches.
 func (e *Engine) kinematics(ctx context.Context, c *campaign.Campaign, model *potential.Model, modelName string,
-	kset *kinematics.Settings, sub []quality.Star, kin []int, recs []db.StarRecord) error {
+	kset *kinematics.Settings, sub []quality.Star, kin []int, recs []db.StarRecord, sum *Summary) error {
 	k := c.Kinematics
 	tset := orbit.TraceSettings{TraceMyr: k.TraceMyr, GCRadiusKpc: k.GCRadiusKpc, DiskRadiusKpc: k.DiskRadiusKpc}
-	mc := begin(e.Progress, "monte carlo", len(kin))
-	defer mc.End()
+	t0 := time.Now()
+	defer sum.addStage("monte carlo", t0)
 	in := make([]kinematics.Star, 0, kinematicsBatch)
 	for lo := 0; lo < len(kin); lo += kinematicsBatch {
 		idx := kin[lo:min(lo+kinematicsBatch, len(kin))]
@@ -408,7 +608,6 @@ func (e *Engine) kinematics(ctx context.Context, c *campaign.Campaign, model *po
 		if err != nil {
 			return err
 		}
-		mc.Set(lo + len(idx))
 		var traces []orbit.TraceInput
 		var traced []int
 		for n := range idx {
@@ -420,9 +619,9 @@ func (e *Engine) kinematics(ctx context.Context, c *campaign.Campaign, model *po
 		}
 		var tr []orbit.TraceResult
 		if len(traces) > 0 {
-			ts := begin(e.Progress, "tracing", len(traces))
+			t := time.Now()
 			tr = orbit.TraceAll(ctx, model, traces, tset, e.Workers)
-			ts.End()
+			sum.addStage("tracing", t)
 			if err := ctx.Err(); err != nil {
 				return err
 			}
