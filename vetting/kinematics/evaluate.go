@@ -102,6 +102,28 @@ func (l *lineOfSight) minSpeed() lineOfSight {
 
 func dot(a, b [3]float64) float64 { return a[0]*b[0] + a[1]*b[1] + a[2]*b[2] }
 
+// r2At is |pos(d)|^2 computed as in the per-draw loop of evaluate.
+func (l *lineOfSight) r2At(d float64) float64 {
+	x := l.pos0[0] + d*l.posR[0]
+	y := l.pos0[1] + d*l.posR[1]
+	z := l.pos0[2] + d*l.posR[2]
+	return x*x + y*y + z*z
+}
+
+// r2Monotone reports whether |pos(d)|^2 is monotone for d in [dMin, dMax],
+// and in which direction: it is a quadratic in d with its minimum at
+// d* = -pos0.posR / |posR|^2, so it rises beyond d* and falls before it.
+func (l *lineOfSight) r2Monotone(dMin, dMax float64) (increasing, ok bool) {
+	dStar := -dot(l.pos0, l.posR) / dot(l.posR, l.posR)
+	switch {
+	case dStar <= dMin:
+		return true, true
+	case dStar >= dMax:
+		return false, true
+	}
+	return false, false
+}
+
 // escapeSpeed is sqrt(2 (Phi(r_lim) - Phi(x))) with Phi(r_lim) = 0 when
 // escRadiusKpc is 0 (escape to infinity) or Phi at escRadiusKpc along the
 // direction of x; 0 at or beyond the escape radius (common practice, e.g.
@@ -303,9 +325,21 @@ func (w *worker) evaluate(s *Star, set *Settings, p potential.Potential, r *Resu
 	}
 	pUnbound := float64(unbound) / float64(kept)
 	q := &w.quant
-	r.DistKpc = q.percentiles(w.dist[:kept], nil)
-	r.RGCKpc = q.median(w.rgc2[:kept], math.Sqrt)
-	r.VEscKms = q.median(w.vesc2[:kept], math.Sqrt)
+	var mid middle
+	r.DistKpc, mid = q.percentilesMid(w.dist[:kept], nil)
+	// r_gc and, when its table is monotone, v_esc are monotone functions
+	// of the distance for most stars: their medians then follow from the
+	// distance's middle order statistics without a selection.
+	if inc, ok := los.r2Monotone(dMin, dMax); ok {
+		r.RGCKpc = medianOfMonotone(los.r2At, mid, inc, math.Sqrt)
+	} else {
+		r.RGCKpc = q.median(w.rgc2[:kept], math.Sqrt)
+	}
+	if w.esc.ok && w.esc.monotone != 0 {
+		r.VEscKms = medianOfMonotone(w.esc.vesc2, mid, w.esc.monotone > 0, math.Sqrt)
+	} else {
+		r.VEscKms = q.median(w.vesc2[:kept], math.Sqrt)
+	}
 	if r.HasRV {
 		r.SpeedKms = q.percentiles(w.speed2[:kept], math.Sqrt)
 		r.VRadialKms = q.median(w.vrad2[:kept], signedSqrt)

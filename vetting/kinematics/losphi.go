@@ -22,6 +22,7 @@ type losEscape struct {
 	cells        []hermiteCell
 	guide        []int   // cell lookup, see buildGuide
 	guideScale   float64 // guide entries per kpc
+	monotone     int     // +1 (-1): the interpolant never falls (rises) over the table; 0: not known
 	ok           bool    // false: evaluate exactly per draw
 }
 
@@ -173,6 +174,7 @@ func (t *losEscape) buildGuide() {
 		t.cells = append(t.cells, newHermiteCell(t.d[i], t.d[i+1], t.psi[i], t.dpsi[i], t.psi[i+1], t.dpsi[i+1]))
 	}
 	t.cells = append(t.cells, hermiteCell{d0: math.Inf(1)})
+	t.monotone = t.monotonicity()
 	ng := 4 * (n - 1)
 	t.guide = resizeInt(t.guide, ng)
 	t.guideScale = float64(ng) / (t.d[n-1] - t.d[0])
@@ -184,4 +186,38 @@ func (t *losEscape) buildGuide() {
 		}
 		t.guide[g] = i
 	}
+}
+
+// monotonicity returns +1 when every cell's cubic is non-decreasing, -1
+// when every one is non-increasing, else 0. A cell with secant slope D and
+// end slopes d0, d1 is monotone when a = d0/D and b = d1/D are not negative
+// and a^2 + b^2 <= 9 (Fritsch & Carlson 1980, SIAM J. Numer. Anal. 17, 238,
+// a sufficient condition); a flat cell needs flat ends. The clamp at zero
+// in vesc2 keeps monotonicity.
+func (t *losEscape) monotonicity() int {
+	sign := 0
+	for i := range len(t.d) - 1 {
+		secant := (t.psi[i+1] - t.psi[i]) / (t.d[i+1] - t.d[i])
+		s := 0
+		switch {
+		case secant > 0:
+			s = 1
+		case secant < 0:
+			s = -1
+		default:
+			if t.dpsi[i] != 0 || t.dpsi[i+1] != 0 {
+				return 0
+			}
+			continue
+		}
+		a, b := t.dpsi[i]/secant, t.dpsi[i+1]/secant
+		if !(a >= 0 && b >= 0 && a*a+b*b <= 9) {
+			return 0
+		}
+		if sign != 0 && s != sign {
+			return 0
+		}
+		sign = s
+	}
+	return sign
 }

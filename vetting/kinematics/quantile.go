@@ -35,10 +35,26 @@ const smallSort = 48
 // reordered). back, if not nil, maps stored values to reported ones
 // (see quantiler). Any NaN gives NaN.
 func (q *quantiler) percentiles(a []float64, back func(float64) float64) [3]float64 {
+	out, _ := q.percentilesMid(a, back)
+	return out
+}
+
+// middle holds the two order statistics around the median (ranks
+// floor(h) and floor(h)+1, h = (n-1)/2, before back) and the interpolation
+// weight: the median of any quantity monotone in this one follows from them
+// (medianOfMonotone).
+type middle struct {
+	lo, hi, frac float64
+	ok           bool
+}
+
+// percentilesMid is percentiles that also returns the middle order
+// statistics.
+func (q *quantiler) percentilesMid(a []float64, back func(float64) float64) ([3]float64, middle) {
 	n := len(a)
 	out := [3]float64{math.NaN(), math.NaN(), math.NaN()}
 	if n == 0 {
-		return out
+		return out, middle{}
 	}
 	var ranks [6]int
 	var frac [3]float64
@@ -50,11 +66,35 @@ func (q *quantiler) percentiles(a []float64, back func(float64) float64) [3]floa
 	}
 	var v [6]float64
 	if !q.orderStats(a, ranks[:], v[:]) {
-		return out
+		return out, middle{}
 	}
 	for i := range 3 {
 		out[i] = interpolate(v[2*i], v[2*i+1], frac[i], back)
 	}
+	// percentileLevels[1] is 0.5.
+	return out, middle{lo: v[2], hi: v[3], frac: frac[1], ok: true}
+}
+
+// medianOfMonotone returns {NaN, median, NaN} of f(x_i) over draws x_i
+// whose middle order statistics are m, for f monotone over the draws
+// (non-decreasing when increasing, else non-increasing), without
+// selecting: a monotone f keeps the order statistics, and a non-increasing
+// one mirrors rank k to n-1-k, which at the median maps the two middle
+// ranks onto each other (or the single middle rank onto itself when n is
+// odd, where frac is 0).
+func medianOfMonotone(f func(float64) float64, m middle, increasing bool, back func(float64) float64) [3]float64 {
+	out := [3]float64{math.NaN(), math.NaN(), math.NaN()}
+	if !m.ok {
+		return out
+	}
+	lo, hi := f(m.lo), f(m.hi)
+	if !increasing {
+		lo, hi = hi, lo
+		if m.frac == 0 {
+			lo = hi // n odd: the middle rank maps onto itself
+		}
+	}
+	out[1] = interpolate(lo, hi, m.frac, back)
 	return out
 }
 

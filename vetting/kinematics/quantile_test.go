@@ -50,3 +50,71 @@ func TestPercentilesMonotoneMap(t *testing.T) {
 		}
 	}
 }
+
+// medianOfMonotone against selection, for increasing and decreasing maps
+// and odd and even counts.
+func TestMedianOfMonotone(t *testing.T) {
+	rnd := rand.New(rand.NewPCG(7, 8))
+	for _, n := range []int{1, 2, 3, 10, 11, 1000, 1001} {
+		for _, tc := range []struct {
+			name string
+			f    func(float64) float64
+			inc  bool
+		}{{"increasing", func(x float64) float64 { return x * x * x }, true}, {"decreasing", func(x float64) float64 { return math.Exp(-x) }, false}} {
+			x := make([]float64, n)
+			fx := make([]float64, n)
+			for i := range x {
+				x[i] = rnd.NormFloat64()
+				fx[i] = tc.f(x[i])
+			}
+			var q quantiler
+			_, mid := q.percentilesMid(slices.Clone(x), nil)
+			got := medianOfMonotone(tc.f, mid, tc.inc, nil)[1]
+			want := median(fx)[1]
+			if math.Abs(got-want) > 1e-15*math.Abs(want) {
+				t.Errorf("n=%d %s: %v, selection %v", n, tc.name, got, want)
+			}
+		}
+	}
+}
+
+// Whole stars: the r_gc and v_esc medians taken from the distance's middle
+// order statistics equal the selection over the per-draw values, and the
+// shortcuts are taken for most stars.
+func TestMonotoneMediansInEvaluate(t *testing.T) {
+	stars := benchStars(300)
+	set := testSettings()
+	var w worker
+	var r Result
+	var q quantiler
+	rgcShort, vescShort := 0, 0
+	for i := range stars {
+		w.evaluate(&stars[i], &set, newBenchGalaxy(), &r)
+		if !r.OK {
+			continue
+		}
+		n := r.Samples
+		dMin, dMax := span(w.dist[:n])
+		l := newLineOfSight(set.Sun, stars[i].RADeg, stars[i].DecDeg)
+		if _, ok := l.r2Monotone(dMin, dMax); ok {
+			rgcShort++
+		}
+		if w.esc.ok && w.esc.monotone != 0 {
+			vescShort++
+		}
+		for _, c := range []struct {
+			name      string
+			got       float64
+			perDrawSq []float64
+		}{{"r_gc", r.RGCKpc[1], w.rgc2[:n]}, {"v_esc", r.VEscKms[1], w.vesc2[:n]}} {
+			want := q.median(c.perDrawSq, math.Sqrt)[1]
+			if math.Abs(c.got-want) > 1e-13*want {
+				t.Fatalf("star %s: %s median %v, selection %v", stars[i].ID, c.name, c.got, want)
+			}
+		}
+	}
+	t.Logf("shortcut for r_gc %d, v_esc %d of %d stars", rgcShort, vescShort, len(stars))
+	if rgcShort < len(stars)/3 || vescShort < len(stars)/3 {
+		t.Errorf("shortcuts rarely taken: r_gc %d, v_esc %d of %d", rgcShort, vescShort, len(stars))
+	}
+}
