@@ -20,7 +20,8 @@ type worker struct {
 	// Per-draw kinematics, stored as squares so that no draw needs a
 	// square root (the quantiler undoes the map on the order statistics):
 	// speed^2, r_gc^2, v_esc^2 and v_tan^2, and v_r |v_r| for the radial
-	// velocity, whose sign matters.
+	// velocity, whose sign matters. vesc2 is filled only when the escape
+	// table is not monotone (see evaluate).
 	speed2, rgc2, vrad2, vtan2, vesc2 []float64
 	table                             edsdTable
 	esc                               losEscape
@@ -293,6 +294,16 @@ func (w *worker) evaluate(s *Star, set *Settings, p potential.Potential, r *Resu
 	if kept >= losMinDraws && !w.exactEscape {
 		w.esc.build(p, &los, dMin, dMax, set.EscapeRadiusKpc, kept/losDrawsPerCell)
 	}
+	// With a monotone escape-speed table the v_esc median needs no
+	// per-draw values (see below), and v_esc^2 lies between its values at
+	// the ends of the table: a draw faster or slower than that whole range
+	// needs no lookup. Otherwise the range is open and every draw looks up.
+	escMonotone := w.esc.ok && w.esc.monotone != 0
+	ve2Lo, ve2Hi := math.Inf(-1), math.Inf(1)
+	if escMonotone {
+		a, b := w.esc.vesc2(dMin), w.esc.vesc2(dMax)
+		ve2Lo, ve2Hi = min(a, b), max(a, b)
+	}
 	unbound := 0
 	// l is los.at written out on scalars: Go keeps arrays in memory, and
 	// this loop does most of a star's arithmetic.
@@ -306,19 +317,26 @@ func (w *worker) evaluate(s *Star, set *Settings, p potential.Potential, r *Resu
 		vy := l.vel0[1] + rv*l.velR[1] + d*(pmRA*l.velA[1]+pmDec*l.velD[1])
 		vz := l.vel0[2] + rv*l.velR[2] + d*(pmRA*l.velA[2]+pmDec*l.velD[2])
 		r2, v2, pv := x*x+y*y+z*z, vx*vx+vy*vy+vz*vz, x*vx+y*vy+z*vz
-		var ve2 float64
-		if w.esc.ok {
-			ve2 = w.esc.vesc2(d)
-		} else {
-			ve2 = escapeSpeed2(p, [3]float64{x, y, z}, math.Sqrt(r2), set.EscapeRadiusKpc)
+		switch {
+		case v2 > ve2Hi: // faster than v_esc anywhere on the table
+			unbound++
+		case v2 <= ve2Lo: // bound everywhere on the table
+		default:
+			var ve2 float64
+			if w.esc.ok {
+				ve2 = w.esc.vesc2(d)
+			} else {
+				ve2 = escapeSpeed2(p, [3]float64{x, y, z}, math.Sqrt(r2), set.EscapeRadiusKpc)
+			}
+			w.vesc2[i] = ve2
+			if v2 > ve2 { // v > v_esc
+				unbound++
+			}
 		}
 		vr2 := pv * pv / r2 // v_r = pos.vel / r_gc
-		w.speed2[i], w.rgc2[i], w.vesc2[i] = v2, r2, ve2
+		w.speed2[i], w.rgc2[i] = v2, r2
 		w.vrad2[i] = math.Copysign(vr2, pv)
 		w.vtan2[i] = max(0, v2-vr2)
-		if v2 > ve2 { // v > v_esc
-			unbound++
-		}
 		if i < keep {
 			r.SamplePos[i], r.SampleVel[i] = [3]float64{x, y, z}, [3]float64{vx, vy, vz}
 		}
@@ -335,9 +353,9 @@ func (w *worker) evaluate(s *Star, set *Settings, p potential.Potential, r *Resu
 	} else {
 		r.RGCKpc = q.median(w.rgc2[:kept], math.Sqrt)
 	}
-	if w.esc.ok && w.esc.monotone != 0 {
+	if escMonotone {
 		r.VEscKms = medianOfMonotone(w.esc.vesc2, mid, w.esc.monotone > 0, math.Sqrt)
-	} else {
+	} else { // every draw looked up
 		r.VEscKms = q.median(w.vesc2[:kept], math.Sqrt)
 	}
 	if r.HasRV {

@@ -79,8 +79,9 @@ func TestMedianOfMonotone(t *testing.T) {
 }
 
 // Whole stars: the r_gc and v_esc medians taken from the distance's middle
-// order statistics equal the selection over the per-draw values, and the
-// shortcuts are taken for most stars.
+// order statistics equal the selection over the per-draw values, the
+// shortcuts are taken for most stars, and p_unbound, for which draws
+// outside the escape-speed range skip the lookup, equals a full recount.
 func TestMonotoneMediansInEvaluate(t *testing.T) {
 	stars := benchStars(300)
 	set := testSettings()
@@ -102,11 +103,36 @@ func TestMonotoneMediansInEvaluate(t *testing.T) {
 		if w.esc.ok && w.esc.monotone != 0 {
 			vescShort++
 		}
+		// v_esc^2 per draw, recomputed: evaluate skips the draws it does
+		// not need.
+		ve2 := make([]float64, n)
+		for k := range n {
+			if w.esc.ok {
+				ve2[k] = w.esc.vesc2(w.dist[k])
+			} else {
+				pos, _ := l.at(w.dist[k], 0, 0, 0)
+				ve2[k] = escapeSpeed2(newBenchGalaxy(), pos, norm(pos), set.EscapeRadiusKpc)
+			}
+		}
+		// p_unbound counts every draw, looked up or not.
+		unbound := 0
+		for k := range n {
+			if w.speed2[k] > ve2[k] {
+				unbound++
+			}
+		}
+		p := r.PUnbound
+		if !r.HasRV {
+			p = r.PUnboundLower
+		}
+		if got := int(math.Round(p * float64(n))); got != unbound {
+			t.Fatalf("star %s: %d unbound draws, recount %d", stars[i].ID, got, unbound)
+		}
 		for _, c := range []struct {
 			name      string
 			got       float64
 			perDrawSq []float64
-		}{{"r_gc", r.RGCKpc[1], w.rgc2[:n]}, {"v_esc", r.VEscKms[1], w.vesc2[:n]}} {
+		}{{"r_gc", r.RGCKpc[1], w.rgc2[:n]}, {"v_esc", r.VEscKms[1], ve2}} {
 			want := q.median(c.perDrawSq, math.Sqrt)[1]
 			if math.Abs(c.got-want) > 1e-13*want {
 				t.Fatalf("star %s: %s median %v, selection %v", stars[i].ID, c.name, c.got, want)
