@@ -61,10 +61,16 @@
 // or beyond the escape radius. Along a line of sight the position depends on
 // the distance only, so the escape speed is tabulated per star over the
 // drawn distances (adaptive cubic Hermite in distance with slopes from the
-// acceleration, split until every cell midpoint agrees with the exact value
-// within 1e-4 km/s; exact evaluation per draw when the table would need more
-// than one cell per 8 draws, or for fewer than 128 draws). The potential
-// must be safe for concurrent use (EvaluateAll shares it).
+// acceleration, split until at every cell midpoint the value error plus a
+// quarter cell times the slope error is within 1e-4 km/s; a fine sweep of
+// the tables of 300 invented stars finds at most 1e-4 km/s anywhere; exact
+// evaluation per draw when the table would need more than one cell per 8
+// draws, or for fewer than 128 draws). When the table is monotone
+// (Fritsch & Carlson 1980, SIAM J. Numer. Anal. 17, 238) draws faster or
+// slower than its whole range need no lookup for p_unbound, and the v_esc
+// median, like the r_gc median when r_gc is monotone in distance, follows
+// from the distance's two middle order statistics. The potential must be
+// safe for concurrent use (EvaluateAll shares it).
 //
 // Entry points: Evaluate for one star, EvaluateAll for many on several
 // goroutines (ctx checked between batches of 64 stars).

@@ -402,12 +402,17 @@ func (w *worker) drawEDSD(s *Star, set *Settings, cov *[3][3]float64, joint *gau
 		r.fail(ReasonDegenerateSample, "edsd posterior could not be tabulated for parallax %v +- %v mas", wObs, sw)
 		return false
 	}
+	// All distances first, then the proper motions: the table lookups of
+	// a tight loop overlap in the processor, interleaved with the normal
+	// draws they wait on each other.
 	for i := range n {
-		d := 1 / wObs
+		w.dist[i] = 1 / wObs
 		if sw > 0 {
-			d = w.table.quantile(w.rnd.float64())
+			w.dist[i] = w.table.quantile(w.rnd.float64())
 		}
-		w.drawPM(i, d, wObs, mean, beta, &g)
+	}
+	for i := range n {
+		w.drawPM(i, w.dist[i], wObs, mean, beta, &g)
 	}
 	return true
 }

@@ -374,8 +374,13 @@ func TestCorrelatedDraws(t *testing.T) {
 // At low parallax/error the EDSD parallax is far from normal, but the
 // proper motions must still regress on the implied parallax with slope
 // S_mw/S_ww and residual variance S_mm - S_mw^2/S_ww (conditional normal).
+//
+// The slope's standard error is sd(residual) / (sd(parallax) sqrt(N))
+// (least squares, e.g. Draper & Smith 1998, Applied Regression Analysis,
+// 3rd ed., sec. 1.4, from memory); N is large enough that the 0.01
+// tolerance is at least four of them (checked below).
 func TestEDSDConditionalProperMotions(t *testing.T) {
-	const n = 40000
+	const n = 500000
 	s := baseStar("edsd-cond")
 	s.ParallaxMas, s.ParallaxErrMas = 0.1, 0.08
 	s.PMRAErrMasYr, s.CorrParallaxPMRA = 0.09, -0.5
@@ -389,8 +394,12 @@ func TestEDSDConditionalProperMotions(t *testing.T) {
 	}
 	_, slope := stat.LinearRegression(w.plx, w.pmRA, nil, false)
 	wantSlope := -0.5 * 0.09 / 0.08
+	se := 0.09 * math.Sqrt(1-0.25) / (stat.StdDev(w.plx, nil) * math.Sqrt(n))
+	if 4*se > 0.01 {
+		t.Fatalf("standard error of the slope %v: too few draws for the tolerance", se)
+	}
 	if math.Abs(slope-wantSlope) > 0.01 {
-		t.Errorf("slope %v, want %v", slope, wantSlope)
+		t.Errorf("slope %v, want %v (standard error %.2g)", slope, wantSlope, se)
 	}
 	res := make([]float64, n)
 	for i := range n {
