@@ -42,13 +42,21 @@
 //
 // Monte Carlo: (parallax, pm_ra, pm_dec) are drawn jointly from the normal
 // with the catalog's correlations (gonum distmv checks positive
-// definiteness; a failure is a fatal reason); components with zero error
-// stay at their measured values, so zero errors give the deterministic
-// answer. rv is drawn from its normal. Each star has two PCG streams (one
-// for astrometry and distance, one for rv) seeded from Settings.Seed and an
-// FNV-1a hash of its ID, so its numbers do not depend on the order of the
-// stars, the batch or the worker count, and adding an rv leaves the
-// astrometric draws unchanged.
+// definiteness and factorises the covariance once per star; a failure is a
+// fatal reason; the proper motions' factor given the parallax, for edsd and
+// catalog, is the lower block of the same factor); components with zero
+// error stay at their measured values, so zero errors give the
+// deterministic answer. rv is drawn from its normal. Each star has two PCG
+// streams (one for astrometry and distance, one for rv; math/rand/v2's PCG
+// and ziggurat normals, bit for bit, on a concrete type) seeded from
+// Settings.Seed and an FNV-1a hash of its ID, so its numbers do not depend
+// on the order of the stars, the batch or the worker count, and adding an
+// rv leaves the astrometric draws unchanged.
+//
+// Percentiles are exact order statistics (Hyndman & Fan 1996 definition
+// 7), found by one distribution pass into 256 value buckets instead of a
+// sort; speeds, r_gc, v_esc and v_tan are kept squared per draw and the
+// square root is taken of the selected order statistics only.
 //
 // Without a usable rv (missing value or missing error) the speed is not
 // known. Since v(rv) = v(0) + rv u (u the unit line of sight), the minimum
