@@ -165,7 +165,7 @@ func (l *Ledger) Reasons(ctx context.Context, runID int64, starID string) ([]Rea
 func (l *Ledger) reasonsOf(ctx context.Context, runID int64, starID string) ([]ReasonRow, error) {
 	rows, err := l.db.QueryContext(ctx,
 		`SELECT rule_id, outcome, severity, value, threshold, message FROM reasons
-		 WHERE run_id = ? AND star_id = ? ORDER BY rowid`, runID, starID)
+		 WHERE run_id = ? AND star_id = ? ORDER BY seq`, runID, starID)
 	if err != nil {
 		return nil, fmt.Errorf("ledger %s run %d: star %q reasons: %w", l.path, runID, starID, err)
 	}

@@ -184,3 +184,67 @@ func BenchmarkIncremental(b *testing.B) {
 		}
 	})
 }
+
+// BenchmarkCarryForwardAll1M: an incremental run's carry of 1M verdicts
+// (CarryForwardAll, one statement and the last_run update), then 1% of the
+// stars rewritten over their carried copies. The earlier run holds
+// verdicts only (no inputs, matches or reasons), built outside the timings.
+func BenchmarkCarryForwardAll1M(b *testing.B) {
+	const nStars, batchSize = 1_000_000, 20_000
+	ctx := context.Background()
+	l, err := Open(ctx, tempLedger(b), Options{})
+	if err != nil {
+		b.Fatal(err)
+	}
+	defer l.Close()
+	w, err := l.BeginRun(ctx, RunInfo{ToolVersion: "bench"})
+	if err != nil {
+		b.Fatal(err)
+	}
+	batch := make([]StarRecord, batchSize)
+	for start := 0; start < nStars; start += batchSize {
+		for i := range batch {
+			r := record(fmt.Sprintf("bench-%07d", start+i), start+i, 0, []string{"rejected", "needs-rv", "bound"}[i%3])
+			batch[i] = StarRecord{StarID: r.StarID, Computed: true, Verdict: r.Verdict}
+			batch[i].Verdict.InputHash = r.Inputs.InputHash
+		}
+		if err := w.AddStars(ctx, batch); err != nil {
+			b.Fatal(err)
+		}
+	}
+	if err := w.Finish(ctx, RunSummary{}); err != nil {
+		b.Fatal(err)
+	}
+	first := w.ID()
+	var carryCPU, carryWall, writeCPU, writeWall time.Duration
+	for b.Loop() {
+		w, err := l.BeginRun(ctx, RunInfo{ToolVersion: "bench"})
+		if err != nil {
+			b.Fatal(err)
+		}
+		t, c := time.Now(), cpuTime()
+		n, err := w.CarryForwardAll(ctx, first)
+		if err != nil || n != nStars {
+			b.Fatalf("carried %d, %v", n, err)
+		}
+		carryWall, carryCPU = carryWall+time.Since(t), carryCPU+cpuTime()-c
+		t, c = time.Now(), cpuTime()
+		for start := 0; start < nStars/100; start += batchSize / 10 {
+			for i := range batchSize / 10 {
+				batch[i] = record(fmt.Sprintf("bench-%07d", 100*(start+i)), start+i, 1, "bound")
+			}
+			if err := w.AddStars(ctx, batch[:batchSize/10]); err != nil {
+				b.Fatal(err)
+			}
+		}
+		writeWall, writeCPU = writeWall+time.Since(t), writeCPU+cpuTime()-c
+		if err := w.Finish(ctx, RunSummary{StarsTotal: nStars, StarsComputed: nStars / 100}); err != nil {
+			b.Fatal(err)
+		}
+	}
+	n := float64(b.N)
+	b.ReportMetric(carryWall.Seconds()/n, "carry-s/op")
+	b.ReportMetric(carryCPU.Seconds()/n, "carry-cpu-s/op")
+	b.ReportMetric(writeWall.Seconds()/n, "rewrite-s/op")
+	b.ReportMetric(writeCPU.Seconds()/n, "rewrite-cpu-s/op")
+}

@@ -2,6 +2,7 @@ package db
 
 import (
 	"context"
+	"errors"
 	"testing"
 )
 
@@ -109,5 +110,78 @@ func TestCarryForwardRestLastRun(t *testing.T) {
 				t.Errorf("first_run %d last_run %d, want %d %d", first, last, tc.first, tc.last)
 			}
 		})
+	}
+}
+
+// TestCarryForwardAll: carrying every verdict first and then writing the
+// recomputed stars gives the same run as writing them first and carrying
+// the rest; a star written twice is still an error.
+func TestCarryForwardAll(t *testing.T) {
+	ctx := context.Background()
+	l := openT(t, tempLedger(t), Options{})
+	r1 := writeRun(t, l, []StarRecord{record("A", 1, 0, "bound"), record("B", 2, 0, "bound"),
+		record("C", 3, 0, "rejected"), record("D", 4, 0, "needs-rv")})
+	before := runChecksum(t, l, r1)
+
+	w, err := l.BeginRun(ctx, RunInfo{ToolVersion: "test"})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if n, err := w.CarryForwardAll(ctx, r1); err != nil || n != 4 {
+		t.Fatalf("carry forward all: %d, %v", n, err)
+	}
+	if _, err := w.CarryForwardAll(ctx, r1); !errors.Is(err, ErrBadRecord) {
+		t.Errorf("second carry: %v, want ErrBadRecord", err)
+	}
+	withdrawn := StarRecord{StarID: "D", Computed: true, Verdict: NewVerdictRow("withdrawn")}
+	if err := w.AddStars(ctx, []StarRecord{record("B", 2, 1, "unbound"), withdrawn, record("E", 5, 0, "bound")}); err != nil {
+		t.Fatal(err)
+	}
+	if err := w.AddStars(ctx, []StarRecord{record("B", 2, 2, "marginal")}); err == nil {
+		t.Error("B written twice in one run: no error")
+	}
+	if err := w.Finish(ctx, RunSummary{StarsTotal: 5, StarsComputed: 3, StarsCarried: 2,
+		Counts: map[string]int64{"bound": 2, "unbound": 1, "rejected": 1, "withdrawn": 1}}); err != nil {
+		t.Fatal(err)
+	}
+	got := map[string]VerdictRow{}
+	if err := l.List(ctx, ListFilter{Run: w.ID()}, func(v VerdictRow) error { got[v.StarID] = v; return nil }); err != nil {
+		t.Fatal(err)
+	}
+	for _, tc := range []struct {
+		id       string
+		status   string
+		computed int64
+	}{{"A", "bound", r1}, {"B", "unbound", w.ID()}, {"C", "rejected", r1}, {"D", "withdrawn", w.ID()}, {"E", "bound", w.ID()}} {
+		t.Run(tc.id, func(t *testing.T) {
+			v, ok := got[tc.id]
+			if !ok || v.Status != tc.status || v.ComputedInRun != tc.computed {
+				t.Errorf("verdict %+v (present %v), want status %q computed in %d", v, ok, tc.status, tc.computed)
+			}
+			var last int64
+			if err := l.db.QueryRow("SELECT last_run FROM stars WHERE star_id = ?", tc.id).Scan(&last); err != nil || last != w.ID() {
+				t.Errorf("last_run %d, %v; want %d", last, err, w.ID())
+			}
+		})
+	}
+	if len(got) != 5 {
+		t.Errorf("%d verdicts, want 5", len(got))
+	}
+	if runChecksum(t, l, r1) != before {
+		t.Error("run 1's rows changed")
+	}
+	// Carrying everything after stars were written is refused.
+	w2, err := l.BeginRun(ctx, RunInfo{ToolVersion: "test"})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if err := w2.AddStars(ctx, []StarRecord{record("A", 1, 3, "bound")}); err != nil {
+		t.Fatal(err)
+	}
+	if _, err := w2.CarryForwardAll(ctx, w.ID()); !errors.Is(err, ErrBadRecord) {
+		t.Errorf("carry all after AddStars: %v, want ErrBadRecord", err)
+	}
+	if err := w2.Fail(ctx, nil); err != nil {
+		t.Fatal(err)
 	}
 }

@@ -84,7 +84,7 @@ func runChecksum(t testing.TB, l *Ledger, runID int64) string {
 		"SELECT * FROM inputs WHERE run_id = ? ORDER BY star_id",
 		"SELECT * FROM matches WHERE run_id = ? ORDER BY rowid",
 		"SELECT * FROM verdicts WHERE run_id = ? ORDER BY star_id",
-		"SELECT * FROM reasons WHERE run_id = ? ORDER BY rowid",
+		"SELECT run_id, star_id, seq, rule_id, outcome, severity, value, threshold, message FROM reasons WHERE run_id = ? ORDER BY star_id, seq",
 	} {
 		n := hashRows(t, l.db, h, q, runID)
 		fmt.Fprintf(h, "|%d rows|", n)

@@ -63,11 +63,16 @@ func TestMigrateFromSchema2(t *testing.T) {
 	if _, err := sdb.Exec("ATTACH DATABASE ? AS src", src); err != nil {
 		t.Fatal(err)
 	}
-	for _, tab := range []string{"runs", "catalogs", "quarantine", "stars", "inputs", "matches", "verdicts", "reasons", "crossings"} {
+	for _, tab := range []string{"runs", "catalogs", "quarantine", "stars", "inputs", "matches", "verdicts", "crossings"} {
 		// tab is one of the constant names above.
 		if _, err := sdb.Exec("INSERT INTO main." + tab + " SELECT * FROM src." + tab); err != nil {
 			t.Fatalf("copy %s: %v", tab, err)
 		}
+	}
+	// Schema 2's reasons have no seq: their order is the rowid's.
+	if _, err := sdb.Exec(`INSERT INTO main.reasons SELECT run_id, star_id, rule_id, outcome, severity, value, threshold, message
+		FROM src.reasons ORDER BY run_id, star_id, seq`); err != nil {
+		t.Fatalf("copy reasons: %v", err)
 	}
 	if _, err := sdb.Exec("DETACH DATABASE src"); err != nil {
 		t.Fatal(err)
@@ -99,6 +104,7 @@ func TestMigrateFromSchema2(t *testing.T) {
 		{"inputs", "WITHOUT ROWID"},
 		{"verdicts", "WITHOUT ROWID"},
 		{"verdicts_by_run_status", "ON verdicts (run_id, status)"},
+		{"reasons", "PRIMARY KEY (run_id, star_id, seq)"},
 	} {
 		t.Run(tc.name, func(t *testing.T) {
 			var ddl string

@@ -21,6 +21,11 @@ type RunWriter struct {
 	lock *fileLock
 	mu   sync.Mutex
 	done bool
+	// carriedAll is set by CarryForwardAll: this run already holds a
+	// carried copy of every verdict of an earlier run, which AddStars
+	// replaces for the stars it writes.
+	carriedAll bool
+	wroteStars bool // AddStars has written a batch
 }
 
 // BeginRun takes the writer lock (polling up to Options.LockWait, then
@@ -193,6 +198,9 @@ func (w *RunWriter) AddStars(ctx context.Context, batch []StarRecord) error {
 		}
 		return tx.Commit()
 	})
+	if err == nil {
+		w.wroteStars = true
+	}
 	if err != nil {
 		return fmt.Errorf("ledger %s run %d: add stars: %w", w.l.path, w.id, err)
 	}
@@ -207,7 +215,7 @@ func (w *RunWriter) writeStars(c *sqlite3.SQLiteConn, batch []StarRecord) error 
 	inputs := newBulk(c, "inputs", "INSERT INTO inputs (run_id, star_id, input_hash, "+inputCols+", dup_count) VALUES", 3+NumInputs+1, "")
 	matches := newBulk(c, "matches", "INSERT INTO matches (run_id, star_id, catalog, source_id, sep_arcsec, match_prob, candidates, ambiguous) VALUES", 8, "")
 	verdicts := newBulk(c, "verdicts", "INSERT INTO verdicts ("+verdictCols+") VALUES", 21, "")
-	reasons := newBulk(c, "reasons", "INSERT INTO reasons (run_id, star_id, rule_id, outcome, severity, value, threshold, message) VALUES", 8, "")
+	reasons := newBulk(c, "reasons", "INSERT INTO reasons (run_id, star_id, seq, rule_id, outcome, severity, value, threshold, message) VALUES", 9, "")
 	crossings := newBulk(c, "crossings", "INSERT INTO crossings (run_id, star_id, x_kpc, y_kpc, t_myr) VALUES", 5, "")
 	all := []*bulk{stars, inputs, matches, verdicts, reasons, crossings}
 	defer func() {
@@ -216,12 +224,34 @@ func (w *RunWriter) writeStars(c *sqlite3.SQLiteConn, batch []StarRecord) error 
 		}
 	}()
 	id := w.id
+	var uncarry driver.Stmt
+	if w.carriedAll {
+		// A star written now replaces its carried copy; a verdict this
+		// run computed is never deleted, so writing a star twice is
+		// still a primary-key error.
+		st, err := c.Prepare("DELETE FROM verdicts WHERE run_id = ?1 AND star_id = ?2 AND computed_in_run <> ?1")
+		if err != nil {
+			return err
+		}
+		defer st.Close()
+		uncarry = st
+	}
 	in := make([]driver.Value, 3+NumInputs+1)
 	for i := range batch {
 		r := &batch[i]
 		sid := r.StarID
 		if err := stars.add(sid, sid, id, id); err != nil {
 			return err
+		}
+		if uncarry != nil {
+			rows, err := uncarry.(driver.StmtQueryContext).QueryContext(context.Background(),
+				[]driver.NamedValue{{Ordinal: 1, Value: id}, {Ordinal: 2, Value: sid}})
+			if err == nil {
+				err = rows.Close()
+			}
+			if err != nil {
+				return fmt.Errorf("star %q: replace carried verdict: %w", sid, err)
+			}
 		}
 		v := r.Verdict
 		if r.Computed {
@@ -250,8 +280,8 @@ func (w *RunWriter) writeStars(c *sqlite3.SQLiteConn, batch []StarRecord) error 
 					return err
 				}
 			}
-			for _, x := range r.Reasons {
-				if err := reasons.add(sid, id, sid, x.RuleID, x.Outcome, dvs(x.Severity), dvf(x.Value),
+			for k, x := range r.Reasons {
+				if err := reasons.add(sid, id, sid, int64(k), x.RuleID, x.Outcome, dvs(x.Severity), dvf(x.Value),
 					dvs(x.Threshold), dvs(x.Message)); err != nil {
 					return err
 				}
@@ -376,6 +406,28 @@ func (w *RunWriter) carryBatch(c *sqlite3.SQLiteConn, fromRun int64, ids []strin
 	return tx.Commit()
 }
 
+// CarryForwardAll copies every verdict of run fromRun into this run,
+// unchanged (computed_in_run included), before any star is written, and
+// returns how many it copied. Stars that AddStars writes afterwards replace
+// their carried copy, so an incremental run may carry first (while its
+// inputs are still being read) and write its recomputed stars after. It is
+// an error once AddStars or a carry has run.
+func (w *RunWriter) CarryForwardAll(ctx context.Context, fromRun int64) (int64, error) {
+	w.mu.Lock()
+	defer w.mu.Unlock()
+	if err := w.check(); err != nil {
+		return 0, err
+	}
+	if w.wroteStars || w.carriedAll {
+		return 0, fmt.Errorf("ledger %s run %d: carry forward all of run %d: the run already holds stars: %w", w.l.path, w.id, fromRun, ErrBadRecord)
+	}
+	n, err := w.carryRest(ctx, fromRun, true)
+	if err == nil {
+		w.carriedAll = true
+	}
+	return n, err
+}
+
 // CarryForwardRest copies into this run, unchanged (computed_in_run
 // included), the verdict of every star of run fromRun that has no verdict in
 // this run yet, and returns how many it copied. It is one set-based
@@ -387,12 +439,20 @@ func (w *RunWriter) CarryForwardRest(ctx context.Context, fromRun int64) (int64,
 	if err := w.check(); err != nil {
 		return 0, err
 	}
+	return w.carryRest(ctx, fromRun, false)
+}
+
+// carryRest copies fromRun's verdicts of the stars this run has not
+// written; all says it has written none, so no star needs the probe.
+func (w *RunWriter) carryRest(ctx context.Context, fromRun int64, all bool) (int64, error) {
 	if fromRun <= 0 || fromRun >= w.id {
 		return 0, fmt.Errorf("ledger %s run %d: carry forward from run %d: must be an earlier run: %w", w.l.path, w.id, fromRun, ErrNoRun)
 	}
-	copySQL := "INSERT INTO verdicts (" + verdictCols + ") SELECT ?, " +
-		strings.TrimPrefix(verdictCols, "run_id, ") + " FROM verdicts AS old WHERE old.run_id = ? " +
-		"AND NOT EXISTS (SELECT 1 FROM verdicts AS cur WHERE cur.run_id = ? AND cur.star_id = old.star_id)"
+	copySQL := "INSERT INTO verdicts (" + verdictCols + ") SELECT ?1, " +
+		strings.TrimPrefix(verdictCols, "run_id, ") + " FROM verdicts AS old WHERE old.run_id = ?2"
+	if !all {
+		copySQL += " AND NOT EXISTS (SELECT 1 FROM verdicts AS cur WHERE cur.run_id = ?1 AND cur.star_id = old.star_id)"
+	}
 	var n int64
 	conn, err := w.l.db.Conn(ctx)
 	if err != nil {
@@ -405,7 +465,7 @@ func (w *RunWriter) CarryForwardRest(ctx context.Context, fromRun int64) (int64,
 		return 0, fmt.Errorf("ledger %s run %d: carry forward from run %d: %w", w.l.path, w.id, fromRun, err)
 	}
 	err = inConnTx(ctx, conn, func(tx *sql.Tx) error {
-		res, err := tx.ExecContext(ctx, copySQL, w.id, fromRun, w.id)
+		res, err := tx.ExecContext(ctx, copySQL, w.id, fromRun)
 		if err != nil {
 			return err
 		}

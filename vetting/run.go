@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"math"
 	"path/filepath"
+	"runtime"
 	"slices"
 	"sort"
 	"strings"
@@ -51,7 +52,10 @@ type Summary struct {
 	// "previous-wait" (how long the run then waited for it), "quality",
 	// "monte carlo", "tracing" (within "monte carlo"), "ledger" (the
 	// batch writes, concurrent with quality and Monte Carlo),
-	// "carry-forward" and "finish".
+	// "carry-forward" (in an incremental run concurrent with ingest and
+	// match), "carry-wait" (how long the run then waited for it),
+	// "carry-rest" (a carry after the writes, when every star was
+	// recomputed but withdrawn ones remain) and "finish".
 	Stages map[string]time.Duration
 }
 
@@ -182,29 +186,46 @@ func (e *Engine) Run(ctx context.Context, c *campaign.Campaign, opt RunOptions) 
 		}()
 	}
 
+	switch {
+	case prevRun == nil:
+		sum.RecomputeAll = "first run of this ledger"
+	case opt.Full:
+		sum.RecomputeAll = "--full"
+	case prevRun.RulesetHash != rs.Fingerprint:
+		sum.RecomputeAll = "the rule set changed"
+	case prevRun.ModelHash != modelHash:
+		sum.RecomputeAll = "the model settings changed"
+	}
+	// An incremental run carries every verdict of the previous run forward
+	// first, on the ledger's single writer while the catalogs are read and
+	// matched; the stars it then recomputes replace their carried copy.
+	type carryResult struct {
+		n   int64
+		err error
+		d   time.Duration
+	}
+	carryDone := make(chan carryResult, 1)
+	carryWaited := true
+	if sum.RecomputeAll == "" {
+		carryWaited = false
+		carryCtx, cancelCarry := context.WithCancel(ctx)
+		defer func() { // before Fail, which needs the writer
+			cancelCarry()
+			if !carryWaited {
+				<-carryDone
+			}
+		}()
+		go func() {
+			t := time.Now()
+			n, err := w.CarryForwardAll(carryCtx, prevRun.ID)
+			carryDone <- carryResult{n: n, err: err, d: time.Since(t)}
+		}()
+	}
+
 	cats, err := e.ingestConcurrently(ctx, c, opt.Strict, filepath.Dir(ledgerPath))
 	if err != nil {
 		return nil, err
 	}
-	for k, rep := range cats.Reports {
-		spec := cats.Specs[k]
-		row := db.CatalogRow{Name: spec.Name, Release: spec.Release, File: spec.File, FileSHA256: rep.SHA256,
-			RowsRead: int64(rep.RowsRead), RowsKept: int64(rep.RowsKept), RowsQuarantined: int64(len(rep.Quarantined)),
-			Epoch: spec.EpochJyr, Role: string(spec.Role)}
-		if err := w.AddCatalog(ctx, row); err != nil {
-			return nil, err
-		}
-		sum.Catalogs = append(sum.Catalogs, row)
-		q := make([]db.QuarantineRow, len(rep.Quarantined))
-		for i, x := range rep.Quarantined {
-			q[i] = db.QuarantineRow{Catalog: spec.Name, Line: x.Line, Column: x.Column, ColumnName: x.ColumnName, Value: x.Value, Reason: x.Reason}
-		}
-		if err := w.AddQuarantine(ctx, q); err != nil {
-			return nil, err
-		}
-		sum.Quarantined += len(q)
-	}
-
 	m, err := e.Match(ctx, c, cats)
 	if err != nil {
 		return nil, err
@@ -225,16 +246,39 @@ func (e *Engine) Run(ctx context.Context, c *campaign.Campaign, opt RunOptions) 
 	sum.addStage("previous-wait", t)
 	sum.addDuration("previous-state", ps.d)
 	prev := ps.m
-	switch {
-	case prevRun == nil:
-		sum.RecomputeAll = "first run of this ledger"
-	case opt.Full:
-		sum.RecomputeAll = "--full"
-	case prevRun.RulesetHash != rs.Fingerprint:
-		sum.RecomputeAll = "the rule set changed"
-	case prevRun.ModelHash != modelHash:
-		sum.RecomputeAll = "the model settings changed"
+	carriedAll := !carryWaited
+	if carriedAll {
+		t := time.Now()
+		cr := <-carryDone
+		carryWaited = true
+		if cr.err != nil {
+			return nil, cr.err
+		}
+		if cr.n != int64(len(prev)) {
+			return nil, fmt.Errorf("ledger %s run %d: carried %d verdicts forward from run %d, which holds %d", ledgerPath, w.ID(), cr.n, prevRun.ID, len(prev))
+		}
+		sum.addStage("carry-wait", t)
+		sum.addDuration("carry-forward", cr.d)
 	}
+	for k, rep := range cats.Reports {
+		spec := cats.Specs[k]
+		row := db.CatalogRow{Name: spec.Name, Release: spec.Release, File: spec.File, FileSHA256: rep.SHA256,
+			RowsRead: int64(rep.RowsRead), RowsKept: int64(rep.RowsKept), RowsQuarantined: int64(len(rep.Quarantined)),
+			Epoch: spec.EpochJyr, Role: string(spec.Role)}
+		if err := w.AddCatalog(ctx, row); err != nil {
+			return nil, err
+		}
+		sum.Catalogs = append(sum.Catalogs, row)
+		q := make([]db.QuarantineRow, len(rep.Quarantined))
+		for i, x := range rep.Quarantined {
+			q[i] = db.QuarantineRow{Catalog: spec.Name, Line: x.Line, Column: x.Column, ColumnName: x.ColumnName, Value: x.Value, Reason: x.Reason}
+		}
+		if err := w.AddQuarantine(ctx, q); err != nil {
+			return nil, err
+		}
+		sum.Quarantined += len(q)
+	}
+
 
 	// Which stars to compute.
 	var todo []int
@@ -291,7 +335,7 @@ func (e *Engine) Run(ctx context.Context, c *campaign.Campaign, opt RunOptions) 
 					cats.Primary.Name, cats.Primary.Release, prevRun.ID, prev[id].Status)}}}
 	}
 	computed := 0
-	err = e.computeAndWrite(ctx, w, len(todo)+len(gone), sum, func(ctx context.Context, recs []db.StarRecord) ([]db.StarRecord, bool, error) {
+	err = e.computeAndWrite(ctx, w, len(todo)+len(gone), sum, func(ctx context.Context, ce *Engine, recs []db.StarRecord) ([]db.StarRecord, bool, error) {
 		// The next batch: up to ledgerBatch stars in id order, from todo
 		// and gone merged.
 		var part []int
@@ -306,7 +350,7 @@ func (e *Engine) Run(ctx context.Context, c *campaign.Campaign, opt RunOptions) 
 		if len(part) == 0 && len(partGone) == 0 {
 			return recs, false, nil
 		}
-		recs, err := e.compute(ctx, c, rs, model, modelName, &kset, cats, m, stars, hashes, part, recs[:0], sum)
+		recs, err := ce.compute(ctx, c, rs, model, modelName, &kset, cats, m, stars, hashes, part, recs[:0], sum)
 		if err != nil {
 			return nil, false, err
 		}
@@ -333,7 +377,7 @@ func (e *Engine) Run(ctx context.Context, c *campaign.Campaign, opt RunOptions) 
 	if err != nil {
 		return nil, err
 	}
-	if carried > 0 {
+	if carried > 0 && !carriedAll {
 		t := time.Now()
 		n, err := w.CarryForwardRest(ctx, prevRun.ID)
 		if err != nil {
@@ -342,7 +386,7 @@ func (e *Engine) Run(ctx context.Context, c *campaign.Campaign, opt RunOptions) 
 		if n != int64(carried) {
 			return nil, fmt.Errorf("ledger %s run %d: carried %d verdicts forward from run %d, expected %d", ledgerPath, w.ID(), n, prevRun.ID, carried)
 		}
-		sum.addStage("carry-forward", t)
+		sum.addStage("carry-rest", t)
 	}
 	counts := make(map[string]int64, len(sum.Counts))
 	for k, v := range sum.Counts {
@@ -423,13 +467,23 @@ func (e *Engine) ingestConcurrently(ctx context.Context, c *campaign.Campaign, s
 const ledgerBatch = 20000
 
 // computeAndWrite alternates between computing the next batch of records
-// (next, on the caller's goroutine, with all workers) and writing the
-// previous one (on a writer goroutine, one transaction per batch), so that
-// the ledger's single-threaded inserts overlap the Monte Carlo. next
-// returns false when there is nothing left; it receives a spent batch's
-// slice to reuse. The first error of either side stops both.
+// (next, on the caller's goroutine) and writing the previous one (on a
+// writer goroutine, one transaction per batch), so that the ledger's
+// single-threaded inserts overlap the Monte Carlo. next returns false when
+// there is nothing left; it receives a spent batch's slice to reuse, and
+// the engine to compute with: while the writer is the bottleneck (the last
+// batch had to wait for it) that engine has one worker fewer, which leaves
+// the writer a core of its own instead of a share of one; otherwise all
+// workers. The first error of either side stops both.
 func (e *Engine) computeAndWrite(ctx context.Context, w *db.RunWriter, total int, sum *Summary,
-	next func(ctx context.Context, reuse []db.StarRecord) ([]db.StarRecord, bool, error)) error {
+	next func(ctx context.Context, ce *Engine, reuse []db.StarRecord) ([]db.StarRecord, bool, error)) error {
+	workers := e.Workers
+	if workers <= 0 {
+		workers = runtime.GOMAXPROCS(0)
+	}
+	full, spare := *e, *e
+	full.Workers, spare.Workers = workers, max(1, workers-1)
+	ce := &full
 	ctx, cancel := context.WithCancelCause(ctx)
 	defer cancel(nil)
 	st := begin(e.Progress, "vetting", total)
@@ -465,7 +519,7 @@ func (e *Engine) computeAndWrite(ctx context.Context, w *db.RunWriter, total int
 		case reuse = <-spent:
 		default:
 		}
-		recs, more, nerr := next(ctx, reuse)
+		recs, more, nerr := next(ctx, ce, reuse)
 		if nerr != nil {
 			err = nerr
 			break
@@ -473,6 +527,13 @@ func (e *Engine) computeAndWrite(ctx context.Context, w *db.RunWriter, total int
 		if !more {
 			break
 		}
+		select {
+		case todo <- recs: // the writer was waiting
+			ce = &full
+			continue
+		default:
+		}
+		ce = &spare
 		select {
 		case todo <- recs:
 			continue
