@@ -279,7 +279,6 @@ func (e *Engine) Run(ctx context.Context, c *campaign.Campaign, opt RunOptions) 
 		sum.Quarantined += len(q)
 	}
 
-
 	// Which stars to compute.
 	var todo []int
 	carried := 0
