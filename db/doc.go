@@ -34,9 +34,9 @@
 // and one UPDATE of stars.last_run, in one transaction.
 //
 // Speed: AddStars writes multi-row INSERTs on the raw driver connection,
-// each bound and stepped in one cgo crossing. inputs, verdicts, reasons
-// and stars are WITHOUT ROWID tables keyed by (run_id, star_id, ...), so a
-// row is one B-tree insert. Send stars in ascending star id order across
+// each bound and stepped in one cgo crossing. inputs, verdicts, reasons,
+// matches and stars are WITHOUT ROWID tables keyed by (run_id, star_id,
+// ...), so a row is one B-tree insert. Send stars in ascending star id order across
 // batches: the keys then grow by appending, and BenchmarkAddStars shows
 // the difference against a shuffled order. BenchmarkCarryForwardAll1M
 // times the carry of 1M verdicts.

@@ -82,7 +82,7 @@ func runChecksum(t testing.TB, l *Ledger, runID int64) string {
 		"SELECT * FROM catalogs WHERE run_id = ? ORDER BY name",
 		"SELECT * FROM quarantine WHERE run_id = ? ORDER BY rowid",
 		"SELECT * FROM inputs WHERE run_id = ? ORDER BY star_id",
-		"SELECT * FROM matches WHERE run_id = ? ORDER BY rowid",
+		"SELECT * FROM matches WHERE run_id = ? ORDER BY star_id, catalog",
 		"SELECT * FROM verdicts WHERE run_id = ? ORDER BY star_id",
 		"SELECT run_id, star_id, seq, rule_id, outcome, severity, value, threshold, message FROM reasons WHERE run_id = ? ORDER BY star_id, seq",
 	} {

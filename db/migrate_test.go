@@ -105,6 +105,7 @@ func TestMigrateFromSchema2(t *testing.T) {
 		{"verdicts", "WITHOUT ROWID"},
 		{"verdicts_by_run_status", "ON verdicts (run_id, status)"},
 		{"reasons", "PRIMARY KEY (run_id, star_id, seq)"},
+		{"matches", "PRIMARY KEY (run_id, star_id, catalog)"},
 	} {
 		t.Run(tc.name, func(t *testing.T) {
 			var ddl string
