@@ -53,6 +53,14 @@
 // on the order of the stars, the batch or the worker count, and adding an
 // rv leaves the astrometric draws unchanged.
 //
+// Velocity prior (Settings.VelocityPriorKms = sigma > 0, stars with a
+// usable rv): the draws are importance-weighted by exp(-|v|^2/(2 sigma^2)),
+// |v| the Galactocentric speed of the draw, and replaced by a systematic
+// resample to equal weights; PUnbound is the weighted share, PUnboundFlat
+// the unweighted one, and the traced draws are spread over the resample. A
+// star whose effective sample size falls below a fifth of its draws gets
+// ReasonPriorDominated. See prior.go for why and for the sources.
+//
 // Percentiles are exact order statistics (Hyndman & Fan 1996 definition
 // 7), found by one distribution pass into 256 value buckets instead of a
 // sort; speeds, r_gc, v_esc and v_tan are kept squared per draw and the

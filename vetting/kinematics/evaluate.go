@@ -23,10 +23,13 @@ type worker struct {
 	// velocity, whose sign matters. vesc2 is filled only when the escape
 	// table is not monotone (see evaluate).
 	speed2, rgc2, vrad2, vtan2, vesc2 []float64
-	table                             edsdTable
-	esc                               losEscape
-	quant                             quantiler
-	exactEscape                       bool // never tabulate the escape speed (for tests)
+	// Velocity-prior scratch: weights, resample indices, a gather buffer.
+	wt, tmp     []float64
+	idx         []int
+	table       edsdTable
+	esc         losEscape
+	quant       quantiler
+	exactEscape bool // never tabulate the escape speed (for tests)
 }
 
 // The escape-speed table along the line of sight (losEscape) is used when a
@@ -38,9 +41,13 @@ const (
 )
 
 func (w *worker) init(n int) {
-	for _, b := range []*[]float64{&w.dist, &w.plx, &w.pmRA, &w.pmDec, &w.rv, &w.speed2, &w.rgc2, &w.vrad2, &w.vtan2, &w.vesc2} {
+	for _, b := range []*[]float64{&w.dist, &w.plx, &w.pmRA, &w.pmDec, &w.rv, &w.speed2, &w.rgc2, &w.vrad2, &w.vtan2, &w.vesc2, &w.wt, &w.tmp} {
 		*b = resize(*b, n)
 	}
+	if cap(w.idx) < n {
+		w.idx = make([]int, n)
+	}
+	w.idx = w.idx[:n]
 }
 
 // lineOfSight is the linear map from (distance, pm, rv) to Galactocentric
@@ -300,7 +307,9 @@ func (w *worker) evaluate(s *Star, set *Settings, p potential.Potential, r *Resu
 	// needs no lookup. Otherwise the range is open and every draw looks up.
 	escMonotone := w.esc.ok && w.esc.monotone != 0
 	ve2Lo, ve2Hi := math.Inf(-1), math.Inf(1)
-	if escMonotone {
+	// The velocity prior weighs every draw, so every draw needs v_esc.
+	prior := r.HasRV && set.VelocityPriorKms > 0
+	if escMonotone && !prior {
 		a, b := w.esc.vesc2(dMin), w.esc.vesc2(dMax)
 		ve2Lo, ve2Hi = min(a, b), max(a, b)
 	}
@@ -342,6 +351,10 @@ func (w *worker) evaluate(s *Star, set *Settings, p potential.Potential, r *Resu
 		}
 	}
 	pUnbound := float64(unbound) / float64(kept)
+	if prior {
+		r.PUnboundFlat = pUnbound
+		pUnbound = w.applyPrior(set.VelocityPriorKms, kept, keep, &los, r)
+	}
 	q := &w.quant
 	var mid middle
 	r.DistKpc, mid = q.percentilesMid(w.dist[:kept], nil)
@@ -508,4 +521,23 @@ func growVec(b [][3]float64, n int) [][3]float64 {
 		return b[:n]
 	}
 	return make([][3]float64, n)
+}
+
+// applyPrior reweights the first kept draws by the velocity prior
+// (prior.go), replaces them by the equal-weight resample, takes the traced
+// draws spread evenly over it (the resample is in draw order) and returns
+// the weighted unbound share.
+func (w *worker) applyPrior(sigmaKms float64, kept, keep int, los *lineOfSight, r *Result) float64 {
+	pu, ess := priorResample(w.speed2[:kept], w.vesc2[:kept], sigmaKms, w.rndV.float64(), w.wt[:kept], w.idx[:kept])
+	for _, x := range [][]float64{w.dist, w.pmRA, w.pmDec, w.rv, w.speed2, w.rgc2, w.vrad2, w.vtan2, w.vesc2} {
+		gather(x, w.tmp, w.idx[:kept])
+	}
+	if ess < minPriorESSShare*float64(kept) {
+		r.note(ReasonPriorDominated, "the velocity prior (%g km/s) leaves an effective sample size of %.0f of %d draws: the data constrain the velocity poorly", sigmaKms, ess, kept)
+	}
+	for i := range keep {
+		j := i * kept / keep
+		r.SamplePos[i], r.SampleVel[i] = los.at(w.dist[j], w.pmRA[j], w.pmDec[j], w.rv[j])
+	}
+	return pu
 }

@@ -33,6 +33,7 @@ const (
 	ReasonBadCorrelation   = "bad-correlation"           // fatal: a correlation outside [-1, 1]
 	ReasonDegenerateSample = "degenerate-distance-pdf"   // fatal: the EDSD posterior could not be tabulated
 	ReasonPlxConflict      = "catalog-parallax-conflict" // the parallax and the catalog distance disagree (fatal when no draw survives)
+	ReasonPriorDominated   = "prior-dominated"           // the velocity prior leaves an effective sample size below a fifth of the draws
 )
 
 // ErrSettings is wrapped by every Settings.Validate error.
@@ -66,6 +67,10 @@ type Settings struct {
 	Sun                  frames.Sun
 	EscapeRadiusKpc      float64 // 0: escape to infinity (Phi = 0 there)
 	KeepSamples          int     // how many draws to return in SamplePos/SampleVel
+	// VelocityPriorKms is sigma of the isotropic normal prior on the
+	// Galactocentric velocity (prior.go); 0 keeps the flat prior. Stars
+	// without a usable rv are never reweighted.
+	VelocityPriorKms float64
 }
 
 // DefaultSettings returns the documented defaults for the given Sun:
@@ -115,6 +120,9 @@ func (s *Settings) Validate() error {
 			return bad("sun velocity component %d is %v", i, v)
 		}
 	}
+	if !(s.VelocityPriorKms >= 0) || math.IsInf(s.VelocityPriorKms, 0) {
+		return bad("velocity prior %v km/s must be 0 or positive and finite", s.VelocityPriorKms)
+	}
 	if !(s.EscapeRadiusKpc >= 0) || math.IsInf(s.EscapeRadiusKpc, 0) {
 		return bad("escape radius %v kpc must be 0 or positive and finite", s.EscapeRadiusKpc)
 	}
@@ -150,6 +158,10 @@ type Result struct {
 	VRadialKms     [3]float64
 	VTangentialKms [3]float64
 	PUnbound       float64
+	// PUnboundFlat is the unweighted share under the flat prior when the
+	// velocity prior reweighted the draws (PUnbound is then the weighted
+	// share); NaN otherwise.
+	PUnboundFlat float64
 
 	// Without HasRV: the minimum over all radial velocities of the
 	// Galactocentric speed, and the share of draws unbound already at that
@@ -182,7 +194,7 @@ func (r *Result) reset(id string) {
 	n3 := [3]float64{nan, nan, nan}
 	keepPos, keepVel := r.SamplePos[:0], r.SampleVel[:0]
 	*r = Result{
-		ID: id, SpeedKms: n3, VRadialKms: n3, VTangentialKms: n3, PUnbound: nan,
+		ID: id, SpeedKms: n3, VRadialKms: n3, VTangentialKms: n3, PUnbound: nan, PUnboundFlat: nan,
 		SpeedLowerKms: n3, PUnboundLower: nan, RGCKpc: n3, VEscKms: n3, DistKpc: n3,
 		PosKpc: n3, VelKms: n3, SamplePos: keepPos, SampleVel: keepVel,
 	}

@@ -553,9 +553,16 @@ func resultKey(r *Result) string { return fmt.Sprintf("%+v", *r) }
 
 // Each star has its own streams: worker count and star order change nothing.
 func TestEvaluateAllDeterministic(t *testing.T) {
+	for _, prior := range []float64{0, 150} {
+		t.Run(fmt.Sprint("prior-", prior), func(t *testing.T) { evaluateAllDeterministic(t, prior) })
+	}
+}
+
+func evaluateAllDeterministic(t *testing.T, priorKms float64) {
 	stars := mixedStars(300)
 	set := testSettings()
 	set.Samples, set.KeepSamples = 200, 5
+	set.VelocityPriorKms = priorKms
 	p := milkyWayTest()
 	ref, err := EvaluateAll(context.Background(), stars, &set, p, 1, nil)
 	if err != nil {
