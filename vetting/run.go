@@ -101,6 +101,7 @@ func KinematicSettings(c *campaign.Campaign) kinematics.Settings {
 		Sun:                  c.Galaxy.Sun(),
 		EscapeRadiusKpc:      c.Potential.EscapeRadiusKpc,
 		KeepSamples:          k.TraceSamples,
+		VelocityPriorKms:     k.VelocityPriorKms,
 	}
 }
 
@@ -749,22 +750,26 @@ func applyKinematics(rec *db.StarRecord, r *kinematics.Result, t *orbit.TraceRes
 	}
 	v.SpeedP16Kms, v.SpeedP50Kms, v.SpeedP84Kms = r.SpeedKms[0], r.SpeedKms[1], r.SpeedKms[2]
 	v.PUnbound = r.PUnbound
+	prior := ""
+	if !math.IsNaN(r.PUnboundFlat) {
+		prior = fmt.Sprintf(", velocity prior %g km/s (flat prior: p_unbound %.3f)", k.VelocityPriorKms, r.PUnboundFlat)
+	}
 	switch {
 	case r.PUnbound >= k.UnboundP:
 		v.Status = StatusUnbound
 		reason("kinematics.p-unbound", "info", r.PUnbound, fmt.Sprintf(">= %g", k.UnboundP),
-			"p_unbound %.3f >= %g under model %s: speed %.0f (+%.0f/-%.0f) km/s against escape speed %.0f km/s; a candidate for follow-up, not a discovery",
-			r.PUnbound, k.UnboundP, modelName, r.SpeedKms[1], r.SpeedKms[2]-r.SpeedKms[1], r.SpeedKms[1]-r.SpeedKms[0], r.VEscKms[1])
+			"p_unbound %.3f >= %g under model %s%s: speed %.0f (+%.0f/-%.0f) km/s against escape speed %.0f km/s; a candidate for follow-up, not a discovery",
+			r.PUnbound, k.UnboundP, modelName, prior, r.SpeedKms[1], r.SpeedKms[2]-r.SpeedKms[1], r.SpeedKms[1]-r.SpeedKms[0], r.VEscKms[1])
 	case r.PUnbound >= k.MarginalP:
 		v.Status = StatusMarginal
 		reason("kinematics.p-unbound", "info", r.PUnbound, fmt.Sprintf(">= %g and < %g", k.MarginalP, k.UnboundP),
-			"p_unbound %.3f between %g and %g under model %s: speed %.0f km/s against escape speed %.0f km/s",
-			r.PUnbound, k.MarginalP, k.UnboundP, modelName, r.SpeedKms[1], r.VEscKms[1])
+			"p_unbound %.3f between %g and %g under model %s%s: speed %.0f km/s against escape speed %.0f km/s",
+			r.PUnbound, k.MarginalP, k.UnboundP, modelName, prior, r.SpeedKms[1], r.VEscKms[1])
 	default:
 		v.Status = StatusBound
 		reason("kinematics.p-unbound", "info", r.PUnbound, fmt.Sprintf("< %g", k.MarginalP),
-			"p_unbound %.3f < %g under model %s: speed %.0f km/s against escape speed %.0f km/s",
-			r.PUnbound, k.MarginalP, modelName, r.SpeedKms[1], r.VEscKms[1])
+			"p_unbound %.3f < %g under model %s%s: speed %.0f km/s against escape speed %.0f km/s",
+			r.PUnbound, k.MarginalP, modelName, prior, r.SpeedKms[1], r.VEscKms[1])
 	}
 	if t != nil {
 		v.Origin, v.PGCOrigin, v.GCConsistency, v.FlightTimeMyr = t.Origin, t.PGCOrigin, t.GCConsistency, t.FlightTimeMyr
