@@ -92,32 +92,43 @@ func cpuTime() time.Duration {
 
 // BenchmarkKinematics100k: 100 000 stars x 1000 draws with a bulge + disk +
 // halo potential, all cores. Target: at most 10 s per op on 2 cores.
+// BenchmarkKinematics100k: 100,000 stars x 1,000 draws on every core, with
+// the campaign's default velocity prior (150 km/s, vetting/campaign) and
+// with the flat prior.
 func BenchmarkKinematics100k(b *testing.B) {
 	stars := benchStars(100000)
-	set := DefaultSettings(frames.DefaultSun())
-	set.Seed, set.Samples, set.KeepSamples = 1, 1000, 0
-	p := newBenchGalaxy()
-	var res []Result
-	cpu0 := cpuTime()
-	for b.Loop() {
-		var err error
-		res, err = EvaluateAll(context.Background(), stars, &set, p, 0, nil)
-		if err != nil {
-			b.Fatal(err)
-		}
+	for _, prior := range []struct {
+		name string
+		kms  float64
+	}{{"prior=150", 150}, {"flat", 0}} {
+		b.Run(prior.name, func(b *testing.B) {
+			set := DefaultSettings(frames.DefaultSun())
+			set.Seed, set.Samples, set.KeepSamples = 1, 1000, 0
+			set.VelocityPriorKms = prior.kms
+			p := newBenchGalaxy()
+			var res []Result
+			cpu0 := cpuTime()
+			for b.Loop() {
+				var err error
+				res, err = EvaluateAll(context.Background(), stars, &set, p, 0, nil)
+				if err != nil {
+					b.Fatal(err)
+				}
+			}
+			b.ReportMetric((cpuTime()-cpu0).Seconds()/float64(b.N), "cpu-s/op")
+			counts := map[string]int{}
+			for i := range res {
+				counts[res[i].Method]++
+				if !res[i].OK {
+					counts["failed"]++
+				}
+			}
+			b.ReportMetric(float64(counts[MethodInverse]), "inverse")
+			b.ReportMetric(float64(counts[MethodEDSD]), "edsd")
+			b.ReportMetric(float64(counts[MethodCatalog]), "catalog")
+			b.ReportMetric(float64(counts["failed"]), "failed")
+		})
 	}
-	b.ReportMetric((cpuTime()-cpu0).Seconds()/float64(b.N), "cpu-s/op")
-	counts := map[string]int{}
-	for i := range res {
-		counts[res[i].Method]++
-		if !res[i].OK {
-			counts["failed"]++
-		}
-	}
-	b.ReportMetric(float64(counts[MethodInverse]), "inverse")
-	b.ReportMetric(float64(counts[MethodEDSD]), "edsd")
-	b.ReportMetric(float64(counts[MethodCatalog]), "catalog")
-	b.ReportMetric(float64(counts["failed"]), "failed")
 }
 
 // BenchmarkStar is one star, one core, per method (for profiling).
@@ -126,14 +137,16 @@ func BenchmarkStar(b *testing.B) {
 	set.Seed = 1
 	p := newBenchGalaxy()
 	for _, tc := range []struct {
-		name   string
-		method string
-		keep   int
-	}{{"inverse", MethodInverse, 0}, {"edsd", MethodEDSD, 0}, {"catalog", MethodCatalog, 0}, {"inverse-keep200", MethodInverse, 200}} {
+		name     string
+		method   string
+		keep     int
+		priorKms float64
+	}{{"inverse", MethodInverse, 0, 0}, {"edsd", MethodEDSD, 0, 0}, {"catalog", MethodCatalog, 0, 0},
+		{"inverse-keep200", MethodInverse, 200, 0}, {"inverse-prior", MethodInverse, 0, 150}, {"inverse-keep200-prior", MethodInverse, 200, 150}} {
 		b.Run(tc.name, func(b *testing.B) {
 			s := baseStar("bench")
 			s.DistKpc, s.DistErrKpc = 2, 0.2
-			set.Distance, set.KeepSamples = tc.method, tc.keep
+			set.Distance, set.KeepSamples, set.VelocityPriorKms = tc.method, tc.keep, tc.priorKms
 			var w worker
 			var r Result
 			cpu0 := cpuTime()

@@ -23,9 +23,11 @@ type worker struct {
 	// velocity, whose sign matters. vesc2 is filled only when the escape
 	// table is not monotone (see evaluate).
 	speed2, rgc2, vrad2, vtan2, vesc2 []float64
-	// Velocity-prior scratch: weights, resample indices, a gather buffer.
+	// Velocity-prior scratch: weights, resample indices, a gather buffer,
+	// and whether each draw is unbound.
 	wt, tmp     []float64
 	idx         []int
+	unbound     []bool
 	table       edsdTable
 	esc         losEscape
 	quant       quantiler
@@ -46,8 +48,9 @@ func (w *worker) init(n int) {
 	}
 	if cap(w.idx) < n {
 		w.idx = make([]int, n)
+		w.unbound = make([]bool, n)
 	}
-	w.idx = w.idx[:n]
+	w.idx, w.unbound = w.idx[:n], w.unbound[:n]
 }
 
 // lineOfSight is the linear map from (distance, pm, rv) to Galactocentric
@@ -307,9 +310,8 @@ func (w *worker) evaluate(s *Star, set *Settings, p potential.Potential, r *Resu
 	// needs no lookup. Otherwise the range is open and every draw looks up.
 	escMonotone := w.esc.ok && w.esc.monotone != 0
 	ve2Lo, ve2Hi := math.Inf(-1), math.Inf(1)
-	// The velocity prior weighs every draw, so every draw needs v_esc.
 	prior := r.HasRV && set.VelocityPriorKms > 0
-	if escMonotone && !prior {
+	if escMonotone {
 		a, b := w.esc.vesc2(dMin), w.esc.vesc2(dMax)
 		ve2Lo, ve2Hi = min(a, b), max(a, b)
 	}
@@ -326,9 +328,10 @@ func (w *worker) evaluate(s *Star, set *Settings, p potential.Potential, r *Resu
 		vy := l.vel0[1] + rv*l.velR[1] + d*(pmRA*l.velA[1]+pmDec*l.velD[1])
 		vz := l.vel0[2] + rv*l.velR[2] + d*(pmRA*l.velA[2]+pmDec*l.velD[2])
 		r2, v2, pv := x*x+y*y+z*z, vx*vx+vy*vy+vz*vz, x*vx+y*vy+z*vz
+		ub := false
 		switch {
 		case v2 > ve2Hi: // faster than v_esc anywhere on the table
-			unbound++
+			ub = true
 		case v2 <= ve2Lo: // bound everywhere on the table
 		default:
 			var ve2 float64
@@ -338,10 +341,12 @@ func (w *worker) evaluate(s *Star, set *Settings, p potential.Potential, r *Resu
 				ve2 = escapeSpeed2(p, [3]float64{x, y, z}, math.Sqrt(r2), set.EscapeRadiusKpc)
 			}
 			w.vesc2[i] = ve2
-			if v2 > ve2 { // v > v_esc
-				unbound++
-			}
+			ub = v2 > ve2 // v > v_esc
 		}
+		if ub {
+			unbound++
+		}
+		w.unbound[i] = ub
 		vr2 := pv * pv / r2 // v_r = pos.vel / r_gc
 		w.speed2[i], w.rgc2[i] = v2, r2
 		w.vrad2[i] = math.Copysign(vr2, pv)
@@ -351,9 +356,10 @@ func (w *worker) evaluate(s *Star, set *Settings, p potential.Potential, r *Resu
 		}
 	}
 	pUnbound := float64(unbound) / float64(kept)
+	rgcMonotone, rgcInc := los.r2Monotone(dMin, dMax)
 	if prior {
 		r.PUnboundFlat = pUnbound
-		pUnbound = w.applyPrior(set.VelocityPriorKms, kept, keep, &los, r)
+		pUnbound = w.applyPrior(set.VelocityPriorKms, kept, keep, !rgcMonotone, !escMonotone, &los, r)
 	}
 	q := &w.quant
 	var mid middle
@@ -361,8 +367,8 @@ func (w *worker) evaluate(s *Star, set *Settings, p potential.Potential, r *Resu
 	// r_gc and, when its table is monotone, v_esc are monotone functions
 	// of the distance for most stars: their medians then follow from the
 	// distance's middle order statistics without a selection.
-	if inc, ok := los.r2Monotone(dMin, dMax); ok {
-		r.RGCKpc = medianOfMonotone(los.r2At, mid, inc, math.Sqrt)
+	if rgcMonotone {
+		r.RGCKpc = medianOfMonotone(los.r2At, mid, rgcInc, math.Sqrt)
 	} else {
 		r.RGCKpc = q.median(w.rgc2[:kept], math.Sqrt)
 	}
@@ -524,20 +530,28 @@ func growVec(b [][3]float64, n int) [][3]float64 {
 }
 
 // applyPrior reweights the first kept draws by the velocity prior
-// (prior.go), replaces them by the equal-weight resample, takes the traced
-// draws spread evenly over it (the resample is in draw order) and returns
-// the weighted unbound share.
-func (w *worker) applyPrior(sigmaKms float64, kept, keep int, los *lineOfSight, r *Result) float64 {
-	pu, ess := priorResample(w.speed2[:kept], w.vesc2[:kept], sigmaKms, w.rndV.float64(), w.wt[:kept], w.idx[:kept])
-	for _, x := range [][]float64{w.dist, w.pmRA, w.pmDec, w.rv, w.speed2, w.rgc2, w.vrad2, w.vtan2, w.vesc2} {
-		gather(x, w.tmp, w.idx[:kept])
+// (prior.go), replaces them by the equal-weight resample where they are
+// used later (r_gc^2 and v_esc^2 only when their medians need the draws),
+// takes the traced draws spread evenly over it (the resample is in draw
+// order) and returns the weighted unbound share.
+func (w *worker) applyPrior(sigmaKms float64, kept, keep int, needRGC, needVesc bool, los *lineOfSight, r *Result) float64 {
+	idx := w.idx[:kept]
+	pu, ess := priorResample(w.speed2[:kept], w.unbound[:kept], sigmaKms, w.rndV.float64(), w.wt[:kept], idx)
+	for i := range keep {
+		j := idx[i*kept/keep]
+		r.SamplePos[i], r.SampleVel[i] = los.at(w.dist[j], w.pmRA[j], w.pmDec[j], w.rv[j])
+	}
+	for _, x := range [][]float64{w.dist, w.speed2, w.vrad2, w.vtan2} {
+		gather(x, w.tmp, idx)
+	}
+	if needRGC {
+		gather(w.rgc2, w.tmp, idx)
+	}
+	if needVesc {
+		gather(w.vesc2, w.tmp, idx)
 	}
 	if ess < minPriorESSShare*float64(kept) {
 		r.note(ReasonPriorDominated, "the velocity prior (%g km/s) leaves an effective sample size of %.0f of %d draws: the data constrain the velocity poorly", sigmaKms, ess, kept)
-	}
-	for i := range keep {
-		j := i * kept / keep
-		r.SamplePos[i], r.SampleVel[i] = los.at(w.dist[j], w.pmRA[j], w.pmDec[j], w.rv[j])
 	}
 	return pu
 }

@@ -28,10 +28,10 @@ const minPriorESSShare = 0.2
 // priorResample weights draw i by exp(-speed2[i] / (2 sigma^2)) and fills
 // idx (len(speed2)) with the indices of a systematic resample to equal
 // weights, nondecreasing. u in [0, 1) is the resample's one random offset;
-// wt is scratch of len(speed2). It returns the weighted share of draws
-// with speed2[i] > vesc2[i] and the effective sample size
+// wt is scratch of len(speed2). It returns the weighted share of the draws
+// marked unbound and the effective sample size
 // (sum w)^2 / sum w^2 (Kish 1965, Survey Sampling, section 11.7).
-func priorResample(speed2, vesc2 []float64, sigmaKms, u float64, wt []float64, idx []int) (pUnbound, ess float64) {
+func priorResample(speed2 []float64, unbound []bool, sigmaKms, u float64, wt []float64, idx []int) (pUnbound, ess float64) {
 	n := len(speed2)
 	inv := 1 / (2 * sigmaKms * sigmaKms)
 	// Subtract the smallest exponent so that the largest weight is 1.
@@ -45,7 +45,7 @@ func priorResample(speed2, vesc2 []float64, sigmaKms, u float64, wt []float64, i
 		wt[i] = w
 		sum += w
 		sum2 += w * w
-		if v2 > vesc2[i] {
+		if unbound[i] {
 			ub += w
 		}
 	}

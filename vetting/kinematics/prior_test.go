@@ -21,14 +21,14 @@ func TestPriorResampleConjugate(t *testing.T) {
 		rng := rand.New(rand.NewPCG(1, 2))
 		x := make([]float64, n)
 		x2 := make([]float64, n)
-		vesc2 := make([]float64, n)
+		ub := make([]bool, n)
 		for i := range x {
 			x[i] = c.m + c.s*rng.NormFloat64()
 			x2[i] = x[i] * x[i]
-			vesc2[i] = c.m * c.m
+			ub[i] = x2[i] > c.m*c.m
 		}
 		wt, idx := make([]float64, n), make([]int, n)
-		pu, ess := priorResample(x2, vesc2, c.sigma, rng.Float64(), wt, idx)
+		pu, ess := priorResample(x2, ub, c.sigma, rng.Float64(), wt, idx)
 		gather(x, make([]float64, n), idx)
 		var sum, sum2 float64
 		for _, v := range x {
