@@ -1,7 +1,9 @@
 package vetting
 
-// Progress reports the advance of the long stages (ingest, match, Monte
-// Carlo, tracing). The command line shows it as a bar on a terminal and as
+// Progress reports the advance of the long stages: ingest, match, and the
+// batches of stars through quality, Monte Carlo, tracing and the ledger
+// (one stage counting stars, since a batch is written while the next is
+// computed). The command line shows it as a bar on a terminal and as
 // periodic log lines otherwise; a nil Progress shows nothing.
 type Progress interface {
 	Begin(stage string, total int) Stage

@@ -420,7 +420,7 @@ func (e *Engine) ingestConcurrently(ctx context.Context, c *campaign.Campaign, s
 		err error
 	}
 	res := make([]result, len(c.Catalogs))
-	st := begin(e.Progress, "ingest", 0)
+	st := begin(e.Progress, fmt.Sprintf("ingest (%d catalogs at once)", len(c.Catalogs)), 0)
 	var wg sync.WaitGroup
 	for k, cs := range c.Catalogs {
 		wg.Add(1)
@@ -486,7 +486,7 @@ func (e *Engine) computeAndWrite(ctx context.Context, w *db.RunWriter, total int
 	ce := &full
 	ctx, cancel := context.WithCancelCause(ctx)
 	defer cancel(nil)
-	st := begin(e.Progress, "vetting", total)
+	st := begin(e.Progress, "quality, Monte Carlo, tracing, ledger", total)
 	defer st.End()
 	todo := make(chan []db.StarRecord) // unbuffered: at most one batch computed ahead
 	spent := make(chan []db.StarRecord, 2)
