@@ -325,8 +325,8 @@ func benchCPUTime() time.Duration {
 }
 
 // stageClock is a Progress that adds up the wall time spent in each stage
-// of a run, keyed by the stage name's first word ("ingest", "match",
-// "vetting").
+// of a run, keyed by the stage name's first word ("ingest", "match"), or
+// "vetting" for stageVetting.
 type stageClock struct {
 	mu  sync.Mutex
 	sum map[string]time.Duration
@@ -341,6 +341,9 @@ type stageTick struct {
 
 func (c *stageClock) Begin(stage string, _ int) Stage {
 	key, _, _ := strings.Cut(stage, " ")
+	if stage == stageVetting {
+		key = "vetting"
+	}
 	return &stageTick{c: c, key: key, t0: time.Now()}
 }
 

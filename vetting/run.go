@@ -463,6 +463,10 @@ func (e *Engine) ingestConcurrently(ctx context.Context, c *campaign.Campaign, s
 	return out, nil
 }
 
+// stageVetting names the progress stage that counts stars through quality,
+// kinematics and the ledger.
+const stageVetting = "quality, Monte Carlo, tracing, ledger"
+
 // ledgerBatch is how many stars go into one ledger transaction.
 const ledgerBatch = 20000
 
@@ -486,7 +490,7 @@ func (e *Engine) computeAndWrite(ctx context.Context, w *db.RunWriter, total int
 	ce := &full
 	ctx, cancel := context.WithCancelCause(ctx)
 	defer cancel(nil)
-	st := begin(e.Progress, "quality, Monte Carlo, tracing, ledger", total)
+	st := begin(e.Progress, stageVetting, total)
 	defer st.End()
 	todo := make(chan []db.StarRecord) // unbuffered: at most one batch computed ahead
 	spent := make(chan []db.StarRecord, 2)
