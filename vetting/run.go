@@ -9,7 +9,6 @@ import (
 	"slices"
 	"sort"
 	"strings"
-	"sync"
 	"time"
 
 	"starvet/crossmatch/catalog"
@@ -223,7 +222,7 @@ func (e *Engine) Run(ctx context.Context, c *campaign.Campaign, opt RunOptions) 
 		}()
 	}
 
-	cats, err := e.ingestConcurrently(ctx, c, opt.Strict, filepath.Dir(ledgerPath))
+	cats, err := e.Ingest(ctx, c, opt.Strict, filepath.Dir(ledgerPath))
 	if err != nil {
 		return nil, err
 	}
@@ -412,57 +411,6 @@ func (e *Engine) Run(ctx context.Context, c *campaign.Campaign, opt RunOptions) 
 // same time (each reader is a pipeline whose CSV splitting is sequential,
 // so two files overlap well on two cores). Results, log lines, rejected-row
 // files and the error returned (the first in campaign order) are those of
-// Ingest.
-func (e *Engine) ingestConcurrently(ctx context.Context, c *campaign.Campaign, strict bool, rejectDir string) (*Catalogs, error) {
-	type result struct {
-		t   *catalog.Table
-		rep *catalog.Report
-		err error
-	}
-	res := make([]result, len(c.Catalogs))
-	st := begin(e.Progress, fmt.Sprintf("ingest (%d catalogs at once)", len(c.Catalogs)), 0)
-	var wg sync.WaitGroup
-	for k, cs := range c.Catalogs {
-		wg.Add(1)
-		go func() {
-			defer wg.Done()
-			t, rep, err := catalog.Read(ctx, cs.Spec, catalog.ReadOptions{Strict: strict})
-			res[k] = result{t, rep, err}
-		}()
-	}
-	wg.Wait()
-	st.End()
-	out := &Catalogs{}
-	for k, cs := range c.Catalogs {
-		spec := cs.Spec
-		t, rep, err := res[k].t, res[k].rep, res[k].err
-		if err != nil {
-			return nil, err
-		}
-		e.Log.Info().Str("catalog", spec.Name).Int("rows_read", rep.RowsRead).Int("rows_kept", rep.RowsKept).
-			Int("rows_quarantined", len(rep.Quarantined)).Msg("ingested")
-		if rejectDir != "" && len(rep.Quarantined) > 0 {
-			p := filepath.Join(rejectDir, spec.Name+".rejected.csv")
-			if err := catalog.WriteRejected(p, rep.Header, rep.Quarantined); err != nil {
-				return nil, err
-			}
-		}
-		if spec.Role == catalog.Astrometry {
-			out.Primary = t
-			out.Reports = append([]*catalog.Report{rep}, out.Reports...)
-			out.Specs = append([]catalog.Spec{spec}, out.Specs...)
-		} else {
-			out.Secondaries = append(out.Secondaries, t)
-			out.Reports = append(out.Reports, rep)
-			out.Specs = append(out.Specs, spec)
-		}
-	}
-	if out.Primary == nil {
-		return nil, fmt.Errorf("campaign %s: no astrometry catalog", c.File)
-	}
-	return out, nil
-}
-
 // stageVetting names the progress stage that counts stars through quality,
 // kinematics and the ledger.
 const stageVetting = "quality, Monte Carlo, tracing, ledger"

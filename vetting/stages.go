@@ -4,6 +4,7 @@ import (
 	"context"
 	"fmt"
 	"path/filepath"
+	"sync"
 
 	"starvet/crossmatch"
 	"starvet/crossmatch/catalog"
@@ -12,15 +13,33 @@ import (
 	"starvet/vetting/campaign"
 )
 
-// Ingest reads every catalog of the campaign. Rejected rows are written to
-// <catalog>.rejected.csv in rejectDir ("" writes none).
+// Ingest reads every catalog of the campaign, all at once (one goroutine
+// per file). Logs, rejected-row files (<catalog>.rejected.csv in
+// rejectDir; "" writes none) and the first error follow the campaign's
+// catalog order, as if they had been read one after another.
 func (e *Engine) Ingest(ctx context.Context, c *campaign.Campaign, strict bool, rejectDir string) (*Catalogs, error) {
+	type result struct {
+		t   *catalog.Table
+		rep *catalog.Report
+		err error
+	}
+	res := make([]result, len(c.Catalogs))
+	st := begin(e.Progress, fmt.Sprintf("ingest (%d catalogs at once)", len(c.Catalogs)), 0)
+	var wg sync.WaitGroup
+	for k, cs := range c.Catalogs {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			t, rep, err := catalog.Read(ctx, cs.Spec, catalog.ReadOptions{Strict: strict})
+			res[k] = result{t, rep, err}
+		}()
+	}
+	wg.Wait()
+	st.End()
 	out := &Catalogs{}
-	for _, cs := range c.Catalogs {
+	for k, cs := range c.Catalogs {
 		spec := cs.Spec
-		st := begin(e.Progress, "ingest "+spec.Name, 0)
-		t, rep, err := catalog.Read(ctx, spec, catalog.ReadOptions{Strict: strict})
-		st.End()
+		t, rep, err := res[k].t, res[k].rep, res[k].err
 		if err != nil {
 			return nil, err
 		}
