@@ -40,64 +40,168 @@ var fieldGroups = [][]catalog.Field{
 	{catalog.Mag, catalog.Color},
 }
 
-// mergeStar fills s with primary row i: the primary's values, and for the
-// field groups the primary lacks, those of the first matched secondary (in
-// campaign order) that has them.
-func mergeStar(c *Catalogs, m *Matched, i int, s *quality.Star) {
+// mergeChunk is how many stars mergeBatch fills one step at a time: small
+// enough that their Star values (280 bytes each) stay in cache between the
+// steps.
+const mergeChunk = 1024
+
+// mergeBatch fills stars, the primary rows lo, lo+1, ..., and their input
+// hashes. Every star gets, in this order: the primary's values, its matches
+// and duplicate count, and for each field group the primary lacks, the
+// values of the first matched secondary (in campaign order) that has the
+// group's first field. The secondaries are read one column at a time over
+// the chunk: their rows come in match order, not file order, and a loop
+// that only gathers keeps many cache misses in flight at once.
+func mergeBatch(c *Catalogs, m *Matched, lo int, stars []quality.Star, hashes []string, sc *mergeScratch) {
 	p := c.Primary
-	s.ID = p.IDs[i]
-	for f := catalog.Field(1); f < catalog.NumFields; f++ {
-		s.Values[f] = math.NaN()
-		if col := p.Cols[f]; col != nil {
-			s.Values[f] = col[i]
+	nSec := len(c.Secondaries)
+	n := len(stars)
+	// One backing array for the batch's matches, one string for its hashes.
+	matches := make([]quality.MatchInfo, n*nSec)
+	hexBuf := make([]byte, n*2*inputHashBytes)
+	for c0 := 0; c0 < n; c0 += mergeChunk {
+		chunk := stars[c0:min(c0+mergeChunk, n)]
+		base := lo + c0
+		for b := range chunk {
+			s := &chunk[b]
+			i := base + b
+			s.ID = p.IDs[i]
+			s.DupCount = 0
+			if m.DupCount != nil {
+				s.DupCount = int(m.DupCount[i])
+			}
+			if nSec > 0 { // with none, Matches stays nil, as before
+				off := (c0 + b) * nSec
+				s.Matches = matches[off : off+nSec : off+nSec]
+			}
 		}
-	}
-	if cap(s.Matches) < len(c.Secondaries) {
-		s.Matches = make([]quality.MatchInfo, len(c.Secondaries))
-	}
-	s.Matches = s.Matches[:len(c.Secondaries)]
-	for k := range c.Secondaries {
-		cp := &m.Results[k].Matches[i]
-		s.Matches[k] = quality.MatchInfo{
-			Matched:    cp.Secondary >= 0,
-			SepArcsec:  cp.SepArcsec,
-			Prob:       cp.Prob,
-			Candidates: int(cp.Candidates),
-			Ambiguous:  cp.Ambiguous,
-		}
-		if cp.Secondary < 0 {
-			s.Matches[k].SepArcsec = math.NaN()
-			s.Matches[k].Prob = math.NaN()
-		}
-	}
-	s.DupCount = 0
-	if m.DupCount != nil {
-		s.DupCount = int(m.DupCount[i])
-	}
-	for _, g := range fieldGroups {
-		if !math.IsNaN(s.Values[g[0]]) {
-			continue
-		}
-		for k, t := range c.Secondaries {
-			j := m.Results[k].Matches[i].Secondary
-			if j < 0 || t.Cols[g[0]] == nil || math.IsNaN(t.Cols[g[0]][j]) {
+		for f := catalog.Field(1); f < catalog.NumFields; f++ {
+			col := p.Cols[f]
+			if col == nil {
+				for b := range chunk {
+					chunk[b].Values[f] = math.NaN()
+				}
 				continue
 			}
-			for _, f := range g {
-				s.Values[f] = math.NaN()
-				if col := t.Cols[f]; col != nil {
-					s.Values[f] = col[j]
-				}
+			col = col[base : base+len(chunk)]
+			for b, v := range col {
+				chunk[b].Values[f] = v
 			}
+		}
+		for k := range c.Secondaries {
+			cps := m.Results[k].Matches[base : base+len(chunk)]
+			for b := range cps {
+				cp := &cps[b]
+				mi := quality.MatchInfo{Matched: cp.Secondary >= 0, SepArcsec: cp.SepArcsec, Prob: cp.Prob,
+					Candidates: int(cp.Candidates), Ambiguous: cp.Ambiguous}
+				if cp.Secondary < 0 {
+					mi.SepArcsec, mi.Prob = math.NaN(), math.NaN()
+				}
+				chunk[b].Matches[k] = mi
+			}
+		}
+		for _, g := range fieldGroups {
+			fillGroup(c, m, g, base, chunk, sc)
+		}
+		sc.touchSourceIDs(m, base, len(chunk))
+		for b := range chunk {
+			var sum [inputHashBytes]byte
+			sum, sc.buf = inputHash(c, m, base+b, &chunk[b], sc.buf)
+			hex.Encode(hexBuf[(c0+b)*2*inputHashBytes:], sum[:])
+		}
+	}
+	all := string(hexBuf)
+	for b := range hashes {
+		hashes[b] = all[b*2*inputHashBytes : (b+1)*2*inputHashBytes]
+	}
+}
+
+// mergeScratch is one worker's reusable memory.
+type mergeScratch struct {
+	buf  []byte
+	from []int32 // per chunk star: secondary index k that supplies the group, -1 for none
+	row  []int32 // its row in that secondary
+	sink byte
+}
+
+// fillGroup copies field group g from the secondaries into the chunk's
+// stars that lack g[0] in the primary.
+func fillGroup(c *Catalogs, m *Matched, g []catalog.Field, base int, chunk []quality.Star, sc *mergeScratch) {
+	from, row := sc.from[:len(chunk)], sc.row[:len(chunk)]
+	open := 0
+	for b := range chunk {
+		from[b] = -1
+		if math.IsNaN(chunk[b].Values[g[0]]) {
+			from[b] = -2 // still looking
+			open++
+		}
+	}
+	for k, t := range c.Secondaries {
+		lead := t.Cols[g[0]]
+		if open == 0 {
 			break
+		}
+		if lead == nil {
+			continue
+		}
+		cps := m.Results[k].Matches[base : base+len(chunk)]
+		for b := range chunk {
+			if from[b] != -2 {
+				continue
+			}
+			if j := cps[b].Secondary; j >= 0 && !math.IsNaN(lead[j]) {
+				from[b], row[b] = int32(k), j
+				open--
+			}
+		}
+	}
+	for b := range from {
+		if from[b] == -2 {
+			from[b] = -1
+		}
+	}
+	for _, f := range g {
+		for k, t := range c.Secondaries {
+			col := t.Cols[f]
+			for b := range chunk {
+				if from[b] != int32(k) {
+					continue
+				}
+				v := math.NaN()
+				if col != nil {
+					v = col[row[b]]
+				}
+				chunk[b].Values[f] = v
+			}
 		}
 	}
 }
 
+// touchSourceIDs reads the first byte of every matched counterpart id of
+// the chunk: those strings lie in match order across the secondary's
+// memory, and loading them in a tight loop overlaps the cache misses that
+// inputHash would otherwise take one at a time.
+func (sc *mergeScratch) touchSourceIDs(m *Matched, base, n int) {
+	var x byte
+	for _, r := range m.Results {
+		for _, cp := range r.Matches[base : base+n] {
+			if len(cp.SourceID) > 0 {
+				x ^= cp.SourceID[0]
+			}
+		}
+	}
+	sc.sink ^= x
+}
+
+// inputHashBytes is how much of the SHA-256 the input hash keeps (128 bits,
+// written as 32 hex digits).
+const inputHashBytes = 16
+
 // inputHash is the fingerprint of everything a star's verdict depends on
 // besides the run-wide settings: its merged canonical values, its matches
-// and its duplicate count. 128 bits of SHA-256, hex.
-func inputHash(c *Catalogs, m *Matched, i int, s *quality.Star, buf []byte) (string, []byte) {
+// and its duplicate count. The first 128 bits of SHA-256. The byte layout
+// is stored in every ledger and must not change.
+func inputHash(c *Catalogs, m *Matched, i int, s *quality.Star, buf []byte) ([inputHashBytes]byte, []byte) {
 	buf = buf[:0]
 	buf = append(buf, s.ID...)
 	buf = append(buf, 0)
@@ -121,7 +225,7 @@ func inputHash(c *Catalogs, m *Matched, i int, s *quality.Star, buf []byte) (str
 		}
 	}
 	sum := sha256.Sum256(buf)
-	return hex.EncodeToString(sum[:16]), buf
+	return [inputHashBytes]byte(sum[:inputHashBytes]), buf
 }
 
 func appendFloat(b []byte, x float64) []byte {
@@ -146,13 +250,10 @@ func mergeAll(ctx context.Context, c *Catalogs, m *Matched, workers int) ([]qual
 		wg.Add(1)
 		go func() {
 			defer wg.Done()
-			var buf []byte
+			sc := &mergeScratch{from: make([]int32, mergeChunk), row: make([]int32, mergeChunk)}
 			for lo := range next {
 				hi := min(lo+batch, n)
-				for i := lo; i < hi; i++ {
-					mergeStar(c, m, i, &stars[i])
-					hashes[i], buf = inputHash(c, m, i, &stars[i], buf)
-				}
+				mergeBatch(c, m, lo, stars[lo:hi], hashes[lo:hi], sc)
 			}
 		}()
 	}
