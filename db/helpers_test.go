@@ -37,10 +37,9 @@ func record(id string, i int, salt float64, status string) StarRecord {
 	in.InputHash = fmt.Sprintf("h-%d-%g", i, salt)
 	in.DupCount = 1
 	return StarRecord{
-		StarID:   id,
-		Computed: true,
-		Inputs:   &in,
-		Matches:  []MatchRow{{Catalog: "spec-alpha", SourceID: "s" + id, SepArcsec: 0.12, MatchProb: 0.97, Candidates: 1}},
+		StarID:  id,
+		Inputs:  &in,
+		Matches: []MatchRow{{Catalog: "spec-alpha", SourceID: "s" + id, SepArcsec: 0.12, MatchProb: 0.97, Candidates: 1}},
 		Verdict: VerdictRow{Status: status, Quality: "pass", DistanceMethod: "parallax", SpeedP16Kms: 400,
 			SpeedP50Kms: 500 + float64(i%7), SpeedP84Kms: 600, SpeedLowerP50Kms: math.NaN(), RGCKpc: 9, VEscKms: 550,
 			PUnbound: 0.3, PUnboundLower: math.NaN(), PGCOrigin: math.NaN(), GCConsistency: math.NaN(),
@@ -83,6 +82,7 @@ func runChecksum(t testing.TB, l *Ledger, runID int64) string {
 		"SELECT * FROM quarantine WHERE run_id = ? ORDER BY rowid",
 		"SELECT * FROM inputs WHERE run_id = ? ORDER BY star_id",
 		"SELECT * FROM matches WHERE run_id = ? ORDER BY star_id, catalog",
+		"SELECT * FROM computed_verdicts WHERE computed_in_run = ? ORDER BY star_id",
 		"SELECT * FROM verdicts WHERE run_id = ? ORDER BY star_id",
 		"SELECT run_id, star_id, seq, rule_id, outcome, severity, value, threshold, message FROM reasons WHERE run_id = ? ORDER BY star_id, seq",
 	} {
@@ -131,6 +131,16 @@ func countRows(t testing.TB, l *Ledger, table string, runID int64) int {
 	// table is one of our own constant names, never input.
 	if err := l.db.QueryRow("SELECT count(*) FROM "+table+" WHERE run_id = ?", runID).Scan(&n); err != nil {
 		t.Fatalf("count %s: %v", table, err)
+	}
+	return n
+}
+
+// countComputed counts the verdicts a run computed (not those it carries).
+func countComputed(t testing.TB, l *Ledger, runID int64) int {
+	t.Helper()
+	var n int
+	if err := l.db.QueryRow("SELECT count(*) FROM computed_verdicts WHERE computed_in_run = ?", runID).Scan(&n); err != nil {
+		t.Fatalf("count computed verdicts: %v", err)
 	}
 	return n
 }

@@ -45,8 +45,8 @@ func killChild(path string) {
 	batch := make([]StarRecord, 200)
 	for n := 0; ; n++ {
 		for i := range batch {
-			// Overlaps the parent's star ids, so stars.last_run and the
-			// stars upsert are exercised too.
+			// Overlaps the parent's star ids: the failed run then holds
+			// new computations of stars that complete runs hold too.
 			batch[i] = record(fmt.Sprintf("K%06d", (n*len(batch)+i)%3000), i, float64(n), "rejected")
 		}
 		if err := w.AddStars(ctx, batch); err != nil {

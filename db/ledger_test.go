@@ -150,13 +150,11 @@ func TestRoundTripAndAudit(t *testing.T) {
 	a1.Inputs.DupCount = 2
 	a3 := record("A-3", 2, 0, "rejected")
 	a5 := record("A-5", 5, 0, "accepted")
-	withdrawn := StarRecord{StarID: "A-4", Computed: true, Verdict: NewVerdictRow("withdrawn")}
+	withdrawn := StarRecord{StarID: "A-4", Verdict: NewVerdictRow("withdrawn")}
 	if err := w.AddStars(ctx, []StarRecord{a1, a3, a5, withdrawn}); err != nil {
 		t.Fatal(err)
 	}
-	if err := w.CarryForward(ctx, r1, []string{"A-2"}); err != nil {
-		t.Fatal(err)
-	}
+	// A-2 is not written: it keeps its run-1 verdict.
 	if err := w.Finish(ctx, RunSummary{StarsTotal: 5, StarsComputed: 4, StarsCarried: 1,
 		Counts: map[string]int64{"accepted": 3, "rejected": 1, "withdrawn": 1, "bound": 0}}); err != nil {
 		t.Fatal(err)
@@ -458,18 +456,16 @@ func TestBadRecords(t *testing.T) {
 		t.Fatal(err)
 	}
 	defer w.Fail(ctx, errors.New("test over"))
-	carriedWithInputs := record("c", 1, 0, "accepted")
-	carriedWithInputs.Computed = false
-	carriedWithInputs.Verdict.ComputedInRun = r1
+	carried := record("c", 1, 0, "accepted")
+	carried.Verdict.ComputedInRun = r1
 	tests := []struct {
 		name string
 		rec  StarRecord
 		want string
 	}{
 		{"empty id", StarRecord{Verdict: VerdictRow{Status: "accepted"}}, "empty star id"},
-		{"empty status", StarRecord{StarID: "x", Computed: true}, `star "x": empty status`},
-		{"carried with inputs", carriedWithInputs, `star "c": not computed in this run but carries`},
-		{"carried without run", StarRecord{StarID: "d", Verdict: VerdictRow{Status: "accepted"}}, `star "d": not computed in this run, so computed_in_run`},
+		{"empty status", StarRecord{StarID: "x"}, `star "x": empty status`},
+		{"carried forward", carried, `star "c": written by run 2 but its verdict says computed in run 1`},
 	}
 	for _, tc := range tests {
 		t.Run(tc.name, func(t *testing.T) {
@@ -478,26 +474,24 @@ func TestBadRecords(t *testing.T) {
 			if !errors.Is(err, ErrBadRecord) || !strings.Contains(err.Error(), tc.want) {
 				t.Errorf("error %v, want ErrBadRecord with %q", err, tc.want)
 			}
-			if n := countRows(t, l, "verdicts", w.ID()); n != 0 {
+			if n := countComputed(t, l, w.ID()); n != 0 {
 				t.Errorf("%d verdicts written by a rejected batch", n)
 			}
 		})
 	}
-	if err := w.CarryForward(ctx, r1, []string{"ok", "missing"}); !errors.Is(err, ErrUnknownStar) || !strings.Contains(err.Error(), `"missing"`) {
-		t.Errorf("carry forward missing: %v", err)
-	}
-	if n := countRows(t, l, "verdicts", w.ID()); n != 0 {
-		t.Errorf("%d verdicts left by a failed carry-forward batch", n)
-	}
-	if err := w.CarryForward(ctx, r1, []string{"ok", "ok"}); !errors.Is(err, ErrBadRecord) || !strings.Contains(err.Error(), "twice") {
-		t.Errorf("carry forward duplicate: %v", err)
-	}
 	if err := w.AddStars(ctx, []StarRecord{record("ok", 1, 1, "accepted")}); err != nil {
 		t.Fatal(err)
+	}
+	if err := w.AddStars(ctx, []StarRecord{record("ok", 1, 2, "accepted")}); err == nil || !strings.Contains(err.Error(), "UNIQUE") {
+		t.Errorf("a star written twice by one run: %v, want a primary-key error", err)
 	}
 	err = w.Finish(ctx, RunSummary{StarsTotal: 3})
 	if !errors.Is(err, ErrSummary) || !strings.Contains(err.Error(), "stars_total is 3 but the ledger holds 1") {
 		t.Errorf("finish with wrong total: %v", err)
+	}
+	err = w.Finish(ctx, RunSummary{StarsComputed: 2, Counts: map[string]int64{"accepted": 2}})
+	if !errors.Is(err, ErrSummary) || !strings.Contains(err.Error(), "stars_computed is 2 but the ledger holds 1") {
+		t.Errorf("finish with wrong computed count: %v", err)
 	}
 	err = w.Finish(ctx, RunSummary{Counts: map[string]int64{"accepted": 2}})
 	if !errors.Is(err, ErrSummary) || !strings.Contains(err.Error(), "status counts") {
@@ -670,10 +664,7 @@ func TestCrossingsAndPositions(t *testing.T) {
 	if err := w.AddStars(ctx, []StarRecord{record("B", 2, 1, "rejected")}); err != nil {
 		t.Fatal(err)
 	}
-	if err := w.CarryForward(ctx, r1, []string{"A"}); err != nil {
-		t.Fatal(err)
-	}
-	if err := w.Finish(ctx, RunSummary{}); err != nil {
+	if err := w.Finish(ctx, RunSummary{}); err != nil { // A is carried
 		t.Fatal(err)
 	}
 	var cs []string

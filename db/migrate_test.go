@@ -2,108 +2,152 @@ package db
 
 import (
 	"context"
+	"crypto/sha256"
 	"database/sql"
+	"encoding/hex"
 	"fmt"
-	"math"
 	"strings"
 	"testing"
 )
 
-// A ledger at schema 2 holding two runs (the second carries stars forward)
-// is rebuilt by migration 3 in place: every row of every run hashes the same
-// before and after, the rebuilt tables are WITHOUT ROWID, the status index
-// is back, and the ledger takes a further run.
-func TestMigrateFromSchema2(t *testing.T) {
-	if SchemaVersion() < 3 {
-		t.Skip("no migration 3")
-	}
-	ctx := context.Background()
-
-	// The source: a current ledger written through the API.
-	src := tempLedger(t)
-	ls := openT(t, src, Options{})
-	var recs []StarRecord
-	for i := range 300 {
-		r := record(fmt.Sprintf("m%04d", (i*37)%300), i, 0, []string{"bound", "unbound", "rejected"}[i%3])
-		if i%5 == 0 {
-			r.Verdict.Quality = ""
-			r.Verdict.SpeedP50Kms = math.NaN()
-		}
-		recs = append(recs, r)
-	}
-	run1 := writeRun(t, ls, recs)
-	w, err := ls.BeginRun(ctx, RunInfo{ToolVersion: "test", Seed: 8})
+// oldLedger writes, with plain SQL into a schema-2 ledger (migrations 1
+// and 2 only), what the pipeline of that time wrote: run 1 computes 300
+// stars; run 2 computes 2 (one new) and copies the other 299 verdicts;
+// run 3 copies all 301, recomputes one and fails. Every computed star has
+// inputs, a match, two reasons in rowid order and, for some, crossings.
+func oldLedger(t *testing.T) string {
+	t.Helper()
+	p := tempLedger(t)
+	db, err := sql.Open("sqlite3", p)
 	if err != nil {
 		t.Fatal(err)
 	}
-	if err := w.AddStars(ctx, []StarRecord{record("m0007", 7, 1, "marginal"), record("new-1", 301, 1, "bound")}); err != nil {
-		t.Fatal(err)
+	defer db.Close()
+	for _, m := range loadMigrations()[:2] {
+		if _, err := db.Exec(m.sql); err != nil {
+			t.Fatalf("%s: %v", m.name, err)
+		}
 	}
-	if n, err := w.CarryForwardRest(ctx, run1); err != nil || n != 299 {
-		t.Fatalf("carry forward: %d, %v", n, err)
+	exec := func(q string, args ...any) {
+		t.Helper()
+		if _, err := db.Exec(q, args...); err != nil {
+			t.Fatalf("%s: %v", q, err)
+		}
 	}
-	if err := w.Finish(ctx, RunSummary{}); err != nil {
-		t.Fatal(err)
+	for run, state := range map[int]string{1: "complete", 2: "complete", 3: "failed"} {
+		exec(`INSERT INTO runs (id, started_at, state, tool_version, seed, "full", counts_json) VALUES (?, '2026-01-0'||?||'T00:00:00Z', ?, 'old', 7, 0, '{}')`, run, run, state)
+		exec(`INSERT INTO catalogs (run_id, name, release, rows_read) VALUES (?, 'astro-main', 'r'||?, 300)`, run, run)
 	}
-	run2 := w.ID()
-	want := map[int64]string{run1: runChecksum(t, ls, run1), run2: runChecksum(t, ls, run2)}
-	ls.Close()
+	compute := func(run int, id string, i int, status string) {
+		exec(`INSERT INTO inputs (run_id, star_id, input_hash, ra, dec, parallax, dup_count) VALUES (?, ?, ?, ?, ?, ?, ?)`,
+			run, id, fmt.Sprintf("h%d-%d", run, i), float64(i)*1.2, -float64(i)*0.1, 0.01*float64(i), i%3)
+		exec(`INSERT INTO matches (run_id, star_id, catalog, source_id, sep_arcsec, match_prob, candidates, ambiguous) VALUES (?, ?, 'spec-alpha', 's'||?, 0.1, 0.9, 1, 0)`, run, id, id)
+		exec(`INSERT INTO reasons (run_id, star_id, rule_id, outcome, value, threshold, message) VALUES (?, ?, 'snr', 'fail', ?, '>= 5', 'low')`, run, id, float64(i))
+		exec(`INSERT INTO reasons (run_id, star_id, rule_id, outcome, message) VALUES (?, ?, 'speed', 'info', 'median')`, run, id)
+		if i%50 == 0 {
+			exec(`INSERT INTO crossings (run_id, star_id, x_kpc, y_kpc, t_myr) VALUES (?, ?, 1.5, -2, 30)`, run, id)
+		}
+		exec(`INSERT INTO verdicts (run_id, star_id, status, quality, computed_in_run, input_hash, has_rv, speed_p50_kms, model_name)
+			VALUES (?, ?, ?, 'pass', ?, ?, 0, ?, 'm')`, run, id, status, run, fmt.Sprintf("h%d-%d", run, i), 300+float64(i))
+		exec(`INSERT INTO stars (star_id, first_run, last_run) VALUES (?, ?, ?) ON CONFLICT (star_id) DO UPDATE SET last_run = excluded.last_run`, id, run, run)
+	}
+	carry := func(run, from int) {
+		exec(`INSERT INTO verdicts SELECT ?, star_id, status, quality, computed_in_run, input_hash, distance_method, has_rv,
+			speed_p16_kms, speed_p50_kms, speed_p84_kms, speed_lower_p50_kms, r_gc_kpc, v_esc_kms, p_unbound, p_unbound_lower,
+			origin, p_gc_origin, gc_consistency, flight_time_myr, model_name
+			FROM verdicts v WHERE run_id = ? AND NOT EXISTS (SELECT 1 FROM verdicts c WHERE c.run_id = ? AND c.star_id = v.star_id)`, run, from, run)
+		exec(`UPDATE stars SET last_run = ? WHERE star_id IN (SELECT star_id FROM verdicts WHERE run_id = ?)`, run, run)
+	}
+	for i := range 300 {
+		compute(1, fmt.Sprintf("m%04d", (i*37)%300), i, []string{"bound", "unbound", "rejected"}[i%3])
+	}
+	compute(2, "m0007", 7, "marginal")
+	compute(2, "new-1", 301, "bound")
+	carry(2, 1)
+	compute(3, "m0100", 100, "rejected")
+	carry(3, 2)
+	// What Finish stored: the counts of each run's verdicts.
+	exec(`UPDATE runs SET counts_json = (SELECT json_group_object(status, n) FROM
+		(SELECT status, count(*) AS n FROM verdicts WHERE run_id = runs.id GROUP BY status ORDER BY status))`)
+	exec("PRAGMA user_version = 2")
+	return p
+}
 
-	// The same rows in a ledger built by migrations 1 and 2 only.
-	old := tempLedger(t)
+// stableSum hashes a run with queries that read the same in schemas 5 and
+// 6: its verdict set (columns named), inputs, matches and reasons.
+func stableSum(t *testing.T, db *sql.DB, run int64) string {
+	t.Helper()
+	h := sha256.New()
+	for _, q := range []string{
+		"SELECT " + verdictCols + " FROM verdicts WHERE run_id = ? ORDER BY star_id",
+		"SELECT * FROM inputs WHERE run_id = ? ORDER BY star_id",
+		"SELECT * FROM matches WHERE run_id = ? ORDER BY star_id, catalog",
+		"SELECT run_id, star_id, seq, rule_id, outcome, severity, value, threshold, message FROM reasons WHERE run_id = ? ORDER BY star_id, seq",
+		"SELECT run_id, star_id, x_kpc, y_kpc, t_myr FROM crossings WHERE run_id = ? ORDER BY star_id, rowid",
+	} {
+		fmt.Fprintf(h, "|%d rows|", hashRows(t, db, h, q, run))
+	}
+	return hex.EncodeToString(h.Sum(nil))
+}
+
+// A schema-2 ledger is rebuilt in place by migrations 3 to 6: complete runs
+// read the same through the verdicts view as from the old table, every
+// computed row is kept, a failed run keeps only its own computations, the
+// tables have the new layout, and the ledger takes a further run.
+func TestMigrateFromSchema2(t *testing.T) {
+	ctx := context.Background()
+	old := oldLedger(t)
+
+	// Bring it to schema 5 by hand and take the reference hashes there.
 	sdb, err := sql.Open("sqlite3", old)
 	if err != nil {
 		t.Fatal(err)
 	}
-	for _, m := range loadMigrations()[:2] {
+	for _, m := range loadMigrations()[2:5] {
 		if _, err := sdb.Exec(m.sql); err != nil {
 			t.Fatalf("%s: %v", m.name, err)
 		}
 	}
-	if _, err := sdb.Exec("ATTACH DATABASE ? AS src", src); err != nil {
+	if _, err := sdb.Exec("PRAGMA user_version = 5"); err != nil {
 		t.Fatal(err)
 	}
-	for _, tab := range []string{"runs", "catalogs", "quarantine", "stars", "inputs", "matches", "verdicts", "crossings"} {
-		// tab is one of the constant names above.
-		if _, err := sdb.Exec("INSERT INTO main." + tab + " SELECT * FROM src." + tab); err != nil {
-			t.Fatalf("copy %s: %v", tab, err)
-		}
-	}
-	// Schema 2's reasons have no seq: their order is the rowid's.
-	if _, err := sdb.Exec(`INSERT INTO main.reasons SELECT run_id, star_id, rule_id, outcome, severity, value, threshold, message
-		FROM src.reasons ORDER BY run_id, star_id, seq`); err != nil {
-		t.Fatalf("copy reasons: %v", err)
-	}
-	if _, err := sdb.Exec("DETACH DATABASE src"); err != nil {
-		t.Fatal(err)
-	}
-	if _, err := sdb.Exec("PRAGMA user_version = 2"); err != nil {
-		t.Fatal(err)
-	}
-	var ddl string
-	if err := sdb.QueryRow("SELECT sql FROM sqlite_schema WHERE name = 'verdicts'").Scan(&ddl); err != nil || strings.Contains(ddl, "WITHOUT ROWID") {
-		t.Fatalf("schema-2 verdicts should be a rowid table: %q, %v", ddl, err)
+	want := map[int64]string{1: stableSum(t, sdb, 1), 2: stableSum(t, sdb, 2)}
+	var stars5 int
+	if err := sdb.QueryRow("SELECT count(*) FROM stars").Scan(&stars5); err != nil || stars5 != 301 {
+		t.Fatalf("schema-5 stars: %d, %v", stars5, err)
 	}
 	sdb.Close()
 
 	l := openT(t, old, Options{})
-	var pageSize int
-	if err := l.db.QueryRow("PRAGMA page_size").Scan(&pageSize); err != nil || pageSize != 4096 {
-		t.Errorf("an existing ledger keeps its page size: %d, %v (want SQLite's default 4096)", pageSize, err)
-	}
-	var v int
+	var v, pageSize int
 	if err := l.db.QueryRow("PRAGMA user_version").Scan(&v); err != nil || v != SchemaVersion() {
 		t.Fatalf("user_version %d, %v", v, err)
 	}
+	if err := l.db.QueryRow("PRAGMA page_size").Scan(&pageSize); err != nil || pageSize != 4096 {
+		t.Errorf("an existing ledger keeps its page size: %d, %v (want SQLite's default 4096)", pageSize, err)
+	}
 	for run, sum := range want {
-		if got := runChecksum(t, l, run); got != sum {
-			t.Errorf("run %d: rows changed by the migration (checksum %s, want %s)", run, got, sum)
+		if got := stableSum(t, l.db, run); got != sum {
+			t.Errorf("run %d reads differently after the migration", run)
 		}
+	}
+	if got := listText(t, l, 3); got != "m0100:rejected@3" {
+		t.Errorf("failed run 3 after the migration: %s, want its own computation only", got)
+	}
+	var computed int
+	if err := l.db.QueryRow("SELECT count(*) FROM computed_verdicts").Scan(&computed); err != nil || computed != 303 {
+		t.Errorf("computed_verdicts holds %d rows, %v; want 300 + 2 + 1", computed, err)
+	}
+	var first, last int64
+	if err := l.db.QueryRow("SELECT first_run, last_run FROM stars WHERE star_id = 'new-1'").Scan(&first, &last); err != nil || first != 2 || last != 2 {
+		t.Errorf("stars new-1: first %d last %d, %v; want 2 2", first, last, err)
 	}
 	for _, tc := range []struct{ name, want string }{
 		{"inputs", "WITHOUT ROWID"},
-		{"verdicts", "WITHOUT ROWID"},
-		{"verdicts_by_run_status", "ON verdicts (run_id, status)"},
+		{"computed_verdicts", "PRIMARY KEY (star_id, computed_in_run)"},
+		{"computed_verdicts_by_run", "ON computed_verdicts (computed_in_run, status)"},
+		{"verdicts", "CREATE VIEW verdicts"},
+		{"stars", "CREATE VIEW stars"},
 		{"reasons", "PRIMARY KEY (run_id, star_id, seq)"},
 		{"matches", "PRIMARY KEY (run_id, star_id, catalog)"},
 	} {
@@ -141,22 +185,26 @@ func TestMigrateFromSchema2(t *testing.T) {
 			t.Errorf("%s after migration: %v", q, out)
 		}
 	}
-	prev, err := l.PreviousState(ctx, run2)
-	if err != nil || len(prev) != 301 || prev["m0007"].Status != "marginal" || prev["m0008"].ComputedInRun != run1 {
+	prev, err := l.PreviousState(ctx, 2)
+	if err != nil || len(prev) != 301 || prev["m0007"].Status != "marginal" || prev["m0008"].ComputedInRun != 1 {
 		t.Errorf("previous state after migration: %d stars, m0007 %+v, m0008 %+v, %v", len(prev), prev["m0007"], prev["m0008"], err)
 	}
 	// The migrated ledger takes a further incremental run.
-	w3, err := l.BeginRun(ctx, RunInfo{ToolVersion: "test", Seed: 9})
+	w4, err := l.BeginRun(ctx, RunInfo{ToolVersion: "test", Seed: 9})
 	if err != nil {
 		t.Fatal(err)
 	}
-	if err := w3.AddStars(ctx, []StarRecord{record("m0001", 1, 2, "bound")}); err != nil {
+	if err := w4.AddStars(ctx, []StarRecord{record("m0001", 1, 2, "bound")}); err != nil {
 		t.Fatal(err)
 	}
-	if n, err := w3.CarryForwardRest(ctx, run2); err != nil || n != 300 {
-		t.Fatalf("carry forward after migration: %d, %v", n, err)
-	}
-	if err := w3.Finish(ctx, RunSummary{StarsTotal: 301, StarsComputed: 1, StarsCarried: 300}); err != nil {
+	if err := w4.Finish(ctx, RunSummary{}); err != nil {
 		t.Fatal(err)
+	}
+	r4, err := l.Run(ctx, w4.ID())
+	if err != nil || r4.StarsTotal != 301 || r4.StarsComputed != 1 || r4.StarsCarried != 300 {
+		t.Errorf("run after migration: %+v, %v", r4, err)
+	}
+	if got := stableSum(t, l.db, 2); got != want[2] {
+		t.Error("run 2 changed after a further run")
 	}
 }

@@ -3,11 +3,15 @@ package db
 import (
 	"context"
 	"database/sql"
+	"database/sql/driver"
 	"encoding/json"
 	"errors"
 	"fmt"
+	"io"
 	"math"
 	"time"
+
+	sqlite3 "github.com/mattn/go-sqlite3"
 )
 
 const runCols = `id, started_at, finished_at, state, tool_version, campaign_hash, ruleset_hash, config_hash,
@@ -146,35 +150,151 @@ func (l *Ledger) statusCounts(ctx context.Context, runID int64) (map[string]int6
 	return m, rows.Err()
 }
 
-// PreviousState returns status, input hash and computing run of every star
-// with a verdict in runID, in one query.
-func (l *Ledger) PreviousState(ctx context.Context, runID int64) (map[string]PrevStar, error) {
-	if _, err := l.Run(ctx, runID); err != nil {
-		return nil, err
+// countsAfter returns the status counts of run runID's set, as if it were
+// complete, and how many verdicts it computed, from the counts of the last
+// complete run before it and one probe per star runID computed: each adds
+// its new status and takes away the one it had in that run.
+func (l *Ledger) countsAfter(ctx context.Context, runID int64) (map[string]int64, int64, error) {
+	counts := map[string]int64{}
+	var prev sql.NullInt64
+	var cj sql.NullString
+	err := l.db.QueryRowContext(ctx,
+		"SELECT id, counts_json FROM runs WHERE id < ? AND state = 'complete' ORDER BY id DESC LIMIT 1", runID).Scan(&prev, &cj)
+	switch {
+	case errors.Is(err, sql.ErrNoRows):
+	case err != nil:
+		return nil, 0, err
+	case cj.Valid:
+		if err := json.Unmarshal([]byte(cj.String), &counts); err != nil {
+			return nil, 0, fmt.Errorf("run %d counts_json: %w", prev.Int64, err)
+		}
+	default:
+		if counts, err = l.statusCounts(ctx, prev.Int64); err != nil {
+			return nil, 0, err
+		}
 	}
-	var n int
-	if err := l.db.QueryRowContext(ctx, "SELECT count(*) FROM verdicts WHERE run_id = ?", runID).Scan(&n); err != nil {
-		return nil, fmt.Errorf("ledger %s run %d: previous state: %w", l.path, runID, err)
-	}
-	rows, err := l.db.QueryContext(ctx,
-		"SELECT star_id, status, input_hash, computed_in_run FROM verdicts WHERE run_id = ?", runID)
+	rows, err := l.db.QueryContext(ctx, `SELECT v.status, (
+			SELECT p.status FROM computed_verdicts p JOIN runs c ON c.id = p.computed_in_run
+			 WHERE p.star_id = v.star_id AND p.computed_in_run < ?1 AND c.state = 'complete'
+			 ORDER BY p.computed_in_run DESC LIMIT 1)
+		  FROM computed_verdicts v WHERE v.computed_in_run = ?1`, runID)
 	if err != nil {
-		return nil, fmt.Errorf("ledger %s run %d: previous state: %w", l.path, runID, err)
+		return nil, 0, err
 	}
 	defer rows.Close()
-	m := make(map[string]PrevStar, n)
+	var computed int64
 	for rows.Next() {
-		var id string
-		var p PrevStar
-		var h sql.NullString
-		if err := rows.Scan(&id, &p.Status, &h, &p.ComputedInRun); err != nil {
-			return nil, fmt.Errorf("ledger %s run %d: previous state: %w", l.path, runID, err)
+		var now string
+		var before sql.NullString
+		if err := rows.Scan(&now, &before); err != nil {
+			return nil, 0, err
 		}
-		p.InputHash = h.String
-		m[id] = p
+		computed++
+		counts[now]++
+		if before.Valid {
+			counts[before.String]--
+		}
 	}
 	if err := rows.Err(); err != nil {
-		return nil, fmt.Errorf("ledger %s run %d: previous state: %w", l.path, runID, err)
+		return nil, 0, err
+	}
+	for k, n := range counts {
+		if n < 0 {
+			return nil, 0, fmt.Errorf("%d stars %q after run %d: the previous run's counts disagree with its verdicts: %w", n, k, runID, ErrSummary)
+		}
+	}
+	return nonZero(counts), computed, nil
+}
+
+// eligibility says which runs' computations belong to run runID's set:
+// its own, and, unless it failed, those of complete runs before it (the
+// rule of the verdicts view).
+func (l *Ledger) eligibility(ctx context.Context, runID int64) (func(computedIn int64) bool, error) {
+	rs, err := l.Runs(ctx)
+	if err != nil {
+		return nil, err
+	}
+	ok := map[int64]bool{runID: true}
+	var self *Run
+	for i := range rs {
+		if rs[i].ID == runID {
+			self = &rs[i]
+		}
+	}
+	if self == nil {
+		return nil, fmt.Errorf("ledger %s has no run %d: %w", l.path, runID, ErrNoRun)
+	}
+	// The file's state, not the display one: a run whose writer died but
+	// that no writable open has marked failed yet still reads as running.
+	var state string
+	if err := l.db.QueryRowContext(ctx, "SELECT state FROM runs WHERE id = ?", runID).Scan(&state); err != nil {
+		return nil, err
+	}
+	if state != "failed" {
+		for _, r := range rs {
+			if r.ID < runID && r.State == "complete" {
+				ok[r.ID] = true
+			}
+		}
+	}
+	return func(c int64) bool { return ok[c] }, nil
+}
+
+// PreviousState returns status, input hash and computing run of every star
+// of run runID's set, in one pass over computed_verdicts on the raw driver
+// connection (database/sql's per-row conversions would double its cost).
+func (l *Ledger) PreviousState(ctx context.Context, runID int64) (map[string]PrevStar, error) {
+	fail := func(err error) error { return fmt.Errorf("ledger %s run %d: previous state: %w", l.path, runID, err) }
+	eligible, err := l.eligibility(ctx, runID)
+	if err != nil {
+		return nil, err
+	}
+	r, err := l.Run(ctx, runID)
+	if err != nil {
+		return nil, err
+	}
+	m := make(map[string]PrevStar, max(r.StarsTotal, 0))
+	conn, err := l.db.Conn(ctx)
+	if err != nil {
+		return nil, fail(err)
+	}
+	defer conn.Close()
+	err = conn.Raw(func(dc any) error {
+		c := dc.(*sqlite3.SQLiteConn)
+		rows, err := c.QueryContext(ctx,
+			"SELECT star_id, computed_in_run, status, input_hash FROM computed_verdicts WHERE computed_in_run <= ?",
+			[]driver.NamedValue{{Ordinal: 1, Value: runID}})
+		if err != nil {
+			return err
+		}
+		defer rows.Close()
+		dest := make([]driver.Value, 4)
+		statuses := map[string]string{} // one string per status word
+		for {
+			if err := rows.Next(dest); err == io.EOF {
+				return nil
+			} else if err != nil {
+				return err
+			}
+			cin, _ := dest[1].(int64)
+			if !eligible(cin) {
+				continue
+			}
+			id, _ := dest[0].(string)
+			st, _ := dest[2].(string)
+			if s, ok := statuses[st]; ok {
+				st = s
+			} else {
+				statuses[st] = st
+			}
+			h, _ := dest[3].(string)
+			// Rows come in (star_id, computed_in_run) order: the last
+			// eligible one of a star is its verdict.
+			m[id] = PrevStar{Status: st, InputHash: h, ComputedInRun: cin}
+		}
+	})
+	if err != nil {
+		return nil, fail(err)
 	}
 	return m, nil
 }

@@ -165,17 +165,16 @@ func NewVerdictRow(status string) VerdictRow {
 // run rather than computed in its own.
 func (v *VerdictRow) Carried() bool { return v.ComputedInRun != v.RunID }
 
-// StarRecord is everything a run writes for one star. A computed star
-// carries Inputs and may carry Matches and Reasons; a carried-forward or
-// withdrawn star has only a Verdict whose ComputedInRun names the run that
-// computed it.
+// StarRecord is everything a run writes for one star it computed: the
+// verdict, and for a star in the primary catalog its Inputs, Matches and
+// Reasons (a withdrawn star has a verdict and a reason only). A star
+// carried forward unchanged is not written at all.
 type StarRecord struct {
-	StarID   string
-	Computed bool
-	Inputs   *InputRow
-	Matches  []MatchRow
-	Verdict  VerdictRow
-	Reasons  []ReasonRow
+	StarID  string
+	Inputs  *InputRow
+	Matches []MatchRow
+	Verdict VerdictRow
+	Reasons []ReasonRow
 	// Crossings are back-traced crossings of the Galactic plane (computed
 	// stars only; StarID is taken from the record).
 	Crossings []CrossingRow

@@ -392,12 +392,11 @@ func reportRun(b *testing.B, sums []*Summary, clocks []*stageClock, growthBytes 
 		elapsed += sums[i].Elapsed
 	}
 	for _, k := range []string{"ingest", "match", "merge", "previous-state", "previous-wait", "vetting",
-		"quality", "monte carlo", "tracing", "ledger", "carry-forward", "carry-wait", "carry-rest", "finish"} {
+		"quality", "monte carlo", "tracing", "ledger", "finish"} {
 		b.ReportMetric(total[k].Seconds()/n, strings.ReplaceAll(k, " ", "-")+"-s/op")
 	}
 	// Sequential parts: the rest (self-match, stages not timed) is other.
-	seq := total["ingest"] + total["match"] + total["merge"] + total["previous-wait"] + total["vetting"] +
-		total["carry-wait"] + total["carry-rest"] + total["finish"]
+	seq := total["ingest"] + total["match"] + total["merge"] + total["previous-wait"] + total["vetting"] + total["finish"]
 	b.ReportMetric((elapsed-seq).Seconds()/n, "other-s/op")
 }
 

@@ -51,10 +51,7 @@ type Summary struct {
 	// "previous-wait" (how long the run then waited for it), "quality",
 	// "monte carlo", "tracing" (within "monte carlo"), "ledger" (the
 	// batch writes, concurrent with quality and Monte Carlo),
-	// "carry-forward" (in an incremental run concurrent with ingest and
-	// match), "carry-wait" (how long the run then waited for it),
-	// "carry-rest" (a carry after the writes, when every star was
-	// recomputed but withdrawn ones remain) and "finish".
+	// and "finish".
 	Stages map[string]time.Duration
 }
 
@@ -196,32 +193,6 @@ func (e *Engine) Run(ctx context.Context, c *campaign.Campaign, opt RunOptions) 
 	case prevRun.ModelHash != modelHash:
 		sum.RecomputeAll = "the model settings changed"
 	}
-	// An incremental run carries every verdict of the previous run forward
-	// first, on the ledger's single writer while the catalogs are read and
-	// matched; the stars it then recomputes replace their carried copy.
-	type carryResult struct {
-		n   int64
-		err error
-		d   time.Duration
-	}
-	carryDone := make(chan carryResult, 1)
-	carryWaited := true
-	if sum.RecomputeAll == "" {
-		carryWaited = false
-		carryCtx, cancelCarry := context.WithCancel(ctx)
-		defer func() { // before Fail, which needs the writer
-			cancelCarry()
-			if !carryWaited {
-				<-carryDone
-			}
-		}()
-		go func() {
-			t := time.Now()
-			n, err := w.CarryForwardAll(carryCtx, prevRun.ID)
-			carryDone <- carryResult{n: n, err: err, d: time.Since(t)}
-		}()
-	}
-
 	cats, err := e.Ingest(ctx, c, opt.Strict, filepath.Dir(ledgerPath))
 	if err != nil {
 		return nil, err
@@ -246,20 +217,6 @@ func (e *Engine) Run(ctx context.Context, c *campaign.Campaign, opt RunOptions) 
 	sum.addStage("previous-wait", t)
 	sum.addDuration("previous-state", ps.d)
 	prev := ps.m
-	carriedAll := !carryWaited
-	if carriedAll {
-		t := time.Now()
-		cr := <-carryDone
-		carryWaited = true
-		if cr.err != nil {
-			return nil, cr.err
-		}
-		if cr.n != int64(len(prev)) {
-			return nil, fmt.Errorf("ledger %s run %d: carried %d verdicts forward from run %d, which holds %d", ledgerPath, w.ID(), cr.n, prevRun.ID, len(prev))
-		}
-		sum.addStage("carry-wait", t)
-		sum.addDuration("carry-forward", cr.d)
-	}
 	for k, rep := range cats.Reports {
 		spec := cats.Specs[k]
 		row := db.CatalogRow{Name: spec.Name, Release: spec.Release, File: spec.File, FileSHA256: rep.SHA256,
@@ -327,7 +284,7 @@ func (e *Engine) Run(ctx context.Context, c *campaign.Campaign, opt RunOptions) 
 	ids := cats.Primary.IDs
 	slices.SortFunc(todo, func(a, b int) int { return strings.Compare(ids[a], ids[b]) })
 	withdrawn := func(id string) db.StarRecord {
-		return db.StarRecord{StarID: id, Computed: true,
+		return db.StarRecord{StarID: id,
 			Verdict: db.NewVerdictRow(StatusWithdrawn),
 			Reasons: []db.ReasonRow{{RuleID: "withdrawn", Outcome: "info", Value: math.NaN(),
 				Message: fmt.Sprintf("absent from the primary catalog %s (release %s); status in run %d was %s",
@@ -375,17 +332,6 @@ func (e *Engine) Run(ctx context.Context, c *campaign.Campaign, opt RunOptions) 
 	})
 	if err != nil {
 		return nil, err
-	}
-	if carried > 0 && !carriedAll {
-		t := time.Now()
-		n, err := w.CarryForwardRest(ctx, prevRun.ID)
-		if err != nil {
-			return nil, err
-		}
-		if n != int64(carried) {
-			return nil, fmt.Errorf("ledger %s run %d: carried %d verdicts forward from run %d, expected %d", ledgerPath, w.ID(), n, prevRun.ID, carried)
-		}
-		sum.addStage("carry-rest", t)
 	}
 	counts := make(map[string]int64, len(sum.Counts))
 	for k, v := range sum.Counts {
@@ -537,7 +483,7 @@ func (e *Engine) compute(ctx context.Context, c *campaign.Campaign, rs *rules.Ru
 // baseRecord holds a computed star's inputs, matches and rule outcomes, with
 // status rejected when a reject rule failed.
 func (e *Engine) baseRecord(cats *Catalogs, m *Matched, s *quality.Star, hash string, row int, a *quality.Assessment) db.StarRecord {
-	r := db.StarRecord{StarID: s.ID, Computed: true}
+	r := db.StarRecord{StarID: s.ID}
 	in := &db.InputRow{InputHash: hash, DupCount: s.DupCount}
 	for f := catalog.Field(1); f < catalog.NumFields; f++ {
 		in.Values[f-1] = s.Values[f]

@@ -33,7 +33,7 @@ func auditLedger(t *testing.T) string {
 		}
 		in.Values[14] = rv // rv
 		nan := math.NaN()
-		return db.StarRecord{StarID: id, Computed: true, Inputs: in,
+		return db.StarRecord{StarID: id, Inputs: in,
 			Matches: []db.MatchRow{{Catalog: "spec-beta", SourceID: "b-" + id, SepArcsec: 0.21, MatchProb: 0.9, Candidates: 2}},
 			Verdict: db.VerdictRow{Status: status, Quality: "pass", SpeedP16Kms: 410, SpeedP50Kms: 520, SpeedP84Kms: 640,
 				SpeedLowerP50Kms: nan, RGCKpc: 11.5, VEscKms: 540, PUnbound: 0.42, PUnboundLower: nan, PGCOrigin: nan,
@@ -41,18 +41,14 @@ func auditLedger(t *testing.T) string {
 			Reasons: []db.ReasonRow{{RuleID: "plx-snr", Outcome: "fail", Severity: "reject", Value: 2.5, Threshold: ">= 5", Message: "parallax too uncertain"}},
 		}
 	}
-	write := func(recs []db.StarRecord, carry []string, from int64) int64 {
+	// A star a run does not write keeps its verdict of the run before.
+	write := func(recs []db.StarRecord) int64 {
 		w, err := l.BeginRun(ctx, db.RunInfo{ToolVersion: "test", Seed: 1})
 		if err != nil {
 			t.Fatal(err)
 		}
 		if err := w.AddStars(ctx, recs); err != nil {
 			t.Fatal(err)
-		}
-		if len(carry) > 0 {
-			if err := w.CarryForward(ctx, from, carry); err != nil {
-				t.Fatal(err)
-			}
 		}
 		if err := w.Finish(ctx, db.RunSummary{}); err != nil {
 			t.Fatal(err)
@@ -73,8 +69,8 @@ func auditLedger(t *testing.T) string {
 		}
 	}()
 	hostile := "'); DROP TABLE runs; --"
-	r1 := write([]db.StarRecord{star("Ωμέγα-星-7", math.NaN(), "rejected"), star("HV-002", math.NaN(), "accepted"), star(hostile, 1, "rejected")}, nil, 0)
-	write([]db.StarRecord{star("Ωμέγα-星-7", 705.25, "accepted"), star("HV-003", 1, "rejected"), star(hostile, 1, "accepted")}, []string{"HV-002"}, r1)
+	write([]db.StarRecord{star("Ωμέγα-星-7", math.NaN(), "rejected"), star("HV-002", math.NaN(), "accepted"), star(hostile, 1, "rejected")})
+	write([]db.StarRecord{star("Ωμέγα-星-7", 705.25, "accepted"), star("HV-003", 1, "rejected"), star(hostile, 1, "accepted")})
 	return p
 }
 
