@@ -42,7 +42,7 @@ func reportLedger(t *testing.T) string {
 			v.HasRV, v.SpeedP16Kms, v.SpeedP50Kms, v.SpeedP84Kms = true, p50-40, p50, p50+50
 			v.RGCKpc, v.VEscKms, v.PUnbound, v.ModelName, v.DistanceMethod = 20, 480, pUnb, potential.DefaultModel, "inverse"
 		}
-		return db.StarRecord{StarID: id, Computed: true, Inputs: in, Verdict: v, Reasons: rs}
+		return db.StarRecord{StarID: id, Inputs: in, Verdict: v, Reasons: rs}
 	}
 	w, err := l.BeginRun(ctx, db.RunInfo{ToolVersion: "test", Seed: 3})
 	if err != nil {
