@@ -85,41 +85,63 @@ const batchRows = 4096
 
 // rowRef locates one record inside a batch.
 type rowRef struct {
-	start, end int             // fields[start:end]
+	start, end int             // fields[start:end], or text[start:end] for a plain row
 	line       int             // line where the record starts
 	offset     int64           // input bytes consumed after the record
 	parseErr   *csv.ParseError // malformed record, quarantined
+	plain      bool            // a quote-free line in text, not split into fields
 }
 
 type batch struct {
-	fields []string
+	text   []byte   // plain rows' lines, back to back
+	fields []string // the fields of the other rows
 	rows   []rowRef
-	vals   []float64     // parsed values, rowParser.width() per row
+	cols   [][]float64   // parsed values, rowParser.width() columns of one value per row
 	quar   []*Quarantine // per row; nil when the row parsed cleanly
+	// The ids of the rows that parsed cleanly, back to back in one string
+	// (so that the table's ids pin no line text): row r's id is
+	// ids[idOff[r]:idOff[r+1]], its hash idHash[r].
+	ids    string
+	idBuf  []byte
+	idOff  []int32
+	idHash []uint64
 	fatal  error
 	free   chan *batch
 }
 
 func (b *batch) recycle() {
-	b.fields, b.rows, b.vals, b.quar = b.fields[:0], b.rows[:0], b.vals[:0], b.quar[:0]
+	b.text, b.fields, b.rows, b.quar = b.text[:0], b.fields[:0], b.rows[:0], b.quar[:0]
+	for i := range b.cols {
+		b.cols[i] = b.cols[i][:0]
+	}
+	b.ids, b.idOff, b.idHash = "", b.idOff[:0], b.idHash[:0]
 	select {
 	case b.free <- b:
 	default:
 	}
 }
 
-// readBatches runs the reader as a pipeline: one goroutine splits CSV
-// records into batches, a second converts their numbers (rp.parseBatch),
-// and the caller, in file order, checks ids and appends to the table. This
-// spreads the work over two cores. stop must be called when the caller is
-// done; it waits for both goroutines.
-func readBatches(cr *csv.Reader, name string, rp *rowParser) (<-chan *batch, func()) {
+// record returns the fields of row r.
+func (b *batch) record(r int) []string {
+	br := &b.rows[r]
+	if br.plain {
+		return strings.Split(string(b.text[br.start:br.end]), ",")
+	}
+	return b.fields[br.start:br.end]
+}
+
+// readBatches runs the reader as a pipeline: one goroutine cuts the input
+// into batches of records, a second converts their numbers
+// (rp.parseBatch), and the caller, in file order, checks ids and appends to
+// the table. This spreads the work over two cores. stop must be called when
+// the caller is done; it waits for both goroutines.
+func readBatches(ls *lineSplitter, name string, rp *rowParser) (<-chan *batch, func()) {
 	split := make(chan *batch, 2)
 	out := make(chan *batch, 2)
 	free := make(chan *batch, 6)
 	done := make(chan struct{})
 	for range cap(free) {
-		free <- &batch{fields: make([]string, 0, batchRows*16), rows: make([]rowRef, 0, batchRows), free: free}
+		free <- &batch{rows: make([]rowRef, 0, batchRows), free: free}
 	}
 	var wg sync.WaitGroup
 	wg.Add(2)
@@ -133,7 +155,7 @@ func readBatches(cr *csv.Reader, name string, rp *rowParser) (<-chan *batch, fun
 			case <-done:
 				return
 			}
-			eof := fillBatch(cr, name, b)
+			eof := ls.fillBatch(name, b)
 			select {
 			case split <- b:
 			case <-done:
@@ -167,41 +189,38 @@ func readBatches(cr *csv.Reader, name string, rp *rowParser) (<-chan *batch, fun
 	}
 }
 
-// fillBatch reads up to batchRows records into b and reports whether the
-// input has ended.
-func fillBatch(cr *csv.Reader, name string, b *batch) (eof bool) {
-	for len(b.rows) < batchRows {
-		rec, err := cr.Read()
-		if err == io.EOF {
-			return true
-		}
-		ref := rowRef{start: len(b.fields)}
-		if err != nil {
-			var pe *csv.ParseError
-			if !errors.As(err, &pe) {
-				b.fatal = &FileError{File: name, Reason: "read error: " + err.Error(), Err: fmt.Errorf("%w: %w", ErrUnreadable, err)}
-				return true
-			}
-			ref.parseErr = pe
-			ref.line = pe.StartLine
-		} else {
-			ref.line, _ = cr.FieldPos(0)
-			b.fields = append(b.fields, rec...)
-		}
-		ref.end = len(b.fields)
-		ref.offset = cr.InputOffset()
-		b.rows = append(b.rows, ref)
-	}
-	return false
-}
-
 // rowParser converts the cells of a batch to canonical numbers.
 type rowParser struct {
 	header  []string
 	plans   []colPlan
 	idIdx   int
-	isNull  func(string) bool
+	markers []string // cell texts meaning missing, besides the empty one
 	distMag bool
+	ends    []int32 // scratch: field ends of a plain row
+}
+
+func (rp *rowParser) isNull(s string) bool {
+	if s == "" {
+		return true
+	}
+	for _, m := range rp.markers {
+		if s == m {
+			return true
+		}
+	}
+	return false
+}
+
+func (rp *rowParser) isNullBytes(c []byte) bool {
+	if len(c) == 0 {
+		return true
+	}
+	for _, m := range rp.markers {
+		if string(c) == m {
+			return true
+		}
+	}
+	return false
 }
 
 // width is the number of values stored per row: one per plan, plus the
@@ -219,35 +238,118 @@ func (rp *rowParser) parseBatch(b *batch) {
 	for i := range row {
 		row[i] = math.NaN() // fields without a column stay missing
 	}
+	if len(rp.ends) != len(rp.header) {
+		rp.ends = make([]int32, len(rp.header))
+	}
+	if len(b.cols) != w {
+		b.cols = make([][]float64, w)
+	}
+	b.idBuf = b.idBuf[:0]
+	b.idOff = append(b.idOff[:0], 0)
 	for r := range b.rows {
 		br := &b.rows[r]
 		var q *Quarantine
-		if pe := br.parseErr; pe != nil {
-			q = &Quarantine{Line: pe.StartLine, Column: 0, Reason: pe.Err.Error(), Err: ErrMalformed}
-			if pe.Line != pe.StartLine {
-				q.Reason += fmt.Sprintf(" (at line %d)", pe.Line)
+		var id []byte
+		ok := false
+		if br.plain {
+			line := b.text[br.start:br.end]
+			if id, ok = rp.parsePlain(line, &row); !ok {
+				// Let the general code below find and word the problem.
+				rec := strings.Split(string(line), ",")
+				br.start, br.plain = len(b.fields), false
+				b.fields = append(b.fields, rec...)
+				br.end = len(b.fields)
+			}
+		}
+		if !ok {
+			if pe := br.parseErr; pe != nil {
+				q = &Quarantine{Line: pe.StartLine, Column: 0, Reason: pe.Err.Error(), Err: ErrMalformed}
+				if pe.Line != pe.StartLine {
+					q.Reason += fmt.Sprintf(" (at line %d)", pe.Line)
+				}
+			} else {
+				lf := lineFields{start: br.line, rec: b.fields[br.start:br.end]}
+				q = parseRow(lf.rec, rp.header, rp.plans, rp.idIdx, rp.isNull, &row, &lf)
+				if q == nil {
+					b.idBuf = append(b.idBuf, lf.rec[rp.idIdx]...)
+				}
 			}
 		} else {
-			lf := lineFields{start: br.line, rec: b.fields[br.start:br.end]}
-			q = parseRow(lf.rec, rp.header, rp.plans, rp.idIdx, rp.isNull, &row, &lf)
+			b.idBuf = append(b.idBuf, id...)
 		}
+		b.idOff = append(b.idOff, int32(len(b.idBuf)))
 		b.quar = append(b.quar, q)
 		if q != nil {
-			b.vals = append(b.vals, make([]float64, w)...)
+			b.idHash = append(b.idHash, 0)
+			for i := range b.cols {
+				b.cols[i] = append(b.cols[i], 0)
+			}
 			continue
 		}
+		b.idHash = append(b.idHash, hashID(b.idBuf[b.idOff[r]:]))
 		var mu, muErr float64
 		if rp.distMag {
 			mu, muErr = row[Distance], row[DistanceErr]
 			row[Distance], row[DistanceErr] = DistanceFromModulus(mu, muErr)
 		}
-		for _, p := range rp.plans {
-			b.vals = append(b.vals, row[p.field])
+		for i, p := range rp.plans {
+			b.cols[i] = append(b.cols[i], row[p.field])
 		}
 		if rp.distMag {
-			b.vals = append(b.vals, mu, muErr)
+			np := len(rp.plans)
+			b.cols[np] = append(b.cols[np], mu)
+			b.cols[np+1] = append(b.cols[np+1], muErr)
 		}
 	}
+	b.ids = string(b.idBuf)
+}
+
+// parsePlain converts a quote-free line into row and returns its id cell.
+// It reports false whenever the line is not plainly right (wrong field
+// count, a missing id or position, a number strconv refuses, a value out
+// of range), leaving the verdict and its wording to parseRow.
+func (rp *rowParser) parsePlain(line []byte, row *[NumFields]float64) ([]byte, bool) {
+	ends := rp.ends
+	if !splitFields(line, ends) {
+		return nil, false
+	}
+	cell := func(i int) []byte {
+		start := int32(0)
+		if i > 0 {
+			start = ends[i-1] + 1
+		}
+		return line[start:ends[i]]
+	}
+	id := cell(rp.idIdx)
+	if rp.isNullBytes(id) {
+		return nil, false
+	}
+	for _, p := range rp.plans {
+		c := cell(p.index)
+		if rp.isNullBytes(c) {
+			if p.field == RA || p.field == Dec {
+				return nil, false
+			}
+			row[p.field] = math.NaN()
+			continue
+		}
+		v, ok := parseDecimal(c)
+		if !ok {
+			var err error
+			if v, err = strconv.ParseFloat(string(c), 64); err != nil {
+				return nil, false
+			}
+		}
+		if math.IsNaN(v) || math.IsInf(v, 0) {
+			return nil, false
+		}
+		v *= p.factor
+		if checkRange(p.field, v) != "" {
+			return nil, false
+		}
+		row[p.field] = v
+	}
+	return id, true
 }
 
 // lineFields gives the line on which each field of a record starts; quoted
@@ -278,6 +380,12 @@ type colPlan struct {
 // opt.Strict, are returned as *RowError). The Report is returned, possibly
 // partial, with every error except an unopenable file.
 func Read(ctx context.Context, spec Spec, opt ReadOptions) (*Table, *Report, error) {
+	return read(ctx, spec, opt, false)
+}
+
+// read is Read; forceCSV has encoding/csv split every record, the reference
+// the tests hold the line splitter to.
+func read(ctx context.Context, spec Spec, opt ReadOptions, forceCSV bool) (*Table, *Report, error) {
 	name := spec.File
 	rep := &Report{File: name}
 	units, err := checkSpec(spec)
@@ -306,11 +414,11 @@ func Read(ctx context.Context, spec Spec, opt ReadOptions) (*Table, *Report, err
 		defer zr.Close()
 		in = zr
 	}
-	cr := csv.NewReader(in)
-	cr.ReuseRecord = true
-	cr.FieldsPerRecord = -1
-
-	header, err := cr.Read()
+	ls := newLineSplitter(in)
+	if forceCSV {
+		ls.handOver()
+	}
+	header, err := ls.readHeader()
 	if err != nil {
 		sentinel := ErrBadHeader
 		var pe *csv.ParseError
@@ -349,22 +457,16 @@ func Read(ctx context.Context, spec Spec, opt ReadOptions) (*Table, *Report, err
 	if markers == nil {
 		markers = DefaultNullMarkers()
 	}
-	isNull := func(s string) bool {
-		if s == "" {
-			return true
+	rp := &rowParser{header: header, plans: plans, idIdx: idIdx, distMag: distMag}
+	for _, m := range markers {
+		if m != "" {
+			rp.markers = append(rp.markers, m)
 		}
-		for _, m := range markers {
-			if s == m {
-				return true
-			}
-		}
-		return false
 	}
-
-	rp := &rowParser{header: header, plans: plans, idIdx: idIdx, isNull: isNull, distMag: distMag}
-	width := rp.width()
-	seen := make(map[string]int) // id -> line of its first kept row
-	batches, stop := readBatches(cr, name, rp)
+	var seen idIndex // first kept row of every id
+	var kept []int   // rows of the current batch that go into the table
+	presized := gz   // a gzip file's size says little about its rows
+	batches, stop := readBatches(ls, name, rp)
 	defer stop()
 	for b := range batches {
 		if err := ctx.Err(); err != nil {
@@ -373,23 +475,24 @@ func Read(ctx context.Context, spec Spec, opt ReadOptions) (*Table, *Report, err
 		if b.fatal != nil {
 			return nil, rep, b.fatal
 		}
+		seen.prefetch(b.idHash)
+		kept = kept[:0]
 		for r := range b.rows {
 			br := &b.rows[r]
-			rec := b.fields[br.start:br.end]
 			q := b.quar[r]
 			rep.RowsRead++
 			var id string
 			if q == nil {
-				id = rec[idIdx]
-				if first, dup := seen[id]; dup {
-					lf := lineFields{start: br.line, rec: rec}
+				id = b.ids[b.idOff[r]:b.idOff[r+1]]
+				if first := seen.find(id, b.idHash[r], t.IDs); first >= 0 {
+					lf := lineFields{start: br.line, rec: b.record(r)}
 					q = &Quarantine{Line: lf.pos(idIdx), Column: idIdx + 1, ColumnName: header[idIdx], Value: id,
-						Reason: fmt.Sprintf("%s: first seen on line %d", ErrDuplicateID, first), Err: ErrDuplicateID}
+						Reason: fmt.Sprintf("%s: first seen on line %d", ErrDuplicateID, t.Lines[first]), Err: ErrDuplicateID}
 				}
 			}
 			if q != nil {
 				if br.parseErr == nil {
-					q.Record = append([]string(nil), rec...)
+					q.Record = append([]string(nil), b.record(r)...)
 				}
 				if opt.Strict {
 					return nil, rep, q.rowError(name)
@@ -397,25 +500,25 @@ func Read(ctx context.Context, spec Spec, opt ReadOptions) (*Table, *Report, err
 				rep.Quarantined = append(rep.Quarantined, *q)
 				continue
 			}
-			if t.Len() == presizeAfterRows && !gz {
-				seen = presize(t, seen, st.Size(), br.offset)
-			}
-			id = strings.Clone(id) // rec shares one backing string per line
-			seen[id] = br.line
 			t.IDs = append(t.IDs, id)
 			t.Lines = append(t.Lines, br.line)
-			v := b.vals[r*width : (r+1)*width]
-			for i, p := range plans {
-				t.Cols[p.field] = append(t.Cols[p.field], v[i])
+			seen.insert(t.Len()-1, b.idHash[r], t.IDs)
+			kept = append(kept, r)
+		}
+		for i, p := range plans {
+			t.Cols[p.field] = appendKept(t.Cols[p.field], b.cols[i], kept)
+		}
+		if distMag {
+			if t.Cols[DistMod] != nil {
+				t.Cols[DistMod] = appendKept(t.Cols[DistMod], b.cols[len(plans)], kept)
 			}
-			if distMag {
-				if t.Cols[DistMod] != nil {
-					t.Cols[DistMod] = append(t.Cols[DistMod], v[len(plans)])
-				}
-				if t.Cols[DistModErr] != nil {
-					t.Cols[DistModErr] = append(t.Cols[DistModErr], v[len(plans)+1])
-				}
+			if t.Cols[DistModErr] != nil {
+				t.Cols[DistModErr] = appendKept(t.Cols[DistModErr], b.cols[len(plans)+1], kept)
 			}
+		}
+		if !presized && t.Len() >= presizeAfterRows && len(b.rows) > 0 {
+			presize(t, &seen, st.Size(), b.rows[len(b.rows)-1].offset)
+			presized = true
 		}
 		b.recycle()
 	}
@@ -432,13 +535,24 @@ func Read(ctx context.Context, spec Spec, opt ReadOptions) (*Table, *Report, err
 	return t, rep, nil
 }
 
+// appendKept appends vals[r] for every r in kept.
+func appendKept(dst, vals []float64, kept []int) []float64 {
+	if len(kept) == len(vals) {
+		return append(dst, vals...)
+	}
+	for _, r := range kept {
+		dst = append(dst, vals[r])
+	}
+	return dst
+}
+
 // presizeAfterRows is when Read estimates the row count of a plain file from
 // the bytes used so far and grows every column once, instead of doubling.
 const presizeAfterRows = 4096
 
-func presize(t *Table, seen map[string]int, fileBytes, usedBytes int64) map[string]int {
+func presize(t *Table, seen *idIndex, fileBytes, usedBytes int64) {
 	if usedBytes <= 0 {
-		return seen
+		return
 	}
 	est := int(float64(fileBytes)/float64(usedBytes)*float64(t.Len())*1.02) + 16
 	grow := func(c []float64) []float64 {
@@ -458,11 +572,7 @@ func presize(t *Table, seen map[string]int, fileBytes, usedBytes int64) map[stri
 	lines := make([]int, len(t.Lines), est)
 	copy(lines, t.Lines)
 	t.Lines = lines
-	grown := make(map[string]int, est)
-	for id, line := range seen {
-		grown[id] = line
-	}
-	return grown
+	seen.reserve(est, t.IDs)
 }
 
 func (q *Quarantine) rowError(file string) *RowError {

@@ -1,0 +1,394 @@
+package catalog
+
+import (
+	"bytes"
+	"encoding/csv"
+	"errors"
+	"fmt"
+	"io"
+	"strings"
+)
+
+// The reader splits lines itself while they hold no double quote: such a
+// line is one CSV record whose fields are the texts between commas, and
+// encoding/csv would return exactly those. At the first line with a quote
+// the rest of the input goes to an encoding/csv Reader, which stays the
+// reference for everything the simple rule does not cover (quoted fields,
+// line breaks inside quotes, bare quotes).
+
+// lineSplitter hands out the input line by line, with encoding/csv's line
+// rules: lines end at \n, a \r before it is dropped, and so is a \r ending
+// the input; empty lines are skipped but counted.
+type lineSplitter struct {
+	src    io.Reader
+	buf    []byte
+	pos    int   // next unconsumed byte of buf
+	end    int   // bytes of buf holding input
+	srcErr error // the error src returned (io.EOF at the end), once it has
+	line   int   // lines consumed
+	offset int64 // bytes consumed
+	// keep stops fill from dropping consumed bytes, while the header may
+	// still have to be read again from the first byte.
+	keep bool
+
+	// Once a line with a quote was seen, cr reads the rest of the input;
+	// its line numbers and offsets count from lineBase and offsetBase.
+	cr         *csv.Reader
+	lineBase   int
+	offsetBase int64
+}
+
+const splitBufBytes = 1 << 20
+
+func newLineSplitter(src io.Reader) *lineSplitter {
+	return &lineSplitter{src: src, buf: make([]byte, splitBufBytes)}
+}
+
+// peekLine returns the next physical line, with its \n when it has one, and
+// the read error met before the line ended (io.EOF only when no byte is
+// left). The line stays valid until the next call.
+func (s *lineSplitter) peekLine() ([]byte, error) {
+	scanned := 0
+	for {
+		if i := bytes.IndexByte(s.buf[s.pos+scanned:s.end], '\n'); i >= 0 {
+			return s.buf[s.pos : s.pos+scanned+i+1], nil
+		}
+		scanned = s.end - s.pos
+		if s.srcErr != nil {
+			if scanned == 0 && s.srcErr == io.EOF {
+				return nil, io.EOF
+			}
+			if s.srcErr == io.EOF {
+				return s.buf[s.pos:s.end], nil
+			}
+			return s.buf[s.pos:s.end], s.srcErr
+		}
+		s.fill()
+	}
+}
+
+// fill reads more input, moving the unconsumed bytes to the front of buf
+// and growing it when a line is longer than buf.
+func (s *lineSplitter) fill() {
+	if s.pos > 0 && !s.keep {
+		s.end = copy(s.buf, s.buf[s.pos:s.end])
+		s.pos = 0
+	}
+	if s.end == len(s.buf) {
+		s.buf = append(s.buf, make([]byte, len(s.buf))...)
+	}
+	for s.srcErr == nil {
+		n, err := s.src.Read(s.buf[s.end:])
+		s.end += n
+		if err != nil {
+			s.srcErr = err
+		}
+		if n > 0 {
+			return
+		}
+	}
+}
+
+// consume moves past a line returned by peekLine and returns its content:
+// without the \n, and without one \r before it (encoding/csv turns \r\n
+// into \n and drops a \r that ends the input).
+func (s *lineSplitter) consume(raw []byte) []byte {
+	s.pos += len(raw)
+	s.line++
+	s.offset += int64(len(raw))
+	c := raw
+	if n := len(c); n > 0 && c[n-1] == '\n' {
+		c = c[:n-1]
+	}
+	if n := len(c); n > 0 && c[n-1] == '\r' {
+		c = c[:n-1]
+	}
+	return c
+}
+
+// handOver gives the unconsumed input to an encoding/csv Reader, which reads
+// every later record.
+func (s *lineSplitter) handOver() {
+	rest := io.Reader(bytes.NewReader(s.buf[s.pos:s.end]))
+	switch {
+	case s.srcErr == nil:
+		rest = io.MultiReader(rest, s.src)
+	case s.srcErr != io.EOF:
+		rest = io.MultiReader(rest, errReader{s.srcErr})
+	}
+	s.cr = csv.NewReader(rest)
+	s.cr.ReuseRecord = true
+	s.cr.FieldsPerRecord = -1
+	s.lineBase, s.offsetBase = s.line, s.offset
+}
+
+type errReader struct{ err error }
+
+func (e errReader) Read([]byte) (int, error) { return 0, e.err }
+
+// readHeader returns the first record. A header line with a quote, or one
+// cut short by a read error, is read by encoding/csv from the start of the
+// input, so every header error is its error.
+func (s *lineSplitter) readHeader() ([]string, error) {
+	s.keep = true
+	defer func() { s.keep = false }()
+	for s.cr == nil {
+		raw, err := s.peekLine()
+		if err == nil && bytes.IndexByte(raw, '"') < 0 {
+			if c := s.consume(raw); len(c) > 0 {
+				return strings.Split(string(c), ","), nil
+			}
+			continue
+		}
+		// Start over from the first byte; only empty lines were consumed.
+		s.pos, s.line, s.offset = 0, 0, 0
+		s.handOver()
+		break
+	}
+	rec, err := s.cr.Read()
+	if err != nil {
+		return rec, err
+	}
+	return append([]string(nil), rec...), nil
+}
+
+// fillBatch reads up to batchRows records into b and reports whether the
+// input has ended.
+func (s *lineSplitter) fillBatch(name string, b *batch) (eof bool) {
+	for len(b.rows) < batchRows {
+		if s.cr != nil {
+			return s.fillBatchCSV(name, b)
+		}
+		raw, err := s.peekLine()
+		if err == io.EOF {
+			return true
+		}
+		if bytes.IndexByte(raw, '"') >= 0 {
+			s.handOver()
+			continue
+		}
+		if err != nil {
+			b.fatal = readError(name, err)
+			return true
+		}
+		c := s.consume(raw)
+		if len(c) == 0 {
+			continue // encoding/csv skips empty lines too
+		}
+		start := len(b.text)
+		b.text = append(b.text, c...)
+		b.rows = append(b.rows, rowRef{start: start, end: len(b.text), line: s.line, offset: s.offset, plain: true})
+	}
+	return false
+}
+
+func (s *lineSplitter) fillBatchCSV(name string, b *batch) (eof bool) {
+	cr := s.cr
+	for len(b.rows) < batchRows {
+		rec, err := cr.Read()
+		if err == io.EOF {
+			return true
+		}
+		ref := rowRef{start: len(b.fields)}
+		if err != nil {
+			var pe *csv.ParseError
+			if !errors.As(err, &pe) {
+				b.fatal = readError(name, err)
+				return true
+			}
+			moved := *pe
+			moved.StartLine += s.lineBase
+			moved.Line += s.lineBase
+			ref.parseErr = &moved
+			ref.line = moved.StartLine
+		} else {
+			ref.line, _ = cr.FieldPos(0)
+			ref.line += s.lineBase
+			b.fields = append(b.fields, rec...)
+		}
+		ref.end = len(b.fields)
+		ref.offset = s.offsetBase + cr.InputOffset()
+		b.rows = append(b.rows, ref)
+	}
+	return false
+}
+
+func readError(name string, err error) *FileError {
+	return &FileError{File: name, Reason: "read error: " + err.Error(), Err: fmt.Errorf("%w: %w", ErrUnreadable, err)}
+}
+
+// splitFields cuts a quote-free line into the fields of its record, as
+// encoding/csv would, writing the end offset of each field into ends. It
+// returns false, leaving ends partly written, when the line has another
+// number of fields than len(ends).
+func splitFields(line []byte, ends []int32) bool {
+	k := 0
+	for i, c := range line {
+		if c == ',' {
+			if k == len(ends)-1 {
+				return false
+			}
+			ends[k] = int32(i)
+			k++
+		}
+	}
+	if k != len(ends)-1 {
+		return false
+	}
+	ends[k] = int32(len(line))
+	return true
+}
+
+// parseDecimal converts text of the form [+-]digits[.digits], at least one
+// digit and at most 19 bytes in all, whose digits as an integer m are below
+// 2^53. Then m and 10^k (k <= 18 digits after the point) are exact float64
+// values and one IEEE division gives the correctly rounded m/10^k, which is
+// what strconv.ParseFloat returns as well (the exact fast path of Clinger
+// 1990, Proc. ACM SIGPLAN PLDI '90, p. 92). Anything else reports false and
+// is left to strconv.ParseFloat.
+func parseDecimal(b []byte) (float64, bool) {
+	if len(b) == 0 || len(b) > 19 {
+		return 0, false // at most 19 digits, so m cannot overflow
+	}
+	i := 0
+	neg := b[0] == '-'
+	if neg || b[0] == '+' {
+		i = 1
+	}
+	var m uint64
+	start, dot := i, -1
+	for ; i < len(b); i++ {
+		d := b[i] - '0'
+		if d <= 9 {
+			m = m*10 + uint64(d)
+			continue
+		}
+		if b[i] != '.' || dot >= 0 {
+			return 0, false
+		}
+		dot = i
+	}
+	nd := len(b) - start // digits, plus the point if there is one
+	if dot >= 0 {
+		nd--
+	}
+	if nd == 0 || m >= 1<<53 {
+		return 0, false
+	}
+	f := float64(m)
+	if dot >= 0 {
+		f /= pow10[len(b)-1-dot]
+	}
+	if neg {
+		f = -f
+	}
+	return f, true
+}
+
+// pow10 holds the powers of ten that float64 represents exactly.
+var pow10 = [...]float64{1e0, 1e1, 1e2, 1e3, 1e4, 1e5, 1e6, 1e7, 1e8, 1e9, 1e10,
+	1e11, 1e12, 1e13, 1e14, 1e15, 1e16, 1e17, 1e18, 1e19, 1e20, 1e21, 1e22}
+
+// idIndex finds the first kept row of an id: open addressing with linear
+// probing over hashes of the ids, rows compared by their text on a tag
+// match.
+type idIndex struct {
+	slots []idSlot
+	n     int
+	sink  uint32 // keeps prefetch's loads
+}
+
+type idSlot struct {
+	tag uint32 // high half of the hash
+	row uint32 // table row + 1; 0 marks an empty slot
+}
+
+// hashID is 64-bit FNV-1a (Fowler, Noll and Vo; common practice) followed
+// by the MurmurHash3 finaliser (fmix64, Appleby; common practice) so that
+// the low bits used for the slot depend on every byte.
+func hashID[T string | []byte](id T) uint64 {
+	h := uint64(14695981039346656037)
+	for i := 0; i < len(id); i++ {
+		h ^= uint64(id[i])
+		h *= 1099511628211
+	}
+	h ^= h >> 33
+	h *= 0xff51afd7ed558ccd
+	h ^= h >> 33
+	h *= 0xc4ceb9fe1a85ec53
+	h ^= h >> 33
+	return h
+}
+
+// reserve makes room for rows ids at a load of at most one half.
+func (x *idIndex) reserve(rows int, ids []string) {
+	size := 1 << 10
+	for size < 2*rows {
+		size <<= 1
+	}
+	if size <= len(x.slots) {
+		return
+	}
+	old := x.slots
+	x.slots = make([]idSlot, size)
+	mask := uint64(size - 1)
+	for _, sl := range old {
+		if sl.row == 0 {
+			continue
+		}
+		for i := hashID(ids[sl.row-1]) & mask; ; i = (i + 1) & mask {
+			if x.slots[i].row == 0 {
+				x.slots[i] = sl
+				break
+			}
+		}
+	}
+}
+
+// prefetch loads the first slot of every hash: a tight loop overlaps the
+// cache misses that find and insert would otherwise take one by one.
+func (x *idIndex) prefetch(hashes []uint64) {
+	if len(x.slots) == 0 {
+		return
+	}
+	mask := uint64(len(x.slots) - 1)
+	var sum uint32
+	for _, h := range hashes {
+		sum += x.slots[h&mask].row
+	}
+	x.sink += sum
+}
+
+// find returns the table row holding id, or -1.
+func (x *idIndex) find(id string, h uint64, ids []string) int {
+	if len(x.slots) == 0 {
+		return -1
+	}
+	mask := uint64(len(x.slots) - 1)
+	tag := uint32(h >> 32)
+	for i := h & mask; ; i = (i + 1) & mask {
+		sl := x.slots[i]
+		if sl.row == 0 {
+			return -1
+		}
+		if sl.tag == tag && ids[sl.row-1] == id {
+			return int(sl.row - 1)
+		}
+	}
+}
+
+// insert adds row, whose id hashes to h and is not in the index yet.
+// ids[row] must be set.
+func (x *idIndex) insert(row int, h uint64, ids []string) {
+	if 2*(x.n+1) > len(x.slots) {
+		x.reserve(max(x.n+1, 2*x.n), ids)
+	}
+	mask := uint64(len(x.slots) - 1)
+	for i := h & mask; ; i = (i + 1) & mask {
+		if x.slots[i].row == 0 {
+			x.slots[i] = idSlot{tag: uint32(h >> 32), row: uint32(row + 1)}
+			x.n++
+			return
+		}
+	}
+}
