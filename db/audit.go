@@ -3,6 +3,7 @@ package db
 import (
 	"context"
 	"database/sql"
+	"database/sql/driver"
 	"errors"
 	"fmt"
 	"sort"
@@ -261,36 +262,35 @@ func (l *Ledger) DiffN(ctx context.Context, runA, runB int64, limit int) (*DiffR
 		}
 	}
 	d := &DiffResult{RunA: runA, RunB: runB}
-	// Two indexed halves instead of a FULL OUTER JOIN, which SQLite runs
-	// as a nested scan (quadratic at 1M stars): stars of A looked up in B,
-	// then stars only in B.
-	const pairs = `SELECT a.star_id AS star_id, a.status AS s_from, coalesce(b.status, '` + NoStatus + `') AS s_to
-		FROM verdicts a LEFT JOIN verdicts b ON b.run_id = ?2 AND b.star_id = a.star_id
-		WHERE a.run_id = ?1
-		UNION ALL
-		SELECT b.star_id, '` + NoStatus + `', b.status FROM verdicts b
-		WHERE b.run_id = ?2 AND NOT EXISTS (SELECT 1 FROM verdicts a WHERE a.run_id = ?1 AND a.star_id = b.star_id)`
-	rows, err := l.db.QueryContext(ctx,
-		"SELECT s_from, s_to, count(*) FROM ("+pairs+") GROUP BY s_from, s_to", runA, runB)
+	type pair struct{ from, to string }
+	counts := map[pair]int64{}
+	err := l.scanSets(ctx, []int64{runA, runB}, []string{"status"}, func(id string, g [][]driver.Value, pick []int) error {
+		p := pair{NoStatus, NoStatus}
+		if pick[0] >= 0 {
+			p.from, _ = g[pick[0]][2].(string)
+		}
+		if pick[1] >= 0 {
+			p.to, _ = g[pick[1]][2].(string)
+		}
+		if pick[0] < 0 && pick[1] < 0 {
+			return nil
+		}
+		counts[p]++
+		if p.from != p.to && (limit < 0 || len(d.Stars) < limit) {
+			d.Stars = append(d.Stars, StarChange{StarID: id, From: p.from, To: p.to})
+		}
+		return nil
+	})
 	if err != nil {
 		return nil, fmt.Errorf("ledger %s: diff %d %d: %w", l.path, runA, runB, err)
 	}
-	for rows.Next() {
-		var t Transition
-		if err := rows.Scan(&t.From, &t.To, &t.Count); err != nil {
-			rows.Close()
-			return nil, fmt.Errorf("ledger %s: diff %d %d: %w", l.path, runA, runB, err)
-		}
-		if t.From == t.To {
-			d.Unchanged += t.Count
+	for p, n := range counts {
+		if p.from == p.to {
+			d.Unchanged += n
 			continue
 		}
-		d.Changed += t.Count
-		d.Transitions = append(d.Transitions, t)
-	}
-	rows.Close()
-	if err := rows.Err(); err != nil {
-		return nil, fmt.Errorf("ledger %s: diff %d %d: %w", l.path, runA, runB, err)
+		d.Changed += n
+		d.Transitions = append(d.Transitions, Transition{From: p.from, To: p.to, Count: n})
 	}
 	sort.Slice(d.Transitions, func(i, j int) bool {
 		a, b := d.Transitions[i], d.Transitions[j]
@@ -302,26 +302,5 @@ func (l *Ledger) DiffN(ctx context.Context, runA, runB int64, limit int) (*DiffR
 		}
 		return a.To < b.To
 	})
-	if limit == 0 {
-		return d, nil
-	}
-	q := "SELECT star_id, s_from, s_to FROM (" + pairs + ") WHERE s_from <> s_to ORDER BY star_id"
-	args := []any{runA, runB}
-	if limit > 0 {
-		q += " LIMIT ?"
-		args = append(args, limit)
-	}
-	rows, err = l.db.QueryContext(ctx, q, args...)
-	if err != nil {
-		return nil, fmt.Errorf("ledger %s: diff %d %d: %w", l.path, runA, runB, err)
-	}
-	defer rows.Close()
-	for rows.Next() {
-		var s StarChange
-		if err := rows.Scan(&s.StarID, &s.From, &s.To); err != nil {
-			return nil, fmt.Errorf("ledger %s: diff %d %d: %w", l.path, runA, runB, err)
-		}
-		d.Stars = append(d.Stars, s)
-	}
-	return d, rows.Err()
+	return d, nil
 }

@@ -116,9 +116,9 @@ func BenchmarkIncremental(b *testing.B) {
 	b.Run("PreviousState", func(b *testing.B) {
 		cpu := cpuTime()
 		for b.Loop() {
-			m, err := l.PreviousState(ctx, first)
-			if err != nil || len(m) != nStars {
-				b.Fatalf("%d stars, %v", len(m), err)
+			p, err := l.PreviousState(ctx, first)
+			if err != nil || p.Len() != nStars {
+				b.Fatalf("%v, %v", p, err)
 			}
 		}
 		b.ReportMetric((cpuTime()-cpu).Seconds()/float64(b.N), "cpu-s/op")

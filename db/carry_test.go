@@ -109,7 +109,7 @@ func TestFailedRunSets(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if got := prevText(prev); got != "A:bound@1 B:bound@1 C:marginal@3 E:bound@3" {
+	if got := prevText(prevMap(t, prev)); got != "A:bound@1 B:bound@1 C:marginal@3 E:bound@3" {
 		t.Errorf("previous state of run 3: %s", got)
 	}
 	for _, tc := range []struct {
@@ -188,7 +188,7 @@ func TestVerdictSetsModel(t *testing.T) {
 		if err != nil {
 			t.Fatal(err)
 		}
-		if got := prevText(prev); got != want {
+		if got := prevText(prevMap(t, prev)); got != want {
 			t.Errorf("run %d: previous state %s, want %s", run, got, want)
 		}
 		c, err := l.StatusCounts(ctx, run)
@@ -201,6 +201,20 @@ func TestVerdictSetsModel(t *testing.T) {
 		}
 		if n != int64(len(set)) {
 			t.Errorf("run %d: status counts %v, %d stars, want %d", run, c, n, len(set))
+		}
+		r, err := l.Run(ctx, run)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if r.State != "complete" {
+			continue
+		}
+		// Finish's two ways of counting, forced: probes, and one pass.
+		for _, limit := range []int64{1 << 40, 0} {
+			got, _, err := l.countsAfter(ctx, run, limit)
+			if err != nil || fmt.Sprint(got) != fmt.Sprint(c) || fmt.Sprint(r.Counts) != fmt.Sprint(c) {
+				t.Errorf("run %d: counts after, probe limit %d: %v, %v; stored %v; want %v", run, limit, got, err, r.Counts, c)
+			}
 		}
 	}
 }

@@ -144,3 +144,19 @@ func countComputed(t testing.TB, l *Ledger, runID int64) int {
 	}
 	return n
 }
+
+// prevMap is a PrevSet as a map, and checks its ids are ascending.
+func prevMap(t testing.TB, p *PrevSet) map[string]PrevStar {
+	t.Helper()
+	m := make(map[string]PrevStar, p.Len())
+	for i, id := range p.IDs {
+		if i > 0 && p.IDs[i-1] >= id {
+			t.Fatalf("previous state ids out of order: %q then %q", p.IDs[i-1], id)
+		}
+		m[id] = p.Stars[i]
+		if q, ok := p.Find(id); !ok || q != p.Stars[i] {
+			t.Fatalf("Find(%q) = %+v, %v; want %+v", id, q, ok, p.Stars[i])
+		}
+	}
+	return m
+}

@@ -187,10 +187,11 @@ func TestRoundTripAndAudit(t *testing.T) {
 	})
 
 	t.Run("previous state", func(t *testing.T) {
-		m, err := l.PreviousState(ctx, r2)
+		ps, err := l.PreviousState(ctx, r2)
 		if err != nil {
 			t.Fatal(err)
 		}
+		m := prevMap(t, ps)
 		if len(m) != 5 {
 			t.Fatalf("%d stars, want 5", len(m))
 		}

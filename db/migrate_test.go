@@ -185,8 +185,11 @@ func TestMigrateFromSchema2(t *testing.T) {
 			t.Errorf("%s after migration: %v", q, out)
 		}
 	}
-	prev, err := l.PreviousState(ctx, 2)
-	if err != nil || len(prev) != 301 || prev["m0007"].Status != "marginal" || prev["m0008"].ComputedInRun != 1 {
+	ps, err := l.PreviousState(ctx, 2)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if prev := prevMap(t, ps); len(prev) != 301 || prev["m0007"].Status != "marginal" || prev["m0008"].ComputedInRun != 1 {
 		t.Errorf("previous state after migration: %d stars, m0007 %+v, m0008 %+v, %v", len(prev), prev["m0007"], prev["m0008"], err)
 	}
 	// The migrated ledger takes a further incremental run.

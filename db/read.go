@@ -7,11 +7,9 @@ import (
 	"encoding/json"
 	"errors"
 	"fmt"
-	"io"
 	"math"
+	"strings"
 	"time"
-
-	sqlite3 "github.com/mattn/go-sqlite3"
 )
 
 const runCols = `id, started_at, finished_at, state, tool_version, campaign_hash, ruleset_hash, config_hash,
@@ -133,45 +131,60 @@ func (l *Ledger) StatusCounts(ctx context.Context, runID int64) (map[string]int6
 }
 
 func (l *Ledger) statusCounts(ctx context.Context, runID int64) (map[string]int64, error) {
-	rows, err := l.db.QueryContext(ctx, "SELECT status, count(*) FROM verdicts WHERE run_id = ? GROUP BY status", runID)
+	m, err := l.setCounts(ctx, runID)
 	if err != nil {
 		return nil, fmt.Errorf("ledger %s run %d: status counts: %w", l.path, runID, err)
 	}
-	defer rows.Close()
-	m := map[string]int64{}
-	for rows.Next() {
-		var s string
-		var n int64
-		if err := rows.Scan(&s, &n); err != nil {
-			return nil, err
-		}
-		m[s] = n
-	}
-	return m, rows.Err()
+	return m, nil
 }
 
+// probeLimit is how many computed stars Finish has countsAfter probe one
+// by one; above it one pass over the whole set is cheaper.
+const probeLimit = 100_000
+
 // countsAfter returns the status counts of run runID's set, as if it were
-// complete, and how many verdicts it computed, from the counts of the last
-// complete run before it and one probe per star runID computed: each adds
-// its new status and takes away the one it had in that run.
-func (l *Ledger) countsAfter(ctx context.Context, runID int64) (map[string]int64, int64, error) {
+// complete, and how many verdicts it computed. For a run that computed few
+// stars the counts are those of the last complete run before it (as its
+// Finish stored them) with one probe per computed star, which adds its new
+// status and takes away its old one; otherwise one pass over the set.
+func (l *Ledger) countsAfter(ctx context.Context, runID int64, probeLimit int64) (map[string]int64, int64, error) {
+	own, err := l.db.QueryContext(ctx,
+		"SELECT status, count(*) FROM computed_verdicts WHERE computed_in_run = ? GROUP BY status", runID)
+	if err != nil {
+		return nil, 0, err
+	}
+	ownCounts := map[string]int64{}
+	var computed int64
+	for own.Next() {
+		var s string
+		var n int64
+		if err := own.Scan(&s, &n); err != nil {
+			own.Close()
+			return nil, 0, err
+		}
+		ownCounts[s] = n
+		computed += n
+	}
+	own.Close()
+	if err := own.Err(); err != nil {
+		return nil, 0, err
+	}
 	counts := map[string]int64{}
 	var prev sql.NullInt64
 	var cj sql.NullString
-	err := l.db.QueryRowContext(ctx,
+	err = l.db.QueryRowContext(ctx,
 		"SELECT id, counts_json FROM runs WHERE id < ? AND state = 'complete' ORDER BY id DESC LIMIT 1", runID).Scan(&prev, &cj)
 	switch {
 	case errors.Is(err, sql.ErrNoRows):
+		return ownCounts, computed, nil
 	case err != nil:
 		return nil, 0, err
-	case cj.Valid:
-		if err := json.Unmarshal([]byte(cj.String), &counts); err != nil {
-			return nil, 0, fmt.Errorf("run %d counts_json: %w", prev.Int64, err)
-		}
-	default:
-		if counts, err = l.statusCounts(ctx, prev.Int64); err != nil {
-			return nil, 0, err
-		}
+	case computed > probeLimit || !cj.Valid:
+		counts, err := l.setCounts(ctx, runID)
+		return counts, computed, err
+	}
+	if err := json.Unmarshal([]byte(cj.String), &counts); err != nil {
+		return nil, 0, fmt.Errorf("run %d counts_json: %w", prev.Int64, err)
 	}
 	rows, err := l.db.QueryContext(ctx, `SELECT v.status, (
 			SELECT p.status FROM computed_verdicts p JOIN runs c ON c.id = p.computed_in_run
@@ -182,14 +195,14 @@ func (l *Ledger) countsAfter(ctx context.Context, runID int64) (map[string]int64
 		return nil, 0, err
 	}
 	defer rows.Close()
-	var computed int64
+	var probed int64
 	for rows.Next() {
 		var now string
 		var before sql.NullString
 		if err := rows.Scan(&now, &before); err != nil {
 			return nil, 0, err
 		}
-		computed++
+		probed++
 		counts[now]++
 		if before.Valid {
 			counts[before.String]--
@@ -197,6 +210,9 @@ func (l *Ledger) countsAfter(ctx context.Context, runID int64) (map[string]int64
 	}
 	if err := rows.Err(); err != nil {
 		return nil, 0, err
+	}
+	if probed != computed {
+		return nil, 0, fmt.Errorf("run %d: %d computed verdicts by status, %d probed", runID, computed, probed)
 	}
 	for k, n := range counts {
 		if n < 0 {
@@ -206,97 +222,38 @@ func (l *Ledger) countsAfter(ctx context.Context, runID int64) (map[string]int64
 	return nonZero(counts), computed, nil
 }
 
-// eligibility says which runs' computations belong to run runID's set:
-// its own, and, unless it failed, those of complete runs before it (the
-// rule of the verdicts view).
-func (l *Ledger) eligibility(ctx context.Context, runID int64) (func(computedIn int64) bool, error) {
-	rs, err := l.Runs(ctx)
-	if err != nil {
-		return nil, err
-	}
-	ok := map[int64]bool{runID: true}
-	var self *Run
-	for i := range rs {
-		if rs[i].ID == runID {
-			self = &rs[i]
-		}
-	}
-	if self == nil {
-		return nil, fmt.Errorf("ledger %s has no run %d: %w", l.path, runID, ErrNoRun)
-	}
-	// The file's state, not the display one: a run whose writer died but
-	// that no writable open has marked failed yet still reads as running.
-	var state string
-	if err := l.db.QueryRowContext(ctx, "SELECT state FROM runs WHERE id = ?", runID).Scan(&state); err != nil {
-		return nil, err
-	}
-	if state != "failed" {
-		for _, r := range rs {
-			if r.ID < runID && r.State == "complete" {
-				ok[r.ID] = true
-			}
-		}
-	}
-	return func(c int64) bool { return ok[c] }, nil
-}
-
 // PreviousState returns status, input hash and computing run of every star
-// of run runID's set, in one pass over computed_verdicts on the raw driver
-// connection (database/sql's per-row conversions would double its cost).
-func (l *Ledger) PreviousState(ctx context.Context, runID int64) (map[string]PrevStar, error) {
-	fail := func(err error) error { return fmt.Errorf("ledger %s run %d: previous state: %w", l.path, runID, err) }
-	eligible, err := l.eligibility(ctx, runID)
-	if err != nil {
-		return nil, err
-	}
+// of run runID's set, in star id order, from one pass over
+// computed_verdicts.
+func (l *Ledger) PreviousState(ctx context.Context, runID int64) (*PrevSet, error) {
 	r, err := l.Run(ctx, runID)
 	if err != nil {
 		return nil, err
 	}
-	m := make(map[string]PrevStar, max(r.StarsTotal, 0))
-	conn, err := l.db.Conn(ctx)
-	if err != nil {
-		return nil, fail(err)
-	}
-	defer conn.Close()
-	err = conn.Raw(func(dc any) error {
-		c := dc.(*sqlite3.SQLiteConn)
-		rows, err := c.QueryContext(ctx,
-			"SELECT star_id, computed_in_run, status, input_hash FROM computed_verdicts WHERE computed_in_run <= ?",
-			[]driver.NamedValue{{Ordinal: 1, Value: runID}})
-		if err != nil {
-			return err
+	n := max(r.StarsTotal, 0)
+	p := &PrevSet{IDs: make([]string, 0, n), Stars: make([]PrevStar, 0, n)}
+	statuses := map[string]string{} // one string per status word
+	err = l.scanSets(ctx, []int64{runID}, []string{"status", "input_hash"}, func(id string, g [][]driver.Value, pick []int) error {
+		if pick[0] < 0 {
+			return nil
 		}
-		defer rows.Close()
-		dest := make([]driver.Value, 4)
-		statuses := map[string]string{} // one string per status word
-		for {
-			if err := rows.Next(dest); err == io.EOF {
-				return nil
-			} else if err != nil {
-				return err
-			}
-			cin, _ := dest[1].(int64)
-			if !eligible(cin) {
-				continue
-			}
-			id, _ := dest[0].(string)
-			st, _ := dest[2].(string)
-			if s, ok := statuses[st]; ok {
-				st = s
-			} else {
-				statuses[st] = st
-			}
-			h, _ := dest[3].(string)
-			// Rows come in (star_id, computed_in_run) order: the last
-			// eligible one of a star is its verdict.
-			m[id] = PrevStar{Status: st, InputHash: h, ComputedInRun: cin}
+		row := g[pick[0]]
+		cin, _ := row[1].(int64)
+		st, _ := row[2].(string)
+		if s, ok := statuses[st]; ok {
+			st = s
+		} else {
+			statuses[st] = st
 		}
+		h, _ := row[3].(string)
+		p.IDs = append(p.IDs, id)
+		p.Stars = append(p.Stars, PrevStar{Status: st, InputHash: h, ComputedInRun: cin})
+		return nil
 	})
 	if err != nil {
-		return nil, fail(err)
+		return nil, fmt.Errorf("ledger %s run %d: previous state: %w", l.path, runID, err)
 	}
-	return m, nil
+	return p, nil
 }
 
 func scanVerdict(sc scanner) (VerdictRow, error) {
@@ -349,35 +306,54 @@ func (l *Ledger) ListRun(ctx context.Context, f ListFilter, fn func(VerdictRow) 
 	} else if _, err := l.Run(ctx, runID); err != nil {
 		return 0, err
 	}
-	q := "SELECT " + verdictCols + " FROM verdicts WHERE run_id = ?"
-	args := []any{runID}
-	if f.Status != "" {
-		q += " AND status = ?"
-		args = append(args, f.Status)
+	n := 0
+	stop := errors.New("limit reached")
+	err := l.scanSets(ctx, []int64{runID}, strings.Split(computedCols, ", ")[2:], func(id string, g [][]driver.Value, pick []int) error {
+		if pick[0] < 0 {
+			return nil
+		}
+		v := verdictOf(runID, g[pick[0]])
+		if f.Status != "" && v.Status != f.Status {
+			return nil
+		}
+		if err := fn(v); err != nil {
+			return err
+		}
+		if n++; f.Limit > 0 && n >= f.Limit {
+			return stop
+		}
+		return nil
+	})
+	if err == stop {
+		err = nil
 	}
-	q += " ORDER BY star_id"
-	if f.Limit > 0 {
-		q += " LIMIT ?"
-		args = append(args, f.Limit)
-	}
-	rows, err := l.db.QueryContext(ctx, q, args...)
 	if err != nil {
 		return runID, fmt.Errorf("ledger %s run %d: list: %w", l.path, runID, err)
 	}
-	defer rows.Close()
-	for rows.Next() {
-		v, err := scanVerdict(rows)
-		if err != nil {
-			return runID, fmt.Errorf("ledger %s run %d: list: %w", l.path, runID, err)
-		}
-		if err := fn(v); err != nil {
-			return runID, err
-		}
-	}
-	if err := rows.Err(); err != nil {
-		return runID, fmt.Errorf("ledger %s run %d: list: %w", l.path, runID, err)
-	}
 	return runID, nil
+}
+
+// verdictOf decodes one computed_verdicts row read by scanSets with
+// computedCols as the verdict of run runID.
+func verdictOf(runID int64, r []driver.Value) VerdictRow {
+	str := func(x driver.Value) string { s, _ := x.(string); return s }
+	num := func(x driver.Value) float64 {
+		switch y := x.(type) {
+		case float64:
+			return y
+		case int64:
+			return float64(y)
+		}
+		return math.NaN()
+	}
+	cin, _ := r[1].(int64)
+	hasRV, _ := r[6].(int64)
+	return VerdictRow{RunID: runID, StarID: str(r[0]), ComputedInRun: cin, Status: str(r[2]), Quality: str(r[3]),
+		InputHash: str(r[4]), DistanceMethod: str(r[5]), HasRV: hasRV == 1,
+		SpeedP16Kms: num(r[7]), SpeedP50Kms: num(r[8]), SpeedP84Kms: num(r[9]), SpeedLowerP50Kms: num(r[10]),
+		RGCKpc: num(r[11]), VEscKms: num(r[12]), PUnbound: num(r[13]), PUnboundLower: num(r[14]),
+		Origin: str(r[15]), PGCOrigin: num(r[16]), GCConsistency: num(r[17]), FlightTimeMyr: num(r[18]),
+		ModelName: str(r[19])}
 }
 
 // RunCatalogs returns the input catalogs recorded for a run.

@@ -3,6 +3,7 @@ package db
 import (
 	"database/sql"
 	"math"
+	"slices"
 	"time"
 
 	"starvet/crossmatch/catalog"
@@ -186,6 +187,26 @@ type CrossingRow struct {
 	StarID     string // filled by readers
 	XKpc, YKpc float64
 	TMyr       float64
+}
+
+// PrevSet is a run's set of verdicts as an incremental run needs it, in
+// ascending star id order (SQLite's BINARY collation, which is Go's string
+// order): IDs[i] has Stars[i].
+type PrevSet struct {
+	IDs   []string
+	Stars []PrevStar
+}
+
+// Len is the number of stars in the set.
+func (p *PrevSet) Len() int { return len(p.IDs) }
+
+// Find returns a star's entry, by binary search.
+func (p *PrevSet) Find(id string) (PrevStar, bool) {
+	i, ok := slices.BinarySearch(p.IDs, id)
+	if !ok {
+		return PrevStar{}, false
+	}
+	return p.Stars[i], true
 }
 
 // PrevStar is what an incremental run needs about a star's last verdict.

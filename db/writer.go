@@ -301,7 +301,7 @@ func (w *RunWriter) Finish(ctx context.Context, s RunSummary) error {
 	}
 	db := w.l.db
 	fail := func(err error) error { return fmt.Errorf("ledger %s run %d: finish: %w", w.l.path, w.id, err) }
-	counts, computed, err := w.l.countsAfter(ctx, w.id)
+	counts, computed, err := w.l.countsAfter(ctx, w.id, probeLimit)
 	if err != nil {
 		return fail(err)
 	}

@@ -7,7 +7,7 @@ import (
 	"path/filepath"
 	"runtime"
 	"slices"
-	"sort"
+
 	"strings"
 	"time"
 
@@ -159,14 +159,14 @@ func (e *Engine) Run(ctx context.Context, c *campaign.Campaign, opt RunOptions) 
 		return nil, err
 	}
 	type prevState struct {
-		m   map[string]db.PrevStar
+		m   *db.PrevSet
 		err error
 		d   time.Duration
 	}
 	prevDone := make(chan prevState, 1)
 	prevWaited := false
 	if prevRun == nil {
-		prevDone <- prevState{m: map[string]db.PrevStar{}}
+		prevDone <- prevState{m: &db.PrevSet{}}
 	} else {
 		sum.PrevRunID = prevRun.ID
 		prevCtx, cancelPrev := context.WithCancel(ctx)
@@ -197,6 +197,9 @@ func (e *Engine) Run(ctx context.Context, c *campaign.Campaign, opt RunOptions) 
 	if err != nil {
 		return nil, err
 	}
+	// Primary rows in star id order, sorted while the catalogs are matched.
+	orderDone := make(chan []int32, 1)
+	go func() { orderDone <- idOrder(cats.Primary.IDs) }()
 	m, err := e.Match(ctx, c, cats)
 	if err != nil {
 		return nil, err
@@ -236,59 +239,52 @@ func (e *Engine) Run(ctx context.Context, c *campaign.Campaign, opt RunOptions) 
 		sum.Quarantined += len(q)
 	}
 
-	// Which stars to compute.
-	var todo []int
+	// Which stars to compute: walk the primary rows in star id order beside
+	// the previous run's set, which the ledger gives in that order.
+	ids := cats.Primary.IDs
+	order := <-orderDone
+	var todo []int             // primary rows to compute, in id order
+	var gone []string          // withdrawn now, in id order
+	was := map[string]string{} // previous status of the stars computed or withdrawn now
 	carried := 0
-	inPrev := 0 // primary stars that the previous run holds
-	for i, id := range cats.Primary.IDs {
-		p, seen := prev[id]
-		if seen {
-			inPrev++
-		}
-		if sum.RecomputeAll == "" && seen && p.Status != StatusWithdrawn && p.InputHash == hashes[i] {
+	k := 0
+	absent := func(k int) {
+		if p := prev.Stars[k]; p.Status == StatusWithdrawn {
 			carried++
-			sum.Counts[p.Status]++
-			continue
+			sum.Counts[StatusWithdrawn]++
+		} else {
+			gone = append(gone, prev.IDs[k])
+			was[prev.IDs[k]] = p.Status
 		}
-		todo = append(todo, i)
 	}
-	// Withdrawn: in the previous run, absent now. When every star of the
-	// previous run is still in the primary catalog there is none to look for.
-	var gone []string
-	stillWithdrawn := 0
-	if inPrev < len(prev) {
-		present := make(map[string]struct{}, cats.Primary.Len())
-		for _, id := range cats.Primary.IDs {
-			present[id] = struct{}{}
+	for _, i := range order {
+		id := ids[i]
+		for ; k < prev.Len() && prev.IDs[k] < id; k++ {
+			absent(k)
 		}
-		for id, p := range prev {
-			if _, ok := present[id]; ok {
+		if k < prev.Len() && prev.IDs[k] == id {
+			p := prev.Stars[k]
+			k++
+			if sum.RecomputeAll == "" && p.Status != StatusWithdrawn && p.InputHash == hashes[i] {
+				carried++
+				sum.Counts[p.Status]++
 				continue
 			}
-			if p.Status == StatusWithdrawn {
-				stillWithdrawn++
-			} else {
-				gone = append(gone, id)
-			}
+			was[id] = p.Status
 		}
+		todo = append(todo, int(i))
 	}
-	sort.Strings(gone)
-	if stillWithdrawn > 0 {
-		sum.Counts[StatusWithdrawn] += stillWithdrawn
+	for ; k < prev.Len(); k++ {
+		absent(k)
 	}
-	carried += stillWithdrawn
 	sum.Carried = carried
 
-	// Star-id order keeps each batch's index updates local in the ledger,
-	// and lets batches be written while the next ones are computed.
-	ids := cats.Primary.IDs
-	slices.SortFunc(todo, func(a, b int) int { return strings.Compare(ids[a], ids[b]) })
 	withdrawn := func(id string) db.StarRecord {
 		return db.StarRecord{StarID: id,
 			Verdict: db.NewVerdictRow(StatusWithdrawn),
 			Reasons: []db.ReasonRow{{RuleID: "withdrawn", Outcome: "info", Value: math.NaN(),
 				Message: fmt.Sprintf("absent from the primary catalog %s (release %s); status in run %d was %s",
-					cats.Primary.Name, cats.Primary.Release, prevRun.ID, prev[id].Status)}}}
+					cats.Primary.Name, cats.Primary.Release, prevRun.ID, was[id])}}}
 	}
 	computed := 0
 	err = e.computeAndWrite(ctx, w, len(todo)+len(gone), sum, func(ctx context.Context, ce *Engine, recs []db.StarRecord) ([]db.StarRecord, bool, error) {
@@ -313,15 +309,15 @@ func (e *Engine) Run(ctx context.Context, c *campaign.Campaign, opt RunOptions) 
 		for i := range recs {
 			st := recs[i].Verdict.Status
 			sum.Counts[st]++
-			if p, ok := prev[recs[i].StarID]; !ok {
+			if p, ok := was[recs[i].StarID]; !ok {
 				sum.Transitions["(new) -> "+st]++
-			} else if p.Status != st {
-				sum.Transitions[p.Status+" -> "+st]++
+			} else if p != st {
+				sum.Transitions[p+" -> "+st]++
 			}
 		}
 		for _, id := range partGone {
 			recs = append(recs, withdrawn(id))
-			sum.Transitions[prev[id].Status+" -> "+StatusWithdrawn]++
+			sum.Transitions[was[id]+" -> "+StatusWithdrawn]++
 			sum.Counts[StatusWithdrawn]++
 		}
 		if len(partGone) > 0 {
@@ -353,10 +349,16 @@ func (e *Engine) Run(ctx context.Context, c *campaign.Campaign, opt RunOptions) 
 	return sum, nil
 }
 
-// ingestConcurrently is Engine.Ingest with the catalog files read at the
-// same time (each reader is a pipeline whose CSV splitting is sequential,
-// so two files overlap well on two cores). Results, log lines, rejected-row
-// files and the error returned (the first in campaign order) are those of
+// idOrder returns the row numbers of ids in ascending id order.
+func idOrder(ids []string) []int32 {
+	order := make([]int32, len(ids))
+	for i := range order {
+		order[i] = int32(i)
+	}
+	slices.SortFunc(order, func(a, b int32) int { return strings.Compare(ids[a], ids[b]) })
+	return order
+}
+
 // stageVetting names the progress stage that counts stars through quality,
 // kinematics and the ledger.
 const stageVetting = "quality, Monte Carlo, tracing, ledger"
