@@ -26,18 +26,20 @@
 // transaction each, tracked by PRAGMA user_version; a ledger newer than
 // the build is refused (ErrNewerSchema).
 //
-// Incremental runs: CarryForwardRest copies, after the run's own stars are
-// written, every verdict of an earlier run that this run lacks;
-// CarryForwardAll copies them all before any star is written (the pipeline
-// does it while it still reads its catalogs), and AddStars then replaces
-// the carried copy of each star it writes. Either way one INSERT ... SELECT
-// and one UPDATE of stars.last_run, in one transaction.
+// Incremental runs: a run writes only the stars it computes (or
+// withdraws). Its verdict set is, for each star, the latest computation
+// made in the run or in an earlier complete run (a failed run's set is
+// only its own): the verdicts view states this rule in SQL, scanSets
+// applies it in one pass over computed_verdicts for PreviousState, List,
+// StatusCounts and Diff. Carrying a star forward therefore writes nothing,
+// and Finish counts the set from the previous run's counts plus one probe
+// per computed star.
 //
 // Speed: AddStars writes multi-row INSERTs on the raw driver connection,
-// each bound and stepped in one cgo crossing. inputs, verdicts, reasons,
-// matches and stars are WITHOUT ROWID tables keyed by (run_id, star_id,
-// ...), so a row is one B-tree insert. Send stars in ascending star id order across
-// batches: the keys then grow by appending, and BenchmarkAddStars shows
-// the difference against a shuffled order. BenchmarkCarryForwardAll1M
-// times the carry of 1M verdicts.
+// each bound and stepped in one cgo crossing. computed_verdicts, inputs,
+// reasons and matches are WITHOUT ROWID tables, so a row is one B-tree
+// insert. Send stars in ascending star id order across batches: the keys
+// then grow by appending, and BenchmarkAddStars shows the difference
+// against a shuffled order. BenchmarkIncremental times PreviousState, a
+// 1% rerun and the audit reads on a 1M-star ledger.
 package db

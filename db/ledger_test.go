@@ -650,6 +650,64 @@ func TestSchemaExamples(t *testing.T) {
 	}
 }
 
+// The README's queries for the everyday jobs run against a real ledger
+// and each returns rows: two runs in which HV-0001 is recomputed and
+// becomes unbound, HV-0002 is carried forward rejected.
+func TestReadmeQueries(t *testing.T) {
+	b, err := os.ReadFile("../README.md")
+	if err != nil {
+		t.Fatal(err)
+	}
+	doc := string(b)
+	i := strings.Index(doc, "### SQL for the everyday jobs")
+	if i < 0 {
+		t.Fatal("README has no section SQL for the everyday jobs")
+	}
+	doc = doc[i:]
+	i = strings.Index(doc, "```sql\n")
+	j := strings.Index(doc[i+1:], "```") + i + 1
+	if i < 0 || j <= i {
+		t.Fatal("no sql block in the README section")
+	}
+	l := openT(t, tempLedger(t), Options{})
+	a, c := record("HV-0001", 1, 0, "rejected"), record("PL-0001510", 2, 0, "rejected")
+	writeRun(t, l, []StarRecord{a, c})
+	a = record("HV-0001", 1, 1, "unbound")
+	writeRun(t, l, []StarRecord{a})
+	n := 0
+	for _, q := range strings.Split(doc[i+len("```sql\n"):j], ";") {
+		if strings.TrimSpace(stripComments(q)) == "" {
+			continue
+		}
+		n++
+		rows, err := l.db.Query(q)
+		if err != nil {
+			t.Fatalf("%s: %v", q, err)
+		}
+		got := 0
+		for rows.Next() {
+			got++
+		}
+		rows.Close()
+		if got == 0 {
+			t.Errorf("%s: no rows", q)
+		}
+	}
+	if n < 5 {
+		t.Errorf("%d queries, want at least 5", n)
+	}
+}
+
+func stripComments(q string) string {
+	var out []string
+	for _, line := range strings.Split(q, "\n") {
+		if !strings.HasPrefix(strings.TrimSpace(line), "--") {
+			out = append(out, line)
+		}
+	}
+	return strings.Join(out, "\n")
+}
+
 func TestCrossingsAndPositions(t *testing.T) {
 	ctx := context.Background()
 	l := openT(t, tempLedger(t), Options{})
