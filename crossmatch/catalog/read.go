@@ -1,6 +1,7 @@
 package catalog
 
 import (
+	"bytes"
 	"compress/gzip"
 	"context"
 	"crypto/sha256"
@@ -111,9 +112,6 @@ type batch struct {
 
 func (b *batch) recycle() {
 	b.text, b.fields, b.rows, b.quar = b.text[:0], b.fields[:0], b.rows[:0], b.quar[:0]
-	for i := range b.cols {
-		b.cols[i] = b.cols[i][:0]
-	}
 	b.ids, b.idOff, b.idHash = "", b.idOff[:0], b.idHash[:0]
 	select {
 	case b.free <- b:
@@ -196,7 +194,10 @@ type rowParser struct {
 	idIdx   int
 	markers []string // cell texts meaning missing, besides the empty one
 	distMag bool
-	ends    []int32 // scratch: field ends of a plain row
+	// roles[k] says what column k feeds (see setRoles); numericMarker is set
+	// when a null marker reads as a number.
+	roles         []int
+	numericMarker bool
 }
 
 func (rp *rowParser) isNull(s string) bool {
@@ -238,11 +239,14 @@ func (rp *rowParser) parseBatch(b *batch) {
 	for i := range row {
 		row[i] = math.NaN() // fields without a column stay missing
 	}
-	if len(rp.ends) != len(rp.header) {
-		rp.ends = make([]int32, len(rp.header))
-	}
 	if len(b.cols) != w {
 		b.cols = make([][]float64, w)
+	}
+	for i, c := range b.cols {
+		if cap(c) < len(b.rows) {
+			c = make([]float64, batchRows)
+		}
+		b.cols[i] = c[:len(b.rows)]
 	}
 	b.idBuf = b.idBuf[:0]
 	b.idOff = append(b.idOff[:0], 0)
@@ -281,9 +285,6 @@ func (rp *rowParser) parseBatch(b *batch) {
 		b.quar = append(b.quar, q)
 		if q != nil {
 			b.idHash = append(b.idHash, 0)
-			for i := range b.cols {
-				b.cols[i] = append(b.cols[i], 0)
-			}
 			continue
 		}
 		b.idHash = append(b.idHash, hashID(b.idBuf[b.idOff[r]:]))
@@ -293,61 +294,97 @@ func (rp *rowParser) parseBatch(b *batch) {
 			row[Distance], row[DistanceErr] = DistanceFromModulus(mu, muErr)
 		}
 		for i, p := range rp.plans {
-			b.cols[i] = append(b.cols[i], row[p.field])
+			b.cols[i][r] = row[p.field]
 		}
 		if rp.distMag {
 			np := len(rp.plans)
-			b.cols[np] = append(b.cols[np], mu)
-			b.cols[np+1] = append(b.cols[np+1], muErr)
+			b.cols[np][r], b.cols[np+1][r] = mu, muErr
 		}
 	}
 	b.ids = string(b.idBuf)
 }
 
-// parsePlain converts a quote-free line into row and returns its id cell.
-// It reports false whenever the line is not plainly right (wrong field
-// count, a missing id or position, a number strconv refuses, a value out
-// of range), leaving the verdict and its wording to parseRow.
-func (rp *rowParser) parsePlain(line []byte, row *[NumFields]float64) ([]byte, bool) {
-	ends := rp.ends
-	if !splitFields(line, ends) {
-		return nil, false
+// Column roles of a plain row, besides an index into rowParser.plans.
+const (
+	roleSkip = -1 // a column no field reads
+	roleID   = -2
+)
+
+// setRoles prepares parsePlain for the header.
+func (rp *rowParser) setRoles() {
+	rp.roles = make([]int, len(rp.header))
+	for k := range rp.roles {
+		rp.roles[k] = roleSkip
 	}
-	cell := func(i int) []byte {
-		start := int32(0)
-		if i > 0 {
-			start = ends[i-1] + 1
+	rp.roles[rp.idIdx] = roleID
+	for i, p := range rp.plans {
+		rp.roles[p.index] = i
+	}
+	for _, m := range rp.markers {
+		if _, ok := parseDecimal([]byte(m)); ok {
+			rp.numericMarker = true
 		}
-		return line[start:ends[i]]
 	}
-	id := cell(rp.idIdx)
+}
+
+// parsePlain converts a quote-free line into row and returns its id cell,
+// splitting and reading numbers in one pass. It reports false whenever the
+// line is not plainly right (wrong field count, a missing id or position, a
+// number strconv refuses, a value out of range), leaving the verdict and
+// its wording to parseRow.
+func (rp *rowParser) parsePlain(line []byte, row *[NumFields]float64) ([]byte, bool) {
+	var id []byte
+	pos, n := 0, len(line)
+	last := len(rp.roles) - 1
+	for k, role := range rp.roles {
+		var end int
+		if role >= 0 {
+			v, e, ok := scanDecimal(line, pos)
+			end = e
+			if end < n && line[end] != ',' {
+				ok = false // more than a plain decimal: find the cell's end
+				if j := bytes.IndexByte(line[end:], ','); j >= 0 {
+					end += j
+				} else {
+					end = n
+				}
+			}
+			p := &rp.plans[role]
+			cell := line[pos:end]
+			if (!ok || rp.numericMarker) && rp.isNullBytes(cell) {
+				if p.field == RA || p.field == Dec {
+					return nil, false
+				}
+				row[p.field] = math.NaN()
+			} else {
+				if !ok {
+					var err error
+					if v, err = strconv.ParseFloat(string(cell), 64); err != nil || math.IsNaN(v) || math.IsInf(v, 0) {
+						return nil, false
+					}
+				}
+				v *= p.factor
+				if checkRange(p.field, v) != "" {
+					return nil, false
+				}
+				row[p.field] = v
+			}
+		} else {
+			end = n
+			if j := bytes.IndexByte(line[pos:], ','); j >= 0 {
+				end = pos + j
+			}
+			if role == roleID {
+				id = line[pos:end]
+			}
+		}
+		if (k == last) != (end == n) {
+			return nil, false // more or fewer fields than the header
+		}
+		pos = end + 1
+	}
 	if rp.isNullBytes(id) {
 		return nil, false
-	}
-	for _, p := range rp.plans {
-		c := cell(p.index)
-		if rp.isNullBytes(c) {
-			if p.field == RA || p.field == Dec {
-				return nil, false
-			}
-			row[p.field] = math.NaN()
-			continue
-		}
-		v, ok := parseDecimal(c)
-		if !ok {
-			var err error
-			if v, err = strconv.ParseFloat(string(c), 64); err != nil {
-				return nil, false
-			}
-		}
-		if math.IsNaN(v) || math.IsInf(v, 0) {
-			return nil, false
-		}
-		v *= p.factor
-		if checkRange(p.field, v) != "" {
-			return nil, false
-		}
-		row[p.field] = v
 	}
 	return id, true
 }
@@ -463,6 +500,7 @@ func read(ctx context.Context, spec Spec, opt ReadOptions, forceCSV bool) (*Tabl
 			rp.markers = append(rp.markers, m)
 		}
 	}
+	rp.setRoles()
 	var seen idIndex // first kept row of every id
 	var kept []int   // rows of the current batch that go into the table
 	presized := gz   // a gzip file's size says little about its rows
@@ -475,9 +513,11 @@ func read(ctx context.Context, spec Spec, opt ReadOptions, forceCSV bool) (*Tabl
 		if b.fatal != nil {
 			return nil, rep, b.fatal
 		}
-		seen.prefetch(b.idHash)
 		kept = kept[:0]
 		for r := range b.rows {
+			if r%prefetchRows == 0 {
+				seen.prefetch(b.idHash[r:min(r+prefetchRows, len(b.rows))])
+			}
 			br := &b.rows[r]
 			q := b.quar[r]
 			rep.RowsRead++
@@ -534,6 +574,10 @@ func read(ctx context.Context, spec Spec, opt ReadOptions, forceCSV bool) (*Tabl
 	}
 	return t, rep, nil
 }
+
+// prefetchRows is how many rows' id slots the read loop loads ahead in one
+// go: enough to overlap their cache misses, few enough to stay in cache.
+const prefetchRows = 512
 
 // appendKept appends vals[r] for every r in kept.
 func appendKept(dst, vals []float64, kept []int) []float64 {

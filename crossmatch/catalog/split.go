@@ -217,45 +217,28 @@ func readError(name string, err error) *FileError {
 	return &FileError{File: name, Reason: "read error: " + err.Error(), Err: fmt.Errorf("%w: %w", ErrUnreadable, err)}
 }
 
-// splitFields cuts a quote-free line into the fields of its record, as
-// encoding/csv would, writing the end offset of each field into ends. It
-// returns false, leaving ends partly written, when the line has another
-// number of fields than len(ends).
-func splitFields(line []byte, ends []int32) bool {
-	k := 0
-	for i, c := range line {
-		if c == ',' {
-			if k == len(ends)-1 {
-				return false
-			}
-			ends[k] = int32(i)
-			k++
-		}
-	}
-	if k != len(ends)-1 {
-		return false
-	}
-	ends[k] = int32(len(line))
-	return true
+// parseDecimal converts b when it is all a plain decimal for scanDecimal.
+func parseDecimal(b []byte) (float64, bool) {
+	v, end, ok := scanDecimal(b, 0)
+	return v, ok && end == len(b)
 }
 
-// parseDecimal converts text of the form [+-]digits[.digits], at least one
-// digit and at most 19 bytes in all, whose digits as an integer m are below
+// scanDecimal reads text of the form [+-]digits[.digits] from b[pos:] up to
+// the first other byte, at end. It reports ok when that text has at least
+// one digit, at most 19 bytes, and its digits as an integer m are below
 // 2^53. Then m and 10^k (k <= 18 digits after the point) are exact float64
 // values and one IEEE division gives the correctly rounded m/10^k, which is
 // what strconv.ParseFloat returns as well (the exact fast path of Clinger
-// 1990, Proc. ACM SIGPLAN PLDI '90, p. 92). Anything else reports false and
-// is left to strconv.ParseFloat.
-func parseDecimal(b []byte) (float64, bool) {
-	if len(b) == 0 || len(b) > 19 {
-		return 0, false // at most 19 digits, so m cannot overflow
+// 1990, Proc. ACM SIGPLAN PLDI '90, p. 92). Anything else is left to
+// strconv.ParseFloat.
+func scanDecimal(b []byte, pos int) (v float64, end int, ok bool) {
+	i := pos
+	neg := false
+	if i < len(b) && (b[i] == '-' || b[i] == '+') {
+		neg = b[i] == '-'
+		i++
 	}
-	i := 0
-	neg := b[0] == '-'
-	if neg || b[0] == '+' {
-		i = 1
-	}
-	var m uint64
+	var m uint64 // wraps for long texts, which are refused below
 	start, dot := i, -1
 	for ; i < len(b); i++ {
 		d := b[i] - '0'
@@ -264,25 +247,25 @@ func parseDecimal(b []byte) (float64, bool) {
 			continue
 		}
 		if b[i] != '.' || dot >= 0 {
-			return 0, false
+			break
 		}
 		dot = i
 	}
-	nd := len(b) - start // digits, plus the point if there is one
+	nd := i - start // digits, plus the point if there is one
 	if dot >= 0 {
 		nd--
 	}
-	if nd == 0 || m >= 1<<53 {
-		return 0, false
+	if nd == 0 || i-pos > 19 || m >= 1<<53 {
+		return 0, i, false
 	}
 	f := float64(m)
 	if dot >= 0 {
-		f /= pow10[len(b)-1-dot]
+		f /= pow10[i-1-dot]
 	}
 	if neg {
 		f = -f
 	}
-	return f, true
+	return f, i, true
 }
 
 // pow10 holds the powers of ten that float64 represents exactly.
