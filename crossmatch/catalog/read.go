@@ -12,6 +12,7 @@ import (
 	"io"
 	"math"
 	"os"
+	"runtime"
 	"sort"
 	"strconv"
 	"strings"
@@ -45,6 +46,10 @@ type ReadOptions struct {
 	// Strict turns the first row problem into a fatal error instead of
 	// quarantining the row.
 	Strict bool
+	// Workers is how many goroutines convert numbers, besides the one that
+	// splits lines and the caller's, which builds the table; 0 means
+	// runtime.GOMAXPROCS(0).
+	Workers int
 }
 
 // Quarantine is a row set aside, with the reason.
@@ -107,6 +112,7 @@ type batch struct {
 	idOff  []int32
 	idHash []uint64
 	fatal  error
+	parsed chan struct{} // closed once parseBatch is done with the batch
 	free   chan *batch
 }
 
@@ -129,23 +135,24 @@ func (b *batch) record(r int) []string {
 }
 
 // readBatches runs the reader as a pipeline: one goroutine cuts the input
-// into batches of records, a second converts their numbers
-// (rp.parseBatch), and the caller, in file order, checks ids and appends to
-// the table. This spreads the work over two cores. stop must be called when
-// the caller is done; it waits for both goroutines.
-func readBatches(ls *lineSplitter, name string, rp *rowParser) (<-chan *batch, func()) {
-	split := make(chan *batch, 2)
-	out := make(chan *batch, 2)
-	free := make(chan *batch, 6)
+// into batches of records, workers goroutines convert their numbers
+// (rp.parseBatch, which only reads rp), and the caller takes the batches in
+// file order, checks ids and appends to the table. stop must be called when
+// the caller is done; it waits for every goroutine.
+func readBatches(ls *lineSplitter, name string, rp *rowParser, workers int) (<-chan *batch, func()) {
+	work := make(chan *batch, workers)
+	out := make(chan *batch, workers+2) // file order
+	free := make(chan *batch, 2*workers+4)
 	done := make(chan struct{})
 	for range cap(free) {
 		free <- &batch{rows: make([]rowRef, 0, batchRows), free: free}
 	}
 	var wg sync.WaitGroup
-	wg.Add(2)
+	wg.Add(1 + workers)
 	go func() {
 		defer wg.Done()
-		defer close(split)
+		defer close(out)
+		defer close(work)
 		for {
 			var b *batch
 			select {
@@ -154,8 +161,14 @@ func readBatches(ls *lineSplitter, name string, rp *rowParser) (<-chan *batch, f
 				return
 			}
 			eof := ls.fillBatch(name, b)
+			b.parsed = make(chan struct{})
 			select {
-			case split <- b:
+			case out <- b:
+			case <-done:
+				return
+			}
+			select {
+			case work <- b:
 			case <-done:
 				return
 			}
@@ -164,18 +177,15 @@ func readBatches(ls *lineSplitter, name string, rp *rowParser) (<-chan *batch, f
 			}
 		}
 	}()
-	go func() {
-		defer wg.Done()
-		defer close(out)
-		for b := range split {
-			rp.parseBatch(b)
-			select {
-			case out <- b:
-			case <-done:
-				return
+	for range workers {
+		go func() {
+			defer wg.Done()
+			for b := range work {
+				rp.parseBatch(b)
+				close(b.parsed)
 			}
-		}
-	}()
+		}()
+	}
 	var once sync.Once
 	return out, func() {
 		once.Do(func() {
@@ -504,9 +514,14 @@ func read(ctx context.Context, spec Spec, opt ReadOptions, forceCSV bool) (*Tabl
 	var seen idIndex // first kept row of every id
 	var kept []int   // rows of the current batch that go into the table
 	presized := gz   // a gzip file's size says little about its rows
-	batches, stop := readBatches(ls, name, rp)
+	workers := opt.Workers
+	if workers <= 0 {
+		workers = runtime.GOMAXPROCS(0)
+	}
+	batches, stop := readBatches(ls, name, rp, workers)
 	defer stop()
 	for b := range batches {
+		<-b.parsed
 		if err := ctx.Err(); err != nil {
 			return nil, rep, err
 		}
