@@ -30,6 +30,16 @@
 // file, unreadable gzip, missing required or mapped columns and bad specs
 // are fatal *FileError values. All wrap sentinels (ErrNotNumber, ...).
 //
+// Reading is a pipeline: one goroutine cuts the input into batches of
+// records, ReadOptions.Workers goroutines (default GOMAXPROCS) convert the
+// numbers, and the caller's goroutine checks ids and builds the table in
+// file order. Lines without a double quote are split at their commas
+// directly, and plain decimals are read by an exact fast path; from the
+// first line with a quote on, encoding/csv reads the rest of the file, and
+// any cell the fast path declines goes through strconv.ParseFloat and the
+// general row checks. The result is the same as reading the whole file
+// with encoding/csv, which the tests hold it to.
+//
 // PositionErrMas > 0 fills ra_err and dec_err where the column is absent or
 // the cell missing (counted in Report.PositionErrFilled).
 package catalog
