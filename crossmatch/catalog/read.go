@@ -85,7 +85,7 @@ type Report struct {
 // campaign names none.
 func DefaultNullMarkers() []string { return []string{"", "NaN", "null"} }
 
-// batchRows is how many rows the CSV goroutine hands over at a time; the
+// batchRows is how many rows the splitting goroutine hands over at a time; the
 // context is checked between batches.
 const batchRows = 4096
 
