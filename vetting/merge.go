@@ -46,10 +46,10 @@ var fieldGroups = [][]catalog.Field{
 const mergeChunk = 1024
 
 // mergeBatch fills stars, the primary rows lo, lo+1, ..., and their input
-// hashes. Every star gets, in this order: the primary's values, its matches
-// and duplicate count, and for each field group the primary lacks, the
-// values of the first matched secondary (in campaign order) that has the
-// group's first field. The secondaries are read one column at a time over
+// hashes. Every star gets the primary's values, its matches and duplicate
+// count, and for each field group the primary lacks, the values of the
+// first matched secondary (in campaign order) that has the group's first
+// field. The secondaries are read one column at a time over
 // the chunk: their rows come in match order, not file order, and a loop
 // that only gathers keeps many cache misses in flight at once.
 func mergeBatch(c *Catalogs, m *Matched, lo int, stars []quality.Star, hashes []string, sc *mergeScratch) {
