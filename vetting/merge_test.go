@@ -71,6 +71,9 @@ func mergeInput(n, nSec int, seed uint64, ordered bool) (*Catalogs, *Matched) {
 		if k%2 == 1 {
 			s.Cols[catalog.Mag], s.Cols[catalog.Color] = col(0.1), col(0.1)
 		}
+		if k%3 == 2 { // distances given as moduli: the group's other two fields
+			s.Cols[catalog.DistMod], s.Cols[catalog.DistModErr] = col(0.2), col(0.2)
+		}
 		res := &crossmatch.Result{Matches: make([]crossmatch.Counterpart, n)}
 		for i := range res.Matches {
 			cp := &res.Matches[i]
