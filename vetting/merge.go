@@ -53,12 +53,32 @@ const mergeChunk = 1024
 // the chunk: their rows come in match order, not file order, and a loop
 // that only gathers keeps many cache misses in flight at once.
 func mergeBatch(c *Catalogs, m *Matched, lo int, stars []quality.Star, hashes []string, sc *mergeScratch) {
+	n := len(stars)
+	// One backing array for the batch's matches, one string for its hashes.
+	matches := make([]quality.MatchInfo, n*len(c.Secondaries))
+	hexBuf := make([]byte, n*2*inputHashBytes)
+	fillStars(c, m, lo, stars, matches, sc, func(base int, chunk []quality.Star) {
+		for b := range chunk {
+			var sum [inputHashBytes]byte
+			sum, sc.buf = inputHash(c, m, base+b, &chunk[b], sc.buf)
+			hex.Encode(hexBuf[(base-lo+b)*2*inputHashBytes:], sum[:])
+		}
+	})
+	all := string(hexBuf)
+	for b := range hashes {
+		hashes[b] = all[b*2*inputHashBytes : (b+1)*2*inputHashBytes]
+	}
+}
+
+// fillStars fills stars with the primary rows lo, lo+1, ... (see
+// mergeBatch), their Matches taken from matches (len(stars) times the
+// number of secondaries), and calls done with each chunk once it is filled,
+// while it is still in cache.
+func fillStars(c *Catalogs, m *Matched, lo int, stars []quality.Star, matches []quality.MatchInfo, sc *mergeScratch,
+	done func(base int, chunk []quality.Star)) {
 	p := c.Primary
 	nSec := len(c.Secondaries)
 	n := len(stars)
-	// One backing array for the batch's matches, one string for its hashes.
-	matches := make([]quality.MatchInfo, n*nSec)
-	hexBuf := make([]byte, n*2*inputHashBytes)
 	for c0 := 0; c0 < n; c0 += mergeChunk {
 		chunk := stars[c0:min(c0+mergeChunk, n)]
 		base := lo + c0
@@ -103,16 +123,10 @@ func mergeBatch(c *Catalogs, m *Matched, lo int, stars []quality.Star, hashes []
 		for _, g := range fieldGroups {
 			fillGroup(c, m, g, base, chunk, sc)
 		}
-		sc.touchSourceIDs(m, base, len(chunk))
-		for b := range chunk {
-			var sum [inputHashBytes]byte
-			sum, sc.buf = inputHash(c, m, base+b, &chunk[b], sc.buf)
-			hex.Encode(hexBuf[(c0+b)*2*inputHashBytes:], sum[:])
+		if done != nil {
+			sc.touchSourceIDs(m, base, len(chunk))
+			done(base, chunk)
 		}
-	}
-	all := string(hexBuf)
-	for b := range hashes {
-		hashes[b] = all[b*2*inputHashBytes : (b+1)*2*inputHashBytes]
 	}
 }
 
@@ -235,30 +249,87 @@ func appendFloat(b []byte, x float64) []byte {
 	return binary.LittleEndian.AppendUint64(b, math.Float64bits(x))
 }
 
+func newMergeScratch() *mergeScratch {
+	return &mergeScratch{from: make([]int32, mergeChunk), row: make([]int32, mergeChunk)}
+}
+
 // mergeAll builds every primary star and its input hash, on all workers.
 func mergeAll(ctx context.Context, c *Catalogs, m *Matched, workers int) ([]quality.Star, []string, error) {
 	n := c.Primary.Len()
 	stars := make([]quality.Star, n)
 	hashes := make([]string, n)
+	err := mergeBatches(ctx, n, workers, func(lo, hi int, sc *mergeScratch) {
+		mergeBatch(c, m, lo, stars[lo:hi], hashes[lo:hi], sc)
+	})
+	return stars, hashes, err
+}
+
+// hashAll computes the input hash of every primary star, on all workers,
+// keeping only the hashes: a run merges the stars it computes again, from
+// the same tables (mergeRows), so the million stars it carries never sit
+// in memory at once.
+func hashAll(ctx context.Context, c *Catalogs, m *Matched, workers int) ([]string, error) {
+	n := c.Primary.Len()
+	hashes := make([]string, n)
+	var mu sync.Mutex
+	var spare [][]quality.Star
+	err := mergeBatches(ctx, n, workers, func(lo, hi int, sc *mergeScratch) {
+		mu.Lock()
+		var buf []quality.Star
+		if k := len(spare); k > 0 {
+			buf, spare = spare[k-1], spare[:k-1]
+		}
+		mu.Unlock()
+		if cap(buf) < hi-lo {
+			buf = make([]quality.Star, mergeBatchRows)
+		}
+		mergeBatch(c, m, lo, buf[:hi-lo], hashes[lo:hi], sc)
+		mu.Lock()
+		spare = append(spare, buf)
+		mu.Unlock()
+	})
+	return hashes, err
+}
+
+// mergeRows fills out[k] with primary row rows[k], as mergeAll would.
+func mergeRows(c *Catalogs, m *Matched, rows []int, out []quality.Star) {
+	nSec := len(c.Secondaries)
+	matches := make([]quality.MatchInfo, len(rows)*nSec)
+	sc := newMergeScratch()
+	for k := 0; k < len(rows); {
+		// A run of consecutive rows is filled as one range.
+		e := k + 1
+		for e < len(rows) && rows[e] == rows[e-1]+1 {
+			e++
+		}
+		fillStars(c, m, rows[k], out[k:e], matches[k*nSec:e*nSec], sc, nil)
+		k = e
+	}
+}
+
+// mergeBatchRows is how many primary rows one worker merges at a time.
+const mergeBatchRows = 8192
+
+// mergeBatches calls fn for the row ranges [lo, hi) that cover n rows,
+// batch by batch on workers goroutines, each with its own scratch.
+func mergeBatches(ctx context.Context, n, workers int, fn func(lo, hi int, sc *mergeScratch)) error {
 	if workers <= 0 {
 		workers = runtime.GOMAXPROCS(0)
 	}
-	const batch = 8192
 	var wg sync.WaitGroup
 	next := make(chan int)
 	for range workers {
 		wg.Add(1)
 		go func() {
 			defer wg.Done()
-			sc := &mergeScratch{from: make([]int32, mergeChunk), row: make([]int32, mergeChunk)}
+			sc := newMergeScratch()
 			for lo := range next {
-				hi := min(lo+batch, n)
-				mergeBatch(c, m, lo, stars[lo:hi], hashes[lo:hi], sc)
+				fn(lo, min(lo+mergeBatchRows, n), sc)
 			}
 		}()
 	}
 	var err error
-	for lo := 0; lo < n; lo += batch {
+	for lo := 0; lo < n; lo += mergeBatchRows {
 		if err = ctx.Err(); err != nil {
 			break
 		}
@@ -266,5 +337,5 @@ func mergeAll(ctx context.Context, c *Catalogs, m *Matched, workers int) ([]qual
 	}
 	close(next)
 	wg.Wait()
-	return stars, hashes, err
+	return err
 }

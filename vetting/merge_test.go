@@ -9,6 +9,7 @@ import (
 	"fmt"
 	"math"
 	"math/rand/v2"
+	"slices"
 	"strconv"
 	"syscall"
 	"testing"
@@ -281,6 +282,63 @@ func TestInputHashKnownValue(t *testing.T) {
 	sum := sha256.Sum256(b) // SHA-256 as the standard library computes it (FIPS 180-4)
 	if want := hex.EncodeToString(sum[:16]); hashes[0] != want {
 		t.Errorf("hash %s, want %s", hashes[0], want)
+	}
+}
+
+// TestHashAllAndMergeRows: the run's path (hashes of every star, then the
+// stars it computes merged again by row) gives what mergeAll gives.
+func TestHashAllAndMergeRows(t *testing.T) {
+	for _, tc := range []struct {
+		name    string
+		n, nSec int
+		workers int
+	}{
+		{"one secondary", 20000, 1, 2},
+		{"three secondaries", 9000, 3, 3},
+		{"no secondary", 300, 0, 1},
+	} {
+		t.Run(tc.name, func(t *testing.T) {
+			c, m := mergeInput(tc.n, tc.nSec, 5, false)
+			stars, want, err := mergeAll(context.Background(), c, m, tc.workers)
+			if err != nil {
+				t.Fatal(err)
+			}
+			got, err := hashAll(context.Background(), c, m, tc.workers)
+			if err != nil {
+				t.Fatal(err)
+			}
+			if !slices.Equal(got, want) {
+				t.Fatal("hashAll differs from mergeAll")
+			}
+			// Rows in a seeded random order with runs of consecutive rows.
+			rng := rand.New(rand.NewPCG(8, 9))
+			var rows []int
+			for len(rows) < tc.n/3 {
+				r := rng.IntN(tc.n)
+				for k := 0; k < 1+rng.IntN(4) && r+k < tc.n; k++ {
+					rows = append(rows, r+k)
+				}
+			}
+			out := make([]quality.Star, len(rows))
+			mergeRows(c, m, rows, out)
+			for k, i := range rows {
+				a, b := &out[k], &stars[i]
+				if a.ID != b.ID || a.DupCount != b.DupCount || len(a.Matches) != len(b.Matches) || (a.Matches == nil) != (b.Matches == nil) {
+					t.Fatalf("row %d: %q %d %d matches, want %q %d %d", i, a.ID, a.DupCount, len(a.Matches), b.ID, b.DupCount, len(b.Matches))
+				}
+				for f := range a.Values {
+					if !sameBits(a.Values[f], b.Values[f]) {
+						t.Fatalf("row %d %s: %v, want %v", i, catalog.Fields[f].Name, a.Values[f], b.Values[f])
+					}
+				}
+				for j := range a.Matches {
+					x, y := a.Matches[j], b.Matches[j]
+					if x.Matched != y.Matched || !sameBits(x.SepArcsec, y.SepArcsec) || !sameBits(x.Prob, y.Prob) || x.Candidates != y.Candidates || x.Ambiguous != y.Ambiguous {
+						t.Fatalf("row %d match %d: %+v, want %+v", i, j, x, y)
+					}
+				}
+			}
+		})
 	}
 }
 

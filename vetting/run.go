@@ -205,7 +205,7 @@ func (e *Engine) Run(ctx context.Context, c *campaign.Campaign, opt RunOptions) 
 		return nil, err
 	}
 	t := time.Now()
-	stars, hashes, err := mergeAll(ctx, cats, m, e.Workers)
+	hashes, err := hashAll(ctx, cats, m, e.Workers)
 	if err != nil {
 		return nil, err
 	}
@@ -302,7 +302,7 @@ func (e *Engine) Run(ctx context.Context, c *campaign.Campaign, opt RunOptions) 
 		if len(part) == 0 && len(partGone) == 0 {
 			return recs, false, nil
 		}
-		recs, err := ce.compute(ctx, c, rs, model, modelName, &kset, cats, m, stars, hashes, part, recs[:0], sum)
+		recs, err := ce.compute(ctx, c, rs, model, modelName, &kset, cats, m, hashes, part, recs[:0], sum)
 		if err != nil {
 			return nil, false, err
 		}
@@ -455,13 +455,13 @@ func (e *Engine) computeAndWrite(ctx context.Context, w *db.RunWriter, total int
 // compute runs quality, kinematics and tracing for the primary rows todo and
 // returns their ledger records in row order.
 func (e *Engine) compute(ctx context.Context, c *campaign.Campaign, rs *rules.RuleSet, model *potential.Model, modelName string,
-	kset *kinematics.Settings, cats *Catalogs, m *Matched, stars []quality.Star, hashes []string, todo []int,
+	kset *kinematics.Settings, cats *Catalogs, m *Matched, hashes []string, todo []int,
 	recs []db.StarRecord, sum *Summary) ([]db.StarRecord, error) {
-	sub := make([]quality.Star, len(todo))
-	for k, i := range todo {
-		sub[k] = stars[i]
-	}
 	t := time.Now()
+	sub := make([]quality.Star, len(todo))
+	mergeRows(cats, m, todo, sub)
+	sum.addStage("merge", t)
+	t = time.Now()
 	as, err := e.Assess(ctx, c, rs, sub)
 	sum.addStage("quality", t)
 	if err != nil {
