@@ -409,7 +409,7 @@ func reportRun(b *testing.B, sums []*Summary, clocks []*stageClock, growthBytes 
 		}
 		elapsed += sums[i].Elapsed
 	}
-	for _, k := range []string{"ingest", "match", "merge", "previous-state", "previous-wait", "vetting",
+	for _, k := range []string{"ingest", "match", "merge", "merge computed", "previous-state", "previous-wait", "vetting",
 		"quality", "monte carlo", "tracing", "ledger", "finish"} {
 		b.ReportMetric(total[k].Seconds()/n, strings.ReplaceAll(k, " ", "-")+"-s/op")
 	}

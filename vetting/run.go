@@ -46,7 +46,9 @@ type Summary struct {
 	RecomputeAll string
 	ModelName    string
 	Elapsed      time.Duration
-	// Stages is the wall time of the stages Run times itself: "merge",
+	// Stages is the wall time of the stages Run times itself: "merge"
+	// (the input hash of every star), "merge computed" (merging the stars
+	// to compute again, within the vetting stage),
 	// "previous-state" (read concurrently with ingest and match),
 	// "previous-wait" (how long the run then waited for it), "quality",
 	// "monte carlo", "tracing" (within "monte carlo"), "ledger" (the
@@ -460,7 +462,7 @@ func (e *Engine) compute(ctx context.Context, c *campaign.Campaign, rs *rules.Ru
 	t := time.Now()
 	sub := make([]quality.Star, len(todo))
 	mergeRows(cats, m, todo, sub)
-	sum.addStage("merge", t)
+	sum.addStage("merge computed", t)
 	t = time.Now()
 	as, err := e.Assess(ctx, c, rs, sub)
 	sum.addStage("quality", t)
