@@ -130,8 +130,16 @@ func (l *Ledger) StatusCounts(ctx context.Context, runID int64) (map[string]int6
 	return l.statusCounts(ctx, runID)
 }
 
+// statusCounts counts run runID's set by status, in one pass (scanSets).
 func (l *Ledger) statusCounts(ctx context.Context, runID int64) (map[string]int64, error) {
-	m, err := l.setCounts(ctx, runID)
+	m := map[string]int64{}
+	err := l.scanSets(ctx, []int64{runID}, []string{"status"}, func(_ string, g [][]driver.Value, pick []int) error {
+		if pick[0] >= 0 {
+			s, _ := g[pick[0]][2].(string)
+			m[s]++
+		}
+		return nil
+	})
 	if err != nil {
 		return nil, fmt.Errorf("ledger %s run %d: status counts: %w", l.path, runID, err)
 	}
@@ -180,7 +188,7 @@ func (l *Ledger) countsAfter(ctx context.Context, runID int64, probeLimit int64)
 	case err != nil:
 		return nil, 0, err
 	case computed > probeLimit || !cj.Valid:
-		counts, err := l.setCounts(ctx, runID)
+		counts, err := l.statusCounts(ctx, runID)
 		return counts, computed, err
 	}
 	if err := json.Unmarshal([]byte(cj.String), &counts); err != nil {

@@ -127,16 +127,3 @@ func (l *Ledger) scanSets(ctx context.Context, runs []int64, cols []string,
 		return nil
 	})
 }
-
-// setCounts counts run runID's set by status.
-func (l *Ledger) setCounts(ctx context.Context, runID int64) (map[string]int64, error) {
-	m := map[string]int64{}
-	err := l.scanSets(ctx, []int64{runID}, []string{"status"}, func(_ string, g [][]driver.Value, pick []int) error {
-		if pick[0] >= 0 {
-			s, _ := g[pick[0]][2].(string)
-			m[s]++
-		}
-		return nil
-	})
-	return m, err
-}
