@@ -45,9 +45,11 @@ func killChild(path string) {
 	batch := make([]StarRecord, 200)
 	for n := 0; ; n++ {
 		for i := range batch {
-			// Overlaps the parent's star ids: the failed run then holds
-			// new computations of stars that complete runs hold too.
-			batch[i] = record(fmt.Sprintf("K%06d", (n*len(batch)+i)%3000), i, float64(n), "rejected")
+			// The first 500 ids are the parent's: the failed run then holds
+			// new computations of stars that complete runs hold too. No
+			// id repeats, however many batches land before the kill (a run
+			// writing one star twice is an error, not what is tested).
+			batch[i] = record(fmt.Sprintf("K%06d", n*len(batch)+i), i, float64(n), "rejected")
 		}
 		if err := w.AddStars(ctx, batch); err != nil {
 			fmt.Println("error", err)
