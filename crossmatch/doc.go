@@ -50,7 +50,7 @@
 //     within a factor AmbiguityRatio of the primary's own (both the winner
 //     and the loser are marked).
 //
-// A primary with no match has Secondary -1, SourceID "", SepArcsec and
+// A primary with no match has Secondary -1, CounterpartID "", SepArcsec and
 // BayesFactor NaN, Prob 0; Candidates still counts what was within the
 // radius. Results do not depend on Options.Workers.
 //

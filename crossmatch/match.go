@@ -54,13 +54,13 @@ type Options struct {
 // Counterpart is the outcome for one primary row. (It would be called Match
 // but that name is the function.)
 type Counterpart struct {
-	Secondary   int32  // row in the secondary table, -1 for none
-	SourceID    string // secondary IDs[Secondary], "" for none
-	SepArcsec   float64
-	Prob        float64 // posterior match probability; 0 for none
-	BayesFactor float64 // may underflow to 0 for a pair many sigma apart
-	Candidates  int32   // secondary rows within the radius, before resolution
-	Ambiguous   bool
+	Secondary     int32  // row in the secondary table, -1 for none
+	CounterpartID string // secondary IDs[Secondary], "" for none
+	SepArcsec     float64
+	Prob          float64 // posterior match probability; 0 for none
+	BayesFactor   float64 // may underflow to 0 for a pair many sigma apart
+	Candidates    int32   // secondary rows within the radius, before resolution
+	Ambiguous     bool
 }
 
 // Stats count what Match did, so that no row is dropped unnoticed.
@@ -640,7 +640,7 @@ func noMatch() Counterpart {
 
 func accept(m *Counterpart, pr *pair, post posterior, ids []string) {
 	m.Secondary = pr.j
-	m.SourceID = ids[pr.j]
+	m.CounterpartID = ids[pr.j]
 	m.SepArcsec = pr.sepRad / radPerArcsec
 	m.BayesFactor = math.Exp(pr.lnB)
 	m.Prob = post.ofB(m.BayesFactor, pr.lnB)

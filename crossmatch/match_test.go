@@ -178,7 +178,7 @@ func oracle(t *testing.T, pt, st *catalog.Table, opt Options) ([]Counterpart, []
 		}
 		taken[pr.j] = true
 		out[pr.i].Secondary, out[pr.i].SepArcsec, out[pr.i].BayesFactor = pr.j, pr.sepRad/radPerArcsec, math.Exp(pr.lnB)
-		out[pr.i].SourceID = st.IDs[pr.j]
+		out[pr.i].CounterpartID = st.IDs[pr.j]
 	}
 	p0 := res0Prior(pt, st)
 	for i := range out {
@@ -270,7 +270,7 @@ func TestMatchAgainstBruteForce(t *testing.T) {
 			var matched, amb, multi int
 			for i := range want {
 				g, w := res.Matches[i], want[i]
-				if g.Secondary != w.Secondary || g.SourceID != w.SourceID || g.Candidates != w.Candidates ||
+				if g.Secondary != w.Secondary || g.CounterpartID != w.CounterpartID || g.Candidates != w.Candidates ||
 					g.Ambiguous != w.Ambiguous || !sameFloat(g.SepArcsec, w.SepArcsec) || !sameFloat(g.BayesFactor, w.BayesFactor) {
 					t.Fatalf("primary row %d (%s): got %+v, brute force %+v", i, pt.IDs[i], g, w)
 				}
@@ -303,7 +303,7 @@ func TestMatchAgainstBruteForce(t *testing.T) {
 			got := 0
 			for pid, sid := range fast {
 				i := byID[pid]
-				if res.Matches[i].SourceID == sid {
+				if res.Matches[i].CounterpartID == sid {
 					got++
 				}
 			}
@@ -331,7 +331,7 @@ func TestMatchNeedsPropagation(t *testing.T) {
 		t.Fatal(err)
 	}
 	m := res.Matches[0]
-	if m.SourceID != "far-counterpart" || m.SepArcsec > 1e-6 || m.Candidates != 1 {
+	if m.CounterpartID != "far-counterpart" || m.SepArcsec > 1e-6 || m.Candidates != 1 {
 		t.Errorf("got %+v, want far-counterpart at ~0 arcsec", m)
 	}
 	if sep := sky.Separation(100*radPerDeg, 20*radPerDeg, ra2*radPerDeg, dec2*radPerDeg) / radPerArcsec; sep < 60 {
@@ -415,7 +415,7 @@ func TestMatchDeterministicAcrossWorkers(t *testing.T) {
 		}
 		for i := range res.Matches {
 			a, b := res.Matches[i], ref.Matches[i]
-			if a.Secondary != b.Secondary || a.SourceID != b.SourceID || a.Candidates != b.Candidates || a.Ambiguous != b.Ambiguous ||
+			if a.Secondary != b.Secondary || a.CounterpartID != b.CounterpartID || a.Candidates != b.Candidates || a.Ambiguous != b.Ambiguous ||
 				!sameFloat(a.SepArcsec, b.SepArcsec) || !sameFloat(a.Prob, b.Prob) || !sameFloat(a.BayesFactor, b.BayesFactor) {
 				t.Fatalf("workers %d, row %d: %+v vs %+v", w, i, a, b)
 			}

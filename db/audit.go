@@ -187,7 +187,7 @@ func (l *Ledger) reasonsOf(ctx context.Context, runID int64, starID string) ([]R
 
 func (l *Ledger) matchesOf(ctx context.Context, runID int64, starID string) ([]MatchRow, error) {
 	rows, err := l.db.QueryContext(ctx,
-		`SELECT catalog, source_id, sep_arcsec, match_prob, candidates, ambiguous FROM matches
+		`SELECT catalog, counterpart_id, sep_arcsec, match_prob, candidates, ambiguous FROM matches
 		 WHERE run_id = ? AND star_id = ? ORDER BY catalog`, runID, starID)
 	if err != nil {
 		return nil, fmt.Errorf("ledger %s run %d: star %q matches: %w", l.path, runID, starID, err)
@@ -202,7 +202,7 @@ func (l *Ledger) matchesOf(ctx context.Context, runID int64, starID string) ([]M
 		if err := rows.Scan(&m.Catalog, &src, &sep, &p, &m.Candidates, &amb); err != nil {
 			return nil, fmt.Errorf("ledger %s run %d: star %q matches: %w", l.path, runID, starID, err)
 		}
-		m.SourceID, m.SepArcsec, m.MatchProb, m.Ambiguous = sv(src), fv(sep), fv(p), amb == 1
+		m.CounterpartID, m.SepArcsec, m.MatchProb, m.Ambiguous = sv(src), fv(sep), fv(p), amb == 1
 		out = append(out, m)
 	}
 	return out, rows.Err()

@@ -39,7 +39,7 @@ func record(id string, i int, salt float64, status string) StarRecord {
 	return StarRecord{
 		StarID:  id,
 		Inputs:  &in,
-		Matches: []MatchRow{{Catalog: "spec-alpha", SourceID: "s" + id, SepArcsec: 0.12, MatchProb: 0.97, Candidates: 1}},
+		Matches: []MatchRow{{Catalog: "spec-alpha", CounterpartID: "s" + id, SepArcsec: 0.12, MatchProb: 0.97, Candidates: 1}},
 		Verdict: VerdictRow{Status: status, Quality: "pass", DistanceMethod: "parallax", SpeedP16Kms: 400,
 			SpeedP50Kms: 500 + float64(i%7), SpeedP84Kms: 600, SpeedLowerP50Kms: math.NaN(), RGCKpc: 9, VEscKms: 550,
 			PUnbound: 0.3, PUnboundLower: math.NaN(), PGCOrigin: math.NaN(), GCConsistency: math.NaN(),
@@ -59,7 +59,7 @@ func writeRun(t testing.TB, l *Ledger, recs []StarRecord) int64 {
 	if err != nil {
 		t.Fatalf("begin run: %v", err)
 	}
-	if err := w.AddCatalog(ctx, CatalogRow{Name: "astro-main", Release: "r1", File: "a.csv", RowsRead: int64(len(recs)), RowsKept: int64(len(recs)), Epoch: 2016, Role: "astrometry"}); err != nil {
+	if err := w.AddCatalog(ctx, CatalogRow{Name: "astro-main", Release: "r1", File: "a.csv", RowsRead: int64(len(recs)), RowsKept: int64(len(recs)), Epoch: 2019.5, Role: "astrometry"}); err != nil {
 		t.Fatalf("add catalog: %v", err)
 	}
 	if err := w.AddStars(ctx, recs); err != nil {

@@ -241,7 +241,7 @@ func TestRoundTripAndAudit(t *testing.T) {
 		if !math.IsNaN(c.Reasons[1].Value) && c.Reasons[1].Value != 500 {
 			t.Errorf("info reason value = %v", c.Reasons[1].Value)
 		}
-		if len(c.Matches) != 1 || c.Matches[0].SourceID != "sA-1" || c.Matches[0].SepArcsec != 0.12 {
+		if len(c.Matches) != 1 || c.Matches[0].CounterpartID != "sA-1" || c.Matches[0].SepArcsec != 0.12 {
 			t.Errorf("matches = %+v", c.Matches)
 		}
 		if v := c.Verdict; v.SpeedP50Kms != 500 || !math.IsNaN(v.PUnboundLower) || v.ModelName != "test-model" {
@@ -370,7 +370,7 @@ func TestHostileIDs(t *testing.T) {
 			if err != nil {
 				t.Fatal(err)
 			}
-			if h.StarID != id || len(h.Runs) != 2 || h.CurrentStatus != "accepted" || h.Computations[0].Matches[0].SourceID != "s"+id {
+			if h.StarID != id || len(h.Runs) != 2 || h.CurrentStatus != "accepted" || h.Computations[0].Matches[0].CounterpartID != "s"+id {
 				t.Errorf("history %+v", h)
 			}
 			var got []string

@@ -211,3 +211,78 @@ func TestMigrateFromSchema2(t *testing.T) {
 		t.Error("run 2 changed after a further run")
 	}
 }
+
+// A schema-6 ledger with rows upgrades in place to the column names of
+// migration 7: matches.source_id becomes counterpart_id and
+// inputs.visibility_periods becomes fit_visits, every value kept, and the
+// audit reads see them under the new names.
+func TestMigrateFromSchema6Names(t *testing.T) {
+	ctx := context.Background()
+	p := tempLedger(t)
+	sdb, err := sql.Open("sqlite3", p)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, m := range loadMigrations()[:6] {
+		if _, err := sdb.Exec(m.sql); err != nil {
+			t.Fatalf("%s: %v", m.name, err)
+		}
+	}
+	for _, q := range []string{
+		`INSERT INTO runs (id, started_at, finished_at, state, tool_version, seed, "full", stars_total, stars_computed, stars_carried, counts_json)
+			VALUES (1, '2026-01-01T00:00:00Z', '2026-01-01T00:01:00Z', 'complete', 'old', 7, 1, 2, 2, 0, '{"bound":1,"rejected":1}')`,
+		`INSERT INTO computed_verdicts (star_id, computed_in_run, status, quality, input_hash, has_rv) VALUES ('a-1', 1, 'bound', 'pass', 'h1', 1)`,
+		`INSERT INTO computed_verdicts (star_id, computed_in_run, status, quality, input_hash, has_rv) VALUES ('a-2', 1, 'rejected', 'reject', 'h2', 0)`,
+		`INSERT INTO inputs (run_id, star_id, input_hash, ra, dec, visibility_periods) VALUES (1, 'a-1', 'h1', 10.5, -3.25, 14)`,
+		`INSERT INTO inputs (run_id, star_id, input_hash, ra, dec, visibility_periods) VALUES (1, 'a-2', 'h2', 11.5, -4.25, 6)`,
+		`INSERT INTO matches (run_id, star_id, catalog, source_id, sep_arcsec, match_prob, candidates, ambiguous) VALUES (1, 'a-1', 'spec-alpha', 'sp-0042', 0.12, 0.97, 1, 0)`,
+		"PRAGMA user_version = 6",
+	} {
+		if _, err := sdb.Exec(q); err != nil {
+			t.Fatalf("%s: %v", q, err)
+		}
+	}
+	sdb.Close()
+
+	l := openT(t, p, Options{})
+	var v int
+	if err := l.db.QueryRow("PRAGMA user_version").Scan(&v); err != nil || v != SchemaVersion() || v < 7 {
+		t.Fatalf("user_version %d, %v", v, err)
+	}
+	var visits []float64
+	rows, err := l.db.Query("SELECT fit_visits FROM inputs WHERE run_id = 1 ORDER BY star_id")
+	if err != nil {
+		t.Fatal(err)
+	}
+	for rows.Next() {
+		var f float64
+		if err := rows.Scan(&f); err != nil {
+			t.Fatal(err)
+		}
+		visits = append(visits, f)
+	}
+	rows.Close()
+	if fmt.Sprint(visits) != "[14 6]" {
+		t.Errorf("fit_visits after the upgrade: %v, want [14 6]", visits)
+	}
+	for _, tc := range []struct{ table, gone string }{{"matches", "source_id"}, {"inputs", "visibility_periods"}} {
+		var ddl string
+		if err := l.db.QueryRow("SELECT sql FROM sqlite_schema WHERE name = ?", tc.table).Scan(&ddl); err != nil {
+			t.Fatal(err)
+		}
+		if strings.Contains(ddl, tc.gone) {
+			t.Errorf("%s still has the column %s: %s", tc.table, tc.gone, ddl)
+		}
+	}
+	ms, err := l.matchesOf(ctx, 1, "a-1")
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(ms) != 1 || ms[0].CounterpartID != "sp-0042" || ms[0].SepArcsec != 0.12 || ms[0].MatchProb != 0.97 {
+		t.Errorf("matches after the upgrade: %+v", ms)
+	}
+	var ok string
+	if err := l.db.QueryRow("PRAGMA integrity_check").Scan(&ok); err != nil || ok != "ok" {
+		t.Errorf("integrity_check: %q, %v", ok, err)
+	}
+}

@@ -109,12 +109,12 @@ type InputRow struct {
 
 // MatchRow is the best counterpart of a star in one secondary catalog.
 type MatchRow struct {
-	Catalog    string
-	SourceID   string
-	SepArcsec  float64
-	MatchProb  float64
-	Candidates int
-	Ambiguous  bool
+	Catalog       string
+	CounterpartID string
+	SepArcsec     float64
+	MatchProb     float64
+	Candidates    int
+	Ambiguous     bool
 }
 
 // ReasonRow is one rule or kinematic outcome behind a verdict.

@@ -120,7 +120,7 @@ func (w *RunWriter) AddQuarantine(ctx context.Context, rows []QuarantineRow) err
 
 const inputCols = "ra, dec, ra_err, dec_err, parallax, parallax_err, pm_ra, pm_ra_err, pm_dec, pm_dec_err, " +
 	"corr_ra_dec, corr_parallax_pm_ra, corr_parallax_pm_dec, corr_pm_ra_pm_dec, rv, rv_err, " +
-	"distance, distance_err, fit_residual, excess_noise, excess_noise_sig, visibility_periods, " +
+	"distance, distance_err, fit_residual, excess_noise, excess_noise_sig, fit_visits, " +
 	"duplicate_flag, mag, color, snr, distance_modulus, distance_modulus_err"
 
 const verdictSummaryCols = "speed_p16_kms, speed_p50_kms, speed_p84_kms, speed_lower_p50_kms, r_gc_kpc, v_esc_kms, " +
@@ -213,7 +213,7 @@ func (w *RunWriter) AddStars(ctx context.Context, batch []StarRecord) error {
 // inside AddStars's transaction.
 func (w *RunWriter) writeStars(c *sqlite3.SQLiteConn, batch []StarRecord) error {
 	inputs := newBulk(c, "inputs", "INSERT INTO inputs (run_id, star_id, input_hash, "+inputCols+", dup_count) VALUES", 3+NumInputs+1, "")
-	matches := newBulk(c, "matches", "INSERT INTO matches (run_id, star_id, catalog, source_id, sep_arcsec, match_prob, candidates, ambiguous) VALUES", 8, "")
+	matches := newBulk(c, "matches", "INSERT INTO matches (run_id, star_id, catalog, counterpart_id, sep_arcsec, match_prob, candidates, ambiguous) VALUES", 8, "")
 	verdicts := newBulk(c, "verdicts", "INSERT INTO computed_verdicts ("+computedCols+") VALUES", 20, "")
 	reasons := newBulk(c, "reasons", "INSERT INTO reasons (run_id, star_id, seq, rule_id, outcome, severity, value, threshold, message) VALUES", 9, "")
 	crossings := newBulk(c, "crossings", "INSERT INTO crossings (run_id, star_id, x_kpc, y_kpc, t_myr) VALUES", 5, "")
@@ -243,7 +243,7 @@ func (w *RunWriter) writeStars(c *sqlite3.SQLiteConn, batch []StarRecord) error 
 			}
 		}
 		for _, m := range r.Matches {
-			if err := matches.add(sid, id, sid, m.Catalog, dvs(m.SourceID), dvf(m.SepArcsec), dvf(m.MatchProb),
+			if err := matches.add(sid, id, sid, m.Catalog, dvs(m.CounterpartID), dvf(m.SepArcsec), dvf(m.MatchProb),
 				int64(m.Candidates), b2i(m.Ambiguous)); err != nil {
 				return err
 			}

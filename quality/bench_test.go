@@ -32,7 +32,7 @@ func benchStars(n int, seed uint64) []Star {
 		v[catalog.ParallaxErr] = 0.02 + rng.Float64()*0.3
 		v[catalog.FitResidual] = 0.8 + rng.ExpFloat64()*0.2
 		v[catalog.ExcessNoiseSig] = rng.ExpFloat64()
-		v[catalog.VisibilityPeriods] = float64(5 + rng.IntN(20))
+		v[catalog.FitVisits] = float64(5 + rng.IntN(20))
 		v[catalog.DuplicateFlag] = 0
 		if rng.IntN(50) == 0 {
 			v[catalog.DuplicateFlag] = 1

@@ -4,6 +4,7 @@ import (
 	"context"
 	"math"
 	"runtime"
+	"starvet/internal/numfmt"
 	"strconv"
 	"sync"
 	"sync/atomic"
@@ -128,7 +129,7 @@ func NewEvaluator(rs *rules.RuleSet, ctx Context) *Evaluator {
 			t.pass = "true: " + r.Expr.Source
 			t.exprFalse = "false: " + r.Expr.Source
 		case r.Check == rules.ParallaxSignificance:
-			t.pass = "parallax_over_error" + op + t.limit
+			t.pass = "parallax_significance" + op + t.limit
 		case r.Check == rules.MatchQuality:
 			t.pass = "every counterpart tested: " + e.thresholds[i]
 		case r.Check == rules.RequiredFields:
@@ -326,7 +327,7 @@ func (e *Evaluator) eval(r *rules.Rule, t *ruleTexts, s *Star, o *Outcome, a *As
 		case !(pe > 0):
 			return ResultSkipped, "skipped: parallax_err is not positive"
 		}
-		return compare(a, o, "parallax_over_error", (p-e.ctx.ParallaxZeroPointMas)/pe, r, t)
+		return compare(a, o, "parallax_significance", (p-e.ctx.ParallaxZeroPointMas)/pe, r, t)
 	case rules.Duplicate:
 		return duplicate(s, o, a)
 	case rules.MatchQuality:
@@ -371,7 +372,7 @@ func compare(a *Assessment, o *Outcome, name string, v float64, r *rules.Rule, t
 	}
 	a.buf = append(a.buf, name...)
 	a.buf = append(a.buf, ' ')
-	a.buf = appendNum(a.buf, v, r.Limit)
+	a.buf = numfmt.AppendAgainst(a.buf, v, r.Limit)
 	a.buf = append(a.buf, bad...)
 	a.buf = append(a.buf, t.limit...)
 	return ResultFail, ""
@@ -481,11 +482,11 @@ func (e *Evaluator) match(r *rules.Rule, t *ruleTexts, s *Star, o *Outcome, a *A
 			case math.IsNaN(m.Prob):
 				a.buf = append(a.buf, "missing"...)
 			case m.Prob < r.MinProb:
-				a.buf = appendNum(a.buf, m.Prob, r.MinProb)
+				a.buf = numfmt.AppendAgainst(a.buf, m.Prob, r.MinProb)
 				a.buf = append(a.buf, " < "...)
 				a.buf = append(a.buf, t.minProb...)
 			default:
-				a.buf = appendNum(a.buf, m.Prob, r.MinProb)
+				a.buf = numfmt.AppendAgainst(a.buf, m.Prob, r.MinProb)
 			}
 			sep = true
 		}
@@ -498,11 +499,11 @@ func (e *Evaluator) match(r *rules.Rule, t *ruleTexts, s *Star, o *Outcome, a *A
 			case math.IsNaN(m.SepArcsec):
 				a.buf = append(a.buf, "missing"...)
 			case m.SepArcsec > r.MaxSepArcsec:
-				a.buf = appendNum(a.buf, m.SepArcsec, r.MaxSepArcsec)
+				a.buf = numfmt.AppendAgainst(a.buf, m.SepArcsec, r.MaxSepArcsec)
 				a.buf = append(a.buf, " > "...)
 				a.buf = append(a.buf, t.maxSep...)
 			default:
-				a.buf = appendNum(a.buf, m.SepArcsec, r.MaxSepArcsec)
+				a.buf = numfmt.AppendAgainst(a.buf, m.SepArcsec, r.MaxSepArcsec)
 			}
 			a.buf = append(a.buf, " arcsec"...)
 			sep = true
@@ -577,7 +578,7 @@ func matchOf(s *Star, ci int) MatchInfo {
 
 func (e *Evaluator) derived(v rules.Var, s *Star) float64 {
 	switch v.Kind {
-	case rules.VarParallaxOverError:
+	case rules.VarParallaxSignificance:
 		pe := s.Values[catalog.ParallaxErr]
 		if !(pe > 0) {
 			return math.NaN()
@@ -611,34 +612,4 @@ func fmtNum(x float64) string {
 		return ""
 	}
 	return strconv.FormatFloat(x, 'g', -1, 64)
-}
-
-// appendNum writes v rounded to 4 decimals (trailing zeros dropped), which
-// is cheap; it falls back to the shortest exact form when v is tiny, huge,
-// or would print the same as a different limit, so a message never reads
-// "1.4 > 1.4".
-func appendNum(b []byte, v, limit float64) []byte {
-	av := math.Abs(v)
-	if !(av >= 0.01 && av < 1e9) && v != 0 {
-		return strconv.AppendFloat(b, v, 'g', -1, 64)
-	}
-	u := uint64(av*1e4 + 0.5)
-	if v != limit && !math.IsNaN(limit) && u == uint64(math.Abs(limit)*1e4+0.5) && (v < 0) == (limit < 0) {
-		return strconv.AppendFloat(b, v, 'g', -1, 64)
-	}
-	if v < 0 {
-		b = append(b, '-')
-	}
-	b = strconv.AppendUint(b, u/10000, 10)
-	frac := u % 10000
-	if frac == 0 {
-		return b
-	}
-	b = append(b, '.')
-	digits := [4]byte{byte('0' + frac/1000), byte('0' + frac/100%10), byte('0' + frac/10%10), byte('0' + frac%10)}
-	n := 4
-	for digits[n-1] == '0' {
-		n--
-	}
-	return append(b, digits[:n]...)
 }

@@ -61,7 +61,7 @@ func TestThresholds(t *testing.T) {
 	checks := []tc{
 		{`check = "fit_residual"`, catalog.FitResidual, 1.4, true},
 		{`check = "excess_noise_significance"`, catalog.ExcessNoiseSig, 2, true},
-		{`check = "visibility_periods"`, catalog.VisibilityPeriods, 8, false},
+		{`check = "fit_visits"`, catalog.FitVisits, 8, false},
 		{`check = "rv_precision"`, catalog.RVErr, 20, true},
 		{`check = "spectrum_snr"`, catalog.SNR, 10, false},
 		{"check = \"at_least\"\nfield = \"mag\"", catalog.Mag, 11.5, false},
@@ -124,10 +124,10 @@ func TestParallaxSignificance(t *testing.T) {
 		value  float64
 		msg    string
 	}{
-		{"at", zp, 0.5625, 0.125, ResultPass, 5, "parallax_over_error >= 5"},
+		{"at", zp, 0.5625, 0.125, ResultPass, 5, "parallax_significance >= 5"},
 		{"inside", zp, above(0.5625), 0.125, ResultPass, nan, ""},
 		{"outside", zp, below(0.5625), 0.125, ResultFail, nan, ""},
-		{"zero point subtracted", Context{}, 0.5625, 0.125, ResultFail, 4.5, "parallax_over_error 4.5 < 5"},
+		{"zero point subtracted", Context{}, 0.5625, 0.125, ResultFail, 4.5, "parallax_significance 4.5 < 5"},
 		{"parallax missing", zp, nan, 0.125, ResultSkipped, nan, "skipped: parallax missing"},
 		{"error missing", zp, 0.5, nan, ResultSkipped, nan, "skipped: parallax_err missing"},
 		{"error zero", zp, 0.5, 0, ResultSkipped, nan, "skipped: parallax_err is not positive"},
@@ -291,7 +291,7 @@ expr = "!spec_matched || (spec_match_prob > 0.5 && !spec_ambiguous && spec_candi
 [[rule]]
 id = "w"
 severity = "flag"
-expr = "parallax_over_error > 10"
+expr = "parallax_significance > 10"
 when = "is_missing(distance) && dup_count == 0"
 
 [[rule]]
@@ -423,30 +423,6 @@ func TestMessagesSurviveReuse(t *testing.T) {
 	e.Assess(&s2, &a)
 	if first != "fit_residual 2 > 1.4" || a.Outcomes[0].Message != "fit_residual <= 1.4" || a.Outcomes[0].Value != 1 {
 		t.Errorf("messages %q then %q", first, a.Outcomes[0].Message)
-	}
-}
-
-func TestAppendNum(t *testing.T) {
-	cases := []struct {
-		v, limit float64
-		want     string
-	}{
-		{2.31, 1.4, "2.31"},
-		{1.23456789, 1.4, "1.2346"}, // rounded to 4 decimals
-		{1.4000001, 1.4, "1.4000001"},
-		{1.39999999, 1.4, "1.39999999"},
-		{-0.25, 0, "-0.25"},
-		{0, 1, "0"},
-		{0.00012, 1, "0.00012"},
-		{1e12, 1, "1e+12"},
-		{20, 20, "20"},
-	}
-	for _, c := range cases {
-		t.Run(c.want, func(t *testing.T) {
-			if got := string(appendNum(nil, c.v, c.limit)); got != c.want {
-				t.Errorf("appendNum(%v, %v) = %q, want %q", c.v, c.limit, got, c.want)
-			}
-		})
 	}
 }
 

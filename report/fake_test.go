@@ -143,7 +143,7 @@ func fixture(model string) *fakeSource {
 			{ID: 3, State: "failed", StartedAt: t0.Add(2 * time.Hour), ToolVersion: "test"},
 		},
 		catalogs: map[int64][]db.CatalogRow{2: {
-			{Name: "qelvar", Release: "Q3", File: "/data/qelvar_q3.csv", RowsRead: 20, RowsKept: 18, RowsQuarantined: 2, Epoch: 2016, Role: "astrometry"},
+			{Name: "qelvar", Release: "Q3", File: "/data/qelvar_q3.csv", RowsRead: 20, RowsKept: 18, RowsQuarantined: 2, Epoch: 2019.5, Role: "astrometry"},
 			{Name: "ostrun", Release: "O1", File: "/data/ostrun.csv", RowsRead: 9, RowsKept: 9, Epoch: 2011.5, Role: "spectroscopy"},
 		}},
 		reasons:   map[string][]db.ReasonRow{},
@@ -184,9 +184,9 @@ func fixture(model string) *fakeSource {
 	// Reasons of the rejected stars (run 2 computed them), plus a carried
 	// star's at run 1; info rows and repeated failures must not count twice.
 	fail := func(rule, msg string) db.ReasonRow { return db.ReasonRow{RuleID: rule, Outcome: "fail", Message: msg} }
-	f.reasons["2/R1"] = []db.ReasonRow{fail("plx-signif", "parallax_over_error 2.1 < 5"), fail("noise", "excess 3 > 2")}
-	f.reasons["2/R2"] = []db.ReasonRow{fail("plx-signif", "parallax_over_error 1.0 < 5"), fail("plx-signif", "again")}
-	f.reasons["2/R3"] = []db.ReasonRow{fail("plx-signif", "parallax_over_error 3.3 < 5"), {RuleID: "snr", Outcome: "skipped"}}
+	f.reasons["2/R1"] = []db.ReasonRow{fail("plx-signif", "parallax_significance 2.1 < 5"), fail("noise", "excess 3 > 2")}
+	f.reasons["2/R2"] = []db.ReasonRow{fail("plx-signif", "parallax_significance 1.0 < 5"), fail("plx-signif", "again")}
+	f.reasons["2/R3"] = []db.ReasonRow{fail("plx-signif", "parallax_significance 3.3 < 5"), {RuleID: "snr", Outcome: "skipped"}}
 	f.reasons["2/R4"] = []db.ReasonRow{fail("noise", "excess 4 > 2"), {RuleID: "kinematics.distance", Outcome: "info"}}
 	// R5 has no stored reasons.
 	f.reasons["2/U1"] = []db.ReasonRow{{RuleID: "kinematics.p-unbound", Outcome: "info"}}

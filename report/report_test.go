@@ -200,13 +200,13 @@ func TestPageContent(t *testing.T) {
 	for _, want := range []string{
 		// U1: speed 1000 (900-1100), r 50.0, v_esc 380, p 0.990, origin, gc 0.800, 55.0 Myr, inverse
 		`<td class="n">1000</td><td class="n">900–1100</td><td class="n">50.0</td><td class="n">380</td><td class="n">0.990</td><td class="n">–</td><td>galactic-centre</td><td class="n">0.800</td><td class="n">55.0</td><td>inverse</td>`,
-		`<td>plx-signif</td><td class="n">3</td><td>R1: parallax_over_error 2.1 &lt; 5</td>`,
+		`<td>plx-signif</td><td class="n">3</td><td>R1: parallax_significance 2.1 &lt; 5</td>`,
 		`<td>noise</td><td class="n">2</td><td>R1: excess 3 &gt; 2</td>`,
 		`1 rejected star(s) have no stored reasons`,
 		`<td>unbound</td><td><span class="sw" style="background: #D55E00"></span>vermillion triangle</td><td class="n">3</td>`,
 		`<td>withdrawn</td>`,
 		`<td class="n">17</td>`,
-		`<td>qelvar</td><td>Q3</td><td>astrometry</td><td class="n">2016.0</td><td>qelvar_q3.csv</td><td class="n">20</td><td class="n">18</td><td class="n">2</td>`,
+		`<td>qelvar</td><td>Q3</td><td>astrometry</td><td class="n">2019.5</td><td>qelvar_q3.csv</td><td class="n">20</td><td class="n">18</td><td class="n">2</td>`,
 		`not a discovery`,
 		`2026-11-30 11:00:00 UTC`,
 		potential.DefaultModel,

@@ -12,12 +12,12 @@ const (
 	ParallaxSignificance Check = "parallax_significance" // (parallax - zero point)/parallax_err >= limit
 	FitResidual          Check = "fit_residual"          // fit_residual <= limit
 	ExcessNoiseSig       Check = "excess_noise_significance"
-	VisibilityPeriods    Check = "visibility_periods" // visibility_periods >= limit
-	Duplicate            Check = "duplicate"          // duplicate_flag != 1 and dup_count == 0
-	MatchQuality         Check = "match"              // per secondary catalog
-	RVPrecision          Check = "rv_precision"       // rv_err <= limit (km/s)
-	SpectrumSNR          Check = "spectrum_snr"       // snr >= limit
-	RequiredFields       Check = "required_fields"    // every listed field present
+	FitVisits            Check = "fit_visits"      // fit_visits >= limit
+	Duplicate            Check = "duplicate"       // duplicate_flag != 1 and dup_count == 0
+	MatchQuality         Check = "match"           // per secondary catalog
+	RVPrecision          Check = "rv_precision"    // rv_err <= limit (km/s)
+	SpectrumSNR          Check = "spectrum_snr"    // snr >= limit
+	RequiredFields       Check = "required_fields" // every listed field present
 )
 
 // Direction says which side of Limit passes.
@@ -76,7 +76,7 @@ var checkSpecs = map[Check]checkSpec{
 	ParallaxSignificance: {Min, catalog.Parallax, []paramSpec{limitParam}, "(parallax - zero point)/parallax_err >= limit"},
 	FitResidual:          {Max, catalog.FitResidual, []paramSpec{limitParam}, "fit_residual <= limit"},
 	ExcessNoiseSig:       {Max, catalog.ExcessNoiseSig, []paramSpec{limitParam}, "excess_noise_sig <= limit"},
-	VisibilityPeriods:    {Min, catalog.VisibilityPeriods, []paramSpec{limitParam}, "visibility_periods >= limit"},
+	FitVisits:            {Min, catalog.FitVisits, []paramSpec{limitParam}, "fit_visits >= limit"},
 	Duplicate:            {NoLimit, catalog.DuplicateFlag, nil, "duplicate_flag is not 1 and the self-match found no duplicate"},
 	MatchQuality: {NoLimit, -1, []paramSpec{
 		{"catalog", kindCatalog, true},

@@ -26,7 +26,7 @@
 //	parallax_significance      limit             (parallax - zero point)/parallax_err >= limit
 //	fit_residual               limit             fit_residual <= limit
 //	excess_noise_significance  limit             excess_noise_sig <= limit
-//	visibility_periods         limit             visibility_periods >= limit
+//	fit_visits         limit             fit_visits >= limit
 //	duplicate                  (none)            duplicate_flag != 1 and dup_count == 0
 //	match                      catalog, min_prob, max_sep_arcsec, allow_ambiguous
 //	rv_precision               limit             rv_err <= limit (km/s)
@@ -40,7 +40,7 @@
 //
 // Expressions use github.com/expr-lang/expr, type-checked against this
 // environment: every canonical field name (float64, NaN when missing),
-// parallax_over_error (zero-point corrected), pm_total (mas/yr), dup_count,
+// parallax_significance (zero-point corrected), pm_total (mas/yr), dup_count,
 // and for each secondary catalog C (its name with characters other than
 // letters, digits and "_" turned into "_"): C_match_prob, C_sep_arcsec,
 // C_candidates (float64), C_ambiguous, C_matched (bool); plus

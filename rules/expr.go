@@ -5,6 +5,7 @@ import (
 	"math"
 	"regexp"
 	"sort"
+	"starvet/internal/retired"
 
 	"github.com/expr-lang/expr"
 	"github.com/expr-lang/expr/ast"
@@ -19,15 +20,15 @@ import (
 type VarKind int
 
 const (
-	VarField             VarKind = iota // a canonical field, float64, NaN when missing
-	VarParallaxOverError                // (parallax - zero point)/parallax_err, float64
-	VarPMTotal                          // hypot(pm_ra, pm_dec), mas/yr, float64
-	VarDupCount                         // duplicates found by the self-match, float64
-	VarMatchProb                        // <catalog>_match_prob, float64, NaN when unmatched
-	VarSepArcsec                        // <catalog>_sep_arcsec, float64, NaN when unmatched
-	VarCandidates                       // <catalog>_candidates, float64
-	VarAmbiguous                        // <catalog>_ambiguous, bool
-	VarMatched                          // <catalog>_matched, bool
+	VarField                VarKind = iota // a canonical field, float64, NaN when missing
+	VarParallaxSignificance                // (parallax - zero point)/parallax_err, float64
+	VarPMTotal                             // hypot(pm_ra, pm_dec), mas/yr, float64
+	VarDupCount                            // duplicates found by the self-match, float64
+	VarMatchProb                           // <catalog>_match_prob, float64, NaN when unmatched
+	VarSepArcsec                           // <catalog>_sep_arcsec, float64, NaN when unmatched
+	VarCandidates                          // <catalog>_candidates, float64
+	VarAmbiguous                           // <catalog>_ambiguous, bool
+	VarMatched                             // <catalog>_matched, bool
 )
 
 // Var is one variable an expression reads.
@@ -151,7 +152,7 @@ func newExprEnv(catalogs []string) *exprEnv {
 			add(Var{Name: catalog.Fields[f].Name, Kind: VarField, Field: f})
 		}
 	}
-	add(Var{Name: "parallax_over_error", Kind: VarParallaxOverError})
+	add(Var{Name: "parallax_significance", Kind: VarParallaxSignificance})
 	add(Var{Name: "pm_total", Kind: VarPMTotal})
 	add(Var{Name: "dup_count", Kind: VarDupCount})
 	for i, c := range catalogs {
@@ -227,5 +228,32 @@ func (c *collector) Visit(n *ast.Node) {
 		if id, ok := x.Callee.(*ast.IdentifierNode); ok && id.Value == IsMissingName {
 			c.isMissing = true
 		}
+	}
+}
+
+// retiredName finds the first retired variable name in src and its 1-based
+// column, so that an old rule file's error names the new word.
+func retiredName(src string) (name string, col int, ok bool) {
+	tree, err := parser.Parse(src)
+	if err != nil {
+		return "", 0, false
+	}
+	f := &retiredFinder{}
+	ast.Walk(&tree.Node, f)
+	return f.name, f.col, f.name != ""
+}
+
+type retiredFinder struct {
+	name string
+	col  int
+}
+
+func (f *retiredFinder) Visit(n *ast.Node) {
+	id, isIdent := (*n).(*ast.IdentifierNode)
+	if !isIdent || f.name != "" {
+		return
+	}
+	if _, old := retired.Successor(id.Value); old {
+		f.name, f.col = id.Value, id.Location().From+1
 	}
 }

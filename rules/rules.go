@@ -8,6 +8,7 @@ import (
 	"os"
 	"regexp"
 	"sort"
+	"starvet/internal/retired"
 	"strconv"
 	"strings"
 
@@ -293,7 +294,7 @@ func (l *loader) fieldList(v any, p pos, id, key string) []catalog.Field {
 		}
 		f, ok := fieldByName[s]
 		if !ok {
-			l.add(p, id, ErrUnknownField, "unknown field %q", s)
+			l.add(p, id, ErrUnknownField, "unknown field %q%s", s, retired.Hint(s))
 			continue
 		}
 		if !seen[f] {
@@ -358,7 +359,7 @@ func (l *loader) rule(t map[string]any, rp rulePos) (r *Rule, ok bool) {
 		var ok bool
 		spec, ok = checkSpecs[Check(check)]
 		if !ok {
-			l.add(keyPos(rp, "check"), r.ID, ErrUnknownCheck, "unknown check %q (want one of %s)", check, checkNames())
+			l.add(keyPos(rp, "check"), r.ID, ErrUnknownCheck, "unknown check %q%s (want one of %s)", check, retired.Hint(check), checkNames())
 		} else {
 			r.Check = Check(check)
 			r.Dir = spec.dir
@@ -442,7 +443,7 @@ func (l *loader) rule(t map[string]any, rp rulePos) (r *Rule, ok bool) {
 			}
 			f, ok := fieldByName[s]
 			if !ok {
-				l.add(kp, r.ID, ErrUnknownField, "unknown field %q", s)
+				l.add(kp, r.ID, ErrUnknownField, "unknown field %q%s", s, retired.Hint(s))
 				continue
 			}
 			r.Field = f
@@ -464,7 +465,7 @@ func (l *loader) rule(t map[string]any, rp rulePos) (r *Rule, ok bool) {
 				}
 				f, ok := fieldByName[s]
 				if !ok {
-					l.add(kp, r.ID, ErrUnknownField, "unknown field %q", s)
+					l.add(kp, r.ID, ErrUnknownField, "unknown field %q%s", s, retired.Hint(s))
 					continue
 				}
 				if !seen[f] {
@@ -533,7 +534,9 @@ func (l *loader) compile(src, key string, rp rulePos, id string) *Expr {
 	}
 	p := keyPos(rp, key)
 	msg := err.Error()
-	if fe != nil {
+	if old, col, ok := retiredName(src); ok {
+		msg = fmt.Sprintf("%s: unknown name %s%s (at column %d of the expression)", key, old, retired.Hint(old), col)
+	} else if fe != nil {
 		msg = fmt.Sprintf("%s: %s (at column %d of the expression)", key, fe.Message, fe.Column+1)
 	} else {
 		msg = key + ": " + msg

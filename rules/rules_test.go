@@ -14,8 +14,8 @@ func TestDefaultLoads(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	wantIDs := []string{"duplicate-source", "excess-noise", "fit-residual", "match-quality",
-		"parallax-significance", "required-fields", "rv-precision", "spectrum-snr", "visibility-periods"}
+	wantIDs := []string{"duplicate-source", "excess-noise", "fit-residual", "fit-visits", "match-quality",
+		"parallax-significance", "required-fields", "rv-precision", "spectrum-snr"}
 	if len(rs.Rules) != len(wantIDs) {
 		t.Fatalf("got %d rules, want %d", len(rs.Rules), len(wantIDs))
 	}
@@ -46,7 +46,7 @@ func TestDefaultLoads(t *testing.T) {
 		{"fit-residual", 1.4, Max},        // Lindegren et al. 2018, technical note LL-124
 		{"parallax-significance", 5, Min}, // common practice
 		{"excess-noise", 2, Max},          // from memory
-		{"visibility-periods", 8, Min},    // from memory
+		{"fit-visits", 8, Min},            // from memory
 		{"rv-precision", 20, Max},         // project choice
 		{"spectrum-snr", 10, Min},         // common practice
 	}
@@ -117,6 +117,9 @@ func TestLoadErrors(t *testing.T) {
 		{"bad id", head + "[[rule]]\nid = \"Fit_Residual\"\nseverity = \"flag\"\ncheck = \"duplicate\"\n", 4, 1, "Fit_Residual", ErrBadID, "lower-case"},
 		{"expr does not compile", head + "[[rule]]\nid = \"a\"\nseverity = \"flag\"\nexpr = \"pm_total > \"\n", 6, 1, "a", ErrExpr, "expr:"},
 		{"expr unknown name", head + "[[rule]]\nid = \"a\"\nseverity = \"flag\"\nexpr = \"pmtotal > 3\"\n", 6, 1, "a", ErrExpr, "pmtotal"},
+		{"retired check name", head + "[[rule]]\nid = \"a\"\nseverity = \"flag\"\ncheck = \"visibility_periods\"\nlimit = 8\n", 6, 1, "a", ErrUnknownCheck, "visibility_periods was renamed fit_visits"},
+		{"retired field name", head + "[[rule]]\nid = \"a\"\nseverity = \"flag\"\ncheck = \"at_least\"\nfield = \"visibility_periods\"\nlimit = 8\n", 7, 1, "a", ErrUnknownField, "visibility_periods was renamed fit_visits"},
+		{"retired expr name", head + "[[rule]]\nid = \"a\"\nseverity = \"flag\"\nexpr = \"pm_total > 3 && parallax_over_error > 5\"\n", 6, 1, "a", ErrExpr, "parallax_over_error was renamed parallax_significance (at column 17 of the expression)"},
 		{"expr not boolean", head + "[[rule]]\nid = \"a\"\nseverity = \"flag\"\nexpr = \"pm_total + 1\"\n", 6, 1, "a", ErrExpr, "bool"},
 		{"when not boolean", head + "[[rule]]\nid = \"a\"\nseverity = \"flag\"\ncheck = \"duplicate\"\nwhen = \"mag\"\n", 7, 1, "a", ErrExpr, "when:"},
 		{"expr on bool var with float op", head + "[[rule]]\nid = \"a\"\nseverity = \"flag\"\nexpr = \"spec_matched > 1\"\n", 6, 1, "a", ErrExpr, "expr:"},

@@ -20,7 +20,7 @@ const (
 
 // Epochs of the three catalogs, Julian years.
 const (
-	AstrometryEpochJyr   = 2016.0
+	AstrometryEpochJyr   = 2019.5
 	SpectroscopyEpochJyr = 2011.5
 	PhotometryEpochJyr   = 2000.0
 )

@@ -12,7 +12,7 @@
 // realistically shaped error model, and writes into dir:
 //
 //   - pelmarra_rN.csv.gz: the primary astrometric catalog (ids "PL-0000001"),
-//     ICRS positions at epoch 2016.0 (deg), errors and parallax in mas,
+//     ICRS positions at epoch 2019.5 (deg), errors and parallax in mas,
 //     proper motions in mas/yr (pm_ra = mu_alpha*), fit-quality columns and
 //     mag. Headers src, plx, plx_err differ from the canonical names.
 //   - vossbeck_rN.csv: spectroscopy over dec > -20 deg and |b| > 10 deg at

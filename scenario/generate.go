@@ -52,7 +52,7 @@ type TruthRow struct {
 	// AdequateData: the data allow a verdict. True when, in the current
 	// release, the row is not a trap or a bad row; its fit passes the
 	// default astrometric cuts (fit_residual <= 1.4, excess_noise_sig <= 2,
-	// visibility_periods >= 8, duplicate_flag 0); it has a spectrum with
+	// fit_visits >= 8, duplicate_flag 0); it has a spectrum with
 	// snr >= 10 (so it lies in the spectroscopic footprint); and either
 	// parallax/parallax_err >= 5 or the spectrum gives a distance. Defined
 	// from data quality only, never from a verdict.
@@ -418,7 +418,7 @@ func (s *Scenario) adequate(st *star) bool {
 		return false
 	}
 	a := st.astro
-	if a.fitResidual > 1.4 || a.excessNoiseSig > 2 || a.visibilityPeriods < 8 || a.duplicateFlag != 0 {
+	if a.fitResidual > 1.4 || a.excessNoiseSig > 2 || a.fitVisits < 8 || a.duplicateFlag != 0 {
 		return false
 	}
 	sp := st.spec

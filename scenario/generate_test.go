@@ -421,7 +421,7 @@ func TestTraps(t *testing.T) {
 				sRA, sDec := spec.Cols[catalog.RA][j], spec.Cols[catalog.Dec][j]
 				sep0 := sky.Separation(col(catalog.RA, i)*deg2rad, col(catalog.Dec, i)*deg2rad, sRA*deg2rad, sDec*deg2rad) / deg2rad * 3600
 				if sep0 < 1 {
-					t.Errorf("spectrum only %v arcsec from the 2016 position: matches without propagation", sep0)
+					t.Errorf("spectrum only %v arcsec from the astrometric-epoch position: matches without propagation", sep0)
 				}
 				// Propagated with the project's rigorous propagation (checked
 				// against ERFA in crossmatch/sky) from the catalog values,
@@ -575,7 +575,7 @@ func TestTruthConsistent(t *testing.T) {
 		j, okS := sRow[tr.SpecID]
 		if okA && okS && !tr.Artefact {
 			c := func(f catalog.Field) float64 { return astro.Cols[f][i] }
-			want = c(catalog.FitResidual) <= 1.4 && c(catalog.ExcessNoiseSig) <= 2 && c(catalog.VisibilityPeriods) >= 8 &&
+			want = c(catalog.FitResidual) <= 1.4 && c(catalog.ExcessNoiseSig) <= 2 && c(catalog.FitVisits) >= 8 &&
 				c(catalog.DuplicateFlag) == 0 && spec.Cols[catalog.SNR][j] >= 10 &&
 				(c(catalog.Parallax)/c(catalog.ParallaxErr) >= 5 || !math.IsNaN(spec.Cols[catalog.Distance][j]))
 		}

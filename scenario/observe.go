@@ -17,7 +17,7 @@ type astroRow struct {
 	fitResidual            float64
 	excessNoiseMas         float64
 	excessNoiseSig         float64
-	visibilityPeriods      int
+	fitVisits              int
 	duplicateFlag          int
 	mag                    float64
 }
@@ -124,7 +124,7 @@ func observeAstro(st *star, rng *rand.Rand, errScale float64, clean bool) astroR
 	r.fitResidual = clamp(1+0.04*rng.NormFloat64(), 0.85, 1.3)
 	r.excessNoiseSig = math.Abs(0.6 * rng.NormFloat64())
 	r.excessNoiseMas = 0.03 * r.excessNoiseSig
-	r.visibilityPeriods = 9 + rng.IntN(18)
+	r.fitVisits = 9 + rng.IntN(18)
 	if !clean {
 		// A small share of ordinary stars with poor fits, as any real
 		// catalog has (invented rates).
@@ -136,7 +136,7 @@ func observeAstro(st *star, rng *rand.Rand, errScale float64, clean bool) astroR
 			r.excessNoiseMas = 0.05 + 0.2*rng.Float64()
 		}
 		if rng.Float64() < 0.01 {
-			r.visibilityPeriods = 5 + rng.IntN(3)
+			r.fitVisits = 5 + rng.IntN(3)
 		}
 	}
 	r.mag = src.mag + 0.003*rng.NormFloat64()

@@ -17,7 +17,7 @@ import (
 var (
 	astroHeader = []string{"src", "ra", "dec", "ra_err", "dec_err", "plx", "plx_err", "pm_ra", "pm_ra_err", "pm_dec", "pm_dec_err",
 		"corr_ra_dec", "corr_parallax_pm_ra", "corr_parallax_pm_dec", "corr_pm_ra_pm_dec",
-		"fit_residual", "excess_noise", "excess_noise_sig", "visibility_periods", "duplicate_flag", "mag"}
+		"fit_residual", "excess_noise", "excess_noise_sig", "fit_visits", "duplicate_flag", "mag"}
 	specHeader = []string{"spec_id", "ra", "dec", "ra_err", "dec_err", "vel", "vel_err", "snr", "dist_mod", "dist_mod_err"}
 	photHeader = []string{"phot_id", "ra_h", "decl", "ra_unc", "dec_unc", "m_broad", "c_index"}
 )
@@ -107,7 +107,7 @@ func (s *Scenario) writeAstrometry() error {
 		cells := []string{st.id, ff(a.raDeg, 9), ff(a.decDeg, 9), ff(a.raErrMas, 4), ff(a.decErrMas, 4),
 			ff(a.plxMas, 4), ff(a.plxErrMas, 4), ff(a.pmRA, 4), ff(a.pmRAErr, 4), ff(a.pmDec, 4), ff(a.pmDecErr, 4),
 			ff(a.corrRADec, 3), ff(a.corrPlxPMRA, 3), ff(a.corrPlxPMDec, 3), ff(a.corrPMPM, 3),
-			ff(a.fitResidual, 3), ff(a.excessNoiseMas, 4), ff(a.excessNoiseSig, 3), strconv.Itoa(a.visibilityPeriods),
+			ff(a.fitResidual, 3), ff(a.excessNoiseMas, 4), ff(a.excessNoiseSig, 3), strconv.Itoa(a.fitVisits),
 			strconv.Itoa(a.duplicateFlag), ff(a.mag, 4)}
 		if st.bad != nil {
 			s.applyBad(cells, astroHeader, st.bad, base, cw.line+1, st.id)

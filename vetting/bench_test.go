@@ -28,7 +28,7 @@ import (
 
 const (
 	benchStars        = 1_000_000
-	benchPrimaryEpoch = 2016.0
+	benchPrimaryEpoch = 2019.5
 	benchSecEpoch     = 2011.5
 	benchMatchedFrac  = 0.9  // secondary rows that are counterparts of primary stars
 	benchChangedFrac  = 0.01 // primary stars changed for the incremental run
@@ -181,7 +181,7 @@ func appendF(buf []byte, x float64, prec int) []byte {
 }
 
 func writePrimary(w *bufio.Writer, stars []benchStar) {
-	w.WriteString("id,ra,dec,ra_err,dec_err,parallax,parallax_err,pm_ra,pm_ra_err,pm_dec,pm_dec_err,fit_residual,visibility_periods,mag\n")
+	w.WriteString("id,ra,dec,ra_err,dec_err,parallax,parallax_err,pm_ra,pm_ra_err,pm_dec,pm_dec_err,fit_residual,fit_visits,mag\n")
 	buf := make([]byte, 0, 256)
 	for i := range stars {
 		s := &stars[i]
@@ -428,7 +428,7 @@ func BenchmarkRun1M(b *testing.B) {
 	}
 	samples := []int{1000, 100}
 	bc := writeBenchCampaign(b, samples)
-	b.Logf("primary: %d stars, %.1f%% with parallax_over_error >= 5; %d changed in the second release",
+	b.Logf("primary: %d stars, %.1f%% with parallax_significance >= 5; %d changed in the second release",
 		benchStars, 100*bc.poe5Frac, bc.changedIDs)
 	ctx := context.Background()
 	for _, n := range samples {

@@ -124,7 +124,7 @@ func fillStars(c *Catalogs, m *Matched, lo int, stars []quality.Star, matches []
 			fillGroup(c, m, g, base, chunk, sc)
 		}
 		if done != nil {
-			sc.touchSourceIDs(m, base, len(chunk))
+			sc.touchCounterpartIDs(m, base, len(chunk))
 			done(base, chunk)
 		}
 	}
@@ -191,16 +191,16 @@ func fillGroup(c *Catalogs, m *Matched, g []catalog.Field, base int, chunk []qua
 	}
 }
 
-// touchSourceIDs reads the first byte of every matched counterpart id of
+// touchCounterpartIDs reads the first byte of every matched counterpart id of
 // the chunk: those strings lie in match order across the secondary's
 // memory, and loading them in a tight loop overlaps the cache misses that
 // inputHash would otherwise take one at a time.
-func (sc *mergeScratch) touchSourceIDs(m *Matched, base, n int) {
+func (sc *mergeScratch) touchCounterpartIDs(m *Matched, base, n int) {
 	var x byte
 	for _, r := range m.Results {
 		for _, cp := range r.Matches[base : base+n] {
-			if len(cp.SourceID) > 0 {
-				x ^= cp.SourceID[0]
+			if len(cp.CounterpartID) > 0 {
+				x ^= cp.CounterpartID[0]
 			}
 		}
 	}
@@ -227,7 +227,7 @@ func inputHash(c *Catalogs, m *Matched, i int, s *quality.Star, buf []byte) ([in
 		cp := &m.Results[k].Matches[i]
 		buf = append(buf, t.Name...)
 		buf = append(buf, 0)
-		buf = append(buf, cp.SourceID...)
+		buf = append(buf, cp.CounterpartID...)
 		buf = append(buf, 0)
 		buf = appendFloat(buf, cp.SepArcsec)
 		buf = appendFloat(buf, cp.Prob)

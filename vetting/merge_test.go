@@ -52,7 +52,7 @@ func mergeInput(n, nSec int, seed uint64, ordered bool) (*Catalogs, *Matched) {
 	p := &catalog.Table{Name: "brindle_astro", IDs: ids("ba")}
 	for _, f := range []catalog.Field{catalog.RA, catalog.Dec, catalog.RAErr, catalog.DecErr, catalog.Parallax,
 		catalog.ParallaxErr, catalog.PMRA, catalog.PMRAErr, catalog.PMDec, catalog.PMDecErr, catalog.FitResidual,
-		catalog.VisibilityPeriods, catalog.Mag} {
+		catalog.FitVisits, catalog.Mag} {
 		p.Cols[f] = col(0.02)
 	}
 	// Half the primary's magnitudes are missing, so the photometric group
@@ -84,7 +84,7 @@ func mergeInput(n, nSec int, seed uint64, ordered bool) (*Catalogs, *Matched) {
 				if ordered {
 					j = i
 				}
-				*cp = crossmatch.Counterpart{Secondary: int32(j), SourceID: s.IDs[j], SepArcsec: rng.Float64(),
+				*cp = crossmatch.Counterpart{Secondary: int32(j), CounterpartID: s.IDs[j], SepArcsec: rng.Float64(),
 					Prob: rng.Float64(), BayesFactor: rng.ExpFloat64(), Candidates: int32(1 + rng.IntN(3)), Ambiguous: rng.Float64() < 0.05}
 			}
 		}
@@ -161,7 +161,7 @@ func inputHashRef(c *Catalogs, m *Matched, i int, s *quality.Star) string {
 		cp := &m.Results[k].Matches[i]
 		buf = append(buf, t.Name...)
 		buf = append(buf, 0)
-		buf = append(buf, cp.SourceID...)
+		buf = append(buf, cp.CounterpartID...)
 		buf = append(buf, 0)
 		buf = f64(buf, cp.SepArcsec)
 		buf = f64(buf, cp.Prob)
@@ -257,7 +257,7 @@ func TestInputHashKnownValue(t *testing.T) {
 	s := &catalog.Table{Name: "s", IDs: []string{"x"}}
 	c := &Catalogs{Primary: p, Secondaries: []*catalog.Table{s}}
 	m := &Matched{DupCount: []int32{2}, Results: []*crossmatch.Result{{Matches: []crossmatch.Counterpart{
-		{Secondary: 0, SourceID: "x", SepArcsec: 0.25, Prob: 0.5, Candidates: 1, Ambiguous: true}}}}}
+		{Secondary: 0, CounterpartID: "x", SepArcsec: 0.25, Prob: 0.5, Candidates: 1, Ambiguous: true}}}}}
 	_, hashes, err := mergeAll(context.Background(), c, m, 1)
 	if err != nil {
 		t.Fatal(err)

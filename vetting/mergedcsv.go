@@ -55,7 +55,7 @@ func WriteMerged(path string, cats *Catalogs, m *Matched, as []quality.Assessmen
 				rec = append(rec, "", "", "", cand, "")
 				continue
 			}
-			rec = append(rec, cp.SourceID,
+			rec = append(rec, cp.CounterpartID,
 				strconv.FormatFloat(cp.SepArcsec, 'f', 4, 64),
 				strconv.FormatFloat(cp.Prob, 'g', 6, 64),
 				strconv.Itoa(int(cp.Candidates)),

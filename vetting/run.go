@@ -90,16 +90,16 @@ func Model(c *campaign.Campaign) (*potential.Model, string, error) {
 func KinematicSettings(c *campaign.Campaign) kinematics.Settings {
 	k := c.Kinematics
 	return kinematics.Settings{
-		Distance:             k.Distance,
-		EDSDLengthKpc:        k.EDSDLengthKpc,
-		MinParallaxOverError: k.MinParallaxOverError,
-		ParallaxZeroPointMas: c.ParallaxZeroPointMas,
-		Samples:              k.Samples,
-		Seed:                 uint64(c.Seed),
-		Sun:                  c.Galaxy.Sun(),
-		EscapeRadiusKpc:      c.Potential.EscapeRadiusKpc,
-		KeepSamples:          k.TraceSamples,
-		VelocityPriorKms:     k.VelocityPriorKms,
+		Distance:                k.Distance,
+		EDSDLengthKpc:           k.EDSDLengthKpc,
+		MinParallaxSignificance: k.MinParallaxSignificance,
+		ParallaxZeroPointMas:    c.ParallaxZeroPointMas,
+		Samples:                 k.Samples,
+		Seed:                    uint64(c.Seed),
+		Sun:                     c.Galaxy.Sun(),
+		EscapeRadiusKpc:         c.Potential.EscapeRadiusKpc,
+		KeepSamples:             k.TraceSamples,
+		VelocityPriorKms:        k.VelocityPriorKms,
 	}
 }
 
@@ -501,7 +501,7 @@ func (e *Engine) baseRecord(cats *Catalogs, m *Matched, s *quality.Star, hash st
 		mr := db.MatchRow{Catalog: t.Name, Candidates: int(cp.Candidates), Ambiguous: cp.Ambiguous,
 			SepArcsec: math.NaN(), MatchProb: math.NaN()}
 		if cp.Secondary >= 0 {
-			mr.SourceID, mr.SepArcsec, mr.MatchProb = cp.SourceID, cp.SepArcsec, cp.Prob
+			mr.CounterpartID, mr.SepArcsec, mr.MatchProb = cp.CounterpartID, cp.SepArcsec, cp.Prob
 		}
 		r.Matches = append(r.Matches, mr)
 	}

@@ -34,7 +34,7 @@ func auditLedger(t *testing.T) string {
 		in.Values[14] = rv // rv
 		nan := math.NaN()
 		return db.StarRecord{StarID: id, Inputs: in,
-			Matches: []db.MatchRow{{Catalog: "spec-beta", SourceID: "b-" + id, SepArcsec: 0.21, MatchProb: 0.9, Candidates: 2}},
+			Matches: []db.MatchRow{{Catalog: "spec-beta", CounterpartID: "b-" + id, SepArcsec: 0.21, MatchProb: 0.9, Candidates: 2}},
 			Verdict: db.VerdictRow{Status: status, Quality: "pass", SpeedP16Kms: 410, SpeedP50Kms: 520, SpeedP84Kms: 640,
 				SpeedLowerP50Kms: nan, RGCKpc: 11.5, VEscKms: 540, PUnbound: 0.42, PUnboundLower: nan, PGCOrigin: nan,
 				GCConsistency: nan, FlightTimeMyr: nan, ModelName: "invented-potential"},

@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"io"
 	"math"
+	"starvet/internal/numfmt"
 
 	"starvet/db"
 )
@@ -81,7 +82,7 @@ func writeHistory(w io.Writer, h *db.StarHistory) {
 		if len(c.Reasons) > 0 {
 			fmt.Fprintf(w, "  reasons:\n")
 			for _, r := range c.Reasons {
-				fmt.Fprintf(w, "    %-8s %-24s value %-10s threshold %-12s", r.Outcome, r.RuleID, num(r.Value), orDash(r.Threshold))
+				fmt.Fprintf(w, "    %-8s %-24s value %-10s threshold %-12s", r.Outcome, r.RuleID, numfmt.Value(r.Value), orDash(r.Threshold))
 				if r.Severity != "" {
 					fmt.Fprintf(w, " [%s]", r.Severity)
 				}
@@ -110,8 +111,8 @@ func writeHistory(w io.Writer, h *db.StarHistory) {
 				if m.Ambiguous {
 					amb = " ambiguous"
 				}
-				fmt.Fprintf(w, "    %-16s source %-16s sep %s arcsec, p %s, %d candidates%s\n",
-					m.Catalog, orDash(m.SourceID), num(m.SepArcsec), num(m.MatchProb), m.Candidates, amb)
+				fmt.Fprintf(w, "    %-16s counterpart %-16s sep %s arcsec, p %s, %d candidates%s\n",
+					m.Catalog, orDash(m.CounterpartID), numfmt.Sig(m.SepArcsec, numfmt.SepDigits), numfmt.Sig(m.MatchProb, numfmt.ProbDigits), m.Candidates, amb)
 			}
 		}
 	}
@@ -190,7 +191,7 @@ func historyJSON(h *db.StarHistory) map[string]any {
 		m["reasons"] = reasons
 		matches := []map[string]any{}
 		for _, x := range c.Matches {
-			matches = append(matches, map[string]any{"catalog": x.Catalog, "source_id": x.SourceID,
+			matches = append(matches, map[string]any{"catalog": x.Catalog, "counterpart_id": x.CounterpartID,
 				"sep_arcsec": jf(x.SepArcsec), "match_prob": jf(x.MatchProb), "candidates": x.Candidates, "ambiguous": x.Ambiguous})
 		}
 		m["matches"] = matches

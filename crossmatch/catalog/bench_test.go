@@ -104,7 +104,7 @@ func writePairCSV(tb testing.TB, primary, secondary string, rows int) {
 	num := func(buf []byte, x float64, prec int) []byte {
 		return strconv.AppendFloat(append(buf, ','), x, 'f', prec, 64)
 	}
-	write(primary, "id,ra,dec,ra_err,dec_err,parallax,parallax_err,pm_ra,pm_ra_err,pm_dec,pm_dec_err,fit_residual,visibility_periods,mag",
+	write(primary, "id,ra,dec,ra_err,dec_err,parallax,parallax_err,pm_ra,pm_ra_err,pm_dec,pm_dec_err,fit_residual,fit_visits,mag",
 		func(buf []byte, i int) []byte {
 			buf = strconv.AppendInt(append(buf, "pa"...), int64(i), 10)
 			buf = num(buf, rng.Float64()*360, 9)

@@ -29,7 +29,7 @@ const (
 	FitResidual
 	ExcessNoise
 	ExcessNoiseSig
-	VisibilityPeriods
+	FitVisits
 	DuplicateFlag
 	Mag
 	Color
@@ -74,7 +74,7 @@ var Fields = [NumFields]FieldInfo{
 	FitResidual:       {"fit_residual", "", "renormalised unit-weight error of the astrometric fit"},
 	ExcessNoise:       {"excess_noise", "mas", "astrometric excess noise"},
 	ExcessNoiseSig:    {"excess_noise_sig", "", "significance of the excess noise"},
-	VisibilityPeriods: {"visibility_periods", "", "number of visibility periods used in the fit"},
+	FitVisits:         {"fit_visits", "", "number of separate visit groups used in the astrometric fit"},
 	DuplicateFlag:     {"duplicate_flag", "", "catalog's own duplicated-source flag (0 or 1)"},
 	Mag:               {"mag", "mag", "apparent magnitude"},
 	Color:             {"color", "mag", "colour index"},

@@ -34,7 +34,7 @@ const (
 )
 
 // Propagate returns a moved from epoch fromJyr to epoch toJyr (Julian years,
-// e.g. 2016.0). The result's RADeg is in [0, 360).
+// e.g. 2019.5). The result's RADeg is in [0, 360).
 //
 // With a positive parallax and a known radial velocity it uses rigorous
 // straight-line space motion including the light-time and special

@@ -7,6 +7,7 @@ import (
 	"path/filepath"
 	"regexp"
 	"sort"
+	"starvet/internal/retired"
 	"strconv"
 	"strings"
 
@@ -82,10 +83,10 @@ type Component struct {
 
 // Kinematics holds the distance and Monte Carlo settings.
 type Kinematics struct {
-	Distance             string // auto, inverse, edsd, catalog
-	EDSDLengthKpc        float64
-	MinParallaxOverError float64
-	Samples              int
+	Distance                string // auto, inverse, edsd, catalog
+	EDSDLengthKpc           float64
+	MinParallaxSignificance float64
+	Samples                 int
 	// VelocityPriorKms is the dispersion of the isotropic normal prior on
 	// the Galactocentric velocity that reweights the Monte Carlo draws
 	// (kinematics package doc); 0 keeps the flat prior.
@@ -124,7 +125,7 @@ const DefaultVelocityPriorKms = 150.0
 
 // DefaultKinematics returns the [kinematics] defaults (our choices).
 func DefaultKinematics() Kinematics {
-	return Kinematics{Distance: "auto", EDSDLengthKpc: 1.35, MinParallaxOverError: 5, Samples: 1000,
+	return Kinematics{Distance: "auto", EDSDLengthKpc: 1.35, MinParallaxSignificance: 5, Samples: 1000,
 		VelocityPriorKms: DefaultVelocityPriorKms, UnboundP: 0.8, MarginalP: 0.5, TraceMinP: 0.5, TraceSamples: 200, TraceMyr: 300,
 		GCRadiusKpc: 1, DiskRadiusKpc: 25}
 }
@@ -208,18 +209,18 @@ type rawComp struct {
 }
 
 type rawKinemat struct {
-	Distance             *string  `toml:"distance"`
-	EDSDLengthKpc        *float64 `toml:"edsd_length_kpc"`
-	MinParallaxOverError *float64 `toml:"min_parallax_over_error"`
-	Samples              *int     `toml:"samples"`
-	VelocityPriorKms     *float64 `toml:"velocity_prior_kms"`
-	UnboundP             *float64 `toml:"unbound_p"`
-	MarginalP            *float64 `toml:"marginal_p"`
-	TraceMinP            *float64 `toml:"trace_min_p"`
-	TraceSamples         *int     `toml:"trace_samples"`
-	TraceMyr             *float64 `toml:"trace_myr"`
-	GCRadiusKpc          *float64 `toml:"gc_radius_kpc"`
-	DiskRadiusKpc        *float64 `toml:"disk_radius_kpc"`
+	Distance                *string  `toml:"distance"`
+	EDSDLengthKpc           *float64 `toml:"edsd_length_kpc"`
+	MinParallaxSignificance *float64 `toml:"min_parallax_significance"`
+	Samples                 *int     `toml:"samples"`
+	VelocityPriorKms        *float64 `toml:"velocity_prior_kms"`
+	UnboundP                *float64 `toml:"unbound_p"`
+	MarginalP               *float64 `toml:"marginal_p"`
+	TraceMinP               *float64 `toml:"trace_min_p"`
+	TraceSamples            *int     `toml:"trace_samples"`
+	TraceMyr                *float64 `toml:"trace_myr"`
+	GCRadiusKpc             *float64 `toml:"gc_radius_kpc"`
+	DiskRadiusKpc           *float64 `toml:"disk_radius_kpc"`
 }
 
 var (
@@ -256,7 +257,7 @@ func Parse(name string, data []byte, dir string) (*Campaign, error) {
 			continue
 		}
 		reported = append(reported, ks)
-		p.bad(p.lines.line(k...), ks, ErrUnknownKey, "unknown key")
+		p.bad(p.lines.line(k...), ks, ErrUnknownKey, "unknown key%s", retired.Hint(k[len(k)-1]))
 	}
 	c := p.build(&r, name, dir)
 	if len(p.errs) > 0 {
@@ -440,7 +441,7 @@ func (p *parser) catalogs(c *Campaign, r *raw) {
 			fld, ok := catalog.FieldByName(f)
 			switch {
 			case !ok || !catalog.Mappable(fld):
-				p.bad(at("columns", f), key("columns."+f), ErrUnknownField, "%q is not a canonical field", f)
+				p.bad(at("columns", f), key("columns."+f), ErrUnknownField, "%q is not a canonical field%s", f, retired.Hint(f))
 			case h == "":
 				p.bad(at("columns", f), key("columns."+f), ErrBadValue, "empty column header")
 			}
@@ -450,7 +451,7 @@ func (p *parser) catalogs(c *Campaign, r *raw) {
 		for f, u := range rc.Units {
 			fld, ok := catalog.FieldByName(f)
 			if !ok || !catalog.Mappable(fld) {
-				p.bad(at("units", f), key("units."+f), ErrUnknownField, "%q is not a canonical field", f)
+				p.bad(at("units", f), key("units."+f), ErrUnknownField, "%q is not a canonical field%s", f, retired.Hint(f))
 			} else if err := catalog.CheckUnit(fld, u); err != nil {
 				p.bad(at("units", f), key("units."+f), ErrBadUnit, "%v", err)
 			}
@@ -553,7 +554,7 @@ func (p *parser) kinematics(c *Campaign, rk *rawKinemat) {
 		}
 	}
 	f(&k.EDSDLengthKpc, rk.EDSDLengthKpc, "edsd_length_kpc", 0, false)
-	f(&k.MinParallaxOverError, rk.MinParallaxOverError, "min_parallax_over_error", 0, false)
+	f(&k.MinParallaxSignificance, rk.MinParallaxSignificance, "min_parallax_significance", 0, false)
 	f(&k.VelocityPriorKms, rk.VelocityPriorKms, "velocity_prior_kms", 0, true)
 	f(&k.UnboundP, rk.UnboundP, "unbound_p", 0, true)
 	f(&k.MarginalP, rk.MarginalP, "marginal_p", 0, true)

@@ -51,7 +51,7 @@ func TestLoadFull(t *testing.T) {
 		{"potential", c.Potential, Potential{EscapeRadiusKpc: 50, Components: []Component{
 			{Kind: "point", MassMsun: 4e6}, {Kind: "hernquist", MassMsun: 3.76e9, AKpc: 0.1},
 			{Kind: "miyamoto-nagai", MassMsun: 6e10, AKpc: 2.75, BKpc: 0.3}, {Kind: "nfw", MassMsun: 8e11, ScaleKpc: 20}}}},
-		{"kinematics", c.Kinematics, Kinematics{Distance: "edsd", EDSDLengthKpc: 1.5, MinParallaxOverError: 4, Samples: 500, VelocityPriorKms: 120,
+		{"kinematics", c.Kinematics, Kinematics{Distance: "edsd", EDSDLengthKpc: 1.5, MinParallaxSignificance: 4, Samples: 500, VelocityPriorKms: 120,
 			UnboundP: 0.9, MarginalP: 0.6, TraceMinP: 0.4, TraceSamples: 100, TraceMyr: 250, GCRadiusKpc: 2, DiskRadiusKpc: 30}},
 	}
 	for _, ch := range checks {
@@ -99,7 +99,7 @@ func TestDefaults(t *testing.T) {
 		// 2019, MNRAS 482, 1417; (U,V,W): Drimmel & Poggio 2018, RNAAS 2, 210.
 		{"galaxy", c.Galaxy, Galaxy{SunDistanceKpc: 8.122, SunHeightPc: 20.8, SunVelocityKms: [3]float64{12.9, 245.6, 7.78}}},
 		{"potential left to integrator", c.Potential, Potential{}},
-		{"kinematics", c.Kinematics, Kinematics{Distance: "auto", EDSDLengthKpc: 1.35, MinParallaxOverError: 5, Samples: 1000, VelocityPriorKms: 150,
+		{"kinematics", c.Kinematics, Kinematics{Distance: "auto", EDSDLengthKpc: 1.35, MinParallaxSignificance: 5, Samples: 1000, VelocityPriorKms: 150,
 			UnboundP: 0.8, MarginalP: 0.5, TraceMinP: 0.5, TraceSamples: 200, TraceMyr: 300, GCRadiusKpc: 1, DiskRadiusKpc: 25}},
 		{"primary pos err", c.Catalogs[0].PositionErrMas, 0.0},
 		{"secondary pos err", c.Catalogs[1].PositionErrMas, 100.0},
@@ -365,5 +365,39 @@ g = 10
 				t.Errorf("line %d, want %d", got, c.line)
 			}
 		})
+	}
+}
+
+// A campaign that still uses a retired name fails, naming the new word, and
+// a catalog header spelled like the retired field still maps like any
+// other header.
+func TestRetiredNames(t *testing.T) {
+	for _, c := range []struct {
+		name, text, key, hint string
+		line                  int
+	}{
+		{"kinematics key", baseText + "[kinematics]\nmin_parallax_over_error = 4\n", "kinematics.min_parallax_over_error",
+			"min_parallax_over_error was renamed min_parallax_significance", 13},
+		{"column field", baseText + "[catalog.columns]\nvisibility_periods = \"vp\"\n", "catalog[2].columns.visibility_periods",
+			"visibility_periods was renamed fit_visits", 13},
+	} {
+		t.Run(c.name, func(t *testing.T) {
+			_, err := Parse("camp.toml", []byte(c.text), "/data")
+			var e *Error
+			if !errors.As(err, &e) {
+				t.Fatalf("err %v is not *Error", err)
+			}
+			if e.Line != c.line || e.Key != c.key || !strings.Contains(err.Error(), c.hint) {
+				t.Errorf("got %v (line %d key %q), want line %d key %q naming %q", err, e.Line, e.Key, c.line, c.key, c.hint)
+			}
+		})
+	}
+	mapped := baseText + "[catalog.columns]\nfit_visits = \"visibility_periods\"\n"
+	c, err := Parse("camp.toml", []byte(mapped), "/data")
+	if err != nil {
+		t.Fatal(err)
+	}
+	if h := c.Catalogs[1].Columns["fit_visits"]; h != "visibility_periods" {
+		t.Errorf("fit_visits maps to header %q, want visibility_periods", h)
 	}
 }

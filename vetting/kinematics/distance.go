@@ -71,7 +71,7 @@ func chooseDistance(s *Star, set *Settings, r *Result) (string, catalogDistance)
 	method := set.Distance
 	if method == "" || method == MethodAuto {
 		switch {
-		case plxOK && wCorr/s.ParallaxErrMas >= set.MinParallaxOverError:
+		case plxOK && wCorr/s.ParallaxErrMas >= set.MinParallaxSignificance:
 			method = MethodInverse
 		case catOK:
 			method = MethodCatalog

@@ -37,7 +37,7 @@
 //     motions come from their normal conditional on 1/d, as for edsd. A
 //     parallax that excludes the catalog distance is a fatal reason.
 //     Without a parallax the proper motions come from their own normal.
-//   - auto (default): inverse when (w - zp)/s >= MinParallaxOverError, else
+//   - auto (default): inverse when (w - zp)/s >= MinParallaxSignificance, else
 //     catalog when usable, else edsd.
 //
 // Monte Carlo: (parallax, pm_ra, pm_dec) are drawn jointly from the normal

@@ -58,15 +58,15 @@ type Star struct {
 
 // Settings controls distances and the Monte Carlo.
 type Settings struct {
-	Distance             string  // auto, inverse, edsd, catalog; "" means auto
-	EDSDLengthKpc        float64 // length scale L of the EDSD prior
-	MinParallaxOverError float64 // auto: inverse distance when (parallax-zp)/error reaches this
-	ParallaxZeroPointMas float64 // subtracted from every measured parallax
-	Samples              int     // Monte Carlo draws per star
-	Seed                 uint64  // mixed with the star ID into the star's random streams
-	Sun                  frames.Sun
-	EscapeRadiusKpc      float64 // 0: escape to infinity (Phi = 0 there)
-	KeepSamples          int     // how many draws to return in SamplePos/SampleVel
+	Distance                string  // auto, inverse, edsd, catalog; "" means auto
+	EDSDLengthKpc           float64 // length scale L of the EDSD prior
+	MinParallaxSignificance float64 // auto: inverse distance when (parallax-zp)/error reaches this
+	ParallaxZeroPointMas    float64 // subtracted from every measured parallax
+	Samples                 int     // Monte Carlo draws per star
+	Seed                    uint64  // mixed with the star ID into the star's random streams
+	Sun                     frames.Sun
+	EscapeRadiusKpc         float64 // 0: escape to infinity (Phi = 0 there)
+	KeepSamples             int     // how many draws to return in SamplePos/SampleVel
 	// VelocityPriorKms is sigma of the isotropic normal prior on the
 	// Galactocentric velocity (prior.go); 0 keeps the flat prior. Stars
 	// without a usable rv are never reweighted.
@@ -78,12 +78,12 @@ type Settings struct {
 // distance from parallax/error >= 5 (common practice), 1000 draws, 200 kept.
 func DefaultSettings(sun frames.Sun) Settings {
 	return Settings{
-		Distance:             MethodAuto,
-		EDSDLengthKpc:        1.35,
-		MinParallaxOverError: 5,
-		Samples:              1000,
-		Sun:                  sun,
-		KeepSamples:          200,
+		Distance:                MethodAuto,
+		EDSDLengthKpc:           1.35,
+		MinParallaxSignificance: 5,
+		Samples:                 1000,
+		Sun:                     sun,
+		KeepSamples:             200,
 	}
 }
 
@@ -100,7 +100,7 @@ func (s *Settings) Validate() error {
 	if !(s.EDSDLengthKpc > 0) || math.IsInf(s.EDSDLengthKpc, 0) {
 		return bad("edsd length %v kpc must be positive and finite", s.EDSDLengthKpc)
 	}
-	if math.IsNaN(s.MinParallaxOverError) {
+	if math.IsNaN(s.MinParallaxSignificance) {
 		return bad("minimum parallax over error is NaN")
 	}
 	if math.IsNaN(s.ParallaxZeroPointMas) || math.IsInf(s.ParallaxZeroPointMas, 0) {

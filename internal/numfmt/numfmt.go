@@ -1,0 +1,70 @@
+// Package numfmt formats numbers for people: reasons, `why`, `rules show`
+// and the report print a number with the precision it carries, while the
+// ledger and CSV output keep full precision.
+package numfmt
+
+import (
+	"math"
+	"strconv"
+)
+
+// Missing is how a missing value (NaN) reads in text meant for people.
+const Missing = "-"
+
+// Digits of significance for the quantities people read most.
+const (
+	ProbDigits = 3 // match and unbound probabilities: 3.403605e-07 reads 3.4e-07
+	SepDigits  = 4 // arcsecond separations: 0.630642 reads 0.6306
+)
+
+// Sig formats x with at most n significant digits, dropping trailing zeros;
+// NaN is Missing.
+func Sig(x float64, n int) string {
+	if math.IsNaN(x) {
+		return Missing
+	}
+	return strconv.FormatFloat(x, 'g', n, 64)
+}
+
+// Value formats a measured value: Against with no limit.
+func Value(v float64) string {
+	if math.IsNaN(v) {
+		return Missing
+	}
+	return string(AppendAgainst(nil, v, math.NaN()))
+}
+
+// AppendAgainst appends v as a person reads it beside a limit: rounded to 4
+// decimals (trailing zeros dropped) in [0.01, 1e9), otherwise to
+// ProbDigits significant digits. When v differs from limit but would
+// print the same, it prints with every digit, so a message never reads
+// "1.4 > 1.4". A NaN limit means there is none.
+func AppendAgainst(b []byte, v, limit float64) []byte {
+	av := math.Abs(v)
+	if !(av >= 0.01 && av < 1e9) && v != 0 {
+		if v != limit && !math.IsNaN(limit) &&
+			strconv.FormatFloat(v, 'g', ProbDigits, 64) == strconv.FormatFloat(limit, 'g', ProbDigits, 64) {
+			return strconv.AppendFloat(b, v, 'g', -1, 64)
+		}
+		return strconv.AppendFloat(b, v, 'g', ProbDigits, 64)
+	}
+	u := uint64(av*1e4 + 0.5)
+	if v != limit && !math.IsNaN(limit) && u == uint64(math.Abs(limit)*1e4+0.5) && (v < 0) == (limit < 0) {
+		return strconv.AppendFloat(b, v, 'g', -1, 64)
+	}
+	if v < 0 {
+		b = append(b, '-')
+	}
+	b = strconv.AppendUint(b, u/10000, 10)
+	frac := u % 10000
+	if frac == 0 {
+		return b
+	}
+	b = append(b, '.')
+	digits := [4]byte{byte('0' + frac/1000), byte('0' + frac/100%10), byte('0' + frac/10%10), byte('0' + frac%10)}
+	n := 4
+	for digits[n-1] == '0' {
+		n--
+	}
+	return append(b, digits[:n]...)
+}

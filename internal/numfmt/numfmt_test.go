@@ -1,0 +1,72 @@
+package numfmt
+
+import (
+	"math"
+	"testing"
+)
+
+func TestAgainst(t *testing.T) {
+	nan := math.NaN()
+	for _, c := range []struct {
+		v, limit float64
+		want     string
+	}{
+		{3.403605097820214e-07, 0.9, "3.4e-07"}, // the example
+		{0.0001531052187248783, 0.9, "0.000153"},
+		{0.630642, 1, "0.6306"},
+		{48.937, 2, "48.937"},
+		{1.40004, 1.4, "1.40004"}, // would read 1.4 > 1.4
+		{1.4, 1.4, "1.4"},
+		{-2.5, nan, "-2.5"},
+		{0, 0.5, "0"},
+		{2e9, nan, "2e+09"},
+		{0.0012341, 0.001234, "0.0012341"}, // would read 0.00123 against 0.00123
+	} {
+		if got := string(AppendAgainst(nil, c.v, c.limit)); got != c.want {
+			t.Errorf("AppendAgainst(%v, %v) = %q, want %q", c.v, c.limit, got, c.want)
+		}
+	}
+}
+
+func TestSigAndValue(t *testing.T) {
+	if got := Sig(0.630642, SepDigits); got != "0.6306" {
+		t.Errorf("separation: %q", got)
+	}
+	if got := Sig(3.403605097820214e-07, ProbDigits); got != "3.4e-07" {
+		t.Errorf("probability: %q", got)
+	}
+	if got := Sig(1, ProbDigits); got != "1" {
+		t.Errorf("probability one: %q", got)
+	}
+	if Sig(math.NaN(), 3) != Missing || Value(math.NaN()) != Missing {
+		t.Error("NaN is not Missing")
+	}
+	if got := Value(29.27771); got != "29.2777" {
+		t.Errorf("Value: %q", got)
+	}
+}
+
+// The cases the quality messages were first written against.
+func TestAgainstQualityCases(t *testing.T) {
+	cases := []struct {
+		v, limit float64
+		want     string
+	}{
+		{2.31, 1.4, "2.31"},
+		{1.23456789, 1.4, "1.2346"}, // rounded to 4 decimals
+		{1.4000001, 1.4, "1.4000001"},
+		{1.39999999, 1.4, "1.39999999"},
+		{-0.25, 0, "-0.25"},
+		{0, 1, "0"},
+		{0.00012, 1, "0.00012"},
+		{1e12, 1, "1e+12"},
+		{20, 20, "20"},
+	}
+	for _, c := range cases {
+		t.Run(c.want, func(t *testing.T) {
+			if got := string(AppendAgainst(nil, c.v, c.limit)); got != c.want {
+				t.Errorf("AppendAgainst(%v, %v) = %q, want %q", c.v, c.limit, got, c.want)
+			}
+		})
+	}
+}
