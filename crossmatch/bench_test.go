@@ -9,7 +9,7 @@ import (
 	"syscall"
 	"testing"
 
-	"starvet/crossmatch/catalog"
+	"starvet/catalog"
 )
 
 // benchPair makes two all-sky catalogs of n sources: secondary = primary

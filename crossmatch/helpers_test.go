@@ -6,7 +6,7 @@ import (
 	"strconv"
 	"testing"
 
-	"starvet/crossmatch/catalog"
+	"starvet/catalog"
 )
 
 // testSeed returns the seed for a randomised test: def, or STARVET_SEED

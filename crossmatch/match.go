@@ -10,7 +10,7 @@ import (
 	"sync"
 	"sync/atomic"
 
-	"starvet/crossmatch/catalog"
+	"starvet/catalog"
 )
 
 // Sentinel errors; returned errors wrap them (use errors.Is).

@@ -10,7 +10,7 @@ import (
 	"slices"
 	"testing"
 
-	"starvet/crossmatch/catalog"
+	"starvet/catalog"
 	"starvet/crossmatch/sky"
 )
 

@@ -6,7 +6,7 @@ import (
 	"math"
 	"runtime"
 
-	"starvet/crossmatch/catalog"
+	"starvet/catalog"
 )
 
 // SelfMatch returns, per row of t, the number of OTHER rows closer than

@@ -5,7 +5,7 @@
 //
 // In: RunInfo at BeginRun; CatalogRow, QuarantineRow and batches of
 // StarRecord (one transaction per batch) from the pipeline; RunSummary at
-// Finish. Values are in the canonical units of starvet/crossmatch/catalog
+// Finish. Values are in the canonical units of starvet/catalog
 // (deg, mas, mas/yr, km/s, kpc); NaN and "" are stored as NULL and read
 // back as NaN and "".
 //

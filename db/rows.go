@@ -6,7 +6,7 @@ import (
 	"slices"
 	"time"
 
-	"starvet/crossmatch/catalog"
+	"starvet/catalog"
 )
 
 // NumInputs is the number of canonical numeric fields stored per star:

@@ -9,7 +9,7 @@ import (
 	"testing"
 	"time"
 
-	"starvet/crossmatch/catalog"
+	"starvet/catalog"
 	"starvet/rules"
 )
 

@@ -1,7 +1,7 @@
 // Package quality evaluates a compiled rule set (package rules) on stars.
 //
 // In: Star values — merged canonical fields in the units of
-// starvet/crossmatch/catalog (NaN = missing), one MatchInfo per secondary
+// starvet/catalog (NaN = missing), one MatchInfo per secondary
 // catalog in RuleSet.Catalogs order (a shorter slice means "no
 // counterpart"), and the self-match duplicate count; plus a Context with the
 // campaign's parallax zero point in mas (subtracted: parallax - zero point).

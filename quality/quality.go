@@ -11,7 +11,7 @@ import (
 
 	"github.com/expr-lang/expr/vm"
 
-	"starvet/crossmatch/catalog"
+	"starvet/catalog"
 	"starvet/rules"
 )
 

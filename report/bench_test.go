@@ -7,7 +7,7 @@ import (
 	"testing"
 
 	"starvet/db"
-	"starvet/vetting/potential"
+	"starvet/galaxy/potential"
 )
 
 // bigFixture is a run of n stars shaped like the demo: mostly rejected, a

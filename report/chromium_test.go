@@ -12,7 +12,7 @@ import (
 	"testing"
 	"time"
 
-	"starvet/vetting/potential"
+	"starvet/galaxy/potential"
 )
 
 const chromiumPath = "/usr/bin/chromium"

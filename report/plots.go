@@ -13,8 +13,8 @@ import (
 	"gonum.org/v1/plot/vg/draw"
 	"gonum.org/v1/plot/vg/vgsvg"
 
-	"starvet/vetting/frames"
-	"starvet/vetting/potential"
+	"starvet/galaxy/frames"
+	"starvet/galaxy/potential"
 )
 
 const degToRad = math.Pi / 180

@@ -10,7 +10,7 @@ import (
 	"sort"
 
 	"starvet/db"
-	"starvet/vetting/frames"
+	"starvet/galaxy/frames"
 )
 
 // ComponentsModel is the model name a verdict carries when the campaign

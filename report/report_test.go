@@ -13,7 +13,7 @@ import (
 	"testing"
 
 	"starvet/db"
-	"starvet/vetting/potential"
+	"starvet/galaxy/potential"
 )
 
 func TestHammerAitoff(t *testing.T) {

@@ -1,6 +1,6 @@
 package rules
 
-import "starvet/crossmatch/catalog"
+import "starvet/catalog"
 
 // Check names a built-in test. An empty Check means an expression rule.
 type Check string

@@ -20,7 +20,7 @@
 //	source = "..."             # optional, where the threshold comes from
 //
 // Built-in checks and their parameters (units are the canonical ones of
-// starvet/crossmatch/catalog):
+// starvet/catalog):
 //
 //	at_least / at_most         field, limit      field >= / <= limit
 //	parallax_significance      limit             (parallax - zero point)/parallax_err >= limit

@@ -13,7 +13,7 @@ import (
 	"github.com/expr-lang/expr/parser"
 	"github.com/expr-lang/expr/vm"
 
-	"starvet/crossmatch/catalog"
+	"starvet/catalog"
 )
 
 // VarKind says where the value of an expression variable comes from.

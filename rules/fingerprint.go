@@ -7,7 +7,7 @@ import (
 	"math"
 	"sort"
 
-	"starvet/crossmatch/catalog"
+	"starvet/catalog"
 )
 
 // canonicalRule holds everything that can change a verdict. Description and

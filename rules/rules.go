@@ -14,7 +14,7 @@ import (
 
 	"github.com/BurntSushi/toml"
 
-	"starvet/crossmatch/catalog"
+	"starvet/catalog"
 )
 
 // Severity is what failing a rule does to a star.

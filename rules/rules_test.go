@@ -6,7 +6,7 @@ import (
 	"strings"
 	"testing"
 
-	"starvet/crossmatch/catalog"
+	"starvet/catalog"
 )
 
 func TestDefaultLoads(t *testing.T) {

@@ -4,7 +4,7 @@ import (
 	"errors"
 	"testing"
 
-	"starvet/crossmatch/catalog"
+	"starvet/catalog"
 )
 
 func TestVoids(t *testing.T) {

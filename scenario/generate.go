@@ -8,7 +8,7 @@ import (
 	"path/filepath"
 	"sort"
 
-	"starvet/vetting/frames"
+	"starvet/galaxy/frames"
 )
 
 // Independent random streams, one per stage, so that changing one stage

@@ -14,9 +14,9 @@ import (
 
 	"github.com/BurntSushi/toml"
 
-	"starvet/crossmatch/catalog"
+	"starvet/catalog"
 	"starvet/crossmatch/sky"
-	"starvet/vetting/frames"
+	"starvet/galaxy/frames"
 )
 
 const testStars = 3000

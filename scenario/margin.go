@@ -3,7 +3,7 @@ package scenario
 import (
 	"math"
 
-	"starvet/vetting/frames"
+	"starvet/galaxy/frames"
 )
 
 // DecidableSigma is how far above the escape speed, in units of its own

@@ -5,7 +5,7 @@ import (
 	"math/rand/v2"
 	"testing"
 
-	"starvet/vetting/frames"
+	"starvet/galaxy/frames"
 )
 
 // TestSpeedMargin checks the first-order margin against a brute-force Monte

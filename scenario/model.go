@@ -4,9 +4,9 @@ import (
 	"fmt"
 	"math"
 
-	"starvet/vetting/frames"
-	"starvet/vetting/orbit"
-	"starvet/vetting/potential"
+	"starvet/galaxy/frames"
+	"starvet/galaxy/orbit"
+	"starvet/galaxy/potential"
 )
 
 // galaxy bundles what the generator needs from the Galactic model: the Sun

@@ -5,7 +5,7 @@ import (
 	"math"
 	"math/rand/v2"
 
-	"starvet/vetting/frames"
+	"starvet/galaxy/frames"
 )
 
 // Population labels written to truth.csv.

@@ -8,7 +8,7 @@ import (
 	"strings"
 	"testing"
 
-	"starvet/crossmatch/catalog"
+	"starvet/catalog"
 )
 
 func TestUpdate(t *testing.T) {

@@ -17,7 +17,7 @@ import (
 	"testing"
 	"time"
 
-	"starvet/vetting/campaign"
+	"starvet/campaign"
 )
 
 // End-to-end benchmarks of Engine.Run on an invented all-sky campaign of

@@ -16,8 +16,8 @@
 //	Run        all of it      -> db ledger rows: inputs, matches, reasons, crossings, verdicts
 //
 // Units: every number is canonical from ingest on (see
-// starvet/crossmatch/catalog): degrees, mas, mas/yr, km/s, kpc; the
-// Galactocentric frame of starvet/vetting/frames (x from the Sun toward the
+// starvet/catalog): degrees, mas, mas/yr, km/s, kpc; the
+// Galactocentric frame of starvet/galaxy/frames (x from the Sun toward the
 // centre, y along rotation, z toward the north Galactic pole); times in Myr.
 //
 // Statuses: rejected (a reject rule failed, or the kinematics could not be

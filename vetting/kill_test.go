@@ -12,8 +12,8 @@ import (
 	"testing"
 	"time"
 
+	"starvet/campaign"
 	"starvet/db"
-	"starvet/vetting/campaign"
 )
 
 // The kill test re-executes this test binary as a child that runs a real

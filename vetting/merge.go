@@ -9,8 +9,8 @@ import (
 	"runtime"
 	"sync"
 
+	"starvet/catalog"
 	"starvet/crossmatch"
-	"starvet/crossmatch/catalog"
 	"starvet/quality"
 )
 

@@ -14,8 +14,8 @@ import (
 	"syscall"
 	"testing"
 
+	"starvet/catalog"
 	"starvet/crossmatch"
-	"starvet/crossmatch/catalog"
 	"starvet/quality"
 )
 

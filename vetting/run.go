@@ -11,14 +11,14 @@ import (
 	"strings"
 	"time"
 
-	"starvet/crossmatch/catalog"
+	"starvet/campaign"
+	"starvet/catalog"
 	"starvet/db"
+	"starvet/galaxy/kinematics"
+	"starvet/galaxy/orbit"
+	"starvet/galaxy/potential"
 	"starvet/quality"
 	"starvet/rules"
-	"starvet/vetting/campaign"
-	"starvet/vetting/kinematics"
-	"starvet/vetting/orbit"
-	"starvet/vetting/potential"
 )
 
 // RunOptions tune Run.

@@ -7,9 +7,9 @@ import (
 	"reflect"
 	"testing"
 
+	"starvet/campaign"
 	"starvet/db"
 	"starvet/scenario"
-	"starvet/vetting/campaign"
 )
 
 // smallScenario writes an invented campaign of n stars into a temp dir.

@@ -6,11 +6,11 @@ import (
 	"path/filepath"
 	"sync"
 
+	"starvet/campaign"
+	"starvet/catalog"
 	"starvet/crossmatch"
-	"starvet/crossmatch/catalog"
 	"starvet/quality"
 	"starvet/rules"
-	"starvet/vetting/campaign"
 )
 
 // Ingest reads every catalog of the campaign, all at once (one goroutine

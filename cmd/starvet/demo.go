@@ -7,11 +7,11 @@ import (
 	"path/filepath"
 	"time"
 
+	"starvet/campaign"
 	"starvet/db"
 	"starvet/report"
 	"starvet/scenario"
 	"starvet/vetting"
-	"starvet/vetting/campaign"
 )
 
 func runDemo(ctx context.Context, env *Env, args []string) error {

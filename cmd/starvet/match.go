@@ -5,8 +5,8 @@ import (
 	"fmt"
 	"path/filepath"
 
+	"starvet/campaign"
 	"starvet/vetting"
-	"starvet/vetting/campaign"
 )
 
 func runMatch(ctx context.Context, env *Env, args []string) error {

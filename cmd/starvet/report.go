@@ -4,9 +4,9 @@ import (
 	"context"
 	"fmt"
 
+	"starvet/campaign"
 	"starvet/db"
 	"starvet/report"
-	"starvet/vetting/campaign"
 )
 
 func runReport(ctx context.Context, env *Env, args []string) error {

@@ -10,7 +10,7 @@ import (
 	"testing"
 
 	"starvet/db"
-	"starvet/vetting/potential"
+	"starvet/galaxy/potential"
 )
 
 // reportLedger writes one complete run: two unbound stars, one bound, one

@@ -8,7 +8,7 @@ import (
 	"strings"
 	"text/tabwriter"
 
-	"starvet/crossmatch/catalog"
+	"starvet/catalog"
 	"starvet/rules"
 )
 

@@ -7,8 +7,8 @@ import (
 	"sort"
 	"time"
 
+	"starvet/campaign"
 	"starvet/vetting"
-	"starvet/vetting/campaign"
 )
 
 func runRun(ctx context.Context, env *Env, args []string) error {

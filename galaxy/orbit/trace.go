@@ -10,7 +10,7 @@ import (
 	"gonum.org/v1/gonum/mat"
 	"gonum.org/v1/gonum/stat"
 
-	"starvet/vetting/potential"
+	"starvet/galaxy/potential"
 )
 
 // Origin verdicts stored in TraceResult.Origin.

@@ -5,8 +5,8 @@ import (
 	"fmt"
 	"math"
 
-	"starvet/vetting/frames"
-	"starvet/vetting/potential"
+	"starvet/galaxy/frames"
+	"starvet/galaxy/potential"
 )
 
 // Distance methods (Settings.Distance and Result.Method).

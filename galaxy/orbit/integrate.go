@@ -3,7 +3,7 @@ package orbit
 import (
 	"math"
 
-	"starvet/vetting/potential"
+	"starvet/galaxy/potential"
 )
 
 // Options controls the integrator. Zero fields take the defaults below.

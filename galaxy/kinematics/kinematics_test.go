@@ -14,7 +14,7 @@ import (
 	"gonum.org/v1/gonum/stat"
 	"gonum.org/v1/gonum/stat/distmv"
 
-	"starvet/vetting/frames"
+	"starvet/galaxy/frames"
 )
 
 var nan = math.NaN()

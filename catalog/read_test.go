@@ -18,7 +18,7 @@ import (
 	"time"
 )
 
-const dataDir = "../../testdata/ingest"
+const dataDir = "../testdata/ingest"
 
 func path(name string) string { return filepath.Join(dataDir, name) }
 

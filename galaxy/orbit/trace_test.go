@@ -7,7 +7,7 @@ import (
 	"reflect"
 	"testing"
 
-	"starvet/vetting/potential"
+	"starvet/galaxy/potential"
 )
 
 // samples scatters n copies of (x, v) with Gaussian noise of sigmaXKpc and

@@ -9,8 +9,8 @@ import (
 	"testing"
 	"time"
 
-	"starvet/vetting/frames"
-	"starvet/vetting/potential"
+	"starvet/galaxy/frames"
+	"starvet/galaxy/potential"
 )
 
 // benchStars makes n invented stars: distances 0.3-30 kpc, halo-like

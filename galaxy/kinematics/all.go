@@ -7,7 +7,7 @@ import (
 	"sync"
 	"sync/atomic"
 
-	"starvet/vetting/potential"
+	"starvet/galaxy/potential"
 )
 
 // batchSize is the number of stars a worker takes at a time; the context is

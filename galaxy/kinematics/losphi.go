@@ -3,7 +3,7 @@ package kinematics
 import (
 	"math"
 
-	"starvet/vetting/potential"
+	"starvet/galaxy/potential"
 )
 
 // Along one line of sight the position is pos0 + d posR, so the escape speed

@@ -6,7 +6,7 @@ import (
 	"math/rand/v2"
 	"testing"
 
-	"starvet/vetting/frames"
+	"starvet/galaxy/frames"
 )
 
 // The interpolated escape speed must match sqrt(2 (Phi_lim - Phi)) computed

@@ -5,7 +5,7 @@ import (
 	"math"
 	"testing"
 
-	"starvet/vetting/potential"
+	"starvet/galaxy/potential"
 )
 
 func builtin(t testing.TB, name string) *potential.Model {

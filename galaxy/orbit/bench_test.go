@@ -7,7 +7,7 @@ import (
 	"runtime"
 	"testing"
 
-	"starvet/vetting/potential"
+	"starvet/galaxy/potential"
 )
 
 // countingPotential counts force evaluations (single goroutine only).

@@ -9,10 +9,10 @@ import (
 	"strings"
 	"testing"
 
-	"starvet/crossmatch/catalog"
+	"starvet/catalog"
 )
 
-const testDir = "../../testdata/ingest/campaign"
+const testDir = "../testdata/ingest/campaign"
 
 func TestLoadFull(t *testing.T) {
 	c, err := Load(filepath.Join(testDir, "full.toml"))

@@ -13,9 +13,9 @@ import (
 
 	"github.com/BurntSushi/toml"
 
-	"starvet/crossmatch/catalog"
-	"starvet/vetting/frames"
-	"starvet/vetting/potential"
+	"starvet/catalog"
+	"starvet/galaxy/frames"
+	"starvet/galaxy/potential"
 )
 
 // Campaign is one parsed campaign file with every default filled in.

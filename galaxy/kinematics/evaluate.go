@@ -3,8 +3,8 @@ package kinematics
 import (
 	"math"
 
-	"starvet/vetting/frames"
-	"starvet/vetting/potential"
+	"starvet/galaxy/frames"
+	"starvet/galaxy/potential"
 )
 
 const degToRad = math.Pi / 180
