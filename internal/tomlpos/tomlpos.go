@@ -131,7 +131,9 @@ func (s *scanner) record(indexed, plain []string, p Pos) {
 	s.m.add(plain, p)
 }
 
-func join(a, b []string) []string { return append(append(make([]string, 0, len(a)+len(b)), a...), b...) }
+func join(a, b []string) []string {
+	return append(append(make([]string, 0, len(a)+len(b)), a...), b...)
+}
 
 // indexed adds the current element index to every proper prefix of segs
 // that is an array of tables: [catalog columns] -> [catalog#2 columns].
