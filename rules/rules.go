@@ -169,24 +169,7 @@ func Parse(name string, data []byte, schema Schema) (*RuleSet, error) {
 	rs.Catalogs = l.schema.Catalogs
 	l.env = newExprEnv(rs.Catalogs)
 
-	ids := map[string]int{}
-	for i, t := range tables {
-		elem := tomlpos.Elem("rule", i)
-		l.ruleNo = i + 1
-		r, ok := l.rule(t, elem)
-		if r.ID != "" {
-			if first, dup := ids[r.ID]; dup {
-				l.add(l.ruleAt(elem, "id"), r.ID, ErrDuplicateID, "duplicate id (first used by the rule on line %d)", first)
-				ok = false
-			} else {
-				ids[r.ID] = r.Line
-			}
-		}
-		if ok {
-			rs.Rules = append(rs.Rules, r)
-		}
-	}
-	l.ruleNo = 0
+	rs.Rules = l.rules(tables)
 	if len(l.errs) > 0 {
 		sort.SliceStable(l.errs, func(i, j int) bool {
 			if l.errs[i].Line != l.errs[j].Line {
@@ -279,6 +262,31 @@ func (l *loader) discoverCatalogs(tables []map[string]any) {
 			}
 		}
 	}
+}
+
+// rules checks and compiles every rule table and returns those without
+// errors; an id used twice is an error at its second use.
+func (l *loader) rules(tables []map[string]any) []*Rule {
+	var out []*Rule
+	ids := map[string]int{} // id -> line of its first rule
+	for i, t := range tables {
+		elem := tomlpos.Elem("rule", i)
+		l.ruleNo = i + 1
+		r, ok := l.rule(t, elem)
+		if r.ID != "" {
+			if first, dup := ids[r.ID]; dup {
+				l.add(l.ruleAt(elem, "id"), r.ID, ErrDuplicateID, "duplicate id (first used by the rule on line %d)", first)
+				ok = false
+			} else {
+				ids[r.ID] = r.Line
+			}
+		}
+		if ok {
+			out = append(out, r)
+		}
+	}
+	l.ruleNo = 0
+	return out
 }
 
 // ruleLoad is one [[rule]] table being checked and compiled.

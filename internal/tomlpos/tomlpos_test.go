@@ -147,3 +147,18 @@ func TestMalformed(t *testing.T) {
 		t.Errorf("got %v from nothing", p)
 	}
 }
+
+// FuzzScan: the scanner never panics, and every position it records lies
+// inside the text: a line that exists, a column on that line.
+func FuzzScan(f *testing.F) {
+	f.Add("a = 1\n[t]\nb.c = '''x\n[[y]]'''\n[[list]]\ne = [1,\n 2]\n")
+	f.Add("[ \"a.b\" . 'c' ]\ns = \"\"\"\\\"\"\"\"\"\n")
+	f.Fuzz(func(t *testing.T, text string) {
+		lines := strings.Split(text, "\n")
+		for path, p := range Scan(text).at {
+			if p.Line < 1 || p.Line > len(lines) || p.Col < 1 || p.Col > len(lines[p.Line-1]) {
+				t.Fatalf("%q at %v outside the text (%d lines)", path, p, len(lines))
+			}
+		}
+	})
+}
