@@ -142,7 +142,7 @@ func TestErrors(t *testing.T) {
 		text string
 		err  error
 		line int
-		col  int // counted by hand: keys and headers start their lines
+		col  int // counted by hand
 		key  string
 	}{
 		{"unknown top key", "colour = 1\n" + baseText, ErrUnknownKey, 1, 1, "colour"},
@@ -171,6 +171,9 @@ func TestErrors(t *testing.T) {
 		{"negative position error", strings.Replace(baseText, "epoch = 2020.5", "epoch = 2020.5\nposition_err_mas = -5", 1), ErrBadValue, 12, 1, "catalog[2].position_err_mas"},
 		{"type error", "seed = \"x\"\n" + baseText, ErrSyntax, 1, 1, ""},
 		{"syntax error", baseText + "seed = \n", ErrSyntax, 12, 8, ""}, // the newline after "seed = "
+		{"indented type error", "  seed = \"x\"\n" + baseText, ErrSyntax, 1, 3, ""},
+		{"indented key", baseText + "[match]\n    radius_arcsec = -1\n", ErrBadValue, 13, 5, "match.radius_arcsec"},
+		{"indented header", baseText + "\t[galaxi]\n", ErrUnknownKey, 12, 2, "galaxi"},
 		{"velocity needs 3", baseText + "[galaxy]\nsun_velocity_kms = [1, 2]\n", ErrBadValue, 13, 1, "galaxy.sun_velocity_kms"},
 		{"model and components", baseText + "[potential]\nmodel = \"kenyon08-adjusted\"\n[[potential.component]]\nkind = \"point\"\nmass_msun = 1e6\n", ErrBadValue, 13, 1, "potential.model"},
 		{"unknown model", baseText + "[potential]\nmodel = \"mine\"\n", ErrBadValue, 13, 1, "potential.model"},
