@@ -279,7 +279,7 @@ func syntaxError(name, text string, err error) *position.Error {
 		e.Line, e.Col, e.Msg = pe.Position.Line, pe.Position.Col, pe.Message
 	} else if m := tomlLineRE.FindStringSubmatch(err.Error()); m != nil {
 		e.Line, _ = strconv.Atoi(m[1])
-		e.Msg = strings.TrimPrefix(err.Error()[len(m[0]):], " ")
+		e.Msg = strings.TrimPrefix(strings.TrimPrefix(err.Error(), "toml: line "+m[1]), " ")
 		if m[2] != "" {
 			if at := tomlpos.Scan(text).Near(strings.Split(m[2], ".")...); at.Line == e.Line {
 				e.Col = at.Col

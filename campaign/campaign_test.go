@@ -353,3 +353,12 @@ func TestRetiredNames(t *testing.T) {
 		t.Errorf("fit_visits maps to header %q, want visibility_periods", h)
 	}
 }
+
+// A value of the wrong type keeps the decoder's words after its line, and
+// gains the key's column from the scan.
+func TestTypeErrorMessage(t *testing.T) {
+	_, err := Parse("camp.toml", []byte("  seed = \"x\"\n"+baseText), "/data")
+	if want := `camp.toml:1:3: (last key "seed"): incompatible types`; err == nil || !strings.HasPrefix(err.Error(), want) {
+		t.Errorf("got %v, want it to start with %s", err, want)
+	}
+}
