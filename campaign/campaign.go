@@ -7,7 +7,6 @@ import (
 	"path/filepath"
 	"regexp"
 	"sort"
-	"starvet/internal/retired"
 	"strconv"
 	"strings"
 
@@ -16,6 +15,9 @@ import (
 	"starvet/catalog"
 	"starvet/galaxy/frames"
 	"starvet/galaxy/potential"
+	"starvet/internal/position"
+	"starvet/internal/retired"
+	"starvet/internal/tomlpos"
 )
 
 // Campaign is one parsed campaign file with every default filled in.
@@ -144,11 +146,11 @@ func DefaultGalaxy() Galaxy {
 func Load(path string) (*Campaign, error) {
 	data, err := os.ReadFile(path)
 	if err != nil {
-		return nil, &Error{File: path, Msg: err.Error(), Err: fmt.Errorf("%w: %w", ErrRead, err)}
+		return nil, &position.Error{File: path, Msg: err.Error(), Err: fmt.Errorf("%w: %w", ErrRead, err)}
 	}
 	dir, err := filepath.Abs(filepath.Dir(path))
 	if err != nil {
-		return nil, &Error{File: path, Msg: err.Error(), Err: fmt.Errorf("%w: %w", ErrRead, err)}
+		return nil, &position.Error{File: path, Msg: err.Error(), Err: fmt.Errorf("%w: %w", ErrRead, err)}
 	}
 	return Parse(path, data, dir)
 }
@@ -225,27 +227,24 @@ type rawKinemat struct {
 
 var (
 	catNameRE   = regexp.MustCompile(`^[a-z][a-z0-9_]*$`)
-	tomlLineRE  = regexp.MustCompile(`^toml: line (\d+)`)
+	tomlLineRE  = regexp.MustCompile(`^toml: line (\d+)(?: \(last key "([^"]*)"\))?`)
 	validRoles  = []catalog.Role{catalog.Astrometry, catalog.Spectroscopy, catalog.Photometry}
 	distMethods = []string{"auto", "inverse", "edsd", "catalog"}
 )
 
 // Parse parses campaign text. name is used in messages (usually the file
 // path); dir is the absolute directory relative paths are resolved from.
+// On error it returns position.Errors holding every problem found, in file
+// order (problems without a place last), each wrapping one of the Err*
+// sentinels, or a single *position.Error for text that is not TOML.
 func Parse(name string, data []byte, dir string) (*Campaign, error) {
+	text := string(data)
 	var r raw
-	md, err := toml.Decode(string(data), &r)
+	md, err := toml.Decode(text, &r)
 	if err != nil {
-		e := &Error{File: name, Msg: err.Error(), Err: fmt.Errorf("%w: %w", ErrSyntax, err)}
-		if pe, ok := err.(toml.ParseError); ok {
-			e.Line, e.Msg = pe.Position.Line, pe.Message
-		} else if m := tomlLineRE.FindStringSubmatch(err.Error()); m != nil {
-			e.Line, _ = strconv.Atoi(m[1])
-			e.Msg = strings.TrimPrefix(err.Error()[len(m[0]):], " ")
-		}
-		return nil, e
+		return nil, syntaxError(name, text, err)
 	}
-	p := &parser{file: name, lines: scanKeyLines(string(data))}
+	p := &parser{file: name, pos: tomlpos.Scan(text)}
 	var reported []string
 	for _, k := range md.Undecoded() {
 		ks := k.String()
@@ -257,7 +256,7 @@ func Parse(name string, data []byte, dir string) (*Campaign, error) {
 			continue
 		}
 		reported = append(reported, ks)
-		p.bad(p.lines.line(k...), ks, ErrUnknownKey, "unknown key%s", retired.Hint(k[len(k)-1]))
+		p.bad(p.pos.Near(k...), ks, ErrUnknownKey, "unknown key%s", retired.Hint(k[len(k)-1]))
 	}
 	c := p.build(&r, name, dir)
 	if len(p.errs) > 0 {
@@ -271,14 +270,35 @@ func Parse(name string, data []byte, dir string) (*Campaign, error) {
 	return c, nil
 }
 
-type parser struct {
-	file  string
-	lines keyLines
-	errs  Errors
+// syntaxError places a decoding error: a syntax error carries its line and
+// column; a value of the wrong type names only its line and key, and the
+// column is the key's when the scan finds that key on that line.
+func syntaxError(name, text string, err error) *position.Error {
+	e := &position.Error{File: name, Msg: err.Error(), Err: fmt.Errorf("%w: %w", ErrSyntax, err)}
+	if pe, ok := err.(toml.ParseError); ok {
+		e.Line, e.Col, e.Msg = pe.Position.Line, pe.Position.Col, pe.Message
+	} else if m := tomlLineRE.FindStringSubmatch(err.Error()); m != nil {
+		e.Line, _ = strconv.Atoi(m[1])
+		e.Msg = strings.TrimPrefix(strings.TrimPrefix(err.Error(), "toml: line "+m[1]), " ")
+		if m[2] != "" {
+			if at := tomlpos.Scan(text).Near(strings.Split(m[2], ".")...); at.Line == e.Line {
+				e.Col = at.Col
+			}
+		}
+	}
+	return e
 }
 
-func (p *parser) bad(line int, key string, sentinel error, format string, args ...any) {
-	p.errs = append(p.errs, &Error{File: p.file, Line: line, Key: key, Msg: fmt.Sprintf(format, args...), Err: sentinel})
+type parser struct {
+	file string
+	pos  *tomlpos.Map
+	errs position.Errors
+}
+
+// bad records a problem with key (dotted, catalogs numbered from 1:
+// "catalog[2].role") at p; the zero p means the problem has no one place.
+func (p *parser) bad(at tomlpos.Pos, key string, sentinel error, format string, args ...any) {
+	p.errs = append(p.errs, &position.Error{File: p.file, Line: at.Line, Col: at.Col, Name: key, What: key, Msg: fmt.Sprintf(format, args...), Err: sentinel})
 }
 
 // num checks a float key: finite, and above (or at) a lower limit.
@@ -289,13 +309,24 @@ func (p *parser) num(v float64, min float64, inclusive bool, key string, path ..
 		if inclusive {
 			op = ">="
 		}
-		p.bad(p.lines.line(path...), key, ErrBadValue, "must be a finite number %s %g, got %v", op, min, v)
+		p.bad(p.pos.Near(path...), key, ErrBadValue, "must be a finite number %s %g, got %v", op, min, v)
 	}
 }
 
 func (p *parser) build(r *raw, name, dir string) *Campaign {
 	c := &Campaign{File: name, Dir: dir, Seed: DefaultSeed, Ledger: DefaultLedger, Rules: DefaultRules,
 		NullMarkers: catalog.DefaultNullMarkers(), Galaxy: DefaultGalaxy(), Kinematics: DefaultKinematics()}
+	p.topLevel(c, r, name, dir)
+	p.match(c, r.Match)
+	p.catalogs(c, r)
+	p.galaxy(c, r.Galaxy)
+	p.potential(c, r.Potential)
+	p.kinematics(c, r.Kinematics)
+	return c
+}
+
+// topLevel reads the keys outside any table.
+func (p *parser) topLevel(c *Campaign, r *raw, name, dir string) {
 	c.Name = strings.TrimSuffix(filepath.Base(name), filepath.Ext(name))
 	if r.Name != nil {
 		c.Name = *r.Name
@@ -306,14 +337,14 @@ func (p *parser) build(r *raw, name, dir string) *Campaign {
 	if r.Ledger != nil {
 		c.Ledger = *r.Ledger
 		if c.Ledger == "" {
-			p.bad(p.lines.line("ledger"), "ledger", ErrBadValue, "must not be empty")
+			p.bad(p.pos.Near("ledger"), "ledger", ErrBadValue, "must not be empty")
 		}
 	}
 	c.Ledger = resolve(dir, c.Ledger)
 	if r.Rules != nil {
 		c.Rules = *r.Rules
 		if c.Rules == "" {
-			p.bad(p.lines.line("rules"), "rules", ErrBadValue, `must be "default" or a path`)
+			p.bad(p.pos.Near("rules"), "rules", ErrBadValue, `must be "default" or a path`)
 		}
 	}
 	if c.Rules != DefaultRules {
@@ -326,12 +357,6 @@ func (p *parser) build(r *raw, name, dir string) *Campaign {
 	if r.NullMarkers != nil {
 		c.NullMarkers = *r.NullMarkers
 	}
-	p.match(c, r.Match)
-	p.catalogs(c, r)
-	p.galaxy(c, r.Galaxy)
-	p.potential(c, r.Potential)
-	p.kinematics(c, r.Kinematics)
-	return c
 }
 
 func resolve(dir, path string) string {
@@ -359,75 +384,37 @@ func (p *parser) match(c *Campaign, m *rawMatch) {
 	if m.RadiusFloorArcsec != nil {
 		set(&c.Match.RadiusFloorArcsec, m.RadiusFloorArcsec, "radius_floor_arcsec", 0, true)
 		if c.Match.NSigma == 0 {
-			p.bad(p.lines.line("match", "radius_floor_arcsec"), "match.radius_floor_arcsec", ErrBadValue, "has no effect unless n_sigma > 0")
+			p.bad(p.pos.Near("match", "radius_floor_arcsec"), "match.radius_floor_arcsec", ErrBadValue, "has no effect unless n_sigma > 0")
 		}
 	} else if c.Match.NSigma > 0 {
 		c.Match.RadiusFloorArcsec = DefaultRadiusFloorArcsec
 	}
 }
 
+// catalogs checks every [[catalog]] table and that exactly one is the
+// astrometry catalog.
 func (p *parser) catalogs(c *Campaign, r *raw) {
-	seen := make(map[string]int)
+	seen := make(map[string]int) // catalog name -> line of its first use
 	astrometry := 0
 	for i, rc := range r.Catalog {
-		tbl := "catalog#" + strconv.Itoa(i)
-		at := func(key ...string) int { return p.lines.line(append([]string{tbl}, key...)...) }
-		key := func(k string) string { return fmt.Sprintf("catalog[%d].%s", i+1, k) }
-		cs := CatalogSpec{Line: at()}
+		ct := catTable{parser: p, i: i, elem: tomlpos.Elem("catalog", i)}
+		cs := CatalogSpec{Line: ct.at().Line}
 		s := &cs.Spec
-		if rc.Name == nil {
-			p.bad(at(), key("name"), ErrMissing, "is required")
-		} else {
-			s.Name = *rc.Name
-			if !catNameRE.MatchString(s.Name) {
-				p.bad(at("name"), key("name"), ErrBadValue, "%q must match [a-z][a-z0-9_]*", s.Name)
-			} else if first, dup := seen[s.Name]; dup {
-				p.bad(at("name"), key("name"), ErrBadValue, "%q already used by the catalog on line %d", s.Name, first)
-			} else {
-				seen[s.Name] = at("name")
+		ct.name(s, rc.Name, seen)
+		ct.file(s, rc.File, c.Dir)
+		if ct.role(s, rc.Role) && s.Role == catalog.Astrometry {
+			astrometry++
+			if astrometry == 2 {
+				p.bad(ct.at("role"), ct.key("role"), ErrBadValue, "a second astrometry catalog; exactly one is allowed")
 			}
 		}
-		if rc.File == nil || *rc.File == "" {
-			p.bad(at(), key("file"), ErrMissing, "is required")
-		} else {
-			f := *rc.File
-			if !strings.HasSuffix(f, ".csv") && !strings.HasSuffix(f, ".csv.gz") {
-				p.bad(at("file"), key("file"), ErrBadValue, "%q must end in .csv or .csv.gz", f)
-			}
-			s.File = resolve(c.Dir, f)
-		}
-		if rc.Role == nil {
-			p.bad(at(), key("role"), ErrMissing, "is required (astrometry, spectroscopy or photometry)")
-		} else {
-			s.Role = catalog.Role(*rc.Role)
-			ok := false
-			for _, v := range validRoles {
-				ok = ok || v == s.Role
-			}
-			if !ok {
-				p.bad(at("role"), key("role"), ErrBadValue, "%q is not astrometry, spectroscopy or photometry", *rc.Role)
-			}
-			if s.Role == catalog.Astrometry {
-				astrometry++
-				if astrometry == 2 {
-					p.bad(at("role"), key("role"), ErrBadValue, "a second astrometry catalog; exactly one is allowed")
-				}
-			}
-		}
-		if rc.Epoch == nil {
-			p.bad(at(), key("epoch"), ErrMissing, "is required (Julian year of the positions)")
-		} else {
-			s.EpochJyr = *rc.Epoch
-			if !(s.EpochJyr >= 1800 && s.EpochJyr <= 2200) {
-				p.bad(at("epoch"), key("epoch"), ErrBadValue, "%v is not a Julian year in [1800, 2200]", s.EpochJyr)
-			}
-		}
+		ct.epoch(s, rc.Epoch)
 		if rc.Release != nil {
 			s.Release = *rc.Release
 		}
 		if rc.PositionErrMas != nil {
 			s.PositionErrMas = *rc.PositionErrMas
-			p.num(s.PositionErrMas, 0, true, key("position_err_mas"), tbl, "position_err_mas")
+			p.num(s.PositionErrMas, 0, true, ct.key("position_err_mas"), ct.elem, "position_err_mas")
 		} else if s.Role != catalog.Astrometry {
 			s.PositionErrMas = DefaultSecondaryPositionErrMas
 		}
@@ -436,34 +423,115 @@ func (p *parser) catalogs(c *Campaign, r *raw) {
 		if rc.NullMarkers != nil {
 			s.NullMarkers = append(make([]string, 0, len(*rc.NullMarkers)), *rc.NullMarkers...)
 		}
-		s.Columns = make(map[string]string, len(rc.Columns))
-		for f, h := range rc.Columns {
-			fld, ok := catalog.FieldByName(f)
-			switch {
-			case !ok || !catalog.Mappable(fld):
-				p.bad(at("columns", f), key("columns."+f), ErrUnknownField, "%q is not a canonical field%s", f, retired.Hint(f))
-			case h == "":
-				p.bad(at("columns", f), key("columns."+f), ErrBadValue, "empty column header")
-			}
-			s.Columns[f] = h
-		}
-		s.Units = make(map[string]string, len(rc.Units))
-		for f, u := range rc.Units {
-			fld, ok := catalog.FieldByName(f)
-			if !ok || !catalog.Mappable(fld) {
-				p.bad(at("units", f), key("units."+f), ErrUnknownField, "%q is not a canonical field%s", f, retired.Hint(f))
-			} else if err := catalog.CheckUnit(fld, u); err != nil {
-				p.bad(at("units", f), key("units."+f), ErrBadUnit, "%v", err)
-			}
-			s.Units[f] = u
-		}
-		if d, e := s.Units["distance"], s.Units["distance_err"]; (e == "mag" && d != "mag") || (d == "mag" && e != "" && e != "mag") {
-			p.bad(at("units"), key("units"), ErrBadUnit, "distance and distance_err must both be in mag or neither (got %q and %q)", d, e)
-		}
+		ct.columns(s, rc.Columns)
+		ct.units(s, rc.Units)
 		c.Catalogs = append(c.Catalogs, cs)
 	}
 	if astrometry == 0 {
-		p.bad(0, "catalog", ErrBadValue, "no catalog has role = \"astrometry\"; exactly one is required")
+		p.bad(tomlpos.Pos{}, "catalog", ErrBadValue, "no catalog has role = \"astrometry\"; exactly one is required")
+	}
+}
+
+// catTable is the i-th (0-based) [[catalog]] table being checked.
+type catTable struct {
+	*parser
+	i    int
+	elem string // its path segment in the file, "catalog#i"
+}
+
+// at is the position of a key of the table, else of the table's header.
+func (ct catTable) at(key ...string) tomlpos.Pos {
+	return ct.pos.Near(append([]string{ct.elem}, key...)...)
+}
+
+// key names a key of the table as people read it, catalogs numbered from
+// 1: "catalog[2].role".
+func (ct catTable) key(k string) string { return fmt.Sprintf("catalog[%d].%s", ct.i+1, k) }
+
+func (ct catTable) name(s *catalog.Spec, name *string, seen map[string]int) {
+	if name == nil {
+		ct.bad(ct.at(), ct.key("name"), ErrMissing, "is required")
+		return
+	}
+	s.Name = *name
+	if !catNameRE.MatchString(s.Name) {
+		ct.bad(ct.at("name"), ct.key("name"), ErrBadValue, "%q must match [a-z][a-z0-9_]*", s.Name)
+	} else if first, dup := seen[s.Name]; dup {
+		ct.bad(ct.at("name"), ct.key("name"), ErrBadValue, "%q already used by the catalog on line %d", s.Name, first)
+	} else {
+		seen[s.Name] = ct.at("name").Line
+	}
+}
+
+func (ct catTable) file(s *catalog.Spec, file *string, dir string) {
+	if file == nil || *file == "" {
+		ct.bad(ct.at(), ct.key("file"), ErrMissing, "is required")
+		return
+	}
+	f := *file
+	if !strings.HasSuffix(f, ".csv") && !strings.HasSuffix(f, ".csv.gz") {
+		ct.bad(ct.at("file"), ct.key("file"), ErrBadValue, "%q must end in .csv or .csv.gz", f)
+	}
+	s.File = resolve(dir, f)
+}
+
+// role sets the catalog's role; it returns false when the role is absent.
+func (ct catTable) role(s *catalog.Spec, role *string) bool {
+	if role == nil {
+		ct.bad(ct.at(), ct.key("role"), ErrMissing, "is required (astrometry, spectroscopy or photometry)")
+		return false
+	}
+	s.Role = catalog.Role(*role)
+	ok := false
+	for _, v := range validRoles {
+		ok = ok || v == s.Role
+	}
+	if !ok {
+		ct.bad(ct.at("role"), ct.key("role"), ErrBadValue, "%q is not astrometry, spectroscopy or photometry", *role)
+	}
+	return true
+}
+
+func (ct catTable) epoch(s *catalog.Spec, epoch *float64) {
+	if epoch == nil {
+		ct.bad(ct.at(), ct.key("epoch"), ErrMissing, "is required (Julian year of the positions)")
+		return
+	}
+	s.EpochJyr = *epoch
+	if !(s.EpochJyr >= 1800 && s.EpochJyr <= 2200) {
+		ct.bad(ct.at("epoch"), ct.key("epoch"), ErrBadValue, "%v is not a Julian year in [1800, 2200]", s.EpochJyr)
+	}
+}
+
+// columns checks the map of canonical field -> column header.
+func (ct catTable) columns(s *catalog.Spec, cols map[string]string) {
+	s.Columns = make(map[string]string, len(cols))
+	for f, h := range cols {
+		fld, ok := catalog.FieldByName(f)
+		switch {
+		case !ok || !catalog.Mappable(fld):
+			ct.bad(ct.at("columns", f), ct.key("columns."+f), ErrUnknownField, "%q is not a canonical field%s", f, retired.Hint(f))
+		case h == "":
+			ct.bad(ct.at("columns", f), ct.key("columns."+f), ErrBadValue, "empty column header")
+		}
+		s.Columns[f] = h
+	}
+}
+
+// units checks the map of canonical field -> unit of the file.
+func (ct catTable) units(s *catalog.Spec, units map[string]string) {
+	s.Units = make(map[string]string, len(units))
+	for f, u := range units {
+		fld, ok := catalog.FieldByName(f)
+		if !ok || !catalog.Mappable(fld) {
+			ct.bad(ct.at("units", f), ct.key("units."+f), ErrUnknownField, "%q is not a canonical field%s", f, retired.Hint(f))
+		} else if err := catalog.CheckUnit(fld, u); err != nil {
+			ct.bad(ct.at("units", f), ct.key("units."+f), ErrBadUnit, "%v", err)
+		}
+		s.Units[f] = u
+	}
+	if d, e := s.Units["distance"], s.Units["distance_err"]; (e == "mag" && d != "mag") || (d == "mag" && e != "" && e != "mag") {
+		ct.bad(ct.at("units"), ct.key("units"), ErrBadUnit, "distance and distance_err must both be in mag or neither (got %q and %q)", d, e)
 	}
 }
 
@@ -482,7 +550,7 @@ func (p *parser) galaxy(c *Campaign, g *rawGalaxy) {
 	if g.SunVelocityKms != nil {
 		v := *g.SunVelocityKms
 		if len(v) != 3 {
-			p.bad(p.lines.line("galaxy", "sun_velocity_kms"), "galaxy.sun_velocity_kms", ErrBadValue, "needs 3 components (U, V, W), got %d", len(v))
+			p.bad(p.pos.Near("galaxy", "sun_velocity_kms"), "galaxy.sun_velocity_kms", ErrBadValue, "needs 3 components (U, V, W), got %d", len(v))
 			return
 		}
 		for i := range v {
@@ -503,10 +571,10 @@ func (p *parser) potential(c *Campaign, rp *rawPot) {
 	if rp.Model != nil {
 		c.Potential.Model = *rp.Model
 		if len(rp.Component) > 0 {
-			p.bad(p.lines.line("potential", "model"), "potential.model", ErrBadValue, "give either model or [[potential.component]] tables, not both")
+			p.bad(p.pos.Near("potential", "model"), "potential.model", ErrBadValue, "give either model or [[potential.component]] tables, not both")
 		}
 		if _, err := potential.Builtin(*rp.Model); err != nil {
-			p.bad(p.lines.line("potential", "model"), "potential.model", ErrBadValue, "%v", err)
+			p.bad(p.pos.Near("potential", "model"), "potential.model", ErrBadValue, "%v", err)
 		}
 	}
 	pcs := make([]potential.Component, len(rp.Component))
@@ -519,15 +587,12 @@ func (p *parser) potential(c *Campaign, rp *rawPot) {
 		return
 	}
 	if _, err := potential.New(pcs); err != nil {
-		line, key := p.lines.line("potential", "component"), "potential.component"
 		if ce, ok := err.(*potential.ComponentError); ok {
-			tbl := "component#" + strconv.Itoa(ce.Index)
-			line = p.lines.line("potential", tbl, ce.Field)
-			key = fmt.Sprintf("potential.component[%d].%s", ce.Index+1, ce.Field)
-			p.bad(line, key, ErrBadValue, "%s", ce.Msg)
+			at := p.pos.Near("potential", tomlpos.Elem("component", ce.Index), ce.Field)
+			p.bad(at, fmt.Sprintf("potential.component[%d].%s", ce.Index+1, ce.Field), ErrBadValue, "%s", ce.Msg)
 			return
 		}
-		p.bad(line, key, ErrBadValue, "%v", err)
+		p.bad(p.pos.Near("potential", "component"), "potential.component", ErrBadValue, "%v", err)
 	}
 }
 
@@ -536,7 +601,7 @@ func (p *parser) kinematics(c *Campaign, rk *rawKinemat) {
 		return
 	}
 	k := &c.Kinematics
-	at := func(key string) int { return p.lines.line("kinematics", key) }
+	at := func(key string) tomlpos.Pos { return p.pos.Near("kinematics", key) }
 	if rk.Distance != nil {
 		k.Distance = *rk.Distance
 		ok := false

@@ -10,6 +10,7 @@ import (
 	"testing"
 
 	"starvet/catalog"
+	"starvet/internal/position"
 )
 
 const testDir = "../testdata/ingest/campaign"
@@ -141,47 +142,51 @@ func TestErrors(t *testing.T) {
 		text string
 		err  error
 		line int
+		col  int // counted by hand
 		key  string
 	}{
-		{"unknown top key", "colour = 1\n" + baseText, ErrUnknownKey, 1, "colour"},
-		{"unknown match key", baseText + "[match]\nradius = 1\n", ErrUnknownKey, 13, "match.radius"},
-		{"unknown catalog key", strings.Replace(baseText, "epoch = 2020.5", "epoch = 2020.5\nepoc = 2000", 1), ErrUnknownKey, 12, "catalog.epoc"},
-		{"unknown table", baseText + "[galaxi]\nsun_height_pc = 1\n", ErrUnknownKey, 12, "galaxi"},
-		{"unknown component key", baseText + "[potential]\n[[potential.component]]\nkind = \"point\"\nmass_msun = 1e6\nmass = 1\n", ErrUnknownKey, 16, "potential.component.mass"},
-		{"unknown column field", baseText + "[catalog.columns]\nparalax = \"plx\"\n", ErrUnknownField, 13, "catalog[2].columns.paralax"},
-		{"derived column field", baseText + "[catalog.columns]\ndistance_modulus = \"dm\"\n", ErrUnknownField, 13, "catalog[2].columns.distance_modulus"},
-		{"unknown unit field", baseText + "[catalog.units]\nvelocity = \"m/s\"\n", ErrUnknownField, 13, "catalog[2].units.velocity"},
-		{"unknown unit", baseText + "[catalog.units]\nrv = \"mph\"\n", ErrBadUnit, 13, "catalog[2].units.rv"},
-		{"unit for wrong field", baseText + "[catalog.units]\ndec = \"hour\"\n", ErrBadUnit, 13, "catalog[2].units.dec"},
-		{"modulus error without modulus", baseText + "[catalog.units]\ndistance_err = \"mag\"\n", ErrBadUnit, 12, "catalog[2].units"},
-		{"bad role", strings.Replace(baseText, `"spectroscopy"`, `"spectra"`, 1), ErrBadValue, 10, "catalog[2].role"},
-		{"two astrometry", strings.Replace(baseText, `"spectroscopy"`, `"astrometry"`, 1), ErrBadValue, 10, "catalog[2].role"},
-		{"no astrometry", strings.Replace(baseText, `"astrometry"`, `"photometry"`, 1), ErrBadValue, 0, "catalog"},
-		{"duplicate name", strings.Replace(baseText, `"wren_spec"`, `"lark_astro"`, 1), ErrBadValue, 8, "catalog[2].name"},
-		{"bad name", strings.Replace(baseText, `"wren_spec"`, `"Wren-Spec"`, 1), ErrBadValue, 8, "catalog[2].name"},
-		{"bad suffix", strings.Replace(baseText, `"wren.csv.gz"`, `"wren.fits"`, 1), ErrBadValue, 9, "catalog[2].file"},
-		{"missing epoch", strings.Replace(baseText, "epoch = 2020.5\n", "", 1), ErrMissing, 7, "catalog[2].epoch"},
-		{"negative radius", baseText + "[match]\nradius_arcsec = -1\n", ErrBadValue, 13, "match.radius_arcsec"},
-		{"zero radius", baseText + "[match]\nradius_arcsec = 0\n", ErrBadValue, 13, "match.radius_arcsec"},
-		{"negative duplicate radius", baseText + "[match]\nduplicate_radius_arcsec = -0.1\n", ErrBadValue, 13, "match.duplicate_radius_arcsec"},
-		{"ambiguity below one", baseText + "[match]\nambiguity_ratio = 0.5\n", ErrBadValue, 13, "match.ambiguity_ratio"},
-		{"floor without n_sigma", baseText + "[match]\nradius_floor_arcsec = 0.2\n", ErrBadValue, 13, "match.radius_floor_arcsec"},
-		{"negative position error", strings.Replace(baseText, "epoch = 2020.5", "epoch = 2020.5\nposition_err_mas = -5", 1), ErrBadValue, 12, "catalog[2].position_err_mas"},
-		{"type error", "seed = \"x\"\n" + baseText, ErrSyntax, 1, ""},
-		{"syntax error", baseText + "seed = \n", ErrSyntax, 12, ""},
-		{"velocity needs 3", baseText + "[galaxy]\nsun_velocity_kms = [1, 2]\n", ErrBadValue, 13, "galaxy.sun_velocity_kms"},
-		{"model and components", baseText + "[potential]\nmodel = \"kenyon08-adjusted\"\n[[potential.component]]\nkind = \"point\"\nmass_msun = 1e6\n", ErrBadValue, 13, "potential.model"},
-		{"unknown model", baseText + "[potential]\nmodel = \"mine\"\n", ErrBadValue, 13, "potential.model"},
-		{"bad component", baseText + "[potential]\n[[potential.component]]\nkind = \"point\"\nmass_msun = 1e6\n[[potential.component]]\nkind = \"miyamoto-nagai\"\nmass_msun = 1e10\na_kpc = 3\nb_kpc = -1\n", ErrBadValue, 20, "potential.component[2].b_kpc"},
-		{"negative escape radius", baseText + "[potential]\nescape_radius_kpc = -1\n", ErrBadValue, 13, "potential.escape_radius_kpc"},
-		{"distance method", baseText + "[kinematics]\ndistance = \"guess\"\n", ErrBadValue, 13, "kinematics.distance"},
-		{"probability above one", baseText + "[kinematics]\nunbound_p = 1.5\n", ErrBadValue, 13, "kinematics.unbound_p"},
-		{"marginal above unbound", baseText + "[kinematics]\nunbound_p = 0.4\n", ErrBadValue, 12, "kinematics.marginal_p"},
-		{"zero samples", baseText + "[kinematics]\nsamples = 0\n", ErrBadValue, 13, "kinematics.samples"},
-		{"samples not integer", baseText + "[kinematics]\nsamples = 10.5\n", ErrSyntax, 13, ""},
-		{"negative edsd length", baseText + "[kinematics]\nedsd_length_kpc = -1\n", ErrBadValue, 13, "kinematics.edsd_length_kpc"},
-		{"negative velocity prior", baseText + "[kinematics]\nvelocity_prior_kms = -5\n", ErrBadValue, 13, "kinematics.velocity_prior_kms"},
-		{"dotted key in table", strings.Replace(baseText, "epoch = 2020.5", "epoch = 2020.5\ncolumns.paralax = \"p\"", 1), ErrUnknownField, 12, "catalog[2].columns.paralax"},
+		{"unknown top key", "colour = 1\n" + baseText, ErrUnknownKey, 1, 1, "colour"},
+		{"unknown match key", baseText + "[match]\nradius = 1\n", ErrUnknownKey, 13, 1, "match.radius"},
+		{"unknown catalog key", strings.Replace(baseText, "epoch = 2020.5", "epoch = 2020.5\nepoc = 2000", 1), ErrUnknownKey, 12, 1, "catalog.epoc"},
+		{"unknown table", baseText + "[galaxi]\nsun_height_pc = 1\n", ErrUnknownKey, 12, 1, "galaxi"},
+		{"unknown component key", baseText + "[potential]\n[[potential.component]]\nkind = \"point\"\nmass_msun = 1e6\nmass = 1\n", ErrUnknownKey, 16, 1, "potential.component.mass"},
+		{"unknown column field", baseText + "[catalog.columns]\nparalax = \"plx\"\n", ErrUnknownField, 13, 1, "catalog[2].columns.paralax"},
+		{"derived column field", baseText + "[catalog.columns]\ndistance_modulus = \"dm\"\n", ErrUnknownField, 13, 1, "catalog[2].columns.distance_modulus"},
+		{"unknown unit field", baseText + "[catalog.units]\nvelocity = \"m/s\"\n", ErrUnknownField, 13, 1, "catalog[2].units.velocity"},
+		{"unknown unit", baseText + "[catalog.units]\nrv = \"mph\"\n", ErrBadUnit, 13, 1, "catalog[2].units.rv"},
+		{"unit for wrong field", baseText + "[catalog.units]\ndec = \"hour\"\n", ErrBadUnit, 13, 1, "catalog[2].units.dec"},
+		{"modulus error without modulus", baseText + "[catalog.units]\ndistance_err = \"mag\"\n", ErrBadUnit, 12, 1, "catalog[2].units"},
+		{"bad role", strings.Replace(baseText, `"spectroscopy"`, `"spectra"`, 1), ErrBadValue, 10, 1, "catalog[2].role"},
+		{"two astrometry", strings.Replace(baseText, `"spectroscopy"`, `"astrometry"`, 1), ErrBadValue, 10, 1, "catalog[2].role"},
+		{"no astrometry", strings.Replace(baseText, `"astrometry"`, `"photometry"`, 1), ErrBadValue, 0, 0, "catalog"},
+		{"duplicate name", strings.Replace(baseText, `"wren_spec"`, `"lark_astro"`, 1), ErrBadValue, 8, 1, "catalog[2].name"},
+		{"bad name", strings.Replace(baseText, `"wren_spec"`, `"Wren-Spec"`, 1), ErrBadValue, 8, 1, "catalog[2].name"},
+		{"bad suffix", strings.Replace(baseText, `"wren.csv.gz"`, `"wren.fits"`, 1), ErrBadValue, 9, 1, "catalog[2].file"},
+		{"missing epoch", strings.Replace(baseText, "epoch = 2020.5\n", "", 1), ErrMissing, 7, 1, "catalog[2].epoch"},
+		{"negative radius", baseText + "[match]\nradius_arcsec = -1\n", ErrBadValue, 13, 1, "match.radius_arcsec"},
+		{"zero radius", baseText + "[match]\nradius_arcsec = 0\n", ErrBadValue, 13, 1, "match.radius_arcsec"},
+		{"negative duplicate radius", baseText + "[match]\nduplicate_radius_arcsec = -0.1\n", ErrBadValue, 13, 1, "match.duplicate_radius_arcsec"},
+		{"ambiguity below one", baseText + "[match]\nambiguity_ratio = 0.5\n", ErrBadValue, 13, 1, "match.ambiguity_ratio"},
+		{"floor without n_sigma", baseText + "[match]\nradius_floor_arcsec = 0.2\n", ErrBadValue, 13, 1, "match.radius_floor_arcsec"},
+		{"negative position error", strings.Replace(baseText, "epoch = 2020.5", "epoch = 2020.5\nposition_err_mas = -5", 1), ErrBadValue, 12, 1, "catalog[2].position_err_mas"},
+		{"type error", "seed = \"x\"\n" + baseText, ErrSyntax, 1, 1, ""},
+		{"syntax error", baseText + "seed = \n", ErrSyntax, 12, 8, ""}, // the newline after "seed = "
+		{"indented type error", "  seed = \"x\"\n" + baseText, ErrSyntax, 1, 3, ""},
+		{"indented key", baseText + "[match]\n    radius_arcsec = -1\n", ErrBadValue, 13, 5, "match.radius_arcsec"},
+		{"indented header", baseText + "\t[galaxi]\n", ErrUnknownKey, 12, 2, "galaxi"},
+		{"velocity needs 3", baseText + "[galaxy]\nsun_velocity_kms = [1, 2]\n", ErrBadValue, 13, 1, "galaxy.sun_velocity_kms"},
+		{"model and components", baseText + "[potential]\nmodel = \"kenyon08-adjusted\"\n[[potential.component]]\nkind = \"point\"\nmass_msun = 1e6\n", ErrBadValue, 13, 1, "potential.model"},
+		{"unknown model", baseText + "[potential]\nmodel = \"mine\"\n", ErrBadValue, 13, 1, "potential.model"},
+		{"bad component", baseText + "[potential]\n[[potential.component]]\nkind = \"point\"\nmass_msun = 1e6\n[[potential.component]]\nkind = \"miyamoto-nagai\"\nmass_msun = 1e10\na_kpc = 3\nb_kpc = -1\n", ErrBadValue, 20, 1, "potential.component[2].b_kpc"},
+		{"negative escape radius", baseText + "[potential]\nescape_radius_kpc = -1\n", ErrBadValue, 13, 1, "potential.escape_radius_kpc"},
+		{"distance method", baseText + "[kinematics]\ndistance = \"guess\"\n", ErrBadValue, 13, 1, "kinematics.distance"},
+		{"probability above one", baseText + "[kinematics]\nunbound_p = 1.5\n", ErrBadValue, 13, 1, "kinematics.unbound_p"},
+		{"marginal above unbound", baseText + "[kinematics]\nunbound_p = 0.4\n", ErrBadValue, 12, 1, "kinematics.marginal_p"},
+		{"zero samples", baseText + "[kinematics]\nsamples = 0\n", ErrBadValue, 13, 1, "kinematics.samples"},
+		{"samples not integer", baseText + "[kinematics]\nsamples = 10.5\n", ErrSyntax, 13, 1, ""},
+		{"negative edsd length", baseText + "[kinematics]\nedsd_length_kpc = -1\n", ErrBadValue, 13, 1, "kinematics.edsd_length_kpc"},
+		{"negative velocity prior", baseText + "[kinematics]\nvelocity_prior_kms = -5\n", ErrBadValue, 13, 1, "kinematics.velocity_prior_kms"},
+		{"dotted key in table", strings.Replace(baseText, "epoch = 2020.5", "epoch = 2020.5\ncolumns.paralax = \"p\"", 1), ErrUnknownField, 12, 1, "catalog[2].columns.paralax"},
 	}
 	for _, c := range cases {
 		t.Run(c.name, func(t *testing.T) {
@@ -192,15 +197,15 @@ func TestErrors(t *testing.T) {
 			if !errors.Is(err, c.err) {
 				t.Fatalf("err %v, want %v", err, c.err)
 			}
-			var e *Error
+			var e *position.Error
 			if !errors.As(err, &e) {
-				t.Fatalf("err %T is not *Error", err)
+				t.Fatalf("err %T is not *position.Error", err)
 			}
-			if es, ok := err.(Errors); ok && len(es) != 1 {
+			if es, ok := err.(position.Errors); ok && len(es) != 1 {
 				t.Errorf("want exactly one problem, got:\n%v", err)
 			}
-			if e.Line != c.line || e.Key != c.key || e.File != "camp.toml" {
-				t.Errorf("got %s:%d key %q (%v), want line %d key %q", e.File, e.Line, e.Key, err, c.line, c.key)
+			if e.Line != c.line || e.Col != c.col || e.What != c.key || e.Name != c.key || e.File != "camp.toml" {
+				t.Errorf("got %s:%d:%d key %q (%v), want line %d col %d key %q", e.File, e.Line, e.Col, e.What, err, c.line, c.col, c.key)
 			}
 			if want := "camp.toml:"; !strings.HasPrefix(err.Error(), want) {
 				t.Errorf("message %q lacks file prefix", err)
@@ -212,14 +217,14 @@ func TestErrors(t *testing.T) {
 func TestAllErrorsReported(t *testing.T) {
 	text := "colour = 1\n" + strings.Replace(baseText, `"spectroscopy"`, `"spectra"`, 1) + "[match]\nradius_arcsec = -1\n"
 	_, err := Parse("camp.toml", []byte(text), "/data")
-	var es Errors
+	var es position.Errors
 	if !errors.As(err, &es) || len(es) != 3 {
 		t.Fatalf("want 3 errors, got %v", err)
 	}
 	if !errors.Is(err, ErrUnknownKey) || !errors.Is(err, ErrBadValue) {
 		t.Errorf("errors.Is fails on %v", err)
 	}
-	want := "camp.toml:1: colour: unknown key"
+	want := "camp.toml:1:1: colour: unknown key"
 	if es[0].Error() != want {
 		t.Errorf("first error %q, want %q", es[0], want)
 	}
@@ -239,8 +244,8 @@ func TestEmptyNullMarkers(t *testing.T) {
 
 func TestMarginalLine(t *testing.T) {
 	_, err := Parse("camp.toml", []byte(baseText+"[kinematics]\nunbound_p = 0.4\nmarginal_p = 0.45\n"), "/data")
-	var e *Error
-	if !errors.As(err, &e) || e.Line != 14 || e.Key != "kinematics.marginal_p" {
+	var e *position.Error
+	if !errors.As(err, &e) || e.Line != 14 || e.Col != 1 || e.What != "kinematics.marginal_p" {
 		t.Errorf("got %v", err)
 	}
 }
@@ -316,79 +321,26 @@ samples = 1000
 	}
 }
 
-func TestKeyLines(t *testing.T) {
-	text := `a = 1 # comment [x]
-"quoted.key" = 2
-arr = [
-  1, # y = 3
-  2,
-]
-s = """
-z = 4
-"""
-[t]
-b.c = 5
-inline = { d = 6 }
-[[list]]
-e = 7
-[[list]]
-e = 8
-[list.sub]
-f = 9
-[[list.items]]
-g = 10
-`
-	kl := scanKeyLines(text)
-	cases := []struct {
-		path []string
-		line int
-	}{
-		{[]string{"a"}, 1},
-		{[]string{"quoted.key"}, 2},
-		{[]string{"arr"}, 3},
-		{[]string{"y"}, 0},
-		{[]string{"s"}, 7},
-		{[]string{"z"}, 0},
-		{[]string{"t"}, 10},
-		{[]string{"t", "b", "c"}, 11},
-		{[]string{"t", "inline", "d"}, 12},
-		{[]string{"list#0", "e"}, 14},
-		{[]string{"list#1", "e"}, 16},
-		{[]string{"list", "e"}, 14},
-		{[]string{"list#1", "sub", "f"}, 18},
-		{[]string{"list#1", "items#0", "g"}, 20},
-		{[]string{"list#1", "nothing"}, 15},
-	}
-	for _, c := range cases {
-		t.Run(strings.Join(c.path, "."), func(t *testing.T) {
-			if got := kl.line(c.path...); got != c.line {
-				t.Errorf("line %d, want %d", got, c.line)
-			}
-		})
-	}
-}
-
 // A campaign that still uses a retired name fails, naming the new word, and
 // a catalog header spelled like the retired field still maps like any
 // other header.
 func TestRetiredNames(t *testing.T) {
 	for _, c := range []struct {
-		name, text, key, hint string
-		line                  int
+		name, text, key, want string
 	}{
 		{"kinematics key", baseText + "[kinematics]\nmin_parallax_over_error = 4\n", "kinematics.min_parallax_over_error",
-			"min_parallax_over_error was renamed min_parallax_significance", 13},
+			"camp.toml:13:1: kinematics.min_parallax_over_error: unknown key; min_parallax_over_error was renamed min_parallax_significance"},
 		{"column field", baseText + "[catalog.columns]\nvisibility_periods = \"vp\"\n", "catalog[2].columns.visibility_periods",
-			"visibility_periods was renamed fit_visits", 13},
+			`camp.toml:13:1: catalog[2].columns.visibility_periods: "visibility_periods" is not a canonical field; visibility_periods was renamed fit_visits`},
 	} {
 		t.Run(c.name, func(t *testing.T) {
 			_, err := Parse("camp.toml", []byte(c.text), "/data")
-			var e *Error
+			var e *position.Error
 			if !errors.As(err, &e) {
-				t.Fatalf("err %v is not *Error", err)
+				t.Fatalf("err %v is not *position.Error", err)
 			}
-			if e.Line != c.line || e.Key != c.key || !strings.Contains(err.Error(), c.hint) {
-				t.Errorf("got %v (line %d key %q), want line %d key %q naming %q", err, e.Line, e.Key, c.line, c.key, c.hint)
+			if e.Line != 13 || e.Col != 1 || e.What != c.key || err.Error() != c.want {
+				t.Errorf("got %v (%d:%d key %q), want %s", err, e.Line, e.Col, e.What, c.want)
 			}
 		})
 	}
@@ -399,5 +351,14 @@ func TestRetiredNames(t *testing.T) {
 	}
 	if h := c.Catalogs[1].Columns["fit_visits"]; h != "visibility_periods" {
 		t.Errorf("fit_visits maps to header %q, want visibility_periods", h)
+	}
+}
+
+// A value of the wrong type keeps the decoder's words after its line, and
+// gains the key's column from the scan.
+func TestTypeErrorMessage(t *testing.T) {
+	_, err := Parse("camp.toml", []byte("  seed = \"x\"\n"+baseText), "/data")
+	if want := `camp.toml:1:3: (last key "seed"): incompatible types`; err == nil || !strings.HasPrefix(err.Error(), want) {
+		t.Errorf("got %v, want it to start with %s", err, want)
 	}
 }

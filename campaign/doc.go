@@ -11,10 +11,15 @@
 //
 // Any problem (unknown key, unknown canonical field or unit, bad role, not
 // exactly one astrometry catalog, duplicate or malformed catalog name,
-// negative radius, out-of-range probability, ...) is an *Error naming the
-// file, the line and the key; Parse returns all of them as Errors. Lines of
-// keys come from our own scan of the text, since the TOML library keeps key
-// positions private.
+// negative radius, out-of-range probability, ...) is a *position.Error
+// (starvet/internal/position) naming the file, the 1-based line and column
+// and the dotted key (What and Name, catalogs numbered from 1:
+// "catalog[2].role"), wrapping one of the Err* sentinels and printed as
+// FILE:LINE:COL: key: message; Parse returns all of them as
+// position.Errors, in file order, problems without a place (no astrometry
+// catalog) last. Text that is not TOML, or a value of the wrong type, is a
+// single *position.Error wrapping ErrSyntax. Positions of keys come from
+// starvet/internal/tomlpos, since the TOML library keeps them private.
 //
 // Decisions: a spectroscopic or photometric catalog without position_err_mas
 // gets 100 mas (used only where ra_err/dec_err are absent or missing); the

@@ -60,10 +60,14 @@
 // fingerprints. Comments, layout, rule order, description, source, name
 // and version do not change them.
 //
-// Load errors are LoadErrors: every problem, each with file, line, column
-// and rule id (or the rule's number when it has no id), wrapping one of the
-// Err* sentinels; printed as FILE:LINE:COL: rule "ID": message. The line is
-// the offending key's, else the rule's [[rule]] header. An expression
-// reports the first problem the expr checker finds, with its column inside
-// the expression.
+// Load errors are position.Errors (starvet/internal/position): every
+// problem, in file order, each a *position.Error with file, line and column
+// (1-based), Name the rule id and What `rule "ID"` (or `rule #N (no id)`
+// for the N-th rule of the file when it has no id), wrapping one of the
+// Err* sentinels; printed as FILE:LINE:COL: rule "ID": message. The line
+// and column are the offending key's, else the rule's [[rule]] header's
+// (for an inline array of rule tables, those of "rule ="), found by
+// starvet/internal/tomlpos since the TOML decoder reports no positions of
+// decoded keys. An expression reports the first problem the expr checker
+// finds, with its column inside the expression.
 package rules

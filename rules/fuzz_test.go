@@ -4,11 +4,13 @@ import (
 	"errors"
 	"strings"
 	"testing"
+
+	"starvet/internal/position"
 )
 
 // FuzzLoad feeds arbitrary text to the loader. It must never panic; an
 // accepted file must have valid, unique, sorted ids and stable
-// fingerprints; a rejected one must give positioned LoadErrors.
+// fingerprints; a rejected one must give positioned position.Errors.
 func FuzzLoad(f *testing.F) {
 	f.Add([]byte(fpBase))
 	f.Add([]byte(fpReformatted))
@@ -19,13 +21,13 @@ func FuzzLoad(f *testing.F) {
 		schema := Schema{Catalogs: []string{"spec"}}
 		rs, err := Parse("fuzz.toml", data, schema)
 		if err != nil {
-			var les LoadErrors
+			var les position.Errors
 			if !errors.As(err, &les) || len(les) == 0 {
-				t.Fatalf("error is not LoadErrors: %v", err)
+				t.Fatalf("error is not position.Errors: %v", err)
 			}
 			nLines := strings.Count(string(data), "\n") + 1
 			for _, e := range les {
-				if e.Line < 1 || e.Line > nLines+1 || e.Col < 1 || e.Kind == nil || e.File != "fuzz.toml" {
+				if e.Line < 1 || e.Line > nLines+1 || e.Col < 1 || e.Err == nil || e.File != "fuzz.toml" {
 					t.Fatalf("bad position or kind in %+v (file has %d lines)", e, nLines)
 				}
 			}

@@ -3,6 +3,8 @@ package rules
 import (
 	"errors"
 	"testing"
+
+	"starvet/internal/position"
 )
 
 // Positions must survive multi-line strings, multi-line arrays, comments
@@ -31,7 +33,7 @@ fields = [
 "limit" = 3
 `
 	_, err := Parse("p.toml", []byte(text), Schema{})
-	var les LoadErrors
+	var les position.Errors
 	if !errors.As(err, &les) {
 		t.Fatalf("got %v", err)
 	}
@@ -48,7 +50,7 @@ fields = [
 		t.Fatalf("got %d errors:\n%v", len(les), err)
 	}
 	for i, w := range want {
-		if les[i].Line != w.line || les[i].RuleID != w.id || !errors.Is(les[i], w.kind) {
+		if les[i].Line != w.line || les[i].Name != w.id || !errors.Is(les[i], w.kind) {
 			t.Errorf("error %d: %v; want line %d rule %q", i, les[i], w.line, w.id)
 		}
 	}
@@ -57,12 +59,12 @@ fields = [
 func TestInlineRuleArray(t *testing.T) {
 	text := "name = \"p\"\nversion = \"1\"\nrule = [\n  {id = \"a\", severity = \"flag\", check = \"duplicate\"},\n  {id = \"b\", severity = \"bad\", check = \"duplicate\"},\n]\n"
 	_, err := Parse("i.toml", []byte(text), Schema{})
-	var les LoadErrors
+	var les position.Errors
 	if !errors.As(err, &les) || len(les) != 1 {
 		t.Fatalf("got %v", err)
 	}
 	// No [[rule]] headers: the error falls back to the line of "rule =".
-	if les[0].Line != 3 || les[0].RuleID != "b" || !errors.Is(les[0], ErrSeverity) {
+	if les[0].Line != 3 || les[0].Name != "b" || !errors.Is(les[0], ErrSeverity) {
 		t.Errorf("got %v", les[0])
 	}
 }

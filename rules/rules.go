@@ -8,13 +8,15 @@ import (
 	"os"
 	"regexp"
 	"sort"
-	"starvet/internal/retired"
 	"strconv"
 	"strings"
 
 	"github.com/BurntSushi/toml"
 
 	"starvet/catalog"
+	"starvet/internal/position"
+	"starvet/internal/retired"
+	"starvet/internal/tomlpos"
 )
 
 // Severity is what failing a rule does to a star.
@@ -108,21 +110,31 @@ var idRe = regexp.MustCompile(`^[a-z0-9]+(-[a-z0-9]+)*$`)
 type loader struct {
 	ruleNo int // 1-based number of the rule being checked, 0 outside rules
 	file   string
-	lay    layout
-	errs   LoadErrors
+	pos    *tomlpos.Map
+	errs   position.Errors
 	schema Schema
 	env    *exprEnv
 }
 
-func (l *loader) add(p pos, ruleID string, kind error, format string, a ...any) {
+// add records a problem at p. What names the rule as people read it: by
+// its id, else by its number in the file.
+func (l *loader) add(p tomlpos.Pos, ruleID string, kind error, format string, a ...any) {
 	if p.Line < 1 {
-		p = pos{1, 1}
+		p = tomlpos.Pos{Line: 1, Col: 1}
 	}
-	l.errs = append(l.errs, &LoadError{File: l.file, Line: p.Line, Col: p.Col, RuleID: ruleID, RuleNo: l.ruleNo, Kind: kind, Msg: fmt.Sprintf(format, a...)})
+	what := ""
+	switch {
+	case ruleID != "":
+		what = fmt.Sprintf("rule %q", ruleID)
+	case l.ruleNo > 0:
+		what = fmt.Sprintf("rule #%d (no id)", l.ruleNo)
+	}
+	l.errs = append(l.errs, &position.Error{File: l.file, Line: p.Line, Col: p.Col, Name: ruleID, What: what, Msg: fmt.Sprintf(format, a...), Err: kind})
 }
 
 // Parse compiles rule-file text; name is used in error messages. On error it
-// returns LoadErrors holding every problem found.
+// returns position.Errors holding every problem found, in file order, each
+// wrapping one of the Err* sentinels.
 func Parse(name string, data []byte, schema Schema) (*RuleSet, error) {
 	seenCat := map[string]bool{}
 	for _, c := range schema.Catalogs {
@@ -137,24 +149,47 @@ func Parse(name string, data []byte, schema Schema) (*RuleSet, error) {
 	var raw map[string]any
 	if _, err := toml.Decode(text, &raw); err != nil {
 		var pe toml.ParseError
-		p := pos{1, 1}
+		p := tomlpos.Pos{Line: 1, Col: 1}
 		msg := err.Error()
 		if errors.As(err, &pe) {
-			p = pos{pe.Position.Line, pe.Position.Col}
+			p = tomlpos.Pos{Line: pe.Position.Line, Col: pe.Position.Col}
 			msg = pe.Message
 		}
 		l.add(p, "", ErrSyntax, "%s", msg)
 		return nil, l.errs
 	}
-	l.lay = scanLayout(text)
+	l.pos = tomlpos.Scan(text)
 
 	rs := &RuleSet{File: name}
+	l.header(raw, rs)
+	tables := l.ruleTables(raw)
+	if schema.AnyCatalog {
+		l.discoverCatalogs(tables)
+	}
+	rs.Catalogs = l.schema.Catalogs
+	l.env = newExprEnv(rs.Catalogs)
+
+	rs.Rules = l.rules(tables)
+	if len(l.errs) > 0 {
+		sort.SliceStable(l.errs, func(i, j int) bool {
+			if l.errs[i].Line != l.errs[j].Line {
+				return l.errs[i].Line < l.errs[j].Line
+			}
+			return l.errs[i].Col < l.errs[j].Col
+		})
+		return nil, l.errs
+	}
+	sort.Slice(rs.Rules, func(i, j int) bool { return rs.Rules[i].ID < rs.Rules[j].ID })
+	rs.Fingerprint = setFingerprint(rs.Rules)
+	return rs, nil
+}
+
+// header reads the top-level keys name and version and reports any other
+// top-level key or table except rule.
+func (l *loader) header(raw map[string]any, rs *RuleSet) {
 	for _, k := range sortedKeys(raw) {
 		v := raw[k]
-		p := l.lay.top[k]
-		if op, ok := l.lay.other[k]; ok && p.Line == 0 {
-			p = op
-		}
+		p := l.pos.Near(k)
 		switch k {
 		case "name", "version":
 			s, ok := v.(string)
@@ -172,15 +207,19 @@ func Parse(name string, data []byte, schema Schema) (*RuleSet, error) {
 	}
 	for _, k := range []string{"name", "version"} {
 		if _, ok := raw[k]; !ok {
-			l.add(pos{1, 1}, "", ErrMissingParam, "missing top-level %s", k)
+			l.add(tomlpos.Pos{Line: 1, Col: 1}, "", ErrMissingParam, "missing top-level %s", k)
 		}
 	}
+}
 
+// ruleTables returns the rule tables, from [[rule]] headers or an inline
+// array of tables.
+func (l *loader) ruleTables(raw map[string]any) []map[string]any {
 	var tables []map[string]any
 	switch r := raw["rule"].(type) {
 	case nil:
 		if _, ok := raw["rule"]; ok {
-			l.add(l.lay.top["rule"], "", ErrParamType, "rule must be [[rule]] tables")
+			l.add(l.pos.Near("rule"), "", ErrParamType, "rule must be [[rule]] tables")
 		}
 	case []map[string]any:
 		tables = r
@@ -188,60 +227,15 @@ func Parse(name string, data []byte, schema Schema) (*RuleSet, error) {
 		for _, t := range r {
 			m, ok := t.(map[string]any)
 			if !ok {
-				l.add(l.lay.top["rule"], "", ErrParamType, "rule must be [[rule]] tables")
+				l.add(l.pos.Near("rule"), "", ErrParamType, "rule must be [[rule]] tables")
 				break
 			}
 			tables = append(tables, m)
 		}
 	default:
-		p := l.lay.top["rule"]
-		if op, ok := l.lay.other["rule"]; ok {
-			p = op
-		}
-		l.add(p, "", ErrParamType, "rule must be [[rule]] tables")
+		l.add(l.pos.Near("rule"), "", ErrParamType, "rule must be [[rule]] tables")
 	}
-
-	if schema.AnyCatalog {
-		l.discoverCatalogs(tables)
-	}
-	rs.Catalogs = l.schema.Catalogs
-	l.env = newExprEnv(rs.Catalogs)
-
-	ids := map[string]int{}
-	for i, t := range tables {
-		var rp rulePos
-		if i < len(l.lay.rules) {
-			rp = l.lay.rules[i]
-		} else {
-			rp = rulePos{header: l.lay.top["rule"], keys: map[string]pos{}}
-		}
-		l.ruleNo = i + 1
-		r, ok := l.rule(t, rp)
-		if r.ID != "" {
-			if first, dup := ids[r.ID]; dup {
-				l.add(keyPos(rp, "id"), r.ID, ErrDuplicateID, "duplicate id (first used by the rule on line %d)", first)
-				ok = false
-			} else {
-				ids[r.ID] = rp.header.Line
-			}
-		}
-		if ok {
-			rs.Rules = append(rs.Rules, r)
-		}
-	}
-	l.ruleNo = 0
-	if len(l.errs) > 0 {
-		sort.SliceStable(l.errs, func(i, j int) bool {
-			if l.errs[i].Line != l.errs[j].Line {
-				return l.errs[i].Line < l.errs[j].Line
-			}
-			return l.errs[i].Col < l.errs[j].Col
-		})
-		return nil, l.errs
-	}
-	sort.Slice(rs.Rules, func(i, j int) bool { return rs.Rules[i].ID < rs.Rules[j].ID })
-	rs.Fingerprint = setFingerprint(rs.Rules)
-	return rs, nil
+	return tables
 }
 
 // discoverCatalogs appends every catalog name the file mentions.
@@ -270,15 +264,308 @@ func (l *loader) discoverCatalogs(tables []map[string]any) {
 	}
 }
 
-func keyPos(rp rulePos, key string) pos {
-	if p, ok := rp.keys[key]; ok {
+// rules checks and compiles every rule table and returns those without
+// errors; an id used twice is an error at its second use.
+func (l *loader) rules(tables []map[string]any) []*Rule {
+	var out []*Rule
+	ids := map[string]int{} // id -> line of its first rule
+	for i, t := range tables {
+		elem := tomlpos.Elem("rule", i)
+		l.ruleNo = i + 1
+		r, ok := l.rule(t, elem)
+		if r.ID != "" {
+			if first, dup := ids[r.ID]; dup {
+				l.add(l.ruleAt(elem, "id"), r.ID, ErrDuplicateID, "duplicate id (first used by the rule on line %d)", first)
+				ok = false
+			} else {
+				ids[r.ID] = r.Line
+			}
+		}
+		if ok {
+			out = append(out, r)
+		}
+	}
+	l.ruleNo = 0
+	return out
+}
+
+// ruleLoad is one [[rule]] table being checked and compiled.
+type ruleLoad struct {
+	*loader
+	t    map[string]any
+	elem string // the rule's path segment in the file, "rule#i"
+	r    *Rule
+	spec checkSpec // the built-in check's, zero for an expression rule
+
+	check, exprSrc    string // the check and expr values when they are strings
+	hasCheck, hasExpr bool
+}
+
+// ruleAt is the position of key in the rule elem ("rule#i"), else of the
+// rule's [[rule]] header, else (an inline array of tables has no headers)
+// of "rule =". With no key it is the header's position.
+func (l *loader) ruleAt(elem string, key ...string) tomlpos.Pos {
+	if p, ok := l.pos.Find(append([]string{elem}, key...)...); ok {
 		return p
 	}
-	return rp.header
+	if p, ok := l.pos.Find(elem); ok {
+		return p
+	}
+	return l.pos.Near("rule")
+}
+
+func (rl *ruleLoad) at(key string) tomlpos.Pos { return rl.ruleAt(rl.elem, key) }
+
+func (rl *ruleLoad) headerPos() tomlpos.Pos { return rl.ruleAt(rl.elem) }
+
+func (rl *ruleLoad) add(p tomlpos.Pos, kind error, format string, a ...any) {
+	rl.loader.add(p, rl.r.ID, kind, format, a...)
+}
+
+// rule checks and compiles one [[rule]] table; ok is false when the table
+// has errors (which are recorded).
+func (l *loader) rule(t map[string]any, elem string) (r *Rule, ok bool) {
+	nErr := len(l.errs)
+	rl := &ruleLoad{loader: l, t: t, elem: elem,
+		r: &Rule{Field: -1, Limit: math.NaN(), MinProb: math.NaN(), MaxSepArcsec: math.NaN(), Line: l.ruleAt(elem).Line}}
+	rl.idAndSeverity()
+	rl.checkOrExpr()
+	rl.unknownKeys()
+	rl.params()
+	rl.voidsAndWhen()
+	if len(l.errs) > nErr {
+		return rl.r, false
+	}
+	rl.r.Fingerprint = ruleFingerprint(rl.r)
+	return rl.r, true
+}
+
+// str returns the string value of key, "" when it is absent (an error if
+// required) or not a string (an error).
+func (rl *ruleLoad) str(key string, required bool) string {
+	v, ok := rl.t[key]
+	if !ok {
+		if required {
+			rl.add(rl.headerPos(), ErrMissingParam, "missing %s", key)
+		}
+		return ""
+	}
+	s, ok := v.(string)
+	if !ok {
+		rl.add(rl.at(key), ErrParamType, "%s must be a string, got %s", key, tomlType(v))
+		return ""
+	}
+	return s
+}
+
+func (rl *ruleLoad) idAndSeverity() {
+	r, t := rl.r, rl.t
+	r.ID = rl.str("id", true)
+	if _, ok := t["id"]; ok && r.ID != "" && !idRe.MatchString(r.ID) {
+		rl.add(rl.at("id"), ErrBadID, "id must be lower-case letters, digits and single hyphens")
+	} else if _, ok := t["id"].(string); ok && r.ID == "" {
+		rl.add(rl.at("id"), ErrBadID, "id is empty")
+	}
+	r.Description = rl.str("description", false)
+	r.Source = rl.str("source", false)
+	sev := rl.str("severity", true)
+	switch Severity(sev) {
+	case Reject, Flag:
+		r.Severity = Severity(sev)
+	default:
+		if _, isStr := t["severity"].(string); isStr { // absent or not a string: reported by str
+			rl.add(rl.at("severity"), ErrSeverity, "severity %q: want reject or flag", sev)
+		}
+	}
+}
+
+// checkOrExpr reads the rule's test: exactly one of a built-in check and
+// an expression.
+func (rl *ruleLoad) checkOrExpr() {
+	r := rl.r
+	rl.check = rl.str("check", false)
+	rl.exprSrc = rl.str("expr", false)
+	_, rl.hasCheck = rl.t["check"]
+	_, rl.hasExpr = rl.t["expr"]
+	switch {
+	case rl.hasCheck && rl.hasExpr:
+		rl.add(rl.at("expr"), ErrCheckOrExpr, "has both check and expr")
+	case !rl.hasCheck && !rl.hasExpr:
+		rl.add(rl.headerPos(), ErrCheckOrExpr, "has neither check nor expr")
+	case rl.hasCheck && rl.check != "":
+		spec, ok := checkSpecs[Check(rl.check)]
+		if !ok {
+			rl.add(rl.at("check"), ErrUnknownCheck, "unknown check %q%s (want one of %s)", rl.check, retired.Hint(rl.check), checkNames())
+			return
+		}
+		rl.spec = spec
+		r.Check = Check(rl.check)
+		r.Dir = spec.dir
+		r.Field = spec.field
+	case rl.hasExpr && rl.exprSrc != "":
+		r.Expr = rl.compile(rl.exprSrc, "expr")
+	case rl.hasCheck:
+		if _, isStr := rl.t["check"].(string); isStr {
+			rl.add(rl.at("check"), ErrUnknownCheck, "check is empty")
+		}
+	}
+}
+
+// unknownKeys reports keys that are neither common to every rule nor a
+// parameter of the rule's check.
+func (rl *ruleLoad) unknownKeys() {
+	r := rl.r
+	allowed := map[string]bool{}
+	for _, p := range rl.spec.params {
+		allowed[p.key] = true
+	}
+	for _, k := range sortedKeys(rl.t) {
+		if commonKeys[k] || allowed[k] {
+			continue
+		}
+		if r.Check == "" && rl.hasCheck && rl.check != "" {
+			continue // unknown check already reported
+		}
+		what := "an expression rule"
+		if r.Check != "" {
+			what = "check " + string(r.Check)
+		}
+		rl.add(rl.at(k), ErrUnknownKey, "unknown key %q for %s", k, what)
+	}
+}
+
+// params reads the check's parameters, each by its kind.
+func (rl *ruleLoad) params() {
+	r := rl.r
+	for _, p := range rl.spec.params {
+		v, ok := rl.t[p.key]
+		if !ok {
+			if p.required {
+				rl.add(rl.headerPos(), ErrMissingParam, "check %s needs %s (%s)", r.Check, p.key, p.kind)
+			}
+			continue
+		}
+		kp := rl.at(p.key)
+		switch p.kind {
+		case kindNumber:
+			rl.numberParam(p.key, v, kp)
+		case kindBool:
+			b, ok := v.(bool)
+			if !ok {
+				rl.add(kp, ErrParamType, "%s must be true or false, got %s", p.key, tomlType(v))
+				continue
+			}
+			r.AllowAmbiguous = b
+		case kindField:
+			rl.fieldParam(p.key, v, kp)
+		case kindFieldList:
+			if list, ok := v.([]any); ok && len(list) == 0 {
+				rl.add(kp, ErrBadValue, "%s is empty", p.key)
+			}
+			r.Fields = append(r.Fields, rl.fieldList(v, kp, r.ID, p.key)...)
+		case kindCatalog:
+			rl.catalogParam(v, kp)
+		}
+	}
+	if r.Check == MatchQuality && math.IsNaN(r.MinProb) && math.IsNaN(r.MaxSepArcsec) && r.AllowAmbiguous {
+		rl.add(rl.headerPos(), ErrMissingParam, "match check tests nothing: give min_prob, max_sep_arcsec, or leave allow_ambiguous false")
+	}
+}
+
+func (rl *ruleLoad) numberParam(key string, v any, kp tomlpos.Pos) {
+	r := rl.r
+	x, ok := number(v)
+	if !ok {
+		rl.add(kp, ErrParamType, "%s must be a number, got %s", key, tomlType(v))
+		return
+	}
+	if math.IsNaN(x) || math.IsInf(x, 0) {
+		rl.add(kp, ErrBadValue, "%s must be finite", key)
+		return
+	}
+	switch key {
+	case "limit":
+		r.Limit = x
+	case "min_prob":
+		if x < 0 || x > 1 {
+			rl.add(kp, ErrBadValue, "min_prob %v outside [0, 1]", x)
+		}
+		r.MinProb = x
+	case "max_sep_arcsec":
+		if x < 0 {
+			rl.add(kp, ErrBadValue, "max_sep_arcsec %v is negative", x)
+		}
+		r.MaxSepArcsec = x
+	}
+}
+
+func (rl *ruleLoad) fieldParam(key string, v any, kp tomlpos.Pos) {
+	s, ok := v.(string)
+	if !ok {
+		rl.add(kp, ErrParamType, "%s must be a field name string, got %s", key, tomlType(v))
+		return
+	}
+	f, ok := fieldByName[s]
+	if !ok {
+		rl.add(kp, ErrUnknownField, "unknown field %q%s", s, retired.Hint(s))
+		return
+	}
+	rl.r.Field = f
+}
+
+// catalogParam resolves a match rule's catalog to indices into the
+// schema's catalogs.
+func (rl *ruleLoad) catalogParam(v any, kp tomlpos.Pos) {
+	r := rl.r
+	s, ok := v.(string)
+	if !ok {
+		rl.add(kp, ErrParamType, "catalog must be a string, got %s", tomlType(v))
+		return
+	}
+	r.Catalog = s
+	if s == AllCatalogs {
+		r.CatalogIdx = make([]int, len(rl.schema.Catalogs))
+		for i := range r.CatalogIdx {
+			r.CatalogIdx[i] = i
+		}
+		return
+	}
+	idx := -1
+	for i, c := range rl.schema.Catalogs {
+		if c == s {
+			idx = i
+		}
+	}
+	if idx < 0 {
+		rl.add(kp, ErrUnknownCatalog, "unknown catalog %q (secondary catalogs: %s)", s, listOrNone(rl.schema.Catalogs))
+		return
+	}
+	r.CatalogIdx = []int{idx}
+}
+
+// voidsAndWhen reads the optional voids list and precondition, and reports
+// an empty expression (left until now to keep the reporting order).
+func (rl *ruleLoad) voidsAndWhen() {
+	r, t := rl.r, rl.t
+	if v, ok := t["voids"]; ok {
+		r.Voids = rl.fieldList(v, rl.at("voids"), r.ID, "voids")
+	}
+	if _, ok := t["when"]; ok {
+		if w := rl.str("when", false); w != "" {
+			r.When = rl.compile(w, "when")
+		} else if _, isStr := t["when"].(string); isStr {
+			rl.add(rl.at("when"), ErrExpr, "when is empty")
+		}
+	}
+	if rl.hasExpr && rl.exprSrc == "" {
+		if _, isStr := t["expr"].(string); isStr {
+			rl.add(rl.at("expr"), ErrExpr, "expr is empty")
+		}
+	}
 }
 
 // fieldList reads a list of canonical field names, reporting problems at p.
-func (l *loader) fieldList(v any, p pos, id, key string) []catalog.Field {
+func (l *loader) fieldList(v any, p tomlpos.Pos, id, key string) []catalog.Field {
 	list, ok := v.([]any)
 	if !ok {
 		l.add(p, id, ErrParamType, "%s must be a list of field names, got %s", key, tomlType(v))
@@ -305,234 +592,13 @@ func (l *loader) fieldList(v any, p pos, id, key string) []catalog.Field {
 	return out
 }
 
-// rule checks and compiles one [[rule]] table; ok is false when the table
-// has errors (which are recorded).
-func (l *loader) rule(t map[string]any, rp rulePos) (r *Rule, ok bool) {
-	nErr := len(l.errs)
-	r = &Rule{Field: -1, Limit: math.NaN(), MinProb: math.NaN(), MaxSepArcsec: math.NaN(), Line: rp.header.Line}
-
-	str := func(key string, required bool) string {
-		v, ok := t[key]
-		if !ok {
-			if required {
-				l.add(rp.header, r.ID, ErrMissingParam, "missing %s", key)
-			}
-			return ""
-		}
-		s, ok := v.(string)
-		if !ok {
-			l.add(keyPos(rp, key), r.ID, ErrParamType, "%s must be a string, got %s", key, tomlType(v))
-			return ""
-		}
-		return s
-	}
-
-	r.ID = str("id", true)
-	if _, ok := t["id"]; ok && r.ID != "" && !idRe.MatchString(r.ID) {
-		l.add(keyPos(rp, "id"), r.ID, ErrBadID, "id must be lower-case letters, digits and single hyphens")
-	} else if _, ok := t["id"].(string); ok && r.ID == "" {
-		l.add(keyPos(rp, "id"), "", ErrBadID, "id is empty")
-	}
-	r.Description = str("description", false)
-	r.Source = str("source", false)
-	sev := str("severity", true)
-	switch Severity(sev) {
-	case Reject, Flag:
-		r.Severity = Severity(sev)
-	default:
-		if _, isStr := t["severity"].(string); isStr { // absent or not a string: reported by str
-			l.add(keyPos(rp, "severity"), r.ID, ErrSeverity, "severity %q: want reject or flag", sev)
-		}
-	}
-
-	check := str("check", false)
-	exprSrc := str("expr", false)
-	_, hasCheck := t["check"]
-	_, hasExpr := t["expr"]
-	var spec checkSpec
-	switch {
-	case hasCheck && hasExpr:
-		l.add(keyPos(rp, "expr"), r.ID, ErrCheckOrExpr, "has both check and expr")
-	case !hasCheck && !hasExpr:
-		l.add(rp.header, r.ID, ErrCheckOrExpr, "has neither check nor expr")
-	case hasCheck && check != "":
-		var ok bool
-		spec, ok = checkSpecs[Check(check)]
-		if !ok {
-			l.add(keyPos(rp, "check"), r.ID, ErrUnknownCheck, "unknown check %q%s (want one of %s)", check, retired.Hint(check), checkNames())
-		} else {
-			r.Check = Check(check)
-			r.Dir = spec.dir
-			r.Field = spec.field
-		}
-	case hasExpr && exprSrc != "":
-		r.Expr = l.compile(exprSrc, "expr", rp, r.ID)
-	case hasCheck:
-		if _, isStr := t["check"].(string); isStr {
-			l.add(keyPos(rp, "check"), r.ID, ErrUnknownCheck, "check is empty")
-		}
-	}
-
-	allowed := map[string]paramKind{}
-	for _, p := range spec.params {
-		allowed[p.key] = p.kind
-	}
-	for _, k := range sortedKeys(t) {
-		if commonKeys[k] {
-			continue
-		}
-		if _, ok := allowed[k]; ok {
-			continue
-		}
-		if r.Check == "" && hasCheck && check != "" {
-			continue // unknown check already reported
-		}
-		what := "an expression rule"
-		if r.Check != "" {
-			what = "check " + string(r.Check)
-		}
-		l.add(keyPos(rp, k), r.ID, ErrUnknownKey, "unknown key %q for %s", k, what)
-	}
-
-	for _, p := range spec.params {
-		v, ok := t[p.key]
-		if !ok {
-			if p.required {
-				l.add(rp.header, r.ID, ErrMissingParam, "check %s needs %s (%s)", r.Check, p.key, p.kind)
-			}
-			continue
-		}
-		kp := keyPos(rp, p.key)
-		switch p.kind {
-		case kindNumber:
-			x, ok := number(v)
-			if !ok {
-				l.add(kp, r.ID, ErrParamType, "%s must be a number, got %s", p.key, tomlType(v))
-				continue
-			}
-			if math.IsNaN(x) || math.IsInf(x, 0) {
-				l.add(kp, r.ID, ErrBadValue, "%s must be finite", p.key)
-				continue
-			}
-			switch p.key {
-			case "limit":
-				r.Limit = x
-			case "min_prob":
-				if x < 0 || x > 1 {
-					l.add(kp, r.ID, ErrBadValue, "min_prob %v outside [0, 1]", x)
-				}
-				r.MinProb = x
-			case "max_sep_arcsec":
-				if x < 0 {
-					l.add(kp, r.ID, ErrBadValue, "max_sep_arcsec %v is negative", x)
-				}
-				r.MaxSepArcsec = x
-			}
-		case kindBool:
-			b, ok := v.(bool)
-			if !ok {
-				l.add(kp, r.ID, ErrParamType, "%s must be true or false, got %s", p.key, tomlType(v))
-				continue
-			}
-			r.AllowAmbiguous = b
-		case kindField:
-			s, ok := v.(string)
-			if !ok {
-				l.add(kp, r.ID, ErrParamType, "%s must be a field name string, got %s", p.key, tomlType(v))
-				continue
-			}
-			f, ok := fieldByName[s]
-			if !ok {
-				l.add(kp, r.ID, ErrUnknownField, "unknown field %q%s", s, retired.Hint(s))
-				continue
-			}
-			r.Field = f
-		case kindFieldList:
-			list, ok := v.([]any)
-			if !ok {
-				l.add(kp, r.ID, ErrParamType, "%s must be a list of field names, got %s", p.key, tomlType(v))
-				continue
-			}
-			if len(list) == 0 {
-				l.add(kp, r.ID, ErrBadValue, "%s is empty", p.key)
-			}
-			seen := map[catalog.Field]bool{}
-			for _, e := range list {
-				s, ok := e.(string)
-				if !ok {
-					l.add(kp, r.ID, ErrParamType, "%s must hold strings, got %s", p.key, tomlType(e))
-					continue
-				}
-				f, ok := fieldByName[s]
-				if !ok {
-					l.add(kp, r.ID, ErrUnknownField, "unknown field %q%s", s, retired.Hint(s))
-					continue
-				}
-				if !seen[f] {
-					seen[f] = true
-					r.Fields = append(r.Fields, f)
-				}
-			}
-		case kindCatalog:
-			s, ok := v.(string)
-			if !ok {
-				l.add(kp, r.ID, ErrParamType, "catalog must be a string, got %s", tomlType(v))
-				continue
-			}
-			r.Catalog = s
-			if s == AllCatalogs {
-				r.CatalogIdx = make([]int, len(l.schema.Catalogs))
-				for i := range r.CatalogIdx {
-					r.CatalogIdx[i] = i
-				}
-				continue
-			}
-			idx := -1
-			for i, c := range l.schema.Catalogs {
-				if c == s {
-					idx = i
-				}
-			}
-			if idx < 0 {
-				l.add(kp, r.ID, ErrUnknownCatalog, "unknown catalog %q (secondary catalogs: %s)", s, listOrNone(l.schema.Catalogs))
-				continue
-			}
-			r.CatalogIdx = []int{idx}
-		}
-	}
-	if r.Check == MatchQuality && math.IsNaN(r.MinProb) && math.IsNaN(r.MaxSepArcsec) && r.AllowAmbiguous {
-		l.add(rp.header, r.ID, ErrMissingParam, "match check tests nothing: give min_prob, max_sep_arcsec, or leave allow_ambiguous false")
-	}
-
-	if v, ok := t["voids"]; ok {
-		r.Voids = l.fieldList(v, keyPos(rp, "voids"), r.ID, "voids")
-	}
-
-	if _, ok := t["when"]; ok {
-		if w := str("when", false); w != "" {
-			r.When = l.compile(w, "when", rp, r.ID)
-		} else if _, isStr := t["when"].(string); isStr {
-			l.add(keyPos(rp, "when"), r.ID, ErrExpr, "when is empty")
-		}
-	}
-	if hasExpr && exprSrc == "" {
-		if _, isStr := t["expr"].(string); isStr {
-			l.add(keyPos(rp, "expr"), r.ID, ErrExpr, "expr is empty")
-		}
-	}
-	if len(l.errs) > nErr {
-		return r, false
-	}
-	r.Fingerprint = ruleFingerprint(r)
-	return r, true
-}
-
-func (l *loader) compile(src, key string, rp rulePos, id string) *Expr {
-	e, fe, err := l.env.compile(src)
+// compile compiles the expression under key, reporting a failure at the
+// key with the column inside the expression.
+func (rl *ruleLoad) compile(src, key string) *Expr {
+	e, fe, err := rl.env.compile(src)
 	if err == nil {
 		return e
 	}
-	p := keyPos(rp, key)
 	msg := err.Error()
 	if old, col, ok := retiredName(src); ok {
 		msg = fmt.Sprintf("%s: unknown name %s%s (at column %d of the expression)", key, old, retired.Hint(old), col)
@@ -541,7 +607,7 @@ func (l *loader) compile(src, key string, rp rulePos, id string) *Expr {
 	} else {
 		msg = key + ": " + msg
 	}
-	l.add(p, id, ErrExpr, "%s", msg)
+	rl.add(rl.at(key), ErrExpr, "%s", msg)
 	return nil
 }
 

@@ -7,6 +7,7 @@ import (
 	"testing"
 
 	"starvet/catalog"
+	"starvet/internal/position"
 )
 
 func TestDefaultLoads(t *testing.T) {
@@ -137,14 +138,14 @@ func TestLoadErrors(t *testing.T) {
 			if err == nil {
 				t.Fatal("no error")
 			}
-			var les LoadErrors
+			var les position.Errors
 			if !errors.As(err, &les) || len(les) == 0 {
-				t.Fatalf("error %T %v is not LoadErrors", err, err)
+				t.Fatalf("error %T %v is not position.Errors", err, err)
 			}
 			if !errors.Is(err, c.kind) {
 				t.Errorf("errors.Is(%v) false for %v", c.kind, err)
 			}
-			var hit *LoadError
+			var hit *position.Error
 			for _, e := range les {
 				if errors.Is(e, c.kind) {
 					hit = e
@@ -154,8 +155,8 @@ func TestLoadErrors(t *testing.T) {
 			if hit == nil {
 				t.Fatalf("no error of kind %v in %v", c.kind, err)
 			}
-			if hit.File != "bad.toml" || hit.Line != c.line || hit.RuleID != c.ruleID || (c.col > 0 && hit.Col != c.col) {
-				t.Errorf("got %s:%d:%d rule %q, want line %d col %d rule %q (%v)", hit.File, hit.Line, hit.Col, hit.RuleID, c.line, c.col, c.ruleID, hit)
+			if hit.File != "bad.toml" || hit.Line != c.line || hit.Name != c.ruleID || (c.col > 0 && hit.Col != c.col) {
+				t.Errorf("got %s:%d:%d rule %q, want line %d col %d rule %q (%v)", hit.File, hit.Line, hit.Col, hit.Name, c.line, c.col, c.ruleID, hit)
 			}
 			if !strings.Contains(hit.Msg, c.inMsg) {
 				t.Errorf("message %q lacks %q", hit.Msg, c.inMsg)
@@ -190,7 +191,7 @@ severity = "flag"
 expr = "mag <"
 `
 	_, err := Parse("many.toml", []byte(text), Schema{})
-	var les LoadErrors
+	var les position.Errors
 	if !errors.As(err, &les) {
 		t.Fatalf("got %v", err)
 	}
@@ -203,7 +204,7 @@ expr = "mag <"
 		t.Fatalf("got %d errors, want %d:\n%v", len(les), len(want), err)
 	}
 	for i, w := range want {
-		if les[i].Line != w.line || les[i].RuleID != w.id || !errors.Is(les[i], w.kind) {
+		if les[i].Line != w.line || les[i].Name != w.id || !errors.Is(les[i], w.kind) {
 			t.Errorf("error %d: %v; want line %d rule %q kind %v", i, les[i], w.line, w.id, w.kind)
 		}
 	}

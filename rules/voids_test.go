@@ -5,6 +5,7 @@ import (
 	"testing"
 
 	"starvet/catalog"
+	"starvet/internal/position"
 )
 
 func TestVoids(t *testing.T) {
@@ -39,7 +40,7 @@ limit = 10
 		t.Error("the order of voids changed the fingerprint")
 	}
 	_, err = Parse("v.toml", []byte(base+`voids = ["rv", "velocity"]`+"\n"), Schema{})
-	var le LoadErrors
+	var le position.Errors
 	if !errors.Is(err, ErrUnknownField) || !errors.As(err, &le) || le[0].Line != 8 {
 		t.Fatalf("unknown field in voids: got %v, want ErrUnknownField on line 8", err)
 	}

@@ -9,6 +9,7 @@ import (
 	"text/tabwriter"
 
 	"starvet/catalog"
+	"starvet/internal/position"
 	"starvet/rules"
 )
 
@@ -75,7 +76,7 @@ func loadRules(env *Env, file, cats string) (*rules.RuleSet, error) {
 	} else {
 		rs, err = rules.Load(file, schema)
 	}
-	var les rules.LoadErrors
+	var les position.Errors
 	if errors.As(err, &les) {
 		for _, e := range les {
 			fmt.Fprintln(env.Stderr, e.Error())

@@ -14,9 +14,9 @@ import (
 // means "unknown" or "not applicable".
 type Error struct {
 	File string
-	Line int   // 1-based line of a text file
-	Col  int   // 1-based column: a character in TOML, a field in a delimited row
-	Row  int64 // 1-based row of a binary table (files without lines)
+	Line int    // 1-based line of a text file
+	Col  int    // 1-based column: a character in TOML, a field in a delimited row
+	Row  int64  // 1-based row of a binary table (files without lines)
 	Name string // the bare key, rule id or column name, for programs
 	What string // what the problem is about, as people read it: `column "ra" value "x"`, `rule "snr"`, `kinematics.samples`
 	Msg  string
