@@ -20,16 +20,17 @@ func InputName(i int) string { return catalog.Fields[catalog.Field(i+1)].Name }
 func InputUnit(i int) string { return catalog.Fields[catalog.Field(i+1)].Unit }
 
 // RunInfo identifies what a run was made from; it is written at BeginRun.
+// The run's config_hash is Settings.ConfigHash().
 type RunInfo struct {
 	ToolVersion  string
 	CampaignHash string
 	RulesetHash  string
-	ConfigHash   string
 	MatchHash    string
 	ModelHash    string
 	Seed         int64
 	Full         bool // the run recomputed every star (--full)
 	Note         string
+	Settings     RunSettings // required: BeginRun refuses a run without settings
 }
 
 // RunSummary closes a run. Zero fields are filled from the ledger itself;

@@ -43,7 +43,7 @@ func auditLedger(t *testing.T) string {
 	}
 	// A star a run does not write keeps its verdict of the run before.
 	write := func(recs []db.StarRecord) int64 {
-		w, err := l.BeginRun(ctx, db.RunInfo{ToolVersion: "test", Seed: 1})
+		w, err := l.BeginRun(ctx, db.RunInfo{Settings: testSettings, ToolVersion: "test", Seed: 1})
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -57,7 +57,7 @@ func auditLedger(t *testing.T) string {
 	}
 	defer func() {
 		// A third run that fails after one batch: runs must show what it wrote.
-		w, err := l.BeginRun(ctx, db.RunInfo{ToolVersion: "test"})
+		w, err := l.BeginRun(ctx, db.RunInfo{Settings: testSettings, ToolVersion: "test"})
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -257,3 +257,8 @@ func TestAuditJSONAndCSV(t *testing.T) {
 		}
 	})
 }
+
+// testSettings is what the test runs record: BeginRun refuses a run
+// without settings. Their values are invented.
+var testSettings = db.RunSettings{Values: []db.Setting{{Name: db.SettingSeed, Value: "1"}, {Name: db.SettingUnboundP, Value: "0.8"},
+	{Name: db.SettingMarginalP, Value: "0.5"}, {Name: db.SettingPotentialModel, Value: "invented-potential"}}, RuleText: "# invented rules\n"}

@@ -44,7 +44,7 @@ func reportLedger(t *testing.T) string {
 		}
 		return db.StarRecord{StarID: id, Inputs: in, Verdict: v, Reasons: rs}
 	}
-	w, err := l.BeginRun(ctx, db.RunInfo{ToolVersion: "test", Seed: 3})
+	w, err := l.BeginRun(ctx, db.RunInfo{Settings: testSettings, ToolVersion: "test", Seed: 3})
 	if err != nil {
 		t.Fatal(err)
 	}
