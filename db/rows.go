@@ -2,6 +2,7 @@ package db
 
 import (
 	"database/sql"
+	"fmt"
 	"math"
 	"slices"
 	"time"
@@ -74,6 +75,20 @@ func (r *Run) StateText() string {
 		return "failed (interrupted)"
 	}
 	return r.State
+}
+
+// WorkText says what a complete run did with its stars, from its stored
+// counts and full flag; "" for a run that did not complete.
+func (r *Run) WorkText() string {
+	switch {
+	case r.State != "complete":
+		return ""
+	case r.Full:
+		return "full (--full): every star computed"
+	case r.StarsCarried == 0:
+		return "every star computed"
+	}
+	return fmt.Sprintf("incremental: %d computed, %d carried", r.StarsComputed, r.StarsCarried)
 }
 
 // CatalogRow describes one input catalog of a run.
