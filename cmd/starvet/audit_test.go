@@ -261,4 +261,6 @@ func TestAuditJSONAndCSV(t *testing.T) {
 // testSettings is what the test runs record: BeginRun refuses a run
 // without settings. Their values are invented.
 var testSettings = db.RunSettings{Values: []db.Setting{{Name: db.SettingSeed, Value: "1"}, {Name: db.SettingUnboundP, Value: "0.8"},
-	{Name: db.SettingMarginalP, Value: "0.5"}, {Name: db.SettingPotentialModel, Value: "invented-potential"}}, RuleText: "# invented rules\n"}
+	{Name: db.SettingMarginalP, Value: "0.5"}, {Name: db.SettingPotentialModel, Value: "invented-potential"},
+	{Name: db.SettingEscapeRadiusKpc, Value: "187.5"}, {Name: db.SettingGCRadiusKpc, Value: "0.75"}, {Name: db.SettingSunDistanceKpc, Value: "8.3"}},
+	RuleText: "# invented rules\n"}
