@@ -627,7 +627,7 @@ func TestSchemaExamples(t *testing.T) {
 	l := openT(t, tempLedger(t), Options{})
 	writeRun(t, l, []StarRecord{record("HV-0001", 1, 0, "rejected")})
 	writeRun(t, l, []StarRecord{record("HV-0001", 1, 1, "accepted")})
-	want := []int{1, 2, 2} // rows per query: one status, two runs, two reasons
+	want := []int{1, 2, 2, 2} // rows per query: one status, two runs, two thresholds, two reasons
 	for k, q := range strings.Split(strings.TrimSpace(doc[i+len("```sql\n"):j]), ";") {
 		q = strings.TrimSpace(q)
 		if q == "" {
