@@ -42,7 +42,7 @@ func benchAddStars(b *testing.B, nStars int, shuffle bool) {
 			b.Fatal(err)
 		}
 		b.StartTimer()
-		w, err := l.BeginRun(ctx, RunInfo{ToolVersion: "bench"})
+		w, err := l.BeginRun(ctx, RunInfo{Settings: testSettings, ToolVersion: "bench"})
 		if err != nil {
 			b.Fatal(err)
 		}
@@ -128,7 +128,7 @@ func BenchmarkIncremental(b *testing.B) {
 		batch := make([]StarRecord, batchSize)
 		cpu := cpuTime()
 		for b.Loop() {
-			w, err := l.BeginRun(ctx, RunInfo{ToolVersion: "bench"})
+			w, err := l.BeginRun(ctx, RunInfo{Settings: testSettings, ToolVersion: "bench"})
 			if err != nil {
 				b.Fatal(err)
 			}
@@ -188,7 +188,7 @@ func BenchmarkIncremental(b *testing.B) {
 func benchFirstRun(b *testing.B, l *Ledger, n int, mk func(id string, i int) StarRecord) int64 {
 	const batchSize = 20_000
 	ctx := context.Background()
-	w, err := l.BeginRun(ctx, RunInfo{ToolVersion: "bench"})
+	w, err := l.BeginRun(ctx, RunInfo{Settings: testSettings, ToolVersion: "bench"})
 	if err != nil {
 		b.Fatal(err)
 	}

@@ -22,7 +22,7 @@ func TestImplicitCarry(t *testing.T) {
 	r1 := writeRun(t, l, recs)
 	before := runChecksum(t, l, r1)
 
-	w, err := l.BeginRun(ctx, RunInfo{ToolVersion: "test"})
+	w, err := l.BeginRun(ctx, RunInfo{Settings: testSettings, ToolVersion: "test"})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -69,7 +69,7 @@ func TestFailedRunSets(t *testing.T) {
 	l := openT(t, tempLedger(t), Options{})
 	r1 := writeRun(t, l, []StarRecord{record("A", 1, 0, "bound"), record("B", 2, 0, "bound"), record("C", 3, 0, "bound")})
 	// Run 2 writes B (again) and D, then fails.
-	w2, err := l.BeginRun(ctx, RunInfo{ToolVersion: "test"})
+	w2, err := l.BeginRun(ctx, RunInfo{Settings: testSettings, ToolVersion: "test"})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -80,7 +80,7 @@ func TestFailedRunSets(t *testing.T) {
 		t.Fatal(err)
 	}
 	// Run 3 computes C and E and carries the rest of run 1.
-	w3, err := l.BeginRun(ctx, RunInfo{ToolVersion: "test"})
+	w3, err := l.BeginRun(ctx, RunInfo{Settings: testSettings, ToolVersion: "test"})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -143,7 +143,7 @@ func TestVerdictSetsModel(t *testing.T) {
 	model := map[int64]map[string]string{} // run -> star -> "status@computed"
 	var lastComplete int64
 	for run := 1; run <= 14; run++ {
-		w, err := l.BeginRun(ctx, RunInfo{ToolVersion: "test"})
+		w, err := l.BeginRun(ctx, RunInfo{Settings: testSettings, ToolVersion: "test"})
 		if err != nil {
 			t.Fatal(err)
 		}

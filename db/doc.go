@@ -3,13 +3,16 @@
 // and reasons of every computation. It is the only package that knows SQL;
 // db/SCHEMA.md documents every table and column.
 //
-// In: RunInfo at BeginRun; CatalogRow, QuarantineRow and batches of
+// In: RunInfo at BeginRun, with the run's settings (RunSettings: named
+// values and the rule text, written in the transaction that inserts the
+// run, fingerprinted as config_hash); CatalogRow, QuarantineRow and batches of
 // StarRecord (one transaction per batch) from the pipeline; RunSummary at
 // Finish. Values are in the canonical units of starvet/catalog
 // (deg, mas, mas/yr, km/s, kpc); NaN and "" are stored as NULL and read
 // back as NaN and "".
 //
-// Out: Run summaries, PreviousState (status, input hash and computing run
+// Out: Run summaries, RunSettings (what a run recorded; none before
+// schema 8), PreviousState (status, input hash and computing run
 // of each star of a run, for incremental re-vetting), Why (a star's
 // history with input changes between computations), Diff (status
 // transitions between two runs), List (verdicts of a run).

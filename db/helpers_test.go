@@ -51,11 +51,15 @@ func record(id string, i int, salt float64, status string) StarRecord {
 	}
 }
 
+// testSettings is what test runs record: BeginRun refuses a run without
+// settings.
+var testSettings = RunSettings{Values: []Setting{{SettingSeed, "7"}, {SettingUnboundP, "0.8"}, {SettingMarginalP, "0.5"}}, RuleText: "# invented rules\n"}
+
 // writeRun writes one complete run of the given records.
 func writeRun(t testing.TB, l *Ledger, recs []StarRecord) int64 {
 	t.Helper()
 	ctx := context.Background()
-	w, err := l.BeginRun(ctx, RunInfo{ToolVersion: "test", Seed: 7})
+	w, err := l.BeginRun(ctx, RunInfo{Settings: testSettings, ToolVersion: "test", Seed: 7})
 	if err != nil {
 		t.Fatalf("begin run: %v", err)
 	}

@@ -36,7 +36,7 @@ func killChild(path string) {
 		fmt.Println("error", err)
 		os.Exit(4)
 	}
-	w, err := l.BeginRun(ctx, RunInfo{ToolVersion: "doomed"})
+	w, err := l.BeginRun(ctx, RunInfo{Settings: testSettings, ToolVersion: "doomed"})
 	if err != nil {
 		fmt.Println("error", err)
 		os.Exit(4)

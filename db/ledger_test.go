@@ -141,7 +141,7 @@ func TestRoundTripAndAudit(t *testing.T) {
 
 	// Run 2: A-1 recomputed with new inputs and now accepted, A-2 carried,
 	// A-3 recomputed with same status, A-4 gone (withdrawn), A-5 new.
-	w, err := l.BeginRun(ctx, RunInfo{ToolVersion: "test", Seed: 8})
+	w, err := l.BeginRun(ctx, RunInfo{Settings: testSettings, ToolVersion: "test", Seed: 8})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -422,7 +422,7 @@ func TestAppendOnly(t *testing.T) {
 		recs[i] = record(recs[i].StarID, i, 2, "rejected")
 	}
 	// A run that fails half-way and one that completes.
-	w, err := l.BeginRun(ctx, RunInfo{ToolVersion: "test"})
+	w, err := l.BeginRun(ctx, RunInfo{Settings: testSettings, ToolVersion: "test"})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -452,7 +452,7 @@ func TestBadRecords(t *testing.T) {
 	ctx := context.Background()
 	l := openT(t, tempLedger(t), Options{})
 	r1 := writeRun(t, l, []StarRecord{record("ok", 1, 0, "accepted")})
-	w, err := l.BeginRun(ctx, RunInfo{ToolVersion: "test"})
+	w, err := l.BeginRun(ctx, RunInfo{Settings: testSettings, ToolVersion: "test"})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -506,7 +506,7 @@ func TestTwoWriters(t *testing.T) {
 	l1 := openT(t, p, Options{})
 	r1 := writeRun(t, l1, []StarRecord{record("a", 1, 0, "accepted")})
 	sum1 := runChecksum(t, l1, r1)
-	w1, err := l1.BeginRun(ctx, RunInfo{ToolVersion: "first"})
+	w1, err := l1.BeginRun(ctx, RunInfo{Settings: testSettings, ToolVersion: "first"})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -517,7 +517,7 @@ func TestTwoWriters(t *testing.T) {
 	wait := 300 * time.Millisecond
 	l2 := openT(t, p, Options{LockWait: wait}) // writable open must not repair the live run
 	start := time.Now()
-	_, err = l2.BeginRun(ctx, RunInfo{ToolVersion: "second"})
+	_, err = l2.BeginRun(ctx, RunInfo{Settings: testSettings, ToolVersion: "second"})
 	elapsed := time.Since(start)
 	if !errors.Is(err, ErrBusy) {
 		t.Fatalf("second writer: %v, want ErrBusy", err)
@@ -558,7 +558,7 @@ func TestTwoWriters(t *testing.T) {
 	if err := w1.Finish(ctx, RunSummary{}); err != nil {
 		t.Fatal(err)
 	}
-	w2, err := l2.BeginRun(ctx, RunInfo{ToolVersion: "second"})
+	w2, err := l2.BeginRun(ctx, RunInfo{Settings: testSettings, ToolVersion: "second"})
 	if err != nil {
 		t.Fatalf("second writer after the first finished: %v", err)
 	}
@@ -585,7 +585,7 @@ func TestStaleRun(t *testing.T) {
 	p := tempLedger(t)
 	l := openT(t, p, Options{})
 	writeRun(t, l, []StarRecord{record("a", 1, 0, "accepted")})
-	w, err := l.BeginRun(ctx, RunInfo{ToolVersion: "test"})
+	w, err := l.BeginRun(ctx, RunInfo{Settings: testSettings, ToolVersion: "test"})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -627,7 +627,7 @@ func TestSchemaExamples(t *testing.T) {
 	l := openT(t, tempLedger(t), Options{})
 	writeRun(t, l, []StarRecord{record("HV-0001", 1, 0, "rejected")})
 	writeRun(t, l, []StarRecord{record("HV-0001", 1, 1, "accepted")})
-	want := []int{1, 2, 2} // rows per query: one status, two runs, two reasons
+	want := []int{1, 2, 2, 2} // rows per query: one status, two runs, two thresholds, two reasons
 	for k, q := range strings.Split(strings.TrimSpace(doc[i+len("```sql\n"):j]), ";") {
 		q = strings.TrimSpace(q)
 		if q == "" {
@@ -716,7 +716,7 @@ func TestCrossingsAndPositions(t *testing.T) {
 	b := record("B", 2, 0, "rejected")
 	b.Inputs.Values[0], b.Inputs.Values[1] = 123.25, math.NaN() // ra, dec
 	r1 := writeRun(t, l, []StarRecord{a, b})
-	w, err := l.BeginRun(ctx, RunInfo{ToolVersion: "test"})
+	w, err := l.BeginRun(ctx, RunInfo{Settings: testSettings, ToolVersion: "test"})
 	if err != nil {
 		t.Fatal(err)
 	}

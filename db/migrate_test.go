@@ -193,7 +193,7 @@ func TestMigrateFromSchema2(t *testing.T) {
 		t.Errorf("previous state after migration: %d stars, m0007 %+v, m0008 %+v, %v", len(prev), prev["m0007"], prev["m0008"], err)
 	}
 	// The migrated ledger takes a further incremental run.
-	w4, err := l.BeginRun(ctx, RunInfo{ToolVersion: "test", Seed: 9})
+	w4, err := l.BeginRun(ctx, RunInfo{Settings: testSettings, ToolVersion: "test", Seed: 9})
 	if err != nil {
 		t.Fatal(err)
 	}

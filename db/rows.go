@@ -2,6 +2,7 @@ package db
 
 import (
 	"database/sql"
+	"fmt"
 	"math"
 	"slices"
 	"time"
@@ -20,16 +21,17 @@ func InputName(i int) string { return catalog.Fields[catalog.Field(i+1)].Name }
 func InputUnit(i int) string { return catalog.Fields[catalog.Field(i+1)].Unit }
 
 // RunInfo identifies what a run was made from; it is written at BeginRun.
+// The run's config_hash is Settings.ConfigHash().
 type RunInfo struct {
 	ToolVersion  string
 	CampaignHash string
 	RulesetHash  string
-	ConfigHash   string
 	MatchHash    string
 	ModelHash    string
 	Seed         int64
 	Full         bool // the run recomputed every star (--full)
 	Note         string
+	Settings     RunSettings // required: BeginRun refuses a run without settings
 }
 
 // RunSummary closes a run. Zero fields are filled from the ledger itself;
@@ -73,6 +75,20 @@ func (r *Run) StateText() string {
 		return "failed (interrupted)"
 	}
 	return r.State
+}
+
+// WorkText says what a complete run did with its stars, from its stored
+// counts and full flag; "" for a run that did not complete.
+func (r *Run) WorkText() string {
+	switch {
+	case r.State != "complete":
+		return ""
+	case r.Full:
+		return "full (--full): every star computed"
+	case r.StarsCarried == 0:
+		return "every star computed"
+	}
+	return fmt.Sprintf("incremental: %d computed, %d carried", r.StarsComputed, r.StarsCarried)
 }
 
 // CatalogRow describes one input catalog of a run.

@@ -27,7 +27,8 @@ type RunWriter struct {
 
 // BeginRun takes the writer lock (polling up to Options.LockWait, then
 // ErrBusy), marks any run its dead predecessor left running as failed and
-// inserts the new run in state running.
+// inserts the new run in state running with its settings, in one
+// transaction.
 func (l *Ledger) BeginRun(ctx context.Context, info RunInfo) (*RunWriter, error) {
 	if l.opt.ReadOnly {
 		return nil, fmt.Errorf("ledger %s is open read-only; cannot begin a run", l.path)
@@ -43,17 +44,26 @@ func (l *Ledger) BeginRun(ctx context.Context, info RunInfo) (*RunWriter, error)
 		lk.release()
 		return nil, err
 	}
-	res, err := l.db.ExecContext(ctx,
-		`INSERT INTO runs (started_at, state, tool_version, campaign_hash, ruleset_hash, config_hash,
-		 match_hash, model_hash, seed, "full", note)
-		 VALUES (?, 'running', ?, ?, ?, ?, ?, ?, ?, ?, ?)`,
-		l.stamp(), info.ToolVersion, ns(info.CampaignHash), ns(info.RulesetHash), ns(info.ConfigHash),
-		ns(info.MatchHash), ns(info.ModelHash), info.Seed, b2i(info.Full), ns(info.Note))
-	if err != nil {
+	if err := info.Settings.check(); err != nil {
 		lk.release()
 		return nil, fmt.Errorf("ledger %s: begin run: %w", l.path, err)
 	}
-	id, err := res.LastInsertId()
+	var id int64
+	err = l.inTx(ctx, func(tx *sql.Tx) error {
+		res, err := tx.ExecContext(ctx,
+			`INSERT INTO runs (started_at, state, tool_version, campaign_hash, ruleset_hash, config_hash,
+			 match_hash, model_hash, seed, "full", note)
+			 VALUES (?, 'running', ?, ?, ?, ?, ?, ?, ?, ?, ?)`,
+			l.stamp(), info.ToolVersion, ns(info.CampaignHash), ns(info.RulesetHash), info.Settings.ConfigHash(),
+			ns(info.MatchHash), ns(info.ModelHash), info.Seed, b2i(info.Full), ns(info.Note))
+		if err != nil {
+			return err
+		}
+		if id, err = res.LastInsertId(); err != nil {
+			return err
+		}
+		return insertSettings(ctx, tx, id, &info.Settings)
+	})
 	if err != nil {
 		lk.release()
 		return nil, fmt.Errorf("ledger %s: begin run: %w", l.path, err)

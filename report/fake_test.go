@@ -17,7 +17,15 @@ type fakeSource struct {
 	reasons   map[string][]db.ReasonRow  // key "run/star"
 	positions map[string][2]float64      // star -> ra, dec (deg)
 	crossings map[int64][]db.CrossingRow // by computing run
+	settings  map[int64]*db.RunSettings  // by run; none for a run not listed
 	failOn    string                     // method name that returns errBoom
+}
+
+func (f *fakeSource) RunSettings(ctx context.Context, runID int64) (*db.RunSettings, error) {
+	if s := f.settings[runID]; s != nil {
+		return s, nil
+	}
+	return &db.RunSettings{}, nil
 }
 
 var errBoom = fmt.Errorf("fake source failure")

@@ -8,6 +8,8 @@ import (
 	"path/filepath"
 	"sort"
 	"time"
+
+	"starvet/db"
 )
 
 type countRow struct {
@@ -37,7 +39,8 @@ type pageView struct {
 	State, Started, Finished    string
 	ToolVersion, Note           string
 	Seed                        int64
-	Full                        bool
+	Work                        string
+	Thresholds                  string
 	Total, Computed, Carried    int64
 	Quarantined                 int64
 	Models                      string
@@ -113,11 +116,22 @@ func candidates(d *data) []candRow {
 	return out
 }
 
+// thresholdsText states the p_unbound thresholds the run's verdicts were
+// decided with, as the run recorded them.
+func thresholdsText(d *data) string {
+	u, uok := d.settings.Get(db.SettingUnboundP)
+	m, mok := d.settings.Get(db.SettingMarginalP)
+	if !uok || !mok {
+		return "not recorded in the ledger for this run"
+	}
+	return fmt.Sprintf("unbound at p_unbound ≥ %s, marginal at p_unbound ≥ %s (%s)", u, m, d.opt.SettingsSource)
+}
+
 func renderHTML(d *data, plots []PlotSummary) ([]byte, int, error) {
 	r := d.run
 	v := pageView{
 		RunID: r.ID, State: r.StateText(), Started: stamp(r.StartedAt), Finished: stamp(r.FinishedAt),
-		ToolVersion: r.ToolVersion, Note: r.Note, Seed: r.Seed, Full: r.Full,
+		ToolVersion: r.ToolVersion, Note: r.Note, Seed: r.Seed, Work: r.WorkText(),
 		Total: r.StarsTotal, Computed: r.StarsComputed, Carried: r.StarsCarried, Quarantined: r.RowsQuarantined,
 		Models: modelsText(d.models), TotalStars: len(d.stars), RejectedNoReason: d.rejectedNoReasons,
 		Candidates: candidates(d),
@@ -165,7 +179,7 @@ func renderHTML(d *data, plots []PlotSummary) ([]byte, int, error) {
 	if src == "" {
 		src = "given in the options"
 	}
-	v.EscapeText = "escape to infinity (the campaign default; the ledger does not record the run's setting)"
+	v.EscapeText = "escape to infinity (the campaign default; this run's setting is not recorded in the ledger)"
 	if d.opt.EscapeRadiusKpc > 0 {
 		v.EscapeText = fmt.Sprintf("escape to r = %g kpc (%s)", d.opt.EscapeRadiusKpc, src)
 	} else if d.opt.SettingsSource != "" {
@@ -179,6 +193,7 @@ func renderHTML(d *data, plots []PlotSummary) ([]byte, int, error) {
 	if d.sunDefault {
 		v.SunText = fmt.Sprintf("%g kpc (default; not recorded in the ledger)", d.opt.SunDistanceKpc)
 	}
+	v.Thresholds = thresholdsText(d)
 	var buf bytes.Buffer
 	if err := pageTemplate.Execute(&buf, v); err != nil {
 		return nil, 0, err
@@ -217,11 +232,12 @@ dd { margin: 0; }
 
 <h2>Run</h2>
 <dl>
-<dt>Run</dt><dd>{{.RunID}} ({{.State}}{{if .Full}}, full{{else}}, incremental{{end}})</dd>
+<dt>Run</dt><dd>{{.RunID}} ({{.State}}{{with .Work}}, {{.}}{{end}})</dd>
 <dt>Started</dt><dd>{{.Started}}</dd>
 <dt>Finished</dt><dd>{{.Finished}}</dd>
 <dt>Tool version</dt><dd>{{.ToolVersion}}</dd>
 <dt>Potential model</dt><dd>{{.Models}}</dd>
+<dt>Verdict thresholds</dt><dd>{{.Thresholds}}</dd>
 <dt>Escape speed</dt><dd>{{.EscapeText}}</dd>
 <dt>Centre radius</dt><dd>{{.GCText}}</dd>
 <dt>Sun to centre</dt><dd>{{.SunText}}</dd>

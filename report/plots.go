@@ -507,11 +507,11 @@ func crossingPlot(d *data) (*PlotSummary, []byte, error) {
 	}
 	gcText := fmt.Sprintf("The dashed circle is the centre radius, %g kpc (%s).", d.opt.GCRadiusKpc, src)
 	if d.gcDefault {
-		gcText = fmt.Sprintf("The dashed circle is the centre radius, %g kpc: the default, since the ledger does not record the run's setting.", d.opt.GCRadiusKpc)
+		gcText = fmt.Sprintf("The dashed circle is the centre radius, %g kpc: the default, since this run's setting is not recorded in the ledger.", d.opt.GCRadiusKpc)
 	}
 	sunText := fmt.Sprintf("Sun at x = %g kpc", -d.opt.SunDistanceKpc)
 	if d.sunDefault {
-		sunText += " (starvet's default Solar distance; the ledger does not record the run's)"
+		sunText += " (starvet's default Solar distance; this run's is not recorded in the ledger)"
 	}
 	ps.Note = gcText + " " + sunText + "."
 	if len(d.crossings) == 0 {

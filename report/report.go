@@ -27,9 +27,10 @@ const DefaultTopReasons = 10
 // ErrNoRun is returned (wrapped) when the source has no complete run.
 var ErrNoRun = errors.New("no complete run to report on")
 
-// Options are the settings of a report. The ledger does not record the
-// run's campaign settings, so the ones that shape the plots are given here;
-// zero values mean the stated defaults and the page says which were used.
+// Options are the settings of a report. A run that recorded its settings
+// in the ledger is drawn with those, and the fields that shape the plots
+// are ignored; for an older run, which recorded none, they are given here,
+// zero values mean the stated defaults, and the page says which were used.
 type Options struct {
 	// EscapeRadiusKpc is the radius the escape-speed curve escapes to;
 	// 0 = infinity (the campaign default).
@@ -97,6 +98,7 @@ type data struct {
 	opt               Options
 	gcDefault         bool
 	sunDefault        bool
+	settings          *db.RunSettings // what the run recorded; none for an older run
 }
 
 // Write reads run runID (0 = latest complete run) from src and writes
@@ -141,12 +143,6 @@ func Write(ctx context.Context, src Source, runID int64, dir string, opt Options
 
 func gather(ctx context.Context, src Source, runID int64, opt Options) (*data, error) {
 	d := &data{opt: opt, counts: map[string]int64{}}
-	if d.opt.GCRadiusKpc <= 0 {
-		d.opt.GCRadiusKpc, d.gcDefault = DefaultGCRadiusKpc, true
-	}
-	if d.opt.SunDistanceKpc <= 0 {
-		d.opt.SunDistanceKpc, d.sunDefault = frames.DefaultSun().DistanceKpc, true
-	}
 	if d.opt.TopReasons <= 0 {
 		d.opt.TopReasons = DefaultTopReasons
 	}
@@ -162,6 +158,10 @@ func gather(ctx context.Context, src Source, runID int64, opt Options) (*data, e
 	if err != nil {
 		return nil, fmt.Errorf("report: %w", err)
 	}
+	if d.settings, err = src.RunSettings(ctx, d.run.ID); err != nil {
+		return nil, fmt.Errorf("report: %w", err)
+	}
+	d.useSettings()
 	if d.catalogs, err = src.RunCatalogs(ctx, d.run.ID); err != nil {
 		return nil, fmt.Errorf("report: %w", err)
 	}
@@ -211,6 +211,30 @@ func gather(ctx context.Context, src Source, runID int64, opt Options) (*data, e
 		return nil, err
 	}
 	return d, nil
+}
+
+// useSettings draws the plots with the settings the run recorded; for a
+// run that recorded none it keeps the options, else the defaults.
+func (d *data) useSettings() {
+	if d.settings.Recorded() {
+		d.opt.SettingsSource = fmt.Sprintf("recorded in the ledger for run %d", d.run.ID)
+		d.opt.EscapeRadiusKpc, d.opt.GCRadiusKpc, d.opt.SunDistanceKpc = 0, 0, 0
+		if x, ok := d.settings.Float(db.SettingEscapeRadiusKpc); ok {
+			d.opt.EscapeRadiusKpc = x
+		}
+		if x, ok := d.settings.Float(db.SettingGCRadiusKpc); ok {
+			d.opt.GCRadiusKpc = x
+		}
+		if x, ok := d.settings.Float(db.SettingSunDistanceKpc); ok {
+			d.opt.SunDistanceKpc = x
+		}
+	}
+	if d.opt.GCRadiusKpc <= 0 {
+		d.opt.GCRadiusKpc, d.gcDefault = DefaultGCRadiusKpc, true
+	}
+	if d.opt.SunDistanceKpc <= 0 {
+		d.opt.SunDistanceKpc, d.sunDefault = frames.DefaultSun().DistanceKpc, true
+	}
 }
 
 // gatherReasons counts, over the rejected stars, the stars each rule

@@ -329,3 +329,52 @@ func TestLinearTicks(t *testing.T) {
 		t.Errorf("empty range gave %d ticks", len(ts))
 	}
 }
+
+// A run that recorded its settings is drawn with the ledger's escape
+// radius, centre radius and Solar distance, without options and even
+// against them, and the page says where they come from; it also states
+// the recorded verdict thresholds and what the run computed.
+func TestReportUsesRecordedSettings(t *testing.T) {
+	f := fixture(potential.DefaultModel)
+	f.settings = map[int64]*db.RunSettings{2: {Values: []db.Setting{
+		db.FloatSetting(db.SettingEscapeRadiusKpc, 187.5),
+		db.FloatSetting(db.SettingGCRadiusKpc, 0.75),
+		db.FloatSetting(db.SettingSunDistanceKpc, 8.3),
+		db.FloatSetting(db.SettingUnboundP, 0.85),
+		db.FloatSetting(db.SettingMarginalP, 0.55),
+	}}}
+	for _, opt := range []Options{{}, {EscapeRadiusKpc: 50, GCRadiusKpc: 2, SunDistanceKpc: 7, SettingsSource: "from a campaign"}} {
+		_, sum := writeFixture(t, f, 2, opt)
+		page := string(readFile(t, sum.Index))
+		for _, want := range []string{
+			"escape to r = 187.5 kpc (recorded in the ledger for run 2)",
+			"0.75 kpc (recorded in the ledger for run 2)",
+			"8.3 kpc (recorded in the ledger for run 2)",
+			"unbound at p_unbound ≥ 0.85, marginal at p_unbound ≥ 0.55 (recorded in the ledger for run 2)",
+			"2 (complete, incremental: 16 computed, 1 carried)",
+			"not a discovery",
+		} {
+			if !strings.Contains(page, want) {
+				t.Errorf("options %+v: page lacks %q", opt, want)
+			}
+		}
+		if strings.Contains(page, "not recorded") {
+			t.Errorf("options %+v: page says a recorded setting is not recorded", opt)
+		}
+		if got := sum.Plots[0].Note; !strings.Contains(got, "(escape to r = 187.5 kpc along the same ray)") {
+			t.Errorf("options %+v: speed plot drawn with another escape radius: %s", opt, got)
+		}
+		if got := sum.Plots[3].Note; !strings.Contains(got, "centre radius, 0.75 kpc") || !strings.Contains(got, "Sun at x = -8.3 kpc") {
+			t.Errorf("options %+v: crossing plot: %s", opt, got)
+		}
+	}
+	// Run 1 recorded nothing: as before, the page says so.
+	_, sum := writeFixture(t, f, 1, Options{})
+	page := string(readFile(t, sum.Index))
+	for _, want := range []string{"the campaign default; this run&#39;s setting is not recorded in the ledger", "Verdict thresholds</dt><dd>not recorded in the ledger for this run",
+		"1 (complete, every star computed)"} {
+		if !strings.Contains(page, want) {
+			t.Errorf("run 1: page lacks %q", want)
+		}
+	}
+}

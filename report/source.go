@@ -19,6 +19,9 @@ type Source interface {
 	// Positions gives the ICRS position (deg) of every star with a verdict
 	// in runID, from the inputs of the run that computed it; NaN if missing.
 	Positions(ctx context.Context, runID int64, fn func(starID string, raDeg, decDeg float64) error) error
+	// RunSettings gives the settings runID recorded (none for a run
+	// written before the ledger recorded them).
+	RunSettings(ctx context.Context, runID int64) (*db.RunSettings, error)
 }
 
 var _ Source = (*db.Ledger)(nil)

@@ -131,16 +131,20 @@ func (e *Engine) Run(ctx context.Context, c *campaign.Campaign, opt RunOptions) 
 		return nil, err
 	}
 	defer l.Close()
+	settings, err := recordedSettings(c, rs, model, modelName)
+	if err != nil {
+		return nil, err
+	}
 	w, err := l.BeginRun(ctx, db.RunInfo{
 		ToolVersion:  e.ToolVersion,
 		CampaignHash: c.Hash(),
 		RulesetHash:  rs.Fingerprint,
-		ConfigHash:   c.Hash(),
 		MatchHash:    c.MatchHash(),
 		ModelHash:    modelHash,
 		Seed:         c.Seed,
 		Full:         opt.Full,
 		Note:         "campaign " + c.File,
+		Settings:     settings,
 	})
 	if err != nil {
 		return nil, err

@@ -8,6 +8,7 @@ import (
 	"errors"
 	"math"
 	"path/filepath"
+	"reflect"
 	"strings"
 	"testing"
 
@@ -43,7 +44,7 @@ func auditLedger(t *testing.T) string {
 	}
 	// A star a run does not write keeps its verdict of the run before.
 	write := func(recs []db.StarRecord) int64 {
-		w, err := l.BeginRun(ctx, db.RunInfo{ToolVersion: "test", Seed: 1})
+		w, err := l.BeginRun(ctx, db.RunInfo{Settings: testSettings, ToolVersion: "test", Seed: 1})
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -57,7 +58,7 @@ func auditLedger(t *testing.T) string {
 	}
 	defer func() {
 		// A third run that fails after one batch: runs must show what it wrote.
-		w, err := l.BeginRun(ctx, db.RunInfo{ToolVersion: "test"})
+		w, err := l.BeginRun(ctx, db.RunInfo{Settings: testSettings, ToolVersion: "test"})
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -101,6 +102,7 @@ func TestAuditCommands(t *testing.T) {
 			"fail     plx-snr", "value 2.5", "threshold >= 5", "[reject]",
 			"speed p16/p50/p84   410 / 520 / 640 km/s",
 			"spec-beta", "b-Ωμέγα-星-7",
+			"settings of run 2: unbound at p_unbound >= 0.8, marginal at >= 0.5; potential invented-potential, escape to r = 187.5 kpc; Sun at 8.3 kpc from the centre",
 		}, nil},
 		{"why flags after id", []string{"why", "HV-002", "--ledger", p}, 0, []string{
 			"star HV-002: accepted", "carried forward from run 1",
@@ -183,6 +185,28 @@ func TestAuditJSONAndCSV(t *testing.T) {
 			t.Errorf("changes %+v", c)
 		}
 	})
+	t.Run("runs json", func(t *testing.T) {
+		out, _, code := runCLI(t, "runs", "--json", "--ledger", p)
+		if code != 0 {
+			t.Fatalf("exit %d", code)
+		}
+		var runs []struct {
+			ID       int64             `json:"id"`
+			Settings map[string]string `json:"settings"`
+			RuleText *string           `json:"rule_text"`
+		}
+		if err := json.Unmarshal([]byte(out), &runs); err != nil {
+			t.Fatalf("%v\n%s", err, out)
+		}
+		if len(runs) != 3 {
+			t.Fatalf("%d runs, want 3:\n%s", len(runs), out)
+		}
+		for _, r := range runs {
+			if !reflect.DeepEqual(r.Settings, testSettings.Map()) || r.RuleText == nil || *r.RuleText != testSettings.RuleText {
+				t.Errorf("run %d settings %v, rule text %v; want what it recorded", r.ID, r.Settings, r.RuleText)
+			}
+		}
+	})
 	t.Run("diff json", func(t *testing.T) {
 		out, _, code := runCLI(t, "diff", "--json", "--ledger", p)
 		if code != 0 {
@@ -256,4 +280,27 @@ func TestAuditJSONAndCSV(t *testing.T) {
 			t.Errorf("runs %+v", runs)
 		}
 	})
+}
+
+// testSettings is what the test runs record: BeginRun refuses a run
+// without settings. Their values are invented.
+var testSettings = db.RunSettings{Values: []db.Setting{{Name: db.SettingSeed, Value: "1"}, {Name: db.SettingUnboundP, Value: "0.8"},
+	{Name: db.SettingMarginalP, Value: "0.5"}, {Name: db.SettingPotentialModel, Value: "invented-potential"},
+	{Name: db.SettingEscapeRadiusKpc, Value: "187.5"}, {Name: db.SettingGCRadiusKpc, Value: "0.75"}, {Name: db.SettingSunDistanceKpc, Value: "8.3"}},
+	RuleText: "# invented rules\n"}
+
+// why says the caution under an unbound verdict, and that a run from
+// before recorded settings did not record them.
+func TestWhyCautionAndUnrecorded(t *testing.T) {
+	v := db.NewVerdictRow("unbound")
+	v.RunID, v.ComputedInRun, v.StarID = 1, 1, "HV-9"
+	h := &db.StarHistory{StarID: "HV-9", FirstRun: 1, LastRun: 1, CurrentRun: 1, CurrentStatus: "unbound",
+		Runs: []db.StarRun{{Verdict: v, RunState: "complete"}}, Computations: []db.Computation{{RunID: 1, Verdict: v}}}
+	var b bytes.Buffer
+	writeHistory(&b, h, map[int64]*db.RunSettings{1: {}})
+	for _, want := range []string{"settings of run 1: not recorded in the ledger", "not a discovery"} {
+		if !strings.Contains(b.String(), want) {
+			t.Errorf("why output lacks %q:\n%s", want, b.String())
+		}
+	}
 }

@@ -76,16 +76,7 @@ func runDemo(ctx context.Context, env *Env, args []string) error {
 		return err
 	}
 	reportDir := filepath.Join(dir, "report")
-	c, err := campaign.Load(sc.CampaignPath)
-	if err != nil {
-		return err
-	}
-	if _, err := makeReport(ctx, second.LedgerPath, second.RunID, reportDir, report.Options{
-		EscapeRadiusKpc: c.Potential.EscapeRadiusKpc,
-		GCRadiusKpc:     c.Kinematics.GCRadiusKpc,
-		SunDistanceKpc:  c.Galaxy.SunDistanceKpc,
-		SettingsSource:  "from the demo campaign " + sc.CampaignPath,
-	}); err != nil {
+	if _, err := makeReport(ctx, second.LedgerPath, second.RunID, reportDir, report.Options{}); err != nil {
 		return err
 	}
 

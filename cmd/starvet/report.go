@@ -2,7 +2,9 @@ package main
 
 import (
 	"context"
+	"flag"
 	"fmt"
+	"strings"
 
 	"starvet/campaign"
 	"starvet/db"
@@ -14,13 +16,15 @@ func runReport(ctx context.Context, env *Env, args []string) error {
 		"Write a static HTML page with plots (SVG) for one run (default: the latest\n"+
 			"complete run) into DIR: status counts, rejection reasons, speed against\n"+
 			"distance, sky map, p_unbound histogram, plane crossings, candidate table.\n"+
-			"The page needs no network.")
+			"The page needs no network. A run that recorded its settings in the ledger is\n"+
+			"drawn with them; --escape-radius-kpc, --gc-radius-kpc and --campaign are for\n"+
+			"older runs, which recorded none.")
 	ledger := fs.String("ledger", defaultLedger, "ledger file")
 	run := fs.Int64("run", 0, "run id (0 = latest complete run)")
 	out := fs.String("o", "", "output directory (created if missing)")
-	escR := fs.Float64("escape-radius-kpc", 0, "radius the escape-speed curve escapes to (0 = infinity); the ledger does not record the run's")
-	gcR := fs.Float64("gc-radius-kpc", 0, fmt.Sprintf("centre radius on the crossing plot (0 = %g)", report.DefaultGCRadiusKpc))
-	camp := fs.String("campaign", "", "take the escape radius, centre radius and Solar distance from this campaign file (checked against the run's campaign hash)")
+	escR := fs.Float64("escape-radius-kpc", 0, "for a run without recorded settings: radius the escape-speed curve escapes to (0 = infinity)")
+	gcR := fs.Float64("gc-radius-kpc", 0, fmt.Sprintf("for a run without recorded settings: centre radius on the crossing plot (0 = %g)", report.DefaultGCRadiusKpc))
+	camp := fs.String("campaign", "", "for a run without recorded settings: take the escape radius, centre radius and Solar distance from this campaign file (checked against the run's campaign hash)")
 	if err := parseFlags(env, fs, args); err != nil {
 		return err
 	}
@@ -38,26 +42,31 @@ func runReport(ctx context.Context, env *Env, args []string) error {
 	case *camp != "" && (*escR > 0 || *gcR > 0):
 		return usageError("--campaign excludes --escape-radius-kpc and --gc-radius-kpc")
 	}
-	opt := report.Options{EscapeRadiusKpc: *escR, GCRadiusKpc: *gcR}
+	var c *campaign.Campaign
 	if *camp != "" {
-		c, err := campaign.Load(*camp)
+		var err error
+		if c, err = campaign.Load(*camp); err != nil {
+			return err
+		}
+	}
+	var overrides []string
+	fs.Visit(func(f *flag.Flag) {
+		if f.Name == "escape-radius-kpc" || f.Name == "gc-radius-kpc" || f.Name == "campaign" {
+			overrides = append(overrides, "--"+f.Name)
+		}
+	})
+	opt := report.Options{EscapeRadiusKpc: *escR, GCRadiusKpc: *gcR}
+	if len(overrides) > 0 {
+		r, recorded, err := runRecordedSettings(ctx, *ledger, *run)
 		if err != nil {
 			return err
 		}
-		opt = report.Options{EscapeRadiusKpc: c.Potential.EscapeRadiusKpc, GCRadiusKpc: c.Kinematics.GCRadiusKpc,
-			SunDistanceKpc: c.Galaxy.SunDistanceKpc}
-		if opt.GCRadiusKpc == 0 {
-			opt.GCRadiusKpc = report.DefaultGCRadiusKpc
+		if recorded {
+			return fmt.Errorf("run %d recorded its settings in the ledger and is drawn with them; %s only serve runs that recorded none",
+				r.ID, strings.Join(overrides, " and "))
 		}
-		same, id, err := runUsedCampaign(ctx, *ledger, *run, c.Hash())
-		if err != nil {
-			return err
-		}
-		if same {
-			opt.SettingsSource = fmt.Sprintf("from campaign %s, the one run %d used", *camp, id)
-		} else {
-			opt.SettingsSource = fmt.Sprintf("from campaign %s, which is NOT the one run %d used", *camp, id)
-			env.Log.Warn().Str("campaign", *camp).Int64("run", id).Msg("the campaign's settings differ from the run's; the page says so")
+		if c != nil {
+			opt = campaignOptions(env, c, *camp, r)
 		}
 	}
 	sum, err := makeReport(ctx, *ledger, *run, *out, opt)
@@ -79,24 +88,49 @@ func makeReport(ctx context.Context, ledgerPath string, runID int64, dir string,
 	return report.Write(ctx, l, runID, dir, opt)
 }
 
-// runUsedCampaign reports whether run runID (0 = latest complete) was made
-// from a campaign with this hash, and which run that was.
-func runUsedCampaign(ctx context.Context, ledgerPath string, runID int64, hash string) (bool, int64, error) {
+// campaignOptions takes the plot settings of an older run, which
+// recorded none, from a campaign file, saying whether it is the run's.
+func campaignOptions(env *Env, c *campaign.Campaign, file string, r *db.Run) report.Options {
+	opt := report.Options{EscapeRadiusKpc: c.Potential.EscapeRadiusKpc, GCRadiusKpc: c.Kinematics.GCRadiusKpc,
+		SunDistanceKpc: c.Galaxy.SunDistanceKpc}
+	if opt.GCRadiusKpc == 0 {
+		opt.GCRadiusKpc = report.DefaultGCRadiusKpc
+	}
+	if r.CampaignHash == c.Hash() {
+		opt.SettingsSource = fmt.Sprintf("from campaign %s, the one run %d used", file, r.ID)
+	} else {
+		opt.SettingsSource = fmt.Sprintf("from campaign %s, which is NOT the one run %d used", file, r.ID)
+		env.Log.Warn().Str("campaign", file).Int64("run", r.ID).Msg("the campaign's settings differ from the run's; the page says so")
+	}
+	return opt
+}
+
+func lookupRun(ctx context.Context, l *db.Ledger, runID int64) (*db.Run, error) {
+	if runID != 0 {
+		return l.Run(ctx, runID)
+	}
+	r, err := l.LastCompleteRun(ctx)
+	if err == nil && r == nil {
+		err = fmt.Errorf("ledger %s: %w", l.Path(), db.ErrNoRuns)
+	}
+	return r, err
+}
+
+// runRecordedSettings returns run runID (0 = latest complete) and whether
+// it recorded its settings.
+func runRecordedSettings(ctx context.Context, ledgerPath string, runID int64) (*db.Run, bool, error) {
 	l, err := openLedgerRO(ctx, ledgerPath)
 	if err != nil {
-		return false, 0, err
+		return nil, false, err
 	}
 	defer l.Close()
-	var r *db.Run
-	if runID == 0 {
-		if r, err = l.LastCompleteRun(ctx); err == nil && r == nil {
-			err = fmt.Errorf("ledger %s: %w", ledgerPath, db.ErrNoRuns)
-		}
-	} else {
-		r, err = l.Run(ctx, runID)
-	}
+	r, err := lookupRun(ctx, l, runID)
 	if err != nil {
-		return false, 0, err
+		return nil, false, err
 	}
-	return r.CampaignHash == hash, r.ID, nil
+	s, err := l.RunSettings(ctx, r.ID)
+	if err != nil {
+		return nil, false, err
+	}
+	return r, s.Recorded(), nil
 }

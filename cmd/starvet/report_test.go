@@ -44,7 +44,7 @@ func reportLedger(t *testing.T) string {
 		}
 		return db.StarRecord{StarID: id, Inputs: in, Verdict: v, Reasons: rs}
 	}
-	w, err := l.BeginRun(ctx, db.RunInfo{ToolVersion: "test", Seed: 3})
+	w, err := l.BeginRun(ctx, db.RunInfo{Settings: testSettings, ToolVersion: "test", Seed: 3})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -80,6 +80,7 @@ func TestReportCommand(t *testing.T) {
 		{"negative radius", []string{"report", "--gc-radius-kpc", "-1", "--ledger", ledger, "-o", out}, 2, "", "--gc-radius-kpc -1", false},
 		{"campaign and radius", []string{"report", "--campaign", "c.toml", "--gc-radius-kpc", "2", "--ledger", ledger, "-o", out}, 2, "", "--campaign excludes", false},
 		{"missing campaign", []string{"report", "--campaign", filepath.Join(t.TempDir(), "none.toml"), "--ledger", ledger, "-o", out}, 1, "", "none.toml", false},
+		{"override on a recorded run", []string{"report", "--escape-radius-kpc", "200", "--ledger", ledger, "-o", out}, 1, "", "run 1 recorded its settings in the ledger", false},
 		{"unknown run", []string{"report", "--run", "7", "--ledger", ledger, "-o", out}, 1, "", "no run 7", false},
 		{"missing ledger", []string{"report", "--ledger", filepath.Join(t.TempDir(), "none.db"), "-o", out}, 1, "", "does not exist", false},
 	}
@@ -111,6 +112,9 @@ func TestReportCommand(t *testing.T) {
 				t.Fatal(err)
 			}
 			s := string(page)
+			if want := "escape to r = 187.5 kpc (recorded in the ledger for run 1)"; !strings.Contains(s, want) {
+				t.Errorf("page lacks %q: the ledger's escape radius, without flags", want)
+			}
 			// KX-2 (p 0.995) before KX-1 (p 0.98).
 			i2, i1 := strings.Index(s, "<td>KX-2</td>"), strings.Index(s, "<td>KX-1</td>")
 			if i2 < 0 || i1 < 0 || i2 > i1 {

@@ -114,6 +114,19 @@ type runJSON struct {
 	RowsQuarantined int64            `json:"rows_quarantined"`
 	Counts          map[string]int64 `json:"counts"`
 	Note            string           `json:"note,omitempty"`
+	// Settings and RuleText are what the run recorded; null for a run
+	// that predates recorded settings.
+	Settings map[string]string `json:"settings"`
+	RuleText *string           `json:"rule_text"`
+}
+
+// settingsJSON is a run's recorded settings, name -> value; nil (null)
+// when it recorded none.
+func settingsJSON(s *db.RunSettings) map[string]string {
+	if !s.Recorded() {
+		return nil
+	}
+	return s.Map()
 }
 
 func toRunJSON(r db.Run) runJSON {
@@ -181,6 +194,13 @@ func runRuns(ctx context.Context, env *Env, args []string) error {
 		out := make([]runJSON, len(runs))
 		for i, r := range runs {
 			out[i] = toRunJSON(r)
+			s, err := l.RunSettings(ctx, r.ID)
+			if err != nil {
+				return err
+			}
+			if out[i].Settings = settingsJSON(s); out[i].Settings != nil {
+				out[i].RuleText = &s.RuleText
+			}
 		}
 		return writeJSON(env.Stdout, out)
 	}

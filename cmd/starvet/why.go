@@ -15,9 +15,10 @@ func runWhy(ctx context.Context, env *Env, args []string) error {
 	fs := newFlags(env, "why", "[--ledger PATH] [--json] STAR_ID",
 		"Explain one star: its current status (in the latest complete run), its status in\n"+
 			"every run (marking verdicts carried forward from an earlier run), the reasons\n"+
-			"with value against threshold, the kinematic summary, its matches, and which\n"+
-			"inputs changed between the runs that computed it. Put \"--\" before an id that\n"+
-			"starts with '-'.")
+			"with value against threshold, the kinematic summary, its matches, the\n"+
+			"thresholds and model in force when it was computed (as that run recorded them),\n"+
+			"and which inputs changed between the runs that computed it. Put \"--\" before an\n"+
+			"id that starts with '-'.")
 	af.register(fs)
 	pos, err := parseArgs(env, fs, args)
 	if err != nil {
@@ -35,14 +36,44 @@ func runWhy(ctx context.Context, env *Env, args []string) error {
 	if err != nil {
 		return err
 	}
-	if af.json {
-		return writeJSON(env.Stdout, historyJSON(h))
+	settings := map[int64]*db.RunSettings{}
+	for _, c := range h.Computations {
+		if settings[c.RunID] == nil {
+			if settings[c.RunID], err = l.RunSettings(ctx, c.RunID); err != nil {
+				return err
+			}
+		}
 	}
-	writeHistory(env.Stdout, h)
+	if af.json {
+		return writeJSON(env.Stdout, historyJSON(h, settings))
+	}
+	writeHistory(env.Stdout, h, settings)
 	return nil
 }
 
-func writeHistory(w io.Writer, h *db.StarHistory) {
+// settingsText states the thresholds and model a computation was decided
+// with, as its run recorded them.
+func settingsText(runID int64, s *db.RunSettings) string {
+	if !s.Recorded() {
+		return fmt.Sprintf("settings of run %d: not recorded in the ledger (the run predates recorded settings)", runID)
+	}
+	get := func(name string) string {
+		if v, ok := s.Get(name); ok {
+			return v
+		}
+		return "(not recorded)"
+	}
+	esc := "infinity"
+	if r, ok := s.Float(db.SettingEscapeRadiusKpc); !ok {
+		esc = "(not recorded)"
+	} else if r > 0 {
+		esc = "r = " + get(db.SettingEscapeRadiusKpc) + " kpc"
+	}
+	return fmt.Sprintf("settings of run %d: unbound at p_unbound >= %s, marginal at >= %s; potential %s, escape to %s; Sun at %s kpc from the centre",
+		runID, get(db.SettingUnboundP), get(db.SettingMarginalP), get(db.SettingPotentialModel), esc, get(db.SettingSunDistanceKpc))
+}
+
+func writeHistory(w io.Writer, h *db.StarHistory, settings map[int64]*db.RunSettings) {
 	switch {
 	case h.CurrentRun == 0:
 		fmt.Fprintf(w, "star %s: no complete run yet\n", h.StarID)
@@ -67,6 +98,7 @@ func writeHistory(w io.Writer, h *db.StarHistory) {
 	for _, c := range h.Computations {
 		v := c.Verdict
 		fmt.Fprintf(w, "\ncomputed in run %d: %s\n", c.RunID, v.Status)
+		fmt.Fprintf(w, "  %s\n", settingsText(c.RunID, settings[c.RunID]))
 		if c.Inputs != nil {
 			fmt.Fprintf(w, "  input hash %s, dup_count %d\n", c.Inputs.InputHash, c.Inputs.DupCount)
 		}
@@ -116,6 +148,21 @@ func writeHistory(w io.Writer, h *db.StarHistory) {
 			}
 		}
 	}
+	if hasCandidate(h) {
+		fmt.Fprintf(w, "\n%s\n", candidateCaution)
+	}
+}
+
+// candidateCaution is said wherever why shows an unbound or marginal verdict.
+const candidateCaution = "An unbound or marginal verdict depends on the adopted Galactic potential and Solar\nparameters (shown per run above); it marks a candidate for follow-up, not a discovery."
+
+func hasCandidate(h *db.StarHistory) bool {
+	for _, r := range h.Runs {
+		if st := r.Verdict.Status; st == "unbound" || st == "marginal" {
+			return true
+		}
+	}
+	return false
 }
 
 func hasKinematics(v db.VerdictRow) bool {
@@ -156,7 +203,7 @@ func verdictJSON(v db.VerdictRow) map[string]any {
 	}
 }
 
-func historyJSON(h *db.StarHistory) map[string]any {
+func historyJSON(h *db.StarHistory, settings map[int64]*db.RunSettings) map[string]any {
 	runs := make([]map[string]any, len(h.Runs))
 	for i, r := range h.Runs {
 		m := verdictJSON(r.Verdict)
@@ -165,7 +212,7 @@ func historyJSON(h *db.StarHistory) map[string]any {
 	}
 	comps := make([]map[string]any, len(h.Computations))
 	for i, c := range h.Computations {
-		m := map[string]any{"run_id": c.RunID, "verdict": verdictJSON(c.Verdict)}
+		m := map[string]any{"run_id": c.RunID, "verdict": verdictJSON(c.Verdict), "settings": settingsJSON(settings[c.RunID])}
 		if c.Inputs != nil {
 			in := map[string]any{}
 			for j, x := range c.Inputs.Values {

@@ -1,0 +1,208 @@
+package db
+
+import (
+	"context"
+	"crypto/sha256"
+	"database/sql"
+	"encoding/hex"
+	"errors"
+	"fmt"
+	"math"
+	"regexp"
+	"slices"
+	"strconv"
+	"strings"
+)
+
+// Names of recorded settings (table run_settings; SCHEMA.md defines each).
+// A potential component's values are named by ComponentSetting.
+const (
+	SettingSeed                    = "seed"
+	SettingParallaxZeroPointMas    = "parallax_zero_point_mas"
+	SettingRulesFile               = "rules.file"
+	SettingMatchRadiusArcsec       = "match.radius_arcsec"
+	SettingMatchNSigma             = "match.n_sigma"
+	SettingMatchRadiusFloorArcsec  = "match.radius_floor_arcsec"
+	SettingMatchDuplicateRadius    = "match.duplicate_radius_arcsec"
+	SettingMatchAmbiguityRatio     = "match.ambiguity_ratio"
+	SettingSunDistanceKpc          = "galaxy.sun_distance_kpc"
+	SettingSunHeightPc             = "galaxy.sun_height_pc"
+	SettingSunVelocityUKms         = "galaxy.sun_velocity_u_kms"
+	SettingSunVelocityVKms         = "galaxy.sun_velocity_v_kms"
+	SettingSunVelocityWKms         = "galaxy.sun_velocity_w_kms"
+	SettingPotentialModel          = "potential.model"
+	SettingEscapeRadiusKpc         = "potential.escape_radius_kpc"
+	SettingPotentialComponents     = "potential.components"
+	SettingDistanceMethod          = "kinematics.distance"
+	SettingEDSDLengthKpc           = "kinematics.edsd_length_kpc"
+	SettingMinParallaxSignificance = "kinematics.min_parallax_significance"
+	SettingSamples                 = "kinematics.samples"
+	SettingVelocityPriorKms        = "kinematics.velocity_prior_kms"
+	SettingUnboundP                = "kinematics.unbound_p"
+	SettingMarginalP               = "kinematics.marginal_p"
+	SettingTraceMinP               = "kinematics.trace_min_p"
+	SettingTraceSamples            = "kinematics.trace_samples"
+	SettingTraceMyr                = "kinematics.trace_myr"
+	SettingGCRadiusKpc             = "kinematics.gc_radius_kpc"
+	SettingDiskRadiusKpc           = "kinematics.disk_radius_kpc"
+)
+
+// ComponentSetting names a value of the potential's component number n
+// (1-based, in the model's order), e.g. potential.component.1.mass_msun.
+func ComponentSetting(n int, field string) string {
+	return "potential.component." + strconv.Itoa(n) + "." + field
+}
+
+// CatalogSetting names a per-catalog setting, e.g.
+// catalog.spec_a.position_err_mas.
+func CatalogSetting(catalog, field string) string { return "catalog." + catalog + "." + field }
+
+// Setting is one recorded setting. Numbers are written exactly: the
+// shortest decimal text that reads back as the same float64.
+type Setting struct {
+	Name  string
+	Value string
+}
+
+// FloatSetting writes a number as a Setting.
+func FloatSetting(name string, v float64) Setting {
+	return Setting{name, strconv.FormatFloat(v, 'g', -1, 64)}
+}
+
+// RunSettings is what a run recorded of the settings that decided its
+// results. Runs written before schema 8 recorded none.
+type RunSettings struct {
+	Values   []Setting // sorted by name when read from the ledger
+	RuleText string    // the effective rule file, as read
+}
+
+// Recorded says whether the run recorded its settings.
+func (s *RunSettings) Recorded() bool { return s != nil && len(s.Values) > 0 }
+
+// Get returns the value of a setting and whether it was recorded.
+func (s *RunSettings) Get(name string) (string, bool) {
+	if s == nil {
+		return "", false
+	}
+	for _, v := range s.Values {
+		if v.Name == name {
+			return v.Value, true
+		}
+	}
+	return "", false
+}
+
+// Float returns a numeric setting; false if it was not recorded or is not
+// a number.
+func (s *RunSettings) Float(name string) (float64, bool) {
+	v, ok := s.Get(name)
+	if !ok {
+		return math.NaN(), false
+	}
+	f, err := strconv.ParseFloat(v, 64)
+	if err != nil {
+		return math.NaN(), false
+	}
+	return f, true
+}
+
+// Map returns the settings as name -> value.
+func (s *RunSettings) Map() map[string]string {
+	m := map[string]string{}
+	if s != nil {
+		for _, v := range s.Values {
+			m[v.Name] = v.Value
+		}
+	}
+	return m
+}
+
+// ConfigHash is the fingerprint stored as runs.config_hash: hex SHA-256 of
+// the lines "name=value\n" in byte order of name, then one empty line,
+// then the rule text. check (run by BeginRun) keeps it unambiguous.
+func (s *RunSettings) ConfigHash() string {
+	vs := slices.Clone(s.Values)
+	slices.SortFunc(vs, func(a, b Setting) int { return strings.Compare(a.Name, b.Name) })
+	h := sha256.New()
+	for _, v := range vs {
+		fmt.Fprintf(h, "%s=%s\n", v.Name, v.Value)
+	}
+	h.Write([]byte{'\n'})
+	h.Write([]byte(s.RuleText))
+	return hex.EncodeToString(h.Sum(nil))
+}
+
+var settingNameRE = regexp.MustCompile(`^[a-z0-9_]+(\.[a-z0-9_-]+)*$`)
+
+// ErrSettings is wrapped by BeginRun when the settings cannot be recorded.
+var ErrSettings = errors.New("run settings cannot be recorded")
+
+// check refuses settings that could not be recorded or fingerprinted
+// exactly: none at all, a name twice or outside our name form, a value
+// with a line break.
+func (s *RunSettings) check() error {
+	if len(s.Values) == 0 {
+		return fmt.Errorf("%w: a run must record the settings that decide its results, and none were given", ErrSettings)
+	}
+	seen := map[string]bool{}
+	for _, v := range s.Values {
+		switch {
+		case !settingNameRE.MatchString(v.Name):
+			return fmt.Errorf("%w: setting name %q is not of the form section.name (lower case, digits, _ and -)", ErrSettings, v.Name)
+		case seen[v.Name]:
+			return fmt.Errorf("%w: setting %s given twice", ErrSettings, v.Name)
+		case strings.ContainsAny(v.Value, "\r\n"):
+			return fmt.Errorf("%w: setting %s = %q has a line break", ErrSettings, v.Name, v.Value)
+		}
+		seen[v.Name] = true
+	}
+	return nil
+}
+
+// insertSettings writes a run's settings in the transaction that inserts
+// its row.
+func insertSettings(ctx context.Context, tx *sql.Tx, runID int64, s *RunSettings) error {
+	st, err := tx.PrepareContext(ctx, "INSERT INTO run_settings (run_id, name, value) VALUES (?, ?, ?)")
+	if err != nil {
+		return err
+	}
+	defer st.Close()
+	for _, v := range s.Values {
+		if _, err := st.ExecContext(ctx, runID, v.Name, v.Value); err != nil {
+			return fmt.Errorf("setting %s: %w", v.Name, err)
+		}
+	}
+	_, err = tx.ExecContext(ctx, "UPDATE runs SET rule_text = ? WHERE id = ?", s.RuleText, runID)
+	return err
+}
+
+// RunSettings returns what run runID recorded of its settings; for a run
+// written before schema 8 it is empty (Recorded() false). An unknown run
+// is ErrNoRun.
+func (l *Ledger) RunSettings(ctx context.Context, runID int64) (*RunSettings, error) {
+	var rule sql.NullString
+	err := l.db.QueryRowContext(ctx, "SELECT rule_text FROM runs WHERE id = ?", runID).Scan(&rule)
+	if errors.Is(err, sql.ErrNoRows) {
+		return nil, fmt.Errorf("ledger %s has no run %d: %w", l.path, runID, ErrNoRun)
+	}
+	if err != nil {
+		return nil, fmt.Errorf("ledger %s: run %d settings: %w", l.path, runID, err)
+	}
+	s := &RunSettings{RuleText: rule.String}
+	rows, err := l.db.QueryContext(ctx, "SELECT name, value FROM run_settings WHERE run_id = ? ORDER BY name", runID)
+	if err != nil {
+		return nil, fmt.Errorf("ledger %s: run %d settings: %w", l.path, runID, err)
+	}
+	defer rows.Close()
+	for rows.Next() {
+		var v Setting
+		if err := rows.Scan(&v.Name, &v.Value); err != nil {
+			return nil, fmt.Errorf("ledger %s: run %d settings: %w", l.path, runID, err)
+		}
+		s.Values = append(s.Values, v)
+	}
+	if err := rows.Err(); err != nil {
+		return nil, fmt.Errorf("ledger %s: run %d settings: %w", l.path, runID, err)
+	}
+	return s, nil
+}
