@@ -15,9 +15,8 @@ import (
 
 	"starvet/galaxy/frames"
 	"starvet/galaxy/potential"
+	"starvet/internal/units"
 )
-
-const degToRad = math.Pi / 180
 
 var (
 	black     = color.RGBA{0, 0, 0, 0xFF}
@@ -246,7 +245,7 @@ func skyPlot(d *data) (*PlotSummary, []byte, error) {
 	p.Y.Min, p.Y.Max = -r2*1.04, r2*1.18
 
 	proj := func(lDeg, bDeg float64) plotter.XY {
-		x, y := HammerAitoff(wrapLon(lDeg*degToRad), bDeg*degToRad)
+		x, y := HammerAitoff(wrapLon(lDeg*units.RadPerDeg), bDeg*units.RadPerDeg)
 		return plotter.XY{X: -x, Y: y}
 	}
 	for _, lDeg := range []float64{-120, -60, 0, 60, 120} {
@@ -269,7 +268,7 @@ func skyPlot(d *data) (*PlotSummary, []byte, error) {
 	}
 	var outline plotter.XYs
 	for k := 0; k <= 360; k++ {
-		t := float64(k) * degToRad
+		t := float64(k) * units.RadPerDeg
 		outline = append(outline, plotter.XY{X: 2 * r2 * math.Cos(t), Y: r2 * math.Sin(t)})
 	}
 	if _, err := line(p, outline, curveGrey, 1); err != nil {
@@ -306,7 +305,7 @@ func skyPlot(d *data) (*PlotSummary, []byte, error) {
 			ps.Omitted++
 			continue
 		}
-		l, b := frames.ICRSToGalactic(s.raDeg*degToRad, s.decDeg*degToRad)
+		l, b := frames.ICRSToGalactic(s.raDeg*units.RadPerDeg, s.decDeg*units.RadPerDeg)
 		x, y := HammerAitoff(wrapLon(l), b)
 		pts[s.Status] = append(pts[s.Status], plotter.XY{X: -x, Y: y})
 		present[s.Status] = true

@@ -1,6 +1,10 @@
 package sky
 
-import "math"
+import (
+	"math"
+
+	"starvet/internal/units"
+)
 
 // Astrometry is one star's astrometric state at some epoch. NaN marks an
 // unknown value. PMRAMasYr is mu_alpha* = mu_alpha cos(dec).
@@ -14,13 +18,10 @@ type Astrometry struct {
 // Constants of the rigorous path, with the values ERFA uses (erfam.h, from
 // IAU 2012 Resolution B2 for the au and the SI defining speed of light).
 const (
-	auM        = 149597870.7e3 // astronomical unit, m
-	speedLight = 299792458.0   // m/s
-	daySec     = 86400.0       // s per day
-	julianYear = 365.25        // days per Julian year
-	auLightSec = auM / speedLight
-	lightAUDay = daySec / auLightSec // speed of light, au/day
-	kmsToAUDay = daySec * 1e3 / auM
+	speedLight = 299792458.0 // m/s
+	auLightSec = units.AuM / speedLight
+	lightAUDay = units.DaySec / auLightSec // speed of light, au/day
+	kmsToAUDay = units.DaySec * 1e3 / units.AuM
 )
 
 // Limits taken over from ERFA eraPmsafe and eraStarpv so that the rigorous
@@ -67,7 +68,7 @@ func Propagate(a Astrometry, fromJyr, toJyr float64) Astrometry {
 		return a
 	}
 	if a.ParallaxMas > 0 && !math.IsNaN(a.RVKms) && !math.IsInf(a.ParallaxMas, 0) && !math.IsInf(a.RVKms, 0) {
-		if out, ok := propagateSpace(a, (toJyr-fromJyr)*julianYear); ok {
+		if out, ok := propagateSpace(a, (toJyr-fromJyr)*units.JulianYearDay); ok {
 			return out
 		}
 	}
@@ -103,9 +104,9 @@ func propagateSphere(a Astrometry, dtYr float64) Astrometry {
 	if muMas == 0 {
 		return a
 	}
-	r, p, q := basis(a.RADeg*degToRad, a.DecDeg*degToRad)
+	r, p, q := basis(a.RADeg*units.RadPerDeg, a.DecDeg*units.RadPerDeg)
 	ue, un := a.PMRAMasYr/muMas, a.PMDecMasYr/muMas
-	sd, cd := math.Sincos(muMas * masToRad * dtYr)
+	sd, cd := math.Sincos(muMas * units.RadPerMas * dtYr)
 	var r2, u2 [3]float64
 	for i := range 3 {
 		u := ue*p[i] + un*q[i]
@@ -114,8 +115,8 @@ func propagateSphere(a Astrometry, dtYr float64) Astrometry {
 	}
 	raRad, decRad := FromUnitVector(r2)
 	p2, q2 := axesOf(r2)
-	a.RADeg = wrapDeg360(raRad * radToDeg)
-	a.DecDeg = decRad * radToDeg
+	a.RADeg = wrapDeg360(raRad * units.DegPerRad)
+	a.DecDeg = decRad * units.DegPerRad
 	a.PMRAMasYr = muMas * dot(u2, p2)
 	a.PMDecMasYr = muMas * dot(u2, q2)
 	return a
@@ -125,9 +126,9 @@ func propagateSphere(a Astrometry, dtYr float64) Astrometry {
 // line motion with light time, eraPvstar) step by step, in au and au/day.
 // It reports false where ERFA would fail (speed of light reached).
 func propagateSpace(a Astrometry, dtDay float64) (Astrometry, bool) {
-	raRad, decRad := a.RADeg*degToRad, a.DecDeg*degToRad
-	pmRARad := a.PMRAMasYr * masToRad // mu_alpha*, rad/yr
-	pmDecRad := a.PMDecMasYr * masToRad
+	raRad, decRad := a.RADeg*units.RadPerDeg, a.DecDeg*units.RadPerDeg
+	pmRARad := a.PMRAMasYr * units.RadPerMas // mu_alpha*, rad/yr
+	pmDecRad := a.PMDecMasYr * units.RadPerMas
 
 	// eraPmsafe: raise the parallax so that the transverse speed stays
 	// below about 1% c, and to at least PXMIN. Like ERFA, size the yearly
@@ -157,14 +158,14 @@ func propagateSpace(a Astrometry, dtDay float64) (Astrometry, bool) {
 	if w < starpvMinParallaxAs {
 		w = starpvMinParallaxAs
 	}
-	distAU := 1 / (w * arcsecRad)
+	distAU := 1 / (w * units.RadPerArcsec)
 	rdAUDay := a.RVKms * kmsToAUDay
 	r, p, q := basis(raRad, decRad)
 	var pos, vel [3]float64
 	for i := range 3 {
 		pos[i] = distAU * r[i]
 		// Transverse velocity: distance x proper motion (rad/day).
-		vel[i] = distAU*(pmRARad*p[i]+pmDecRad*q[i])/julianYear + rdAUDay*r[i]
+		vel[i] = distAU*(pmRARad*p[i]+pmDecRad*q[i])/units.JulianYearDay + rdAUDay*r[i]
 	}
 	if dot(vel, vel)/(lightAUDay*lightAUDay) > starpvMaxBeta*starpvMaxBeta {
 		vel = [3]float64{}
@@ -251,10 +252,10 @@ func propagateSpace(a Astrometry, dtDay float64) (Astrometry, bool) {
 	ra2, dec2 := FromUnitVector(pos2)
 	p2, q2 := axesOf(x)
 	out := a
-	out.RADeg = wrapDeg360(ra2 * radToDeg)
-	out.DecDeg = dec2 * radToDeg
-	out.PMRAMasYr = dot(vobs, p2) / dist2 * julianYear / masToRad
-	out.PMDecMasYr = dot(vobs, q2) / dist2 * julianYear / masToRad
+	out.RADeg = wrapDeg360(ra2 * units.DegPerRad)
+	out.DecDeg = dec2 * units.DegPerRad
+	out.PMRAMasYr = dot(vobs, p2) / dist2 * units.JulianYearDay / units.RadPerMas
+	out.PMDecMasYr = dot(vobs, q2) / dist2 * units.JulianYearDay / units.RadPerMas
 	out.RVKms = dot(vobs, x) / kmsToAUDay
 	// Parallax in the same proportion as the modelled distance change.
 	out.ParallaxMas = a.ParallaxMas * distAU / dist2

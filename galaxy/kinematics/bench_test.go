@@ -11,6 +11,7 @@ import (
 
 	"starvet/galaxy/frames"
 	"starvet/galaxy/potential"
+	"starvet/internal/units"
 )
 
 // benchStars makes n invented stars: distances 0.3-30 kpc, halo-like
@@ -22,7 +23,7 @@ func benchStars(n int) []Star {
 	stars := make([]Star, n)
 	sun := frames.DefaultSun()
 	for i := range stars {
-		ra, dec := 360*rnd.Float64(), math.Asin(2*rnd.Float64()-1)/degToRad
+		ra, dec := 360*rnd.Float64(), math.Asin(2*rnd.Float64()-1)/units.RadPerDeg
 		d := 0.3 * math.Pow(100, rnd.Float64())
 		target := [3]float64{150 * rnd.NormFloat64(), 150 * rnd.NormFloat64(), 150 * rnd.NormFloat64()}
 		pa, pd, rv := velocityInputs(sun, ra, dec, d, target)

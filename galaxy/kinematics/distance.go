@@ -2,6 +2,8 @@ package kinematics
 
 import (
 	"math"
+
+	"starvet/internal/units"
 )
 
 // catalogDistance is an independent distance: normal in kpc truncated at
@@ -40,8 +42,7 @@ func (c catalogDistance) draw(rnd *stream) float64 {
 // distanceFromModulusKpc inverts the definition of the distance modulus,
 // mu = 5 log10(d / 10 pc): d = 10^(mu/5 + 1) pc.
 func distanceFromModulusKpc(muMag float64) float64 {
-	const pcPerKpc = 1000
-	return math.Pow(10, muMag/5+1) / pcPerKpc
+	return math.Pow(10, muMag/5+1) / units.PcPerKpc
 }
 
 // chooseDistance picks the distance method for s, recording fatal reasons

@@ -5,9 +5,8 @@ import (
 
 	"starvet/galaxy/frames"
 	"starvet/galaxy/potential"
+	"starvet/internal/units"
 )
-
-const degToRad = math.Pi / 180
 
 // worker holds the per-goroutine scratch space; one worker per goroutine.
 type worker struct {
@@ -65,7 +64,7 @@ type lineOfSight struct {
 }
 
 func newLineOfSight(sun frames.Sun, raDeg, decDeg float64) lineOfSight {
-	b := frames.NewBasis(raDeg*degToRad, decDeg*degToRad)
+	b := frames.NewBasis(raDeg*units.RadPerDeg, decDeg*units.RadPerDeg)
 	var l lineOfSight
 	var p1, vR, vA, vD [3]float64
 	l.pos0, l.vel0 = sun.ToGalactocentric(b, 0, 0, 0, 0)

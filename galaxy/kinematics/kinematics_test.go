@@ -15,6 +15,7 @@ import (
 	"gonum.org/v1/gonum/stat/distmv"
 
 	"starvet/galaxy/frames"
+	"starvet/internal/units"
 )
 
 var nan = math.NaN()
@@ -49,8 +50,8 @@ func hasReason(r Result, code string) bool {
 
 func TestKmsPerMasYrKpc(t *testing.T) {
 	// 4.740470464 km/s per (mas/yr kpc): 1 au per Julian year (from memory).
-	if math.Abs(frames.KmsPerMasYrKpc-4.740470464) > 1e-9 {
-		t.Fatalf("KmsPerMasYrKpc = %.10f", frames.KmsPerMasYrKpc)
+	if math.Abs(units.KmsPerMasYrKpc-4.740470464) > 1e-9 {
+		t.Fatalf("KmsPerMasYrKpc = %.10f", units.KmsPerMasYrKpc)
 	}
 	// A star at 1 kpc with 1 mas/yr and no rv moves 4.740470464 km/s
 	// relative to the Sun, whichever the direction of the motion.
@@ -80,7 +81,7 @@ func TestLineOfSightMatchesFrames(t *testing.T) {
 		t.Run(fmt.Sprint(tc.ra, tc.dec), func(t *testing.T) {
 			l := newLineOfSight(sun, tc.ra, tc.dec)
 			p1, v1 := l.at(tc.d, tc.pa, tc.pd, tc.rv)
-			p2, v2 := sun.ToGalactocentric(frames.NewBasis(tc.ra*degToRad, tc.dec*degToRad), tc.d, tc.pa, tc.pd, tc.rv)
+			p2, v2 := sun.ToGalactocentric(frames.NewBasis(tc.ra*units.RadPerDeg, tc.dec*units.RadPerDeg), tc.d, tc.pa, tc.pd, tc.rv)
 			for i := range 3 {
 				if math.Abs(p1[i]-p2[i]) > 1e-12 || math.Abs(v1[i]-v2[i]) > 1e-9 {
 					t.Errorf("pos %v vs %v, vel %v vs %v", p1, p2, v1, v2)
@@ -138,7 +139,7 @@ func TestZeroErrorsCollapse(t *testing.T) {
 				t.Fatalf("reasons %v", r.Reasons)
 			}
 			s := tc.star
-			pos, vel := set.Sun.ToGalactocentric(frames.NewBasis(s.RADeg*degToRad, s.DecDeg*degToRad), tc.distKpc, s.PMRAMasYr, s.PMDecMasYr, s.RVKms)
+			pos, vel := set.Sun.ToGalactocentric(frames.NewBasis(s.RADeg*units.RadPerDeg, s.DecDeg*units.RadPerDeg), tc.distKpc, s.PMRAMasYr, s.PMDecMasYr, s.RVKms)
 			speed := norm(vel)
 			vesc := math.Sqrt(-2 * p.Phi(pos))
 			vr := dot(pos, vel) / norm(pos)
@@ -190,7 +191,7 @@ func TestBoundUnboundFacts(t *testing.T) {
 	pa1, pd1, rv1 := velocityInputs(sun, ra1, dec1, 0.01, [3]float64{0, 300, 0})
 	// 50 kpc from the centre toward the anticentre, receding at 1200 km/s.
 	raA, decA := frames.GalacticToICRS(math.Pi, 0)
-	raA, decA = raA/degToRad, decA/degToRad
+	raA, decA = raA/units.RadPerDeg, decA/units.RadPerDeg
 	dA := 50 - sun.DistanceKpc
 	paA, pdA, rvA := velocityInputs(sun, raA, decA, dA, [3]float64{-1200, 0, 0})
 	cases := []struct {
@@ -533,7 +534,7 @@ func mixedStars(n int) []Star {
 	stars := make([]Star, n)
 	for i := range stars {
 		s := baseStar(fmt.Sprintf("mix-%04d", i))
-		s.RADeg, s.DecDeg = 360*rnd.Float64(), math.Asin(2*rnd.Float64()-1)/degToRad
+		s.RADeg, s.DecDeg = 360*rnd.Float64(), math.Asin(2*rnd.Float64()-1)/units.RadPerDeg
 		s.ParallaxMas = 0.05 + 2*rnd.Float64()
 		s.ParallaxErrMas = s.ParallaxMas * (0.02 + 0.6*rnd.Float64())
 		s.CorrParallaxPMRA = 0.4*rnd.Float64() - 0.2

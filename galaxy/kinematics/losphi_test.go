@@ -7,6 +7,7 @@ import (
 	"testing"
 
 	"starvet/galaxy/frames"
+	"starvet/internal/units"
 )
 
 // The interpolated escape speed must match sqrt(2 (Phi_lim - Phi)) computed
@@ -35,7 +36,7 @@ func TestLineOfSightEscapeTable(t *testing.T) {
 	}{{"bulge-halo", milkyWayTest()}, {"bulge-disk-halo", milkyWayBench()}} {
 		for _, tc := range cases {
 			t.Run(pot.name+"/"+tc.name, func(t *testing.T) {
-				l := newLineOfSight(sun, tc.ra/degToRad, tc.dec/degToRad)
+				l := newLineOfSight(sun, tc.ra/units.RadPerDeg, tc.dec/units.RadPerDeg)
 				var tab losEscape
 				tab.build(pot.p, &l, tc.dMin, tc.dMax, tc.rLim, 125)
 				t.Logf("table used: %v (%d nodes)", tab.ok, len(tab.psi))

@@ -3,6 +3,8 @@ package kinematics
 import (
 	"math"
 	"testing"
+
+	"starvet/internal/units"
 )
 
 // gravConst is G in kpc (km/s)^2 / Msun: 4.300917e-6 (from memory;
@@ -102,12 +104,11 @@ func milkyWayBench() sumPotential {
 
 func TestGravConst(t *testing.T) {
 	// IAU 2015 Resolution B3: nominal GM_sun = 1.3271244e20 m^3/s^2.
-	// IAU 2012 Resolution B2: au = 149 597 870 700 m. IAU 2015 Resolution
-	// B2: pc = 648000/pi au.
+	// kpc from IAU 2012 Resolution B2 (au) and IAU 2015 Resolution B2 (pc),
+	// in starvet/internal/units.
 	const gmSun = 1.3271244e20
-	const au = 149597870700.0
-	kpc := 1000 * 648000 / math.Pi * au
-	got := gmSun / 1e6 / kpc // (km/s)^2 kpc per Msun
+	kpc := units.MPerKm * units.KpcKm // m
+	got := gmSun / 1e6 / kpc          // (km/s)^2 kpc per Msun
 	if rel := math.Abs(got-gravConst) / gravConst; rel > 1e-6 {
 		t.Errorf("G = %.7g, computed %.7g from IAU constants (rel %.2g)", gravConst, got, rel)
 	}
