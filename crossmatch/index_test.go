@@ -45,7 +45,7 @@ func TestIndexWithinAgainstBruteForce(t *testing.T) {
 		t.Fatalf("Len %d Indexed %d, want %d and %d", ix.Len(), ix.Indexed(), len(ra), len(ra)-2)
 	}
 	qra, qdec := skyPoints(rng, 200)
-	radii := []float64{1.0 / 3600, 10.0 / 3600, 0.005, 0.05, 1, 20, 75, 120, 180}
+	radii := []float64{1.0 / units.ArcsecPerDeg, 10.0 / units.ArcsecPerDeg, 0.005, 0.05, 1, 20, 75, 120, 180}
 	for _, r := range radii {
 		total := 0
 		nq := len(qra)

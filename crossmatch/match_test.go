@@ -326,7 +326,7 @@ func TestMatchNeedsPropagation(t *testing.T) {
 	p := newSrc("fast", 100, 20, 50)
 	p.pmRA, p.pmDec = 4000, 0
 	ra2, dec2, _ := propagate(astro(100, 20, math.NaN(), 4000, 0, math.NaN()), 2000, 2016)
-	s := []src{newSrc("far-counterpart", ra2, dec2, 50), newSrc("at-old-place-2arcsec-off", 100, 20+2.0/3600, 50)}
+	s := []src{newSrc("far-counterpart", ra2, dec2, 50), newSrc("at-old-place-2arcsec-off", 100, 20+2.0/units.ArcsecPerDeg, 50)}
 	res, err := Match(context.Background(), table("a", 2000, []src{p}), table("b", 2016, s), Options{RadiusArcsec: 1})
 	if err != nil {
 		t.Fatal(err)

@@ -472,7 +472,7 @@ func crossingPlot(d *data) (*PlotSummary, []byte, error) {
 
 	var circ plotter.XYs
 	for k := 0; k <= 180; k++ {
-		t := float64(k) * 2 * math.Pi / 180
+		t := float64(2*k) * units.RadPerDeg
 		circ = append(circ, plotter.XY{X: d.opt.GCRadiusKpc * math.Cos(t), Y: d.opt.GCRadiusKpc * math.Sin(t)})
 	}
 	cl, err := line(p, circ, black, 1, vg.Points(3), vg.Points(2))

@@ -361,7 +361,7 @@ func TestTraps(t *testing.T) {
 			t.Run("duplicate/"+st.id, func(t *testing.T) {
 				j := aRow[st.twinOf.id]
 				sep := sky.Separation(col(catalog.RA, i)*units.RadPerDeg, col(catalog.Dec, i)*units.RadPerDeg,
-					col(catalog.RA, j)*units.RadPerDeg, col(catalog.Dec, j)*units.RadPerDeg) / units.RadPerDeg * 3600
+					col(catalog.RA, j)*units.RadPerDeg, col(catalog.Dec, j)*units.RadPerDeg) / units.RadPerDeg * units.ArcsecPerDeg
 				slack := 5 * math.Hypot(col(catalog.RAErr, i), col(catalog.RAErr, j)) / 1000
 				if sep < 0.1-slack || sep > 0.3+slack {
 					t.Errorf("separation %v arcsec, want 0.1-0.3", sep)
@@ -390,7 +390,7 @@ func TestTraps(t *testing.T) {
 				var seps []float64
 				var rvs []float64
 				for j := range spec.Len() {
-					sep := sky.Separation(ra*units.RadPerDeg, dec*units.RadPerDeg, spec.Cols[catalog.RA][j]*units.RadPerDeg, spec.Cols[catalog.Dec][j]*units.RadPerDeg) / units.RadPerDeg * 3600
+					sep := sky.Separation(ra*units.RadPerDeg, dec*units.RadPerDeg, spec.Cols[catalog.RA][j]*units.RadPerDeg, spec.Cols[catalog.Dec][j]*units.RadPerDeg) / units.RadPerDeg * units.ArcsecPerDeg
 					if sep < 1.2 {
 						seps = append(seps, sep)
 						rvs = append(rvs, spec.Cols[catalog.RV][j])
@@ -420,7 +420,7 @@ func TestTraps(t *testing.T) {
 				}
 				j := sRow[st.spec.id]
 				sRA, sDec := spec.Cols[catalog.RA][j], spec.Cols[catalog.Dec][j]
-				sep0 := sky.Separation(col(catalog.RA, i)*units.RadPerDeg, col(catalog.Dec, i)*units.RadPerDeg, sRA*units.RadPerDeg, sDec*units.RadPerDeg) / units.RadPerDeg * 3600
+				sep0 := sky.Separation(col(catalog.RA, i)*units.RadPerDeg, col(catalog.Dec, i)*units.RadPerDeg, sRA*units.RadPerDeg, sDec*units.RadPerDeg) / units.RadPerDeg * units.ArcsecPerDeg
 				if sep0 < 1 {
 					t.Errorf("spectrum only %v arcsec from the astrometric-epoch position: matches without propagation", sep0)
 				}
@@ -430,7 +430,7 @@ func TestTraps(t *testing.T) {
 				p := sky.Propagate(sky.Astrometry{RADeg: col(catalog.RA, i), DecDeg: col(catalog.Dec, i),
 					ParallaxMas: col(catalog.Parallax, i), PMRAMasYr: col(catalog.PMRA, i), PMDecMasYr: col(catalog.PMDec, i),
 					RVKms: spec.Cols[catalog.RV][j]}, AstrometryEpochJyr, SpectroscopyEpochJyr)
-				sep1 := sky.Separation(p.RADeg*units.RadPerDeg, p.DecDeg*units.RadPerDeg, sRA*units.RadPerDeg, sDec*units.RadPerDeg) / units.RadPerDeg * 3600
+				sep1 := sky.Separation(p.RADeg*units.RadPerDeg, p.DecDeg*units.RadPerDeg, sRA*units.RadPerDeg, sDec*units.RadPerDeg) / units.RadPerDeg * units.ArcsecPerDeg
 				if sep1 > 0.4 {
 					t.Errorf("propagated position %v arcsec from the spectrum", sep1)
 				}
@@ -446,7 +446,7 @@ func TestTraps(t *testing.T) {
 		ra, dec := propagateDeg(st.raDeg, st.decDeg, st.pmRA, st.pmDec, SpectroscopyEpochJyr-AstrometryEpochJyr)
 		p := sky.Propagate(sky.Astrometry{RADeg: st.raDeg, DecDeg: st.decDeg, ParallaxMas: 1 / st.distKpc,
 			PMRAMasYr: st.pmRA, PMDecMasYr: st.pmDec, RVKms: st.rvKms}, AstrometryEpochJyr, SpectroscopyEpochJyr)
-		if d := sky.Separation(ra*units.RadPerDeg, dec*units.RadPerDeg, p.RADeg*units.RadPerDeg, p.DecDeg*units.RadPerDeg) / units.RadPerDeg * 3.6e6; d > 1 {
+		if d := sky.Separation(ra*units.RadPerDeg, dec*units.RadPerDeg, p.RADeg*units.RadPerDeg, p.DecDeg*units.RadPerDeg) / units.RadPerDeg * units.MasPerDeg; d > 1 {
 			t.Errorf("%s: linear propagation off by %v mas from sky.Propagate", st.id, d)
 		}
 	}

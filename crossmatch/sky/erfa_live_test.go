@@ -84,7 +84,7 @@ func TestLiveSeparation(t *testing.T) {
 // (the task's tolerance), proper motions to 1e-6 mas/yr.
 func TestLivePropagate(t *testing.T) {
 	rng := rand.New(rand.NewPCG(liveSeed(t), 2))
-	const j2000, jy = 2451545.0, 365.25
+	const j2000, jy = 2451545.0, units.JulianYearDay
 	worst := 0.0
 	for i := range 20000 {
 		ra, dec := randomDirection(rng)
