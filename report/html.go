@@ -8,6 +8,8 @@ import (
 	"path/filepath"
 	"sort"
 	"time"
+
+	"starvet/internal/vec"
 )
 
 type countRow struct {
@@ -52,7 +54,7 @@ type pageView struct {
 }
 
 func num(x float64, prec int) string {
-	if !finite(x) {
+	if !vec.Finite(x) {
 		return "–"
 	}
 	return fmt.Sprintf("%.*f", prec, x)
@@ -75,7 +77,7 @@ func candidates(d *data) []candRow {
 		}
 	}
 	key := func(x float64) float64 {
-		if !finite(x) {
+		if !vec.Finite(x) {
 			return math.Inf(-1)
 		}
 		return x

@@ -16,6 +16,7 @@ import (
 	"starvet/galaxy/frames"
 	"starvet/galaxy/potential"
 	"starvet/internal/units"
+	"starvet/internal/vec"
 )
 
 var (
@@ -23,8 +24,6 @@ var (
 	gridGrey  = color.RGBA{0xC8, 0xC8, 0xC8, 0xFF}
 	curveGrey = color.RGBA{0x44, 0x44, 0x44, 0xFF}
 )
-
-func finite(x float64) bool { return !math.IsNaN(x) && !math.IsInf(x, 0) }
 
 func toSVG(p *plot.Plot, w, h vg.Length) ([]byte, error) {
 	c := vgsvg.New(w, h)
@@ -82,24 +81,24 @@ func speedPlot(d *data) (*PlotSummary, []byte, error) {
 	rMin, rMax := math.Inf(1), 0.0
 	for i := range d.stars {
 		s := &d.stars[i]
-		if !finite(s.SpeedP50Kms) || !(s.RGCKpc > 0) || math.IsInf(s.RGCKpc, 0) {
+		if !vec.Finite(s.SpeedP50Kms) || !(s.RGCKpc > 0) || math.IsInf(s.RGCKpc, 0) {
 			if s.Status != "rejected" && s.Status != "withdrawn" {
 				omitted[s.Status]++
 			}
 			continue
 		}
 		lo, hi := 0.0, 0.0
-		if finite(s.SpeedP16Kms) {
+		if vec.Finite(s.SpeedP16Kms) {
 			lo = math.Max(0, s.SpeedP50Kms-s.SpeedP16Kms)
 		}
-		if finite(s.SpeedP84Kms) {
+		if vec.Finite(s.SpeedP84Kms) {
 			hi = math.Max(0, s.SpeedP84Kms-s.SpeedP50Kms)
 		}
 		pts[s.Status] = append(pts[s.Status], plotter.XY{X: s.RGCKpc, Y: s.SpeedP50Kms})
 		bars[s.Status] = append(bars[s.Status], struct{ Low, High float64 }{lo, hi})
 		present[s.Status] = true
 		rMin, rMax = math.Min(rMin, s.RGCKpc), math.Max(rMax, s.RGCKpc)
-		if finite(s.VEscKms) {
+		if vec.Finite(s.VEscKms) {
 			vesc = append(vesc, plotter.XY{X: s.RGCKpc, Y: s.VEscKms})
 		}
 	}
@@ -340,7 +339,7 @@ func pUnboundPlot(d *data) (*PlotSummary, []byte, error) {
 		if !s.HasRV {
 			continue
 		}
-		if !finite(s.PUnbound) {
+		if !vec.Finite(s.PUnbound) {
 			ps.Omitted++
 			continue
 		}
@@ -458,7 +457,7 @@ func crossingPlot(d *data) (*PlotSummary, []byte, error) {
 	present := map[string]bool{}
 	extent := math.Max(d.opt.SunDistanceKpc+1, 1.5*d.opt.GCRadiusKpc)
 	for i, c := range d.crossings {
-		if !finite(c.XKpc) || !finite(c.YKpc) {
+		if !vec.Finite(c.XKpc) || !vec.Finite(c.YKpc) {
 			ps.Omitted++
 			continue
 		}

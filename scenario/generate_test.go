@@ -18,6 +18,7 @@ import (
 	"starvet/crossmatch/sky"
 	"starvet/galaxy/frames"
 	"starvet/internal/units"
+	"starvet/internal/vec"
 )
 
 const testStars = 3000
@@ -247,7 +248,7 @@ func TestPopulationInvariants(t *testing.T) {
 		}
 		switch st.pop {
 		case PopGCEjectee:
-			r0 := norm(st.launchPos)
+			r0 := vec.Norm(st.launchPos)
 			v0 := speed(st.launchVel)
 			if r0 < 0.01 || r0 > 0.05 || v0 < 700 || v0 > 1800 || st.flightMyr < 10 || st.flightMyr > 250 {
 				t.Errorf("%s: launch r %v v %v t %v outside the drawn ranges", st.id, r0, v0, st.flightMyr)

@@ -5,6 +5,7 @@ import (
 	"math/rand/v2"
 
 	"starvet/internal/units"
+	"starvet/internal/vec"
 )
 
 // astroRow is one row of the astrometric catalog, canonical units.
@@ -181,7 +182,7 @@ func moveDeg(raDeg, decDeg, xi, eta float64) (float64, float64) {
 		cd*sa + xi*ca - eta*sd*sa,
 		sd + eta*cd,
 	}
-	n := norm(u)
+	n := vec.Norm(u)
 	ra := math.Atan2(u[1], u[0]) / units.RadPerDeg
 	if ra < 0 {
 		ra += 360

@@ -10,6 +10,7 @@ import (
 	"testing"
 
 	"starvet/internal/units"
+	"starvet/internal/vec"
 )
 
 // Live randomized comparison with ERFA (derived from IAU SOFA) through cgo:
@@ -127,7 +128,7 @@ func TestLivePropagate(t *testing.T) {
 			erfaV := pmr2*math.Cos(dec2)/units.RadPerMas*p2[k] + pmd2/units.RadPerMas*q2[k]
 			dv[k] = out.PMRAMasYr*pOut[k] + out.PMDecMasYr*qOut[k] - erfaV
 		}
-		dpm := math.Sqrt(dot(dv, dv))
+		dpm := math.Sqrt(vec.Dot(dv, dv))
 		if dpm > 1e-6+1e-15/math.Cos(dec2)*muAs*1000 {
 			t.Fatalf("case %d: %+v: pm (%v, %v), eraPmsafe (%v, %v)", i, in, out.PMRAMasYr, out.PMDecMasYr, pmr2*math.Cos(dec2)/units.RadPerMas, pmd2/units.RadPerMas)
 		}

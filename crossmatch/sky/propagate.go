@@ -4,6 +4,7 @@ import (
 	"math"
 
 	"starvet/internal/units"
+	"starvet/internal/vec"
 )
 
 // Astrometry is one star's astrometric state at some epoch. NaN marks an
@@ -94,8 +95,6 @@ func axesOf(r [3]float64) (p, q [3]float64) {
 	return [3]float64{-sy, cx, 0}, [3]float64{-r[2] * cx, -r[2] * sy, rxy}
 }
 
-func dot(a, b [3]float64) float64 { return a[0]*b[0] + a[1]*b[1] + a[2]*b[2] }
-
 // propagateSphere moves along the great circle through the start in the
 // direction of the proper motion (a rotation in the plane of r and the unit
 // motion direction u): r' = r cos d + u sin d, u' = -r sin d + u cos d.
@@ -117,8 +116,8 @@ func propagateSphere(a Astrometry, dtYr float64) Astrometry {
 	p2, q2 := axesOf(r2)
 	a.RADeg = wrapDeg360(raRad * units.DegPerRad)
 	a.DecDeg = decRad * units.DegPerRad
-	a.PMRAMasYr = muMas * dot(u2, p2)
-	a.PMDecMasYr = muMas * dot(u2, q2)
+	a.PMRAMasYr = muMas * vec.Dot(u2, p2)
+	a.PMDecMasYr = muMas * vec.Dot(u2, q2)
 	return a
 }
 
@@ -167,15 +166,15 @@ func propagateSpace(a Astrometry, dtDay float64) (Astrometry, bool) {
 		// Transverse velocity: distance x proper motion (rad/day).
 		vel[i] = distAU*(pmRARad*p[i]+pmDecRad*q[i])/units.JulianYearDay + rdAUDay*r[i]
 	}
-	if dot(vel, vel)/(lightAUDay*lightAUDay) > starpvMaxBeta*starpvMaxBeta {
+	if vec.Dot(vel, vel)/(lightAUDay*lightAUDay) > starpvMaxBeta*starpvMaxBeta {
 		vel = [3]float64{}
 	}
-	vsr := dot(r, vel) // radial part, along the unit vector r
+	vsr := vec.Dot(r, vel) // radial part, along the unit vector r
 	var ust [3]float64
 	for i := range 3 {
 		ust[i] = vel[i] - vsr*r[i]
 	}
-	vst := math.Sqrt(dot(ust, ust))
+	vst := math.Sqrt(vec.Dot(ust, ust))
 	betsr, betst := vsr/lightAUDay, vst/lightAUDay
 	// Observed-to-inertial correction: the fixed-point iteration of
 	// eraStarpv, with its stopping rule.
@@ -207,14 +206,14 @@ func propagateSpace(a Astrometry, dtDay float64) (Astrometry, bool) {
 
 	// eraStarpm: light time at the start, move to the geometric position at
 	// the end, light time there, then move to the observed place at the end.
-	tl1 := math.Sqrt(dot(pos, pos)) / lightAUDay
+	tl1 := math.Sqrt(vec.Dot(pos, pos)) / lightAUDay
 	var g [3]float64
 	for i := range 3 {
 		g[i] = pos[i] + (dtDay+tl1)*vel[i]
 	}
-	r2 := dot(g, g)
-	rdv := dot(g, vel)
-	c2mv2 := lightAUDay*lightAUDay - dot(vel, vel)
+	r2 := vec.Dot(g, g)
+	rdv := vec.Dot(g, vel)
+	c2mv2 := lightAUDay*lightAUDay - vec.Dot(vel, vel)
 	if c2mv2 <= 0 {
 		return a, false
 	}
@@ -225,7 +224,7 @@ func propagateSpace(a Astrometry, dtDay float64) (Astrometry, bool) {
 	}
 
 	// eraPvstar: inertial to observed velocity, then to catalogue values.
-	dist2 := math.Sqrt(dot(pos2, pos2))
+	dist2 := math.Sqrt(vec.Dot(pos2, pos2))
 	if dist2 == 0 {
 		return a, false
 	}
@@ -233,12 +232,12 @@ func propagateSpace(a Astrometry, dtDay float64) (Astrometry, bool) {
 	for i := range 3 {
 		x[i] = pos2[i] / dist2
 	}
-	vr := dot(x, vel)
+	vr := vec.Dot(x, vel)
 	var ut [3]float64
 	for i := range 3 {
 		ut[i] = vel[i] - vr*x[i]
 	}
-	bt, br := math.Sqrt(dot(ut, ut))/lightAUDay, vr/lightAUDay
+	bt, br := math.Sqrt(vec.Dot(ut, ut))/lightAUDay, vr/lightAUDay
 	d2 := 1 + br
 	w2 := br*br + bt*bt
 	if d2 == 0 || w2 >= 1 {
@@ -254,9 +253,9 @@ func propagateSpace(a Astrometry, dtDay float64) (Astrometry, bool) {
 	out := a
 	out.RADeg = wrapDeg360(ra2 * units.DegPerRad)
 	out.DecDeg = dec2 * units.DegPerRad
-	out.PMRAMasYr = dot(vobs, p2) / dist2 * units.JulianYearDay / units.RadPerMas
-	out.PMDecMasYr = dot(vobs, q2) / dist2 * units.JulianYearDay / units.RadPerMas
-	out.RVKms = dot(vobs, x) / kmsToAUDay
+	out.PMRAMasYr = vec.Dot(vobs, p2) / dist2 * units.JulianYearDay / units.RadPerMas
+	out.PMDecMasYr = vec.Dot(vobs, q2) / dist2 * units.JulianYearDay / units.RadPerMas
+	out.RVKms = vec.Dot(vobs, x) / kmsToAUDay
 	// Parallax in the same proportion as the modelled distance change.
 	out.ParallaxMas = a.ParallaxMas * distAU / dist2
 	return out, true

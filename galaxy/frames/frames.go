@@ -4,6 +4,7 @@ import (
 	"math"
 
 	"starvet/internal/units"
+	"starvet/internal/vec"
 )
 
 // Defining angles of the Galactic frame (ESA 1997, The Hipparcos and Tycho
@@ -185,10 +186,8 @@ func (s Sun) FromGalactocentric(posKpc, velKms [3]float64) (raRad, decRad, distK
 	decRad = math.Atan2(e[2], math.Hypot(e[0], e[1]))
 	b := NewBasis(raRad, decRad)
 	k := units.KmsPerMasYrKpc * distKpc
-	rvKms = dot(v, b.R)
-	pmRAMasYr = dot(v, b.P) / k
-	pmDecMasYr = dot(v, b.Q) / k
+	rvKms = vec.Dot(v, b.R)
+	pmRAMasYr = vec.Dot(v, b.P) / k
+	pmDecMasYr = vec.Dot(v, b.Q) / k
 	return raRad, decRad, distKpc, pmRAMasYr, pmDecMasYr, rvKms
 }
-
-func dot(a, b [3]float64) float64 { return a[0]*b[0] + a[1]*b[1] + a[2]*b[2] }

@@ -6,6 +6,7 @@ import (
 	"testing"
 
 	"starvet/internal/units"
+	"starvet/internal/vec"
 )
 
 // TestMatrixElements compares ICRSToGal with the matrix printed in ESA 1997,
@@ -28,7 +29,7 @@ func TestMatrixElements(t *testing.T) {
 	// Orthonormality (analytic identity of a rotation).
 	for i := range 3 {
 		for j := range 3 {
-			d := dot(ICRSToGal[i], ICRSToGal[j])
+			d := vec.Dot(ICRSToGal[i], ICRSToGal[j])
 			if i == j {
 				d--
 			}
@@ -145,7 +146,7 @@ func TestSunPlacement(t *testing.T) {
 			}
 			ra, dec := GalacticToICRS(0, 0)
 			gc, _ := c.s.ToGalactocentric(NewBasis(ra, dec), c.s.DistanceKpc, 0, 0, 0)
-			if n := math.Sqrt(dot(gc, gc)); n > 1e-13 {
+			if n := math.Sqrt(vec.Dot(gc, gc)); n > 1e-13 {
 				t.Errorf("Galactic centre at %v, want origin", gc)
 			}
 		})
@@ -178,7 +179,7 @@ func TestStarAtRest(t *testing.T) {
 			}
 		}
 		_, vel := s.ToGalactocentric(b, dist, pmra, pmdec, rv)
-		if n := math.Sqrt(dot(vel, vel)); n > 1e-11 {
+		if n := math.Sqrt(vec.Dot(vel, vel)); n > 1e-11 {
 			t.Fatalf("case %d: round trip velocity %v, want 0", i, vel)
 		}
 	}

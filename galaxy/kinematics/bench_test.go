@@ -12,6 +12,7 @@ import (
 	"starvet/galaxy/frames"
 	"starvet/galaxy/potential"
 	"starvet/internal/units"
+	"starvet/internal/vec"
 )
 
 // benchStars makes n invented stars: distances 0.3-30 kpc, halo-like
@@ -62,7 +63,7 @@ func newBenchGalaxy() *benchGalaxy {
 
 // Phi is the sum of the three component potentials with r computed once.
 func (g *benchGalaxy) Phi(x [3]float64) float64 {
-	r := norm(x)
+	r := vec.Norm(x)
 	bulge := -gravConst * g.bulge.massMsun / (r + g.bulge.aKpc)
 	halo := -gravConst * g.halo.scaleMassMsun * math.Log1p(r/g.halo.rsKpc) / r
 	return bulge + g.disk.Phi(x) + halo

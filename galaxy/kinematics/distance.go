@@ -4,6 +4,7 @@ import (
 	"math"
 
 	"starvet/internal/units"
+	"starvet/internal/vec"
 )
 
 // catalogDistance is an independent distance: normal in kpc truncated at
@@ -49,21 +50,21 @@ func distanceFromModulusKpc(muMag float64) float64 {
 // in r (r.OK false) and notes about catalog distances it could not use.
 func chooseDistance(s *Star, set *Settings, r *Result) (string, catalogDistance) {
 	wCorr := s.ParallaxMas - set.ParallaxZeroPointMas
-	plxOK := finite(s.ParallaxMas) && finite(s.ParallaxErrMas)
+	plxOK := vec.Finite(s.ParallaxMas) && vec.Finite(s.ParallaxErrMas)
 
 	var cat catalogDistance
 	catOK := false
 	var catProblem string
 	switch {
-	case finite(s.DistMod) && finite(s.DistModErr):
+	case vec.Finite(s.DistMod) && vec.Finite(s.DistModErr):
 		cat, catOK = newModulusDistance(s.DistMod, s.DistModErr), true
-	case finite(s.DistKpc) && finite(s.DistErrKpc) && s.DistKpc > 0:
+	case vec.Finite(s.DistKpc) && vec.Finite(s.DistErrKpc) && s.DistKpc > 0:
 		cat, catOK = catalogDistance{mean: s.DistKpc, sigma: s.DistErrKpc}, true
-	case finite(s.DistMod):
+	case vec.Finite(s.DistMod):
 		catProblem = "distance modulus without uncertainty"
-	case finite(s.DistKpc) && !(s.DistKpc > 0):
+	case vec.Finite(s.DistKpc) && !(s.DistKpc > 0):
 		catProblem = "non-positive catalog distance"
-	case finite(s.DistKpc):
+	case vec.Finite(s.DistKpc):
 		catProblem = "catalog distance without uncertainty"
 	default:
 		catProblem = "no catalog distance"

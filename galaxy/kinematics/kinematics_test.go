@@ -16,6 +16,7 @@ import (
 
 	"starvet/galaxy/frames"
 	"starvet/internal/units"
+	"starvet/internal/vec"
 )
 
 var nan = math.NaN()
@@ -65,7 +66,7 @@ func TestKmsPerMasYrKpc(t *testing.T) {
 			l := newLineOfSight(frames.DefaultSun(), 33, 44)
 			_, v := l.at(1, tc.pmRA, tc.pmDec, 0)
 			rel := [3]float64{v[0] - l.vel0[0], v[1] - l.vel0[1], v[2] - l.vel0[2]}
-			if got := norm(rel); math.Abs(got-4.740470464) > 1e-8 {
+			if got := vec.Norm(rel); math.Abs(got-4.740470464) > 1e-8 {
 				t.Errorf("speed %.10f km/s", got)
 			}
 		})
@@ -140,15 +141,15 @@ func TestZeroErrorsCollapse(t *testing.T) {
 			}
 			s := tc.star
 			pos, vel := set.Sun.ToGalactocentric(frames.NewBasis(s.RADeg*units.RadPerDeg, s.DecDeg*units.RadPerDeg), tc.distKpc, s.PMRAMasYr, s.PMDecMasYr, s.RVKms)
-			speed := norm(vel)
+			speed := vec.Norm(vel)
 			vesc := math.Sqrt(-2 * p.Phi(pos))
-			vr := dot(pos, vel) / norm(pos)
+			vr := vec.Dot(pos, vel) / vec.Norm(pos)
 			for _, q := range []struct {
 				name string
 				got  [3]float64
 				want float64
 			}{
-				{"dist", r.DistKpc, tc.distKpc}, {"speed", r.SpeedKms, speed}, {"rgc", r.RGCKpc, norm(pos)},
+				{"dist", r.DistKpc, tc.distKpc}, {"speed", r.SpeedKms, speed}, {"rgc", r.RGCKpc, vec.Norm(pos)},
 				{"vesc", r.VEscKms, vesc}, {"vrad", r.VRadialKms, vr}, {"vtan", r.VTangentialKms, math.Sqrt(speed*speed - vr*vr)},
 			} {
 				for k := range 3 {
@@ -178,7 +179,7 @@ func TestZeroErrorsCollapse(t *testing.T) {
 func velocityInputs(sun frames.Sun, ra, dec, dKpc float64, target [3]float64) (pmRA, pmDec, rv float64) {
 	l := newLineOfSight(sun, ra, dec)
 	dv := [3]float64{target[0] - l.vel0[0], target[1] - l.vel0[1], target[2] - l.vel0[2]}
-	return dot(dv, l.velA) / (dKpc * dot(l.velA, l.velA)), dot(dv, l.velD) / (dKpc * dot(l.velD, l.velD)), dot(dv, l.velR) / dot(l.velR, l.velR)
+	return vec.Dot(dv, l.velA) / (dKpc * vec.Dot(l.velA, l.velA)), vec.Dot(dv, l.velD) / (dKpc * vec.Dot(l.velD, l.velD)), vec.Dot(dv, l.velR) / vec.Dot(l.velR, l.velR)
 }
 
 // Common practice facts with the Milky-Way-like test potential.
@@ -232,7 +233,7 @@ func TestPUnboundMonotoneInRV(t *testing.T) {
 	set := testSettings()
 	l := newLineOfSight(set.Sun, s.RADeg, s.DecDeg)
 	_, v0 := l.at(4, s.PMRAMasYr, s.PMDecMasYr, 0)
-	rvMin := -dot(v0, l.velR) // minimum speed here
+	rvMin := -vec.Dot(v0, l.velR) // minimum speed here
 	prev := -1.0
 	var ps []float64
 	for rv := rvMin + 100; rv <= rvMin+1500; rv += 25 {
@@ -263,7 +264,7 @@ func TestMissingRVLowerBound(t *testing.T) {
 		s.RVKms, s.RVErrKms = rv, 0
 		r := eval(s, set)
 		for i := range r.SampleVel {
-			if v, lb := norm(r.SampleVel[i]), norm(low.SampleVel[i]); v < lb-1e-9 {
+			if v, lb := vec.Norm(r.SampleVel[i]), vec.Norm(low.SampleVel[i]); v < lb-1e-9 {
 				t.Fatalf("rv %v sample %d: speed %v below bound %v", rv, i, v, lb)
 			}
 		}
@@ -283,7 +284,7 @@ func TestMissingRVLowerBound(t *testing.T) {
 	lz := eval(z, set)
 	l := newLineOfSight(set.Sun, z.RADeg, z.DecDeg)
 	_, v0 := l.at(2, z.PMRAMasYr, z.PMDecMasYr, 0)
-	z.RVKms, z.RVErrKms = -dot(v0, l.velR), 0
+	z.RVKms, z.RVErrKms = -vec.Dot(v0, l.velR), 0
 	at := eval(z, set)
 	if math.Abs(at.SpeedKms[1]-lz.SpeedLowerKms[1]) > 1e-9 {
 		t.Errorf("speed at the minimising rv %v, bound %v", at.SpeedKms[1], lz.SpeedLowerKms[1])

@@ -8,6 +8,7 @@ import (
 
 	"starvet/galaxy/frames"
 	"starvet/internal/units"
+	"starvet/internal/vec"
 )
 
 // The interpolated escape speed must match sqrt(2 (Phi_lim - Phi)) computed
@@ -48,7 +49,7 @@ func TestLineOfSightEscapeTable(t *testing.T) {
 				for range 5000 {
 					d := tc.dMin + (tc.dMax-tc.dMin)*rnd.Float64()
 					pos, _ := l.at(d, 0, 0, 0)
-					exact := escapeSpeed(pot.p, pos, norm(pos), tc.rLim)
+					exact := escapeSpeed(pot.p, pos, vec.Norm(pos), tc.rLim)
 					worst = math.Max(worst, math.Abs(tab.vesc(d)-exact))
 				}
 				t.Logf("worst error %.2g km/s", worst)
@@ -142,7 +143,7 @@ func TestLineOfSightEscapeTableStars(t *testing.T) {
 				for k := range 2001 {
 					d := lo + (hi-lo)*float64(k)/2000
 					pos, _ := l.at(d, 0, 0, 0)
-					if e := math.Abs(w.esc.vesc(d) - escapeSpeed(p, pos, norm(pos), rLim)); e > worst {
+					if e := math.Abs(w.esc.vesc(d) - escapeSpeed(p, pos, vec.Norm(pos), rLim)); e > worst {
 						worst = e
 					}
 				}

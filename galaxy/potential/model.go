@@ -9,6 +9,8 @@ import (
 	"sort"
 	"strconv"
 	"strings"
+
+	"starvet/internal/vec"
 )
 
 // Component kind names accepted in Component.Kind.
@@ -109,17 +111,15 @@ func bad(i int, field, format string, args ...any) error {
 	return &ComponentError{Index: i, Field: field, Err: ErrBadValue, Msg: fmt.Sprintf(format, args...)}
 }
 
-func finite(v float64) bool { return !math.IsNaN(v) && !math.IsInf(v, 0) }
-
 func compile(i int, c Component) (comp, error) {
-	if !finite(c.MassMsun) || c.MassMsun <= 0 {
+	if !vec.Finite(c.MassMsun) || c.MassMsun <= 0 {
 		return comp{}, bad(i, "mass_msun", "must be a positive finite mass in Msun, got %v", c.MassMsun)
 	}
 	for _, f := range []struct {
 		name string
 		v    float64
 	}{{"scale_kpc", c.ScaleKpc}, {"a_kpc", c.AKpc}, {"b_kpc", c.BKpc}} {
-		if !finite(f.v) || f.v < 0 {
+		if !vec.Finite(f.v) || f.v < 0 {
 			return comp{}, bad(i, f.name, "must be a finite length >= 0 in kpc, got %v", f.v)
 		}
 	}
