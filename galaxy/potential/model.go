@@ -1,8 +1,6 @@
 package potential
 
 import (
-	"crypto/sha256"
-	"encoding/hex"
 	"errors"
 	"fmt"
 	"math"
@@ -10,6 +8,7 @@ import (
 	"strconv"
 	"strings"
 
+	"starvet/internal/fingerprint"
 	"starvet/internal/vec"
 )
 
@@ -103,7 +102,7 @@ func New(components []Component) (*Model, error) {
 		}
 		m.comps = append(m.comps, cc)
 	}
-	m.fp = fingerprint(m.comps)
+	m.fp = componentsFingerprint(m.comps)
 	return m, nil
 }
 
@@ -165,7 +164,7 @@ func (m *Model) Components() []Component { return append([]Component(nil), m.com
 // AKpc. Two models with equal fingerprints give identical forces.
 func (m *Model) Fingerprint() string { return m.fp }
 
-func fingerprint(cs []comp) string {
+func componentsFingerprint(cs []comp) string {
 	names := [...]string{kPoint: KindPoint, kHernquist: KindHernquist, kMN: KindMiyamotoNagai, kNFW: KindNFW}
 	parts := make([]string, len(cs))
 	f := func(v float64) string { return strconv.FormatFloat(v, 'g', -1, 64) }
@@ -182,8 +181,7 @@ func fingerprint(cs []comp) string {
 		parts[i] = p
 	}
 	sort.Strings(parts)
-	h := sha256.Sum256([]byte("starvet-potential-v1\n" + strings.Join(parts, "\n")))
-	return hex.EncodeToString(h[:16])
+	return fingerprint.Hex([]byte("starvet-potential-v1\n"+strings.Join(parts, "\n")), 16)
 }
 
 // Phi returns the potential in (km/s)^2 at x (kpc). A point mass gives -Inf
