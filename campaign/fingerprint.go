@@ -1,10 +1,9 @@
 package campaign
 
 import (
-	"crypto/sha256"
-	"encoding/hex"
-	"encoding/json"
 	"path/filepath"
+
+	"starvet/internal/fingerprint"
 )
 
 // Fingerprint holds the three campaign hashes.
@@ -94,10 +93,9 @@ func (c *Campaign) Hash() string {
 }
 
 func hashJSON(v any) string {
-	b, err := json.Marshal(v)
+	fp, err := fingerprint.JSON(v)
 	if err != nil {
 		panic("campaign: cannot encode fingerprint: " + err.Error()) // only plain types: a programming error
 	}
-	s := sha256.Sum256(b)
-	return hex.EncodeToString(s[:])
+	return fp
 }

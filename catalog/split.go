@@ -7,6 +7,8 @@ import (
 	"fmt"
 	"io"
 	"strings"
+
+	"starvet/internal/fingerprint"
 )
 
 // The reader splits lines itself while they hold no double quote: such a
@@ -290,11 +292,7 @@ type idSlot struct {
 // by the MurmurHash3 finaliser (fmix64, Appleby; common practice) so that
 // the low bits used for the slot depend on every byte.
 func hashID[T string | []byte](id T) uint64 {
-	h := uint64(14695981039346656037)
-	for i := 0; i < len(id); i++ {
-		h ^= uint64(id[i])
-		h *= 1099511628211
-	}
+	h := fingerprint.FNV1a64(id)
 	h ^= h >> 33
 	h *= 0xff51afd7ed558ccd
 	h ^= h >> 33

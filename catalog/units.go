@@ -3,18 +3,14 @@ package catalog
 import (
 	"fmt"
 	"math"
+
+	"starvet/internal/units"
 )
 
-// Unit factors, defined once. Each turns a value in the named unit into the
-// canonical unit (common practice, exact by definition of the units).
-const (
-	degPerHour   = 15.0          // 24 h = 360 deg
-	masPerArcsec = 1000.0        // 1 arcsec = 1000 mas
-	masPerDeg    = 3600e3        // 1 deg = 3600 arcsec
-	kmsPerMs     = 1e-3          // 1 km/s = 1000 m/s
-	kpcPerPc     = 1e-3          // 1 kpc = 1000 pc
-	ln10Over5    = math.Ln10 / 5 // d(ln d)/d(mu) for d = 10^(mu/5+1) pc
-)
+// Unit factors turning a value in the named unit into the canonical unit
+// are in starvet/internal/units.
+
+const ln10Over5 = math.Ln10 / 5 // d(ln d)/d(mu) for d = 10^(mu/5+1) pc
 
 // FieldByName returns the canonical field with the given name. DistMod and
 // DistModErr are found too; use Mappable to know whether a campaign may map
@@ -75,19 +71,19 @@ func CheckUnit(f Field, unit string) error {
 func unitFactor(f Field, unit string) float64 {
 	switch unit {
 	case "hour":
-		return degPerHour
+		return units.DegPerHour
 	case "arcsec":
-		return masPerArcsec
+		return units.MasPerArcsec
 	case "deg":
 		if f != RA && f != Dec {
-			return masPerDeg
+			return units.MasPerDeg
 		}
 	case "arcsec/yr":
-		return masPerArcsec
+		return units.MasPerArcsec
 	case "m/s":
-		return kmsPerMs
+		return units.KmPerM
 	case "pc":
-		return kpcPerPc
+		return units.KpcPerPc
 	}
 	return 1
 }
@@ -97,6 +93,6 @@ func unitFactor(f Field, unit string) float64 {
 // distance modulus, mu = 5 log10(d / 10 pc)), and to first order
 // sigma_d = d ln(10)/5 sigma_mu.
 func DistanceFromModulus(muMag, muErrMag float64) (distKpc, distErrKpc float64) {
-	distKpc = math.Pow(10, muMag/5+1) * kpcPerPc
+	distKpc = math.Pow(10, muMag/5+1) * units.KpcPerPc
 	return distKpc, distKpc * ln10Over5 * muErrMag
 }

@@ -1,6 +1,10 @@
 package crossmatch
 
-import "math"
+import (
+	"math"
+
+	"starvet/internal/units"
+)
 
 // Bayes factor and prior of a two-catalog positional match with circular
 // normal errors (Budavari & Szalay 2008, ApJ 679, 301; the two-catalog
@@ -86,13 +90,13 @@ const (
 	cellRACols = 64
 	numCells   = cellBands * cellRACols
 	// sqDegPerSr is (180/pi)^2.
-	sqDegPerSr = degPerRad * degPerRad
+	sqDegPerSr = units.DegPerRad * units.DegPerRad
 	cellSqDeg  = 4 * math.Pi / numCells * sqDegPerSr
 )
 
 // cellOf returns the overlap cell of a position in degrees (ra in [0, 360)).
 func cellOf(raDeg, decDeg float64) uint16 {
-	z := math.Sin(decDeg * radPerDeg)
+	z := math.Sin(decDeg * units.RadPerDeg)
 	b := int((z + 1) / 2 * cellBands)
 	b = min(max(b, 0), cellBands-1)
 	c := int(raDeg / 360 * cellRACols)

@@ -10,6 +10,7 @@ import (
 	"testing"
 
 	"starvet/catalog"
+	"starvet/internal/units"
 )
 
 // benchPair makes two all-sky catalogs of n sources: secondary = primary
@@ -30,12 +31,12 @@ func benchPair(n int, seed uint64) (*catalog.Table, *catalog.Table) {
 	for i := 0; i < n; i++ {
 		// uniform on the sphere: z = sin(dec) uniform in [-1, 1]
 		ra := rng.Float64() * 360
-		dec := math.Asin(2*rng.Float64()-1) * degPerRad
+		dec := math.Asin(2*rng.Float64()-1) * units.DegPerRad
 		p.IDs[i] = "P" + strconv.Itoa(i)
 		p.Cols[catalog.RA][i], p.Cols[catalog.Dec][i] = ra, dec
 		j := perm[i]
-		dRA := rng.NormFloat64() * scatterArcsec / arcsecPerDeg / math.Max(math.Cos(dec*radPerDeg), 1e-6)
-		dDec := rng.NormFloat64() * scatterArcsec / arcsecPerDeg
+		dRA := rng.NormFloat64() * scatterArcsec / units.ArcsecPerDeg / math.Max(math.Cos(dec*units.RadPerDeg), 1e-6)
+		dDec := rng.NormFloat64() * scatterArcsec / units.ArcsecPerDeg
 		d2 := dec + dDec
 		r2 := ra + dRA
 		if d2 > 90 { // reflect over the pole

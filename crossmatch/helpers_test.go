@@ -7,6 +7,7 @@ import (
 	"testing"
 
 	"starvet/catalog"
+	"starvet/internal/units"
 )
 
 // testSeed returns the seed for a randomised test: def, or STARVET_SEED
@@ -67,13 +68,13 @@ func table(name string, epochJyr float64, rows []src) *catalog.Table {
 // spherical-triangle formulas, from memory: the "destination point" of
 // navigation).
 func offset(raDeg, decDeg, sepArcsec, bearing float64) (float64, float64) {
-	d := sepArcsec * radPerArcsec
-	dec1 := decDeg * radPerDeg
+	d := sepArcsec * units.RadPerArcsec
+	dec1 := decDeg * units.RadPerDeg
 	sd, cd := math.Sincos(dec1)
 	sD, cD := math.Sincos(d)
 	dec2 := math.Asin(sd*cD + cd*sD*math.Cos(bearing))
 	dra := math.Atan2(math.Sin(bearing)*sD*cd, cD-sd*math.Sin(dec2))
-	return normRA(raDeg + dra*degPerRad), dec2 * degPerRad
+	return normRA(raDeg + dra*units.DegPerRad), dec2 * units.DegPerRad
 }
 
 // sameFloat is == that also equates two NaNs.

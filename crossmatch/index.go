@@ -10,16 +10,10 @@ import (
 	"github.com/tidwall/rtree"
 
 	"starvet/crossmatch/sky"
+	"starvet/internal/units"
 )
 
 const (
-	degPerRad    = 180 / math.Pi
-	radPerDeg    = math.Pi / 180
-	arcsecPerDeg = 3600
-	masPerArcsec = 1000
-	radPerArcsec = radPerDeg / arcsecPerDeg
-	radPerMas    = radPerArcsec / masPerArcsec
-
 	// zoneHeightDeg is the declination height of one index zone. Each zone
 	// is its own rtree, so zones are built concurrently and a query touches
 	// only the zones its cap overlaps.
@@ -211,11 +205,11 @@ func (ix *Index) within(raDeg, decDeg, radiusDeg float64, dst []hit) []hit {
 		return dst
 	}
 	ra := normRA(raDeg)
-	ra0, dec0 := ra*radPerDeg, decDeg*radPerDeg
-	radiusRad := radiusDeg * radPerDeg
+	ra0, dec0 := ra*units.RadPerDeg, decDeg*units.RadPerDeg
+	radiusRad := radiusDeg * units.RadPerDeg
 	ix.searchBoxes(ra, decDeg, radiusDeg, func(p int) {
 		q := ix.pts[p]
-		sep := sky.Separation(ra0, dec0, q.raDeg*radPerDeg, q.decDeg*radPerDeg)
+		sep := sky.Separation(ra0, dec0, q.raDeg*units.RadPerDeg, q.decDeg*units.RadPerDeg)
 		if sep <= radiusRad {
 			dst = append(dst, hit{pos: int32(p), sepRad: sep})
 		}
@@ -241,7 +235,7 @@ func (ix *Index) searchBoxes(raDeg, decDeg, radiusDeg float64, fn func(int)) {
 		// practice; it encloses the exact half-width asin(sin r / cos dec),
 		// which the tests check).
 		ext := math.Max(math.Abs(decLo), math.Abs(decHi))
-		hw := r/math.Cos(ext*radPerDeg) + boxPadDeg
+		hw := r/math.Cos(ext*units.RadPerDeg) + boxPadDeg
 		lo, hi := raDeg-hw, raDeg+hw
 		switch {
 		case hw >= 180:

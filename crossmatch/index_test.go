@@ -8,6 +8,7 @@ import (
 	"testing"
 
 	"starvet/crossmatch/sky"
+	"starvet/internal/units"
 )
 
 // skyPoints draws n points: a uniform part plus crowds at the RA wrap and
@@ -17,7 +18,7 @@ func skyPoints(rng *rand.Rand, n int) (ra, dec []float64) {
 		var r, d float64
 		switch i % 4 {
 		case 0: // uniform on the sphere
-			r, d = rng.Float64()*360, math.Asin(2*rng.Float64()-1)*degPerRad
+			r, d = rng.Float64()*360, math.Asin(2*rng.Float64()-1)*units.DegPerRad
 		case 1: // within 0.01 deg of ra = 0
 			r, d = normRA((rng.Float64()-0.5)*0.02), (rng.Float64()-0.5)*20
 		case 2: // within 0.01 deg of the north pole
@@ -44,7 +45,7 @@ func TestIndexWithinAgainstBruteForce(t *testing.T) {
 		t.Fatalf("Len %d Indexed %d, want %d and %d", ix.Len(), ix.Indexed(), len(ra), len(ra)-2)
 	}
 	qra, qdec := skyPoints(rng, 200)
-	radii := []float64{1.0 / 3600, 10.0 / 3600, 0.005, 0.05, 1, 20, 75, 120, 180}
+	radii := []float64{1.0 / units.ArcsecPerDeg, 10.0 / units.ArcsecPerDeg, 0.005, 0.05, 1, 20, 75, 120, 180}
 	for _, r := range radii {
 		total := 0
 		nq := len(qra)
@@ -59,8 +60,8 @@ func TestIndexWithinAgainstBruteForce(t *testing.T) {
 					if math.IsNaN(ra[i]) || math.IsNaN(dec[i]) {
 						continue
 					}
-					s := sky.Separation(normRA(qra[q])*radPerDeg, qdec[q]*radPerDeg, normRA(ra[i])*radPerDeg, dec[i]*radPerDeg)
-					if s <= r*radPerDeg {
+					s := sky.Separation(normRA(qra[q])*units.RadPerDeg, qdec[q]*units.RadPerDeg, normRA(ra[i])*units.RadPerDeg, dec[i]*units.RadPerDeg)
+					if s <= r*units.RadPerDeg {
 						want = append(want, Neighbor{int32(i), s})
 					}
 				}
@@ -91,8 +92,8 @@ func TestBoxHalfWidthEnclosesCap(t *testing.T) {
 			if d+r >= 90 {
 				continue
 			}
-			exact := math.Asin(math.Sin(r*radPerDeg)/math.Cos(d*radPerDeg)) * degPerRad
-			box := r / math.Cos((d+r)*radPerDeg)
+			exact := math.Asin(math.Sin(r*units.RadPerDeg)/math.Cos(d*units.RadPerDeg)) * units.DegPerRad
+			box := r / math.Cos((d+r)*units.RadPerDeg)
 			if box < exact {
 				t.Errorf("dec %g, r %g: box half-width %g < exact %g", d, r, box, exact)
 			}

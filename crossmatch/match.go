@@ -11,6 +11,7 @@ import (
 	"sync/atomic"
 
 	"starvet/catalog"
+	"starvet/internal/units"
 )
 
 // Sentinel errors; returned errors wrap them (use errors.Is).
@@ -204,7 +205,7 @@ func findCandidates(ctx context.Context, primary, secondary *catalog.Table, opt 
 	for _, ps := range batches {
 		st.CandidatePairs += len(ps)
 	}
-	st.MaxSearchRadiusArcsec = maxR / radPerArcsec
+	st.MaxSearchRadiusArcsec = maxR / units.RadPerArcsec
 
 	return res, &candidateSet{batches: batches, order: order, keys: p.keys, nPos: ix.Indexed()}, nil
 }
@@ -376,7 +377,7 @@ func prepare(ctx context.Context, t *catalog.Table, toJyr float64, move bool, fa
 					sigMas = math.Hypot(sigMas, pmSig*absDt)
 				}
 			}
-			sig := sigMas * radPerMas
+			sig := sigMas * units.RadPerMas
 			sd.pts[i] = query{r, d, sig}
 			tl.maxSigma = max(tl.maxSigma, sig)
 			sd.cells[i] = cellOf(r, d)
@@ -445,8 +446,8 @@ func searchAll(ctx context.Context, ix *Index, order []int32, p, s *side, opt *O
 	nb := (len(order) + batchRows - 1) / batchRows
 	out := make([][]pair, nb)
 	maxR := make([]float64, nb)
-	fixedRad := opt.RadiusArcsec * radPerArcsec
-	floorRad := opt.RadiusFloorArcsec * radPerArcsec
+	fixedRad := opt.RadiusArcsec * units.RadPerArcsec
+	floorRad := opt.RadiusFloorArcsec * units.RadPerArcsec
 	err := parallelBatches(ctx, nb, opt.Workers, func(b int) {
 		rows := order[b*batchRows : min(len(order), (b+1)*batchRows)]
 		// Gather the batch's queries first: independent loads overlap
@@ -465,7 +466,7 @@ func searchAll(ctx context.Context, ix *Index, order []int32, p, s *side, opt *O
 				rSearch = max(opt.NSigma*math.Hypot(s1, s.maxSigmaRad), floorRad)
 			}
 			maxR[b] = max(maxR[b], rSearch)
-			hits = ix.within(q.raDeg, q.decDeg, rSearch*degPerRad, hits[:0])
+			hits = ix.within(q.raDeg, q.decDeg, rSearch*units.DegPerRad, hits[:0])
 			first := len(ps)
 			for _, h := range hits {
 				s2 := sigByPos[h.pos]
@@ -641,7 +642,7 @@ func noMatch() Counterpart {
 func accept(m *Counterpart, pr *pair, post posterior, ids []string) {
 	m.Secondary = pr.j
 	m.CounterpartID = ids[pr.j]
-	m.SepArcsec = pr.sepRad / radPerArcsec
+	m.SepArcsec = pr.sepRad / units.RadPerArcsec
 	m.BayesFactor = math.Exp(pr.lnB)
 	m.Prob = post.ofB(m.BayesFactor, pr.lnB)
 }

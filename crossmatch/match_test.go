@@ -12,6 +12,7 @@ import (
 
 	"starvet/catalog"
 	"starvet/crossmatch/sky"
+	"starvet/internal/units"
 )
 
 // randomPair makes a primary (epoch 2000) and a secondary (epoch 2016) with
@@ -36,7 +37,7 @@ func randomPair(rng *rand.Rand, n int) (p, s []src, fast map[string]string) {
 			ra, dec := offset(math.Mod(float64(c)*37+10, 360), math.Mod(float64(c)*23, 160)-80, rng.Float64()*5, rng.Float64()*2*math.Pi)
 			return ra, dec
 		default:
-			return rng.Float64() * 360, math.Asin(2*rng.Float64()-1) * degPerRad
+			return rng.Float64() * 360, math.Asin(2*rng.Float64()-1) * units.DegPerRad
 		}
 	}
 	for k := 0; k < n; k++ {
@@ -119,7 +120,7 @@ func oracle(t *testing.T, pt, st *catalog.Table, opt Options) ([]Counterpart, []
 	t.Helper()
 	dt := st.EpochJyr - pt.EpochJyr
 	ratio := cmp.Or(opt.AmbiguityRatio, DefaultAmbiguityRatio)
-	radius := cmp.Or(opt.RadiusArcsec, DefaultRadiusArcsec) * radPerArcsec
+	radius := cmp.Or(opt.RadiusArcsec, DefaultRadiusArcsec) * units.RadPerArcsec
 	sigma := func(t *catalog.Table, i int, fallback, dt float64) float64 {
 		e1, e2 := t.Cols[catalog.RAErr][i], t.Cols[catalog.DecErr][i]
 		s := math.Sqrt((e1*e1 + e2*e2) / 2)
@@ -132,7 +133,7 @@ func oracle(t *testing.T, pt, st *catalog.Table, opt Options) ([]Counterpart, []
 				s = math.Hypot(s, q*math.Abs(dt))
 			}
 		}
-		return s * radPerMas
+		return s * units.RadPerMas
 	}
 	var pairs []pair
 	nc := make([]int32, pt.Len())
@@ -152,10 +153,10 @@ func oracle(t *testing.T, pt, st *catalog.Table, opt Options) ([]Counterpart, []
 				continue
 			}
 			s2 := sigma(st, j, opt.SecondaryPosErrMas, 0)
-			sep := sky.Separation(normRA(ra)*radPerDeg, dec*radPerDeg, normRA(r2)*radPerDeg, d2*radPerDeg)
+			sep := sky.Separation(normRA(ra)*units.RadPerDeg, dec*units.RadPerDeg, normRA(r2)*units.RadPerDeg, d2*units.RadPerDeg)
 			lim := radius
 			if opt.NSigma > 0 {
-				lim = max(opt.NSigma*math.Sqrt(s1*s1+s2*s2), opt.RadiusFloorArcsec*radPerArcsec)
+				lim = max(opt.NSigma*math.Sqrt(s1*s1+s2*s2), opt.RadiusFloorArcsec*units.RadPerArcsec)
 			}
 			if sep <= lim {
 				pairs = append(pairs, pair{i: int32(i), j: int32(j), sepRad: sep, lnB: LogBayesFactor(sep, s1, s2)})
@@ -177,7 +178,7 @@ func oracle(t *testing.T, pt, st *catalog.Table, opt Options) ([]Counterpart, []
 			continue
 		}
 		taken[pr.j] = true
-		out[pr.i].Secondary, out[pr.i].SepArcsec, out[pr.i].BayesFactor = pr.j, pr.sepRad/radPerArcsec, math.Exp(pr.lnB)
+		out[pr.i].Secondary, out[pr.i].SepArcsec, out[pr.i].BayesFactor = pr.j, pr.sepRad/units.RadPerArcsec, math.Exp(pr.lnB)
 		out[pr.i].CounterpartID = st.IDs[pr.j]
 	}
 	p0 := res0Prior(pt, st)
@@ -325,7 +326,7 @@ func TestMatchNeedsPropagation(t *testing.T) {
 	p := newSrc("fast", 100, 20, 50)
 	p.pmRA, p.pmDec = 4000, 0
 	ra2, dec2, _ := propagate(astro(100, 20, math.NaN(), 4000, 0, math.NaN()), 2000, 2016)
-	s := []src{newSrc("far-counterpart", ra2, dec2, 50), newSrc("at-old-place-2arcsec-off", 100, 20+2.0/3600, 50)}
+	s := []src{newSrc("far-counterpart", ra2, dec2, 50), newSrc("at-old-place-2arcsec-off", 100, 20+2.0/units.ArcsecPerDeg, 50)}
 	res, err := Match(context.Background(), table("a", 2000, []src{p}), table("b", 2016, s), Options{RadiusArcsec: 1})
 	if err != nil {
 		t.Fatal(err)
@@ -334,7 +335,7 @@ func TestMatchNeedsPropagation(t *testing.T) {
 	if m.CounterpartID != "far-counterpart" || m.SepArcsec > 1e-6 || m.Candidates != 1 {
 		t.Errorf("got %+v, want far-counterpart at ~0 arcsec", m)
 	}
-	if sep := sky.Separation(100*radPerDeg, 20*radPerDeg, ra2*radPerDeg, dec2*radPerDeg) / radPerArcsec; sep < 60 {
+	if sep := sky.Separation(100*units.RadPerDeg, 20*units.RadPerDeg, ra2*units.RadPerDeg, dec2*units.RadPerDeg) / units.RadPerArcsec; sep < 60 {
 		t.Errorf("counterpart only %g arcsec from the old position: test is not testing propagation", sep)
 	}
 	if res.Stats.Propagated != 1 {

@@ -5,6 +5,7 @@ import (
 	"testing"
 
 	"starvet/crossmatch/sky"
+	"starvet/internal/units"
 )
 
 func TestPropagateAgainstERFA(t *testing.T) {
@@ -30,7 +31,7 @@ func TestPropagateAgainstERFA(t *testing.T) {
 			if !ok {
 				t.Fatal("not propagated")
 			}
-			sepMas := sky.Separation(ra*radPerDeg, dec*radPerDeg, c.wantRA*radPerDeg, c.wantDec*radPerDeg) / radPerMas
+			sepMas := sky.Separation(ra*units.RadPerDeg, dec*units.RadPerDeg, c.wantRA*units.RadPerDeg, c.wantDec*units.RadPerDeg) / units.RadPerMas
 			t.Logf("%.4f mas from ERFA", sepMas)
 			if sepMas > tolMas {
 				t.Errorf("(%g, %g) -> (%.9f, %.9f), ERFA (%.9f, %.9f): %.3f mas apart",
@@ -53,8 +54,8 @@ func TestPropagateGreatCircle(t *testing.T) {
 	for _, c := range cases {
 		nan := math.NaN()
 		ra, dec, _ := propagate(astro(c.ra, c.dec, nan, c.pmRA, c.pmDec, nan), 2000, 2000+c.dt)
-		mu := math.Hypot(c.pmRA, c.pmDec) * radPerMas * math.Abs(c.dt)
-		moved := sky.Separation(c.ra*radPerDeg, c.dec*radPerDeg, ra*radPerDeg, dec*radPerDeg)
+		mu := math.Hypot(c.pmRA, c.pmDec) * units.RadPerMas * math.Abs(c.dt)
+		moved := sky.Separation(c.ra*units.RadPerDeg, c.dec*units.RadPerDeg, ra*units.RadPerDeg, dec*units.RadPerDeg)
 		if math.Abs(moved-mu) > 1e-12 {
 			t.Errorf("%+v: moved %.12g rad, want mu dt = %.12g", c, moved, mu)
 		}

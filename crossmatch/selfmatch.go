@@ -7,6 +7,7 @@ import (
 	"runtime"
 
 	"starvet/catalog"
+	"starvet/internal/units"
 )
 
 // SelfMatch returns, per row of t, the number of OTHER rows closer than
@@ -41,7 +42,7 @@ func SelfMatch(ctx context.Context, t *catalog.Table, radiusArcsec float64, work
 			counts[i] = -1
 		}
 	}
-	radiusRad := radiusArcsec * radPerArcsec
+	radiusRad := radiusArcsec * units.RadPerArcsec
 	if workers <= 0 {
 		workers = runtime.GOMAXPROCS(0)
 	}
@@ -51,7 +52,7 @@ func SelfMatch(ctx context.Context, t *catalog.Table, radiusArcsec float64, work
 		var buf []hit
 		for p := b * batchRows; p < min(m, (b+1)*batchRows); p++ {
 			q := ix.pts[p]
-			buf = ix.within(q.raDeg, q.decDeg, radiusArcsec/arcsecPerDeg, buf[:0])
+			buf = ix.within(q.raDeg, q.decDeg, radiusArcsec/units.ArcsecPerDeg, buf[:0])
 			c := int32(0)
 			for _, h := range buf {
 				if int(h.pos) != p && h.sepRad < radiusRad {

@@ -8,6 +8,7 @@ import (
 	"testing"
 
 	"starvet/crossmatch/sky"
+	"starvet/internal/units"
 )
 
 func TestSelfMatchAgainstBruteForce(t *testing.T) {
@@ -46,7 +47,7 @@ func TestSelfMatchAgainstBruteForce(t *testing.T) {
 					if j == i || math.IsNaN(ra[j]) || math.IsNaN(dec[j]) {
 						continue
 					}
-					if sky.Separation(normRA(ra[i])*radPerDeg, dec[i]*radPerDeg, normRA(ra[j])*radPerDeg, dec[j]*radPerDeg) < radius*radPerArcsec {
+					if sky.Separation(normRA(ra[i])*units.RadPerDeg, dec[i]*units.RadPerDeg, normRA(ra[j])*units.RadPerDeg, dec[j]*units.RadPerDeg) < radius*units.RadPerArcsec {
 						want++
 					}
 				}

@@ -10,6 +10,7 @@ import (
 	"time"
 
 	"starvet/db"
+	"starvet/internal/vec"
 )
 
 type countRow struct {
@@ -55,7 +56,7 @@ type pageView struct {
 }
 
 func num(x float64, prec int) string {
-	if !finite(x) {
+	if !vec.Finite(x) {
 		return "–"
 	}
 	return fmt.Sprintf("%.*f", prec, x)
@@ -78,7 +79,7 @@ func candidates(d *data) []candRow {
 		}
 	}
 	key := func(x float64) float64 {
-		if !finite(x) {
+		if !vec.Finite(x) {
 			return math.Inf(-1)
 		}
 		return x

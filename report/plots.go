@@ -15,17 +15,15 @@ import (
 
 	"starvet/galaxy/frames"
 	"starvet/galaxy/potential"
+	"starvet/internal/units"
+	"starvet/internal/vec"
 )
-
-const degToRad = math.Pi / 180
 
 var (
 	black     = color.RGBA{0, 0, 0, 0xFF}
 	gridGrey  = color.RGBA{0xC8, 0xC8, 0xC8, 0xFF}
 	curveGrey = color.RGBA{0x44, 0x44, 0x44, 0xFF}
 )
-
-func finite(x float64) bool { return !math.IsNaN(x) && !math.IsInf(x, 0) }
 
 func toSVG(p *plot.Plot, w, h vg.Length) ([]byte, error) {
 	c := vgsvg.New(w, h)
@@ -83,24 +81,24 @@ func speedPlot(d *data) (*PlotSummary, []byte, error) {
 	rMin, rMax := math.Inf(1), 0.0
 	for i := range d.stars {
 		s := &d.stars[i]
-		if !finite(s.SpeedP50Kms) || !(s.RGCKpc > 0) || math.IsInf(s.RGCKpc, 0) {
+		if !vec.Finite(s.SpeedP50Kms) || !(s.RGCKpc > 0) || math.IsInf(s.RGCKpc, 0) {
 			if s.Status != "rejected" && s.Status != "withdrawn" {
 				omitted[s.Status]++
 			}
 			continue
 		}
 		lo, hi := 0.0, 0.0
-		if finite(s.SpeedP16Kms) {
+		if vec.Finite(s.SpeedP16Kms) {
 			lo = math.Max(0, s.SpeedP50Kms-s.SpeedP16Kms)
 		}
-		if finite(s.SpeedP84Kms) {
+		if vec.Finite(s.SpeedP84Kms) {
 			hi = math.Max(0, s.SpeedP84Kms-s.SpeedP50Kms)
 		}
 		pts[s.Status] = append(pts[s.Status], plotter.XY{X: s.RGCKpc, Y: s.SpeedP50Kms})
 		bars[s.Status] = append(bars[s.Status], struct{ Low, High float64 }{lo, hi})
 		present[s.Status] = true
 		rMin, rMax = math.Min(rMin, s.RGCKpc), math.Max(rMax, s.RGCKpc)
-		if finite(s.VEscKms) {
+		if vec.Finite(s.VEscKms) {
 			vesc = append(vesc, plotter.XY{X: s.RGCKpc, Y: s.VEscKms})
 		}
 	}
@@ -246,7 +244,7 @@ func skyPlot(d *data) (*PlotSummary, []byte, error) {
 	p.Y.Min, p.Y.Max = -r2*1.04, r2*1.18
 
 	proj := func(lDeg, bDeg float64) plotter.XY {
-		x, y := HammerAitoff(wrapLon(lDeg*degToRad), bDeg*degToRad)
+		x, y := HammerAitoff(wrapLon(lDeg*units.RadPerDeg), bDeg*units.RadPerDeg)
 		return plotter.XY{X: -x, Y: y}
 	}
 	for _, lDeg := range []float64{-120, -60, 0, 60, 120} {
@@ -269,7 +267,7 @@ func skyPlot(d *data) (*PlotSummary, []byte, error) {
 	}
 	var outline plotter.XYs
 	for k := 0; k <= 360; k++ {
-		t := float64(k) * degToRad
+		t := float64(k) * units.RadPerDeg
 		outline = append(outline, plotter.XY{X: 2 * r2 * math.Cos(t), Y: r2 * math.Sin(t)})
 	}
 	if _, err := line(p, outline, curveGrey, 1); err != nil {
@@ -306,7 +304,7 @@ func skyPlot(d *data) (*PlotSummary, []byte, error) {
 			ps.Omitted++
 			continue
 		}
-		l, b := frames.ICRSToGalactic(s.raDeg*degToRad, s.decDeg*degToRad)
+		l, b := frames.ICRSToGalactic(s.raDeg*units.RadPerDeg, s.decDeg*units.RadPerDeg)
 		x, y := HammerAitoff(wrapLon(l), b)
 		pts[s.Status] = append(pts[s.Status], plotter.XY{X: -x, Y: y})
 		present[s.Status] = true
@@ -341,7 +339,7 @@ func pUnboundPlot(d *data) (*PlotSummary, []byte, error) {
 		if !s.HasRV {
 			continue
 		}
-		if !finite(s.PUnbound) {
+		if !vec.Finite(s.PUnbound) {
 			ps.Omitted++
 			continue
 		}
@@ -459,7 +457,7 @@ func crossingPlot(d *data) (*PlotSummary, []byte, error) {
 	present := map[string]bool{}
 	extent := math.Max(d.opt.SunDistanceKpc+1, 1.5*d.opt.GCRadiusKpc)
 	for i, c := range d.crossings {
-		if !finite(c.XKpc) || !finite(c.YKpc) {
+		if !vec.Finite(c.XKpc) || !vec.Finite(c.YKpc) {
 			ps.Omitted++
 			continue
 		}
@@ -473,7 +471,7 @@ func crossingPlot(d *data) (*PlotSummary, []byte, error) {
 
 	var circ plotter.XYs
 	for k := 0; k <= 180; k++ {
-		t := float64(k) * 2 * math.Pi / 180
+		t := float64(2*k) * units.RadPerDeg
 		circ = append(circ, plotter.XY{X: d.opt.GCRadiusKpc * math.Cos(t), Y: d.opt.GCRadiusKpc * math.Sin(t)})
 	}
 	cl, err := line(p, circ, black, 1, vg.Points(3), vg.Points(2))

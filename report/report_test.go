@@ -14,10 +14,11 @@ import (
 
 	"starvet/db"
 	"starvet/galaxy/potential"
+	"starvet/internal/units"
 )
 
 func TestHammerAitoff(t *testing.T) {
-	const deg = math.Pi / 180
+	const deg = units.RadPerDeg
 	// Analytic identities of the projection formula (x = 2 sqrt2 cos b
 	// sin(l/2)/D, y = sqrt2 sin b/D, D = sqrt(1 + cos b cos(l/2))).
 	cases := []struct {

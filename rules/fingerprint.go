@@ -1,13 +1,11 @@
 package rules
 
 import (
-	"crypto/sha256"
-	"encoding/hex"
-	"encoding/json"
 	"math"
 	"sort"
 
 	"starvet/catalog"
+	"starvet/internal/fingerprint"
 )
 
 // canonicalRule holds everything that can change a verdict. Description and
@@ -66,12 +64,11 @@ func ruleFingerprint(r *Rule) string {
 		c.Voids = append(c.Voids, catalog.Fields[f].Name)
 	}
 	sort.Strings(c.Voids)
-	b, err := json.Marshal(c)
+	fp, err := fingerprint.JSON(c)
 	if err != nil {
 		panic(err) // only strings and bools: cannot fail
 	}
-	h := sha256.Sum256(b)
-	return hex.EncodeToString(h[:])
+	return fp
 }
 
 // setFingerprint hashes the sorted rule fingerprints. The set's name and
@@ -82,10 +79,5 @@ func setFingerprint(rs []*Rule) string {
 		fps[i] = r.Fingerprint
 	}
 	sort.Strings(fps)
-	h := sha256.New()
-	for _, f := range fps {
-		h.Write([]byte(f))
-		h.Write([]byte{'\n'})
-	}
-	return hex.EncodeToString(h.Sum(nil))
+	return fingerprint.Lines(fps)
 }

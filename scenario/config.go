@@ -1,9 +1,6 @@
 package scenario
 
-import (
-	"fmt"
-	"math"
-)
+import "fmt"
 
 // Names of the invented surveys and of the files written. None is a real
 // survey: "Pelmarra" (astrometry), "Vossbeck" (spectroscopy) and "Tirrel"
@@ -110,11 +107,3 @@ func countsFor(c Config) counts {
 		badSpec:    max(2, n/10),
 	}
 }
-
-// Unit helpers (common practice).
-const (
-	deg2rad    = math.Pi / 180
-	masPerDeg  = 3.6e6
-	masPerArcs = 1000.0
-	msPerKms   = 1000.0
-)

@@ -8,7 +8,7 @@ import (
 	"path/filepath"
 	"sort"
 
-	"starvet/galaxy/frames"
+	"starvet/internal/units"
 )
 
 // Independent random streams, one per stage, so that changing one stage
@@ -125,7 +125,7 @@ func Generate(cfg Config, dir string) (*Scenario, error) {
 // tangential speed of vMin-vMax km/s, in a random direction.
 func fakePM(rng *rand.Rand, distKpc, vMin, vMax float64) [2]float64 {
 	v := vMin + (vMax-vMin)*rng.Float64()
-	mu := v / (frames.KmsPerMasYrKpc * distKpc)
+	mu := v / (units.KmsPerMasYrKpc * distKpc)
 	a := 2 * math.Pi * rng.Float64()
 	return [2]float64{mu * math.Cos(a), mu * math.Sin(a)}
 }

@@ -17,6 +17,8 @@ import (
 	"starvet/catalog"
 	"starvet/crossmatch/sky"
 	"starvet/galaxy/frames"
+	"starvet/internal/units"
+	"starvet/internal/vec"
 )
 
 const testStars = 3000
@@ -246,7 +248,7 @@ func TestPopulationInvariants(t *testing.T) {
 		}
 		switch st.pop {
 		case PopGCEjectee:
-			r0 := norm(st.launchPos)
+			r0 := vec.Norm(st.launchPos)
 			v0 := speed(st.launchVel)
 			if r0 < 0.01 || r0 > 0.05 || v0 < 700 || v0 > 1800 || st.flightMyr < 10 || st.flightMyr > 250 {
 				t.Errorf("%s: launch r %v v %v t %v outside the drawn ranges", st.id, r0, v0, st.flightMyr)
@@ -329,7 +331,7 @@ func TestTraps(t *testing.T) {
 		}
 	}
 	col := func(f catalog.Field, i int) float64 { return astro.Cols[f][i] }
-	k := frames.KmsPerMasYrKpc
+	k := units.KmsPerMasYrKpc
 	for _, st := range s.stars {
 		i, ok := aRow[st.id]
 		if !ok {
@@ -359,8 +361,8 @@ func TestTraps(t *testing.T) {
 			}
 			t.Run("duplicate/"+st.id, func(t *testing.T) {
 				j := aRow[st.twinOf.id]
-				sep := sky.Separation(col(catalog.RA, i)*deg2rad, col(catalog.Dec, i)*deg2rad,
-					col(catalog.RA, j)*deg2rad, col(catalog.Dec, j)*deg2rad) / deg2rad * 3600
+				sep := sky.Separation(col(catalog.RA, i)*units.RadPerDeg, col(catalog.Dec, i)*units.RadPerDeg,
+					col(catalog.RA, j)*units.RadPerDeg, col(catalog.Dec, j)*units.RadPerDeg) / units.RadPerDeg * units.ArcsecPerDeg
 				slack := 5 * math.Hypot(col(catalog.RAErr, i), col(catalog.RAErr, j)) / 1000
 				if sep < 0.1-slack || sep > 0.3+slack {
 					t.Errorf("separation %v arcsec, want 0.1-0.3", sep)
@@ -389,7 +391,7 @@ func TestTraps(t *testing.T) {
 				var seps []float64
 				var rvs []float64
 				for j := range spec.Len() {
-					sep := sky.Separation(ra*deg2rad, dec*deg2rad, spec.Cols[catalog.RA][j]*deg2rad, spec.Cols[catalog.Dec][j]*deg2rad) / deg2rad * 3600
+					sep := sky.Separation(ra*units.RadPerDeg, dec*units.RadPerDeg, spec.Cols[catalog.RA][j]*units.RadPerDeg, spec.Cols[catalog.Dec][j]*units.RadPerDeg) / units.RadPerDeg * units.ArcsecPerDeg
 					if sep < 1.2 {
 						seps = append(seps, sep)
 						rvs = append(rvs, spec.Cols[catalog.RV][j])
@@ -419,7 +421,7 @@ func TestTraps(t *testing.T) {
 				}
 				j := sRow[st.spec.id]
 				sRA, sDec := spec.Cols[catalog.RA][j], spec.Cols[catalog.Dec][j]
-				sep0 := sky.Separation(col(catalog.RA, i)*deg2rad, col(catalog.Dec, i)*deg2rad, sRA*deg2rad, sDec*deg2rad) / deg2rad * 3600
+				sep0 := sky.Separation(col(catalog.RA, i)*units.RadPerDeg, col(catalog.Dec, i)*units.RadPerDeg, sRA*units.RadPerDeg, sDec*units.RadPerDeg) / units.RadPerDeg * units.ArcsecPerDeg
 				if sep0 < 1 {
 					t.Errorf("spectrum only %v arcsec from the astrometric-epoch position: matches without propagation", sep0)
 				}
@@ -429,7 +431,7 @@ func TestTraps(t *testing.T) {
 				p := sky.Propagate(sky.Astrometry{RADeg: col(catalog.RA, i), DecDeg: col(catalog.Dec, i),
 					ParallaxMas: col(catalog.Parallax, i), PMRAMasYr: col(catalog.PMRA, i), PMDecMasYr: col(catalog.PMDec, i),
 					RVKms: spec.Cols[catalog.RV][j]}, AstrometryEpochJyr, SpectroscopyEpochJyr)
-				sep1 := sky.Separation(p.RADeg*deg2rad, p.DecDeg*deg2rad, sRA*deg2rad, sDec*deg2rad) / deg2rad * 3600
+				sep1 := sky.Separation(p.RADeg*units.RadPerDeg, p.DecDeg*units.RadPerDeg, sRA*units.RadPerDeg, sDec*units.RadPerDeg) / units.RadPerDeg * units.ArcsecPerDeg
 				if sep1 > 0.4 {
 					t.Errorf("propagated position %v arcsec from the spectrum", sep1)
 				}
@@ -445,7 +447,7 @@ func TestTraps(t *testing.T) {
 		ra, dec := propagateDeg(st.raDeg, st.decDeg, st.pmRA, st.pmDec, SpectroscopyEpochJyr-AstrometryEpochJyr)
 		p := sky.Propagate(sky.Astrometry{RADeg: st.raDeg, DecDeg: st.decDeg, ParallaxMas: 1 / st.distKpc,
 			PMRAMasYr: st.pmRA, PMDecMasYr: st.pmDec, RVKms: st.rvKms}, AstrometryEpochJyr, SpectroscopyEpochJyr)
-		if d := sky.Separation(ra*deg2rad, dec*deg2rad, p.RADeg*deg2rad, p.DecDeg*deg2rad) / deg2rad * 3.6e6; d > 1 {
+		if d := sky.Separation(ra*units.RadPerDeg, dec*units.RadPerDeg, p.RADeg*units.RadPerDeg, p.DecDeg*units.RadPerDeg) / units.RadPerDeg * units.MasPerDeg; d > 1 {
 			t.Errorf("%s: linear propagation off by %v mas from sky.Propagate", st.id, d)
 		}
 	}
@@ -591,9 +593,9 @@ func TestTruthConsistent(t *testing.T) {
 		if okS {
 			// Footprint, from the spectrum's own position.
 			ra, dec := spec.Cols[catalog.RA][j], spec.Cols[catalog.Dec][j]
-			_, b := frames.ICRSToGalactic(ra*deg2rad, dec*deg2rad)
-			if dec <= -20 || math.Abs(b) <= 10*deg2rad {
-				t.Errorf("%s: spectrum at (%v, %v), b = %v deg, outside dec > -20, |b| > 10", tr.StarID, ra, dec, b/deg2rad)
+			_, b := frames.ICRSToGalactic(ra*units.RadPerDeg, dec*units.RadPerDeg)
+			if dec <= -20 || math.Abs(b) <= 10*units.RadPerDeg {
+				t.Errorf("%s: spectrum at (%v, %v), b = %v deg, outside dec > -20, |b| > 10", tr.StarID, ra, dec, b/units.RadPerDeg)
 			}
 		}
 		if tr.Trap != "" && tr.Trap != TrapHighPM && !tr.Artefact {

@@ -40,6 +40,8 @@ func (s *Scenario) speedMargin(st *star) float64 {
 		return math.NaN()
 	}
 	sun := s.galaxy.sun
+	// x*math.Pi/180, not x*units.RadPerDeg: the other rounding would move
+	// the last bit of the truth margins the demo writes.
 	b := frames.NewBasis(st.raDeg*math.Pi/180, st.decDeg*math.Pi/180)
 	f := func(d, pmRA, pmDec, rv float64) float64 {
 		pos, vel := sun.ToGalactocentric(b, d, pmRA, pmDec, rv)

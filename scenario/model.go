@@ -7,6 +7,7 @@ import (
 	"starvet/galaxy/frames"
 	"starvet/galaxy/orbit"
 	"starvet/galaxy/potential"
+	"starvet/internal/vec"
 )
 
 // galaxy bundles what the generator needs from the Galactic model: the Sun
@@ -40,7 +41,7 @@ func (g *galaxy) advance(x, v [3]float64, tMyr float64) ([3]float64, [3]float64)
 }
 
 // energy is the specific orbital energy (km/s)^2.
-func (g *galaxy) energy(x, v [3]float64) float64 { return 0.5*dot(v, v) + g.model.Phi(x) }
+func (g *galaxy) energy(x, v [3]float64) float64 { return 0.5*vec.Dot(v, v) + g.model.Phi(x) }
 
 // fromGalactocentric returns the ICRS direction (radians), heliocentric
 // distance (kpc), proper motions (mas/yr, pm_ra = mu_alpha*) and radial
@@ -49,9 +50,5 @@ func fromGalactocentric(s frames.Sun, posKpc, velKms [3]float64) (raRad, decRad,
 	return s.FromGalactocentric(posKpc, velKms)
 }
 
-func dot(a, b [3]float64) float64 { return a[0]*b[0] + a[1]*b[1] + a[2]*b[2] }
-
 // speed returns |v|.
-func speed(v [3]float64) float64 { return math.Sqrt(dot(v, v)) }
-
-func norm(x [3]float64) float64 { return speed(x) }
+func speed(v [3]float64) float64 { return math.Sqrt(vec.Dot(v, v)) }

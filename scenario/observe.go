@@ -3,6 +3,9 @@ package scenario
 import (
 	"math"
 	"math/rand/v2"
+
+	"starvet/internal/units"
+	"starvet/internal/vec"
 )
 
 // astroRow is one row of the astrometric catalog, canonical units.
@@ -166,35 +169,35 @@ func cholesky3(a [3][3]float64) [3][3]float64 {
 // offsetDeg moves (ra, dec) by (east, north) mas on the tangent plane
 // (gnomonic inverse, common practice).
 func offsetDeg(raDeg, decDeg, eastMas, northMas float64) (float64, float64) {
-	return moveDeg(raDeg, decDeg, eastMas/masPerDeg*deg2rad, northMas/masPerDeg*deg2rad)
+	return moveDeg(raDeg, decDeg, eastMas/units.MasPerDeg*units.RadPerDeg, northMas/units.MasPerDeg*units.RadPerDeg)
 }
 
 // moveDeg displaces the unit vector of (ra, dec) by the tangent vector
 // xi*P + eta*Q (radians; P toward +ra, Q toward +dec) and renormalises.
 func moveDeg(raDeg, decDeg, xi, eta float64) (float64, float64) {
-	sa, ca := math.Sincos(raDeg * deg2rad)
-	sd, cd := math.Sincos(decDeg * deg2rad)
+	sa, ca := math.Sincos(raDeg * units.RadPerDeg)
+	sd, cd := math.Sincos(decDeg * units.RadPerDeg)
 	u := [3]float64{
 		cd*ca - xi*sa - eta*sd*ca,
 		cd*sa + xi*ca - eta*sd*sa,
 		sd + eta*cd,
 	}
-	n := norm(u)
-	ra := math.Atan2(u[1], u[0]) / deg2rad
+	n := vec.Norm(u)
+	ra := math.Atan2(u[1], u[0]) / units.RadPerDeg
 	if ra < 0 {
 		ra += 360
 	}
 	if ra >= 360 {
 		ra -= 360
 	}
-	return ra, math.Asin(u[2]/n) / deg2rad
+	return ra, math.Asin(u[2]/n) / units.RadPerDeg
 }
 
 // propagateDeg moves a position by its proper motion over dtYr, linearly in
 // the tangent plane (the space motion without perspective acceleration,
 // which is below 1e-4 of the motion for every star here).
 func propagateDeg(raDeg, decDeg, pmRAMasYr, pmDecMasYr, dtYr float64) (float64, float64) {
-	k := dtYr / masPerDeg * deg2rad
+	k := dtYr / units.MasPerDeg * units.RadPerDeg
 	return moveDeg(raDeg, decDeg, pmRAMasYr*k, pmDecMasYr*k)
 }
 
@@ -228,6 +231,6 @@ func observePhot(st *star, rng *rand.Rand) *photRow {
 	ra, dec := propagateDeg(st.raDeg, st.decDeg, st.pmRA, st.pmDec, PhotometryEpochJyr-AstrometryEpochJyr)
 	const posErrMas = 100
 	ra, dec = offsetDeg(ra, dec, posErrMas*rng.NormFloat64(), posErrMas*rng.NormFloat64())
-	return &photRow{raDeg: ra, decDeg: dec, posErrArcsec: posErrMas / masPerArcs,
+	return &photRow{raDeg: ra, decDeg: dec, posErrArcsec: posErrMas / units.MasPerArcsec,
 		mag: st.mag + 0.25*st.color + 0.01*rng.NormFloat64(), color: st.color + 0.02*rng.NormFloat64()}
 }

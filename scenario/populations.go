@@ -6,6 +6,7 @@ import (
 	"math/rand/v2"
 
 	"starvet/galaxy/frames"
+	"starvet/internal/units"
 )
 
 // Population labels written to truth.csv.
@@ -97,7 +98,7 @@ func (s *sampler) isotropic() [3]float64 {
 // reports whether it is within the magnitude limits.
 func (s *sampler) finish(st *star) bool {
 	ra, dec, d, pmra, pmdec, rv := fromGalactocentric(s.g.sun, st.posKpc, st.velKms)
-	st.raDeg, st.decDeg, st.distKpc = ra/deg2rad, dec/deg2rad, d
+	st.raDeg, st.decDeg, st.distKpc = ra/units.RadPerDeg, dec/units.RadPerDeg, d
 	st.pmRA, st.pmDec, st.rvKms = pmra, pmdec, rv
 	// Distance modulus mu = 5 log10(d / 10 pc) = 5 log10(d_kpc) + 10
 	// (definition).
@@ -110,8 +111,8 @@ func inFootprint(raDeg, decDeg float64) bool {
 	if decDeg <= footprintMinDecDeg {
 		return false
 	}
-	_, b := frames.ICRSToGalactic(raDeg*deg2rad, decDeg*deg2rad)
-	return math.Abs(b)/deg2rad > footprintMinAbsBDeg
+	_, b := frames.ICRSToGalactic(raDeg*units.RadPerDeg, decDeg*units.RadPerDeg)
+	return math.Abs(b)/units.RadPerDeg > footprintMinAbsBDeg
 }
 
 // diskParams describe one disk component. The values are those the brief
@@ -360,7 +361,7 @@ func (s *sampler) highPMStar() (*star, error) {
 		}
 		ra := 2 * math.Pi * s.rng.Float64()
 		dec := math.Asin(2*s.rng.Float64() - 1)
-		if !inFootprint(ra/deg2rad, dec/deg2rad) {
+		if !inFootprint(ra/units.RadPerDeg, dec/units.RadPerDeg) {
 			continue
 		}
 		b := frames.NewBasis(ra, dec)

@@ -10,6 +10,8 @@ import (
 	"path/filepath"
 	"strconv"
 	"strings"
+
+	"starvet/internal/units"
 )
 
 // Column headers of the invented files. A few differ from the canonical
@@ -129,7 +131,7 @@ func (s *Scenario) writeSpectroscopy() error {
 			continue
 		}
 		cells := []string{r.id, ff(r.raDeg, 8), ff(r.decDeg, 8), ff(r.posErrMas, 1), ff(r.posErrMas, 1),
-			ff(r.rvKms*msPerKms, 1), ff(r.rvErrKms*msPerKms, 1), ff(r.snr, 1), ff(r.distMod, 3), ff(r.distModErr, 3)}
+			ff(r.rvKms*units.MPerKm, 1), ff(r.rvErrKms*units.MPerKm, 1), ff(r.snr, 1), ff(r.distMod, 3), ff(r.distModErr, 3)}
 		if r.bad != nil {
 			s.applyBad(cells, specHeader, r.bad, base, cw.line+1, r.id)
 		}

@@ -18,6 +18,7 @@ import (
 	"time"
 
 	"starvet/campaign"
+	"starvet/internal/units"
 )
 
 // End-to-end benchmarks of Engine.Run on an invented all-sky campaign of
@@ -32,10 +33,6 @@ const (
 	benchSecEpoch     = 2011.5
 	benchMatchedFrac  = 0.9  // secondary rows that are counterparts of primary stars
 	benchChangedFrac  = 0.01 // primary stars changed for the incremental run
-	masPerDeg         = 3.6e6
-	// kmsPerMasYrKpc: 1 mas/yr at 1 kpc is 4.74047 km/s (the astronomical
-	// unit per Julian year in km/s; common practice, from memory).
-	kmsPerMasYrKpc = 4.74047
 )
 
 // benchCampaign is the invented campaign written once per benchmark
@@ -140,7 +137,7 @@ type benchStar struct {
 func newBenchStar(rng *rand.Rand) benchStar {
 	s := benchStar{}
 	s.raDeg = 360 * rng.Float64()
-	s.decDeg = math.Asin(2*rng.Float64()-1) * 180 / math.Pi
+	s.decDeg = math.Asin(2*rng.Float64()-1) * units.DegPerRad
 	u := rng.Float64()
 	s.mag = 20.5 - 8*u*u
 	s.parallaxErrMas = max(0.015, 0.03*math.Pow(10, 0.2*(s.mag-15)))
@@ -148,8 +145,8 @@ func newBenchStar(rng *rand.Rand) benchStar {
 	s.parallaxMas = 1/s.distKpc + s.parallaxErrMas*rng.NormFloat64()
 	s.pmErrMasYr = 1.1 * s.parallaxErrMas
 	// Heliocentric tangential velocity ~ N(0, 60 km/s) per component.
-	s.pmRAMasYr = 60*rng.NormFloat64()/(kmsPerMasYrKpc*s.distKpc) + s.pmErrMasYr*rng.NormFloat64()
-	s.pmDecMasYr = 60*rng.NormFloat64()/(kmsPerMasYrKpc*s.distKpc) + s.pmErrMasYr*rng.NormFloat64()
+	s.pmRAMasYr = 60*rng.NormFloat64()/(units.KmsPerMasYrKpc*s.distKpc) + s.pmErrMasYr*rng.NormFloat64()
+	s.pmDecMasYr = 60*rng.NormFloat64()/(units.KmsPerMasYrKpc*s.distKpc) + s.pmErrMasYr*rng.NormFloat64()
 	s.fitResidual = 1 + 0.05*math.Abs(rng.NormFloat64())
 	if rng.Float64() < 0.03 {
 		s.fitResidual = 1.45 + 2*rng.Float64()
@@ -215,7 +212,7 @@ func writeSecondary(w *bufio.Writer, rng *rand.Rand, stars []benchStar) {
 	w.WriteString("id,ra,dec,rv,rv_err,snr,distance,distance_err\n")
 	buf := make([]byte, 0, 256)
 	dtYr := benchSecEpoch - benchPrimaryEpoch
-	const scatterDeg = 0.1 / 3600
+	const scatterDeg = 0.1 / units.ArcsecPerDeg
 	n := 0
 	row := func(raDeg, decDeg, distKpc float64) {
 		raDeg = math.Mod(raDeg+360, 360)
@@ -253,13 +250,13 @@ func writeSecondary(w *bufio.Writer, rng *rand.Rand, stars []benchStar) {
 			continue
 		}
 		s := &stars[i]
-		cosDec := math.Max(math.Cos(s.decDeg*math.Pi/180), 1e-6)
-		decDeg := s.decDeg + s.pmDecMasYr*dtYr/masPerDeg + scatterDeg*rng.NormFloat64()
-		raDeg := s.raDeg + (s.pmRAMasYr*dtYr/masPerDeg+scatterDeg*rng.NormFloat64())/cosDec
+		cosDec := math.Max(math.Cos(s.decDeg*units.RadPerDeg), 1e-6)
+		decDeg := s.decDeg + s.pmDecMasYr*dtYr/units.MasPerDeg + scatterDeg*rng.NormFloat64()
+		raDeg := s.raDeg + (s.pmRAMasYr*dtYr/units.MasPerDeg+scatterDeg*rng.NormFloat64())/cosDec
 		row(raDeg, decDeg, s.distKpc)
 	}
 	for n < benchStars {
-		row(360*rng.Float64(), math.Asin(2*rng.Float64()-1)*180/math.Pi, 0.5*math.Pow(30/0.5, rng.Float64()))
+		row(360*rng.Float64(), math.Asin(2*rng.Float64()-1)*units.DegPerRad, 0.5*math.Pow(30/0.5, rng.Float64()))
 	}
 }
 

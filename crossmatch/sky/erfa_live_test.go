@@ -8,6 +8,9 @@ import (
 	"os"
 	"strconv"
 	"testing"
+
+	"starvet/internal/units"
+	"starvet/internal/vec"
 )
 
 // Live randomized comparison with ERFA (derived from IAU SOFA) through cgo:
@@ -48,7 +51,7 @@ func randomDirection(rng *rand.Rand) (ra, dec float64) {
 // position angles against eraPas where they are well conditioned.
 func TestLiveSeparation(t *testing.T) {
 	rng := rand.New(rand.NewPCG(liveSeed(t), 1))
-	const oneMuas = 1 / muasPerRad
+	const oneMuas = 1 / units.MuasPerRad
 	worst := 0.0
 	for i := range 20000 {
 		ra1, dec1 := randomDirection(rng)
@@ -75,14 +78,14 @@ func TestLiveSeparation(t *testing.T) {
 			t.Fatalf("case %d: PositionAngle = %.17g, eraPas %.17g", i, pa, wantPA)
 		}
 	}
-	t.Logf("worst separation difference %.3g muas", worst*muasPerRad)
+	t.Logf("worst separation difference %.3g muas", worst*units.MuasPerRad)
 }
 
 // TestLivePropagate: Propagate against eraPmsafe; positions to 1 micro-arcsec
 // (the task's tolerance), proper motions to 1e-6 mas/yr.
 func TestLivePropagate(t *testing.T) {
 	rng := rand.New(rand.NewPCG(liveSeed(t), 2))
-	const j2000, jy = 2451545.0, 365.25
+	const j2000, jy = 2451545.0, units.JulianYearDay
 	worst := 0.0
 	for i := range 20000 {
 		ra, dec := randomDirection(rng)
@@ -99,35 +102,35 @@ func TestLivePropagate(t *testing.T) {
 		pmRAStar, pmDec := muAs*math.Sin(pa)*1000, muAs*math.Cos(pa)*1000 // mas/yr
 		rv := 2000*rng.Float64() - 1000
 		ep1, ep2 := 1900+200*rng.Float64(), 1900+200*rng.Float64()
-		in := Astrometry{RADeg: ra * radToDeg, DecDeg: dec * radToDeg, ParallaxMas: pxAs * 1000,
+		in := Astrometry{RADeg: ra * units.DegPerRad, DecDeg: dec * units.DegPerRad, ParallaxMas: pxAs * 1000,
 			PMRAMasYr: pmRAStar, PMDecMasYr: pmDec, RVKms: rv}
 		// ERFA takes dRA/dt, not mu_alpha*; the star's position as we
 		// store it (degrees) is what both sides see.
-		raIn, decIn := in.RADeg*degToRad, in.DecDeg*degToRad
-		ra2, dec2, pmr2, pmd2, _, _, status := erfaPmsafe(raIn, decIn, pmRAStar*masToRad/math.Cos(decIn), pmDec*masToRad,
+		raIn, decIn := in.RADeg*units.RadPerDeg, in.DecDeg*units.RadPerDeg
+		ra2, dec2, pmr2, pmd2, _, _, status := erfaPmsafe(raIn, decIn, pmRAStar*units.RadPerMas/math.Cos(decIn), pmDec*units.RadPerMas,
 			pxAs, rv, j2000, (ep1-2000)*jy, j2000, (ep2-2000)*jy)
 		if status < 0 {
 			continue
 		}
 		out := Propagate(in, ep1, ep2)
-		s := Separation(out.RADeg*degToRad, out.DecDeg*degToRad, ra2, dec2) * muasPerRad
+		s := Separation(out.RADeg*units.RadPerDeg, out.DecDeg*units.RadPerDeg, ra2, dec2) * units.MuasPerRad
 		worst = math.Max(worst, s)
 		if s > 1 {
 			t.Fatalf("case %d: %+v from %v to %v: (%.12f, %.12f) deg, eraPmsafe (%.12f, %.12f) (status %d): %.3g muas",
-				i, in, ep1, ep2, out.RADeg, out.DecDeg, ra2*radToDeg, dec2*radToDeg, status, s)
+				i, in, ep1, ep2, out.RADeg, out.DecDeg, ra2*units.DegPerRad, dec2*units.DegPerRad, status, s)
 		}
 		// Near a pole mu_alpha* is ill-conditioned: compare the proper
 		// motion as a vector, 1e-6 mas/yr plus 1e-15/cos(dec) relative.
 		p2, q2 := axesOf(UnitVector(ra2, dec2))
-		pOut, qOut := axesOf(UnitVector(out.RADeg*degToRad, out.DecDeg*degToRad))
+		pOut, qOut := axesOf(UnitVector(out.RADeg*units.RadPerDeg, out.DecDeg*units.RadPerDeg))
 		var dv [3]float64
 		for k := range 3 {
-			erfaV := pmr2*math.Cos(dec2)/masToRad*p2[k] + pmd2/masToRad*q2[k]
+			erfaV := pmr2*math.Cos(dec2)/units.RadPerMas*p2[k] + pmd2/units.RadPerMas*q2[k]
 			dv[k] = out.PMRAMasYr*pOut[k] + out.PMDecMasYr*qOut[k] - erfaV
 		}
-		dpm := math.Sqrt(dot(dv, dv))
+		dpm := math.Sqrt(vec.Dot(dv, dv))
 		if dpm > 1e-6+1e-15/math.Cos(dec2)*muAs*1000 {
-			t.Fatalf("case %d: %+v: pm (%v, %v), eraPmsafe (%v, %v)", i, in, out.PMRAMasYr, out.PMDecMasYr, pmr2*math.Cos(dec2)/masToRad, pmd2/masToRad)
+			t.Fatalf("case %d: %+v: pm (%v, %v), eraPmsafe (%v, %v)", i, in, out.PMRAMasYr, out.PMDecMasYr, pmr2*math.Cos(dec2)/units.RadPerMas, pmd2/units.RadPerMas)
 		}
 	}
 	t.Logf("worst position difference %.3g muas", worst)

@@ -8,6 +8,8 @@ import (
 	"strconv"
 	"strings"
 	"testing"
+
+	"starvet/internal/units"
 )
 
 // These tests compare with reference tables made by ERFA (derived from IAU
@@ -111,14 +113,14 @@ func mustTable(t *testing.T, name, header string) []tableRow {
 // 1e-12 relative or 1 micro-arcsecond (the task's tolerance).
 func TestSeparationERFATable(t *testing.T) {
 	rows := mustTable(t, "seps.csv", "ra1,dec1,ra2,dec2,sep,pa")
-	const oneMuas = 1 / muasPerRad
+	const oneMuas = 1 / units.MuasPerRad
 	var worst float64
 	for _, r := range rows {
 		ra1, dec1, ra2, dec2, want, wantPA := r.v[0], r.v[1], r.v[2], r.v[3], r.v[4], r.v[5]
 		got := Separation(ra1, dec1, ra2, dec2)
 		diff := math.Abs(got - want)
 		if diff > math.Max(1e-12*want, oneMuas) {
-			t.Errorf("seps.csv:%d: Separation = %.17g, ERFA %.17g (diff %.3g muas)", r.line, got, want, diff*muasPerRad)
+			t.Errorf("seps.csv:%d: Separation = %.17g, ERFA %.17g (diff %.3g muas)", r.line, got, want, diff*units.MuasPerRad)
 		}
 		worst = math.Max(worst, diff)
 		// Position angle is ill-conditioned when the points (nearly)
@@ -133,7 +135,7 @@ func TestSeparationERFATable(t *testing.T) {
 			t.Errorf("seps.csv:%d: PositionAngle = %.17g, ERFA %.17g", r.line, pa, wantPA)
 		}
 	}
-	t.Logf("%d rows, worst separation difference %.3g muas", len(rows), worst*muasPerRad)
+	t.Logf("%d rows, worst separation difference %.3g muas", len(rows), worst*units.MuasPerRad)
 }
 
 // TestPropagateERFATable: eraPmsafe values (ERFA 2.0.0). Positions agree to
@@ -146,21 +148,21 @@ func TestPropagateERFATable(t *testing.T) {
 	for _, r := range rows {
 		v := r.v
 		in := Astrometry{
-			RADeg: v[0] * radToDeg, DecDeg: v[1] * radToDeg,
-			PMRAMasYr:   v[2] * math.Cos(v[1]) / masToRad, // ERFA's dRA/dt to mu_alpha*
-			PMDecMasYr:  v[3] / masToRad,
+			RADeg: v[0] * units.DegPerRad, DecDeg: v[1] * units.DegPerRad,
+			PMRAMasYr:   v[2] * math.Cos(v[1]) / units.RadPerMas, // ERFA's dRA/dt to mu_alpha*
+			PMDecMasYr:  v[3] / units.RadPerMas,
 			ParallaxMas: v[4] * 1000, RVKms: v[5],
 		}
 		status := v[8]
 		out := Propagate(in, v[6], v[7])
-		sep := Separation(out.RADeg*degToRad, out.DecDeg*degToRad, v[9], v[10]) * muasPerRad
+		sep := Separation(out.RADeg*units.RadPerDeg, out.DecDeg*units.RadPerDeg, v[9], v[10]) * units.MuasPerRad
 		if sep > 1 || out.RADeg < 0 || out.RADeg >= 360 {
 			t.Errorf("pmsafe.csv:%d: position (%.12f, %.12f) deg, ERFA (%.12f, %.12f): %.3g muas apart",
-				r.line, out.RADeg, out.DecDeg, v[9]*radToDeg, v[10]*radToDeg, sep)
+				r.line, out.RADeg, out.DecDeg, v[9]*units.DegPerRad, v[10]*units.DegPerRad, sep)
 		}
 		worstPos = math.Max(worstPos, sep)
-		wantPMRA := v[11] * math.Cos(v[10]) / masToRad
-		wantPMDec := v[12] / masToRad
+		wantPMRA := v[11] * math.Cos(v[10]) / units.RadPerMas
+		wantPMDec := v[12] / units.RadPerMas
 		dpm := math.Hypot(out.PMRAMasYr-wantPMRA, out.PMDecMasYr-wantPMDec)
 		if dpm > 1e-6 {
 			t.Errorf("pmsafe.csv:%d: pm (%.9f, %.9f), ERFA (%.9f, %.9f) mas/yr", r.line, out.PMRAMasYr, out.PMDecMasYr, wantPMRA, wantPMDec)

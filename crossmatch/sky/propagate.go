@@ -1,6 +1,11 @@
 package sky
 
-import "math"
+import (
+	"math"
+
+	"starvet/internal/units"
+	"starvet/internal/vec"
+)
 
 // Astrometry is one star's astrometric state at some epoch. NaN marks an
 // unknown value. PMRAMasYr is mu_alpha* = mu_alpha cos(dec).
@@ -14,13 +19,10 @@ type Astrometry struct {
 // Constants of the rigorous path, with the values ERFA uses (erfam.h, from
 // IAU 2012 Resolution B2 for the au and the SI defining speed of light).
 const (
-	auM        = 149597870.7e3 // astronomical unit, m
-	speedLight = 299792458.0   // m/s
-	daySec     = 86400.0       // s per day
-	julianYear = 365.25        // days per Julian year
-	auLightSec = auM / speedLight
-	lightAUDay = daySec / auLightSec // speed of light, au/day
-	kmsToAUDay = daySec * 1e3 / auM
+	speedLight = 299792458.0 // m/s
+	auLightSec = units.AuM / speedLight
+	lightAUDay = units.DaySec / auLightSec // speed of light, au/day
+	kmsToAUDay = units.DaySec * 1e3 / units.AuM
 )
 
 // Limits taken over from ERFA eraPmsafe and eraStarpv so that the rigorous
@@ -67,7 +69,7 @@ func Propagate(a Astrometry, fromJyr, toJyr float64) Astrometry {
 		return a
 	}
 	if a.ParallaxMas > 0 && !math.IsNaN(a.RVKms) && !math.IsInf(a.ParallaxMas, 0) && !math.IsInf(a.RVKms, 0) {
-		if out, ok := propagateSpace(a, (toJyr-fromJyr)*julianYear); ok {
+		if out, ok := propagateSpace(a, (toJyr-fromJyr)*units.JulianYearDay); ok {
 			return out
 		}
 	}
@@ -93,8 +95,6 @@ func axesOf(r [3]float64) (p, q [3]float64) {
 	return [3]float64{-sy, cx, 0}, [3]float64{-r[2] * cx, -r[2] * sy, rxy}
 }
 
-func dot(a, b [3]float64) float64 { return a[0]*b[0] + a[1]*b[1] + a[2]*b[2] }
-
 // propagateSphere moves along the great circle through the start in the
 // direction of the proper motion (a rotation in the plane of r and the unit
 // motion direction u): r' = r cos d + u sin d, u' = -r sin d + u cos d.
@@ -103,9 +103,9 @@ func propagateSphere(a Astrometry, dtYr float64) Astrometry {
 	if muMas == 0 {
 		return a
 	}
-	r, p, q := basis(a.RADeg*degToRad, a.DecDeg*degToRad)
+	r, p, q := basis(a.RADeg*units.RadPerDeg, a.DecDeg*units.RadPerDeg)
 	ue, un := a.PMRAMasYr/muMas, a.PMDecMasYr/muMas
-	sd, cd := math.Sincos(muMas * masToRad * dtYr)
+	sd, cd := math.Sincos(muMas * units.RadPerMas * dtYr)
 	var r2, u2 [3]float64
 	for i := range 3 {
 		u := ue*p[i] + un*q[i]
@@ -114,10 +114,10 @@ func propagateSphere(a Astrometry, dtYr float64) Astrometry {
 	}
 	raRad, decRad := FromUnitVector(r2)
 	p2, q2 := axesOf(r2)
-	a.RADeg = wrapDeg360(raRad * radToDeg)
-	a.DecDeg = decRad * radToDeg
-	a.PMRAMasYr = muMas * dot(u2, p2)
-	a.PMDecMasYr = muMas * dot(u2, q2)
+	a.RADeg = wrapDeg360(raRad * units.DegPerRad)
+	a.DecDeg = decRad * units.DegPerRad
+	a.PMRAMasYr = muMas * vec.Dot(u2, p2)
+	a.PMDecMasYr = muMas * vec.Dot(u2, q2)
 	return a
 }
 
@@ -125,9 +125,9 @@ func propagateSphere(a Astrometry, dtYr float64) Astrometry {
 // line motion with light time, eraPvstar) step by step, in au and au/day.
 // It reports false where ERFA would fail (speed of light reached).
 func propagateSpace(a Astrometry, dtDay float64) (Astrometry, bool) {
-	raRad, decRad := a.RADeg*degToRad, a.DecDeg*degToRad
-	pmRARad := a.PMRAMasYr * masToRad // mu_alpha*, rad/yr
-	pmDecRad := a.PMDecMasYr * masToRad
+	raRad, decRad := a.RADeg*units.RadPerDeg, a.DecDeg*units.RadPerDeg
+	pmRARad := a.PMRAMasYr * units.RadPerMas // mu_alpha*, rad/yr
+	pmDecRad := a.PMDecMasYr * units.RadPerMas
 
 	// eraPmsafe: raise the parallax so that the transverse speed stays
 	// below about 1% c, and to at least PXMIN. Like ERFA, size the yearly
@@ -157,24 +157,24 @@ func propagateSpace(a Astrometry, dtDay float64) (Astrometry, bool) {
 	if w < starpvMinParallaxAs {
 		w = starpvMinParallaxAs
 	}
-	distAU := 1 / (w * arcsecRad)
+	distAU := 1 / (w * units.RadPerArcsec)
 	rdAUDay := a.RVKms * kmsToAUDay
 	r, p, q := basis(raRad, decRad)
 	var pos, vel [3]float64
 	for i := range 3 {
 		pos[i] = distAU * r[i]
 		// Transverse velocity: distance x proper motion (rad/day).
-		vel[i] = distAU*(pmRARad*p[i]+pmDecRad*q[i])/julianYear + rdAUDay*r[i]
+		vel[i] = distAU*(pmRARad*p[i]+pmDecRad*q[i])/units.JulianYearDay + rdAUDay*r[i]
 	}
-	if dot(vel, vel)/(lightAUDay*lightAUDay) > starpvMaxBeta*starpvMaxBeta {
+	if vec.Dot(vel, vel)/(lightAUDay*lightAUDay) > starpvMaxBeta*starpvMaxBeta {
 		vel = [3]float64{}
 	}
-	vsr := dot(r, vel) // radial part, along the unit vector r
+	vsr := vec.Dot(r, vel) // radial part, along the unit vector r
 	var ust [3]float64
 	for i := range 3 {
 		ust[i] = vel[i] - vsr*r[i]
 	}
-	vst := math.Sqrt(dot(ust, ust))
+	vst := math.Sqrt(vec.Dot(ust, ust))
 	betsr, betst := vsr/lightAUDay, vst/lightAUDay
 	// Observed-to-inertial correction: the fixed-point iteration of
 	// eraStarpv, with its stopping rule.
@@ -206,14 +206,14 @@ func propagateSpace(a Astrometry, dtDay float64) (Astrometry, bool) {
 
 	// eraStarpm: light time at the start, move to the geometric position at
 	// the end, light time there, then move to the observed place at the end.
-	tl1 := math.Sqrt(dot(pos, pos)) / lightAUDay
+	tl1 := math.Sqrt(vec.Dot(pos, pos)) / lightAUDay
 	var g [3]float64
 	for i := range 3 {
 		g[i] = pos[i] + (dtDay+tl1)*vel[i]
 	}
-	r2 := dot(g, g)
-	rdv := dot(g, vel)
-	c2mv2 := lightAUDay*lightAUDay - dot(vel, vel)
+	r2 := vec.Dot(g, g)
+	rdv := vec.Dot(g, vel)
+	c2mv2 := lightAUDay*lightAUDay - vec.Dot(vel, vel)
 	if c2mv2 <= 0 {
 		return a, false
 	}
@@ -224,7 +224,7 @@ func propagateSpace(a Astrometry, dtDay float64) (Astrometry, bool) {
 	}
 
 	// eraPvstar: inertial to observed velocity, then to catalogue values.
-	dist2 := math.Sqrt(dot(pos2, pos2))
+	dist2 := math.Sqrt(vec.Dot(pos2, pos2))
 	if dist2 == 0 {
 		return a, false
 	}
@@ -232,12 +232,12 @@ func propagateSpace(a Astrometry, dtDay float64) (Astrometry, bool) {
 	for i := range 3 {
 		x[i] = pos2[i] / dist2
 	}
-	vr := dot(x, vel)
+	vr := vec.Dot(x, vel)
 	var ut [3]float64
 	for i := range 3 {
 		ut[i] = vel[i] - vr*x[i]
 	}
-	bt, br := math.Sqrt(dot(ut, ut))/lightAUDay, vr/lightAUDay
+	bt, br := math.Sqrt(vec.Dot(ut, ut))/lightAUDay, vr/lightAUDay
 	d2 := 1 + br
 	w2 := br*br + bt*bt
 	if d2 == 0 || w2 >= 1 {
@@ -251,11 +251,11 @@ func propagateSpace(a Astrometry, dtDay float64) (Astrometry, bool) {
 	ra2, dec2 := FromUnitVector(pos2)
 	p2, q2 := axesOf(x)
 	out := a
-	out.RADeg = wrapDeg360(ra2 * radToDeg)
-	out.DecDeg = dec2 * radToDeg
-	out.PMRAMasYr = dot(vobs, p2) / dist2 * julianYear / masToRad
-	out.PMDecMasYr = dot(vobs, q2) / dist2 * julianYear / masToRad
-	out.RVKms = dot(vobs, x) / kmsToAUDay
+	out.RADeg = wrapDeg360(ra2 * units.DegPerRad)
+	out.DecDeg = dec2 * units.DegPerRad
+	out.PMRAMasYr = vec.Dot(vobs, p2) / dist2 * units.JulianYearDay / units.RadPerMas
+	out.PMDecMasYr = vec.Dot(vobs, q2) / dist2 * units.JulianYearDay / units.RadPerMas
+	out.RVKms = vec.Dot(vobs, x) / kmsToAUDay
 	// Parallax in the same proportion as the modelled distance change.
 	out.ParallaxMas = a.ParallaxMas * distAU / dist2
 	return out, true

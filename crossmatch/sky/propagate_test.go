@@ -4,11 +4,13 @@ import (
 	"math"
 	"math/rand/v2"
 	"testing"
+
+	"starvet/internal/units"
 )
 
 // sepMuas is the angle between two Astrometry positions, micro-arcseconds.
 func sepMuas(a, b Astrometry) float64 {
-	return Separation(a.RADeg*degToRad, a.DecDeg*degToRad, b.RADeg*degToRad, b.DecDeg*degToRad) * muasPerRad
+	return Separation(a.RADeg*units.RadPerDeg, a.DecDeg*units.RadPerDeg, b.RADeg*units.RadPerDeg, b.DecDeg*units.RadPerDeg) * units.MuasPerRad
 }
 
 // TestPropagateRoundTrip: propagating forth and back returns the start to
@@ -43,7 +45,7 @@ func TestPropagateRoundTrip(t *testing.T) {
 			worst, worstPM := 0.0, 0.0
 			for i := range 3000 {
 				a := Astrometry{
-					RADeg: 360 * rng.Float64(), DecDeg: math.Asin(2*rng.Float64()-1) * radToDeg,
+					RADeg: 360 * rng.Float64(), DecDeg: math.Asin(2*rng.Float64()-1) * units.DegPerRad,
 					PMRAMasYr: rng.NormFloat64() * k.pmSigmaMas, PMDecMasYr: rng.NormFloat64() * k.pmSigmaMas,
 					ParallaxMas: k.pxMas(rng), RVKms: k.rvKms(rng),
 				}
@@ -70,7 +72,7 @@ func TestPropagateRoundTrip(t *testing.T) {
 				mu := math.Hypot(a.PMRAMasYr, a.PMDecMasYr)
 				dpm := math.Hypot(b.PMRAMasYr-a.PMRAMasYr, b.PMDecMasYr-a.PMDecMasYr) / mu
 				worstPM = math.Max(worstPM, dpm)
-				if dpm > 1e-10+1e-14/math.Cos(a.DecDeg*degToRad) {
+				if dpm > 1e-10+1e-14/math.Cos(a.DecDeg*units.RadPerDeg) {
 					t.Fatalf("case %d: pm (%v,%v) -> (%v,%v) at dec %v", i, a.PMRAMasYr, a.PMDecMasYr, b.PMRAMasYr, b.PMDecMasYr, a.DecDeg)
 				}
 				if k.checkPxRV {
@@ -105,7 +107,7 @@ func TestPropagateExact(t *testing.T) {
 	nan := math.NaN()
 	const muMas = 1000.0
 	gap := 1e-4 // deg from the pole
-	crossYr := 2 * gap * 3.6e6 / muMas
+	crossYr := 2 * gap * units.MasPerDeg / muMas
 	type want struct {
 		ra, dec, pmra, pmdec float64
 	}
@@ -192,7 +194,7 @@ func TestPerspectiveAcceleration(t *testing.T) {
 	got := math.Hypot(out.PMRAMasYr, out.PMDecMasYr) - muMas
 	// vr parallax / A is the relative rate (1/yr) at which the distance
 	// grows: vr [km/s] / (A [km/s per au/yr] d [au]), d = 1/parallax [rad].
-	want := -2 * muMas * rvKms / aKms * (pxMas * masToRad) * dtYr
+	want := -2 * muMas * rvKms / aKms * (pxMas * units.RadPerMas) * dtYr
 	if math.Abs(got-want) > 0.01*math.Abs(want) {
 		t.Errorf("change of |mu| over %v yr = %.6f mas/yr, want %.6f", dtYr, got, want)
 	}
@@ -220,7 +222,7 @@ func benchStars(n int, rigorous bool) []Astrometry {
 	s := make([]Astrometry, n)
 	for i := range s {
 		s[i] = Astrometry{
-			RADeg: 360 * rng.Float64(), DecDeg: math.Asin(2*rng.Float64()-1) * radToDeg,
+			RADeg: 360 * rng.Float64(), DecDeg: math.Asin(2*rng.Float64()-1) * units.DegPerRad,
 			ParallaxMas: math.NaN(), RVKms: math.NaN(),
 			PMRAMasYr: rng.NormFloat64() * 20, PMDecMasYr: rng.NormFloat64() * 20,
 		}

@@ -2,15 +2,7 @@ package sky
 
 import "math"
 
-// Angle conversions, defined once for the package.
-const (
-	degToRad   = math.Pi / 180
-	radToDeg   = 180 / math.Pi
-	masToRad   = degToRad / 3.6e6
-	twoPi      = 2 * math.Pi
-	arcsecRad  = degToRad / 3600
-	muasPerRad = radToDeg * 3.6e9
-)
+const twoPi = 2 * math.Pi
 
 // Separation returns the angle between two directions (radians in, radians
 // out) with the Vincenty formula (Vincenty 1975, Survey Review 23, 88,

@@ -4,6 +4,8 @@ import (
 	"math"
 	"math/rand/v2"
 	"testing"
+
+	"starvet/internal/units"
 )
 
 // Double-precision rounding floor for angles of order 1 rad (common
@@ -14,7 +16,7 @@ const roundingRad = 1e-15
 // (analytic identities): along a meridian or the equator the separation is
 // the coordinate difference; antipodes are pi apart.
 func TestSeparationAnalytic(t *testing.T) {
-	muas := 1 / muasPerRad
+	muas := 1 / units.MuasPerRad
 	d0 := 0.5
 	d1 := d0 + muas
 	cases := []struct {

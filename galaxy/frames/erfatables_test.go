@@ -8,6 +8,8 @@ import (
 	"strconv"
 	"strings"
 	"testing"
+
+	"starvet/internal/units"
 )
 
 // Reference tables made by ERFA (derived from IAU SOFA) through
@@ -110,7 +112,7 @@ func TestGalacticToICRSERFATable(t *testing.T) {
 		}
 	}
 	// Row 1 is the Galactic centre direction quoted in TestSpecialDirections.
-	if rows[0][0] != 0 || rows[0][1] != 0 || math.Abs(rows[0][2]/d2r-266.40499) > 5e-6 || math.Abs(rows[0][3]/d2r+28.93617) > 5e-6 {
+	if rows[0][0] != 0 || rows[0][1] != 0 || math.Abs(rows[0][2]/units.RadPerDeg-266.40499) > 5e-6 || math.Abs(rows[0][3]/units.RadPerDeg+28.93617) > 5e-6 {
 		t.Errorf("g2icrs.csv:%d: Galactic centre row %v disagrees with the quoted (266.40499, -28.93617) deg", lines[0], rows[0])
 	}
 	t.Logf("%d rows, worst difference %.3g rad", len(rows), worst)

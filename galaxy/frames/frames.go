@@ -1,6 +1,11 @@
 package frames
 
-import "math"
+import (
+	"math"
+
+	"starvet/internal/units"
+	"starvet/internal/vec"
+)
 
 // Defining angles of the Galactic frame (ESA 1997, The Hipparcos and Tycho
 // Catalogues, ESA SP-1200, Vol. 1, section 1.5.3):
@@ -18,8 +23,7 @@ const (
 var ICRSToGal = galacticMatrix()
 
 func galacticMatrix() [3][3]float64 {
-	const d2r = math.Pi / 180
-	a, d, t := ngpRADeg*d2r, ngpDecDeg*d2r, ncpLonDeg*d2r
+	a, d, t := ngpRADeg*units.RadPerDeg, ngpDecDeg*units.RadPerDeg, ncpLonDeg*units.RadPerDeg
 	// z axis: the north Galactic pole.
 	z := [3]float64{math.Cos(d) * math.Cos(a), math.Cos(d) * math.Sin(a), math.Sin(d)}
 	// The north celestial pole has Galactic longitude t: in Galactic
@@ -105,11 +109,6 @@ func NewBasis(raRad, decRad float64) Basis {
 	}
 }
 
-// KmsPerMasYrKpc is the tangential speed in km/s of 1 mas/yr at 1 kpc: one
-// au per Julian year, from 1 au = 149 597 870.700 km (IAU 2012 Resolution B2)
-// and a Julian year of 365.25 x 86400 s.
-const KmsPerMasYrKpc = 149597870.700 / (365.25 * 86400)
-
 // Sun holds the Solar parameters that place the heliocentric frame in the
 // Galactocentric one.
 type Sun struct {
@@ -150,7 +149,7 @@ func (s Sun) tilt() (st, ct float64) {
 // Sun sits at height z_sun.
 func (s Sun) ToGalactocentric(b Basis, distKpc, pmRAMasYr, pmDecMasYr, rvKms float64) (pos, vel [3]float64) {
 	st, ct := s.tilt()
-	k := KmsPerMasYrKpc * distKpc
+	k := units.KmsPerMasYrKpc * distKpc
 	var r, v [3]float64
 	for i := range 3 {
 		r[i] = distKpc * b.R[i]
@@ -186,11 +185,9 @@ func (s Sun) FromGalactocentric(posKpc, velKms [3]float64) (raRad, decRad, distK
 	}
 	decRad = math.Atan2(e[2], math.Hypot(e[0], e[1]))
 	b := NewBasis(raRad, decRad)
-	k := KmsPerMasYrKpc * distKpc
-	rvKms = dot(v, b.R)
-	pmRAMasYr = dot(v, b.P) / k
-	pmDecMasYr = dot(v, b.Q) / k
+	k := units.KmsPerMasYrKpc * distKpc
+	rvKms = vec.Dot(v, b.R)
+	pmRAMasYr = vec.Dot(v, b.P) / k
+	pmDecMasYr = vec.Dot(v, b.Q) / k
 	return raRad, decRad, distKpc, pmRAMasYr, pmDecMasYr, rvKms
 }
-
-func dot(a, b [3]float64) float64 { return a[0]*b[0] + a[1]*b[1] + a[2]*b[2] }

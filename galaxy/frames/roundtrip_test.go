@@ -4,6 +4,8 @@ import (
 	"math"
 	"math/rand/v2"
 	"testing"
+
+	"starvet/internal/units"
 )
 
 // TestFromGalactocentricRoundTrip: ToGalactocentric followed by
@@ -40,7 +42,7 @@ func TestFromGalactocentricRoundTrip(t *testing.T) {
 				}
 				// Velocity errors scale with the largest speed involved (the
 				// Sun's ~250 km/s) over k = 4.74 dist.
-				tolPM := 1e-11 * 300 / (KmsPerMasYrKpc * dist)
+				tolPM := 1e-11 * 300 / (units.KmsPerMasYrKpc * dist)
 				if math.Abs(pmra2-pmra) > tolPM || math.Abs(pmdec2-pmdec) > tolPM {
 					t.Fatalf("case %d: pm (%v,%v) -> (%v,%v)", i, pmra, pmdec, pmra2, pmdec2)
 				}

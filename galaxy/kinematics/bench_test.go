@@ -11,6 +11,8 @@ import (
 
 	"starvet/galaxy/frames"
 	"starvet/galaxy/potential"
+	"starvet/internal/units"
+	"starvet/internal/vec"
 )
 
 // benchStars makes n invented stars: distances 0.3-30 kpc, halo-like
@@ -22,7 +24,7 @@ func benchStars(n int) []Star {
 	stars := make([]Star, n)
 	sun := frames.DefaultSun()
 	for i := range stars {
-		ra, dec := 360*rnd.Float64(), math.Asin(2*rnd.Float64()-1)/degToRad
+		ra, dec := 360*rnd.Float64(), math.Asin(2*rnd.Float64()-1)/units.RadPerDeg
 		d := 0.3 * math.Pow(100, rnd.Float64())
 		target := [3]float64{150 * rnd.NormFloat64(), 150 * rnd.NormFloat64(), 150 * rnd.NormFloat64()}
 		pa, pd, rv := velocityInputs(sun, ra, dec, d, target)
@@ -61,7 +63,7 @@ func newBenchGalaxy() *benchGalaxy {
 
 // Phi is the sum of the three component potentials with r computed once.
 func (g *benchGalaxy) Phi(x [3]float64) float64 {
-	r := norm(x)
+	r := vec.Norm(x)
 	bulge := -gravConst * g.bulge.massMsun / (r + g.bulge.aKpc)
 	halo := -gravConst * g.halo.scaleMassMsun * math.Log1p(r/g.halo.rsKpc) / r
 	return bulge + g.disk.Phi(x) + halo

@@ -2,6 +2,9 @@ package kinematics
 
 import (
 	"math"
+
+	"starvet/internal/units"
+	"starvet/internal/vec"
 )
 
 // catalogDistance is an independent distance: normal in kpc truncated at
@@ -40,29 +43,28 @@ func (c catalogDistance) draw(rnd *stream) float64 {
 // distanceFromModulusKpc inverts the definition of the distance modulus,
 // mu = 5 log10(d / 10 pc): d = 10^(mu/5 + 1) pc.
 func distanceFromModulusKpc(muMag float64) float64 {
-	const pcPerKpc = 1000
-	return math.Pow(10, muMag/5+1) / pcPerKpc
+	return math.Pow(10, muMag/5+1) / units.PcPerKpc
 }
 
 // chooseDistance picks the distance method for s, recording fatal reasons
 // in r (r.OK false) and notes about catalog distances it could not use.
 func chooseDistance(s *Star, set *Settings, r *Result) (string, catalogDistance) {
 	wCorr := s.ParallaxMas - set.ParallaxZeroPointMas
-	plxOK := finite(s.ParallaxMas) && finite(s.ParallaxErrMas)
+	plxOK := vec.Finite(s.ParallaxMas) && vec.Finite(s.ParallaxErrMas)
 
 	var cat catalogDistance
 	catOK := false
 	var catProblem string
 	switch {
-	case finite(s.DistMod) && finite(s.DistModErr):
+	case vec.Finite(s.DistMod) && vec.Finite(s.DistModErr):
 		cat, catOK = newModulusDistance(s.DistMod, s.DistModErr), true
-	case finite(s.DistKpc) && finite(s.DistErrKpc) && s.DistKpc > 0:
+	case vec.Finite(s.DistKpc) && vec.Finite(s.DistErrKpc) && s.DistKpc > 0:
 		cat, catOK = catalogDistance{mean: s.DistKpc, sigma: s.DistErrKpc}, true
-	case finite(s.DistMod):
+	case vec.Finite(s.DistMod):
 		catProblem = "distance modulus without uncertainty"
-	case finite(s.DistKpc) && !(s.DistKpc > 0):
+	case vec.Finite(s.DistKpc) && !(s.DistKpc > 0):
 		catProblem = "non-positive catalog distance"
-	case finite(s.DistKpc):
+	case vec.Finite(s.DistKpc):
 		catProblem = "catalog distance without uncertainty"
 	default:
 		catProblem = "no catalog distance"

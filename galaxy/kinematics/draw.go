@@ -5,6 +5,8 @@ import (
 
 	"gonum.org/v1/gonum/mat"
 	"gonum.org/v1/gonum/stat/distmv"
+
+	"starvet/internal/fingerprint"
 )
 
 // Stream identifiers mixed into a star's seed. The radial velocity has its
@@ -15,20 +17,11 @@ const (
 	streamRV         uint64 = 2
 )
 
-// starSeed mixes the settings seed, the star ID (FNV-1a 64, Fowler, Noll &
-// Vo; constants from the published specification, from memory) and a stream
+// starSeed mixes the settings seed, the star ID (FNV-1a 64) and a stream
 // number into the two PCG seed words, so a star's numbers depend on nothing
 // else: not the batch order, not the worker count.
 func starSeed(seed uint64, id string, stream uint64) (uint64, uint64) {
-	const (
-		fnvOffset = 14695981039346656037
-		fnvPrime  = 1099511628211
-	)
-	h := uint64(fnvOffset)
-	for i := 0; i < len(id); i++ {
-		h ^= uint64(id[i])
-		h *= fnvPrime
-	}
+	h := fingerprint.FNV1a64(id)
 	return splitmix64(seed ^ splitmix64(stream)), splitmix64(h ^ splitmix64(seed+stream))
 }
 

@@ -5,9 +5,9 @@ import (
 
 	"starvet/galaxy/frames"
 	"starvet/galaxy/potential"
+	"starvet/internal/units"
+	"starvet/internal/vec"
 )
-
-const degToRad = math.Pi / 180
 
 // worker holds the per-goroutine scratch space; one worker per goroutine.
 type worker struct {
@@ -65,7 +65,7 @@ type lineOfSight struct {
 }
 
 func newLineOfSight(sun frames.Sun, raDeg, decDeg float64) lineOfSight {
-	b := frames.NewBasis(raDeg*degToRad, decDeg*degToRad)
+	b := frames.NewBasis(raDeg*units.RadPerDeg, decDeg*units.RadPerDeg)
 	var l lineOfSight
 	var p1, vR, vA, vD [3]float64
 	l.pos0, l.vel0 = sun.ToGalactocentric(b, 0, 0, 0, 0)
@@ -96,7 +96,7 @@ func (l *lineOfSight) at(d, pmRA, pmDec, rv float64) (pos, vel [3]float64) {
 // |vel(0) - (vel(0).u) u| (minimum of a quadratic in rv).
 func (l *lineOfSight) minSpeedVelocity(vel [3]float64) [3]float64 {
 	u := l.velR
-	k := dot(vel, u) / dot(u, u)
+	k := vec.Dot(vel, u) / vec.Dot(u, u)
 	return [3]float64{vel[0] - k*u[0], vel[1] - k*u[1], vel[2] - k*u[2]}
 }
 
@@ -111,8 +111,6 @@ func (l *lineOfSight) minSpeed() lineOfSight {
 	return m
 }
 
-func dot(a, b [3]float64) float64 { return a[0]*b[0] + a[1]*b[1] + a[2]*b[2] }
-
 // r2At is |pos(d)|^2 computed as in the per-draw loop of evaluate.
 func (l *lineOfSight) r2At(d float64) float64 {
 	x := l.pos0[0] + d*l.posR[0]
@@ -125,7 +123,7 @@ func (l *lineOfSight) r2At(d float64) float64 {
 // and in which direction: it is a quadratic in d with its minimum at
 // d* = -pos0.posR / |posR|^2, so it rises beyond d* and falls before it.
 func (l *lineOfSight) r2Monotone(dMin, dMax float64) (increasing, ok bool) {
-	dStar := -dot(l.pos0, l.posR) / dot(l.posR, l.posR)
+	dStar := -vec.Dot(l.pos0, l.posR) / vec.Dot(l.posR, l.posR)
 	switch {
 	case dStar <= dMin:
 		return true, true
@@ -167,15 +165,15 @@ func (w *worker) evaluate(s *Star, set *Settings, p potential.Potential, r *Resu
 		r.fail(ReasonSettings, "%v", err)
 		return
 	}
-	if !finite(s.RADeg) || !finite(s.DecDeg) {
+	if !vec.Finite(s.RADeg) || !vec.Finite(s.DecDeg) {
 		r.fail(ReasonNoPosition, "ra or dec missing")
 		return
 	}
-	if !finite(s.PMRAMasYr) || !finite(s.PMDecMasYr) {
+	if !vec.Finite(s.PMRAMasYr) || !vec.Finite(s.PMDecMasYr) {
 		r.fail(ReasonProperMotion, "proper motion missing")
 		return
 	}
-	if !finite(s.PMRAErrMasYr) || !finite(s.PMDecErrMasYr) {
+	if !vec.Finite(s.PMRAErrMasYr) || !vec.Finite(s.PMDecErrMasYr) {
 		r.fail(ReasonProperMotion, "proper-motion uncertainty missing")
 		return
 	}
@@ -215,7 +213,7 @@ func (w *worker) evaluate(s *Star, set *Settings, p potential.Potential, r *Resu
 	// Covariance of (parallax, pm_ra, pm_dec); the parallax row is only
 	// used by the parallax methods.
 	sw, sa, sd := s.ParallaxErrMas, s.PMRAErrMasYr, s.PMDecErrMasYr
-	if method == MethodCatalog && !(finite(s.ParallaxMas) && sw > 0) {
+	if method == MethodCatalog && !(vec.Finite(s.ParallaxMas) && sw > 0) {
 		sw = 0 // no parallax to weigh the catalog distance with
 	}
 	cov := [3][3]float64{
@@ -275,10 +273,10 @@ func (w *worker) evaluate(s *Star, set *Settings, p potential.Potential, r *Resu
 
 	// Radial velocity from its own stream.
 	rvKms, rvErr := s.RVKms, s.RVErrKms
-	r.HasRV = finite(rvKms) && finite(rvErr)
+	r.HasRV = vec.Finite(rvKms) && vec.Finite(rvErr)
 	if !r.HasRV {
 		switch {
-		case finite(rvKms):
+		case vec.Finite(rvKms):
 			r.note(ReasonNoRV, "radial-velocity uncertainty missing: speeds are lower bounds over all radial velocities")
 		default:
 			r.note(ReasonNoRV, "no radial velocity: speeds are lower bounds over all radial velocities")

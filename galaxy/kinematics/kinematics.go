@@ -208,5 +208,3 @@ func (r *Result) fail(code, format string, a ...any) {
 	r.Reasons = append(r.Reasons, Reason{Code: code, Message: fmt.Sprintf(format, a...), Fatal: true})
 	r.OK = false
 }
-
-func finite(v float64) bool { return !math.IsNaN(v) && !math.IsInf(v, 0) }

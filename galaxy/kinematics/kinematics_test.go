@@ -15,6 +15,8 @@ import (
 	"gonum.org/v1/gonum/stat/distmv"
 
 	"starvet/galaxy/frames"
+	"starvet/internal/units"
+	"starvet/internal/vec"
 )
 
 var nan = math.NaN()
@@ -49,8 +51,8 @@ func hasReason(r Result, code string) bool {
 
 func TestKmsPerMasYrKpc(t *testing.T) {
 	// 4.740470464 km/s per (mas/yr kpc): 1 au per Julian year (from memory).
-	if math.Abs(frames.KmsPerMasYrKpc-4.740470464) > 1e-9 {
-		t.Fatalf("KmsPerMasYrKpc = %.10f", frames.KmsPerMasYrKpc)
+	if math.Abs(units.KmsPerMasYrKpc-4.740470464) > 1e-9 {
+		t.Fatalf("KmsPerMasYrKpc = %.10f", units.KmsPerMasYrKpc)
 	}
 	// A star at 1 kpc with 1 mas/yr and no rv moves 4.740470464 km/s
 	// relative to the Sun, whichever the direction of the motion.
@@ -64,7 +66,7 @@ func TestKmsPerMasYrKpc(t *testing.T) {
 			l := newLineOfSight(frames.DefaultSun(), 33, 44)
 			_, v := l.at(1, tc.pmRA, tc.pmDec, 0)
 			rel := [3]float64{v[0] - l.vel0[0], v[1] - l.vel0[1], v[2] - l.vel0[2]}
-			if got := norm(rel); math.Abs(got-4.740470464) > 1e-8 {
+			if got := vec.Norm(rel); math.Abs(got-4.740470464) > 1e-8 {
 				t.Errorf("speed %.10f km/s", got)
 			}
 		})
@@ -80,7 +82,7 @@ func TestLineOfSightMatchesFrames(t *testing.T) {
 		t.Run(fmt.Sprint(tc.ra, tc.dec), func(t *testing.T) {
 			l := newLineOfSight(sun, tc.ra, tc.dec)
 			p1, v1 := l.at(tc.d, tc.pa, tc.pd, tc.rv)
-			p2, v2 := sun.ToGalactocentric(frames.NewBasis(tc.ra*degToRad, tc.dec*degToRad), tc.d, tc.pa, tc.pd, tc.rv)
+			p2, v2 := sun.ToGalactocentric(frames.NewBasis(tc.ra*units.RadPerDeg, tc.dec*units.RadPerDeg), tc.d, tc.pa, tc.pd, tc.rv)
 			for i := range 3 {
 				if math.Abs(p1[i]-p2[i]) > 1e-12 || math.Abs(v1[i]-v2[i]) > 1e-9 {
 					t.Errorf("pos %v vs %v, vel %v vs %v", p1, p2, v1, v2)
@@ -138,16 +140,16 @@ func TestZeroErrorsCollapse(t *testing.T) {
 				t.Fatalf("reasons %v", r.Reasons)
 			}
 			s := tc.star
-			pos, vel := set.Sun.ToGalactocentric(frames.NewBasis(s.RADeg*degToRad, s.DecDeg*degToRad), tc.distKpc, s.PMRAMasYr, s.PMDecMasYr, s.RVKms)
-			speed := norm(vel)
+			pos, vel := set.Sun.ToGalactocentric(frames.NewBasis(s.RADeg*units.RadPerDeg, s.DecDeg*units.RadPerDeg), tc.distKpc, s.PMRAMasYr, s.PMDecMasYr, s.RVKms)
+			speed := vec.Norm(vel)
 			vesc := math.Sqrt(-2 * p.Phi(pos))
-			vr := dot(pos, vel) / norm(pos)
+			vr := vec.Dot(pos, vel) / vec.Norm(pos)
 			for _, q := range []struct {
 				name string
 				got  [3]float64
 				want float64
 			}{
-				{"dist", r.DistKpc, tc.distKpc}, {"speed", r.SpeedKms, speed}, {"rgc", r.RGCKpc, norm(pos)},
+				{"dist", r.DistKpc, tc.distKpc}, {"speed", r.SpeedKms, speed}, {"rgc", r.RGCKpc, vec.Norm(pos)},
 				{"vesc", r.VEscKms, vesc}, {"vrad", r.VRadialKms, vr}, {"vtan", r.VTangentialKms, math.Sqrt(speed*speed - vr*vr)},
 			} {
 				for k := range 3 {
@@ -177,7 +179,7 @@ func TestZeroErrorsCollapse(t *testing.T) {
 func velocityInputs(sun frames.Sun, ra, dec, dKpc float64, target [3]float64) (pmRA, pmDec, rv float64) {
 	l := newLineOfSight(sun, ra, dec)
 	dv := [3]float64{target[0] - l.vel0[0], target[1] - l.vel0[1], target[2] - l.vel0[2]}
-	return dot(dv, l.velA) / (dKpc * dot(l.velA, l.velA)), dot(dv, l.velD) / (dKpc * dot(l.velD, l.velD)), dot(dv, l.velR) / dot(l.velR, l.velR)
+	return vec.Dot(dv, l.velA) / (dKpc * vec.Dot(l.velA, l.velA)), vec.Dot(dv, l.velD) / (dKpc * vec.Dot(l.velD, l.velD)), vec.Dot(dv, l.velR) / vec.Dot(l.velR, l.velR)
 }
 
 // Common practice facts with the Milky-Way-like test potential.
@@ -190,7 +192,7 @@ func TestBoundUnboundFacts(t *testing.T) {
 	pa1, pd1, rv1 := velocityInputs(sun, ra1, dec1, 0.01, [3]float64{0, 300, 0})
 	// 50 kpc from the centre toward the anticentre, receding at 1200 km/s.
 	raA, decA := frames.GalacticToICRS(math.Pi, 0)
-	raA, decA = raA/degToRad, decA/degToRad
+	raA, decA = raA/units.RadPerDeg, decA/units.RadPerDeg
 	dA := 50 - sun.DistanceKpc
 	paA, pdA, rvA := velocityInputs(sun, raA, decA, dA, [3]float64{-1200, 0, 0})
 	cases := []struct {
@@ -231,7 +233,7 @@ func TestPUnboundMonotoneInRV(t *testing.T) {
 	set := testSettings()
 	l := newLineOfSight(set.Sun, s.RADeg, s.DecDeg)
 	_, v0 := l.at(4, s.PMRAMasYr, s.PMDecMasYr, 0)
-	rvMin := -dot(v0, l.velR) // minimum speed here
+	rvMin := -vec.Dot(v0, l.velR) // minimum speed here
 	prev := -1.0
 	var ps []float64
 	for rv := rvMin + 100; rv <= rvMin+1500; rv += 25 {
@@ -262,7 +264,7 @@ func TestMissingRVLowerBound(t *testing.T) {
 		s.RVKms, s.RVErrKms = rv, 0
 		r := eval(s, set)
 		for i := range r.SampleVel {
-			if v, lb := norm(r.SampleVel[i]), norm(low.SampleVel[i]); v < lb-1e-9 {
+			if v, lb := vec.Norm(r.SampleVel[i]), vec.Norm(low.SampleVel[i]); v < lb-1e-9 {
 				t.Fatalf("rv %v sample %d: speed %v below bound %v", rv, i, v, lb)
 			}
 		}
@@ -282,7 +284,7 @@ func TestMissingRVLowerBound(t *testing.T) {
 	lz := eval(z, set)
 	l := newLineOfSight(set.Sun, z.RADeg, z.DecDeg)
 	_, v0 := l.at(2, z.PMRAMasYr, z.PMDecMasYr, 0)
-	z.RVKms, z.RVErrKms = -dot(v0, l.velR), 0
+	z.RVKms, z.RVErrKms = -vec.Dot(v0, l.velR), 0
 	at := eval(z, set)
 	if math.Abs(at.SpeedKms[1]-lz.SpeedLowerKms[1]) > 1e-9 {
 		t.Errorf("speed at the minimising rv %v, bound %v", at.SpeedKms[1], lz.SpeedLowerKms[1])
@@ -533,7 +535,7 @@ func mixedStars(n int) []Star {
 	stars := make([]Star, n)
 	for i := range stars {
 		s := baseStar(fmt.Sprintf("mix-%04d", i))
-		s.RADeg, s.DecDeg = 360*rnd.Float64(), math.Asin(2*rnd.Float64()-1)/degToRad
+		s.RADeg, s.DecDeg = 360*rnd.Float64(), math.Asin(2*rnd.Float64()-1)/units.RadPerDeg
 		s.ParallaxMas = 0.05 + 2*rnd.Float64()
 		s.ParallaxErrMas = s.ParallaxMas * (0.02 + 0.6*rnd.Float64())
 		s.CorrParallaxPMRA = 0.4*rnd.Float64() - 0.2

@@ -4,6 +4,7 @@ import (
 	"math"
 
 	"starvet/galaxy/potential"
+	"starvet/internal/vec"
 )
 
 // Along one line of sight the position is pos0 + d posR, so the escape speed
@@ -45,19 +46,19 @@ func psiAt(p potential.Potential, l *lineOfSight, d, escRadiusKpc float64) (psi,
 		x[i] = l.pos0[i] + d*l.posR[i]
 	}
 	a := p.Accel(x)
-	psi, dpsi = -p.Phi(x), dot(a, l.posR)
+	psi, dpsi = -p.Phi(x), vec.Dot(a, l.posR)
 	if escRadiusKpc > 0 {
-		r := math.Sqrt(dot(x, x))
+		r := math.Sqrt(vec.Dot(x, x))
 		k := escRadiusKpc / r
 		y := [3]float64{x[0] * k, x[1] * k, x[2] * k}
 		// d y/dd = (R/r) (posR - u (u . posR)), u = x/r.
-		ur := dot(x, l.posR) / r
+		ur := vec.Dot(x, l.posR) / r
 		var dy [3]float64
 		for i := range 3 {
 			dy[i] = k * (l.posR[i] - x[i]/r*ur)
 		}
 		psi += p.Phi(y)
-		dpsi -= dot(p.Accel(y), dy)
+		dpsi -= vec.Dot(p.Accel(y), dy)
 	}
 	return psi, dpsi
 }
@@ -74,7 +75,7 @@ func (t *losEscape) build(p potential.Potential, l *lineOfSight, dMin, dMax, esc
 	if escRadiusKpc > 0 {
 		for _, d := range []float64{dMin, dMax} {
 			pos, _ := l.at(d, 0, 0, 0)
-			if math.Sqrt(dot(pos, pos)) >= 0.9*escRadiusKpc {
+			if math.Sqrt(vec.Dot(pos, pos)) >= 0.9*escRadiusKpc {
 				return
 			}
 		}

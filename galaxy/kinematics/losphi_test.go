@@ -7,6 +7,8 @@ import (
 	"testing"
 
 	"starvet/galaxy/frames"
+	"starvet/internal/units"
+	"starvet/internal/vec"
 )
 
 // The interpolated escape speed must match sqrt(2 (Phi_lim - Phi)) computed
@@ -35,7 +37,7 @@ func TestLineOfSightEscapeTable(t *testing.T) {
 	}{{"bulge-halo", milkyWayTest()}, {"bulge-disk-halo", milkyWayBench()}} {
 		for _, tc := range cases {
 			t.Run(pot.name+"/"+tc.name, func(t *testing.T) {
-				l := newLineOfSight(sun, tc.ra/degToRad, tc.dec/degToRad)
+				l := newLineOfSight(sun, tc.ra/units.RadPerDeg, tc.dec/units.RadPerDeg)
 				var tab losEscape
 				tab.build(pot.p, &l, tc.dMin, tc.dMax, tc.rLim, 125)
 				t.Logf("table used: %v (%d nodes)", tab.ok, len(tab.psi))
@@ -47,7 +49,7 @@ func TestLineOfSightEscapeTable(t *testing.T) {
 				for range 5000 {
 					d := tc.dMin + (tc.dMax-tc.dMin)*rnd.Float64()
 					pos, _ := l.at(d, 0, 0, 0)
-					exact := escapeSpeed(pot.p, pos, norm(pos), tc.rLim)
+					exact := escapeSpeed(pot.p, pos, vec.Norm(pos), tc.rLim)
 					worst = math.Max(worst, math.Abs(tab.vesc(d)-exact))
 				}
 				t.Logf("worst error %.2g km/s", worst)
@@ -141,7 +143,7 @@ func TestLineOfSightEscapeTableStars(t *testing.T) {
 				for k := range 2001 {
 					d := lo + (hi-lo)*float64(k)/2000
 					pos, _ := l.at(d, 0, 0, 0)
-					if e := math.Abs(w.esc.vesc(d) - escapeSpeed(p, pos, norm(pos), rLim)); e > worst {
+					if e := math.Abs(w.esc.vesc(d) - escapeSpeed(p, pos, vec.Norm(pos), rLim)); e > worst {
 						worst = e
 					}
 				}

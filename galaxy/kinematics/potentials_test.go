@@ -3,20 +3,21 @@ package kinematics
 import (
 	"math"
 	"testing"
+
+	"starvet/internal/units"
+	"starvet/internal/vec"
 )
 
 // gravConst is G in kpc (km/s)^2 / Msun: 4.300917e-6 (from memory;
 // TestGravConst cross-checks it against the IAU 2015 nominal GM_sun).
 const gravConst = 4.300917e-6
 
-func norm(x [3]float64) float64 { return math.Sqrt(x[0]*x[0] + x[1]*x[1] + x[2]*x[2]) }
-
 // pointMass: Phi = -GM/r (Newton).
 type pointMass struct{ massMsun float64 }
 
-func (p pointMass) Phi(x [3]float64) float64 { return -gravConst * p.massMsun / norm(x) }
+func (p pointMass) Phi(x [3]float64) float64 { return -gravConst * p.massMsun / vec.Norm(x) }
 func (p pointMass) Accel(x [3]float64) [3]float64 {
-	r := norm(x)
+	r := vec.Norm(x)
 	k := -gravConst * p.massMsun / (r * r * r)
 	return [3]float64{k * x[0], k * x[1], k * x[2]}
 }
@@ -24,9 +25,9 @@ func (p pointMass) Accel(x [3]float64) [3]float64 {
 // hernquist: Phi = -GM/(r+a) (Hernquist 1990, ApJ 356, 359, eq. 2).
 type hernquist struct{ massMsun, aKpc float64 }
 
-func (h hernquist) Phi(x [3]float64) float64 { return -gravConst * h.massMsun / (norm(x) + h.aKpc) }
+func (h hernquist) Phi(x [3]float64) float64 { return -gravConst * h.massMsun / (vec.Norm(x) + h.aKpc) }
 func (h hernquist) Accel(x [3]float64) [3]float64 {
-	r := norm(x)
+	r := vec.Norm(x)
 	k := -gravConst * h.massMsun / ((r + h.aKpc) * (r + h.aKpc) * r)
 	return [3]float64{k * x[0], k * x[1], k * x[2]}
 }
@@ -37,11 +38,11 @@ func (h hernquist) Accel(x [3]float64) [3]float64 {
 type nfw struct{ scaleMassMsun, rsKpc float64 }
 
 func (n nfw) Phi(x [3]float64) float64 {
-	r := norm(x)
+	r := vec.Norm(x)
 	return -gravConst * n.scaleMassMsun * math.Log1p(r/n.rsKpc) / r
 }
 func (n nfw) Accel(x [3]float64) [3]float64 {
-	r := norm(x)
+	r := vec.Norm(x)
 	u := r / n.rsKpc
 	// |g| = G M_s (ln(1+u) - u/(1+u)) / r^2.
 	k := -gravConst * n.scaleMassMsun * (math.Log1p(u) - u/(1+u)) / (r * r * r)
@@ -102,12 +103,11 @@ func milkyWayBench() sumPotential {
 
 func TestGravConst(t *testing.T) {
 	// IAU 2015 Resolution B3: nominal GM_sun = 1.3271244e20 m^3/s^2.
-	// IAU 2012 Resolution B2: au = 149 597 870 700 m. IAU 2015 Resolution
-	// B2: pc = 648000/pi au.
+	// kpc from IAU 2012 Resolution B2 (au) and IAU 2015 Resolution B2 (pc),
+	// in starvet/internal/units.
 	const gmSun = 1.3271244e20
-	const au = 149597870700.0
-	kpc := 1000 * 648000 / math.Pi * au
-	got := gmSun / 1e6 / kpc // (km/s)^2 kpc per Msun
+	kpc := units.MPerKm * units.KpcKm // m
+	got := gmSun / 1e6 / kpc          // (km/s)^2 kpc per Msun
 	if rel := math.Abs(got-gravConst) / gravConst; rel > 1e-6 {
 		t.Errorf("G = %.7g, computed %.7g from IAU constants (rel %.2g)", gravConst, got, rel)
 	}

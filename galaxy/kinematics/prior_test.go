@@ -4,6 +4,8 @@ import (
 	"math"
 	"math/rand/v2"
 	"testing"
+
+	"starvet/internal/vec"
 )
 
 // TestPriorResampleConjugate checks the reweighting against the conjugate
@@ -110,7 +112,7 @@ func TestVelocityPriorInEvaluate(t *testing.T) {
 	// The traced draws come from the resample: their speeds follow it.
 	var sum float64
 	for _, v := range b.SampleVel {
-		sum += math.Sqrt(dot(v, v))
+		sum += math.Sqrt(vec.Dot(v, v))
 	}
 	if m := sum / float64(len(b.SampleVel)); math.Abs(m-b.SpeedKms[1]) > 0.25*b.SpeedKms[1] {
 		t.Errorf("far: traced draws' mean speed %.1f far from the posterior median %.1f", m, b.SpeedKms[1])

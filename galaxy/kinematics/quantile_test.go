@@ -5,6 +5,8 @@ import (
 	"math/rand/v2"
 	"slices"
 	"testing"
+
+	"starvet/internal/vec"
 )
 
 // TestMedianMatchesPercentiles: median is the middle value of percentiles
@@ -111,7 +113,7 @@ func TestMonotoneMediansInEvaluate(t *testing.T) {
 				ve2[k] = w.esc.vesc2(w.dist[k])
 			} else {
 				pos, _ := l.at(w.dist[k], 0, 0, 0)
-				ve2[k] = escapeSpeed2(newBenchGalaxy(), pos, norm(pos), set.EscapeRadiusKpc)
+				ve2[k] = escapeSpeed2(newBenchGalaxy(), pos, vec.Norm(pos), set.EscapeRadiusKpc)
 			}
 		}
 		// p_unbound counts every draw, looked up or not.

@@ -11,6 +11,7 @@ import (
 	"gonum.org/v1/gonum/stat"
 
 	"starvet/galaxy/potential"
+	"starvet/internal/vec"
 )
 
 // Origin verdicts stored in TraceResult.Origin.
@@ -119,7 +120,7 @@ type sampleTrace struct {
 func traceSample(p potential.Potential, x, v [3]float64, s *TraceSettings) sampleTrace {
 	st := newStepper(p, s.Options, -1)
 	cur := st.start(x, v)
-	r := norm(cur.x)
+	r := vec.Norm(cur.x)
 	res := sampleTrace{closestKp: r}
 	if cur.x[2] == 0 {
 		res.crossed = true
@@ -139,7 +140,7 @@ func traceSample(p potential.Potential, x, v [3]float64, s *TraceSettings) sampl
 		}
 		prev := cur
 		last := st.step(&cur, tEnd)
-		r = norm(cur.x)
+		r = vec.Norm(cur.x)
 		if r < res.closestKp {
 			res.closestKp = r
 		}
@@ -159,8 +160,6 @@ func traceSample(p potential.Potential, x, v [3]float64, s *TraceSettings) sampl
 		}
 	}
 }
-
-func norm(x [3]float64) float64 { return math.Sqrt(x[0]*x[0] + x[1]*x[1] + x[2]*x[2]) }
 
 // Trace back-traces the Monte Carlo samples of one star (pos[i], vel[i]) and
 // summarises where they crossed the Galactic plane. pos and vel must have
@@ -185,7 +184,7 @@ func Trace(p potential.Potential, pos, vel [][3]float64, s TraceSettings) TraceR
 	var flight []float64
 	nGC, nDisk := 0, 0
 	for i := range pos {
-		if !finite3(pos[i]) || !finite3(vel[i]) {
+		if !vec.Finite3(pos[i]) || !vec.Finite3(vel[i]) {
 			res.InvalidSamples++
 			closest[i] = math.NaN()
 			continue
@@ -264,15 +263,6 @@ func centreDistance(cs []Crossing, tolKpc float64) float64 {
 		}
 	}
 	return math.Sqrt(d2)
-}
-
-func finite3(v [3]float64) bool {
-	for _, c := range v {
-		if math.IsNaN(c) || math.IsInf(c, 0) {
-			return false
-		}
-	}
-	return true
 }
 
 func dropNaN(v []float64) []float64 {

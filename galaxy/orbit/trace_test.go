@@ -8,6 +8,7 @@ import (
 	"testing"
 
 	"starvet/galaxy/potential"
+	"starvet/internal/units"
 )
 
 // samples scatters n copies of (x, v) with Gaussian noise of sigmaXKpc and
@@ -36,7 +37,7 @@ func ejected(p potential.Potential, n [3]float64, vKms, tMyr float64) (x, v [3]f
 }
 
 func unit(lDeg, bDeg float64) [3]float64 {
-	l, b := lDeg*math.Pi/180, bDeg*math.Pi/180
+	l, b := lDeg*units.RadPerDeg, bDeg*units.RadPerDeg
 	return [3]float64{math.Cos(b) * math.Cos(l), math.Cos(b) * math.Sin(l), math.Sin(b)}
 }
 

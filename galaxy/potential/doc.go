@@ -8,8 +8,8 @@
 // Sun's projection toward the centre, y along rotation, z toward the north
 // Galactic pole); circular speed v_c(R) and escape speed in km/s. With the
 // internal time unit kpc/(km/s) (TimeUnitMyr = 977.79 Myr) the equations of
-// motion dx/dt = v, dv/dt = Accel(x) need no further constants. G and the
-// unit constants are defined once in units.go.
+// motion dx/dt = v, dv/dt = Accel(x) need no further constants. G is
+// defined once in units.go; unit conversions come from starvet/internal/units.
 //
 // Model.Phi and Model.Accel do not allocate and switch over a flat slice of
 // components, since orbit integration calls them 1e8-1e9 times per run.

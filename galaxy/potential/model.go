@@ -1,14 +1,15 @@
 package potential
 
 import (
-	"crypto/sha256"
-	"encoding/hex"
 	"errors"
 	"fmt"
 	"math"
 	"sort"
 	"strconv"
 	"strings"
+
+	"starvet/internal/fingerprint"
+	"starvet/internal/vec"
 )
 
 // Component kind names accepted in Component.Kind.
@@ -101,7 +102,7 @@ func New(components []Component) (*Model, error) {
 		}
 		m.comps = append(m.comps, cc)
 	}
-	m.fp = fingerprint(m.comps)
+	m.fp = componentsFingerprint(m.comps)
 	return m, nil
 }
 
@@ -109,17 +110,15 @@ func bad(i int, field, format string, args ...any) error {
 	return &ComponentError{Index: i, Field: field, Err: ErrBadValue, Msg: fmt.Sprintf(format, args...)}
 }
 
-func finite(v float64) bool { return !math.IsNaN(v) && !math.IsInf(v, 0) }
-
 func compile(i int, c Component) (comp, error) {
-	if !finite(c.MassMsun) || c.MassMsun <= 0 {
+	if !vec.Finite(c.MassMsun) || c.MassMsun <= 0 {
 		return comp{}, bad(i, "mass_msun", "must be a positive finite mass in Msun, got %v", c.MassMsun)
 	}
 	for _, f := range []struct {
 		name string
 		v    float64
 	}{{"scale_kpc", c.ScaleKpc}, {"a_kpc", c.AKpc}, {"b_kpc", c.BKpc}} {
-		if !finite(f.v) || f.v < 0 {
+		if !vec.Finite(f.v) || f.v < 0 {
 			return comp{}, bad(i, f.name, "must be a finite length >= 0 in kpc, got %v", f.v)
 		}
 	}
@@ -165,7 +164,7 @@ func (m *Model) Components() []Component { return append([]Component(nil), m.com
 // AKpc. Two models with equal fingerprints give identical forces.
 func (m *Model) Fingerprint() string { return m.fp }
 
-func fingerprint(cs []comp) string {
+func componentsFingerprint(cs []comp) string {
 	names := [...]string{kPoint: KindPoint, kHernquist: KindHernquist, kMN: KindMiyamotoNagai, kNFW: KindNFW}
 	parts := make([]string, len(cs))
 	f := func(v float64) string { return strconv.FormatFloat(v, 'g', -1, 64) }
@@ -182,8 +181,7 @@ func fingerprint(cs []comp) string {
 		parts[i] = p
 	}
 	sort.Strings(parts)
-	h := sha256.Sum256([]byte("starvet-potential-v1\n" + strings.Join(parts, "\n")))
-	return hex.EncodeToString(h[:16])
+	return fingerprint.Hex([]byte("starvet-potential-v1\n"+strings.Join(parts, "\n")), 16)
 }
 
 // Phi returns the potential in (km/s)^2 at x (kpc). A point mass gives -Inf

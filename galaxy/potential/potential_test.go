@@ -24,8 +24,6 @@ func TestConstants(t *testing.T) {
 		got, want float64
 		tol       float64
 	}{
-		// IAU 2012 B2 au and IAU 2015 B2 parsec: 1 pc = 3.0856775814913673e16 m.
-		{"kpc in km", KpcKm, 3.0856775814913673e16, 1e-15},
 		// Our reference notes, from memory: 4.300917e-6 kpc (km/s)^2/Msun.
 		{"G", G, 4.300917e-6, 1e-6},
 		// Brief / common practice: kpc/(km/s) = 977.79 Myr.
