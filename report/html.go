@@ -8,6 +8,8 @@ import (
 	"path/filepath"
 	"sort"
 	"time"
+
+	"starvet/verdict"
 )
 
 type countRow struct {
@@ -70,7 +72,7 @@ func stamp(t time.Time) string {
 func candidates(d *data) []candRow {
 	var cs []*star
 	for i := range d.stars {
-		if st := d.stars[i].Status; st == "unbound" || st == "marginal" {
+		if st := d.stars[i].Status; st == string(verdict.Unbound) || st == string(verdict.Marginal) {
 			cs = append(cs, &d.stars[i])
 		}
 	}

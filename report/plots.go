@@ -15,6 +15,7 @@ import (
 
 	"starvet/galaxy/frames"
 	"starvet/galaxy/potential"
+	"starvet/verdict"
 )
 
 const degToRad = math.Pi / 180
@@ -84,7 +85,7 @@ func speedPlot(d *data) (*PlotSummary, []byte, error) {
 	for i := range d.stars {
 		s := &d.stars[i]
 		if !finite(s.SpeedP50Kms) || !(s.RGCKpc > 0) || math.IsInf(s.RGCKpc, 0) {
-			if s.Status != "rejected" && s.Status != "withdrawn" {
+			if s.Status != string(verdict.Rejected) && s.Status != string(verdict.Withdrawn) {
 				omitted[s.Status]++
 			}
 			continue

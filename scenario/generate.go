@@ -9,6 +9,7 @@ import (
 	"sort"
 
 	"starvet/galaxy/frames"
+	"starvet/galaxy/orbit"
 )
 
 // Independent random streams, one per stage, so that changing one stage
@@ -68,7 +69,7 @@ type TruthRow struct {
 	Decidable         bool
 	Trap              string // "" or a Trap* label
 	Artefact          bool   // must not end "unbound"
-	OriginTrue        string
+	OriginTrue        orbit.Origin
 	FlightTimeMyrTrue float64 // NaN unless ejected or kicked
 	VGCTrueKms        float64 // true Galactocentric speed
 	VEscTrueKms       float64 // model escape speed at the true position
