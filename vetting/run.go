@@ -51,6 +51,14 @@ func (s *Summary) addStage(name string, since time.Time) { s.Stages[name] += tim
 
 func (s *Summary) addDuration(name string, d time.Duration) { s.Stages[name] += d }
 
+// carry counts the stars the plan carries forward.
+func (s *Summary) carry(p *plan) {
+	for st, n := range p.carried {
+		s.Counts[st] += n
+	}
+	s.Carried = p.nCarried
+}
+
 // Run is the main job: ingest, match, quality, kinematics, verdicts and the
 // ledger. Stars whose inputs, rule set and model settings are unchanged since
 // the last complete run are carried forward.
@@ -101,10 +109,7 @@ func (e *Engine) Run(ctx context.Context, c *campaign.Campaign, opt RunOptions) 
 		return nil, err
 	}
 	p := makePlan(prevSet, in.cats.Primary.IDs, <-order, in.hashes, sum.RecomputeAll != "")
-	for st, n := range p.carried {
-		sum.Counts[st] += n
-	}
-	sum.Carried = p.nCarried
+	sum.carry(&p)
 	computed, err := e.writeVerdicts(ctx, w, s, in, &p, sum)
 	if err != nil {
 		return nil, err
