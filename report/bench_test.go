@@ -24,10 +24,10 @@ func bigFixture(n int) *fakeSource {
 		var v db.VerdictRow
 		switch {
 		case u < 0.92:
-			v = verdict(2, id, "rejected")
+			v = verdictRow(2, id, "rejected")
 			f.reasons["2/"+id] = []db.ReasonRow{{RuleID: fmt.Sprintf("rule-%d", rng.IntN(6)), Outcome: "fail", Message: "made up"}}
 		case u < 0.98:
-			v = verdict(2, id, "needs-rv")
+			v = verdictRow(2, id, "needs-rv")
 			v.RGCKpc, v.VEscKms = 5+20*rng.Float64(), 500
 		default:
 			p50 := 100 + 900*rng.Float64()
@@ -35,7 +35,7 @@ func bigFixture(n int) *fakeSource {
 			if p50 > 600 {
 				st = "unbound"
 			}
-			v = moving(verdict(2, id, st), p50*0.9, p50, p50*1.1, 5+60*rng.Float64(), 450, rng.Float64(), potential.DefaultModel)
+			v = moving(verdictRow(2, id, st), p50*0.9, p50, p50*1.1, 5+60*rng.Float64(), 450, rng.Float64(), potential.DefaultModel)
 			if st == "unbound" && traced < 100 {
 				traced++
 				for range 200 {

@@ -22,7 +22,9 @@
 // candidates by p_unbound, with a caution that an unbound status is a
 // candidate for follow-up, not a discovery.
 //
-// Every status has its own Okabe-Ito colour and its own filled shape. The
+// Every status (the words of starvet/verdict, read as the ledger's TEXT; an
+// unknown word gets a style of its own) has its own Okabe-Ito colour and its
+// own filled shape. The
 // same ledger and options give byte-identical files. Write returns a
 // Summary with the number of markers drawn per plot and status and the
 // number of stars left out for want of values, which the page states too.

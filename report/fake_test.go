@@ -113,7 +113,7 @@ func (f *fakeSource) Crossings(ctx context.Context, runID int64, fn func(db.Cros
 // nan is a missing value.
 var nan = math.NaN()
 
-func verdict(run int64, id, status string) db.VerdictRow {
+func verdictRow(run int64, id, status string) db.VerdictRow {
 	v := db.VerdictRow{RunID: run, StarID: id, Status: status, ComputedInRun: run,
 		SpeedP16Kms: nan, SpeedP50Kms: nan, SpeedP84Kms: nan, SpeedLowerP50Kms: nan, RGCKpc: nan, VEscKms: nan,
 		PUnbound: nan, PUnboundLower: nan, PGCOrigin: nan, GCConsistency: nan, FlightTimeMyr: nan}
@@ -160,33 +160,33 @@ func fixture(model string) *fakeSource {
 	}
 	var vs []db.VerdictRow
 	add := func(v db.VerdictRow) { vs = append(vs, v) }
-	add(moving(verdict(2, "B1", "bound"), 200, 250, 300, 8.5, 550, 0, model))
-	add(moving(verdict(2, "B2", "bound"), 300, 350, 400, 12, 520, 0.02, model))
-	add(moving(verdict(2, "B3", "bound"), 380, 420, 470, 20, 480, 0.1, model))
-	add(moving(verdict(2, "B4", "bound"), 150, 200, 260, 9, 545, nan, model))
-	m1 := moving(verdict(2, "M1", "marginal"), 420, 500, 600, 15, 500, 0.6, model)
+	add(moving(verdictRow(2, "B1", "bound"), 200, 250, 300, 8.5, 550, 0, model))
+	add(moving(verdictRow(2, "B2", "bound"), 300, 350, 400, 12, 520, 0.02, model))
+	add(moving(verdictRow(2, "B3", "bound"), 380, 420, 470, 20, 480, 0.1, model))
+	add(moving(verdictRow(2, "B4", "bound"), 150, 200, 260, 9, 545, nan, model))
+	m1 := moving(verdictRow(2, "M1", "marginal"), 420, 500, 600, 15, 500, 0.6, model)
 	m1.Origin, m1.GCConsistency, m1.FlightTimeMyr = "disk", 0.2, 40
 	add(m1)
-	add(moving(verdict(2, "M2", "marginal"), 400, 480, 560, 25, 460, 0.56, model))
-	n1 := verdict(2, "N1", "needs-rv")
+	add(moving(verdictRow(2, "M2", "marginal"), 400, 480, 560, 25, 460, 0.56, model))
+	n1 := verdictRow(2, "N1", "needs-rv")
 	n1.RGCKpc, n1.VEscKms, n1.ModelName = 10, 530, model
 	add(n1)
-	n2 := verdict(2, "N2", "needs-rv")
+	n2 := verdictRow(2, "N2", "needs-rv")
 	n2.RGCKpc, n2.VEscKms, n2.ModelName = 30, 440, model
 	add(n2)
 	for i := 1; i <= 5; i++ {
-		add(verdict(2, fmt.Sprintf("R%d", i), "rejected"))
+		add(verdictRow(2, fmt.Sprintf("R%d", i), "rejected"))
 	}
-	u1 := moving(verdict(2, "U1", "unbound"), 900, 1000, 1100, 50, 380, 0.99, model)
+	u1 := moving(verdictRow(2, "U1", "unbound"), 900, 1000, 1100, 50, 380, 0.99, model)
 	u1.Origin, u1.GCConsistency, u1.FlightTimeMyr = "galactic-centre", 0.8, 55
 	add(u1)
-	u2 := moving(verdict(2, "U2", "unbound"), 700, 750, 800, 30, 430, 0.97, model)
+	u2 := moving(verdictRow(2, "U2", "unbound"), 700, 750, 800, 30, 430, 0.97, model)
 	u2.Origin, u2.GCConsistency, u2.FlightTimeMyr = "galactic-centre", 0.5, 42
 	add(u2)
-	u3 := moving(verdict(2, "U3", "unbound"), 650, 700, 760, 40, 400, 0.97, model)
+	u3 := moving(verdictRow(2, "U3", "unbound"), 650, 700, 760, 40, 400, 0.97, model)
 	u3.ComputedInRun = 1
 	add(u3)
-	add(verdict(2, "W1", "withdrawn"))
+	add(verdictRow(2, "W1", "withdrawn"))
 	f.verdicts = map[int64][]db.VerdictRow{2: vs}
 
 	// Reasons of the rejected stars (run 2 computed them), plus a carried

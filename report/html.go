@@ -11,6 +11,7 @@ import (
 
 	"starvet/db"
 	"starvet/internal/vec"
+	"starvet/verdict"
 )
 
 type countRow struct {
@@ -74,7 +75,7 @@ func stamp(t time.Time) string {
 func candidates(d *data) []candRow {
 	var cs []*star
 	for i := range d.stars {
-		if st := d.stars[i].Status; st == "unbound" || st == "marginal" {
+		if st := d.stars[i].Status; st == string(verdict.Unbound) || st == string(verdict.Marginal) {
 			cs = append(cs, &d.stars[i])
 		}
 	}

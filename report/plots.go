@@ -17,6 +17,7 @@ import (
 	"starvet/galaxy/potential"
 	"starvet/internal/units"
 	"starvet/internal/vec"
+	"starvet/verdict"
 )
 
 var (
@@ -82,7 +83,7 @@ func speedPlot(d *data) (*PlotSummary, []byte, error) {
 	for i := range d.stars {
 		s := &d.stars[i]
 		if !vec.Finite(s.SpeedP50Kms) || !(s.RGCKpc > 0) || math.IsInf(s.RGCKpc, 0) {
-			if s.Status != "rejected" && s.Status != "withdrawn" {
+			if s.Status != string(verdict.Rejected) && s.Status != string(verdict.Withdrawn) {
 				omitted[s.Status]++
 			}
 			continue

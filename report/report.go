@@ -11,6 +11,7 @@ import (
 
 	"starvet/db"
 	"starvet/galaxy/frames"
+	"starvet/verdict"
 )
 
 // ComponentsModel is the model name a verdict carries when the campaign
@@ -244,7 +245,7 @@ func (d *data) gatherReasons(ctx context.Context, src Source) error {
 	byRule := map[string]*reasonCount{}
 	for i := range d.stars {
 		s := &d.stars[i]
-		if s.Status != "rejected" {
+		if s.Status != string(verdict.Rejected) {
 			continue
 		}
 		if i%1024 == 0 {

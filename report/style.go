@@ -7,14 +7,27 @@ import (
 
 	"gonum.org/v1/plot/vg"
 	"gonum.org/v1/plot/vg/draw"
+
+	"starvet/verdict"
 )
+
+// The report reads statuses as the ledger stores them (TEXT, possibly a word
+// this version does not know), so it keys them by string.
 
 // Statuses in drawing order: the rarest and most interesting last, so they
 // sit on top.
-var drawOrder = []string{"rejected", "withdrawn", "needs-rv", "bound", "marginal", "unbound"}
+var drawOrder = words(verdict.Rejected, verdict.Withdrawn, verdict.NeedsRV, verdict.Bound, verdict.Marginal, verdict.Unbound)
 
 // tableOrder is the order of the status counts table.
-var tableOrder = []string{"unbound", "marginal", "bound", "needs-rv", "rejected", "withdrawn"}
+var tableOrder = words(verdict.All()...)
+
+func words(ss ...verdict.Status) []string {
+	out := make([]string, len(ss))
+	for i, s := range ss {
+		out[i] = string(s)
+	}
+	return out
+}
 
 type statusStyle struct {
 	Color  color.RGBA
@@ -29,12 +42,12 @@ type statusStyle struct {
 // shape so colour is never the only cue. Each fill colour is used by one
 // status only: the tests count markers by it.
 var styles = map[string]statusStyle{
-	"unbound":   {rgb(0xD5, 0x5E, 0x00), polyGlyph(triangleUp), 3.2, "vermillion triangle"},
-	"marginal":  {rgb(0xE6, 0x9F, 0x00), polyGlyph(diamond), 3.2, "orange diamond"},
-	"bound":     {rgb(0x00, 0x72, 0xB2), draw.CircleGlyph{}, 2.4, "blue circle"},
-	"needs-rv":  {rgb(0x00, 0x9E, 0x73), polyGlyph(triangleDown), 2.4, "bluish-green inverted triangle"},
-	"rejected":  {rgb(0xA0, 0xA0, 0xA0), draw.BoxGlyph{}, 1.0, "grey square"},
-	"withdrawn": {rgb(0xCC, 0x79, 0xA7), polyGlyph(plus), 2.6, "reddish-purple plus"},
+	string(verdict.Unbound):   {rgb(0xD5, 0x5E, 0x00), polyGlyph(triangleUp), 3.2, "vermillion triangle"},
+	string(verdict.Marginal):  {rgb(0xE6, 0x9F, 0x00), polyGlyph(diamond), 3.2, "orange diamond"},
+	string(verdict.Bound):     {rgb(0x00, 0x72, 0xB2), draw.CircleGlyph{}, 2.4, "blue circle"},
+	string(verdict.NeedsRV):   {rgb(0x00, 0x9E, 0x73), polyGlyph(triangleDown), 2.4, "bluish-green inverted triangle"},
+	string(verdict.Rejected):  {rgb(0xA0, 0xA0, 0xA0), draw.BoxGlyph{}, 1.0, "grey square"},
+	string(verdict.Withdrawn): {rgb(0xCC, 0x79, 0xA7), polyGlyph(plus), 2.6, "reddish-purple plus"},
 }
 
 // otherStyle is for a status word this version does not know.

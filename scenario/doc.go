@@ -35,7 +35,8 @@
 // campaign.toml with the new file names and release labels, and the new
 // truth; s.Changed lists the primary ids whose inputs changed.
 //
-// Score(truth, verdicts) compares final statuses and origins, keyed by
+// Score(truth, verdicts) compares final statuses (verdict.Status) and
+// origins (orbit.Origin, also the words of truth.csv's origin_true), keyed by
 // primary id, with the truth: completeness over injected, truly unbound
 // stars with adequate data whose speed exceeds the escape speed by at least
 // DecidableSigma times the uncertainty their errors imply (speedMargin, a

@@ -8,6 +8,7 @@ import (
 	"path/filepath"
 	"sort"
 
+	"starvet/galaxy/orbit"
 	"starvet/internal/units"
 )
 
@@ -68,7 +69,7 @@ type TruthRow struct {
 	Decidable         bool
 	Trap              string // "" or a Trap* label
 	Artefact          bool   // must not end "unbound"
-	OriginTrue        string
+	OriginTrue        orbit.Origin
 	FlightTimeMyrTrue float64 // NaN unless ejected or kicked
 	VGCTrueKms        float64 // true Galactocentric speed
 	VEscTrueKms       float64 // model escape speed at the true position

@@ -6,6 +6,7 @@ import (
 	"math/rand/v2"
 
 	"starvet/galaxy/frames"
+	"starvet/galaxy/orbit"
 	"starvet/internal/units"
 )
 
@@ -30,12 +31,10 @@ const (
 	TrapBadValue  = "bad_value"  // row with an impossible value
 )
 
-// True origins written to truth.csv.
-const (
-	OriginGalacticCentre = "galactic-centre"
-	OriginDisk           = "disk"
-	OriginHalo           = "halo"
-)
+// OriginHalo is the true origin, written to truth.csv, of the halo stars.
+// The other true origins are the back-trace's own words (orbit.OriginGC,
+// orbit.OriginDisk); no trace gives this one.
+const OriginHalo orbit.Origin = "halo"
 
 // star is one source of the primary catalog, with its true phase-space
 // coordinates and what was observed of it.
@@ -44,7 +43,7 @@ type star struct {
 	pop       string
 	trap      string
 	artefact  bool
-	origin    string
+	origin    orbit.Origin
 	flightMyr float64 // NaN unless ejected or kicked
 
 	posKpc, velKms [3]float64 // true, Galactocentric
@@ -164,7 +163,7 @@ func rotation(x [3]float64) (eR, ePhi [3]float64) {
 
 func (s *sampler) diskStar(p diskParams) *star {
 	x := s.diskPosition(p.scaleLenKpc, p.scaleHeightKpc, 0.2, 25)
-	return &star{pop: p.pop, origin: OriginDisk, flightMyr: math.NaN(), posKpc: x, velKms: s.diskVelocity(p, x),
+	return &star{pop: p.pop, origin: orbit.OriginDisk, flightMyr: math.NaN(), posKpc: x, velKms: s.diskVelocity(p, x),
 		absMag: clamp(p.absMagMean+p.absMagSD*s.rng.NormFloat64(), -3, 12),
 		color:  p.colorMean + p.colorSD*s.rng.NormFloat64()}
 }
@@ -252,7 +251,7 @@ func (s *sampler) gcEjectee() (*star, error) {
 		e := s.isotropic()
 		v := [3]float64{v0 * e[0], v0 * e[1], v0 * e[2]}
 		tf := s.uniform(10, 250)
-		st := &star{pop: PopGCEjectee, origin: OriginGalacticCentre, flightMyr: tf,
+		st := &star{pop: PopGCEjectee, origin: orbit.OriginGC, flightMyr: tf,
 			absMag: s.uniform(-1.5, 1.5), color: -0.15 + 0.08*s.rng.NormFloat64()}
 		st.launchPos, st.launchVel = x, v
 		st.posKpc, st.velKms = s.g.advance(x, v, tf)
@@ -277,7 +276,7 @@ func (s *sampler) diskRunaway() (*star, error) {
 			v[i] = vc*ePhi[i] + k*e[i]
 		}
 		tf := s.uniform(5, 60)
-		st := &star{pop: PopDiskRunaway, origin: OriginDisk, flightMyr: tf,
+		st := &star{pop: PopDiskRunaway, origin: orbit.OriginDisk, flightMyr: tf,
 			absMag: s.uniform(-3, 0.5), color: -0.2 + 0.08*s.rng.NormFloat64()}
 		st.launchPos, st.launchVel = x, v
 		st.posKpc, st.velKms = s.g.advance(x, v, tf)

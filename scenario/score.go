@@ -10,17 +10,19 @@ import (
 	"sort"
 	"strconv"
 	"strings"
+
+	"starvet/galaxy/orbit"
+	"starvet/verdict"
 )
 
 // Verdict is what the pipeline concluded about one primary star.
-type Verdict struct{ Status, Origin string }
+type Verdict struct {
+	Status verdict.Status
+	Origin orbit.Origin
+}
 
-// Status and origin words scored here (the pipeline's vocabulary).
+// Targets the demo's recovery figures must meet.
 const (
-	StatusUnbound       = "unbound"
-	StatusNeedsRV       = "needs-rv"
-	StatusRejected      = "rejected"
-	OriginWordGalCentre = "galactic-centre"
 	TargetCompleteness  = 0.95
 	TargetContamination = 0.02
 )
@@ -116,10 +118,10 @@ func Score(truth []TruthRow, verdicts map[string]Verdict) Figures {
 	for _, t := range truth {
 		known[t.StarID] = true
 		v, ok := verdicts[t.StarID]
-		unbound := ok && v.Status == StatusUnbound
+		unbound := ok && v.Status == verdict.Unbound
 		if t.Trap == TrapBadValue {
 			f.NBadRows++
-			if ok && v.Status != StatusRejected {
+			if ok && v.Status != verdict.Rejected {
 				f.BadRowsKept++
 			}
 		} else if !ok {
@@ -149,14 +151,14 @@ func Score(truth []TruthRow, verdicts map[string]Verdict) Figures {
 			}
 			if t.Population == PopGCEjectee {
 				f.NOriginDenominator++
-				if v.Origin == OriginWordGalCentre {
+				if v.Origin == orbit.OriginGC {
 					originHits++
 				}
 			}
 		}
 		if t.Trap == TrapHighPM && t.HasSpectrum {
 			f.NHighPM++
-			if ok && v.Status != StatusNeedsRV {
+			if ok && v.Status != verdict.NeedsRV {
 				hpmHits++
 			}
 		}
@@ -164,7 +166,7 @@ func Score(truth []TruthRow, verdicts map[string]Verdict) Figures {
 	for id, v := range verdicts {
 		if !known[id] {
 			f.Unknown++
-			if v.Status == StatusUnbound {
+			if v.Status == verdict.Unbound {
 				f.NUnbound++
 				f.NContaminating++
 			}
@@ -266,7 +268,7 @@ func readTruth(r io.Reader, name string) ([]TruthRow, error) {
 		t := TruthRow{
 			StarID: str("star_id"), Population: str("population"), TrulyUnbound: flag("truly_unbound"),
 			AdequateData: flag("adequate_data"), MarginSigma: num("margin_sigma"), Decidable: flag("decidable"), Trap: str("trap"), Artefact: flag("artefact"),
-			OriginTrue: str("origin_true"), FlightTimeMyrTrue: num("flight_time_myr_true"),
+			OriginTrue: orbit.Origin(str("origin_true")), FlightTimeMyrTrue: num("flight_time_myr_true"),
 			VGCTrueKms: num("v_gc_true_kms"), VEscTrueKms: num("v_esc_true_kms"), DistTrueKpc: num("dist_true_kpc"),
 			PosKpc:      [3]float64{num("x_kpc"), num("y_kpc"), num("z_kpc")},
 			VelKms:      [3]float64{num("vx_kms"), num("vy_kms"), num("vz_kms")},

@@ -7,6 +7,9 @@ import (
 	"path/filepath"
 	"strings"
 	"testing"
+
+	"starvet/galaxy/orbit"
+	"starvet/verdict"
 )
 
 // handTruth is a small hand-made truth table.
@@ -47,10 +50,10 @@ func TestScore(t *testing.T) {
 		}
 	}
 	perfect := map[string]Verdict{
-		"gc1": {StatusUnbound, "galactic-centre"}, "gc2": {StatusUnbound, "galactic-centre"},
-		"gc3": {StatusNeedsRV, ""}, "gc4": {"bound", "galactic-centre"}, "run1": {StatusUnbound, "disk"},
-		"fast1": {"bound", "untraced"}, "bin1": {StatusRejected, ""}, "dup1": {StatusRejected, ""},
-		"hpm1": {"bound", "disk"}, "back1": {"rejected", ""}, "run2": {"marginal", ""},
+		"gc1": {verdict.Unbound, orbit.OriginGC}, "gc2": {verdict.Unbound, orbit.OriginGC},
+		"gc3": {verdict.NeedsRV, ""}, "gc4": {verdict.Bound, orbit.OriginGC}, "run1": {verdict.Unbound, orbit.OriginDisk},
+		"fast1": {verdict.Bound, orbit.OriginUntraced}, "bin1": {verdict.Rejected, ""}, "dup1": {verdict.Rejected, ""},
+		"hpm1": {verdict.Bound, orbit.OriginDisk}, "back1": {verdict.Rejected, ""}, "run2": {verdict.Marginal, ""},
 	}
 	with := func(changes map[string]Verdict, drop ...string) map[string]Verdict {
 		m := map[string]Verdict{}
@@ -77,19 +80,19 @@ func TestScore(t *testing.T) {
 		meets                      bool
 	}{
 		{name: "perfect", verdicts: perfect, compl: 1, contam: 0, origin: 1, hpm: 1, nUnbound: 3, meets: true},
-		{name: "one miss", verdicts: with(map[string]Verdict{"gc2": {"marginal", ""}}),
+		{name: "one miss", verdicts: with(map[string]Verdict{"gc2": {verdict.Marginal, ""}}),
 			compl: 2.0 / 3, contam: 0, origin: 1, hpm: 1, nUnbound: 2},
-		{name: "artefact unbound", verdicts: with(map[string]Verdict{"bin1": {StatusUnbound, "untraced"}}),
+		{name: "artefact unbound", verdicts: with(map[string]Verdict{"bin1": {verdict.Unbound, orbit.OriginUntraced}}),
 			compl: 1, contam: 0.25, origin: 1, hpm: 1, nUnbound: 4, nContam: 1, traps: map[string]int{TrapBinary: 1}},
-		{name: "bound fast star unbound", verdicts: with(map[string]Verdict{"fast1": {StatusUnbound, "untraced"}}),
+		{name: "bound fast star unbound", verdicts: with(map[string]Verdict{"fast1": {verdict.Unbound, orbit.OriginUntraced}}),
 			compl: 1, contam: 0.25, origin: 1, hpm: 1, nUnbound: 4, nContam: 1, bound: map[string]int{PopHaloFast: 1}},
-		{name: "bound ejectee unbound, wrong origin", verdicts: with(map[string]Verdict{"gc4": {StatusUnbound, "disk"}}),
+		{name: "bound ejectee unbound, wrong origin", verdicts: with(map[string]Verdict{"gc4": {verdict.Unbound, orbit.OriginDisk}}),
 			compl: 1, contam: 0.25, origin: 2.0 / 3, hpm: 1, nUnbound: 4, nContam: 1, bound: map[string]int{PopGCEjectee: 1}},
-		{name: "wrong origin", verdicts: with(map[string]Verdict{"gc1": {StatusUnbound, "untraced"}}),
+		{name: "wrong origin", verdicts: with(map[string]Verdict{"gc1": {verdict.Unbound, orbit.OriginUntraced}}),
 			compl: 1, contam: 0, origin: 0.5, hpm: 1, nUnbound: 3, meets: true},
-		{name: "unknown id unbound", verdicts: with(map[string]Verdict{"ghost": {StatusUnbound, ""}}),
+		{name: "unknown id unbound", verdicts: with(map[string]Verdict{"ghost": {verdict.Unbound, ""}}),
 			compl: 1, contam: 0.25, origin: 1, hpm: 1, nUnbound: 4, nContam: 1, unknown: 1},
-		{name: "bad row kept and high-pm unmatched", verdicts: with(map[string]Verdict{"bad1": {"bound", ""}, "hpm1": {StatusNeedsRV, ""}}),
+		{name: "bad row kept and high-pm unmatched", verdicts: with(map[string]Verdict{"bad1": {verdict.Bound, ""}, "hpm1": {verdict.NeedsRV, ""}}),
 			compl: 1, contam: 0, origin: 1, hpm: 0, nUnbound: 3, badKept: 1, meets: true},
 		{name: "missing verdicts", verdicts: with(nil, "gc1", "back1"),
 			compl: 2.0 / 3, contam: 0, origin: 1, hpm: 1, nUnbound: 2, missing: 2},
@@ -150,21 +153,21 @@ func TestScoreOracle(t *testing.T) {
 	oracle := map[string]Verdict{}
 	all := map[string]Verdict{}
 	for _, r := range s.Truth {
-		all[r.StarID] = Verdict{Status: StatusUnbound}
+		all[r.StarID] = Verdict{Status: verdict.Unbound}
 		if r.Trap == TrapBadValue {
 			continue
 		}
-		v := Verdict{Status: "bound", Origin: "untraced"}
+		v := Verdict{Status: verdict.Bound, Origin: orbit.OriginUntraced}
 		switch {
 		case r.Artefact:
-			v.Status = StatusRejected
+			v.Status = verdict.Rejected
 		case !r.AdequateData:
-			v.Status = StatusNeedsRV
+			v.Status = verdict.NeedsRV
 		case r.TrulyUnbound:
-			v.Status = StatusUnbound
+			v.Status = verdict.Unbound
 		}
-		if r.OriginTrue == OriginGalacticCentre {
-			v.Origin = "galactic-centre"
+		if r.OriginTrue == orbit.OriginGC {
+			v.Origin = orbit.OriginGC
 		}
 		oracle[r.StarID] = v
 	}

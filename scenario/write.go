@@ -174,7 +174,7 @@ func writeTruth(path string, rows []TruthRow) error {
 	cw.row(truthHeader)
 	for _, r := range rows {
 		cw.row([]string{r.StarID, r.Population, strconv.FormatBool(r.TrulyUnbound), strconv.FormatBool(r.AdequateData),
-			fg(r.MarginSigma), strconv.FormatBool(r.Decidable), r.Trap, strconv.FormatBool(r.Artefact), r.OriginTrue, fg(r.FlightTimeMyrTrue), fg(r.VGCTrueKms),
+			fg(r.MarginSigma), strconv.FormatBool(r.Decidable), r.Trap, strconv.FormatBool(r.Artefact), string(r.OriginTrue), fg(r.FlightTimeMyrTrue), fg(r.VGCTrueKms),
 			fg(r.VEscTrueKms), fg(r.DistTrueKpc), fg(r.PosKpc[0]), fg(r.PosKpc[1]), fg(r.PosKpc[2]),
 			fg(r.VelKms[0]), fg(r.VelKms[1]), fg(r.VelKms[2]), strconv.FormatBool(r.InFootprint),
 			strconv.FormatBool(r.HasSpectrum), r.SpecID})

@@ -19,6 +19,7 @@ import (
 
 	"starvet/campaign"
 	"starvet/internal/units"
+	"starvet/verdict"
 )
 
 // End-to-end benchmarks of Engine.Run on an invented all-sky campaign of
@@ -379,10 +380,10 @@ func reportRun(b *testing.B, sums []*Summary, clocks []*stageClock, growthBytes 
 	for _, s := range sums {
 		computed += s.Computed
 		carried += s.Carried
-		unbound += s.Counts[StatusUnbound]
-		marginal += s.Counts[StatusMarginal]
-		needsRV += s.Counts[StatusNeedsRV]
-		rejected += s.Counts[StatusRejected]
+		unbound += s.Counts[verdict.Unbound]
+		marginal += s.Counts[verdict.Marginal]
+		needsRV += s.Counts[verdict.NeedsRV]
+		rejected += s.Counts[verdict.Rejected]
 	}
 	b.ReportMetric(float64(computed)/n, "computed/op")
 	b.ReportMetric(float64(carried)/n, "carried/op")

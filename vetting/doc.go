@@ -20,8 +20,18 @@
 // Galactocentric frame of starvet/galaxy/frames (x from the Sun toward the
 // centre, y along rotation, z toward the north Galactic pole); times in Myr.
 //
-// Statuses: rejected (a reject rule failed, or the kinematics could not be
-// computed), needs-rv, bound, marginal, unbound and withdrawn. An unbound
+// Run, in steps (one file each): settings.go builds the run's settings once
+// from the campaign and RunOptions; run.go ingests, matches and hashes while
+// the previous complete run's state is read; plan.go decides, without the
+// ledger, which stars to compute, carry or withdraw; compute.go runs
+// quality, Monte Carlo and tracing for the stars to compute; verdict.go
+// turns the result into a status and reasons; write.go writes the batches
+// (overlapping the next batch's computation) and closes the run.
+//
+// Statuses (the words of starvet/verdict, stored as TEXT): rejected (a
+// reject rule failed, or the kinematics could not be computed), needs-rv,
+// bound, marginal (p_unbound at or above the campaign's marginal level),
+// unbound (at or above its unbound level) and withdrawn. An unbound
 // verdict depends on the adopted potential and Solar parameters and marks a
 // candidate for follow-up, not a discovery.
 //

@@ -6,7 +6,9 @@ import (
 	"testing"
 
 	"starvet/db"
+	"starvet/galaxy/orbit"
 	"starvet/scenario"
+	"starvet/verdict"
 )
 
 // TestRecoveryOnSmallScenarios runs the demo's job (generate, run, update,
@@ -41,7 +43,7 @@ func TestRecoveryOnSmallScenarios(t *testing.T) {
 			t.Fatal(err)
 		}
 		err = l.List(context.Background(), db.ListFilter{Run: s2.RunID}, func(v db.VerdictRow) error {
-			verdicts[v.StarID] = scenario.Verdict{Status: v.Status, Origin: v.Origin}
+			verdicts[v.StarID] = scenario.Verdict{Status: verdict.Status(v.Status), Origin: orbit.Origin(v.Origin)}
 			return nil
 		})
 		l.Close()

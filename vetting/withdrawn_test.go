@@ -6,6 +6,8 @@ import (
 	"os"
 	"strings"
 	"testing"
+
+	"starvet/verdict"
 )
 
 // dropRows rewrites a gzipped CSV without the rows whose first cell is in ids.
@@ -59,24 +61,24 @@ func TestWithdrawn(t *testing.T) {
 	dropRows(t, sc.AstrometryPath, gone)
 
 	s2 := runCampaign(t, sc.CampaignPath, ledger, false)
-	if s2.Counts[StatusWithdrawn] != len(gone) {
-		t.Fatalf("run 2: %d withdrawn, want %d (counts %v)", s2.Counts[StatusWithdrawn], len(gone), s2.Counts)
+	if s2.Counts[verdict.Withdrawn] != len(gone) {
+		t.Fatalf("run 2: %d withdrawn, want %d (counts %v)", s2.Counts[verdict.Withdrawn], len(gone), s2.Counts)
 	}
 	v2 := verdictsOf(t, ledger, s2.RunID)
 	if len(v2) != len(before) {
 		t.Fatalf("run 2 has %d verdicts, run 1 had %d: every star keeps a verdict", len(v2), len(before))
 	}
 	for id := range gone {
-		if v2[id].Status != StatusWithdrawn {
+		if v2[id].Status != string(verdict.Withdrawn) {
 			t.Errorf("run 2: %s is %q, want withdrawn", id, v2[id].Status)
 		}
-		if n := s2.Transitions[before[id].Status+" -> "+StatusWithdrawn]; n == 0 {
+		if n := s2.Transitions[before[id].Status+" -> "+string(verdict.Withdrawn)]; n == 0 {
 			t.Errorf("run 2: no transition %s -> withdrawn counted", before[id].Status)
 		}
 	}
 	s3 := runCampaign(t, sc.CampaignPath, ledger, false)
-	if s3.Computed != 0 || s3.Counts[StatusWithdrawn] != len(gone) {
-		t.Fatalf("run 3: computed %d, withdrawn %d; want 0 and %d", s3.Computed, s3.Counts[StatusWithdrawn], len(gone))
+	if s3.Computed != 0 || s3.Counts[verdict.Withdrawn] != len(gone) {
+		t.Fatalf("run 3: computed %d, withdrawn %d; want 0 and %d", s3.Computed, s3.Counts[verdict.Withdrawn], len(gone))
 	}
 	if after := verdictsOf(t, ledger, s1.RunID); len(after) != len(before) {
 		t.Fatalf("run 1 changed: %d verdicts, had %d", len(after), len(before))

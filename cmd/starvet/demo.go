@@ -9,8 +9,10 @@ import (
 
 	"starvet/campaign"
 	"starvet/db"
+	"starvet/galaxy/orbit"
 	"starvet/report"
 	"starvet/scenario"
+	"starvet/verdict"
 	"starvet/vetting"
 )
 
@@ -87,7 +89,7 @@ func runDemo(ctx context.Context, env *Env, args []string) error {
 	defer l.Close()
 	verdicts := map[string]scenario.Verdict{}
 	if err := l.List(ctx, db.ListFilter{Run: second.RunID}, func(v db.VerdictRow) error {
-		verdicts[v.StarID] = scenario.Verdict{Status: v.Status, Origin: v.Origin}
+		verdicts[v.StarID] = scenario.Verdict{Status: verdict.Status(v.Status), Origin: orbit.Origin(v.Origin)}
 		return nil
 	}); err != nil {
 		return err

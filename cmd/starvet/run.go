@@ -8,6 +8,7 @@ import (
 	"time"
 
 	"starvet/campaign"
+	"starvet/verdict"
 	"starvet/vetting"
 )
 
@@ -56,7 +57,7 @@ func printSummary(w io.Writer, s *vetting.Summary) {
 	}
 	fmt.Fprintln(w)
 	fmt.Fprintf(w, "status counts (model %s):\n", s.ModelName)
-	for _, st := range vetting.AllStatuses() {
+	for _, st := range verdict.All() {
 		if n := s.Counts[st]; n > 0 {
 			fmt.Fprintf(w, "  %-10s %d\n", st, n)
 		}
@@ -76,7 +77,7 @@ func printSummary(w io.Writer, s *vetting.Summary) {
 		}
 	}
 	fmt.Fprintf(w, "rows quarantined: %d\n", s.Quarantined)
-	if s.Counts[vetting.StatusUnbound] > 0 {
+	if s.Counts[verdict.Unbound] > 0 {
 		fmt.Fprintln(w, "note: \"unbound\" depends on the adopted potential and Solar parameters; these are candidates for follow-up, not discoveries.")
 	}
 }

@@ -91,7 +91,7 @@ func BenchmarkTrace1000x200(b *testing.B) {
 		res = TraceAll(context.Background(), p, stars, s, runtime.GOMAXPROCS(0))
 	}
 	b.StopTimer()
-	counts := map[string]int{}
+	counts := map[Origin]int{}
 	for _, r := range res {
 		counts[r.Origin]++
 	}

@@ -12,9 +12,10 @@
 // dynamical time, one force evaluation per step. Trace integrates each
 // sample backward and reports the first crossing of z = 0 (x, y in kpc,
 // time before now in Myr), the closest approach to the centre, the flight
-// time and an origin verdict: "galactic-centre", "disk", "outer" or
-// "untraced" (see Trace). The stored centre figure GCConsistency is the
-// containment level 1 - exp(-D^2/2) of the centre, D its Mahalanobis
-// distance from the crossings. TraceAll spreads stars over worker
+// time and an origin verdict of type Origin: "galactic-centre", "disk",
+// "outer" or "untraced" (see Trace). The stored centre figure GCConsistency
+// is the containment level 1 - exp(-D^2/2) of the centre, D its Mahalanobis
+// distance from the crossings; at most GCConsistencyLevel means a centre
+// origin. TraceAll spreads stars over worker
 // goroutines (default runtime.GOMAXPROCS(0)).
 package orbit

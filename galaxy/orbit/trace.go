@@ -14,20 +14,24 @@ import (
 	"starvet/internal/vec"
 )
 
+// Origin is where a back-trace places a star's birth: one of the Origin
+// constants. The words are stored as TEXT in the ledger.
+type Origin string
+
 // Origin verdicts stored in TraceResult.Origin.
 const (
-	// OriginGC: the Galactic Centre lies inside the 95 per cent region of the
-	// plane crossings.
-	OriginGC = "galactic-centre"
+	// OriginGC: the Galactic Centre lies inside the GCConsistencyLevel
+	// (95 per cent) region of the plane crossings.
+	OriginGC Origin = "galactic-centre"
 	// OriginDisk: the centre is excluded at 95 per cent and most crossings
 	// fall inside DiskRadiusKpc.
-	OriginDisk = "disk"
+	OriginDisk Origin = "disk"
 	// OriginOuter: the centre is excluded and most crossings lie beyond
 	// DiskRadiusKpc.
-	OriginOuter = "outer"
+	OriginOuter Origin = "outer"
 	// OriginUntraced: fewer than half of the samples cross the plane within
 	// the trace time (or there are no samples).
-	OriginUntraced = "untraced"
+	OriginUntraced Origin = "untraced"
 )
 
 // Defaults for TraceSettings.
@@ -35,8 +39,11 @@ const (
 	DefaultTraceMyr      = 300.0
 	DefaultGCRadiusKpc   = 1.0
 	DefaultDiskRadiusKpc = 25.0
-	// gcLevel is the containment level of the region tested for the centre.
-	gcLevel = 0.95
+	// GCConsistencyLevel is the containment level of the region of the
+	// plane crossings tested for the centre: a star whose GCConsistency is
+	// at most this level has origin OriginGC (common practice: a 95 per
+	// cent region).
+	GCConsistencyLevel = 0.95
 )
 
 // TraceSettings controls Trace. Zero fields take the defaults.
@@ -91,7 +98,7 @@ type TraceResult struct {
 	// degrees of freedom, Gaussian approximation). The centre lies inside the
 	// 95 per cent region when P <= 0.95. NaN without crossings.
 	GCConsistency float64
-	Origin        string // one of the Origin constants
+	Origin        Origin
 
 	FlightTimeMyr      float64 // median crossing time over crossed samples; NaN if none
 	ClosestApproachKpc float64 // median over valid samples; NaN if none
@@ -217,7 +224,7 @@ func Trace(p potential.Potential, pos, vel [][3]float64, s TraceSettings) TraceR
 	switch {
 	case 2*nc < n:
 		res.Origin = OriginUntraced
-	case res.GCConsistency <= gcLevel:
+	case res.GCConsistency <= GCConsistencyLevel:
 		res.Origin = OriginGC
 	case 2*nDisk > nc:
 		res.Origin = OriginDisk

@@ -58,7 +58,7 @@ func TestTraceOrigins(t *testing.T) {
 		x, v    [3]float64
 		sx, sv  float64
 		set     TraceSettings
-		origin  string
+		origin  Origin
 		flight  float64 // expected median flight time, Myr (NaN: none)
 		crossXY [2]float64
 		xyTol   float64
