@@ -16,5 +16,5 @@
 // "untraced" (see Trace). The stored centre figure GCConsistency is the
 // containment level 1 - exp(-D^2/2) of the centre, D its Mahalanobis
 // distance from the crossings. TraceAll spreads stars over worker
-// goroutines (default runtime.GOMAXPROCS(0)).
+// goroutines (internal/parallel; default GOMAXPROCS).
 package orbit
