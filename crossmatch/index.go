@@ -4,12 +4,12 @@ import (
 	"context"
 	"fmt"
 	"math"
-	"runtime"
 	"slices"
 
 	"github.com/tidwall/rtree"
 
 	"starvet/crossmatch/sky"
+	"starvet/internal/parallel"
 	"starvet/internal/units"
 )
 
@@ -69,16 +69,13 @@ type hit struct {
 // a NaN coordinate are left out (Indexed reports how many went in). ra may be
 // any finite angle (it is reduced to [0, 360)); dec must lie in [-90, 90]
 // or NewIndex fails naming the row. Zones are built by up to workers
-// goroutines (workers <= 0 means runtime.GOMAXPROCS(0)).
+// goroutines (parallel.Workers: <= 0 means GOMAXPROCS).
 func NewIndex(ctx context.Context, raDeg, decDeg []float64, workers int) (*Index, error) {
 	if len(raDeg) != len(decDeg) {
 		panic("crossmatch: NewIndex with ra and dec of different lengths")
 	}
 	if len(raDeg) > math.MaxInt32 {
 		return nil, fmt.Errorf("index: %d rows exceed the int32 row limit", len(raDeg))
-	}
-	if workers <= 0 {
-		workers = runtime.GOMAXPROCS(0)
 	}
 	for i := range raDeg {
 		ra, dec := raDeg[i], decDeg[i]
@@ -99,12 +96,12 @@ func newIndex(ctx context.Context, pos func(int) (raDeg, decDeg float64), keys [
 	order, zoneStart := spatialOrder(keys)
 	m := len(order)
 	ix := &Index{pts: make([]point, m), row: order, n: len(keys)}
-	if err := parallelBatches(ctx, (m+batchRows-1)/batchRows, workers, func(b int) {
-		for k := b * batchRows; k < min(m, (b+1)*batchRows); k++ {
+	if err := parallel.Batches(ctx, m, batchRows, workers, func(_ *struct{}, lo, hi int) {
+		for k := lo; k < hi; k++ {
 			ra, dec := pos(int(order[k]))
 			ix.pts[k] = point{normRA(ra), dec}
 		}
-	}); err != nil {
+	}, nil); err != nil {
 		return nil, err
 	}
 	// Run numbers of zone z start at runBase[z].
@@ -115,7 +112,7 @@ func newIndex(ctx context.Context, pos func(int) (raDeg, decDeg float64), keys [
 	ix.runStart = make([]int32, runBase[numZones]+1)
 	ix.runStart[runBase[numZones]] = int32(m)
 
-	err := parallelBatches(ctx, numZones, workers, func(z int) {
+	err := parallel.Batches(ctx, numZones, 1, workers, func(_ *struct{}, z, _ int) {
 		lo, hi := zoneStart[z], zoneStart[z+1]
 		if lo == hi {
 			return
@@ -134,7 +131,7 @@ func newIndex(ctx context.Context, pos func(int) (raDeg, decDeg float64), keys [
 			tr.Insert(bmin, bmax, int32(run))
 		}
 		ix.zones[z] = tr
-	})
+	}, nil)
 	if err != nil {
 		return nil, err
 	}

@@ -5,12 +5,11 @@ import (
 	"errors"
 	"fmt"
 	"math"
-	"runtime"
 	"slices"
-	"sync"
 	"sync/atomic"
 
 	"starvet/catalog"
+	"starvet/internal/parallel"
 	"starvet/internal/units"
 )
 
@@ -48,7 +47,8 @@ type Options struct {
 	// errors used for rows that have none of their own (0: no fallback, such
 	// rows are an error).
 	PrimaryPosErrMas, SecondaryPosErrMas float64
-	// Workers is the number of goroutines (default runtime.GOMAXPROCS(0)).
+	// Workers is the number of goroutines (parallel.Workers: <= 0 means
+	// GOMAXPROCS).
 	Workers int
 }
 
@@ -233,9 +233,7 @@ func (o *Options) normalize() error {
 	if o.AmbiguityRatio < 1 {
 		return bad("ambiguity ratio", o.AmbiguityRatio)
 	}
-	if o.Workers <= 0 {
-		o.Workers = runtime.GOMAXPROCS(0)
-	}
+	o.Workers = parallel.Workers(o.Workers)
 	return nil
 }
 
@@ -330,12 +328,11 @@ func prepare(ctx context.Context, t *catalog.Table, toJyr float64, move bool, fa
 		err                           error
 		errRow                        int
 	}
-	nb := (n + batchRows - 1) / batchRows
-	tallies := make([]tally, nb)
-	err := parallelBatches(ctx, nb, workers, func(b int) {
-		tl := &tallies[b]
+	tallies := make([]tally, (n+batchRows-1)/batchRows)
+	err := parallel.Batches(ctx, n, batchRows, workers, func(_ *struct{}, lo, hi int) {
+		tl := &tallies[lo/batchRows]
 		tl.errRow = -1
-		for i := b * batchRows; i < min(n, (b+1)*batchRows); i++ {
+		for i := lo; i < hi; i++ {
 			r, d := ra[i], dec[i]
 			if math.IsNaN(r) || math.IsNaN(d) {
 				tl.noPos++
@@ -383,7 +380,7 @@ func prepare(ctx context.Context, t *catalog.Table, toJyr float64, move bool, fa
 			sd.cells[i] = cellOf(r, d)
 			sd.keys[i] = spatialKey(r, d)
 		}
-	})
+	}, nil)
 	if err != nil {
 		return nil, err
 	}
@@ -400,34 +397,6 @@ func prepare(ctx context.Context, t *catalog.Table, toJyr float64, move bool, fa
 	return sd, nil
 }
 
-// parallelBatches runs fn(0..nb-1) on workers goroutines, checking ctx
-// before each batch.
-func parallelBatches(ctx context.Context, nb, workers int, fn func(b int)) error {
-	var next atomic.Int64
-	var wg sync.WaitGroup
-	var stop atomic.Bool
-	workers = max(1, min(workers, nb))
-	for w := 0; w < workers; w++ {
-		wg.Add(1)
-		go func() {
-			defer wg.Done()
-			for !stop.Load() {
-				b := int(next.Add(1) - 1)
-				if b >= nb {
-					return
-				}
-				if ctx.Err() != nil {
-					stop.Store(true)
-					return
-				}
-				fn(b)
-			}
-		}()
-	}
-	wg.Wait()
-	return ctx.Err()
-}
-
 // searchAll finds every candidate pair. Queries run in spatial order (for
 // cache locality), in batches of batchRows; batch b holds the pairs of the
 // primaries order[b*batchRows:(b+1)*batchRows], each primary's pairs
@@ -436,11 +405,11 @@ func parallelBatches(ctx context.Context, nb, workers int, fn func(b int)) error
 func searchAll(ctx context.Context, ix *Index, order []int32, p, s *side, opt *Options) ([][]pair, float64, error) {
 	// Secondary errors in index order, read near-sequentially below.
 	sigByPos := make([]float64, ix.Indexed())
-	if err := parallelBatches(ctx, (len(sigByPos)+batchRows-1)/batchRows, opt.Workers, func(b int) {
-		for k := b * batchRows; k < min(len(sigByPos), (b+1)*batchRows); k++ {
+	if err := parallel.Batches(ctx, len(sigByPos), batchRows, opt.Workers, func(_ *struct{}, lo, hi int) {
+		for k := lo; k < hi; k++ {
 			sigByPos[k] = s.pts[ix.row[k]].sigmaRad
 		}
-	}); err != nil {
+	}, nil); err != nil {
 		return nil, 0, err
 	}
 	nb := (len(order) + batchRows - 1) / batchRows
@@ -448,8 +417,8 @@ func searchAll(ctx context.Context, ix *Index, order []int32, p, s *side, opt *O
 	maxR := make([]float64, nb)
 	fixedRad := opt.RadiusArcsec * units.RadPerArcsec
 	floorRad := opt.RadiusFloorArcsec * units.RadPerArcsec
-	err := parallelBatches(ctx, nb, opt.Workers, func(b int) {
-		rows := order[b*batchRows : min(len(order), (b+1)*batchRows)]
+	err := parallel.Batches(ctx, len(order), batchRows, opt.Workers, func(_ *struct{}, lo, hi int) {
+		b, rows := lo/batchRows, order[lo:hi]
 		// Gather the batch's queries first: independent loads overlap
 		// their cache misses, the search loop then reads sequentially.
 		var qs [batchRows]query
@@ -484,7 +453,7 @@ func searchAll(ctx context.Context, ix *Index, order []int32, p, s *side, opt *O
 			}
 		}
 		out[b] = ps
-	})
+	}, nil)
 	if err != nil {
 		return nil, 0, err
 	}
@@ -505,11 +474,11 @@ func resolve(ctx context.Context, batches [][]pair, order []int32, n1, nPos int,
 	none := noMatch()
 	// Number of primaries per secondary (by index position).
 	secCount := make([]int32, nPos)
-	if err := parallelBatches(ctx, len(batches), opt.Workers, func(b int) {
+	if err := parallel.Batches(ctx, len(batches), 1, opt.Workers, func(_ *struct{}, b, _ int) {
 		for k := range batches[b] {
 			atomic.AddInt32(&secCount[batches[b][k].pos], 1)
 		}
-	}); err != nil {
+	}, nil); err != nil {
 		return nil, err
 	}
 	nSec := func(pos int32) int32 { return secCount[pos] }
@@ -524,14 +493,14 @@ func resolve(ctx context.Context, batches [][]pair, order []int32, n1, nPos int,
 		ref  pairRef
 	}
 	hardOf := make([][]hardPair, len(batches))
-	if err := parallelBatches(ctx, len(batches), opt.Workers, func(b int) {
+	if err := parallel.Batches(ctx, len(batches), 1, opt.Workers, func(_ *struct{}, b, _ int) {
 		ps := batches[b]
 		for k := range ps {
 			if pr := &ps[k]; pr.nc > 1 || nSec(pr.pos) > 1 {
 				hardOf[b] = append(hardOf[b], hardPair{pr.lnB, pr.i, pr.j, pairRef{int32(b), int32(k)}})
 			}
 		}
-	}); err != nil {
+	}, nil); err != nil {
 		return nil, err
 	}
 	hard := slices.Concat(hardOf...)
@@ -575,7 +544,7 @@ func resolve(ctx context.Context, batches [][]pair, order []int32, n1, nPos int,
 	// batch): the whole Counterpart is written once here.
 	type tally struct{ matched, ambiguous, bestTaken int }
 	tallies := make([]tally, len(batches))
-	err := parallelBatches(ctx, len(batches), opt.Workers, func(b int) {
+	err := parallel.Batches(ctx, len(batches), 1, opt.Workers, func(_ *struct{}, b, _ int) {
 		pairs := batches[b]
 		tl := &tallies[b]
 		start := 0
@@ -622,7 +591,7 @@ func resolve(ctx context.Context, batches [][]pair, order []int32, n1, nPos int,
 			}
 			start = end
 		}
-	})
+	}, nil)
 	if err != nil {
 		return nil, err
 	}

@@ -4,9 +4,9 @@ import (
 	"context"
 	"fmt"
 	"math"
-	"runtime"
 
 	"starvet/catalog"
+	"starvet/internal/parallel"
 	"starvet/internal/units"
 )
 
@@ -43,14 +43,10 @@ func SelfMatch(ctx context.Context, t *catalog.Table, radiusArcsec float64, work
 		}
 	}
 	radiusRad := radiusArcsec * units.RadPerArcsec
-	if workers <= 0 {
-		workers = runtime.GOMAXPROCS(0)
-	}
 	// Query in the index's own (spatial) order, for cache locality.
-	m := ix.Indexed()
-	err = parallelBatches(ctx, (m+batchRows-1)/batchRows, workers, func(b int) {
+	err = parallel.Batches(ctx, ix.Indexed(), batchRows, workers, func(_ *struct{}, lo, hi int) {
 		var buf []hit
-		for p := b * batchRows; p < min(m, (b+1)*batchRows); p++ {
+		for p := lo; p < hi; p++ {
 			q := ix.pts[p]
 			buf = ix.within(q.raDeg, q.decDeg, radiusArcsec/units.ArcsecPerDeg, buf[:0])
 			c := int32(0)
@@ -61,7 +57,7 @@ func SelfMatch(ctx context.Context, t *catalog.Table, radiusArcsec float64, work
 			}
 			counts[ix.row[p]] = c
 		}
-	})
+	}, nil)
 	if err != nil {
 		return nil, err
 	}

@@ -35,5 +35,6 @@
 // Speed: Evaluator is read-only and safe for concurrent use; Assess reuses
 // the caller's Assessment (at most one string allocation per star, for
 // the messages that are not fixed). AssessAll and Each spread stars over worker goroutines
-// (default GOMAXPROCS) in batches, checking ctx between batches.
+// (internal/parallel; default GOMAXPROCS) in batches, checking ctx between
+// batches.
 package quality

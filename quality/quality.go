@@ -3,15 +3,13 @@ package quality
 import (
 	"context"
 	"math"
-	"runtime"
 	"starvet/internal/numfmt"
 	"strconv"
-	"sync"
-	"sync/atomic"
 
 	"github.com/expr-lang/expr/vm"
 
 	"starvet/catalog"
+	"starvet/internal/parallel"
 	"starvet/rules"
 )
 
@@ -222,10 +220,10 @@ func (e *Evaluator) Assess(s *Star, out *Assessment) {
 	out.Quality = [...]string{Pass, Flag, Reject}[worst]
 }
 
-// AssessAll assesses stars on workers goroutines (<= 0: GOMAXPROCS). It
-// checks ctx between batches; when ctx is done it stops early and the
-// entries it did not reach have an empty Quality, so callers check
-// ctx.Err().
+// AssessAll assesses stars on workers goroutines (parallel.Workers: <= 0
+// means GOMAXPROCS), in batches. It checks ctx between batches; when ctx
+// is done it stops after the batches already started, and the entries it
+// did not reach have an empty Quality, so callers check ctx.Err().
 func (e *Evaluator) AssessAll(ctx context.Context, stars []Star, workers int) []Assessment {
 	out := make([]Assessment, len(stars))
 	n := len(e.rs.Rules)
@@ -233,59 +231,37 @@ func (e *Evaluator) AssessAll(ctx context.Context, stars []Star, workers int) []
 	for i := range out {
 		out[i].Outcomes = backing[i*n : i*n : (i+1)*n]
 	}
-	e.each(ctx, len(stars), workers, func(i int, w *Assessment) {
+	_ = parallel.Batches(ctx, len(stars), batch, workers, func(w *Assessment, lo, hi int) {
 		// Borrow the worker's scratch space so results keep none of it.
 		if e.hasExpr && w.scratch == nil {
 			w.scratch = newScratch()
 		}
-		o := &out[i]
-		o.scratch, o.buf, o.spans = w.scratch, w.buf, w.spans
-		e.Assess(&stars[i], o)
-		w.buf, w.spans = o.buf, o.spans
-		o.scratch, o.buf, o.spans = nil, nil, nil
-	})
+		for i := lo; i < hi; i++ {
+			o := &out[i]
+			o.scratch, o.buf, o.spans = w.scratch, w.buf, w.spans
+			e.Assess(&stars[i], o)
+			w.buf, w.spans = o.buf, o.spans
+			o.scratch, o.buf, o.spans = nil, nil, nil
+		}
+	}, nil)
 	return out
 }
 
-// Each assesses stars on workers goroutines and hands each result to fn,
-// which may be called concurrently. The Assessment is reused for the next
-// star: fn may keep its strings but must copy the slices it wants to keep.
-// It returns ctx.Err() if it stopped early.
+// Each assesses stars on workers goroutines as AssessAll does and hands
+// each result to fn, which may be called concurrently. The Assessment is
+// reused for the next star: fn may keep its strings but must copy the
+// slices it wants to keep. It returns ctx.Err() if it stopped early.
 func (e *Evaluator) Each(ctx context.Context, stars []Star, workers int, fn func(i int, a *Assessment)) error {
-	e.each(ctx, len(stars), workers, func(i int, a *Assessment) {
-		e.Assess(&stars[i], a)
-		fn(i, a)
-	})
-	return ctx.Err()
+	return parallel.Batches(ctx, len(stars), batch, workers, func(a *Assessment, lo, hi int) {
+		for i := lo; i < hi; i++ {
+			e.Assess(&stars[i], a)
+			fn(i, a)
+		}
+	}, nil)
 }
 
+// batch is how many stars a worker assesses between checks of the context.
 const batch = 2048
-
-func (e *Evaluator) each(ctx context.Context, n, workers int, do func(i int, a *Assessment)) {
-	if workers <= 0 {
-		workers = runtime.GOMAXPROCS(0)
-	}
-	var next atomic.Int64
-	var wg sync.WaitGroup
-	for w := 0; w < workers; w++ {
-		wg.Add(1)
-		go func() {
-			defer wg.Done()
-			var a Assessment
-			for ctx.Err() == nil {
-				lo := int(next.Add(batch)) - batch
-				if lo >= n {
-					return
-				}
-				hi := min(lo+batch, n)
-				for i := lo; i < hi; i++ {
-					do(i, &a)
-				}
-			}
-		}()
-	}
-	wg.Wait()
-}
 
 // eval returns the result and either a fixed message or "" when it wrote
 // the message into a.buf.

@@ -2,6 +2,7 @@ package quality
 
 import (
 	"context"
+	"errors"
 	"math"
 	"strings"
 	"testing"
@@ -467,6 +468,22 @@ func TestAssessAllCancelled(t *testing.T) {
 	}
 	if err := NewEvaluator(rs, Context{}).Each(ctx, make([]Star, 3), 1, func(int, *Assessment) {}); err == nil {
 		t.Error("Each returned nil after cancel")
+	}
+}
+
+// TestEachFinishesStartedBatch: a cancel stops Each between batches; the
+// batch already started is finished (one worker, so exactly one batch).
+func TestEachFinishesStartedBatch(t *testing.T) {
+	rs := parse(t, "[[rule]]\nid = \"r\"\nseverity = \"flag\"\ncheck = \"duplicate\"\n")
+	ctx, cancel := context.WithCancel(context.Background())
+	defer cancel()
+	calls := 0
+	err := NewEvaluator(rs, Context{}).Each(ctx, make([]Star, 3*batch), 1, func(int, *Assessment) {
+		calls++
+		cancel()
+	})
+	if !errors.Is(err, context.Canceled) || calls != batch {
+		t.Errorf("err %v after %d stars, want context.Canceled after %d", err, calls, batch)
 	}
 }
 

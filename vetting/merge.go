@@ -6,11 +6,11 @@ import (
 	"encoding/binary"
 	"encoding/hex"
 	"math"
-	"runtime"
 	"sync"
 
 	"starvet/catalog"
 	"starvet/crossmatch"
+	"starvet/internal/parallel"
 	"starvet/quality"
 )
 
@@ -311,31 +311,13 @@ func mergeRows(c *Catalogs, m *Matched, rows []int, out []quality.Star) {
 const mergeBatchRows = 8192
 
 // mergeBatches calls fn for the row ranges [lo, hi) that cover n rows,
-// batch by batch on workers goroutines, each with its own scratch.
+// batch by batch on workers goroutines, each with its own scratch; ctx is
+// checked between batches.
 func mergeBatches(ctx context.Context, n, workers int, fn func(lo, hi int, sc *mergeScratch)) error {
-	if workers <= 0 {
-		workers = runtime.GOMAXPROCS(0)
-	}
-	var wg sync.WaitGroup
-	next := make(chan int)
-	for range workers {
-		wg.Add(1)
-		go func() {
-			defer wg.Done()
-			sc := newMergeScratch()
-			for lo := range next {
-				fn(lo, min(lo+mergeBatchRows, n), sc)
-			}
-		}()
-	}
-	var err error
-	for lo := 0; lo < n; lo += mergeBatchRows {
-		if err = ctx.Err(); err != nil {
-			break
+	return parallel.Batches(ctx, n, mergeBatchRows, workers, func(sc **mergeScratch, lo, hi int) {
+		if *sc == nil {
+			*sc = newMergeScratch()
 		}
-		next <- lo
-	}
-	close(next)
-	wg.Wait()
-	return err
+		fn(lo, hi, *sc)
+	}, nil)
 }

@@ -21,7 +21,7 @@ type worker struct {
 	// square root (the quantiler undoes the map on the order statistics):
 	// speed^2, r_gc^2, v_esc^2 and v_tan^2, and v_r |v_r| for the radial
 	// velocity, whose sign matters. vesc2 is filled only when the escape
-	// table is not monotone (see evaluate).
+	// table is not monotone (see escapeRange).
 	speed2, rgc2, vrad2, vtan2, vesc2 []float64
 	// Velocity-prior scratch: weights, resample indices, a gather buffer,
 	// and whether each draw is unbound.
@@ -111,7 +111,7 @@ func (l *lineOfSight) minSpeed() lineOfSight {
 	return m
 }
 
-// r2At is |pos(d)|^2 computed as in the per-draw loop of evaluate.
+// r2At is |pos(d)|^2 computed as in the per-draw loop of speeds.
 func (l *lineOfSight) r2At(d float64) float64 {
 	x := l.pos0[0] + d*l.posR[0]
 	y := l.pos0[1] + d*l.posR[1]
@@ -158,24 +158,60 @@ func escapeSpeed2(p potential.Potential, x [3]float64, rKpc, escRadiusKpc float6
 	return 2 * d
 }
 
+// evaluate fills r for one star, step by step; a step that fails the star
+// (r.OK false) ends it. The draws live in the worker's scratch space, so a
+// star allocates nothing for them.
 func (w *worker) evaluate(s *Star, set *Settings, p potential.Potential, r *Result) {
 	r.reset(s.ID)
 	r.OK = true
+	corr, ok := validateInputs(s, set, r)
+	if !ok {
+		return
+	}
+	method, catDist := chooseDistance(s, set, r)
+	r.Method = method
+	if !r.OK {
+		return
+	}
+	w.init(set.Samples)
+	w.rnd.seed(starSeed(set.Seed, s.ID, streamAstrometry))
+	w.rndV.seed(starSeed(set.Seed, s.ID, streamRV))
+	kept, ok := w.drawAstrometry(s, set, method, catDist, corr, r)
+	if !ok {
+		return
+	}
+	r.Samples = kept
+	rvNomKms := w.drawRV(s, kept, r)
+	d := starDraws{los: newLineOfSight(set.Sun, s.RADeg, s.DecDeg), kept: kept, keep: min(set.KeepSamples, kept)}
+	if !r.HasRV {
+		d.los = d.los.minSpeed()
+	}
+	w.escapeRange(p, set, &d)
+	w.speeds(p, set, &d, r)
+	w.summarise(set, &d, r)
+	r.PosKpc, r.VelKms = d.los.at(r.DistKpc[1], s.PMRAMasYr, s.PMDecMasYr, rvNomKms)
+}
+
+// validateInputs fails r unless the star has a position, proper motions
+// with their uncertainties, usable uncertainties and correlations, and
+// the settings are valid. It returns the correlations of (parallax, pm_ra),
+// (parallax, pm_dec) and (pm_ra, pm_dec), a missing one taken as 0.
+func validateInputs(s *Star, set *Settings, r *Result) (corr [3]float64, ok bool) {
 	if err := set.Validate(); err != nil {
 		r.fail(ReasonSettings, "%v", err)
-		return
+		return corr, false
 	}
 	if !vec.Finite(s.RADeg) || !vec.Finite(s.DecDeg) {
 		r.fail(ReasonNoPosition, "ra or dec missing")
-		return
+		return corr, false
 	}
 	if !vec.Finite(s.PMRAMasYr) || !vec.Finite(s.PMDecMasYr) {
 		r.fail(ReasonProperMotion, "proper motion missing")
-		return
+		return corr, false
 	}
 	if !vec.Finite(s.PMRAErrMasYr) || !vec.Finite(s.PMDecErrMasYr) {
 		r.fail(ReasonProperMotion, "proper-motion uncertainty missing")
-		return
+		return corr, false
 	}
 	for _, u := range []struct {
 		name string
@@ -187,29 +223,26 @@ func (w *worker) evaluate(s *Star, set *Settings, p potential.Potential, r *Resu
 	} {
 		if u.v < 0 || math.IsInf(u.v, 0) {
 			r.fail(ReasonBadUncertainty, "%s uncertainty %v must be finite and not negative", u.name, u.v)
-			return
+			return corr, false
 		}
 	}
-	corr := [3]float64{s.CorrParallaxPMRA, s.CorrParallaxPMDec, s.CorrPMRAPMDec}
+	corr = [3]float64{s.CorrParallaxPMRA, s.CorrParallaxPMDec, s.CorrPMRAPMDec}
 	for i, c := range corr {
 		if math.IsNaN(c) {
 			corr[i] = 0
 		} else if !(c >= -1 && c <= 1) {
 			r.fail(ReasonBadCorrelation, "correlation %v outside [-1, 1]", c)
-			return
+			return corr, false
 		}
 	}
-	method, catDist := chooseDistance(s, set, r)
-	r.Method = method
-	if !r.OK {
-		return
-	}
+	return corr, true
+}
 
+// drawAstrometry fills the distance, parallax and proper-motion draws
+// from the astrometry stream by method and returns how many it kept (the
+// inverse method drops non-positive parallaxes); false when it failed r.
+func (w *worker) drawAstrometry(s *Star, set *Settings, method string, catDist catalogDistance, corr [3]float64, r *Result) (kept int, ok bool) {
 	n := set.Samples
-	w.init(n)
-	w.rnd.seed(starSeed(set.Seed, s.ID, streamAstrometry))
-	w.rndV.seed(starSeed(set.Seed, s.ID, streamRV))
-
 	// Covariance of (parallax, pm_ra, pm_dec); the parallax row is only
 	// used by the parallax methods.
 	sw, sa, sd := s.ParallaxErrMas, s.PMRAErrMasYr, s.PMDecErrMasYr
@@ -226,10 +259,8 @@ func (w *worker) evaluate(s *Star, set *Settings, p potential.Potential, r *Resu
 	joint, ok := newGauss(3, mean, &cov, &w.rnd)
 	if !ok {
 		r.fail(ReasonCovariance, "covariance of parallax and proper motions not positive definite")
-		return
+		return 0, false
 	}
-
-	kept := 0
 	switch method {
 	case MethodInverse:
 		dropped := 0
@@ -248,30 +279,29 @@ func (w *worker) evaluate(s *Star, set *Settings, p potential.Potential, r *Resu
 		}
 		if kept == 0 {
 			r.fail(ReasonNonPositivePlx, "every parallax draw non-positive with inverse distance")
-			return
+			return 0, false
 		}
+		return kept, true
 	case MethodEDSD:
-		if !w.drawEDSD(s, set, &cov, &joint, mean, r) {
-			return
-		}
-		kept = n
+		return n, w.drawEDSD(s, set, &cov, &joint, mean, r)
 	case MethodCatalog:
 		if sw > 0 {
-			if !w.drawCatalogWithParallax(set, &cov, &joint, mean, catDist, r) {
-				return
-			}
-		} else {
-			for i := range n {
-				var x [3]float64
-				joint.draw(&w.rnd, &x)
-				w.dist[i], w.plx[i], w.pmRA[i], w.pmDec[i] = catDist.draw(&w.rnd), math.NaN(), x[1], x[2]
-			}
+			return n, w.drawCatalogWithParallax(set, &cov, &joint, mean, catDist, r)
 		}
-		kept = n
+		for i := range n {
+			var x [3]float64
+			joint.draw(&w.rnd, &x)
+			w.dist[i], w.plx[i], w.pmRA[i], w.pmDec[i] = catDist.draw(&w.rnd), math.NaN(), x[1], x[2]
+		}
+		return n, true
 	}
-	r.Samples = kept
+	return 0, true // Settings.Validate admits no other method
+}
 
-	// Radial velocity from its own stream.
+// drawRV fills the kept radial-velocity draws from their own stream (0
+// without a usable radial velocity, noted in r) and returns the nominal
+// radial velocity the star's position and velocity are given at.
+func (w *worker) drawRV(s *Star, kept int, r *Result) (rvNomKms float64) {
 	rvKms, rvErr := s.RVKms, s.RVErrKms
 	r.HasRV = vec.Finite(rvKms) && vec.Finite(rvErr)
 	if !r.HasRV {
@@ -289,42 +319,63 @@ func (w *worker) evaluate(s *Star, set *Settings, p potential.Potential, r *Resu
 			w.rv[i] = 0
 		}
 	}
+	if r.HasRV {
+		return rvKms
+	}
+	return 0
+}
 
-	los := newLineOfSight(set.Sun, s.RADeg, s.DecDeg)
-	if !r.HasRV {
-		los = los.minSpeed()
-	}
-	keep := min(set.KeepSamples, kept)
-	r.SamplePos = growVec(r.SamplePos, keep)
-	r.SampleVel = growVec(r.SampleVel, keep)
-	dMin, dMax := span(w.dist[:kept])
+// starDraws is what the steps of evaluate hand on about one star's draws.
+type starDraws struct {
+	los              lineOfSight // the minimum-speed map without a radial velocity
+	kept, keep       int         // draws kept; the first keep are traced
+	dMinKpc, dMaxKpc float64     // range of the kept distances
+	// escMonotone: w.esc is a table monotone in distance, whose v_esc^2
+	// lies in [ve2Lo, ve2Hi]; otherwise that range is (-Inf, +Inf).
+	escMonotone  bool
+	ve2Lo, ve2Hi float64
+	unbound      int // draws faster than their escape speed
+}
+
+// escapeRange tabulates the escape speed along the line of sight when the
+// star has enough draws. With a monotone table the v_esc median needs no
+// per-draw values (summarise), and v_esc^2 lies between its values at the
+// ends of the table: a draw faster or slower than that whole range needs
+// no lookup. Otherwise the range is open and every draw looks up.
+func (w *worker) escapeRange(p potential.Potential, set *Settings, d *starDraws) {
+	d.dMinKpc, d.dMaxKpc = span(w.dist[:d.kept])
 	w.esc.ok = false
-	if kept >= losMinDraws && !w.exactEscape {
-		w.esc.build(p, &los, dMin, dMax, set.EscapeRadiusKpc, kept/losDrawsPerCell)
+	if d.kept >= losMinDraws && !w.exactEscape {
+		w.esc.build(p, &d.los, d.dMinKpc, d.dMaxKpc, set.EscapeRadiusKpc, d.kept/losDrawsPerCell)
 	}
-	// With a monotone escape-speed table the v_esc median needs no
-	// per-draw values (see below), and v_esc^2 lies between its values at
-	// the ends of the table: a draw faster or slower than that whole range
-	// needs no lookup. Otherwise the range is open and every draw looks up.
-	escMonotone := w.esc.ok && w.esc.monotone != 0
-	ve2Lo, ve2Hi := math.Inf(-1), math.Inf(1)
-	prior := r.HasRV && set.VelocityPriorKms > 0
-	if escMonotone {
-		a, b := w.esc.vesc2(dMin), w.esc.vesc2(dMax)
-		ve2Lo, ve2Hi = min(a, b), max(a, b)
+	d.escMonotone = w.esc.ok && w.esc.monotone != 0
+	d.ve2Lo, d.ve2Hi = math.Inf(-1), math.Inf(1)
+	if d.escMonotone {
+		a, b := w.esc.vesc2(d.dMinKpc), w.esc.vesc2(d.dMaxKpc)
+		d.ve2Lo, d.ve2Hi = min(a, b), max(a, b)
 	}
+}
+
+// speeds computes, for every kept draw, the Galactocentric position and
+// velocity, the squares of speed, r_gc, v_r (signed) and v_tan, whether
+// the draw is unbound (v > v_esc, v_esc^2 stored where it was looked up),
+// and the traced draws' phase-space points into r.
+func (w *worker) speeds(p potential.Potential, set *Settings, d *starDraws, r *Result) {
+	r.SamplePos = growVec(r.SamplePos, d.keep)
+	r.SampleVel = growVec(r.SampleVel, d.keep)
+	keep, ve2Lo, ve2Hi := d.keep, d.ve2Lo, d.ve2Hi
 	unbound := 0
 	// l is los.at written out on scalars: Go keeps arrays in memory, and
 	// this loop does most of a star's arithmetic.
-	l := &los
-	for i := range kept {
-		d, pmRA, pmDec, rv := w.dist[i], w.pmRA[i], w.pmDec[i], w.rv[i]
-		x := l.pos0[0] + d*l.posR[0]
-		y := l.pos0[1] + d*l.posR[1]
-		z := l.pos0[2] + d*l.posR[2]
-		vx := l.vel0[0] + rv*l.velR[0] + d*(pmRA*l.velA[0]+pmDec*l.velD[0])
-		vy := l.vel0[1] + rv*l.velR[1] + d*(pmRA*l.velA[1]+pmDec*l.velD[1])
-		vz := l.vel0[2] + rv*l.velR[2] + d*(pmRA*l.velA[2]+pmDec*l.velD[2])
+	l := &d.los
+	for i := range d.kept {
+		dKpc, pmRA, pmDec, rv := w.dist[i], w.pmRA[i], w.pmDec[i], w.rv[i]
+		x := l.pos0[0] + dKpc*l.posR[0]
+		y := l.pos0[1] + dKpc*l.posR[1]
+		z := l.pos0[2] + dKpc*l.posR[2]
+		vx := l.vel0[0] + rv*l.velR[0] + dKpc*(pmRA*l.velA[0]+pmDec*l.velD[0])
+		vy := l.vel0[1] + rv*l.velR[1] + dKpc*(pmRA*l.velA[1]+pmDec*l.velD[1])
+		vz := l.vel0[2] + rv*l.velR[2] + dKpc*(pmRA*l.velA[2]+pmDec*l.velD[2])
 		r2, v2, pv := x*x+y*y+z*z, vx*vx+vy*vy+vz*vz, x*vx+y*vy+z*vz
 		ub := false
 		switch {
@@ -334,7 +385,7 @@ func (w *worker) evaluate(s *Star, set *Settings, p potential.Potential, r *Resu
 		default:
 			var ve2 float64
 			if w.esc.ok {
-				ve2 = w.esc.vesc2(d)
+				ve2 = w.esc.vesc2(dKpc)
 			} else {
 				ve2 = escapeSpeed2(p, [3]float64{x, y, z}, math.Sqrt(r2), set.EscapeRadiusKpc)
 			}
@@ -353,11 +404,20 @@ func (w *worker) evaluate(s *Star, set *Settings, p potential.Potential, r *Resu
 			r.SamplePos[i], r.SampleVel[i] = [3]float64{x, y, z}, [3]float64{vx, vy, vz}
 		}
 	}
-	pUnbound := float64(unbound) / float64(kept)
-	rgcMonotone, rgcInc := los.r2Monotone(dMin, dMax)
-	if prior {
+	d.unbound = unbound
+}
+
+// summarise reweights the draws by the velocity prior when there is one
+// (applyPrior; only with a radial velocity) and stores the percentiles of
+// distance and speed, the medians of r_gc, v_esc, v_r and v_tan, and the
+// unbound share: p_unbound with a radial velocity, its lower bound without.
+func (w *worker) summarise(set *Settings, d *starDraws, r *Result) {
+	kept := d.kept
+	pUnbound := float64(d.unbound) / float64(kept)
+	rgcMonotone, rgcInc := d.los.r2Monotone(d.dMinKpc, d.dMaxKpc)
+	if r.HasRV && set.VelocityPriorKms > 0 {
 		r.PUnboundFlat = pUnbound
-		pUnbound = w.applyPrior(set.VelocityPriorKms, kept, keep, !rgcMonotone, !escMonotone, &los, r)
+		pUnbound = w.applyPrior(set.VelocityPriorKms, kept, d.keep, !rgcMonotone, !d.escMonotone, &d.los, r)
 	}
 	q := &w.quant
 	var mid middle
@@ -366,11 +426,11 @@ func (w *worker) evaluate(s *Star, set *Settings, p potential.Potential, r *Resu
 	// of the distance for most stars: their medians then follow from the
 	// distance's middle order statistics without a selection.
 	if rgcMonotone {
-		r.RGCKpc = medianOfMonotone(los.r2At, mid, rgcInc, math.Sqrt)
+		r.RGCKpc = medianOfMonotone(d.los.r2At, mid, rgcInc, math.Sqrt)
 	} else {
 		r.RGCKpc = q.median(w.rgc2[:kept], math.Sqrt)
 	}
-	if escMonotone {
+	if d.escMonotone {
 		r.VEscKms = medianOfMonotone(w.esc.vesc2, mid, w.esc.monotone > 0, math.Sqrt)
 	} else { // every draw looked up
 		r.VEscKms = q.median(w.vesc2[:kept], math.Sqrt)
@@ -384,11 +444,6 @@ func (w *worker) evaluate(s *Star, set *Settings, p potential.Potential, r *Resu
 		r.SpeedLowerKms = q.percentiles(w.speed2[:kept], math.Sqrt)
 		r.PUnboundLower = pUnbound
 	}
-	rvNom := 0.0
-	if r.HasRV {
-		rvNom = rvKms
-	}
-	r.PosKpc, r.VelKms = los.at(r.DistKpc[1], s.PMRAMasYr, s.PMDecMasYr, rvNom)
 }
 
 // signedSqrt undoes x -> x |x|.

@@ -4,10 +4,10 @@ import (
 	"context"
 	"math"
 	"math/rand/v2"
-	"runtime"
 	"testing"
 
 	"starvet/galaxy/potential"
+	"starvet/internal/parallel"
 )
 
 // countingPotential counts force evaluations (single goroutine only).
@@ -88,7 +88,7 @@ func BenchmarkTrace1000x200(b *testing.B) {
 	b.ResetTimer()
 	var res []TraceResult
 	for b.Loop() {
-		res = TraceAll(context.Background(), p, stars, s, runtime.GOMAXPROCS(0))
+		res = TraceAll(context.Background(), p, stars, s, 0)
 	}
 	b.StopTimer()
 	counts := map[Origin]int{}
@@ -98,7 +98,7 @@ func BenchmarkTrace1000x200(b *testing.B) {
 	b.ReportMetric(float64(cp.n)/float64(orbits), "forces/orbit")
 	b.ReportMetric(float64(counts[OriginGC]), "gc-stars")
 	b.ReportMetric(float64(counts[OriginDisk]), "disk-stars")
-	b.ReportMetric(float64(runtime.GOMAXPROCS(0)), "workers")
+	b.ReportMetric(float64(parallel.Workers(0)), "workers")
 }
 
 // BenchmarkTrace100x200 is a tenth of BenchmarkTrace1000x200, for profiling.
@@ -109,6 +109,6 @@ func BenchmarkTrace100x200(b *testing.B) {
 	}
 	stars := benchStars(p, 100, 200, 2026)
 	for b.Loop() {
-		TraceAll(context.Background(), p, stars, TraceSettings{}, runtime.GOMAXPROCS(0))
+		TraceAll(context.Background(), p, stars, TraceSettings{}, 0)
 	}
 }

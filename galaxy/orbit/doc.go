@@ -16,6 +16,6 @@
 // "outer" or "untraced" (see Trace). The stored centre figure GCConsistency
 // is the containment level 1 - exp(-D^2/2) of the centre, D its Mahalanobis
 // distance from the crossings; at most GCConsistencyLevel means a centre
-// origin. TraceAll spreads stars over worker
-// goroutines (default runtime.GOMAXPROCS(0)).
+// origin. TraceAll spreads stars over worker goroutines (internal/parallel;
+// default GOMAXPROCS).
 package orbit

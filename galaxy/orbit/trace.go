@@ -3,14 +3,13 @@ package orbit
 import (
 	"context"
 	"math"
-	"runtime"
 	"sort"
-	"sync"
 
 	"gonum.org/v1/gonum/mat"
 	"gonum.org/v1/gonum/stat"
 
 	"starvet/galaxy/potential"
+	"starvet/internal/parallel"
 	"starvet/internal/vec"
 )
 
@@ -296,38 +295,16 @@ func median(v []float64) float64 {
 }
 
 // TraceAll traces every star with the given number of worker goroutines
-// (workers <= 0: runtime.GOMAXPROCS(0)). p must be safe for concurrent use
-// (potential.Model is). The context is checked before each star; after
-// cancellation the remaining results are left zero (Origin == "") and the
-// caller should consult ctx.Err().
+// (parallel.Workers: <= 0 means GOMAXPROCS). p must be safe for concurrent
+// use (potential.Model is). The context is checked between stars (batches
+// of one); after cancellation the stars already started finish, the
+// remaining results are left zero (Origin == "") and the caller should
+// consult ctx.Err().
 func TraceAll(ctx context.Context, p potential.Potential, stars []TraceInput, s TraceSettings, workers int) []TraceResult {
-	if workers <= 0 {
-		workers = runtime.GOMAXPROCS(0)
-	}
 	out := make([]TraceResult, len(stars))
-	next := make(chan int)
-	var wg sync.WaitGroup
-	for range min(workers, max(len(stars), 1)) {
-		wg.Add(1)
-		go func() {
-			defer wg.Done()
-			for i := range next {
-				out[i] = Trace(p, stars[i].Pos, stars[i].Vel, s)
-			}
-		}()
-	}
-feed:
-	for i := range stars {
-		if ctx.Err() != nil {
-			break
-		}
-		select {
-		case <-ctx.Done():
-			break feed
-		case next <- i:
-		}
-	}
-	close(next)
-	wg.Wait()
+	// One star is many integrations: batches of one balance the load.
+	_ = parallel.Batches(ctx, len(stars), 1, workers, func(_ *struct{}, lo, _ int) {
+		out[lo] = Trace(p, stars[lo].Pos, stars[lo].Vel, s)
+	}, nil)
 	return out
 }
