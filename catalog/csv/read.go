@@ -384,6 +384,7 @@ func malformed(pe *csv.ParseError) *catalog.Quarantine {
 // its wording to catalog.Layout.ConvertRecord.
 func (c *converter) parsePlain(line []byte, row *[catalog.NumFields]float64) ([]byte, bool) {
 	var id []byte
+	l, cols := c.l, c.l.Columns
 	pos, n := 0, len(line)
 	last := len(c.roles) - 1
 	for k, role := range c.roles {
@@ -399,9 +400,9 @@ func (c *converter) parsePlain(line []byte, row *[catalog.NumFields]float64) ([]
 					end = n
 				}
 			}
-			p := &c.l.Columns[role]
+			p := &cols[role]
 			cell := line[pos:end]
-			if (!ok || c.numericMarker) && c.l.IsNullBytes(cell) {
+			if (!ok || c.numericMarker) && l.IsNullBytes(cell) {
 				if p.Field == catalog.RA || p.Field == catalog.Dec {
 					return nil, false
 				}
@@ -433,7 +434,7 @@ func (c *converter) parsePlain(line []byte, row *[catalog.NumFields]float64) ([]
 		}
 		pos = end + 1
 	}
-	if c.l.IsNullBytes(id) {
+	if l.IsNullBytes(id) {
 		return nil, false
 	}
 	return id, true
