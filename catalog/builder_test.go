@@ -58,6 +58,12 @@ func TestBuilderRecords(t *testing.T) {
 	if rep.RowsRead != 7 || rep.RowsKept != 3 || fmt.Sprint(rep.Unused) != "[spare]" {
 		t.Errorf("read %d kept %d unused %v", rep.RowsRead, rep.RowsKept, rep.Unused)
 	}
+	checkQuarantine(t, rep.Quarantined, rows)
+}
+
+// checkQuarantine holds the rows TestBuilderRecords sets aside to the
+// reasons the builder words.
+func checkQuarantine(t *testing.T, got []Quarantine, rows [][]string) {
 	want := []struct {
 		line, col int
 		err       error
@@ -68,11 +74,11 @@ func TestBuilderRecords(t *testing.T) {
 		{5, 4, ErrNotNumber, "not a number"},
 		{6, 4, ErrFieldCount, "wrong number of fields: row has 3 fields, header has 5"},
 	}
-	if len(rep.Quarantined) != len(want) {
-		t.Fatalf("quarantined %+v", rep.Quarantined)
+	if len(got) != len(want) {
+		t.Fatalf("quarantined %+v", got)
 	}
 	for i, w := range want {
-		q := rep.Quarantined[i]
+		q := got[i]
 		if q.Line != w.line || q.Column != w.col || !errors.Is(q.Err, w.err) || q.Reason != w.reason || fmt.Sprint(q.Record) != fmt.Sprint(rows[w.line-1]) {
 			t.Errorf("quarantine %+v, want line %d col %d %v %q", q, w.line, w.col, w.err, w.reason)
 		}
