@@ -10,6 +10,7 @@ import (
 	"testing"
 
 	"starvet/catalog"
+	"starvet/catalog/ingest"
 	"starvet/internal/position"
 )
 
@@ -21,7 +22,7 @@ func TestLoadFull(t *testing.T) {
 		t.Fatal(err)
 	}
 	dir, _ := filepath.Abs(testDir)
-	ingest := filepath.Dir(dir)
+	ingestDir := filepath.Dir(dir)
 	checks := []struct {
 		name      string
 		got, want any
@@ -35,7 +36,7 @@ func TestLoadFull(t *testing.T) {
 		{"null markers", c.NullMarkers, []string{"", "NaN", "null", "-999"}},
 		{"match", c.Match, Match{RadiusArcsec: 2, NSigma: 5, RadiusFloorArcsec: 0.3, DuplicateRadiusArcsec: 0.25, AmbiguityRatio: 4}},
 		{"catalogs", len(c.Catalogs), 3},
-		{"cat0 file", c.Catalogs[0].File, filepath.Join(ingest, "auto.csv")},
+		{"cat0 file", c.Catalogs[0].File, filepath.Join(ingestDir, "auto.csv")},
 		{"cat0 role", c.Catalogs[0].Role, catalog.Astrometry},
 		{"cat0 epoch", c.Catalogs[0].EpochJyr, 2017.5},
 		{"cat0 release", c.Catalogs[0].Release, "L2"},
@@ -67,7 +68,7 @@ func TestLoadFull(t *testing.T) {
 	}
 	// The specs must be directly usable by the reader.
 	for _, cs := range c.Catalogs {
-		tab, rep, err := catalog.Read(context.Background(), cs.Spec, catalog.ReadOptions{Strict: true})
+		tab, rep, err := ingest.Read(context.Background(), cs.Spec, catalog.ReadOptions{Strict: true})
 		if err != nil {
 			t.Errorf("%s: %v", cs.Name, err)
 			continue

@@ -4,7 +4,8 @@
 //
 // In: the file text (Load reads it from disk). Out: a *Campaign with every
 // default filled in and relative paths resolved against the file's
-// directory (Campaign.Dir); catalog specs are ready for catalog.Read.
+// directory (Campaign.Dir); catalog specs are ready for ingest.Read
+// (package catalog/ingest).
 // Units are those in the key names (arcsec, mas, kpc, pc, km/s, Msun, Myr);
 // epochs are Julian years; sun_velocity_kms is (U, V, W) in the
 // Galactocentric frame.

@@ -3,10 +3,12 @@ package catalog
 import (
 	"errors"
 	"fmt"
+
+	"starvet/internal/position"
 )
 
-// Sentinel errors. Row and file errors wrap one of them, so callers can use
-// errors.Is.
+// Sentinel errors. Row and file errors are *position.Error values wrapping
+// one of them, so callers can use errors.Is.
 var (
 	ErrNotNumber    = errors.New("not a number")
 	ErrOutOfRange   = errors.New("out of range")
@@ -22,52 +24,27 @@ var (
 	ErrBadSpec       = errors.New("bad catalog spec")
 )
 
-// RowError describes a problem with one row. Line and Column are 1-based;
-// Column is the index of the field in the CSV record (0 when the problem is
-// the row as a whole).
-type RowError struct {
-	File       string
-	Line       int
-	Column     int
-	ColumnName string
-	Value      string
-	Reason     string
-	Err        error // sentinel
-}
-
-func (e *RowError) Error() string {
-	pos := fmt.Sprintf("%s:%d", e.File, e.Line)
-	if e.Column > 0 {
-		pos += fmt.Sprintf(":%d", e.Column)
-	}
-	if e.ColumnName != "" {
-		return fmt.Sprintf("%s: column %q value %q: %s", pos, e.ColumnName, e.Value, e.Reason)
-	}
-	return fmt.Sprintf("%s: %s", pos, e.Reason)
-}
-
-func (e *RowError) Unwrap() error { return e.Err }
-
-// FileError is a problem that stops the whole file: it cannot be opened,
-// decompressed or its header does not fit the spec. Line and Column are 0
+// fileError is a problem that stops the whole file: it cannot be opened or
+// decompressed, or its header does not fit the spec. line and col are 0
 // when unknown.
-type FileError struct {
-	File   string
-	Line   int
-	Column int
-	Reason string
-	Err    error
+func fileError(file string, line, col int, name, msg string, err error) *position.Error {
+	return &position.Error{File: file, Line: line, Col: col, Name: name, Msg: msg, Err: err}
 }
 
-func (e *FileError) Error() string {
-	pos := e.File
-	if e.Line > 0 {
-		pos += fmt.Sprintf(":%d", e.Line)
-		if e.Column > 0 {
-			pos += fmt.Sprintf(":%d", e.Column)
-		}
+// WrapFileError is a problem that stops the whole file, met by a reader:
+// "file[:line]: msg cause", wrapping both sentinel and cause. line is 0
+// when unknown.
+func WrapFileError(file string, line int, msg string, sentinel, cause error) *position.Error {
+	return fileError(file, line, 0, "", msg+cause.Error(), fmt.Errorf("%w: %w", sentinel, cause))
+}
+
+// Error is the quarantined row as the fatal error of a strict read:
+// "file:line:col: column "NAME" value "V": reason", or "file:line: reason"
+// for the row as a whole.
+func (q *Quarantine) Error(file string) *position.Error {
+	e := &position.Error{File: file, Line: q.Line, Col: q.Column, Name: q.ColumnName, Msg: q.Reason, Err: q.Err}
+	if q.ColumnName != "" {
+		e.What = fmt.Sprintf("column %q value %q", q.ColumnName, q.Value)
 	}
-	return pos + ": " + e.Reason
+	return e
 }
-
-func (e *FileError) Unwrap() error { return e.Err }

@@ -15,6 +15,7 @@ import (
 	"github.com/BurntSushi/toml"
 
 	"starvet/catalog"
+	"starvet/catalog/ingest"
 	"starvet/crossmatch/sky"
 	"starvet/galaxy/frames"
 	"starvet/internal/units"
@@ -76,7 +77,7 @@ func readAll(t *testing.T, dir string) (testCampaign, map[string]readCat) {
 	for _, cat := range c.Catalog {
 		spec := catalog.Spec{Name: cat.Name, File: filepath.Join(dir, cat.File), Role: catalog.Role(cat.Role),
 			EpochJyr: cat.Epoch, Release: cat.Release, Columns: cat.Columns, Units: cat.Units}
-		tab, rep, err := catalog.Read(context.Background(), spec, catalog.ReadOptions{})
+		tab, rep, err := ingest.Read(context.Background(), spec, catalog.ReadOptions{})
 		if err != nil {
 			t.Fatalf("read %s: %v", cat.File, err)
 		}

@@ -8,6 +8,7 @@ import (
 
 	"starvet/campaign"
 	"starvet/catalog"
+	"starvet/catalog/ingest"
 	"starvet/crossmatch"
 	"starvet/quality"
 	"starvet/rules"
@@ -30,7 +31,7 @@ func (e *Engine) Ingest(ctx context.Context, c *campaign.Campaign, strict bool, 
 		wg.Add(1)
 		go func() {
 			defer wg.Done()
-			t, rep, err := catalog.Read(ctx, cs.Spec, catalog.ReadOptions{Strict: strict})
+			t, rep, err := ingest.Read(ctx, cs.Spec, catalog.ReadOptions{Strict: strict})
 			res[k] = result{t, rep, err}
 		}()
 	}

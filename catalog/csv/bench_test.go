@@ -1,4 +1,4 @@
-package catalog
+package csvcat
 
 import (
 	"bufio"
@@ -11,6 +11,8 @@ import (
 	"sync"
 	"syscall"
 	"testing"
+
+	"starvet/catalog"
 )
 
 // writeBenchCSV writes rows rows of id plus 15 numeric columns with a fixed
@@ -56,7 +58,7 @@ func BenchmarkReadCSV(b *testing.B) {
 	b.ResetTimer()
 	for b.Loop() {
 		n++
-		tab, rep, err := Read(context.Background(), Spec{Name: "bench", File: p}, ReadOptions{})
+		tab, rep, err := Read(context.Background(), catalog.Spec{Name: "bench", File: p}, catalog.ReadOptions{})
 		if err != nil {
 			b.Fatal(err)
 		}
@@ -157,7 +159,7 @@ func BenchmarkReadPair(b *testing.B) {
 			wg.Add(1)
 			go func() {
 				defer wg.Done()
-				tab, rep, err := Read(context.Background(), Spec{Name: "pair", File: p}, ReadOptions{})
+				tab, rep, err := Read(context.Background(), catalog.Spec{Name: "pair", File: p}, catalog.ReadOptions{})
 				if err == nil && (tab.Len() != rows || len(rep.Quarantined) != 0) {
 					err = fmt.Errorf("%s: kept %d of %d, quarantined %d", p, tab.Len(), rows, len(rep.Quarantined))
 				}

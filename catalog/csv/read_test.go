@@ -1,4 +1,4 @@
-package catalog
+package csvcat
 
 import (
 	"compress/gzip"
@@ -16,15 +16,18 @@ import (
 	"strings"
 	"testing"
 	"time"
+
+	"starvet/catalog"
+	"starvet/internal/position"
 )
 
-const dataDir = "../testdata/ingest"
+const dataDir = "../../testdata/ingest"
 
 func path(name string) string { return filepath.Join(dataDir, name) }
 
-func mustRead(t *testing.T, spec Spec) (*Table, *Report) {
+func mustRead(t *testing.T, spec catalog.Spec) (*catalog.Table, *catalog.Report) {
 	t.Helper()
-	tab, rep, err := Read(context.Background(), spec, ReadOptions{})
+	tab, rep, err := Read(context.Background(), spec, catalog.ReadOptions{})
 	if err != nil {
 		t.Fatalf("Read(%s): %v", spec.File, err)
 	}
@@ -36,7 +39,7 @@ func mustRead(t *testing.T, spec Spec) (*Table, *Report) {
 	}
 	for f, c := range tab.Cols {
 		if c != nil && len(c) != tab.Len() {
-			t.Errorf("column %s has %d values, table %d rows", Fields[f].Name, len(c), tab.Len())
+			t.Errorf("column %s has %d values, table %d rows", catalog.Fields[f].Name, len(c), tab.Len())
 		}
 	}
 	return tab, rep
@@ -50,8 +53,8 @@ func near(got, want, relTol float64) bool {
 }
 
 func TestUnitConversions(t *testing.T) {
-	spec := Spec{
-		Name: "wren_spec", File: path("units.csv"), Role: Spectroscopy, EpochJyr: 2020.5,
+	spec := catalog.Spec{
+		Name: "wren_spec", File: path("units.csv"), Role: catalog.Spectroscopy, EpochJyr: 2020.5,
 		Columns: map[string]string{"id": "src", "ra": "RA_h", "distance": "dist"},
 		Units: map[string]string{"ra": "hour", "ra_err": "arcsec", "dec_err": "deg",
 			"pm_ra": "arcsec/yr", "pm_dec": "arcsec/yr", "rv": "m/s", "rv_err": "m/s",
@@ -68,24 +71,24 @@ func TestUnitConversions(t *testing.T) {
 	// 1 h = 15 deg, 1 arcsec = 1000 mas, 1 deg = 3.6e6 mas, 1 km/s = 1000 m/s,
 	// 1 kpc = 1000 pc.
 	want := []struct {
-		f    Field
+		f    catalog.Field
 		vals []float64
 	}{
-		{RA, []float64{0, 180, 352.5}},
-		{Dec, []float64{0, -45.5, 89.9}},
-		{RAErr, []float64{100, 1, 1000}},
-		{DecErr, []float64{720000, 7200, 3.6e6}},
-		{Parallax, []float64{0.5, 1.25, 0}},
-		{PMRA, []float64{12, -100, 0}},
-		{PMDec, []float64{-3, 50, 0}},
-		{RV, []float64{250, -12.3456, 0}},
-		{RVErr, []float64{1.5, 0.1, 0}},
-		{Distance, []float64{1, 8.122, 0.25}},
-		{DistanceErr, []float64{0.05, 0.1, 0.025}},
-		{Mag, []float64{15.2, 17.9, math.NaN()}},
+		{catalog.RA, []float64{0, 180, 352.5}},
+		{catalog.Dec, []float64{0, -45.5, 89.9}},
+		{catalog.RAErr, []float64{100, 1, 1000}},
+		{catalog.DecErr, []float64{720000, 7200, 3.6e6}},
+		{catalog.Parallax, []float64{0.5, 1.25, 0}},
+		{catalog.PMRA, []float64{12, -100, 0}},
+		{catalog.PMDec, []float64{-3, 50, 0}},
+		{catalog.RV, []float64{250, -12.3456, 0}},
+		{catalog.RVErr, []float64{1.5, 0.1, 0}},
+		{catalog.Distance, []float64{1, 8.122, 0.25}},
+		{catalog.DistanceErr, []float64{0.05, 0.1, 0.025}},
+		{catalog.Mag, []float64{15.2, 17.9, math.NaN()}},
 	}
 	for _, w := range want {
-		t.Run(Fields[w.f].Name, func(t *testing.T) {
+		t.Run(catalog.Fields[w.f].Name, func(t *testing.T) {
 			got := tab.Col(w.f)
 			if len(got) != len(w.vals) {
 				t.Fatalf("len %d, want %d", len(got), len(w.vals))
@@ -97,19 +100,19 @@ func TestUnitConversions(t *testing.T) {
 			}
 		})
 	}
-	if tab.Cols[PMRAErr] != nil || tab.Cols[DistMod] != nil {
+	if tab.Cols[catalog.PMRAErr] != nil || tab.Cols[catalog.DistMod] != nil {
 		t.Errorf("absent columns should be nil")
 	}
 	if fmt.Sprint(tab.IDs) != "[wren-0001 wren-0002 wren-0003]" || fmt.Sprint(tab.Lines) != "[2 3 4]" {
 		t.Errorf("ids %v lines %v", tab.IDs, tab.Lines)
 	}
-	if tab.Name != "wren_spec" || tab.Role != Spectroscopy || tab.EpochJyr != 2020.5 {
+	if tab.Name != "wren_spec" || tab.Role != catalog.Spectroscopy || tab.EpochJyr != 2020.5 {
 		t.Errorf("table metadata not carried: %+v", tab)
 	}
 }
 
 func TestDistanceModulus(t *testing.T) {
-	spec := Spec{Name: "heron", File: path("modulus.csv"), Units: map[string]string{"distance": "mag"}}
+	spec := catalog.Spec{Name: "heron", File: path("modulus.csv"), Units: map[string]string{"distance": "mag"}}
 	tab, _ := mustRead(t, spec)
 	// d = 10^(mu/5+1) pc, the definition of the distance modulus
 	// mu = 5 log10(d / 10 pc) (common practice): mu = 0 -> 10 pc,
@@ -118,24 +121,24 @@ func TestDistanceModulus(t *testing.T) {
 	muErr := []float64{0.1, 0.2, 0, 0.1}
 	for i, w := range wantKpc {
 		t.Run(tab.IDs[i], func(t *testing.T) {
-			if got := tab.Cols[Distance][i]; !near(got, w, 1e-12) {
+			if got := tab.Cols[catalog.Distance][i]; !near(got, w, 1e-12) {
 				t.Errorf("distance %.15g kpc, want %.15g", got, w)
 			}
-			if got := tab.Cols[DistModErr][i]; got != muErr[i] {
+			if got := tab.Cols[catalog.DistModErr][i]; got != muErr[i] {
 				t.Errorf("modulus error kept as %g, want %g", got, muErr[i])
 			}
 			// Independent check of sigma_d = d ln10/5 sigma_mu: central
 			// finite difference of d(mu) (analytic identity to O(h^2)).
-			mu := tab.Cols[DistMod][i]
+			mu := tab.Cols[catalog.DistMod][i]
 			if math.IsNaN(w) {
-				if !math.IsNaN(mu) || !math.IsNaN(tab.Cols[DistanceErr][i]) {
+				if !math.IsNaN(mu) || !math.IsNaN(tab.Cols[catalog.DistanceErr][i]) {
 					t.Errorf("missing modulus must give NaN modulus and error")
 				}
 				return
 			}
 			const h = 1e-5
 			dd := (math.Pow(10, (mu+h)/5+1) - math.Pow(10, (mu-h)/5+1)) / (2 * h) / 1000
-			if got, want := tab.Cols[DistanceErr][i], dd*muErr[i]; !near(got, want, 1e-8) {
+			if got, want := tab.Cols[catalog.DistanceErr][i], dd*muErr[i]; !near(got, want, 1e-8) {
 				t.Errorf("distance error %.12g, want %.12g", got, want)
 			}
 		})
@@ -159,17 +162,17 @@ func TestAutomapGzipAndNullMarkers(t *testing.T) {
 		{"gzip", "auto.csv.gz", nil, []float64{0.8, -999}, []float64{-3.5, nan}, 2, 0, 0, nil},
 		{"own markers", "auto.csv", []string{"-999", "null", "NaN"}, []float64{0.8, nan}, []float64{-3.5, nan}, 2, 0, 0, nil},
 		// "NaN" is no longer a marker, so the text is refused, not guessed.
-		{"NaN not a marker", "auto.csv", []string{"-999", "null"}, []float64{0.8}, []float64{-3.5}, 1, 3, 6, ErrNotNumber},
+		{"NaN not a marker", "auto.csv", []string{"-999", "null"}, []float64{0.8}, []float64{-3.5}, 1, 3, 6, catalog.ErrNotNumber},
 	}
 	for _, c := range cases {
 		t.Run(c.name, func(t *testing.T) {
-			tab, rep := mustRead(t, Spec{Name: "lark", File: path(c.file), NullMarkers: c.markers})
+			tab, rep := mustRead(t, catalog.Spec{Name: "lark", File: path(c.file), NullMarkers: c.markers})
 			if rep.RowsKept != c.kept {
 				t.Fatalf("kept %d, want %d (%+v)", rep.RowsKept, c.kept, rep.Quarantined)
 			}
 			for i := range c.parallax {
-				if !near(tab.Cols[Parallax][i], c.parallax[i], 0) || !near(tab.Cols[PMRA][i], c.pmRA[i], 0) {
-					t.Errorf("row %d: parallax %g pm_ra %g, want %g %g", i, tab.Cols[Parallax][i], tab.Cols[PMRA][i], c.parallax[i], c.pmRA[i])
+				if !near(tab.Cols[catalog.Parallax][i], c.parallax[i], 0) || !near(tab.Cols[catalog.PMRA][i], c.pmRA[i], 0) {
+					t.Errorf("row %d: parallax %g pm_ra %g, want %g %g", i, tab.Cols[catalog.Parallax][i], tab.Cols[catalog.PMRA][i], c.parallax[i], c.pmRA[i])
 				}
 			}
 			if c.quarError != nil {
@@ -198,9 +201,9 @@ func TestAutomapGzipAndNullMarkers(t *testing.T) {
 func TestExplicitMappingWins(t *testing.T) {
 	// parallax is read from the fit_residual column, so fit_residual must not
 	// also be automapped from it and the parallax header goes unused.
-	tab, rep := mustRead(t, Spec{File: path("auto.csv"), Columns: map[string]string{"parallax": "fit_residual"}})
-	if tab.Cols[Parallax][0] != 1.02 || tab.Cols[FitResidual] != nil {
-		t.Errorf("parallax %v fit_residual %v", tab.Cols[Parallax], tab.Cols[FitResidual])
+	tab, rep := mustRead(t, catalog.Spec{File: path("auto.csv"), Columns: map[string]string{"parallax": "fit_residual"}})
+	if tab.Cols[catalog.Parallax][0] != 1.02 || tab.Cols[catalog.FitResidual] != nil {
+		t.Errorf("parallax %v fit_residual %v", tab.Cols[catalog.Parallax], tab.Cols[catalog.FitResidual])
 	}
 	if fmt.Sprint(rep.Unused) != "[parallax extra_flux]" {
 		t.Errorf("unused = %v", rep.Unused)
@@ -208,19 +211,19 @@ func TestExplicitMappingWins(t *testing.T) {
 }
 
 func TestPositionErrFallback(t *testing.T) {
-	tab, rep := mustRead(t, Spec{File: path("auto.csv"), PositionErrMas: 100})
+	tab, rep := mustRead(t, catalog.Spec{File: path("auto.csv"), PositionErrMas: 100})
 	if rep.PositionErrFilled != 4 {
 		t.Errorf("filled %d, want 4", rep.PositionErrFilled)
 	}
-	for _, f := range []Field{RAErr, DecErr} {
+	for _, f := range []catalog.Field{catalog.RAErr, catalog.DecErr} {
 		if fmt.Sprint(tab.Cols[f]) != "[100 100]" {
-			t.Errorf("%s = %v", Fields[f].Name, tab.Cols[f])
+			t.Errorf("%s = %v", catalog.Fields[f].Name, tab.Cols[f])
 		}
 	}
 }
 
 func TestQuarantine(t *testing.T) {
-	spec := Spec{Name: "bad", File: path("bad.csv")}
+	spec := catalog.Spec{Name: "bad", File: path("bad.csv")}
 	tab, rep := mustRead(t, spec)
 	want := []struct {
 		line, col int
@@ -228,18 +231,18 @@ func TestQuarantine(t *testing.T) {
 		value     string
 		err       error
 	}{
-		{3, 5, "parallax", "abc", ErrNotNumber},
-		{4, 3, "dec", "95.0", ErrOutOfRange},
-		{5, 2, "ra", "360.0", ErrOutOfRange},
-		{6, 4, "ra_err", "-0.1", ErrOutOfRange},
-		{7, 6, "corr_ra_dec", "1.5", ErrOutOfRange},
-		{8, 1, "id", "ok-01", ErrDuplicateID},
-		{9, 1, "id", "", ErrMissingValue},
-		{10, 2, "ra", "", ErrMissingValue},
-		{11, 3, "dec", "null", ErrMissingValue},
-		{12, 6, "", "", ErrFieldCount},
-		{13, 8, "", "", ErrFieldCount},
-		{14, 7, "rv", "inf", ErrNotNumber},
+		{3, 5, "parallax", "abc", catalog.ErrNotNumber},
+		{4, 3, "dec", "95.0", catalog.ErrOutOfRange},
+		{5, 2, "ra", "360.0", catalog.ErrOutOfRange},
+		{6, 4, "ra_err", "-0.1", catalog.ErrOutOfRange},
+		{7, 6, "corr_ra_dec", "1.5", catalog.ErrOutOfRange},
+		{8, 1, "id", "ok-01", catalog.ErrDuplicateID},
+		{9, 1, "id", "", catalog.ErrMissingValue},
+		{10, 2, "ra", "", catalog.ErrMissingValue},
+		{11, 3, "dec", "null", catalog.ErrMissingValue},
+		{12, 6, "", "", catalog.ErrFieldCount},
+		{13, 8, "", "", catalog.ErrFieldCount},
+		{14, 7, "rv", "inf", catalog.ErrNotNumber},
 	}
 	if rep.RowsRead != 14 || rep.RowsKept != 2 || len(rep.Quarantined) != len(want) {
 		t.Fatalf("read %d kept %d quarantined %d", rep.RowsRead, rep.RowsKept, len(rep.Quarantined))
@@ -275,13 +278,13 @@ func lineText(t *testing.T, line int) string {
 }
 
 func TestStrict(t *testing.T) {
-	_, _, err := Read(context.Background(), Spec{File: path("bad.csv")}, ReadOptions{Strict: true})
-	var re *RowError
-	if !errors.As(err, &re) || !errors.Is(err, ErrNotNumber) {
-		t.Fatalf("err = %v, want *RowError wrapping ErrNotNumber", err)
+	_, _, err := Read(context.Background(), catalog.Spec{File: path("bad.csv")}, catalog.ReadOptions{Strict: true})
+	var re *position.Error
+	if !errors.As(err, &re) || !errors.Is(err, catalog.ErrNotNumber) {
+		t.Fatalf("err = %v, want *position.Error wrapping ErrNotNumber", err)
 	}
 	want := path("bad.csv") + `:3:5: column "parallax" value "abc": not a number`
-	if err.Error() != want || re.Line != 3 || re.Column != 5 {
+	if err.Error() != want || re.Line != 3 || re.Col != 5 || re.Name != "parallax" {
 		t.Errorf("error %q, want %q", err.Error(), want)
 	}
 }
@@ -289,30 +292,30 @@ func TestStrict(t *testing.T) {
 func TestFileErrors(t *testing.T) {
 	cases := []struct {
 		name  string
-		spec  Spec
+		spec  catalog.Spec
 		err   error
 		also  error
 		line  int
 		inMsg string
 	}{
-		{"missing file", Spec{File: path("no-such.csv")}, ErrNoFile, fs.ErrNotExist, 0, "no-such.csv"},
-		{"no ra column", Spec{File: path("nora.csv")}, ErrMissingColumn, nil, 1, "required field ra"},
-		{"mapped column absent", Spec{File: path("auto.csv"), Columns: map[string]string{"rv": "vrad"}}, ErrMissingColumn, nil, 1, `"vrad"`},
-		{"not gzip", Spec{File: path("corrupt.csv.gz")}, ErrUnreadable, nil, 0, "gzip"},
-		{"truncated gzip", Spec{File: path("truncated.csv.gz")}, ErrUnreadable, nil, 1, "unexpected EOF"},
-		{"empty file", Spec{File: path("empty.csv")}, ErrBadHeader, nil, 1, "empty"},
-		{"unknown field", Spec{File: path("auto.csv"), Columns: map[string]string{"paralax": "x"}}, ErrBadSpec, nil, 0, `"paralax"`},
-		{"derived field", Spec{File: path("auto.csv"), Columns: map[string]string{"distance_modulus": "x"}}, ErrBadSpec, nil, 0, `"distance_modulus"`},
-		{"unknown unit", Spec{File: path("auto.csv"), Units: map[string]string{"rv": "furlong/fortnight"}}, ErrBadSpec, ErrBadUnit, 0, "furlong"},
-		{"mixed modulus", Spec{File: path("auto.csv"), Units: map[string]string{"distance": "mag", "distance_err": "kpc"}}, ErrBadSpec, nil, 0, "mag"},
-		{"negative fallback", Spec{File: path("auto.csv"), PositionErrMas: -1}, ErrBadSpec, nil, 0, "position_err_mas"},
+		{"missing file", catalog.Spec{File: path("no-such.csv")}, catalog.ErrNoFile, fs.ErrNotExist, 0, "no-such.csv"},
+		{"no ra column", catalog.Spec{File: path("nora.csv")}, catalog.ErrMissingColumn, nil, 1, "required field ra"},
+		{"mapped column absent", catalog.Spec{File: path("auto.csv"), Columns: map[string]string{"rv": "vrad"}}, catalog.ErrMissingColumn, nil, 1, `"vrad"`},
+		{"not gzip", catalog.Spec{File: path("corrupt.csv.gz")}, catalog.ErrUnreadable, nil, 0, "gzip"},
+		{"truncated gzip", catalog.Spec{File: path("truncated.csv.gz")}, catalog.ErrUnreadable, nil, 1, "unexpected EOF"},
+		{"empty file", catalog.Spec{File: path("empty.csv")}, catalog.ErrBadHeader, nil, 1, "empty"},
+		{"unknown field", catalog.Spec{File: path("auto.csv"), Columns: map[string]string{"paralax": "x"}}, catalog.ErrBadSpec, nil, 0, `"paralax"`},
+		{"derived field", catalog.Spec{File: path("auto.csv"), Columns: map[string]string{"distance_modulus": "x"}}, catalog.ErrBadSpec, nil, 0, `"distance_modulus"`},
+		{"unknown unit", catalog.Spec{File: path("auto.csv"), Units: map[string]string{"rv": "furlong/fortnight"}}, catalog.ErrBadSpec, catalog.ErrBadUnit, 0, "furlong"},
+		{"mixed modulus", catalog.Spec{File: path("auto.csv"), Units: map[string]string{"distance": "mag", "distance_err": "kpc"}}, catalog.ErrBadSpec, nil, 0, "mag"},
+		{"negative fallback", catalog.Spec{File: path("auto.csv"), PositionErrMas: -1}, catalog.ErrBadSpec, nil, 0, "position_err_mas"},
 	}
 	for _, c := range cases {
 		t.Run(c.name, func(t *testing.T) {
-			_, _, err := Read(context.Background(), c.spec, ReadOptions{})
-			var fe *FileError
+			_, _, err := Read(context.Background(), c.spec, catalog.ReadOptions{})
+			var fe *position.Error
 			if !errors.As(err, &fe) || !errors.Is(err, c.err) || (c.also != nil && !errors.Is(err, c.also)) {
-				t.Fatalf("err = %v, want *FileError wrapping %v", err, c.err)
+				t.Fatalf("err = %v, want *position.Error wrapping %v", err, c.err)
 			}
 			if fe.Line != c.line || fe.File != c.spec.File || !strings.Contains(err.Error(), c.inMsg) || !strings.HasPrefix(err.Error(), c.spec.File+":") {
 				t.Errorf("err %q (line %d), want line %d, file prefix and %q", err, fe.Line, c.line, c.inMsg)
@@ -327,9 +330,9 @@ func TestDuplicateHeader(t *testing.T) {
 	if err := os.WriteFile(p, []byte("id,ra,dec,ra\nx,1,2,3\n"), 0o644); err != nil {
 		t.Fatal(err)
 	}
-	_, _, err := Read(context.Background(), Spec{File: p}, ReadOptions{})
-	var fe *FileError
-	if !errors.As(err, &fe) || !errors.Is(err, ErrBadHeader) || fe.Line != 1 || fe.Column != 2 {
+	_, _, err := Read(context.Background(), catalog.Spec{File: p}, catalog.ReadOptions{})
+	var fe *position.Error
+	if !errors.As(err, &fe) || !errors.Is(err, catalog.ErrBadHeader) || fe.Line != 1 || fe.Col != 2 {
 		t.Fatalf("err = %v, want bad header at 1:2", err)
 	}
 }
@@ -341,11 +344,11 @@ func TestMalformedQuotesAndBOM(t *testing.T) {
 	if err := os.WriteFile(p, []byte(body), 0o644); err != nil {
 		t.Fatal(err)
 	}
-	tab, rep := mustRead(t, Spec{File: p})
+	tab, rep := mustRead(t, catalog.Spec{File: p})
 	if fmt.Sprint(tab.IDs) != "[q-1 q-3]" || len(rep.Quarantined) != 1 {
 		t.Fatalf("ids %v quarantined %+v", tab.IDs, rep.Quarantined)
 	}
-	if q := rep.Quarantined[0]; q.Line != 3 || !errors.Is(q.Err, ErrMalformed) {
+	if q := rep.Quarantined[0]; q.Line != 3 || !errors.Is(q.Err, catalog.ErrMalformed) {
 		t.Errorf("quarantine %+v, want line 3 malformed", q)
 	}
 }
@@ -362,7 +365,7 @@ func TestMultiChunkHash(t *testing.T) {
 	if err := os.WriteFile(p, []byte(b.String()), 0o644); err != nil {
 		t.Fatal(err)
 	}
-	tab, rep := mustRead(t, Spec{File: p})
+	tab, rep := mustRead(t, catalog.Spec{File: p})
 	sum := sha256.Sum256([]byte(b.String()))
 	if rep.SHA256 != hex.EncodeToString(sum[:]) {
 		t.Errorf("sha256 mismatch")
@@ -375,15 +378,15 @@ func TestMultiChunkHash(t *testing.T) {
 func TestCancel(t *testing.T) {
 	ctx, cancel := context.WithCancel(context.Background())
 	cancel()
-	if _, _, err := Read(ctx, Spec{File: path("auto.csv")}, ReadOptions{}); !errors.Is(err, context.Canceled) {
+	if _, _, err := Read(ctx, catalog.Spec{File: path("auto.csv")}, catalog.ReadOptions{}); !errors.Is(err, context.Canceled) {
 		t.Errorf("err = %v, want context.Canceled", err)
 	}
 }
 
 func TestWriteRejected(t *testing.T) {
-	_, rep := mustRead(t, Spec{File: path("bad.csv")})
+	_, rep := mustRead(t, catalog.Spec{File: path("bad.csv")})
 	out := filepath.Join(t.TempDir(), "bad.rejected.csv")
-	if err := WriteRejected(out, rep.Header, rep.Quarantined); err != nil {
+	if err := catalog.WriteRejected(out, rep.Header, rep.Quarantined); err != nil {
 		t.Fatal(err)
 	}
 	f, err := os.Open(out)
@@ -412,23 +415,15 @@ func TestWriteRejected(t *testing.T) {
 	}
 }
 
-func TestDistanceFromModulusZeroError(t *testing.T) {
-	d, e := DistanceFromModulus(10, 0)
-	// mu = 10 -> 10^3 pc = 1 kpc (definition of the distance modulus).
-	if d != 1 || e != 0 {
-		t.Errorf("got %g, %g", d, e)
-	}
-}
-
 func TestModulusErrorWithoutModulus(t *testing.T) {
 	p := filepath.Join(t.TempDir(), "m.csv")
 	if err := os.WriteFile(p, []byte("id,ra,dec,distance_err\nm-1,1,2,0.1\n"), 0o644); err != nil {
 		t.Fatal(err)
 	}
-	tab, _ := mustRead(t, Spec{File: p, Units: map[string]string{"distance": "mag"}})
+	tab, _ := mustRead(t, catalog.Spec{File: p, Units: map[string]string{"distance": "mag"}})
 	// Without a modulus the distance is unknown, so its error must be too.
-	if !math.IsNaN(tab.Cols[DistanceErr][0]) || tab.Cols[DistModErr][0] != 0.1 || tab.Cols[Distance] != nil {
-		t.Errorf("distance_err %v, modulus err %v, distance %v", tab.Cols[DistanceErr], tab.Cols[DistModErr], tab.Cols[Distance])
+	if !math.IsNaN(tab.Cols[catalog.DistanceErr][0]) || tab.Cols[catalog.DistModErr][0] != 0.1 || tab.Cols[catalog.Distance] != nil {
+		t.Errorf("distance_err %v, modulus err %v, distance %v", tab.Cols[catalog.DistanceErr], tab.Cols[catalog.DistModErr], tab.Cols[catalog.Distance])
 	}
 }
 
@@ -438,7 +433,7 @@ func TestMultiLineFieldPositions(t *testing.T) {
 	if err := os.WriteFile(p, []byte(body), 0o644); err != nil {
 		t.Fatal(err)
 	}
-	_, rep := mustRead(t, Spec{File: p})
+	_, rep := mustRead(t, catalog.Spec{File: p})
 	want := [][2]int{{3, 4}, {5, 4}} // field 4 of the first record is on line 3
 	if len(rep.Quarantined) != 2 {
 		t.Fatalf("quarantined %+v", rep.Quarantined)
@@ -473,12 +468,12 @@ func TestEarlyExitStopsGoroutines(t *testing.T) {
 		t.Fatal(err)
 	}
 	before := runtime.NumGoroutine()
-	_, _, err = Read(context.Background(), Spec{File: p}, ReadOptions{Strict: true})
-	var re *RowError
-	if !errors.As(err, &re) || re.Line != 12 || re.Column != 4 {
+	_, _, err = Read(context.Background(), catalog.Spec{File: p}, catalog.ReadOptions{Strict: true})
+	var re *position.Error
+	if !errors.As(err, &re) || re.Line != 12 || re.Col != 4 {
 		t.Fatalf("err = %v, want row error at 12:4", err)
 	}
-	tab, rep, err := Read(context.Background(), Spec{File: p}, ReadOptions{})
+	tab, rep, err := Read(context.Background(), catalog.Spec{File: p}, catalog.ReadOptions{})
 	if err != nil || tab.Len() != 49999 || rep.RowsRead != 50000 {
 		t.Fatalf("non-strict: %v, kept %d of %d", err, tab.Len(), rep.RowsRead)
 	}

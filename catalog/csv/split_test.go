@@ -1,4 +1,4 @@
-package catalog
+package csvcat
 
 import (
 	"bytes"
@@ -14,6 +14,9 @@ import (
 	"strconv"
 	"strings"
 	"testing"
+
+	"starvet/catalog"
+	"starvet/internal/position"
 )
 
 // The reference for the line splitter is encoding/csv reading the whole
@@ -22,7 +25,7 @@ import (
 
 // sameRead compares a read by the splitter with the encoding/csv read of
 // the same spec and returns the first difference, or "".
-func sameRead(spec Spec, opt ReadOptions) string {
+func sameRead(spec catalog.Spec, opt catalog.ReadOptions) string {
 	t1, r1, e1 := read(context.Background(), spec, opt, false)
 	ref := opt
 	ref.Workers = 1
@@ -34,19 +37,24 @@ func sameRead(spec Spec, opt ReadOptions) string {
 		if e1.Error() != e2.Error() || reflect.TypeOf(e1) != reflect.TypeOf(e2) {
 			return fmt.Sprintf("error %q (%T), reference %q (%T)", e1, e1, e2, e2)
 		}
-		for _, s := range []error{ErrNotNumber, ErrOutOfRange, ErrDuplicateID, ErrMissingValue, ErrFieldCount,
-			ErrMalformed, ErrNoFile, ErrMissingColumn, ErrBadHeader, ErrUnreadable, ErrBadSpec} {
+		for _, s := range []error{catalog.ErrNotNumber, catalog.ErrOutOfRange, catalog.ErrDuplicateID, catalog.ErrMissingValue, catalog.ErrFieldCount,
+			catalog.ErrMalformed, catalog.ErrNoFile, catalog.ErrMissingColumn, catalog.ErrBadHeader, catalog.ErrUnreadable, catalog.ErrBadSpec} {
 			if errors.Is(e1, s) != errors.Is(e2, s) {
 				return fmt.Sprintf("error %q: errors.Is(%v) differs", e1, s)
 			}
 		}
-		var f1, f2 *FileError
-		if errors.As(e1, &f1) && errors.As(e2, &f2) && (f1.Line != f2.Line || f1.Column != f2.Column) {
-			return fmt.Sprintf("file error at %d:%d, reference %d:%d", f1.Line, f1.Column, f2.Line, f2.Column)
-		}
-		var w1, w2 *RowError
-		if errors.As(e1, &w1) && errors.As(e2, &w2) && *w1 != *w2 {
-			return fmt.Sprintf("row error %+v, reference %+v", *w1, *w2)
+		// Every field of the two errors must agree; the wrapped errors are
+		// compared by their text, their sentinels by errors.Is above.
+		var w1, w2 *position.Error
+		if errors.As(e1, &w1) && errors.As(e2, &w2) {
+			a, b := *w1, *w2
+			if fmt.Sprint(a.Err) != fmt.Sprint(b.Err) {
+				return fmt.Sprintf("error wraps %v, reference %v", a.Err, b.Err)
+			}
+			a.Err, b.Err = nil, nil
+			if a != b {
+				return fmt.Sprintf("error %+v, reference %+v", a, b)
+			}
 		}
 	}
 	if !reflect.DeepEqual(r1, r2) {
@@ -67,11 +75,11 @@ func sameRead(spec Spec, opt ReadOptions) string {
 	for f := range t1.Cols {
 		c1, c2 := t1.Cols[f], t2.Cols[f]
 		if (c1 == nil) != (c2 == nil) || len(c1) != len(c2) {
-			return fmt.Sprintf("column %s: %d values (nil %v), reference %d (nil %v)", Fields[f].Name, len(c1), c1 == nil, len(c2), c2 == nil)
+			return fmt.Sprintf("column %s: %d values (nil %v), reference %d (nil %v)", catalog.Fields[f].Name, len(c1), c1 == nil, len(c2), c2 == nil)
 		}
 		for i := range c1 {
 			if math.Float64bits(c1[i]) != math.Float64bits(c2[i]) {
-				return fmt.Sprintf("column %s row %d: %v, reference %v", Fields[f].Name, i, c1[i], c2[i])
+				return fmt.Sprintf("column %s row %d: %v, reference %v", catalog.Fields[f].Name, i, c1[i], c2[i])
 			}
 		}
 	}
@@ -161,12 +169,12 @@ func TestSplitterMatchesCSV(t *testing.T) {
 		"long line", "id,ra,dec,extra\na,1,2," + longField + "\nb,3,4,x\n" + manyRows(3000, 4)})
 	specs := []struct {
 		name string
-		spec Spec
+		spec catalog.Spec
 	}{
-		{"default", Spec{}},
-		{"markers", Spec{NullMarkers: []string{"NA", "-999"}}},
-		{"units", Spec{Units: map[string]string{"ra": "hour", "parallax": "arcsec", "rv": "m/s"}, PositionErrMas: 50}},
-		{"modulus", Spec{Columns: map[string]string{"distance": "parallax"}, Units: map[string]string{"distance": "mag"}}},
+		{"default", catalog.Spec{}},
+		{"markers", catalog.Spec{NullMarkers: []string{"NA", "-999"}}},
+		{"units", catalog.Spec{Units: map[string]string{"ra": "hour", "parallax": "arcsec", "rv": "m/s"}, PositionErrMas: 50}},
+		{"modulus", catalog.Spec{Columns: map[string]string{"distance": "parallax"}, Units: map[string]string{"distance": "mag"}}},
 	}
 	for i, c := range cases {
 		for _, gz := range []bool{false, true} {
@@ -181,7 +189,7 @@ func TestSplitterMatchesCSV(t *testing.T) {
 					t.Run(fmt.Sprintf("%s/gz=%v/%s/strict=%v", c.name, gz, s.name, strict), func(t *testing.T) {
 						spec := s.spec
 						spec.Name, spec.File = "splitcase", p
-						if d := sameRead(spec, ReadOptions{Strict: strict, Workers: i % 4}); d != "" {
+						if d := sameRead(spec, catalog.ReadOptions{Strict: strict, Workers: i % 4}); d != "" {
 							t.Error(d)
 						}
 					})
@@ -209,11 +217,11 @@ func TestSplitterReadErrors(t *testing.T) {
 			t.Run(fmt.Sprintf("%s/%.3f", b.name, frac), func(t *testing.T) {
 				p := writeTemp(t, dir, fmt.Sprintf("cut-%s-%.3f.csv.gz", b.name, frac), full[:int(frac*float64(len(full)))])
 				for _, strict := range []bool{false, true} {
-					if d := sameRead(Spec{File: p}, ReadOptions{Strict: strict}); d != "" {
+					if d := sameRead(catalog.Spec{File: p}, catalog.ReadOptions{Strict: strict}); d != "" {
 						t.Errorf("strict=%v: %s", strict, d)
 					}
 				}
-				if _, _, err := Read(context.Background(), Spec{File: p}, ReadOptions{}); !errors.Is(err, ErrUnreadable) {
+				if _, _, err := Read(context.Background(), catalog.Spec{File: p}, catalog.ReadOptions{}); !errors.Is(err, catalog.ErrUnreadable) {
 					t.Errorf("err = %v, want ErrUnreadable", err)
 				}
 			})
@@ -237,7 +245,7 @@ func FuzzReadSameAsCSV(f *testing.F) {
 		}
 		p := writeTemp(t, t.TempDir(), "fuzz.csv", body)
 		for _, strict := range []bool{false, true} {
-			if d := sameRead(Spec{File: p, NullMarkers: []string{"NA"}}, ReadOptions{Strict: strict}); d != "" {
+			if d := sameRead(catalog.Spec{File: p, NullMarkers: []string{"NA"}}, catalog.ReadOptions{Strict: strict}); d != "" {
 				t.Errorf("strict=%v: %s", strict, d)
 			}
 		}
@@ -305,11 +313,12 @@ func FuzzParseDecimal(f *testing.F) {
 }
 
 // TestParsePlain checks that plain rows take the one-pass path (the table
-// tests pass either way, as every row it declines goes to parseRow) and
+// tests pass either way, as every row it declines goes to
+// catalog.Layout.ConvertRecord) and
 // that it declines what it must.
 func TestParsePlain(t *testing.T) {
 	header := []string{"id", "note", "ra", "dec", "parallax"}
-	plans := []colPlan{{index: 2, field: RA, factor: 1}, {index: 3, field: Dec, factor: 1}, {index: 4, field: Parallax, factor: 1000}}
+	plans := []catalog.Column{{Index: 2, Field: catalog.RA, Factor: 1}, {Index: 3, Field: catalog.Dec, Factor: 1}, {Index: 4, Field: catalog.Parallax, Factor: 1000}}
 	cases := []struct {
 		line    string
 		markers []string
@@ -334,52 +343,28 @@ func TestParsePlain(t *testing.T) {
 	}
 	for _, c := range cases {
 		t.Run(fmt.Sprintf("%q", c.line), func(t *testing.T) {
-			rp := &rowParser{header: header, plans: plans, idIdx: 0, markers: c.markers}
-			rp.setRoles()
-			var row [NumFields]float64
-			id, ok := rp.parsePlain([]byte(c.line), &row)
+			spec := catalog.Spec{File: "plain.csv", Units: map[string]string{"parallax": "arcsec"}, NullMarkers: append([]string{}, c.markers...)}
+			bld, err := catalog.NewBuilder(spec, header, 1, catalog.ReadOptions{})
+			if err != nil {
+				t.Fatal(err)
+			}
+			if l := bld.Layout(); !reflect.DeepEqual(l.Columns, plans) || l.IDIndex != 0 {
+				t.Fatalf("layout %+v id %d, want %+v id 0", l.Columns, l.IDIndex, plans)
+			}
+			var row [catalog.NumFields]float64
+			id, ok := newConverter(bld.Layout()).parsePlain([]byte(c.line), &row)
 			if ok != c.ok || string(id) != c.id {
 				t.Fatalf("id %q ok %v, want %q %v", id, ok, c.id, c.ok)
 			}
 			if !ok {
 				return
 			}
-			for i, f := range []Field{RA, Dec, Parallax} {
+			for i, f := range []catalog.Field{catalog.RA, catalog.Dec, catalog.Parallax} {
 				if math.Float64bits(row[f]) != math.Float64bits(c.vals[i]) && !(math.IsNaN(row[f]) && math.IsNaN(c.vals[i])) {
-					t.Errorf("%s = %v, want %v", Fields[f].Name, row[f], c.vals[i])
+					t.Errorf("%s = %v, want %v", catalog.Fields[f].Name, row[f], c.vals[i])
 				}
 			}
 		})
-	}
-}
-
-func TestIDIndex(t *testing.T) {
-	rng := rand.New(rand.NewPCG(7, 8))
-	var x idIndex
-	var ids []string
-	ref := map[string]int{}
-	for range 300000 {
-		id := "s" + strconv.Itoa(rng.IntN(200000))
-		h := hashID(id)
-		got := x.find(id, h, ids)
-		want, dup := ref[id]
-		if !dup {
-			want = -1
-		}
-		if got != want {
-			t.Fatalf("find(%q) = %d, want %d", id, got, want)
-		}
-		if !dup {
-			ids = append(ids, id)
-			x.insert(len(ids)-1, h, ids)
-			ref[id] = len(ids) - 1
-		}
-	}
-	if x.n != len(ref) || 2*x.n > len(x.slots) {
-		t.Errorf("%d entries in %d slots, want %d at most half full", x.n, len(x.slots), len(ref))
-	}
-	if hashID("abc") != hashID([]byte("abc")) {
-		t.Errorf("string and byte hashes differ")
 	}
 }
 

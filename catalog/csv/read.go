@@ -1,0 +1,543 @@
+package csvcat
+
+import (
+	"bytes"
+	"compress/gzip"
+	"context"
+	"crypto/sha256"
+	"encoding/csv"
+	"encoding/hex"
+	"errors"
+	"fmt"
+	"io"
+	"math"
+	"os"
+	"strconv"
+	"strings"
+	"sync"
+
+	"starvet/catalog"
+	"starvet/internal/parallel"
+)
+
+// Read ingests one delimited-text catalog file (.csv, or .csv.gz by
+// suffix) into canonical units. File-level problems are returned as
+// *position.Error; row problems quarantine the row (or, with opt.Strict,
+// the first is returned as a *position.Error). The Report is returned,
+// possibly partial, with every error except an unopenable file.
+func Read(ctx context.Context, spec catalog.Spec, opt catalog.ReadOptions) (*catalog.Table, *catalog.Report, error) {
+	return read(ctx, spec, opt, false)
+}
+
+// read is Read; forceCSV has encoding/csv split every record, the reference
+// the tests hold the line splitter to.
+func read(ctx context.Context, spec catalog.Spec, opt catalog.ReadOptions, forceCSV bool) (*catalog.Table, *catalog.Report, error) {
+	name := spec.File
+	rep := &catalog.Report{File: name}
+	if err := spec.Check(); err != nil {
+		return nil, rep, err
+	}
+	in, err := open(name)
+	if errors.Is(err, catalog.ErrNoFile) {
+		return nil, nil, err
+	}
+	if err != nil {
+		return nil, rep, err
+	}
+	defer in.close()
+	ls := newLineSplitter(in.text)
+	if forceCSV {
+		ls.handOver()
+	}
+	header, err := readHeader(name, ls)
+	if err != nil {
+		return nil, rep, err
+	}
+	rep.Header = header
+	bld, err := catalog.NewBuilder(spec, header, 1, opt)
+	if err != nil {
+		return nil, rep, err
+	}
+	if err := stream(ctx, ls, in, bld, parallel.Workers(opt.Workers)); err != nil {
+		return nil, bld.Report(), err
+	}
+	sum, err := in.finish()
+	if err != nil {
+		return nil, bld.Report(), err
+	}
+	t, rep := bld.Finish()
+	rep.SHA256 = sum
+	return t, rep, nil
+}
+
+// input is an opened catalog file: its bytes hashed on a goroutine of
+// their own, then decompressed when the name ends in .gz.
+type input struct {
+	f    *os.File
+	hr   *hashingReader
+	zr   *gzip.Reader
+	text io.Reader // the delimited text
+	size int64     // bytes in the file
+	name string
+}
+
+func open(name string) (*input, error) {
+	f, err := os.Open(name)
+	if err != nil {
+		return nil, catalog.WrapFileError(name, 0, "", catalog.ErrNoFile, err)
+	}
+	st, err := f.Stat()
+	if err != nil {
+		f.Close()
+		return nil, catalog.WrapFileError(name, 0, "", catalog.ErrNoFile, err)
+	}
+	in := &input{f: f, hr: newHashingReader(f), size: st.Size(), name: name}
+	in.text = in.hr
+	if in.gzipped() {
+		if in.zr, err = gzip.NewReader(in.hr); err != nil {
+			in.close()
+			return nil, catalog.WrapFileError(name, 0, "unreadable gzip: ", catalog.ErrUnreadable, err)
+		}
+		in.text = in.zr
+	}
+	return in, nil
+}
+
+// gzipped says whether the file is read through gzip; its size then says
+// little about its rows.
+func (in *input) gzipped() bool { return strings.HasSuffix(strings.ToLower(in.name), ".gz") }
+
+// finish drains whatever the text reader left (a gzip trailer, say), so
+// that the hash covers the whole file, and returns the hex SHA-256.
+func (in *input) finish() (string, error) {
+	if _, err := io.Copy(io.Discard, in.hr); err != nil {
+		return "", readError(in.name, err)
+	}
+	return hex.EncodeToString(in.hr.sum()), nil
+}
+
+func (in *input) close() {
+	if in.zr != nil {
+		in.zr.Close()
+	}
+	in.hr.close()
+	in.f.Close()
+}
+
+// readHeader reads the first record: the column names, a leading byte
+// order mark dropped.
+func readHeader(name string, ls *lineSplitter) ([]string, error) {
+	header, err := ls.readHeader()
+	if err != nil {
+		sentinel := catalog.ErrBadHeader
+		var pe *csv.ParseError
+		if err == io.EOF {
+			err = errors.New("file is empty")
+		} else if !errors.As(err, &pe) {
+			sentinel = catalog.ErrUnreadable
+		}
+		return nil, catalog.WrapFileError(name, 1, "cannot read header: ", sentinel, err)
+	}
+	header = append([]string(nil), header...)
+	if len(header) > 0 {
+		header[0] = strings.TrimPrefix(header[0], "\ufeff")
+	}
+	return header, nil
+}
+
+// presizeAfterRows is when the reader estimates the row count of a plain
+// file from the bytes used so far and has the builder grow every column
+// once, instead of doubling.
+const presizeAfterRows = 4096
+
+// stream runs the batch pipeline (see readBatches) and hands the batches
+// to the builder in file order. The context is checked between batches.
+func stream(ctx context.Context, ls *lineSplitter, in *input, bld *catalog.Builder, workers int) error {
+	conv := newConverter(bld.Layout())
+	batches, stop := readBatches(ls, in.name, conv, workers)
+	defer stop()
+	presized := in.gzipped()
+	for b := range batches {
+		<-b.parsed
+		if err := ctx.Err(); err != nil {
+			return err
+		}
+		if b.fatal != nil {
+			return b.fatal
+		}
+		if err := bld.Add(&b.out, b); err != nil {
+			return err
+		}
+		if !presized && bld.Len() >= presizeAfterRows && len(b.rows) > 0 {
+			if used := b.rows[len(b.rows)-1].offset; used > 0 {
+				bld.Reserve(int(float64(in.size)/float64(used)*float64(bld.Len())*1.02) + 16)
+			}
+			presized = true
+		}
+		b.recycle()
+	}
+	return nil
+}
+
+// batchRows is how many rows the splitting goroutine hands over at a time; the
+// context is checked between batches.
+const batchRows = 4096
+
+// rowRef locates one record inside a batch.
+type rowRef struct {
+	start, end int             // fields[start:end], or text[start:end] for a plain row
+	line       int             // line where the record starts
+	offset     int64           // input bytes consumed after the record
+	parseErr   *csv.ParseError // malformed record, quarantined
+	plain      bool            // a quote-free line in text, not split into fields
+}
+
+type batch struct {
+	text   []byte   // plain rows' lines, back to back
+	fields []string // the fields of the other rows
+	rows   []rowRef
+	out    catalog.Batch // the rows' canonical values
+	fatal  error
+	parsed chan struct{} // closed once convert is done with the batch
+	free   chan *batch
+}
+
+func (b *batch) recycle() {
+	b.text, b.fields, b.rows = b.text[:0], b.fields[:0], b.rows[:0]
+	select {
+	case b.free <- b:
+	default:
+	}
+}
+
+// record returns the fields of row r.
+func (b *batch) record(r int) []string {
+	br := &b.rows[r]
+	if br.plain {
+		return strings.Split(string(b.text[br.start:br.end]), ",")
+	}
+	return b.fields[br.start:br.end]
+}
+
+// Record is catalog.RawRows.Record: nil for a malformed row.
+func (b *batch) Record(r int) []string {
+	if b.rows[r].parseErr != nil {
+		return nil
+	}
+	return b.record(r)
+}
+
+// FieldLine is catalog.RawRows.FieldLine.
+func (b *batch) FieldLine(r, col int) int {
+	lf := lineFields{start: b.rows[r].line, rec: b.record(r)}
+	return lf.pos(col)
+}
+
+// readBatches runs the reader as a pipeline: one goroutine cuts the input
+// into batches of records, workers goroutines convert their numbers
+// (conv.convert, which only reads conv), and the caller takes the batches
+// in file order, checks ids and appends to the table. stop must be called
+// when the caller is done; it waits for every goroutine.
+//
+// parallel.Batches does not fit here: it needs the row count up front and
+// hands out index ranges, while this input is a stream of unknown length
+// whose batches exist only once the splitter has cut them, and must reach
+// the caller in file order while later ones are still being converted.
+func readBatches(ls *lineSplitter, name string, conv *converter, workers int) (<-chan *batch, func()) {
+	work := make(chan *batch, workers)
+	out := make(chan *batch, workers+2) // file order
+	free := make(chan *batch, 2*workers+4)
+	done := make(chan struct{})
+	for range cap(free) {
+		free <- &batch{rows: make([]rowRef, 0, batchRows), free: free}
+	}
+	var wg sync.WaitGroup
+	wg.Add(1 + workers)
+	go func() {
+		defer wg.Done()
+		defer close(out)
+		defer close(work)
+		for {
+			var b *batch
+			select {
+			case b = <-free:
+			case <-done:
+				return
+			}
+			eof := ls.fillBatch(name, b)
+			b.parsed = make(chan struct{})
+			select {
+			case out <- b:
+			case <-done:
+				return
+			}
+			select {
+			case work <- b:
+			case <-done:
+				return
+			}
+			if eof {
+				return
+			}
+		}
+	}()
+	for range workers {
+		go func() {
+			defer wg.Done()
+			for b := range work {
+				conv.convert(b)
+				close(b.parsed)
+			}
+		}()
+	}
+	var once sync.Once
+	return out, func() {
+		once.Do(func() {
+			close(done)
+			for range out {
+			}
+			wg.Wait()
+		})
+	}
+}
+
+// converter turns the records of a batch into canonical numbers. It only
+// reads its fields, so the workers share one.
+type converter struct {
+	l *catalog.Layout
+	// roles[k] says what column k feeds (see newConverter); numericMarker
+	// is set when a null marker reads as a number.
+	roles         []int
+	numericMarker bool
+}
+
+// Column roles of a plain row, besides an index into Layout.Columns.
+const (
+	roleSkip = -1 // a column no field reads
+	roleID   = -2
+)
+
+func newConverter(l *catalog.Layout) *converter {
+	c := &converter{l: l, roles: make([]int, len(l.Header))}
+	for k := range c.roles {
+		c.roles[k] = roleSkip
+	}
+	c.roles[l.IDIndex] = roleID
+	for i, col := range l.Columns {
+		c.roles[col.Index] = i
+	}
+	for _, m := range l.NullMarkers() {
+		if _, ok := parseDecimal([]byte(m)); ok {
+			c.numericMarker = true
+		}
+	}
+	return c
+}
+
+// convert fills b.out: a quote-free line by the one-pass parsePlain, and
+// any row it declines, or that came through encoding/csv, by the general
+// catalog.Layout.ConvertRecord.
+func (c *converter) convert(b *batch) {
+	out := &b.out
+	out.Begin(c.l, len(b.rows))
+	row := out.Row()
+	for r := range b.rows {
+		br := &b.rows[r]
+		if br.plain {
+			if id, ok := c.parsePlain(b.text[br.start:br.end], row); ok {
+				out.Add(br.line, id)
+				continue
+			}
+			// Let the general code below find and word the problem.
+			rec := strings.Split(string(b.text[br.start:br.end]), ",")
+			br.start, br.plain = len(b.fields), false
+			b.fields = append(b.fields, rec...)
+			br.end = len(b.fields)
+		}
+		if pe := br.parseErr; pe != nil {
+			out.Reject(br.line, malformed(pe))
+			continue
+		}
+		lf := lineFields{start: br.line, rec: b.fields[br.start:br.end]}
+		if q := c.l.ConvertRecord(lf.rec, row, lf.pos); q != nil {
+			out.Reject(br.line, q)
+			continue
+		}
+		out.Add(br.line, []byte(lf.rec[c.l.IDIndex]))
+	}
+	out.End()
+}
+
+// malformed is the quarantine of a record encoding/csv could not read.
+func malformed(pe *csv.ParseError) *catalog.Quarantine {
+	q := &catalog.Quarantine{Line: pe.StartLine, Column: 0, Reason: pe.Err.Error(), Err: catalog.ErrMalformed}
+	if pe.Line != pe.StartLine {
+		q.Reason += fmt.Sprintf(" (at line %d)", pe.Line)
+	}
+	return q
+}
+
+// parsePlain converts a quote-free line into row and returns its id cell,
+// splitting and reading numbers in one pass. It reports false whenever the
+// line is not plainly right (wrong field count, a missing id or position, a
+// number strconv refuses, a value out of range), leaving the verdict and
+// its wording to catalog.Layout.ConvertRecord.
+func (c *converter) parsePlain(line []byte, row *[catalog.NumFields]float64) ([]byte, bool) {
+	var id []byte
+	l, cols := c.l, c.l.Columns
+	pos, n := 0, len(line)
+	last := len(c.roles) - 1
+	for k, role := range c.roles {
+		var end int
+		if role >= 0 {
+			v, e, ok := scanDecimal(line, pos)
+			end = e
+			if end < n && line[end] != ',' {
+				ok = false // more than a plain decimal: find the cell's end
+				if j := bytes.IndexByte(line[end:], ','); j >= 0 {
+					end += j
+				} else {
+					end = n
+				}
+			}
+			p := &cols[role]
+			cell := line[pos:end]
+			if (!ok || c.numericMarker) && l.IsNullBytes(cell) {
+				if p.Field == catalog.RA || p.Field == catalog.Dec {
+					return nil, false
+				}
+				row[p.Field] = math.NaN()
+			} else {
+				if !ok {
+					var err error
+					if v, err = strconv.ParseFloat(string(cell), 64); err != nil || math.IsNaN(v) || math.IsInf(v, 0) {
+						return nil, false
+					}
+				}
+				v *= p.Factor
+				if catalog.CheckRange(p.Field, v) != "" {
+					return nil, false
+				}
+				row[p.Field] = v
+			}
+		} else {
+			end = n
+			if j := bytes.IndexByte(line[pos:], ','); j >= 0 {
+				end = pos + j
+			}
+			if role == roleID {
+				id = line[pos:end]
+			}
+		}
+		if (k == last) != (end == n) {
+			return nil, false // more or fewer fields than the header
+		}
+		pos = end + 1
+	}
+	if l.IsNullBytes(id) {
+		return nil, false
+	}
+	return id, true
+}
+
+// lineFields gives the line on which each field of a record starts; quoted
+// fields may span lines (the reader turns their line breaks into \n).
+type lineFields struct {
+	start int
+	rec   []string
+}
+
+func (lf *lineFields) pos(col int) int {
+	line := lf.start
+	for _, f := range lf.rec[:min(col, len(lf.rec))] {
+		line += strings.Count(f, "\n")
+	}
+	return line
+}
+
+// hashingReader reads a file in chunks on its own goroutine, hashing each
+// chunk there, so hashing runs alongside parsing on a second core.
+type hashingReader struct {
+	full  chan chunk
+	free  chan []byte
+	done  chan struct{}
+	cur   []byte
+	buf   []byte
+	err   error
+	total [sha256.Size]byte
+}
+
+type chunk struct {
+	b   []byte
+	err error
+}
+
+const hashChunkBytes = 1 << 20
+
+func newHashingReader(r io.Reader) *hashingReader {
+	h := &hashingReader{full: make(chan chunk, 3), free: make(chan []byte, 4), done: make(chan struct{})}
+	for range 4 {
+		h.free <- make([]byte, hashChunkBytes)
+	}
+	go func() {
+		sum := sha256.New()
+		defer close(h.full)
+		for {
+			var b []byte
+			select {
+			case b = <-h.free:
+			case <-h.done:
+				return
+			}
+			n, err := io.ReadFull(r, b)
+			sum.Write(b[:n])
+			if err == io.ErrUnexpectedEOF {
+				err = io.EOF
+			}
+			if err == io.EOF {
+				copy(h.total[:], sum.Sum(nil))
+			}
+			select {
+			case h.full <- chunk{b[:n], err}:
+			case <-h.done:
+				return
+			}
+			if err != nil {
+				return
+			}
+		}
+	}()
+	return h
+}
+
+func (h *hashingReader) Read(p []byte) (int, error) {
+	for len(h.cur) == 0 {
+		if h.err != nil {
+			return 0, h.err
+		}
+		if h.buf != nil {
+			h.free <- h.buf[:cap(h.buf)]
+			h.buf = nil
+		}
+		c, ok := <-h.full
+		if !ok {
+			h.err = io.EOF
+			continue
+		}
+		h.buf, h.cur, h.err = c.b, c.b, c.err
+	}
+	n := copy(p, h.cur)
+	h.cur = h.cur[n:]
+	return n, nil
+}
+
+// sum is valid once Read has returned io.EOF.
+func (h *hashingReader) sum() []byte { return h.total[:] }
+
+func (h *hashingReader) close() {
+	select {
+	case <-h.done:
+	default:
+		close(h.done)
+	}
+}
