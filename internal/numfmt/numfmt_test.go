@@ -70,3 +70,50 @@ func TestAgainstQualityCases(t *testing.T) {
 		})
 	}
 }
+
+func TestFixed(t *testing.T) {
+	for _, c := range []struct {
+		x        float64
+		decimals int
+		want     string
+	}{
+		{712.38, KmsDecimals, "712"},
+		{48.937, KpcDecimals, "48.9"},
+		{55, MyrDecimals, "55.0"},
+		{2019.5, 1, "2019.5"},
+		{0.5, 2, "0.50"},
+		{-3.25, 1, "-3.2"}, // round half to even on the binary value
+		{math.NaN(), 1, Missing},
+	} {
+		if got := Fixed(c.x, c.decimals); got != c.want {
+			t.Errorf("Fixed(%v, %d) = %q, want %q", c.x, c.decimals, got, c.want)
+		}
+	}
+}
+
+func TestExactAndCSV(t *testing.T) {
+	for _, c := range []struct {
+		x    float64
+		want string
+	}{
+		{1.4, "1.4"},
+		{0.30000000000000004, "0.30000000000000004"}, // not rounded to 0.3
+		{200, "200"},
+		{1e-7, "1e-07"},
+		{3.403605097820214e-07, "3.403605097820214e-07"},
+		{-8.122, "-8.122"},
+	} {
+		if got := Exact(c.x); got != c.want {
+			t.Errorf("Exact(%v) = %q, want %q", c.x, got, c.want)
+		}
+		if got := CSV(c.x); got != c.want {
+			t.Errorf("CSV(%v) = %q, want %q", c.x, got, c.want)
+		}
+	}
+	if got := Exact(math.NaN()); got != Missing {
+		t.Errorf("Exact(NaN) = %q, want Missing", got)
+	}
+	if got := CSV(math.NaN()); got != "" {
+		t.Errorf("CSV(NaN) = %q, want the empty field", got)
+	}
+}
