@@ -102,22 +102,19 @@ func candidates(d *data) []candRow {
 		// A range with a missing end is no range.
 		rng := numfmt.Missing
 		if !math.IsNaN(s.SpeedP16Kms) && !math.IsNaN(s.SpeedP84Kms) {
-			rng = kms(s.SpeedP16Kms) + "–" + kms(s.SpeedP84Kms)
+			rng = numfmt.Kms(s.SpeedP16Kms) + "–" + numfmt.Kms(s.SpeedP84Kms)
 		}
 		out = append(out, candRow{
 			StarID: s.StarID, Status: s.Status, Color: hexColor(styleOf(s.Status).Color),
-			Speed: kms(s.SpeedP50Kms), Range: rng,
-			RGC: numfmt.Fixed(s.RGCKpc, numfmt.KpcDecimals), VEsc: kms(s.VEscKms),
-			PUnbound: prob(s.PUnbound), PUnboundL: prob(s.PUnboundLower),
-			Origin: origin, GCCons: prob(s.GCConsistency), Flight: numfmt.Fixed(s.FlightTimeMyr, numfmt.MyrDecimals),
+			Speed: numfmt.Kms(s.SpeedP50Kms), Range: rng,
+			RGC: numfmt.Kpc(s.RGCKpc), VEsc: numfmt.Kms(s.VEscKms),
+			PUnbound: numfmt.Prob(s.PUnbound), PUnboundL: numfmt.Prob(s.PUnboundLower),
+			Origin: origin, GCCons: numfmt.Prob(s.GCConsistency), Flight: numfmt.Myr(s.FlightTimeMyr),
 			DistMethod: dm, Carried: s.Carried(),
 		})
 	}
 	return out
 }
-
-func kms(x float64) string  { return numfmt.Fixed(x, numfmt.KmsDecimals) }
-func prob(x float64) string { return numfmt.Sig(x, numfmt.ProbDigits) }
 
 // thresholdsText states the p_unbound thresholds the run's verdicts were
 // decided with, as the run recorded them.

@@ -90,7 +90,7 @@ func runList(ctx context.Context, env *Env, args []string) error {
 			if v.Carried() {
 				comp += "*"
 			}
-			_, err := fmt.Fprintf(w, "%-24s %-10s %-7s %-9s %12s %9s\n", v.StarID, v.Status, q, comp, kms(v.SpeedP50Kms), prob(v.PUnbound))
+			_, err := fmt.Fprintf(w, "%-24s %-10s %-7s %-9s %12s %9s\n", v.StarID, v.Status, q, comp, numfmt.Kms(v.SpeedP50Kms), numfmt.Prob(v.PUnbound))
 			return err
 		})
 		if err != nil {

@@ -125,12 +125,12 @@ func writeHistory(w io.Writer, h *db.StarHistory, settings map[int64]*db.RunSett
 			fmt.Fprintf(w, "  kinematics (%s):\n", orDash(v.ModelName))
 			fmt.Fprintf(w, "    distance from %s, radial velocity %s\n", orDash(v.DistanceMethod), map[bool]string{true: "measured", false: "not measured"}[v.HasRV])
 			fmt.Fprintf(w, "    speed p16/p50/p84   %s / %s / %s km/s (lower bound p50 %s km/s)\n",
-				kms(v.SpeedP16Kms), kms(v.SpeedP50Kms), kms(v.SpeedP84Kms), kms(v.SpeedLowerP50Kms))
+				numfmt.Kms(v.SpeedP16Kms), numfmt.Kms(v.SpeedP50Kms), numfmt.Kms(v.SpeedP84Kms), numfmt.Kms(v.SpeedLowerP50Kms))
 			fmt.Fprintf(w, "    r_gc %s kpc, escape speed %s km/s, p_unbound %s (lower bound %s)\n",
-				numfmt.Fixed(v.RGCKpc, numfmt.KpcDecimals), kms(v.VEscKms), prob(v.PUnbound), prob(v.PUnboundLower))
+				numfmt.Kpc(v.RGCKpc), numfmt.Kms(v.VEscKms), numfmt.Prob(v.PUnbound), numfmt.Prob(v.PUnboundLower))
 			if v.Origin != "" || !math.IsNaN(v.PGCOrigin) || !math.IsNaN(v.FlightTimeMyr) {
 				fmt.Fprintf(w, "    origin %s, p_gc_origin %s, gc_consistency %s, flight time %s Myr\n",
-					orDash(v.Origin), prob(v.PGCOrigin), prob(v.GCConsistency), numfmt.Fixed(v.FlightTimeMyr, numfmt.MyrDecimals))
+					orDash(v.Origin), numfmt.Prob(v.PGCOrigin), numfmt.Prob(v.GCConsistency), numfmt.Myr(v.FlightTimeMyr))
 			}
 		}
 		if len(c.Matches) > 0 {
@@ -141,7 +141,7 @@ func writeHistory(w io.Writer, h *db.StarHistory, settings map[int64]*db.RunSett
 					amb = " ambiguous"
 				}
 				fmt.Fprintf(w, "    %-16s counterpart %-16s sep %s arcsec, p %s, %d candidates%s\n",
-					m.Catalog, orDash(m.CounterpartID), numfmt.Sig(m.SepArcsec, numfmt.SepDigits), prob(m.MatchProb), m.Candidates, amb)
+					m.Catalog, orDash(m.CounterpartID), numfmt.Sep(m.SepArcsec), numfmt.Prob(m.MatchProb), m.Candidates, amb)
 			}
 		}
 	}
@@ -179,9 +179,6 @@ func changed(x, other float64) string {
 	}
 	return string(numfmt.AppendAgainst(nil, x, other))
 }
-
-func kms(x float64) string  { return numfmt.Fixed(x, numfmt.KmsDecimals) }
-func prob(x float64) string { return numfmt.Sig(x, numfmt.ProbDigits) }
 
 func orDash(s string) string {
 	if s == "" {

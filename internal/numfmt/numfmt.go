@@ -17,14 +17,27 @@ const (
 	SepDigits  = 4 // arcsecond separations: 0.630642 reads 0.6306
 )
 
-// Decimals for the kinematic summary wherever it is shown (why, list,
-// report): the Monte Carlo spread of a speed is km/s or more, and of a
-// distance or flight time a tenth of its unit or more.
+// Decimals for the kinematic summary wherever it is shown (reasons, why,
+// list, report): the Monte Carlo spread of a speed is km/s or more, and of
+// a distance or flight time a tenth of its unit or more.
 const (
-	KmsDecimals = 0 // speeds: 712.38 km/s reads 712
-	KpcDecimals = 1 // Galactocentric radii: 48.937 kpc reads 48.9
-	MyrDecimals = 1 // flight times: 55.04 Myr reads 55.0
+	kmsDecimals = 0 // speeds: 712.38 km/s reads 712
+	kpcDecimals = 1 // Galactocentric radii: 48.937 kpc reads 48.9
+	myrDecimals = 1 // flight times: 55.04 Myr reads 55.0
 )
+
+// Prob formats a probability (p_unbound, a match posterior, a containment
+// level) with ProbDigits significant digits; NaN is Missing.
+func Prob(p float64) string { return Sig(p, ProbDigits) }
+
+// Sep formats an arcsecond separation with SepDigits significant digits.
+func Sep(arcsec float64) string { return Sig(arcsec, SepDigits) }
+
+// Kms formats a speed in km/s, Kpc a Galactocentric radius in kpc and Myr
+// a flight time in Myr; NaN is Missing.
+func Kms(v float64) string { return Fixed(v, kmsDecimals) }
+func Kpc(r float64) string { return Fixed(r, kpcDecimals) }
+func Myr(t float64) string { return Fixed(t, myrDecimals) }
 
 // Fixed formats x with exactly decimals digits after the point, so a
 // table column lines up; NaN is Missing.

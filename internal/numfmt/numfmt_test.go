@@ -77,9 +77,9 @@ func TestFixed(t *testing.T) {
 		decimals int
 		want     string
 	}{
-		{712.38, KmsDecimals, "712"},
-		{48.937, KpcDecimals, "48.9"},
-		{55, MyrDecimals, "55.0"},
+		{712.38, kmsDecimals, "712"},
+		{48.937, kpcDecimals, "48.9"},
+		{55, myrDecimals, "55.0"},
 		{2019.5, 1, "2019.5"},
 		{0.5, 2, "0.50"},
 		{-3.25, 1, "-3.2"}, // round half to even on the binary value
@@ -115,5 +115,20 @@ func TestExactAndCSV(t *testing.T) {
 	}
 	if got := CSV(math.NaN()); got != "" {
 		t.Errorf("CSV(NaN) = %q, want the empty field", got)
+	}
+}
+
+func TestQuantities(t *testing.T) {
+	nan := math.NaN()
+	for _, c := range []struct{ got, want string }{
+		{Prob(0.99), "0.99"}, {Prob(0.9996), "1"}, {Prob(3.403605097820214e-07), "3.4e-07"}, {Prob(nan), Missing},
+		{Sep(0.630642), "0.6306"}, {Sep(nan), Missing},
+		{Kms(712.5001), "713"}, {Kms(-12.4), "-12"}, {Kms(nan), Missing},
+		{Kpc(48.937), "48.9"}, {Kpc(nan), Missing},
+		{Myr(55.04), "55.0"}, {Myr(nan), Missing},
+	} {
+		if c.got != c.want {
+			t.Errorf("got %q, want %q", c.got, c.want)
+		}
 	}
 }
