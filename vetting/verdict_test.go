@@ -16,7 +16,7 @@ func TestPUnboundReasonText(t *testing.T) {
 	s := &runSettings{campaign: &campaign.Campaign{Kinematics: campaign.Kinematics{UnboundP: 0.9, MarginalP: 0.5, VelocityPriorKms: 250}},
 		modelName: "invented-model"}
 	for _, c := range []struct {
-		r                    kinematics.Result
+		r                  kinematics.Result
 		threshold, message string
 	}{
 		{kinematics.Result{PUnbound: 0.99012345, PUnboundFlat: math.NaN(), SpeedKms: [3]float64{801.4, 912.62, 1003.3}, VEscKms: [3]float64{0, 512.49, 0}},
