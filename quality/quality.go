@@ -117,7 +117,7 @@ func NewEvaluator(rs *rules.RuleSet, ctx Context) *Evaluator {
 	e.order = append(e.order, later...)
 	for i, r := range rs.Rules {
 		e.thresholds[i] = r.Threshold()
-		t := ruleTexts{limit: fmtNum(r.Limit), minProb: fmtNum(r.MinProb), maxSep: fmtNum(r.MaxSepArcsec)}
+		t := ruleTexts{limit: numfmt.Exact(r.Limit), minProb: numfmt.Exact(r.MinProb), maxSep: numfmt.Exact(r.MaxSepArcsec)}
 		op := " >= "
 		if r.Dir == rules.Max {
 			op = " <= "
@@ -372,7 +372,7 @@ func duplicate(s *Star, o *Outcome, a *Assessment) (string, string) {
 		a.buf = append(a.buf, "duplicate_flag missing, "...)
 	} else {
 		a.buf = append(a.buf, "duplicate_flag "...)
-		a.buf = strconv.AppendFloat(a.buf, flag, 'g', -1, 64)
+		a.buf = append(a.buf, numfmt.Exact(flag)...)
 		a.buf = append(a.buf, ", "...)
 	}
 	a.buf = append(a.buf, "dup_count "...)
@@ -581,11 +581,4 @@ func (e *Evaluator) derived(v rules.Var, s *Star) float64 {
 		return float64(m.Candidates)
 	}
 	panic("quality: unknown variable kind")
-}
-
-func fmtNum(x float64) string {
-	if math.IsNaN(x) {
-		return ""
-	}
-	return strconv.FormatFloat(x, 'g', -1, 64)
 }

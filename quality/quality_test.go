@@ -8,6 +8,7 @@ import (
 	"testing"
 
 	"starvet/catalog"
+	"starvet/internal/numfmt"
 	"starvet/rules"
 )
 
@@ -69,7 +70,7 @@ func TestThresholds(t *testing.T) {
 		{"check = \"at_most\"\nfield = \"color\"", catalog.Color, -0.25, true},
 	}
 	for _, c := range checks {
-		rs := parse(t, "[[rule]]\nid = \"r\"\nseverity = \"flag\"\n"+c.check+"\nlimit = "+fmtNum(c.limit)+"\n")
+		rs := parse(t, "[[rule]]\nid = \"r\"\nseverity = \"flag\"\n"+c.check+"\nlimit = "+numfmt.Exact(c.limit)+"\n")
 		inside, outside := below(c.limit), above(c.limit)
 		if !c.max {
 			inside, outside = outside, inside

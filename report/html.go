@@ -10,6 +10,7 @@ import (
 	"time"
 
 	"starvet/db"
+	"starvet/internal/numfmt"
 	"starvet/internal/vec"
 	"starvet/verdict"
 )
@@ -56,16 +57,9 @@ type pageView struct {
 	EscapeText, GCText, SunText string
 }
 
-func num(x float64, prec int) string {
-	if !vec.Finite(x) {
-		return "–"
-	}
-	return fmt.Sprintf("%.*f", prec, x)
-}
-
 func stamp(t time.Time) string {
 	if t.IsZero() {
-		return "–"
+		return numfmt.Missing
 	}
 	return t.UTC().Format("2006-01-02 15:04:05 UTC")
 }
@@ -99,19 +93,23 @@ func candidates(d *data) []candRow {
 	for _, s := range cs {
 		origin := s.Origin
 		if origin == "" {
-			origin = "–"
+			origin = numfmt.Missing
 		}
 		dm := s.DistanceMethod
 		if dm == "" {
-			dm = "–"
+			dm = numfmt.Missing
+		}
+		// A range with a missing end is no range.
+		rng := numfmt.Missing
+		if !math.IsNaN(s.SpeedP16Kms) && !math.IsNaN(s.SpeedP84Kms) {
+			rng = numfmt.Kms(s.SpeedP16Kms) + "–" + numfmt.Kms(s.SpeedP84Kms)
 		}
 		out = append(out, candRow{
 			StarID: s.StarID, Status: s.Status, Color: hexColor(styleOf(s.Status).Color),
-			Speed: num(s.SpeedP50Kms, 0),
-			Range: num(s.SpeedP16Kms, 0) + "–" + num(s.SpeedP84Kms, 0),
-			RGC:   num(s.RGCKpc, 1), VEsc: num(s.VEscKms, 0),
-			PUnbound: num(s.PUnbound, 3), PUnboundL: num(s.PUnboundLower, 3),
-			Origin: origin, GCCons: num(s.GCConsistency, 3), Flight: num(s.FlightTimeMyr, 1),
+			Speed: numfmt.Kms(s.SpeedP50Kms), Range: rng,
+			RGC: numfmt.Kpc(s.RGCKpc), VEsc: numfmt.Kms(s.VEscKms),
+			PUnbound: numfmt.Prob(s.PUnbound), PUnboundL: numfmt.Prob(s.PUnboundLower),
+			Origin: origin, GCCons: numfmt.Prob(s.GCConsistency), Flight: numfmt.Myr(s.FlightTimeMyr),
 			DistMethod: dm, Carried: s.Carried(),
 		})
 	}
@@ -140,7 +138,7 @@ func renderHTML(d *data, plots []PlotSummary) ([]byte, int, error) {
 	}
 	for _, c := range d.catalogs {
 		v.Catalogs = append(v.Catalogs, catView{Name: c.Name, Release: c.Release, Role: c.Role,
-			Epoch: num(c.Epoch, 1), File: filepath.Base(c.File), Read: c.RowsRead, Kept: c.RowsKept, Quarantined: c.RowsQuarantined})
+			Epoch: numfmt.Fixed(c.Epoch, 1), File: filepath.Base(c.File), Read: c.RowsRead, Kept: c.RowsKept, Quarantined: c.RowsQuarantined})
 	}
 	present := map[string]bool{}
 	for s := range d.counts {
@@ -183,17 +181,17 @@ func renderHTML(d *data, plots []PlotSummary) ([]byte, int, error) {
 	}
 	v.EscapeText = "escape to infinity (the campaign default; this run's setting is not recorded in the ledger)"
 	if d.opt.EscapeRadiusKpc > 0 {
-		v.EscapeText = fmt.Sprintf("escape to r = %g kpc (%s)", d.opt.EscapeRadiusKpc, src)
+		v.EscapeText = "escape to r = " + numfmt.Exact(d.opt.EscapeRadiusKpc) + " kpc (" + src + ")"
 	} else if d.opt.SettingsSource != "" {
 		v.EscapeText = fmt.Sprintf("escape to infinity (%s)", src)
 	}
-	v.GCText = fmt.Sprintf("%g kpc (%s)", d.opt.GCRadiusKpc, src)
+	v.GCText = numfmt.Exact(d.opt.GCRadiusKpc) + " kpc (" + src + ")"
 	if d.gcDefault {
-		v.GCText = fmt.Sprintf("%g kpc (default; not recorded in the ledger)", d.opt.GCRadiusKpc)
+		v.GCText = numfmt.Exact(d.opt.GCRadiusKpc) + " kpc (default; not recorded in the ledger)"
 	}
-	v.SunText = fmt.Sprintf("%g kpc (%s)", d.opt.SunDistanceKpc, src)
+	v.SunText = numfmt.Exact(d.opt.SunDistanceKpc) + " kpc (" + src + ")"
 	if d.sunDefault {
-		v.SunText = fmt.Sprintf("%g kpc (default; not recorded in the ledger)", d.opt.SunDistanceKpc)
+		v.SunText = numfmt.Exact(d.opt.SunDistanceKpc) + " kpc (default; not recorded in the ledger)"
 	}
 	v.Thresholds = thresholdsText(d)
 	var buf bytes.Buffer

@@ -5,7 +5,6 @@ import (
 	"fmt"
 	"image/color"
 	"math"
-	"strconv"
 
 	"gonum.org/v1/plot"
 	"gonum.org/v1/plot/plotter"
@@ -15,6 +14,7 @@ import (
 
 	"starvet/galaxy/frames"
 	"starvet/galaxy/potential"
+	"starvet/internal/numfmt"
 	"starvet/internal/units"
 	"starvet/internal/vec"
 	"starvet/verdict"
@@ -197,7 +197,7 @@ func (linearTicks) Ticks(lo, hi float64) []plot.Tick {
 		v := k * minor
 		t := plot.Tick{Value: v}
 		if math.Abs(math.Remainder(v, step)) < minor/100 {
-			t.Label = strconv.FormatFloat(v, 'f', decimals, 64)
+			t.Label = numfmt.Fixed(v, decimals)
 		}
 		ts = append(ts, t)
 	}
@@ -214,7 +214,7 @@ func boolKeys(m map[string]int) map[string]bool {
 
 func escapeText(rKpc float64) string {
 	if rKpc > 0 {
-		return fmt.Sprintf("(escape to r = %g kpc along the same ray)", rKpc)
+		return "(escape to r = " + numfmt.Exact(rKpc) + " kpc along the same ray)"
 	}
 	return "(escape to infinity)"
 }
@@ -280,12 +280,16 @@ func skyPlot(d *data) (*PlotSummary, []byte, error) {
 		q := proj(lDeg, 0)
 		q.Y -= 0.09
 		lxy = append(lxy, q)
-		ltxt = append(ltxt, fmt.Sprintf("%g°", math.Mod(lDeg+360, 360)))
+		ltxt = append(ltxt, numfmt.Exact(math.Mod(lDeg+360, 360))+"°")
 	}
 	for _, bDeg := range []float64{60, 30, -30, -60} {
 		q := proj(0, bDeg)
 		lxy = append(lxy, q)
-		ltxt = append(ltxt, fmt.Sprintf("%+g°", bDeg))
+		sign := ""
+		if bDeg > 0 {
+			sign = "+"
+		}
+		ltxt = append(ltxt, sign+numfmt.Exact(bDeg)+"°")
 	}
 	labels, err := plotter.NewLabels(plotter.XYLabels{XYs: lxy, Labels: ltxt})
 	if err != nil {
@@ -372,7 +376,7 @@ func pUnboundPlot(d *data) (*PlotSummary, []byte, error) {
 	if ps.Omitted > 0 {
 		ps.Note = fmt.Sprintf("Not drawn: %d star(s) with a radial velocity but no p_unbound.", ps.Omitted)
 	}
-	ps.Note = fmt.Sprintf("%d bins of width %g, stacked by status. ", pUnboundBins, 1.0/pUnboundBins) + ps.Note
+	ps.Note = fmt.Sprintf("%d bins of width %s, stacked by status. ", pUnboundBins, numfmt.Exact(1.0/pUnboundBins)) + ps.Note
 	svg, err := toSVG(p, 7*vg.Inch, 4.2*vg.Inch)
 	return ps, svg, err
 }
@@ -479,7 +483,7 @@ func crossingPlot(d *data) (*PlotSummary, []byte, error) {
 	if err != nil {
 		return ps, nil, err
 	}
-	p.Legend.Add(fmt.Sprintf("centre radius %g kpc", d.opt.GCRadiusKpc), cl)
+	p.Legend.Add("centre radius "+numfmt.Exact(d.opt.GCRadiusKpc)+" kpc", cl)
 	for _, st := range sortStatuses(present) {
 		if err := scatter(p, st, pts[st]); err != nil {
 			return ps, nil, err
@@ -498,17 +502,17 @@ func crossingPlot(d *data) (*PlotSummary, []byte, error) {
 	}
 	dot.GlyphStyle = draw.GlyphStyle{Color: black, Shape: draw.CircleGlyph{}, Radius: 1.2}
 	p.Add(ring, dot)
-	p.Legend.Add(fmt.Sprintf("Sun (x = %g kpc)", -d.opt.SunDistanceKpc), ring, dot)
+	p.Legend.Add("Sun (x = "+numfmt.Exact(-d.opt.SunDistanceKpc)+" kpc)", ring, dot)
 
 	src := d.opt.SettingsSource
 	if src == "" {
 		src = "given in the options"
 	}
-	gcText := fmt.Sprintf("The dashed circle is the centre radius, %g kpc (%s).", d.opt.GCRadiusKpc, src)
+	gcText := "The dashed circle is the centre radius, " + numfmt.Exact(d.opt.GCRadiusKpc) + " kpc (" + src + ")."
 	if d.gcDefault {
-		gcText = fmt.Sprintf("The dashed circle is the centre radius, %g kpc: the default, since this run's setting is not recorded in the ledger.", d.opt.GCRadiusKpc)
+		gcText = "The dashed circle is the centre radius, " + numfmt.Exact(d.opt.GCRadiusKpc) + " kpc: the default, since this run's setting is not recorded in the ledger."
 	}
-	sunText := fmt.Sprintf("Sun at x = %g kpc", -d.opt.SunDistanceKpc)
+	sunText := "Sun at x = " + numfmt.Exact(-d.opt.SunDistanceKpc) + " kpc"
 	if d.sunDefault {
 		sunText += " (starvet's default Solar distance; this run's is not recorded in the ledger)"
 	}

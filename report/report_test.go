@@ -199,8 +199,8 @@ func TestPageContent(t *testing.T) {
 		t.Errorf("candidate rows %s, want %s", got, want)
 	}
 	for _, want := range []string{
-		// U1: speed 1000 (900-1100), r 50.0, v_esc 380, p 0.990, origin, gc 0.800, 55.0 Myr, inverse
-		`<td class="n">1000</td><td class="n">900–1100</td><td class="n">50.0</td><td class="n">380</td><td class="n">0.990</td><td class="n">–</td><td>galactic-centre</td><td class="n">0.800</td><td class="n">55.0</td><td>inverse</td>`,
+		// U1: speed 1000 (900-1100), r 50.0, v_esc 380, p 0.99, no lower bound, origin, gc 0.8, 55.0 Myr, inverse
+		`<td class="n">1000</td><td class="n">900–1100</td><td class="n">50.0</td><td class="n">380</td><td class="n">0.99</td><td class="n">-</td><td>galactic-centre</td><td class="n">0.8</td><td class="n">55.0</td><td>inverse</td>`,
 		`<td>plx-signif</td><td class="n">3</td><td>R1: parallax_significance 2.1 &lt; 5</td>`,
 		`<td>noise</td><td class="n">2</td><td>R1: excess 3 &gt; 2</td>`,
 		`1 rejected star(s) have no stored reasons`,
@@ -377,5 +377,23 @@ func TestReportUsesRecordedSettings(t *testing.T) {
 		if !strings.Contains(page, want) {
 			t.Errorf("run 1: page lacks %q", want)
 		}
+	}
+}
+
+// A candidate with missing values reads numfmt.Missing in every such cell;
+// a speed range with one end missing is no range.
+func TestCandidateMissingCells(t *testing.T) {
+	nan := math.NaN()
+	v := db.VerdictRow{StarID: "X1", Status: "marginal", SpeedP16Kms: nan, SpeedP50Kms: 512.6, SpeedP84Kms: 601.2,
+		RGCKpc: nan, VEscKms: 498.49, PUnbound: 0.6123, PUnboundLower: nan, GCConsistency: nan, FlightTimeMyr: nan,
+		PGCOrigin: nan, SpeedLowerP50Kms: nan}
+	got := candidates(&data{stars: []star{{VerdictRow: v}}})
+	if len(got) != 1 {
+		t.Fatalf("%d candidates, want 1", len(got))
+	}
+	want := candRow{StarID: "X1", Status: "marginal", Color: got[0].Color, Speed: "513", Range: "-", RGC: "-", VEsc: "498",
+		PUnbound: "0.612", PUnboundL: "-", Origin: "-", GCCons: "-", Flight: "-", DistMethod: "-"}
+	if got[0] != want {
+		t.Errorf("candidates = %+v,\nwant %+v", got, want)
 	}
 }

@@ -3,6 +3,7 @@ package rules
 import (
 	"math"
 	"sort"
+	"strconv"
 
 	"starvet/catalog"
 	"starvet/internal/fingerprint"
@@ -29,11 +30,14 @@ type canonicalRule struct {
 	Voids          []string `json:"voids,omitempty"`
 }
 
+// canonNum is a number in the fingerprint: exact, and pinned here rather
+// than shared with text for people, so a change of display never changes a
+// fingerprint.
 func canonNum(x float64) string {
 	if math.IsNaN(x) {
 		return ""
 	}
-	return fmtNum(x)
+	return strconv.FormatFloat(x, 'g', -1, 64)
 }
 
 func ruleFingerprint(r *Rule) string {

@@ -8,12 +8,12 @@ import (
 	"os"
 	"regexp"
 	"sort"
-	"strconv"
 	"strings"
 
 	"github.com/BurntSushi/toml"
 
 	"starvet/catalog"
+	"starvet/internal/numfmt"
 	"starvet/internal/position"
 	"starvet/internal/retired"
 	"starvet/internal/tomlpos"
@@ -686,7 +686,7 @@ func (r *Rule) Threshold() string {
 	case "":
 		return "true"
 	case ParallaxSignificance:
-		return ">= " + fmtNum(r.Limit) + " sigma"
+		return ">= " + numfmt.Exact(r.Limit) + " sigma"
 	case Duplicate:
 		return "no duplicate"
 	case RequiredFields:
@@ -698,10 +698,10 @@ func (r *Rule) Threshold() string {
 	case MatchQuality:
 		var parts []string
 		if !math.IsNaN(r.MinProb) {
-			parts = append(parts, "prob >= "+fmtNum(r.MinProb))
+			parts = append(parts, "prob >= "+numfmt.Exact(r.MinProb))
 		}
 		if !math.IsNaN(r.MaxSepArcsec) {
-			parts = append(parts, "sep <= "+fmtNum(r.MaxSepArcsec)+" arcsec")
+			parts = append(parts, "sep <= "+numfmt.Exact(r.MaxSepArcsec)+" arcsec")
 		}
 		if !r.AllowAmbiguous {
 			parts = append(parts, "unambiguous")
@@ -712,7 +712,7 @@ func (r *Rule) Threshold() string {
 	if r.Dir == Max {
 		op = "<= "
 	}
-	s := op + fmtNum(r.Limit)
+	s := op + numfmt.Exact(r.Limit)
 	if r.Field >= 0 {
 		if u := catalog.Fields[r.Field].Unit; u != "" {
 			s += " " + u
@@ -720,5 +720,3 @@ func (r *Rule) Threshold() string {
 	}
 	return s
 }
-
-func fmtNum(x float64) string { return strconv.FormatFloat(x, 'g', -1, 64) }

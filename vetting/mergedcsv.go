@@ -8,14 +8,15 @@ import (
 	"strconv"
 	"strings"
 
+	"starvet/internal/numfmt"
 	"starvet/quality"
 )
 
 // WriteMerged writes one row per primary source: id, then per secondary
 // catalog <name>_id, <name>_sep_arcsec, <name>_match_prob,
 // <name>_candidates, <name>_ambiguous, then dup_count, and, when as is not
-// nil, quality and failed_rules (ids joined by ";"). Unmatched cells are
-// empty.
+// nil, quality and failed_rules (ids joined by ";"). Numbers keep full
+// precision; unmatched cells are empty.
 func WriteMerged(path string, cats *Catalogs, m *Matched, as []quality.Assessment) (err error) {
 	f, err := os.Create(path)
 	if err != nil {
@@ -56,8 +57,8 @@ func WriteMerged(path string, cats *Catalogs, m *Matched, as []quality.Assessmen
 				continue
 			}
 			rec = append(rec, cp.CounterpartID,
-				strconv.FormatFloat(cp.SepArcsec, 'f', 4, 64),
-				strconv.FormatFloat(cp.Prob, 'g', 6, 64),
+				numfmt.CSV(cp.SepArcsec),
+				numfmt.CSV(cp.Prob),
 				strconv.Itoa(int(cp.Candidates)),
 				strconv.FormatBool(cp.Ambiguous))
 		}

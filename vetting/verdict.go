@@ -7,6 +7,7 @@ import (
 	"starvet/db"
 	"starvet/galaxy/kinematics"
 	"starvet/galaxy/orbit"
+	"starvet/internal/numfmt"
 	"starvet/verdict"
 )
 
@@ -47,14 +48,14 @@ func applyKinematics(rec *db.StarRecord, r *kinematics.Result, t *orbit.TraceRes
 		v.Status = string(verdict.Rejected)
 		return
 	}
-	addReason(rec, "kinematics.distance", "info", r.DistKpc[1], "", "distance %.3g kpc (16-50-84%%: %.3g, %.3g, %.3g) from method %q",
-		r.DistKpc[1], r.DistKpc[0], r.DistKpc[1], r.DistKpc[2], r.Method)
+	addReason(rec, "kinematics.distance", "info", r.DistKpc[1], "", "distance %s kpc (16-50-84%%: %s, %s, %s) from method %q",
+		numfmt.Sig(r.DistKpc[1], 3), numfmt.Sig(r.DistKpc[0], 3), numfmt.Sig(r.DistKpc[1], 3), numfmt.Sig(r.DistKpc[2], 3), r.Method)
 	v.RGCKpc, v.VEscKms = r.RGCKpc[1], r.VEscKms[1]
 	if !r.HasRV {
 		v.Status = string(verdict.NeedsRV)
 		v.SpeedLowerP50Kms, v.PUnboundLower = r.SpeedLowerKms[1], r.PUnboundLower
-		addReason(rec, "kinematics.needs-rv", "info", r.SpeedLowerKms[1], "", "no usable radial velocity: Galactocentric speed at least %.0f km/s (median over samples), %.2f of samples already unbound on that bound under model %s",
-			r.SpeedLowerKms[1], r.PUnboundLower, s.modelName)
+		addReason(rec, "kinematics.needs-rv", "info", r.SpeedLowerKms[1], "", "no usable radial velocity: Galactocentric speed at least %s km/s (median over samples), %s of samples already unbound on that bound under model %s",
+			numfmt.Kms(r.SpeedLowerKms[1]), numfmt.Prob(r.PUnboundLower), s.modelName)
 		return
 	}
 	v.SpeedP16Kms, v.SpeedP50Kms, v.SpeedP84Kms = r.SpeedKms[0], r.SpeedKms[1], r.SpeedKms[2]
@@ -71,23 +72,23 @@ func applyPUnbound(rec *db.StarRecord, r *kinematics.Result, s *runSettings) {
 	k := &s.campaign.Kinematics
 	prior := ""
 	if !math.IsNaN(r.PUnboundFlat) {
-		prior = fmt.Sprintf(", velocity prior %g km/s (flat prior: p_unbound %.3f)", k.VelocityPriorKms, r.PUnboundFlat)
+		prior = ", velocity prior " + numfmt.Exact(k.VelocityPriorKms) + " km/s (flat prior: p_unbound " + numfmt.Prob(r.PUnboundFlat) + ")"
 	}
 	st := pUnboundStatus(r.PUnbound, k.UnboundP, k.MarginalP)
 	rec.Verdict.Status = string(st)
 	switch st {
 	case verdict.Unbound:
-		addReason(rec, "kinematics.p-unbound", "info", r.PUnbound, fmt.Sprintf(">= %g", k.UnboundP),
-			"p_unbound %.3f >= %g under model %s%s: speed %.0f (+%.0f/-%.0f) km/s against escape speed %.0f km/s; a candidate for follow-up, not a discovery",
-			r.PUnbound, k.UnboundP, s.modelName, prior, r.SpeedKms[1], r.SpeedKms[2]-r.SpeedKms[1], r.SpeedKms[1]-r.SpeedKms[0], r.VEscKms[1])
+		addReason(rec, "kinematics.p-unbound", "info", r.PUnbound, ">= "+numfmt.Exact(k.UnboundP),
+			"p_unbound %s >= %s under model %s%s: speed %s (+%s/-%s) km/s against escape speed %s km/s; a candidate for follow-up, not a discovery",
+			numfmt.Prob(r.PUnbound), numfmt.Exact(k.UnboundP), s.modelName, prior, numfmt.Kms(r.SpeedKms[1]), numfmt.Kms(r.SpeedKms[2]-r.SpeedKms[1]), numfmt.Kms(r.SpeedKms[1]-r.SpeedKms[0]), numfmt.Kms(r.VEscKms[1]))
 	case verdict.Marginal:
-		addReason(rec, "kinematics.p-unbound", "info", r.PUnbound, fmt.Sprintf(">= %g and < %g", k.MarginalP, k.UnboundP),
-			"p_unbound %.3f between %g and %g under model %s%s: speed %.0f km/s against escape speed %.0f km/s",
-			r.PUnbound, k.MarginalP, k.UnboundP, s.modelName, prior, r.SpeedKms[1], r.VEscKms[1])
+		addReason(rec, "kinematics.p-unbound", "info", r.PUnbound, ">= "+numfmt.Exact(k.MarginalP)+" and < "+numfmt.Exact(k.UnboundP),
+			"p_unbound %s between %s and %s under model %s%s: speed %s km/s against escape speed %s km/s",
+			numfmt.Prob(r.PUnbound), numfmt.Exact(k.MarginalP), numfmt.Exact(k.UnboundP), s.modelName, prior, numfmt.Kms(r.SpeedKms[1]), numfmt.Kms(r.VEscKms[1]))
 	default:
-		addReason(rec, "kinematics.p-unbound", "info", r.PUnbound, fmt.Sprintf("< %g", k.MarginalP),
-			"p_unbound %.3f < %g under model %s%s: speed %.0f km/s against escape speed %.0f km/s",
-			r.PUnbound, k.MarginalP, s.modelName, prior, r.SpeedKms[1], r.VEscKms[1])
+		addReason(rec, "kinematics.p-unbound", "info", r.PUnbound, "< "+numfmt.Exact(k.MarginalP),
+			"p_unbound %s < %s under model %s%s: speed %s km/s against escape speed %s km/s",
+			numfmt.Prob(r.PUnbound), numfmt.Exact(k.MarginalP), s.modelName, prior, numfmt.Kms(r.SpeedKms[1]), numfmt.Kms(r.VEscKms[1]))
 	}
 }
 
@@ -101,9 +102,9 @@ func applyTrace(rec *db.StarRecord, t *orbit.TraceResult, s *runSettings) {
 	for i, c := range t.Crossings {
 		rec.Crossings[i] = db.CrossingRow{XKpc: c.XKpc, YKpc: c.YKpc, TMyr: c.TMyr}
 	}
-	addReason(rec, "kinematics.origin", "info", t.GCConsistency, fmt.Sprintf("<= %g", orbit.GCConsistencyLevel),
-		"origin %s: the centre lies at containment level %.3f of the plane crossings (%d of %d samples crossed within %g Myr; %.2f within %g kpc of the centre; flight time %.0f Myr)",
-		t.Origin, t.GCConsistency, len(t.Crossings), t.Samples, k.TraceMyr, t.PGCOrigin, k.GCRadiusKpc, t.FlightTimeMyr)
+	addReason(rec, "kinematics.origin", "info", t.GCConsistency, "<= "+numfmt.Exact(orbit.GCConsistencyLevel),
+		"origin %s: the centre lies at containment level %s of the plane crossings (%d of %d samples crossed within %s Myr; %s within %s kpc of the centre; flight time %s Myr)",
+		t.Origin, numfmt.Prob(t.GCConsistency), len(t.Crossings), t.Samples, numfmt.Exact(k.TraceMyr), numfmt.Prob(t.PGCOrigin), numfmt.Exact(k.GCRadiusKpc), numfmt.Myr(t.FlightTimeMyr))
 }
 
 // withdrawnRecord is the record of a star of the previous complete run

@@ -7,25 +7,18 @@ import (
 	"strconv"
 
 	"starvet/db"
+	"starvet/internal/numfmt"
 )
 
 var listColumns = []string{"star_id", "status", "quality", "computed_in_run", "input_hash", "distance_method",
 	"has_rv", "speed_p16_kms", "speed_p50_kms", "speed_p84_kms", "speed_lower_p50_kms", "r_gc_kpc", "v_esc_kms",
 	"p_unbound", "p_unbound_lower", "origin", "p_gc_origin", "gc_consistency", "flight_time_myr", "model_name"}
 
-// csvNum writes missing as an empty field and keeps full precision.
-func csvNum(x float64) string {
-	if x != x {
-		return ""
-	}
-	return strconv.FormatFloat(x, 'g', -1, 64)
-}
-
 func listRecord(v db.VerdictRow) []string {
 	return []string{v.StarID, v.Status, v.Quality, strconv.FormatInt(v.ComputedInRun, 10), v.InputHash,
-		v.DistanceMethod, map[bool]string{true: "1", false: "0"}[v.HasRV], csvNum(v.SpeedP16Kms), csvNum(v.SpeedP50Kms),
-		csvNum(v.SpeedP84Kms), csvNum(v.SpeedLowerP50Kms), csvNum(v.RGCKpc), csvNum(v.VEscKms), csvNum(v.PUnbound),
-		csvNum(v.PUnboundLower), v.Origin, csvNum(v.PGCOrigin), csvNum(v.GCConsistency), csvNum(v.FlightTimeMyr), v.ModelName}
+		v.DistanceMethod, map[bool]string{true: "1", false: "0"}[v.HasRV], numfmt.CSV(v.SpeedP16Kms), numfmt.CSV(v.SpeedP50Kms),
+		numfmt.CSV(v.SpeedP84Kms), numfmt.CSV(v.SpeedLowerP50Kms), numfmt.CSV(v.RGCKpc), numfmt.CSV(v.VEscKms), numfmt.CSV(v.PUnbound),
+		numfmt.CSV(v.PUnboundLower), v.Origin, numfmt.CSV(v.PGCOrigin), numfmt.CSV(v.GCConsistency), numfmt.CSV(v.FlightTimeMyr), v.ModelName}
 }
 
 func runList(ctx context.Context, env *Env, args []string) error {
@@ -92,15 +85,12 @@ func runList(ctx context.Context, env *Env, args []string) error {
 				fmt.Fprintf(w, "%-24s %-10s %-7s %-9s %12s %9s\n", "star_id", "status", "quality", "computed", "speed_p50", "p_unbound")
 			}
 			n++
-			q := v.Quality
-			if q == "" {
-				q = "-"
-			}
+			q := orDash(v.Quality)
 			comp := strconv.FormatInt(v.ComputedInRun, 10)
 			if v.Carried() {
 				comp += "*"
 			}
-			_, err := fmt.Fprintf(w, "%-24s %-10s %-7s %-9s %12s %9s\n", v.StarID, v.Status, q, comp, num(v.SpeedP50Kms), num(v.PUnbound))
+			_, err := fmt.Fprintf(w, "%-24s %-10s %-7s %-9s %12s %9s\n", v.StarID, v.Status, q, comp, numfmt.Kms(v.SpeedP50Kms), numfmt.Prob(v.PUnbound))
 			return err
 		})
 		if err != nil {

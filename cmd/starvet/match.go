@@ -6,6 +6,7 @@ import (
 	"path/filepath"
 
 	"starvet/campaign"
+	"starvet/internal/numfmt"
 	"starvet/vetting"
 )
 
@@ -59,7 +60,7 @@ func runMatch(ctx context.Context, env *Env, args []string) error {
 	}
 	for k, t := range cats.Secondaries {
 		st := m.Results[k].Stats
-		fmt.Fprintf(w, "%-20s matched %d of %d primary sources (%d ambiguous), prior %.3g\n", t.Name, st.Matched, cats.Primary.Len(), st.Ambiguous, m.Results[k].Prior)
+		fmt.Fprintf(w, "%-20s matched %d of %d primary sources (%d ambiguous), prior %s\n", t.Name, st.Matched, cats.Primary.Len(), st.Ambiguous, numfmt.Prob(m.Results[k].Prior))
 	}
 	q := map[string]int{}
 	for _, a := range as {

@@ -8,6 +8,7 @@ import (
 
 	"starvet/campaign"
 	"starvet/db"
+	"starvet/internal/numfmt"
 	"starvet/report"
 )
 
@@ -23,7 +24,7 @@ func runReport(ctx context.Context, env *Env, args []string) error {
 	run := fs.Int64("run", 0, "run id (0 = latest complete run)")
 	out := fs.String("o", "", "output directory (created if missing)")
 	escR := fs.Float64("escape-radius-kpc", 0, "for a run without recorded settings: radius the escape-speed curve escapes to (0 = infinity)")
-	gcR := fs.Float64("gc-radius-kpc", 0, fmt.Sprintf("for a run without recorded settings: centre radius on the crossing plot (0 = %g)", report.DefaultGCRadiusKpc))
+	gcR := fs.Float64("gc-radius-kpc", 0, "for a run without recorded settings: centre radius on the crossing plot (0 = "+numfmt.Exact(report.DefaultGCRadiusKpc)+")")
 	camp := fs.String("campaign", "", "for a run without recorded settings: take the escape radius, centre radius and Solar distance from this campaign file (checked against the run's campaign hash)")
 	if err := parseFlags(env, fs, args); err != nil {
 		return err
@@ -36,9 +37,9 @@ func runReport(ctx context.Context, env *Env, args []string) error {
 	case *run < 0:
 		return usageError("--run %d: want a positive run id or 0", *run)
 	case *escR < 0:
-		return usageError("--escape-radius-kpc %g: want 0 or more", *escR)
+		return usageError("--escape-radius-kpc %s: want 0 or more", numfmt.Exact(*escR))
 	case *gcR < 0:
-		return usageError("--gc-radius-kpc %g: want 0 or more", *gcR)
+		return usageError("--gc-radius-kpc %s: want 0 or more", numfmt.Exact(*gcR))
 	case *camp != "" && (*escR > 0 || *gcR > 0):
 		return usageError("--campaign excludes --escape-radius-kpc and --gc-radius-kpc")
 	}

@@ -9,6 +9,7 @@ import (
 	"text/tabwriter"
 
 	"starvet/catalog"
+	"starvet/internal/numfmt"
 	"starvet/internal/position"
 	"starvet/rules"
 )
@@ -118,7 +119,7 @@ func rulesShow(env *Env, args []string) error {
 	tw := tabwriter.NewWriter(w, 0, 0, 2, ' ', 0)
 	fmt.Fprintln(tw, "ID\tSEVERITY\tTEST\tTHRESHOLD\tWHEN\tVOIDS ON FAIL\tSOURCE\tRULE FINGERPRINT")
 	for _, r := range rs.Rules {
-		when := "-"
+		when := numfmt.Missing
 		if r.When != nil {
 			when = r.When.Source
 		}
@@ -126,7 +127,7 @@ func rulesShow(env *Env, args []string) error {
 		if src == "" {
 			src = "(none given)"
 		}
-		voids := "-"
+		voids := numfmt.Missing
 		if len(r.Voids) > 0 {
 			names := make([]string, len(r.Voids))
 			for i, f := range r.Voids {

@@ -15,6 +15,7 @@ import (
 	"time"
 
 	"starvet/db"
+	"starvet/internal/numfmt"
 )
 
 // This file holds runRuns and the helpers the audit commands (why, diff,
@@ -62,24 +63,16 @@ func jf(x float64) *float64 {
 	return &x
 }
 
-// num formats a value for text output; NaN is "-".
-func num(x float64) string {
-	if math.IsNaN(x) {
-		return "-"
-	}
-	return strconv.FormatFloat(x, 'g', 6, 64)
-}
-
 func stamp(t time.Time) string {
 	if t.IsZero() {
-		return "-"
+		return numfmt.Missing
 	}
 	return t.UTC().Format(time.RFC3339)
 }
 
 func countsText(m map[string]int64) string {
 	if len(m) == 0 {
-		return "-"
+		return numfmt.Missing
 	}
 	keys := make([]string, 0, len(m))
 	for k := range m {
@@ -148,7 +141,7 @@ func duration(r db.Run) string {
 		if r.State == "running" {
 			return "running"
 		}
-		return "-"
+		return numfmt.Missing
 	}
 	return r.FinishedAt.Sub(r.StartedAt).Round(time.Second).String()
 }

@@ -5,9 +5,9 @@ import (
 	"fmt"
 	"io"
 	"math"
-	"starvet/internal/numfmt"
 
 	"starvet/db"
+	"starvet/internal/numfmt"
 )
 
 func runWhy(ctx context.Context, env *Env, args []string) error {
@@ -89,10 +89,7 @@ func writeHistory(w io.Writer, h *db.StarHistory, settings map[int64]*db.RunSett
 		if v.Carried() {
 			how = fmt.Sprintf("carried forward from run %d", v.ComputedInRun)
 		}
-		q := v.Quality
-		if q == "" {
-			q = "-"
-		}
+		q := orDash(v.Quality)
 		fmt.Fprintf(w, "  run %-4d %-22s %-10s quality %-7s %s\n", v.RunID, "("+r.RunState+")", v.Status, q, how)
 	}
 	for _, c := range h.Computations {
@@ -105,7 +102,7 @@ func writeHistory(w io.Writer, h *db.StarHistory, settings map[int64]*db.RunSett
 		if len(c.Changes) > 0 || c.DupCountChange != nil {
 			fmt.Fprintf(w, "  inputs changed since the previous computation:\n")
 			for _, ch := range c.Changes {
-				fmt.Fprintf(w, "    %-22s %s -> %s %s\n", ch.Name, missing(ch.Old), missing(ch.New), ch.Unit)
+				fmt.Fprintf(w, "    %-22s %s -> %s %s\n", ch.Name, changed(ch.Old, ch.New), changed(ch.New, ch.Old), ch.Unit)
 			}
 			if d := c.DupCountChange; d != nil {
 				fmt.Fprintf(w, "    %-22s %d -> %d\n", "duplicate rows", d[0], d[1])
@@ -128,12 +125,12 @@ func writeHistory(w io.Writer, h *db.StarHistory, settings map[int64]*db.RunSett
 			fmt.Fprintf(w, "  kinematics (%s):\n", orDash(v.ModelName))
 			fmt.Fprintf(w, "    distance from %s, radial velocity %s\n", orDash(v.DistanceMethod), map[bool]string{true: "measured", false: "not measured"}[v.HasRV])
 			fmt.Fprintf(w, "    speed p16/p50/p84   %s / %s / %s km/s (lower bound p50 %s km/s)\n",
-				num(v.SpeedP16Kms), num(v.SpeedP50Kms), num(v.SpeedP84Kms), num(v.SpeedLowerP50Kms))
+				numfmt.Kms(v.SpeedP16Kms), numfmt.Kms(v.SpeedP50Kms), numfmt.Kms(v.SpeedP84Kms), numfmt.Kms(v.SpeedLowerP50Kms))
 			fmt.Fprintf(w, "    r_gc %s kpc, escape speed %s km/s, p_unbound %s (lower bound %s)\n",
-				num(v.RGCKpc), num(v.VEscKms), num(v.PUnbound), num(v.PUnboundLower))
+				numfmt.Kpc(v.RGCKpc), numfmt.Kms(v.VEscKms), numfmt.Prob(v.PUnbound), numfmt.Prob(v.PUnboundLower))
 			if v.Origin != "" || !math.IsNaN(v.PGCOrigin) || !math.IsNaN(v.FlightTimeMyr) {
 				fmt.Fprintf(w, "    origin %s, p_gc_origin %s, gc_consistency %s, flight time %s Myr\n",
-					orDash(v.Origin), num(v.PGCOrigin), num(v.GCConsistency), num(v.FlightTimeMyr))
+					orDash(v.Origin), numfmt.Prob(v.PGCOrigin), numfmt.Prob(v.GCConsistency), numfmt.Myr(v.FlightTimeMyr))
 			}
 		}
 		if len(c.Matches) > 0 {
@@ -144,7 +141,7 @@ func writeHistory(w io.Writer, h *db.StarHistory, settings map[int64]*db.RunSett
 					amb = " ambiguous"
 				}
 				fmt.Fprintf(w, "    %-16s counterpart %-16s sep %s arcsec, p %s, %d candidates%s\n",
-					m.Catalog, orDash(m.CounterpartID), numfmt.Sig(m.SepArcsec, numfmt.SepDigits), numfmt.Sig(m.MatchProb, numfmt.ProbDigits), m.Candidates, amb)
+					m.Catalog, orDash(m.CounterpartID), numfmt.Sep(m.SepArcsec), numfmt.Prob(m.MatchProb), m.Candidates, amb)
 			}
 		}
 	}
@@ -174,16 +171,18 @@ func hasKinematics(v db.VerdictRow) bool {
 	return false
 }
 
-func missing(x float64) string {
+// changed is one side of an input change, printed against the other side
+// so that a change never reads as two equal numbers.
+func changed(x, other float64) string {
 	if math.IsNaN(x) {
 		return "(missing)"
 	}
-	return num(x)
+	return string(numfmt.AppendAgainst(nil, x, other))
 }
 
 func orDash(s string) string {
 	if s == "" {
-		return "-"
+		return numfmt.Missing
 	}
 	return s
 }

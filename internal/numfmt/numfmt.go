@@ -1,6 +1,6 @@
 // Package numfmt formats numbers for people: reasons, `why`, `rules show`
 // and the report print a number with the precision it carries, while the
-// ledger and CSV output keep full precision.
+// ledger and CSV output keep full precision (CSV).
 package numfmt
 
 import (
@@ -16,6 +16,55 @@ const (
 	ProbDigits = 3 // match and unbound probabilities: 3.403605e-07 reads 3.4e-07
 	SepDigits  = 4 // arcsecond separations: 0.630642 reads 0.6306
 )
+
+// Decimals for the kinematic summary wherever it is shown (reasons, why,
+// list, report): the Monte Carlo spread of a speed is km/s or more, and of
+// a distance or flight time a tenth of its unit or more.
+const (
+	kmsDecimals = 0 // speeds: 712.38 km/s reads 712
+	kpcDecimals = 1 // Galactocentric radii: 48.937 kpc reads 48.9
+	myrDecimals = 1 // flight times: 55.04 Myr reads 55.0
+)
+
+// Prob formats a probability (p_unbound, a match posterior, a containment
+// level) with ProbDigits significant digits; NaN is Missing.
+func Prob(p float64) string { return Sig(p, ProbDigits) }
+
+// Sep formats an arcsecond separation with SepDigits significant digits.
+func Sep(arcsec float64) string { return Sig(arcsec, SepDigits) }
+
+// Kms formats a speed in km/s, Kpc a Galactocentric radius in kpc and Myr
+// a flight time in Myr; NaN is Missing.
+func Kms(v float64) string { return Fixed(v, kmsDecimals) }
+func Kpc(r float64) string { return Fixed(r, kpcDecimals) }
+func Myr(t float64) string { return Fixed(t, myrDecimals) }
+
+// Fixed formats x with exactly decimals digits after the point, so a
+// table column lines up; NaN is Missing.
+func Fixed(x float64, decimals int) string {
+	if math.IsNaN(x) {
+		return Missing
+	}
+	return strconv.FormatFloat(x, 'f', decimals, 64)
+}
+
+// Exact formats x in the shortest form that reads back as x: a limit or
+// setting a person gave reads as they wrote it. NaN is Missing.
+func Exact(x float64) string {
+	if math.IsNaN(x) {
+		return Missing
+	}
+	return strconv.FormatFloat(x, 'g', -1, 64)
+}
+
+// CSV formats x for machine output: every digit (the shortest text that
+// reads back as x), and NaN as the empty field.
+func CSV(x float64) string {
+	if math.IsNaN(x) {
+		return ""
+	}
+	return strconv.FormatFloat(x, 'g', -1, 64)
+}
 
 // Sig formats x with at most n significant digits, dropping trailing zeros;
 // NaN is Missing.

@@ -70,3 +70,65 @@ func TestAgainstQualityCases(t *testing.T) {
 		})
 	}
 }
+
+func TestFixed(t *testing.T) {
+	for _, c := range []struct {
+		x        float64
+		decimals int
+		want     string
+	}{
+		{712.38, kmsDecimals, "712"},
+		{48.937, kpcDecimals, "48.9"},
+		{55, myrDecimals, "55.0"},
+		{2019.5, 1, "2019.5"},
+		{0.5, 2, "0.50"},
+		{-3.25, 1, "-3.2"}, // round half to even on the binary value
+		{math.NaN(), 1, Missing},
+	} {
+		if got := Fixed(c.x, c.decimals); got != c.want {
+			t.Errorf("Fixed(%v, %d) = %q, want %q", c.x, c.decimals, got, c.want)
+		}
+	}
+}
+
+func TestExactAndCSV(t *testing.T) {
+	for _, c := range []struct {
+		x    float64
+		want string
+	}{
+		{1.4, "1.4"},
+		{0.30000000000000004, "0.30000000000000004"}, // not rounded to 0.3
+		{200, "200"},
+		{1e-7, "1e-07"},
+		{3.403605097820214e-07, "3.403605097820214e-07"},
+		{-8.122, "-8.122"},
+	} {
+		if got := Exact(c.x); got != c.want {
+			t.Errorf("Exact(%v) = %q, want %q", c.x, got, c.want)
+		}
+		if got := CSV(c.x); got != c.want {
+			t.Errorf("CSV(%v) = %q, want %q", c.x, got, c.want)
+		}
+	}
+	if got := Exact(math.NaN()); got != Missing {
+		t.Errorf("Exact(NaN) = %q, want Missing", got)
+	}
+	if got := CSV(math.NaN()); got != "" {
+		t.Errorf("CSV(NaN) = %q, want the empty field", got)
+	}
+}
+
+func TestQuantities(t *testing.T) {
+	nan := math.NaN()
+	for _, c := range []struct{ got, want string }{
+		{Prob(0.99), "0.99"}, {Prob(0.9996), "1"}, {Prob(3.403605097820214e-07), "3.4e-07"}, {Prob(nan), Missing},
+		{Sep(0.630642), "0.6306"}, {Sep(nan), Missing},
+		{Kms(712.5001), "713"}, {Kms(-12.4), "-12"}, {Kms(nan), Missing},
+		{Kpc(48.937), "48.9"}, {Kpc(nan), Missing},
+		{Myr(55.04), "55.0"}, {Myr(nan), Missing},
+	} {
+		if c.got != c.want {
+			t.Errorf("got %q, want %q", c.got, c.want)
+		}
+	}
+}
