@@ -82,7 +82,8 @@ type Component struct {
 	BKpc     float64
 }
 
-// Kinematics holds the distance and Monte Carlo settings.
+// Kinematics holds the distance and Monte Carlo settings. Each field's
+// key, default, bound and meaning are in the settings table (settings.go).
 type Kinematics struct {
 	Distance                string // auto, inverse, edsd, catalog
 	EDSDLengthKpc           float64
