@@ -2,7 +2,6 @@ package campaign
 
 import (
 	"fmt"
-	"math"
 	"os"
 	"path/filepath"
 	"regexp"
@@ -83,7 +82,8 @@ type Component struct {
 	BKpc     float64
 }
 
-// Kinematics holds the distance and Monte Carlo settings.
+// Kinematics holds the distance and Monte Carlo settings. Each field's
+// key, default, bound and meaning are in the settings table (settings.go).
 type Kinematics struct {
 	Distance                string // auto, inverse, edsd, catalog
 	EDSDLengthKpc           float64
@@ -102,45 +102,18 @@ type Kinematics struct {
 	DiskRadiusKpc    float64
 }
 
-// Defaults that are not taken from another package.
+// Defaults of settings outside the settings table (settings.go).
 const (
-	DefaultSeed                  = 1
-	DefaultLedger                = "starvet.db"
-	DefaultRules                 = "default"
-	DefaultRadiusArcsec          = 1.0
-	DefaultRadiusFloorArcsec     = 0.5 // only when n_sigma > 0
-	DefaultDuplicateRadiusArcsec = 0.4
-	DefaultAmbiguityRatio        = 3.0
+	DefaultLedger = "starvet.db"
+	DefaultRules  = "default"
+	// DefaultRadiusFloorArcsec is match.radius_floor_arcsec when n_sigma > 0.
+	DefaultRadiusFloorArcsec = 0.5
 	// DefaultSecondaryPositionErrMas is the positional error assumed for a
 	// spectroscopic or photometric catalog that gives none (our choice,
 	// typical of fibre/slit positions); the astrometric catalog gets no
 	// fallback unless position_err_mas is set.
 	DefaultSecondaryPositionErrMas = 100.0
 )
-
-// DefaultVelocityPriorKms is the default velocity prior: wider than the
-// stellar halo's velocity ellipsoid in every direction (sigma_r, sigma_phi,
-// sigma_theta about 141, 75 and 85 km/s near the Sun, Bond et al. 2010, ApJ
-// 716, 1, from memory), so it only bites where the measurement errors are
-// larger than the halo's own spread. The value is our choice.
-const DefaultVelocityPriorKms = 150.0
-
-// DefaultKinematics returns the [kinematics] defaults (our choices).
-func DefaultKinematics() Kinematics {
-	return Kinematics{Distance: "auto", EDSDLengthKpc: 1.35, MinParallaxSignificance: 5, Samples: 1000,
-		VelocityPriorKms: DefaultVelocityPriorKms, UnboundP: 0.8, MarginalP: 0.5, TraceMinP: 0.5, TraceSamples: 200, TraceMyr: 300,
-		GCRadiusKpc: 1, DiskRadiusKpc: 25}
-}
-
-// DefaultGalaxy returns the Solar parameters used when [galaxy] omits them:
-// R0 = 8.122 kpc (GRAVITY Collaboration 2018, A&A 615, L15), z_sun = 20.8
-// pc (Bennett & Bovy 2019, MNRAS 482, 1417), (U, V, W) = (12.9, 245.6,
-// 7.78) km/s (Drimmel & Poggio 2018, RNAAS 2, 210); taken from
-// frames.DefaultSun so both packages agree.
-func DefaultGalaxy() Galaxy {
-	s := frames.DefaultSun()
-	return Galaxy{SunDistanceKpc: s.DistanceKpc, SunHeightPc: s.HeightPc, SunVelocityKms: s.VelocityKms}
-}
 
 // Load reads and parses a campaign file.
 func Load(path string) (*Campaign, error) {
@@ -155,27 +128,15 @@ func Load(path string) (*Campaign, error) {
 	return Parse(path, data, dir)
 }
 
-// raw mirrors the file; pointers tell "absent" from zero.
+// raw mirrors the keys of the file that are not in the settings table;
+// pointers tell "absent" from zero.
 type raw struct {
-	Name                 *string     `toml:"name"`
-	Seed                 *int64      `toml:"seed"`
-	Ledger               *string     `toml:"ledger"`
-	Rules                *string     `toml:"rules"`
-	ParallaxZeroPointMas *float64    `toml:"parallax_zero_point_mas"`
-	NullMarkers          *[]string   `toml:"null_markers"`
-	Match                *rawMatch   `toml:"match"`
-	Catalog              []rawCat    `toml:"catalog"`
-	Galaxy               *rawGalaxy  `toml:"galaxy"`
-	Potential            *rawPot     `toml:"potential"`
-	Kinematics           *rawKinemat `toml:"kinematics"`
-}
-
-type rawMatch struct {
-	RadiusArcsec          *float64 `toml:"radius_arcsec"`
-	NSigma                *float64 `toml:"n_sigma"`
-	RadiusFloorArcsec     *float64 `toml:"radius_floor_arcsec"`
-	DuplicateRadiusArcsec *float64 `toml:"duplicate_radius_arcsec"`
-	AmbiguityRatio        *float64 `toml:"ambiguity_ratio"`
+	Name        *string   `toml:"name"`
+	Ledger      *string   `toml:"ledger"`
+	Rules       *string   `toml:"rules"`
+	NullMarkers *[]string `toml:"null_markers"`
+	Catalog     []rawCat  `toml:"catalog"`
+	Potential   *rawPot   `toml:"potential"`
 }
 
 type rawCat struct {
@@ -190,16 +151,9 @@ type rawCat struct {
 	Units          map[string]string `toml:"units"`
 }
 
-type rawGalaxy struct {
-	SunDistanceKpc *float64   `toml:"sun_distance_kpc"`
-	SunHeightPc    *float64   `toml:"sun_height_pc"`
-	SunVelocityKms *[]float64 `toml:"sun_velocity_kms"`
-}
-
 type rawPot struct {
-	Model           *string   `toml:"model"`
-	Component       []rawComp `toml:"component"`
-	EscapeRadiusKpc *float64  `toml:"escape_radius_kpc"`
+	Model     *string   `toml:"model"`
+	Component []rawComp `toml:"component"`
 }
 
 type rawComp struct {
@@ -208,21 +162,6 @@ type rawComp struct {
 	ScaleKpc float64 `toml:"scale_kpc"`
 	AKpc     float64 `toml:"a_kpc"`
 	BKpc     float64 `toml:"b_kpc"`
-}
-
-type rawKinemat struct {
-	Distance                *string  `toml:"distance"`
-	EDSDLengthKpc           *float64 `toml:"edsd_length_kpc"`
-	MinParallaxSignificance *float64 `toml:"min_parallax_significance"`
-	Samples                 *int     `toml:"samples"`
-	VelocityPriorKms        *float64 `toml:"velocity_prior_kms"`
-	UnboundP                *float64 `toml:"unbound_p"`
-	MarginalP               *float64 `toml:"marginal_p"`
-	TraceMinP               *float64 `toml:"trace_min_p"`
-	TraceSamples            *int     `toml:"trace_samples"`
-	TraceMyr                *float64 `toml:"trace_myr"`
-	GCRadiusKpc             *float64 `toml:"gc_radius_kpc"`
-	DiskRadiusKpc           *float64 `toml:"disk_radius_kpc"`
 }
 
 var (
@@ -244,10 +183,22 @@ func Parse(name string, data []byte, dir string) (*Campaign, error) {
 	if err != nil {
 		return nil, syntaxError(name, text, err)
 	}
+	given, mdSettings, err := decodeSettings(text)
+	if err != nil {
+		return nil, syntaxError(name, text, err)
+	}
+	// A key is unknown when neither decoding took it.
+	undecoded := map[string]bool{}
+	for _, k := range mdSettings.Undecoded() {
+		undecoded[k.String()] = true
+	}
 	p := &parser{file: name, pos: tomlpos.Scan(text)}
 	var reported []string
 	for _, k := range md.Undecoded() {
 		ks := k.String()
+		if !undecoded[ks] {
+			continue
+		}
 		inner := false // keys inside an unknown table add nothing
 		for _, r := range reported {
 			inner = inner || strings.HasPrefix(ks, r+".")
@@ -258,7 +209,7 @@ func Parse(name string, data []byte, dir string) (*Campaign, error) {
 		reported = append(reported, ks)
 		p.bad(p.pos.Near(k...), ks, ErrUnknownKey, "unknown key%s", retired.Hint(k[len(k)-1]))
 	}
-	c := p.build(&r, name, dir)
+	c := p.build(&r, given, name, dir)
 	if len(p.errs) > 0 {
 		// File order; problems without a line (e.g. no astrometry catalog) last.
 		sort.SliceStable(p.errs, func(i, j int) bool {
@@ -301,28 +252,28 @@ func (p *parser) bad(at tomlpos.Pos, key string, sentinel error, format string, 
 	p.errs = append(p.errs, &position.Error{File: p.file, Line: at.Line, Col: at.Col, Name: key, What: key, Msg: fmt.Sprintf(format, args...), Err: sentinel})
 }
 
-// num checks a float key: finite, and above (or at) a lower limit.
-func (p *parser) num(v float64, min float64, inclusive bool, key string, path ...string) {
-	ok := !math.IsNaN(v) && !math.IsInf(v, 0) && (v > min || (inclusive && v == min))
-	if !ok {
-		op := ">"
-		if inclusive {
-			op = ">="
-		}
-		p.bad(p.pos.Near(path...), key, ErrBadValue, "must be a finite number %s %g, got %v", op, min, v)
-	}
+func (p *parser) build(r *raw, given map[string]any, name, dir string) *Campaign {
+	c := &Campaign{File: name, Dir: dir, Ledger: DefaultLedger, Rules: DefaultRules, NullMarkers: catalog.DefaultNullMarkers()}
+	p.settings(c, given)
+	p.topLevel(c, r, name, dir)
+	p.match(c, given)
+	p.catalogs(c, r)
+	p.potential(c, r.Potential)
+	p.kinematics(c)
+	return c
 }
 
-func (p *parser) build(r *raw, name, dir string) *Campaign {
-	c := &Campaign{File: name, Dir: dir, Seed: DefaultSeed, Ledger: DefaultLedger, Rules: DefaultRules,
-		NullMarkers: catalog.DefaultNullMarkers(), Galaxy: DefaultGalaxy(), Kinematics: DefaultKinematics()}
-	p.topLevel(c, r, name, dir)
-	p.match(c, r.Match)
-	p.catalogs(c, r)
-	p.galaxy(c, r.Galaxy)
-	p.potential(c, r.Potential)
-	p.kinematics(c, r.Kinematics)
-	return c
+// settings fills in the table's settings: the file's value, else the
+// default.
+func (p *parser) settings(c *Campaign, given map[string]any) {
+	for _, s := range settings {
+		s.reset(c)
+		if v, ok := given[s.name]; ok {
+			for _, problem := range s.set(c, v) {
+				p.bad(p.pos.Near(s.path()...), s.name, ErrBadValue, "%s", problem)
+			}
+		}
+	}
 }
 
 // topLevel reads the keys outside any table.
@@ -330,9 +281,6 @@ func (p *parser) topLevel(c *Campaign, r *raw, name, dir string) {
 	c.Name = strings.TrimSuffix(filepath.Base(name), filepath.Ext(name))
 	if r.Name != nil {
 		c.Name = *r.Name
-	}
-	if r.Seed != nil {
-		c.Seed = *r.Seed
 	}
 	if r.Ledger != nil {
 		c.Ledger = *r.Ledger
@@ -350,10 +298,6 @@ func (p *parser) topLevel(c *Campaign, r *raw, name, dir string) {
 	if c.Rules != DefaultRules {
 		c.Rules = resolve(dir, c.Rules)
 	}
-	if r.ParallaxZeroPointMas != nil {
-		c.ParallaxZeroPointMas = *r.ParallaxZeroPointMas
-		p.num(math.Abs(c.ParallaxZeroPointMas), 0, true, "parallax_zero_point_mas", "parallax_zero_point_mas")
-	}
 	if r.NullMarkers != nil {
 		c.NullMarkers = *r.NullMarkers
 	}
@@ -366,25 +310,13 @@ func resolve(dir, path string) string {
 	return filepath.Join(dir, path)
 }
 
-func (p *parser) match(c *Campaign, m *rawMatch) {
-	c.Match = Match{RadiusArcsec: DefaultRadiusArcsec, DuplicateRadiusArcsec: DefaultDuplicateRadiusArcsec, AmbiguityRatio: DefaultAmbiguityRatio}
-	if m == nil {
-		return
-	}
-	set := func(dst *float64, src *float64, key string, min float64, inclusive bool) {
-		if src != nil {
-			*dst = *src
-			p.num(*src, min, inclusive, "match."+key, "match", key)
-		}
-	}
-	set(&c.Match.RadiusArcsec, m.RadiusArcsec, "radius_arcsec", 0, false)
-	set(&c.Match.NSigma, m.NSigma, "n_sigma", 0, true)
-	set(&c.Match.DuplicateRadiusArcsec, m.DuplicateRadiusArcsec, "duplicate_radius_arcsec", 0, true)
-	set(&c.Match.AmbiguityRatio, m.AmbiguityRatio, "ambiguity_ratio", 1, true)
-	if m.RadiusFloorArcsec != nil {
-		set(&c.Match.RadiusFloorArcsec, m.RadiusFloorArcsec, "radius_floor_arcsec", 0, true)
+// match applies the radius floor's rule: it only acts with n_sigma > 0,
+// and then defaults to DefaultRadiusFloorArcsec.
+func (p *parser) match(c *Campaign, given map[string]any) {
+	const floor = "match.radius_floor_arcsec"
+	if _, ok := given[floor]; ok {
 		if c.Match.NSigma == 0 {
-			p.bad(p.pos.Near("match", "radius_floor_arcsec"), "match.radius_floor_arcsec", ErrBadValue, "has no effect unless n_sigma > 0")
+			p.bad(p.pos.Near("match", "radius_floor_arcsec"), floor, ErrBadValue, "has no effect unless n_sigma > 0")
 		}
 	} else if c.Match.NSigma > 0 {
 		c.Match.RadiusFloorArcsec = DefaultRadiusFloorArcsec
@@ -414,7 +346,9 @@ func (p *parser) catalogs(c *Campaign, r *raw) {
 		}
 		if rc.PositionErrMas != nil {
 			s.PositionErrMas = *rc.PositionErrMas
-			p.num(s.PositionErrMas, 0, true, ct.key("position_err_mas"), ct.elem, "position_err_mas")
+			for _, problem := range nonNegative.problems(s.PositionErrMas) {
+				p.bad(ct.at("position_err_mas"), ct.key("position_err_mas"), ErrBadValue, "%s", problem)
+			}
 		} else if s.Role != catalog.Astrometry {
 			s.PositionErrMas = DefaultSecondaryPositionErrMas
 		}
@@ -535,38 +469,9 @@ func (ct catTable) units(s *catalog.Spec, units map[string]string) {
 	}
 }
 
-func (p *parser) galaxy(c *Campaign, g *rawGalaxy) {
-	if g == nil {
-		return
-	}
-	if g.SunDistanceKpc != nil {
-		c.Galaxy.SunDistanceKpc = *g.SunDistanceKpc
-		p.num(*g.SunDistanceKpc, 0, false, "galaxy.sun_distance_kpc", "galaxy", "sun_distance_kpc")
-	}
-	if g.SunHeightPc != nil {
-		c.Galaxy.SunHeightPc = *g.SunHeightPc
-		p.num(math.Abs(*g.SunHeightPc), 0, true, "galaxy.sun_height_pc", "galaxy", "sun_height_pc")
-	}
-	if g.SunVelocityKms != nil {
-		v := *g.SunVelocityKms
-		if len(v) != 3 {
-			p.bad(p.pos.Near("galaxy", "sun_velocity_kms"), "galaxy.sun_velocity_kms", ErrBadValue, "needs 3 components (U, V, W), got %d", len(v))
-			return
-		}
-		for i := range v {
-			p.num(math.Abs(v[i]), 0, true, "galaxy.sun_velocity_kms", "galaxy", "sun_velocity_kms")
-			c.Galaxy.SunVelocityKms[i] = v[i]
-		}
-	}
-}
-
 func (p *parser) potential(c *Campaign, rp *rawPot) {
 	if rp == nil {
 		return
-	}
-	if rp.EscapeRadiusKpc != nil {
-		c.Potential.EscapeRadiusKpc = *rp.EscapeRadiusKpc
-		p.num(*rp.EscapeRadiusKpc, 0, true, "potential.escape_radius_kpc", "potential", "escape_radius_kpc")
 	}
 	if rp.Model != nil {
 		c.Potential.Model = *rp.Model
@@ -596,59 +501,10 @@ func (p *parser) potential(c *Campaign, rp *rawPot) {
 	}
 }
 
-func (p *parser) kinematics(c *Campaign, rk *rawKinemat) {
-	if rk == nil {
-		return
-	}
-	k := &c.Kinematics
-	at := func(key string) tomlpos.Pos { return p.pos.Near("kinematics", key) }
-	if rk.Distance != nil {
-		k.Distance = *rk.Distance
-		ok := false
-		for _, m := range distMethods {
-			ok = ok || m == k.Distance
-		}
-		if !ok {
-			p.bad(at("distance"), "kinematics.distance", ErrBadValue, "%q is not one of %q", k.Distance, distMethods)
-		}
-	}
-	f := func(dst *float64, src *float64, key string, min float64, inclusive bool) {
-		if src != nil {
-			*dst = *src
-			p.num(*src, min, inclusive, "kinematics."+key, "kinematics", key)
-		}
-	}
-	f(&k.EDSDLengthKpc, rk.EDSDLengthKpc, "edsd_length_kpc", 0, false)
-	f(&k.MinParallaxSignificance, rk.MinParallaxSignificance, "min_parallax_significance", 0, false)
-	f(&k.VelocityPriorKms, rk.VelocityPriorKms, "velocity_prior_kms", 0, true)
-	f(&k.UnboundP, rk.UnboundP, "unbound_p", 0, true)
-	f(&k.MarginalP, rk.MarginalP, "marginal_p", 0, true)
-	f(&k.TraceMinP, rk.TraceMinP, "trace_min_p", 0, true)
-	f(&k.TraceMyr, rk.TraceMyr, "trace_myr", 0, false)
-	f(&k.GCRadiusKpc, rk.GCRadiusKpc, "gc_radius_kpc", 0, false)
-	f(&k.DiskRadiusKpc, rk.DiskRadiusKpc, "disk_radius_kpc", 0, false)
-	for _, pr := range []struct {
-		key string
-		v   float64
-	}{{"unbound_p", k.UnboundP}, {"marginal_p", k.MarginalP}, {"trace_min_p", k.TraceMinP}} {
-		if pr.v > 1 {
-			p.bad(at(pr.key), "kinematics."+pr.key, ErrBadValue, "a probability must be <= 1, got %v", pr.v)
-		}
-	}
-	if k.MarginalP > k.UnboundP {
-		p.bad(at("marginal_p"), "kinematics.marginal_p", ErrBadValue, "must not exceed unbound_p (%v > %v)", k.MarginalP, k.UnboundP)
-	}
-	for _, n := range []struct {
-		key string
-		dst *int
-		src *int
-	}{{"samples", &k.Samples, rk.Samples}, {"trace_samples", &k.TraceSamples, rk.TraceSamples}} {
-		if n.src != nil {
-			*n.dst = *n.src
-			if *n.src < 1 {
-				p.bad(at(n.key), "kinematics."+n.key, ErrBadValue, "must be >= 1, got %d", *n.src)
-			}
-		}
+// kinematics checks the thresholds against each other.
+func (p *parser) kinematics(c *Campaign) {
+	if k := c.Kinematics; k.MarginalP > k.UnboundP {
+		p.bad(p.pos.Near("kinematics", "marginal_p"), SettingMarginalP, ErrBadValue, "must not exceed unbound_p (%v > %v)", k.MarginalP, k.UnboundP)
 	}
 }
 

@@ -22,6 +22,13 @@
 // single *position.Error wrapping ErrSyntax. Positions of keys come from
 // starvet/internal/tomlpos, since the TOML library keeps them private.
 //
+// Every setting that holds one value (seed, parallax zero point, [match],
+// [galaxy], the escape radius, [kinematics]) is defined once, in the table
+// of settings.go: its key, which is also the name the ledger records it
+// under, its default, its bound and its meaning. Decoding, defaults,
+// checks and Values (what vetting records) are derived from it; a test
+// keeps db/SCHEMA.md's run_settings rows equal to it.
+//
 // Decisions: a spectroscopic or photometric catalog without position_err_mas
 // gets 100 mas (used only where ra_err/dec_err are absent or missing); the
 // astrometric catalog gets none. radius_floor_arcsec without n_sigma > 0 is

@@ -53,7 +53,7 @@ func record(id string, i int, salt float64, status string) StarRecord {
 
 // testSettings is what test runs record: BeginRun refuses a run without
 // settings.
-var testSettings = RunSettings{Values: []Setting{{SettingSeed, "7"}, {SettingUnboundP, "0.8"}, {SettingMarginalP, "0.5"}}, RuleText: "# invented rules\n"}
+var testSettings = RunSettings{Values: []Setting{{"seed", "7"}, {"kinematics.unbound_p", "0.8"}, {"kinematics.marginal_p", "0.5"}}, RuleText: "# invented rules\n"}
 
 // writeRun writes one complete run of the given records.
 func writeRun(t testing.TB, l *Ledger, recs []StarRecord) int64 {

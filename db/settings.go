@@ -14,51 +14,9 @@ import (
 	"strings"
 )
 
-// Names of recorded settings (table run_settings; SCHEMA.md defines each).
-// A potential component's values are named by ComponentSetting.
-const (
-	SettingSeed                    = "seed"
-	SettingParallaxZeroPointMas    = "parallax_zero_point_mas"
-	SettingRulesFile               = "rules.file"
-	SettingMatchRadiusArcsec       = "match.radius_arcsec"
-	SettingMatchNSigma             = "match.n_sigma"
-	SettingMatchRadiusFloorArcsec  = "match.radius_floor_arcsec"
-	SettingMatchDuplicateRadius    = "match.duplicate_radius_arcsec"
-	SettingMatchAmbiguityRatio     = "match.ambiguity_ratio"
-	SettingSunDistanceKpc          = "galaxy.sun_distance_kpc"
-	SettingSunHeightPc             = "galaxy.sun_height_pc"
-	SettingSunVelocityUKms         = "galaxy.sun_velocity_u_kms"
-	SettingSunVelocityVKms         = "galaxy.sun_velocity_v_kms"
-	SettingSunVelocityWKms         = "galaxy.sun_velocity_w_kms"
-	SettingPotentialModel          = "potential.model"
-	SettingEscapeRadiusKpc         = "potential.escape_radius_kpc"
-	SettingPotentialComponents     = "potential.components"
-	SettingDistanceMethod          = "kinematics.distance"
-	SettingEDSDLengthKpc           = "kinematics.edsd_length_kpc"
-	SettingMinParallaxSignificance = "kinematics.min_parallax_significance"
-	SettingSamples                 = "kinematics.samples"
-	SettingVelocityPriorKms        = "kinematics.velocity_prior_kms"
-	SettingUnboundP                = "kinematics.unbound_p"
-	SettingMarginalP               = "kinematics.marginal_p"
-	SettingTraceMinP               = "kinematics.trace_min_p"
-	SettingTraceSamples            = "kinematics.trace_samples"
-	SettingTraceMyr                = "kinematics.trace_myr"
-	SettingGCRadiusKpc             = "kinematics.gc_radius_kpc"
-	SettingDiskRadiusKpc           = "kinematics.disk_radius_kpc"
-)
-
-// ComponentSetting names a value of the potential's component number n
-// (1-based, in the model's order), e.g. potential.component.1.mass_msun.
-func ComponentSetting(n int, field string) string {
-	return "potential.component." + strconv.Itoa(n) + "." + field
-}
-
-// CatalogSetting names a per-catalog setting, e.g.
-// catalog.spec_a.position_err_mas.
-func CatalogSetting(catalog, field string) string { return "catalog." + catalog + "." + field }
-
-// Setting is one recorded setting. Numbers are written exactly: the
-// shortest decimal text that reads back as the same float64.
+// Setting is one recorded setting (table run_settings; the campaign
+// package names them, SCHEMA.md defines each). Numbers are written
+// exactly: the shortest decimal text that reads back as the same float64.
 type Setting struct {
 	Name  string
 	Value string

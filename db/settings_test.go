@@ -19,17 +19,17 @@ func TestRunSettingsRoundTrip(t *testing.T) {
 	third := 1.0 / 3
 	first := RunSettings{
 		Values: []Setting{
-			FloatSetting(SettingSunDistanceKpc, 8.122),
-			FloatSetting(SettingEscapeRadiusKpc, 0),
-			FloatSetting(SettingUnboundP, third),
-			{Name: SettingPotentialModel, Value: "invented-potential"},
-			{Name: ComponentSetting(1, "kind"), Value: "hernquist"},
-			FloatSetting(ComponentSetting(1, "mass_msun"), 3.4e10),
-			{Name: SettingSeed, Value: "42"},
+			FloatSetting("galaxy.sun_distance_kpc", 8.122),
+			FloatSetting("potential.escape_radius_kpc", 0),
+			FloatSetting("kinematics.unbound_p", third),
+			{Name: "potential.model", Value: "invented-potential"},
+			{Name: "potential.component.1.kind", Value: "hernquist"},
+			FloatSetting("potential.component.1.mass_msun", 3.4e10),
+			{Name: "seed", Value: "42"},
 		},
 		RuleText: "# rules, with a comment\n[[rule]]\nid = \"snr\"\n",
 	}
-	second := RunSettings{Values: []Setting{FloatSetting(SettingEscapeRadiusKpc, 200)}, RuleText: ""}
+	second := RunSettings{Values: []Setting{FloatSetting("potential.escape_radius_kpc", 200)}, RuleText: ""}
 	var ids []int64
 	for _, s := range []RunSettings{first, second} {
 		w, err := l.BeginRun(ctx, RunInfo{ToolVersion: "test", Settings: s})
@@ -51,20 +51,20 @@ func TestRunSettingsRoundTrip(t *testing.T) {
 	if !reflect.DeepEqual(got.Values, want) || got.RuleText != first.RuleText {
 		t.Errorf("run %d settings read back as %+v, want %+v", ids[0], got, want)
 	}
-	if x, ok := got.Float(SettingUnboundP); !ok || x != third {
+	if x, ok := got.Float("kinematics.unbound_p"); !ok || x != third {
 		t.Errorf("unbound_p read back as %v (%v), want exactly 1/3", x, ok)
 	}
-	if x, ok := got.Float(SettingSunDistanceKpc); !ok || x != 8.122 {
+	if x, ok := got.Float("galaxy.sun_distance_kpc"); !ok || x != 8.122 {
 		t.Errorf("sun distance %v (%v), want 8.122", x, ok)
 	}
-	if _, ok := got.Float(SettingGCRadiusKpc); ok {
+	if _, ok := got.Float("kinematics.gc_radius_kpc"); ok {
 		t.Error("a setting the run did not record reads as recorded")
 	}
 	got2, err := l.RunSettings(ctx, ids[1])
 	if err != nil {
 		t.Fatal(err)
 	}
-	if x, ok := got2.Float(SettingEscapeRadiusKpc); !ok || x != 200 || len(got2.Values) != 1 || got2.RuleText != "" {
+	if x, ok := got2.Float("potential.escape_radius_kpc"); !ok || x != 200 || len(got2.Values) != 1 || got2.RuleText != "" {
 		t.Errorf("run %d settings: %+v", ids[1], got2)
 	}
 
@@ -79,7 +79,7 @@ func TestRunSettingsRoundTrip(t *testing.T) {
 	if changed.ConfigHash() == first.ConfigHash() {
 		t.Error("config_hash ignores the rule text")
 	}
-	changed = RunSettings{Values: append(slices.Clone(first.Values[1:]), FloatSetting(SettingSunDistanceKpc, 8.3)), RuleText: first.RuleText}
+	changed = RunSettings{Values: append(slices.Clone(first.Values[1:]), FloatSetting("galaxy.sun_distance_kpc", 8.3)), RuleText: first.RuleText}
 	if changed.ConfigHash() == first.ConfigHash() {
 		t.Error("config_hash ignores a changed value")
 	}
@@ -95,9 +95,9 @@ func TestBeginRunRefusesBadSettings(t *testing.T) {
 	l := openT(t, tempLedger(t), Options{})
 	for name, s := range map[string]RunSettings{
 		"none":         {RuleText: "x"},
-		"twice":        {Values: []Setting{{SettingSeed, "1"}, {SettingSeed, "2"}}},
+		"twice":        {Values: []Setting{{"seed", "1"}, {"seed", "2"}}},
 		"bad name":     {Values: []Setting{{"Sun Distance", "8"}}},
-		"line break":   {Values: []Setting{{SettingRulesFile, "a\nb"}}},
+		"line break":   {Values: []Setting{{"rules.file", "a\nb"}}},
 		"empty name":   {Values: []Setting{{"", "8"}}},
 		"equals, name": {Values: []Setting{{"a=b", "8"}}},
 	} {
@@ -195,7 +195,7 @@ func TestMigrateFromSchema7Settings(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if x, ok := s2.Float(SettingUnboundP); !s2.Recorded() || !ok || x != 0.8 || s2.RuleText != testSettings.RuleText {
+	if x, ok := s2.Float("kinematics.unbound_p"); !s2.Recorded() || !ok || x != 0.8 || s2.RuleText != testSettings.RuleText {
 		t.Errorf("run after the upgrade records %+v", s2)
 	}
 	var ok string

@@ -9,7 +9,7 @@ import (
 	"sort"
 	"time"
 
-	"starvet/db"
+	"starvet/campaign"
 	"starvet/internal/numfmt"
 	"starvet/internal/vec"
 	"starvet/verdict"
@@ -119,8 +119,8 @@ func candidates(d *data) []candRow {
 // thresholdsText states the p_unbound thresholds the run's verdicts were
 // decided with, as the run recorded them.
 func thresholdsText(d *data) string {
-	u, uok := d.settings.Get(db.SettingUnboundP)
-	m, mok := d.settings.Get(db.SettingMarginalP)
+	u, uok := d.settings.Get(campaign.SettingUnboundP)
+	m, mok := d.settings.Get(campaign.SettingMarginalP)
 	if !uok || !mok {
 		return "not recorded in the ledger for this run"
 	}

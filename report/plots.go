@@ -12,6 +12,7 @@ import (
 	"gonum.org/v1/plot/vg/draw"
 	"gonum.org/v1/plot/vg/vgsvg"
 
+	"starvet/campaign"
 	"starvet/galaxy/frames"
 	"starvet/galaxy/potential"
 	"starvet/internal/numfmt"
@@ -111,7 +112,7 @@ func speedPlot(d *data) (*PlotSummary, []byte, error) {
 	rLo, rHi := math.Min(rMin/1.25, 1), rMax*1.25
 
 	var model *potential.Model
-	if len(d.models) == 1 && d.models[0] != ComponentsModel {
+	if len(d.models) == 1 && d.models[0] != campaign.ComponentsModel {
 		model, _ = potential.Builtin(d.models[0])
 	}
 	switch {

@@ -9,14 +9,11 @@ import (
 	"path/filepath"
 	"sort"
 
+	"starvet/campaign"
 	"starvet/db"
 	"starvet/galaxy/frames"
 	"starvet/verdict"
 )
-
-// ComponentsModel is the model name a verdict carries when the campaign
-// listed its own potential components; the report cannot rebuild it.
-const ComponentsModel = "campaign-components"
 
 // DefaultGCRadiusKpc is the centre radius drawn on the crossing plot when
 // Options gives none (the campaign default, kinematics.gc_radius_kpc).
@@ -220,13 +217,13 @@ func (d *data) useSettings() {
 	if d.settings.Recorded() {
 		d.opt.SettingsSource = fmt.Sprintf("recorded in the ledger for run %d", d.run.ID)
 		d.opt.EscapeRadiusKpc, d.opt.GCRadiusKpc, d.opt.SunDistanceKpc = 0, 0, 0
-		if x, ok := d.settings.Float(db.SettingEscapeRadiusKpc); ok {
+		if x, ok := d.settings.Float(campaign.SettingEscapeRadiusKpc); ok {
 			d.opt.EscapeRadiusKpc = x
 		}
-		if x, ok := d.settings.Float(db.SettingGCRadiusKpc); ok {
+		if x, ok := d.settings.Float(campaign.SettingGCRadiusKpc); ok {
 			d.opt.GCRadiusKpc = x
 		}
-		if x, ok := d.settings.Float(db.SettingSunDistanceKpc); ok {
+		if x, ok := d.settings.Float(campaign.SettingSunDistanceKpc); ok {
 			d.opt.SunDistanceKpc = x
 		}
 	}

@@ -12,6 +12,7 @@ import (
 	"strings"
 	"testing"
 
+	"starvet/campaign"
 	"starvet/db"
 	"starvet/galaxy/potential"
 	"starvet/internal/units"
@@ -163,7 +164,7 @@ func rings(svg []byte) int {
 }
 
 func TestComponentsModelDrawsEachEscapeSpeed(t *testing.T) {
-	dir, sum := writeFixture(t, fixture(ComponentsModel), 2, Options{})
+	dir, sum := writeFixture(t, fixture(campaign.ComponentsModel), 2, Options{})
 	svg := readFile(t, filepath.Join(dir, "speed.svg"))
 	// 9 stars with a speed, each with a stored v_esc, plus one legend ring.
 	if got := rings(svg); got != 10 {
@@ -338,11 +339,11 @@ func TestLinearTicks(t *testing.T) {
 func TestReportUsesRecordedSettings(t *testing.T) {
 	f := fixture(potential.DefaultModel)
 	f.settings = map[int64]*db.RunSettings{2: {Values: []db.Setting{
-		db.FloatSetting(db.SettingEscapeRadiusKpc, 187.5),
-		db.FloatSetting(db.SettingGCRadiusKpc, 0.75),
-		db.FloatSetting(db.SettingSunDistanceKpc, 8.3),
-		db.FloatSetting(db.SettingUnboundP, 0.85),
-		db.FloatSetting(db.SettingMarginalP, 0.55),
+		db.FloatSetting(campaign.SettingEscapeRadiusKpc, 187.5),
+		db.FloatSetting(campaign.SettingGCRadiusKpc, 0.75),
+		db.FloatSetting(campaign.SettingSunDistanceKpc, 8.3),
+		db.FloatSetting(campaign.SettingUnboundP, 0.85),
+		db.FloatSetting(campaign.SettingMarginalP, 0.55),
 	}}}
 	for _, opt := range []Options{{}, {EscapeRadiusKpc: 50, GCRadiusKpc: 2, SunDistanceKpc: 7, SettingsSource: "from a campaign"}} {
 		_, sum := writeFixture(t, f, 2, opt)

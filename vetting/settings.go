@@ -3,9 +3,9 @@ package vetting
 import (
 	"fmt"
 	"path/filepath"
-	"starvet/db"
 
 	"starvet/campaign"
+	"starvet/db"
 	"starvet/galaxy/kinematics"
 	"starvet/galaxy/orbit"
 	"starvet/galaxy/potential"
@@ -71,7 +71,7 @@ func Model(c *campaign.Campaign) (*potential.Model, string, error) {
 		if err != nil {
 			return nil, "", fmt.Errorf("campaign %s: [potential]: %w", c.File, err)
 		}
-		return m, "campaign-components", nil
+		return m, campaign.ComponentsModel, nil
 	}
 	name := c.Potential.Model
 	if name == "" {

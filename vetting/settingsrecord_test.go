@@ -52,23 +52,23 @@ func TestRunRecordsSettings(t *testing.T) {
 		t.Errorf("recorded rule text (%d bytes) is not the rule file (%d bytes)", len(s.RuleText), len(ruleText))
 	}
 	for name, want := range map[string]float64{
-		db.SettingEscapeRadiusKpc:   187.5,
-		db.SettingUnboundP:          0.85,
-		db.SettingMarginalP:         c.Kinematics.MarginalP,
-		db.SettingSunDistanceKpc:    c.Galaxy.SunDistanceKpc,
-		db.SettingSunVelocityVKms:   c.Galaxy.SunVelocityKms[1],
-		db.SettingGCRadiusKpc:       c.Kinematics.GCRadiusKpc,
-		db.SettingSamples:           float64(c.Kinematics.Samples),
-		db.SettingMatchRadiusArcsec: c.Match.RadiusArcsec,
+		campaign.SettingEscapeRadiusKpc: 187.5,
+		campaign.SettingUnboundP:        0.85,
+		campaign.SettingMarginalP:       c.Kinematics.MarginalP,
+		campaign.SettingSunDistanceKpc:  c.Galaxy.SunDistanceKpc,
+		"galaxy.sun_velocity_v_kms":     c.Galaxy.SunVelocityKms[1],
+		campaign.SettingGCRadiusKpc:     c.Kinematics.GCRadiusKpc,
+		"kinematics.samples":            float64(c.Kinematics.Samples),
+		"match.radius_arcsec":           c.Match.RadiusArcsec,
 	} {
 		if got, ok := s.Float(name); !ok || got != want {
 			t.Errorf("%s recorded as %v (%v), want %v", name, got, ok, want)
 		}
 	}
-	if got, _ := s.Get(db.SettingPotentialModel); got != sum.ModelName {
+	if got, _ := s.Get(campaign.SettingPotentialModel); got != sum.ModelName {
 		t.Errorf("potential.model recorded as %q, want %q", got, sum.ModelName)
 	}
-	if got, _ := s.Get(db.SettingRulesFile); got != rulePath {
+	if got, _ := s.Get(campaign.SettingRulesFile); got != rulePath {
 		t.Errorf("rules.file recorded as %q, want %q", got, rulePath)
 	}
 	model, _, err := Model(c)
@@ -76,12 +76,12 @@ func TestRunRecordsSettings(t *testing.T) {
 		t.Fatal(err)
 	}
 	cs := model.Components()
-	if n, ok := s.Float(db.SettingPotentialComponents); !ok || int(n) != len(cs) || len(cs) == 0 {
+	if n, ok := s.Float(campaign.SettingPotentialComponents); !ok || int(n) != len(cs) || len(cs) == 0 {
 		t.Fatalf("potential.components recorded as %v (%v), the model has %d", n, ok, len(cs))
 	}
 	for i, x := range cs {
-		kind, _ := s.Get(db.ComponentSetting(i+1, "kind"))
-		mass, _ := s.Float(db.ComponentSetting(i+1, "mass_msun"))
+		kind, _ := s.Get(campaign.ComponentSetting(i+1, "kind"))
+		mass, _ := s.Float(campaign.ComponentSetting(i+1, "mass_msun"))
 		if kind != x.Kind || mass != x.MassMsun {
 			t.Errorf("component %d recorded as %s %v, the model has %s %v", i+1, kind, mass, x.Kind, x.MassMsun)
 		}

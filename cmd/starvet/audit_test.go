@@ -12,6 +12,7 @@ import (
 	"strings"
 	"testing"
 
+	"starvet/campaign"
 	"starvet/db"
 )
 
@@ -286,9 +287,9 @@ func TestAuditJSONAndCSV(t *testing.T) {
 
 // testSettings is what the test runs record: BeginRun refuses a run
 // without settings. Their values are invented.
-var testSettings = db.RunSettings{Values: []db.Setting{{Name: db.SettingSeed, Value: "1"}, {Name: db.SettingUnboundP, Value: "0.8"},
-	{Name: db.SettingMarginalP, Value: "0.5"}, {Name: db.SettingPotentialModel, Value: "invented-potential"},
-	{Name: db.SettingEscapeRadiusKpc, Value: "187.5"}, {Name: db.SettingGCRadiusKpc, Value: "0.75"}, {Name: db.SettingSunDistanceKpc, Value: "8.3"}},
+var testSettings = db.RunSettings{Values: []db.Setting{{Name: "seed", Value: "1"}, {Name: campaign.SettingUnboundP, Value: "0.8"},
+	{Name: campaign.SettingMarginalP, Value: "0.5"}, {Name: campaign.SettingPotentialModel, Value: "invented-potential"},
+	{Name: campaign.SettingEscapeRadiusKpc, Value: "187.5"}, {Name: campaign.SettingGCRadiusKpc, Value: "0.75"}, {Name: campaign.SettingSunDistanceKpc, Value: "8.3"}},
 	RuleText: "# invented rules\n"}
 
 // why says the caution under an unbound verdict, and that a run from

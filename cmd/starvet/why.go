@@ -6,6 +6,7 @@ import (
 	"io"
 	"math"
 
+	"starvet/campaign"
 	"starvet/db"
 	"starvet/internal/numfmt"
 )
@@ -64,13 +65,13 @@ func settingsText(runID int64, s *db.RunSettings) string {
 		return "(not recorded)"
 	}
 	esc := "infinity"
-	if r, ok := s.Float(db.SettingEscapeRadiusKpc); !ok {
+	if r, ok := s.Float(campaign.SettingEscapeRadiusKpc); !ok {
 		esc = "(not recorded)"
 	} else if r > 0 {
-		esc = "r = " + get(db.SettingEscapeRadiusKpc) + " kpc"
+		esc = "r = " + get(campaign.SettingEscapeRadiusKpc) + " kpc"
 	}
 	return fmt.Sprintf("settings of run %d: unbound at p_unbound >= %s, marginal at >= %s; potential %s, escape to %s; Sun at %s kpc from the centre",
-		runID, get(db.SettingUnboundP), get(db.SettingMarginalP), get(db.SettingPotentialModel), esc, get(db.SettingSunDistanceKpc))
+		runID, get(campaign.SettingUnboundP), get(campaign.SettingMarginalP), get(campaign.SettingPotentialModel), esc, get(campaign.SettingSunDistanceKpc))
 }
 
 func writeHistory(w io.Writer, h *db.StarHistory, settings map[int64]*db.RunSettings) {
