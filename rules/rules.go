@@ -77,6 +77,7 @@ type RuleSet struct {
 	Name        string
 	Version     string
 	File        string
+	Text        string   // the rule file's text, as compiled: what the ledger records
 	Catalogs    []string // the schema's catalogs (with AnyCatalog, including those found)
 	Rules       []*Rule
 	Fingerprint string
@@ -160,7 +161,7 @@ func Parse(name string, data []byte, schema Schema) (*RuleSet, error) {
 	}
 	l.pos = tomlpos.Scan(text)
 
-	rs := &RuleSet{File: name}
+	rs := &RuleSet{File: name, Text: text}
 	l.header(raw, rs)
 	tables := l.ruleTables(raw)
 	if schema.AnyCatalog {

@@ -51,9 +51,7 @@ func newRunSettings(c *campaign.Campaign, opt RunOptions) (*runSettings, error) 
 		return nil, fmt.Errorf("campaign %s: [kinematics]: %w", c.File, err)
 	}
 	s.modelHash = c.ModelHash() + ":" + s.model.Fingerprint()
-	if s.record, err = recordedSettings(c, s.rules, s.model, s.modelName); err != nil {
-		return nil, err
-	}
+	s.record = recordedSettings(c, s.rules, s.model, s.modelName)
 	k := c.Kinematics
 	s.trace = orbit.TraceSettings{TraceMyr: k.TraceMyr, GCRadiusKpc: k.GCRadiusKpc, DiskRadiusKpc: k.DiskRadiusKpc}
 	return s, nil

@@ -1,8 +1,6 @@
 package vetting
 
 import (
-	"fmt"
-	"os"
 	"strconv"
 
 	"starvet/campaign"
@@ -14,12 +12,8 @@ import (
 // recordedSettings returns what the ledger records of a run's settings:
 // the campaign's values, the effective potential (its components too, for
 // a built-in model) and where the rule set came from, and the text of the
-// rule file rs was loaded from.
-func recordedSettings(c *campaign.Campaign, rs *rules.RuleSet, model *potential.Model, modelName string) (db.RunSettings, error) {
-	text, err := ruleText(rs)
-	if err != nil {
-		return db.RunSettings{}, err
-	}
+// rule file rs was compiled from.
+func recordedSettings(c *campaign.Campaign, rs *rules.RuleSet, model *potential.Model, modelName string) db.RunSettings {
 	var vs []db.Setting
 	for _, v := range c.Values() {
 		vs = append(vs, db.Setting(v))
@@ -37,23 +31,5 @@ func recordedSettings(c *campaign.Campaign, rs *rules.RuleSet, model *potential.
 			f(campaign.ComponentSetting(n, "a_kpc"), x.AKpc),
 			f(campaign.ComponentSetting(n, "b_kpc"), x.BKpc))
 	}
-	return db.RunSettings{Values: vs, RuleText: text}, nil
-}
-
-// ruleText is the text rs was compiled from: the embedded default, or the
-// user's file read again. A file edited since it was loaded is refused, so
-// the recorded text is the one the run applies.
-func ruleText(rs *rules.RuleSet) (string, error) {
-	if rs.File == rules.DefaultFile {
-		return string(rules.DefaultText()), nil
-	}
-	data, err := os.ReadFile(rs.File)
-	if err != nil {
-		return "", fmt.Errorf("rule file %s: read for the ledger: %w", rs.File, err)
-	}
-	again, err := rules.Parse(rs.File, data, rules.Schema{Catalogs: rs.Catalogs})
-	if err != nil || again.Fingerprint != rs.Fingerprint {
-		return "", fmt.Errorf("rule file %s changed while the run started; run again", rs.File)
-	}
-	return string(data), nil
+	return db.RunSettings{Values: vs, RuleText: rs.Text}
 }
