@@ -4,6 +4,8 @@ import (
 	"fmt"
 	"math"
 	"reflect"
+	"starvet/crossmatch"
+	"starvet/galaxy/orbit"
 	"strconv"
 	"strings"
 
@@ -54,7 +56,7 @@ var settings = []setting{
 	number("parallax_zero_point_mas", func(c *Campaign) *float64 { return &c.ParallaxZeroPointMas }, 0, anySign,
 		"parallax zero point subtracted from every parallax, mas [`parallax_zero_point_mas`]"),
 
-	number("match.radius_arcsec", func(c *Campaign) *float64 { return &c.Match.RadiusArcsec }, 1, positive,
+	number("match.radius_arcsec", func(c *Campaign) *float64 { return &c.Match.RadiusArcsec }, crossmatch.DefaultRadiusArcsec, positive,
 		"cross-match search radius, arcsec [`match.radius_arcsec`]"),
 	number("match.n_sigma", func(c *Campaign) *float64 { return &c.Match.NSigma }, 0, nonNegative,
 		"when > 0, the radius is this many combined positional errors [`match.n_sigma`]"),
@@ -64,7 +66,7 @@ var settings = []setting{
 		"lower limit of that radius, arcsec [`match.radius_floor_arcsec`]"),
 	number("match.duplicate_radius_arcsec", func(c *Campaign) *float64 { return &c.Match.DuplicateRadiusArcsec }, 0.4, nonNegative,
 		"radius within which rows of the primary catalog are duplicates, arcsec [`match.duplicate_radius_arcsec`]"),
-	number("match.ambiguity_ratio", func(c *Campaign) *float64 { return &c.Match.AmbiguityRatio }, 3, atLeastOne,
+	number("match.ambiguity_ratio", func(c *Campaign) *float64 { return &c.Match.AmbiguityRatio }, crossmatch.DefaultAmbiguityRatio, atLeastOne,
 		"a match is ambiguous when another candidate (or another primary star's claim on the same counterpart) comes within this factor of the best one's match odds [`match.ambiguity_ratio`]"),
 
 	// The Solar defaults are frames.DefaultSun: R0 = 8.122 kpc (GRAVITY
@@ -106,11 +108,11 @@ var settings = []setting{
 		"least `p_unbound` for a star's orbit to be traced back"),
 	count("kinematics.trace_samples", func(c *Campaign) *int { return &c.Kinematics.TraceSamples }, 200,
 		"samples traced back per star (and kept as `crossings`)"),
-	number("kinematics.trace_myr", func(c *Campaign) *float64 { return &c.Kinematics.TraceMyr }, 300, positive,
+	number("kinematics.trace_myr", func(c *Campaign) *float64 { return &c.Kinematics.TraceMyr }, orbit.DefaultTraceMyr, positive,
 		"how far back orbits are traced, Myr"),
-	number(SettingGCRadiusKpc, func(c *Campaign) *float64 { return &c.Kinematics.GCRadiusKpc }, 1, positive,
+	number(SettingGCRadiusKpc, func(c *Campaign) *float64 { return &c.Kinematics.GCRadiusKpc }, orbit.DefaultGCRadiusKpc, positive,
 		"plane crossings this close to the Galactic Centre count as a centre origin, kpc"),
-	number("kinematics.disk_radius_kpc", func(c *Campaign) *float64 { return &c.Kinematics.DiskRadiusKpc }, 25, positive,
+	number("kinematics.disk_radius_kpc", func(c *Campaign) *float64 { return &c.Kinematics.DiskRadiusKpc }, orbit.DefaultDiskRadiusKpc, positive,
 		"crossings inside this radius (the centre excluded) make a disc origin, beyond it an outer one, kpc"),
 }
 

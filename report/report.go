@@ -8,6 +8,7 @@ import (
 	"os"
 	"path/filepath"
 	"sort"
+	"starvet/galaxy/orbit"
 
 	"starvet/campaign"
 	"starvet/db"
@@ -17,7 +18,7 @@ import (
 
 // DefaultGCRadiusKpc is the centre radius drawn on the crossing plot when
 // Options gives none (the campaign default, kinematics.gc_radius_kpc).
-const DefaultGCRadiusKpc = 1.0
+const DefaultGCRadiusKpc = orbit.DefaultGCRadiusKpc
 
 // DefaultTopReasons is how many rejection reasons the page lists.
 const DefaultTopReasons = 10
