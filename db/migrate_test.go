@@ -265,6 +265,15 @@ func TestMigrateFromSchema6Names(t *testing.T) {
 	if fmt.Sprint(visits) != "[14 6]" {
 		t.Errorf("fit_visits after the upgrade: %v, want [14 6]", visits)
 	}
+	var all string
+	if err := l.db.QueryRow("SELECT group_concat(sql, ';') FROM sqlite_schema WHERE sql IS NOT NULL").Scan(&all); err != nil {
+		t.Fatal(err)
+	}
+	for _, gone := range []string{"source_id", "visibility_periods", "parallax_over_error"} {
+		if strings.Contains(all, gone) {
+			t.Errorf("the upgraded schema still says %s", gone)
+		}
+	}
 	for _, tc := range []struct{ table, gone string }{{"matches", "source_id"}, {"inputs", "visibility_periods"}} {
 		var ddl string
 		if err := l.db.QueryRow("SELECT sql FROM sqlite_schema WHERE name = ?", tc.table).Scan(&ddl); err != nil {
