@@ -309,7 +309,8 @@ func rms(a, b float64) (float64, bool) {
 // per-row circular positional error:
 // sigma^2 = (ra_err^2 + dec_err^2)/2 + ((pm_ra_err^2 + pm_dec_err^2)/2) dt^2
 // (mas), the first term replaced by the fallback when the row has no
-// position errors.
+// position errors. One pass per row does all of it: the loop is hot (every
+// row of both catalogs) and stops at a row's first error.
 func prepare(ctx context.Context, t *catalog.Table, toJyr float64, move bool, fallbackMas float64, workers int) (*side, error) {
 	n := t.Len()
 	sd := &side{
@@ -468,57 +469,99 @@ type pairRef struct{ b, k int32 }
 // index positions (pair.pos is below it). No decision depends on the order
 // of the pairs.
 func resolve(ctx context.Context, batches [][]pair, order []int32, n1, nPos int, ids []string, opt *Options, p0 float64, st *Stats) ([]Counterpart, error) {
-	lnRatio := math.Log(opt.AmbiguityRatio)
-	post := newPosterior(p0)
+	rs := &resolution{batches: batches}
+	var err error
+	if rs.secCount, err = countPerSecondary(ctx, batches, nPos, opt.Workers); err != nil {
+		return nil, err
+	}
+	hard, err := rs.contested(ctx, opt.Workers)
+	if err != nil {
+		return nil, err
+	}
+	rs.secPairs = rs.sharedSecondaries(hard)
+	rs.won = greedy(hard)
 	out := make([]Counterpart, n1)
-	none := noMatch()
-	// Number of primaries per secondary (by index position).
+	if err := rs.counterparts(ctx, order, out, ids, opt, newPosterior(p0), st); err != nil {
+		return nil, err
+	}
+	return out, nil
+}
+
+// resolution is what resolve knows about the candidate pairs.
+type resolution struct {
+	batches  [][]pair
+	secCount []int32             // primaries per secondary, by index position
+	secPairs map[int32][]pairRef // pairs of each secondary several primaries share
+	won      map[int32]pairRef   // primary -> pair accepted by the greedy
+}
+
+// hardPair is a pair that is not alone in its connected component of the
+// candidate graph.
+type hardPair struct {
+	lnB  float64
+	i, j int32
+	ref  pairRef
+}
+
+// countPerSecondary counts the primaries of each secondary, by index
+// position.
+func countPerSecondary(ctx context.Context, batches [][]pair, nPos, workers int) ([]int32, error) {
 	secCount := make([]int32, nPos)
-	if err := parallel.Batches(ctx, len(batches), 1, opt.Workers, func(_ *struct{}, b, _ int) {
+	if err := parallel.Batches(ctx, len(batches), 1, workers, func(_ *struct{}, b, _ int) {
 		for k := range batches[b] {
 			atomic.AddInt32(&secCount[batches[b][k].pos], 1)
 		}
 	}, nil); err != nil {
 		return nil, err
 	}
-	nSec := func(pos int32) int32 { return secCount[pos] }
+	return secCount, nil
+}
 
-	// A pair alone in its connected component of the candidate graph is
-	// accepted directly (below); the greedy over the rest gives the same
-	// result as the greedy over all pairs, because a pair's fate depends
-	// only on the pairs sharing its primary or secondary.
-	type hardPair struct {
-		lnB  float64
-		i, j int32
-		ref  pairRef
-	}
+// contested returns the hard pairs. A pair alone in its connected
+// component of the candidate graph is accepted directly (counterparts);
+// the greedy over the rest gives the same result as the greedy over all
+// pairs, because a pair's fate depends only on the pairs sharing its
+// primary or secondary.
+func (rs *resolution) contested(ctx context.Context, workers int) ([]hardPair, error) {
+	batches, secCount := rs.batches, rs.secCount
 	hardOf := make([][]hardPair, len(batches))
-	if err := parallel.Batches(ctx, len(batches), 1, opt.Workers, func(_ *struct{}, b, _ int) {
+	if err := parallel.Batches(ctx, len(batches), 1, workers, func(_ *struct{}, b, _ int) {
 		ps := batches[b]
 		for k := range ps {
-			if pr := &ps[k]; pr.nc > 1 || nSec(pr.pos) > 1 {
+			if pr := &ps[k]; pr.nc > 1 || secCount[pr.pos] > 1 {
 				hardOf[b] = append(hardOf[b], hardPair{pr.lnB, pr.i, pr.j, pairRef{int32(b), int32(k)}})
 			}
 		}
 	}, nil); err != nil {
 		return nil, err
 	}
-	hard := slices.Concat(hardOf...)
+	return slices.Concat(hardOf...), nil
+}
+
+// sharedSecondaries returns the pairs of the secondaries that several
+// primaries share (rare outside crowded fields), by index position; nil
+// when there are none.
+func (rs *resolution) sharedSecondaries(hard []hardPair) map[int32][]pairRef {
 	shared := slices.ContainsFunc(hard, func(h hardPair) bool {
-		return nSec(batches[h.ref.b][h.ref.k].pos) > 1
+		return rs.secCount[rs.batches[h.ref.b][h.ref.k].pos] > 1
 	})
-	// Pairs of the secondaries that several primaries share (rare outside
-	// crowded fields), by index position.
-	var secPairs map[int32][]pairRef
-	if shared {
-		secPairs = make(map[int32][]pairRef)
-		for _, h := range hard {
-			pr := &batches[h.ref.b][h.ref.k]
-			if nSec(pr.pos) > 1 {
-				secPairs[pr.pos] = append(secPairs[pr.pos], h.ref)
-			}
+	if !shared {
+		return nil
+	}
+	secPairs := make(map[int32][]pairRef)
+	for _, h := range hard {
+		pr := &rs.batches[h.ref.b][h.ref.k]
+		if rs.secCount[pr.pos] > 1 {
+			secPairs[pr.pos] = append(secPairs[pr.pos], h.ref)
 		}
 	}
+	return secPairs
+}
+
+// greedy sorts hard by ln B descending, ties by primary then secondary
+// row, and accepts each pair whose primary and secondary are both free.
+// It returns the accepted pair of each primary.
+func greedy(hard []hardPair) map[int32]pairRef {
 	slices.SortFunc(hard, func(a, b hardPair) int {
 		switch {
 		case a.lnB > b.lnB:
@@ -531,7 +574,7 @@ func resolve(ctx context.Context, batches [][]pair, order []int32, n1, nPos int,
 		return int(a.j - b.j)
 	})
 	takenSec := make(map[int32]bool)
-	won := make(map[int32]pairRef) // primary -> accepted pair, from the greedy
+	won := make(map[int32]pairRef)
 	for _, h := range hard {
 		if _, ok := won[h.i]; ok || takenSec[h.j] {
 			continue
@@ -539,9 +582,18 @@ func resolve(ctx context.Context, batches [][]pair, order []int32, n1, nPos int,
 		won[h.i] = h.ref
 		takenSec[h.j] = true
 	}
+	return won
+}
 
-	// Per primary, in batch order (its contiguous run of pairs in one
-	// batch): the whole Counterpart is written once here.
+// counterparts writes the whole Counterpart of every primary in order
+// into out, once, per primary in batch order (its contiguous run of pairs
+// in one batch), and adds the counts to st. The per-primary loop stays
+// inline: it runs once per primary row, the hot end of resolve.
+func (rs *resolution) counterparts(ctx context.Context, order []int32, out []Counterpart, ids []string, opt *Options, post posterior, st *Stats) error {
+	batches, secCount, secPairs, won := rs.batches, rs.secCount, rs.secPairs, rs.won
+	nSec := func(pos int32) int32 { return secCount[pos] }
+	lnRatio := math.Log(opt.AmbiguityRatio)
+	none := noMatch()
 	type tally struct{ matched, ambiguous, bestTaken int }
 	tallies := make([]tally, len(batches))
 	err := parallel.Batches(ctx, len(batches), 1, opt.Workers, func(_ *struct{}, b, _ int) {
@@ -593,14 +645,14 @@ func resolve(ctx context.Context, batches [][]pair, order []int32, n1, nPos int,
 		}
 	}, nil)
 	if err != nil {
-		return nil, err
+		return err
 	}
 	for _, tl := range tallies {
 		st.Matched += tl.matched
 		st.Ambiguous += tl.ambiguous
 		st.BestTaken += tl.bestTaken
 	}
-	return out, nil
+	return nil
 }
 
 // noMatch is the Counterpart of a primary without a match.

@@ -58,9 +58,22 @@ func (l *Ledger) Why(ctx context.Context, starID string) (*StarHistory, error) {
 	if err != nil {
 		return nil, fmt.Errorf("ledger %s: star %q: %w", l.path, starID, err)
 	}
+	if err := l.starRuns(ctx, h); err != nil {
+		return nil, err
+	}
+	if err := l.starComputations(ctx, h); err != nil {
+		return nil, err
+	}
+	return h, nil
+}
+
+// starRuns fills h's CurrentRun, Runs and CurrentStatus: the star's
+// verdict in every run, with the run's state.
+func (l *Ledger) starRuns(ctx context.Context, h *StarHistory) error {
+	starID := h.StarID
 	runs, err := l.Runs(ctx)
 	if err != nil {
-		return nil, err
+		return err
 	}
 	state := map[int64]string{}
 	for _, r := range runs {
@@ -74,13 +87,13 @@ func (l *Ledger) Why(ctx context.Context, starID string) (*StarHistory, error) {
 	rows, err := l.db.QueryContext(ctx, "SELECT "+verdictCols+
 		" FROM verdicts WHERE run_id IN (SELECT id FROM runs) AND star_id = ? ORDER BY run_id", starID)
 	if err != nil {
-		return nil, fmt.Errorf("ledger %s: star %q verdicts: %w", l.path, starID, err)
+		return fmt.Errorf("ledger %s: star %q verdicts: %w", l.path, starID, err)
 	}
 	for rows.Next() {
 		v, err := scanVerdict(rows)
 		if err != nil {
 			rows.Close()
-			return nil, fmt.Errorf("ledger %s: star %q verdicts: %w", l.path, starID, err)
+			return fmt.Errorf("ledger %s: star %q verdicts: %w", l.path, starID, err)
 		}
 		h.Runs = append(h.Runs, StarRun{RunState: state[v.RunID], Verdict: v})
 		if v.RunID == h.CurrentRun {
@@ -89,9 +102,16 @@ func (l *Ledger) Why(ctx context.Context, starID string) (*StarHistory, error) {
 	}
 	rows.Close()
 	if err := rows.Err(); err != nil {
-		return nil, fmt.Errorf("ledger %s: star %q verdicts: %w", l.path, starID, err)
+		return fmt.Errorf("ledger %s: star %q verdicts: %w", l.path, starID, err)
 	}
+	return nil
+}
 
+// starComputations fills h.Computations from h.Runs: each run that
+// computed the star, in run order, with its inputs, reasons, matches and
+// the input changes since the previous computation.
+func (l *Ledger) starComputations(ctx context.Context, h *StarHistory) error {
+	starID := h.StarID
 	seen := map[int64]bool{}
 	var comps []int64
 	own := map[int64]VerdictRow{}
@@ -109,31 +129,38 @@ func (l *Ledger) Why(ctx context.Context, starID string) (*StarHistory, error) {
 	var prev *InputRow
 	for _, c := range comps {
 		comp := Computation{RunID: c, Verdict: own[c]}
+		var err error
 		if comp.Inputs, err = l.inputsOf(ctx, c, starID); err != nil {
-			return nil, err
+			return err
 		}
 		if comp.Reasons, err = l.reasonsOf(ctx, c, starID); err != nil {
-			return nil, err
+			return err
 		}
 		if comp.Matches, err = l.matchesOf(ctx, c, starID); err != nil {
-			return nil, err
+			return err
 		}
 		if prev != nil && comp.Inputs != nil {
-			for i := range NumInputs {
-				if !sameValue(prev.Values[i], comp.Inputs.Values[i]) {
-					comp.Changes = append(comp.Changes, FieldChange{InputName(i), InputUnit(i), prev.Values[i], comp.Inputs.Values[i]})
-				}
-			}
-			if prev.DupCount != comp.Inputs.DupCount {
-				comp.DupCountChange = &[2]int{prev.DupCount, comp.Inputs.DupCount}
-			}
+			comp.inputChanges(prev)
 		}
 		if comp.Inputs != nil {
 			prev = comp.Inputs
 		}
 		h.Computations = append(h.Computations, comp)
 	}
-	return h, nil
+	return nil
+}
+
+// inputChanges sets comp's Changes and DupCountChange against the inputs
+// of the previous computation.
+func (comp *Computation) inputChanges(prev *InputRow) {
+	for i := range NumInputs {
+		if !sameValue(prev.Values[i], comp.Inputs.Values[i]) {
+			comp.Changes = append(comp.Changes, FieldChange{InputName(i), InputUnit(i), prev.Values[i], comp.Inputs.Values[i]})
+		}
+	}
+	if prev.DupCount != comp.Inputs.DupCount {
+		comp.DupCountChange = &[2]int{prev.DupCount, comp.Inputs.DupCount}
+	}
 }
 
 func (l *Ledger) inputsOf(ctx context.Context, runID int64, starID string) (*InputRow, error) {
@@ -240,32 +267,14 @@ func (l *Ledger) Diff(ctx context.Context, runA, runB int64) (*DiffResult, error
 
 // DiffN is Diff keeping at most limit per-star lines (limit < 0: all).
 func (l *Ledger) DiffN(ctx context.Context, runA, runB int64, limit int) (*DiffResult, error) {
-	if runB == 0 {
-		ids, err := l.completeRuns(ctx, 2)
-		if err != nil {
-			return nil, fmt.Errorf("ledger %s: diff: %w", l.path, err)
-		}
-		switch {
-		case runA == 0 && len(ids) < 2:
-			return nil, fmt.Errorf("ledger %s: diff needs two complete runs, it has %d: %w", l.path, len(ids), ErrNoRuns)
-		case runA == 0:
-			runA, runB = ids[1], ids[0]
-		case len(ids) == 0:
-			return nil, fmt.Errorf("ledger %s: %w", l.path, ErrNoRuns)
-		default:
-			runB = ids[0]
-		}
-	}
-	for _, id := range []int64{runA, runB} {
-		if _, err := l.Run(ctx, id); err != nil {
-			return nil, err
-		}
+	runA, runB, err := l.diffRuns(ctx, runA, runB)
+	if err != nil {
+		return nil, err
 	}
 	d := &DiffResult{RunA: runA, RunB: runB}
-	type pair struct{ from, to string }
-	counts := map[pair]int64{}
-	err := l.scanSets(ctx, []int64{runA, runB}, []string{"status"}, func(id string, g [][]driver.Value, pick []int) error {
-		p := pair{NoStatus, NoStatus}
+	counts := map[statusPair]int64{}
+	err = l.scanSets(ctx, []int64{runA, runB}, []string{"status"}, func(id string, g [][]driver.Value, pick []int) error {
+		p := statusPair{NoStatus, NoStatus}
 		if pick[0] >= 0 {
 			p.from, _ = g[pick[0]][2].(string)
 		}
@@ -284,6 +293,43 @@ func (l *Ledger) DiffN(ctx context.Context, runA, runB int64, limit int) (*DiffR
 	if err != nil {
 		return nil, fmt.Errorf("ledger %s: diff %d %d: %w", l.path, runA, runB, err)
 	}
+	d.addTransitions(counts)
+	return d, nil
+}
+
+// diffRuns resolves DiffN's run ids (0: the last complete runs) and checks
+// that both runs exist.
+func (l *Ledger) diffRuns(ctx context.Context, runA, runB int64) (int64, int64, error) {
+	if runB == 0 {
+		ids, err := l.completeRuns(ctx, 2)
+		if err != nil {
+			return 0, 0, fmt.Errorf("ledger %s: diff: %w", l.path, err)
+		}
+		switch {
+		case runA == 0 && len(ids) < 2:
+			return 0, 0, fmt.Errorf("ledger %s: diff needs two complete runs, it has %d: %w", l.path, len(ids), ErrNoRuns)
+		case runA == 0:
+			runA, runB = ids[1], ids[0]
+		case len(ids) == 0:
+			return 0, 0, fmt.Errorf("ledger %s: %w", l.path, ErrNoRuns)
+		default:
+			runB = ids[0]
+		}
+	}
+	for _, id := range []int64{runA, runB} {
+		if _, err := l.Run(ctx, id); err != nil {
+			return 0, 0, err
+		}
+	}
+	return runA, runB, nil
+}
+
+// statusPair is a star's status in the two runs of a diff.
+type statusPair struct{ from, to string }
+
+// addTransitions sums counts into d's Unchanged and Changed and lists the
+// transitions, most frequent first.
+func (d *DiffResult) addTransitions(counts map[statusPair]int64) {
 	for p, n := range counts {
 		if p.from == p.to {
 			d.Unchanged += n
@@ -302,5 +348,4 @@ func (l *Ledger) DiffN(ctx context.Context, runA, runB int64, limit int) (*DiffR
 		}
 		return a.To < b.To
 	})
-	return d, nil
 }

@@ -156,6 +156,45 @@ const probeLimit = 100_000
 // Finish stored them) with one probe per computed star, which adds its new
 // status and takes away its old one; otherwise one pass over the set.
 func (l *Ledger) countsAfter(ctx context.Context, runID int64, probeLimit int64) (map[string]int64, int64, error) {
+	ownCounts, computed, err := l.computedCounts(ctx, runID)
+	if err != nil {
+		return nil, 0, err
+	}
+	counts := map[string]int64{}
+	var prev sql.NullInt64
+	var cj sql.NullString
+	err = l.db.QueryRowContext(ctx,
+		"SELECT id, counts_json FROM runs WHERE id < ? AND state = 'complete' ORDER BY id DESC LIMIT 1", runID).Scan(&prev, &cj)
+	switch {
+	case errors.Is(err, sql.ErrNoRows):
+		return ownCounts, computed, nil
+	case err != nil:
+		return nil, 0, err
+	case computed > probeLimit || !cj.Valid:
+		counts, err := l.statusCounts(ctx, runID)
+		return counts, computed, err
+	}
+	if err := json.Unmarshal([]byte(cj.String), &counts); err != nil {
+		return nil, 0, fmt.Errorf("run %d counts_json: %w", prev.Int64, err)
+	}
+	probed, err := l.probeChanges(ctx, runID, counts)
+	if err != nil {
+		return nil, 0, err
+	}
+	if probed != computed {
+		return nil, 0, fmt.Errorf("run %d: %d computed verdicts by status, %d probed", runID, computed, probed)
+	}
+	for k, n := range counts {
+		if n < 0 {
+			return nil, 0, fmt.Errorf("%d stars %q after run %d: the previous run's counts disagree with its verdicts: %w", n, k, runID, ErrSummary)
+		}
+	}
+	return nonZero(counts), computed, nil
+}
+
+// computedCounts counts the verdicts run runID computed, by status and in
+// all.
+func (l *Ledger) computedCounts(ctx context.Context, runID int64) (map[string]int64, int64, error) {
 	own, err := l.db.QueryContext(ctx,
 		"SELECT status, count(*) FROM computed_verdicts WHERE computed_in_run = ? GROUP BY status", runID)
 	if err != nil {
@@ -177,30 +216,20 @@ func (l *Ledger) countsAfter(ctx context.Context, runID int64, probeLimit int64)
 	if err := own.Err(); err != nil {
 		return nil, 0, err
 	}
-	counts := map[string]int64{}
-	var prev sql.NullInt64
-	var cj sql.NullString
-	err = l.db.QueryRowContext(ctx,
-		"SELECT id, counts_json FROM runs WHERE id < ? AND state = 'complete' ORDER BY id DESC LIMIT 1", runID).Scan(&prev, &cj)
-	switch {
-	case errors.Is(err, sql.ErrNoRows):
-		return ownCounts, computed, nil
-	case err != nil:
-		return nil, 0, err
-	case computed > probeLimit || !cj.Valid:
-		counts, err := l.statusCounts(ctx, runID)
-		return counts, computed, err
-	}
-	if err := json.Unmarshal([]byte(cj.String), &counts); err != nil {
-		return nil, 0, fmt.Errorf("run %d counts_json: %w", prev.Int64, err)
-	}
+	return ownCounts, computed, nil
+}
+
+// probeChanges moves each star run runID computed, in counts, from its
+// status in the last complete run before (if any) to its new one, and
+// returns how many stars it probed.
+func (l *Ledger) probeChanges(ctx context.Context, runID int64, counts map[string]int64) (int64, error) {
 	rows, err := l.db.QueryContext(ctx, `SELECT v.status, (
 			SELECT p.status FROM computed_verdicts p JOIN runs c ON c.id = p.computed_in_run
 			 WHERE p.star_id = v.star_id AND p.computed_in_run < ?1 AND c.state = 'complete'
 			 ORDER BY p.computed_in_run DESC LIMIT 1)
 		  FROM computed_verdicts v WHERE v.computed_in_run = ?1`, runID)
 	if err != nil {
-		return nil, 0, err
+		return 0, err
 	}
 	defer rows.Close()
 	var probed int64
@@ -208,7 +237,7 @@ func (l *Ledger) countsAfter(ctx context.Context, runID int64, probeLimit int64)
 		var now string
 		var before sql.NullString
 		if err := rows.Scan(&now, &before); err != nil {
-			return nil, 0, err
+			return 0, err
 		}
 		probed++
 		counts[now]++
@@ -216,18 +245,7 @@ func (l *Ledger) countsAfter(ctx context.Context, runID int64, probeLimit int64)
 			counts[before.String]--
 		}
 	}
-	if err := rows.Err(); err != nil {
-		return nil, 0, err
-	}
-	if probed != computed {
-		return nil, 0, fmt.Errorf("run %d: %d computed verdicts by status, %d probed", runID, computed, probed)
-	}
-	for k, n := range counts {
-		if n < 0 {
-			return nil, 0, fmt.Errorf("%d stars %q after run %d: the previous run's counts disagree with its verdicts: %w", n, k, runID, ErrSummary)
-		}
-	}
-	return nonZero(counts), computed, nil
+	return probed, rows.Err()
 }
 
 // PreviousState returns status, input hash and computing run of every star

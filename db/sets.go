@@ -57,7 +57,8 @@ func (l *Ledger) eligibility(ctx context.Context, runID int64) (func(computedIn 
 // calls fn once per star with the star's rows (each holding star_id,
 // computed_in_run, then cols) and, for each of runs, the index of the row
 // that is its verdict there, or -1 where the star is not in that run's set.
-// The rows are reused after fn returns.
+// The rows are reused after fn returns. It stays whole: one raw driver
+// scan grouping rows into a reused pool is the ledger's hot read.
 func (l *Ledger) scanSets(ctx context.Context, runs []int64, cols []string,
 	fn func(starID string, group [][]driver.Value, pick []int) error) error {
 	elig := make([]func(int64) bool, len(runs))

@@ -220,7 +220,8 @@ func (w *RunWriter) AddStars(ctx context.Context, batch []StarRecord) error {
 }
 
 // writeStars queues every row of the batch in multi-row inserts. It runs
-// inside AddStars's transaction.
+// inside AddStars's transaction. One loop over the batch fills all five
+// tables: it is the writer's hot path, and each table's part is a few lines.
 func (w *RunWriter) writeStars(c *sqlite3.SQLiteConn, batch []StarRecord) error {
 	inputs := newBulk(c, "inputs", "INSERT INTO inputs (run_id, star_id, input_hash, "+inputCols+", dup_count) VALUES", 3+NumInputs+1, "")
 	matches := newBulk(c, "matches", "INSERT INTO matches (run_id, star_id, catalog, counterpart_id, sep_arcsec, match_prob, candidates, ambiguous) VALUES", 8, "")

@@ -131,104 +131,112 @@ func fakePM(rng *rand.Rand, distKpc, vMin, vMax float64) [2]float64 {
 	return [2]float64{mu * math.Cos(a), mu * math.Sin(a)}
 }
 
-// sample draws every star of the primary catalog.
+// sample draws every star of the primary catalog. The steps share one
+// random stream, so their order below is the order of the draws; after an
+// error the remaining steps draw nothing.
 func (s *Scenario) sample() error {
 	cn := countsFor(s.Config)
-	rng := rand.New(rand.NewPCG(s.Config.Seed, streamPopulations))
-	smp := &sampler{g: s.galaxy, rng: rng}
+	smp := &sampler{g: s.galaxy, rng: rand.New(rand.NewPCG(s.Config.Seed, streamPopulations))}
 	var stars []*star
-	add := func(n int, f func() (*star, error)) error {
-		for range n {
-			st, err := f()
-			if err != nil {
-				return err
-			}
-			stars = append(stars, st)
-		}
-		return nil
-	}
-	if err := add(cn.injected, smp.gcEjectee); err != nil {
-		return err
-	}
-	if err := add(cn.injected, smp.diskRunaway); err != nil {
-		return err
-	}
-	if err := add(cn.injected, func() (*star, error) { return smp.haloFast(0.6, 0.95) }); err != nil {
-		return err
-	}
-	err := add(cn.binaries, func() (*star, error) {
-		st, err := smp.trapHost(0.3, 2.5)
-		if err != nil {
-			return nil, err
-		}
-		st.trap, st.artefact = TrapBinary, true
-		st.fakePM = fakePM(rng, st.distKpc, 500, 900)
-		return st, nil
-	})
-	if err != nil {
-		return err
-	}
-	for range cn.duplicates {
-		host, err := smp.trapHost(0.3, 2.5)
-		if err != nil {
-			return err
-		}
-		host.trap, host.artefact = TrapDuplicate, true
-		twin := *host
-		twin.twinOf = host
-		sepMas := smp.uniform(100, 300)
-		a := 2 * math.Pi * rng.Float64()
-		twin.offsetMas = [2]float64{sepMas * math.Cos(a), sepMas * math.Sin(a)}
-		twin.fakePM = fakePM(rng, host.distKpc, 500, 900)
-		stars = append(stars, host, &twin)
-	}
-	err = add(cn.rvOutliers, func() (*star, error) {
-		st, err := smp.trapHost(0.5, 15)
-		if err != nil {
-			return nil, err
-		}
-		st.trap, st.artefact = TrapRVOutlier, true
-		return st, nil
-	})
-	if err != nil {
-		return err
-	}
-	err = add(cn.crowded, func() (*star, error) {
-		for range maxTries {
-			st, err := smp.haloFast(0.5, 0.8)
-			if err != nil {
-				return nil, err
-			}
-			if st.inFootprint && st.distKpc >= 0.5 && st.distKpc <= 10 {
-				st.pop, st.trap, st.artefact = PopHalo, TrapCrowded, true
-				return st, nil
+	var err error
+	draw := func(n int, f func() (*star, error)) {
+		for i := 0; i < n && err == nil; i++ {
+			var st *star
+			if st, err = f(); err == nil {
+				stars = append(stars, st)
 			}
 		}
-		return nil, fmt.Errorf("scenario: crowded-field host: %w", ErrSampling)
-	})
-	if err != nil {
-		return err
 	}
-	if err := add(cn.highPM, smp.highPMStar); err != nil {
-		return err
-	}
-	err = add(cn.badAstro, func() (*star, error) {
-		st, err := smp.background()
-		if err != nil {
-			return nil, err
+	draw(cn.injected, smp.gcEjectee)
+	draw(cn.injected, smp.diskRunaway)
+	draw(cn.injected, func() (*star, error) { return smp.haloFast(0.6, 0.95) })
+	draw(cn.binaries, smp.binary)
+	for i := 0; i < cn.duplicates && err == nil; i++ {
+		var host, twin *star
+		if host, twin, err = smp.duplicatePair(); err == nil {
+			stars = append(stars, host, twin)
 		}
-		st.trap, st.artefact = TrapBadValue, true
-		return st, nil
-	})
+	}
+	draw(cn.rvOutliers, smp.rvOutlier)
+	draw(cn.crowded, smp.crowdedHost)
+	draw(cn.highPM, smp.highPMStar)
+	draw(cn.badAstro, smp.badValueHost)
+	draw(s.Config.Stars-len(stars), smp.background)
 	if err != nil {
 		return err
 	}
-	nBack := s.Config.Stars - len(stars)
-	if err := add(nBack, smp.background); err != nil {
-		return err
-	}
+	s.shuffleAndNumber(stars)
+	return nil
+}
 
-	// Shuffle so that file order and ids reveal nothing.
+// binary is a trap: a host whose unresolved companion spoils the fit and
+// fakes a large proper motion.
+func (smp *sampler) binary() (*star, error) {
+	st, err := smp.trapHost(0.3, 2.5)
+	if err != nil {
+		return nil, err
+	}
+	st.trap, st.artefact = TrapBinary, true
+	st.fakePM = fakePM(smp.rng, st.distKpc, 500, 900)
+	return st, nil
+}
+
+// duplicatePair is a trap: a host and its twin, a second primary row
+// 100-300 mas away with a fake proper motion.
+func (smp *sampler) duplicatePair() (host, twin *star, err error) {
+	host, err = smp.trapHost(0.3, 2.5)
+	if err != nil {
+		return nil, nil, err
+	}
+	host.trap, host.artefact = TrapDuplicate, true
+	t := *host
+	t.twinOf = host
+	sepMas := smp.uniform(100, 300)
+	a := 2 * math.Pi * smp.rng.Float64()
+	t.offsetMas = [2]float64{sepMas * math.Cos(a), sepMas * math.Sin(a)}
+	t.fakePM = fakePM(smp.rng, host.distKpc, 500, 900)
+	return host, &t, nil
+}
+
+// rvOutlier is a trap host whose spectrum will carry a wrong rv.
+func (smp *sampler) rvOutlier() (*star, error) {
+	st, err := smp.trapHost(0.5, 15)
+	if err != nil {
+		return nil, err
+	}
+	st.trap, st.artefact = TrapRVOutlier, true
+	return st, nil
+}
+
+// crowdedHost is a trap: a halo star in the footprint at 0.5-10 kpc whose
+// neighbour's spectrum lies close by.
+func (smp *sampler) crowdedHost() (*star, error) {
+	for range maxTries {
+		st, err := smp.haloFast(0.5, 0.8)
+		if err != nil {
+			return nil, err
+		}
+		if st.inFootprint && st.distKpc >= 0.5 && st.distKpc <= 10 {
+			st.pop, st.trap, st.artefact = PopHalo, TrapCrowded, true
+			return st, nil
+		}
+	}
+	return nil, fmt.Errorf("scenario: crowded-field host: %w", ErrSampling)
+}
+
+// badValueHost is a background star whose row will carry a bad value.
+func (smp *sampler) badValueHost() (*star, error) {
+	st, err := smp.background()
+	if err != nil {
+		return nil, err
+	}
+	st.trap, st.artefact = TrapBadValue, true
+	return st, nil
+}
+
+// shuffleAndNumber shuffles the stars so that file order and ids reveal
+// nothing, then numbers them.
+func (s *Scenario) shuffleAndNumber(stars []*star) {
 	shuf := rand.New(rand.NewPCG(s.Config.Seed, streamShuffle))
 	shuf.Shuffle(len(stars), func(i, j int) { stars[i], stars[j] = stars[j], stars[i] })
 	s.byID = make(map[string]*star, len(stars))
@@ -238,7 +246,6 @@ func (s *Scenario) sample() error {
 		s.byID[st.id] = st
 	}
 	s.stars = stars
-	return nil
 }
 
 // Bad-value kinds, cycled over the bad rows.
@@ -256,81 +263,112 @@ var specBad = []badCell{
 	{header: "vel_err", text: "-850.0", reason: "negative uncertainty"},
 }
 
-// observe draws every catalog row.
+// observe draws every catalog row. The stars are observed one after the
+// other from one random stream, each in a fixed order of draws.
 func (s *Scenario) observe() {
-	cn := countsFor(s.Config)
 	rng := rand.New(rand.NewPCG(s.Config.Seed, streamObserve))
-	var extra []*specRow // neighbours in crowded fields
-	nBadAstro, nBadSpec := 0, 0
+	o := &observation{badSpecWanted: countsFor(s.Config).badSpec}
 	for _, st := range s.stars {
-		clean := Injected(st.pop) || (st.trap != "" && st.trap != TrapBadValue)
-		st.astro = observeAstro(st, rng, 1, clean)
-		if st.twinOf != nil {
-			st.astro.duplicateFlag = 1
-			continue // no separate light in other catalogs
-		}
-		switch st.trap {
-		case TrapBinary:
-			st.astro.fitResidual = 2 + 4*rng.Float64()
-			st.astro.excessNoiseMas = 0.3 + 2.7*rng.Float64()
-			st.astro.excessNoiseSig = 5 + 55*rng.Float64()
-		case TrapBadValue:
-			b := astroBad[nBadAstro%len(astroBad)]
-			st.bad = &b
-			nBadAstro++
-		}
-		if st.mag < magLimitPhotometry {
-			st.phot = observePhot(st, rng)
-		}
-		if !st.inFootprint {
-			continue
-		}
-		switch {
-		case Injected(st.pop):
-			st.spec = observeSpec(st, rng)
-			st.specRelease = 1
-			if rng.Float64() < 0.1 {
-				st.specRelease = 2 // withheld until the next release
-			}
-		case st.trap != "" && st.trap != TrapBadValue:
-			st.spec = observeSpec(st, rng)
-			st.specRelease = 1
-		case st.mag < magLimitSpecBack:
-			u := rng.Float64()
-			if u < 0.25 {
-				st.spec = observeSpec(st, rng)
-				st.specRelease = 1
-			} else if u < 0.26 {
-				st.spec = observeSpec(st, rng)
-				st.specRelease = 2
-			}
-		}
-		if st.spec == nil {
-			continue
-		}
-		st.spec.release = st.specRelease
-		switch st.trap {
-		case TrapRVOutlier:
-			sp := st.spec
-			sp.snr = 3 + 6.5*rng.Float64()
-			sp.rvErrKms = 30 + 60*rng.Float64()
-			off := 300 + 400*rng.Float64()
-			if rng.IntN(2) == 0 {
-				off = -off
-			}
-			sp.rvKms = st.rvKms + off
-		case TrapCrowded:
-			extra = append(extra, s.neighbour(st, rng))
-		case "":
-			if nBadSpec < cn.badSpec && st.specRelease == 1 && !Injected(st.pop) {
-				b := specBad[nBadSpec%len(specBad)]
-				st.spec.bad = &b
-				nBadSpec++
-			}
+		s.observeStar(st, rng, o)
+	}
+	s.orderRows(o.neighbours)
+}
+
+// observation is what observing one star leaves for the next.
+type observation struct {
+	neighbours    []*specRow // spectra of neighbours in crowded fields
+	nBadAstro     int        // bad astrometric rows so far
+	nBadSpec      int        // bad spectroscopic rows so far
+	badSpecWanted int        // bad spectroscopic rows wanted in all
+}
+
+// observeStar draws st's astrometric row, then its photometry and, in the
+// footprint, its spectrum, each with the defects of its trap.
+func (s *Scenario) observeStar(st *star, rng *rand.Rand, o *observation) {
+	clean := Injected(st.pop) || (st.trap != "" && st.trap != TrapBadValue)
+	st.astro = observeAstro(st, rng, 1, clean)
+	if st.twinOf != nil {
+		st.astro.duplicateFlag = 1
+		return // no separate light in other catalogs
+	}
+	switch st.trap {
+	case TrapBinary:
+		st.astro.fitResidual = 2 + 4*rng.Float64()
+		st.astro.excessNoiseMas = 0.3 + 2.7*rng.Float64()
+		st.astro.excessNoiseSig = 5 + 55*rng.Float64()
+	case TrapBadValue:
+		b := astroBad[o.nBadAstro%len(astroBad)]
+		st.bad = &b
+		o.nBadAstro++
+	}
+	if st.mag < magLimitPhotometry {
+		st.phot = observePhot(st, rng)
+	}
+	if !st.inFootprint {
+		return
+	}
+	observeSpectrum(st, rng)
+	if st.spec == nil {
+		return
+	}
+	st.spec.release = st.specRelease
+	switch st.trap {
+	case TrapRVOutlier:
+		spoilRV(st, rng)
+	case TrapCrowded:
+		o.neighbours = append(o.neighbours, s.neighbour(st, rng))
+	case "":
+		if o.nBadSpec < o.badSpecWanted && st.specRelease == 1 && !Injected(st.pop) {
+			b := specBad[o.nBadSpec%len(specBad)]
+			st.spec.bad = &b
+			o.nBadSpec++
 		}
 	}
+}
 
-	// Spectroscopic rows: release-1 rows shuffled, then release-2 rows.
+// observeSpectrum decides whether st, in the footprint, has a spectrum and
+// in which release: every injected star (a tenth withheld until release
+// 2) and trap, and a quarter of the bright background.
+func observeSpectrum(st *star, rng *rand.Rand) {
+	switch {
+	case Injected(st.pop):
+		st.spec = observeSpec(st, rng)
+		st.specRelease = 1
+		if rng.Float64() < 0.1 {
+			st.specRelease = 2 // withheld until the next release
+		}
+	case st.trap != "" && st.trap != TrapBadValue:
+		st.spec = observeSpec(st, rng)
+		st.specRelease = 1
+	case st.mag < magLimitSpecBack:
+		u := rng.Float64()
+		if u < 0.25 {
+			st.spec = observeSpec(st, rng)
+			st.specRelease = 1
+		} else if u < 0.26 {
+			st.spec = observeSpec(st, rng)
+			st.specRelease = 2
+		}
+	}
+}
+
+// spoilRV gives an rv-outlier trap's spectrum a low snr and an rv
+// 300-700 km/s off.
+func spoilRV(st *star, rng *rand.Rand) {
+	sp := st.spec
+	sp.snr = 3 + 6.5*rng.Float64()
+	sp.rvErrKms = 30 + 60*rng.Float64()
+	off := 300 + 400*rng.Float64()
+	if rng.IntN(2) == 0 {
+		off = -off
+	}
+	sp.rvKms = st.rvKms + off
+}
+
+// orderRows puts the spectroscopic rows (release-1 rows and the
+// neighbours shuffled, then release-2 rows shuffled) and the photometric
+// rows (shuffled) in file order and numbers them.
+func (s *Scenario) orderRows(neighbours []*specRow) {
 	var r1, r2 []*specRow
 	for _, st := range s.stars {
 		if st.spec != nil {
@@ -341,7 +379,7 @@ func (s *Scenario) observe() {
 			}
 		}
 	}
-	r1 = append(r1, extra...)
+	r1 = append(r1, neighbours...)
 	shuf := rand.New(rand.NewPCG(s.Config.Seed, streamShuffle^0xff))
 	shuf.Shuffle(len(r1), func(i, j int) { r1[i], r1[j] = r1[j], r1[i] })
 	shuf.Shuffle(len(r2), func(i, j int) { r2[i], r2[j] = r2[j], r2[i] })

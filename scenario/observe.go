@@ -124,6 +124,14 @@ func observeAstro(st *star, rng *rand.Rand, errScale float64, clean bool) astroR
 	ey += st.offsetMas[1]
 	r.raDeg, r.decDeg = offsetDeg(src.raDeg, src.decDeg, ex, ey)
 
+	observeFit(&r, rng, clean)
+	r.mag = src.mag + 0.003*rng.NormFloat64()
+	return r
+}
+
+// observeFit draws the fit-quality columns of r; clean suppresses the
+// spoilt fits.
+func observeFit(r *astroRow, rng *rand.Rand, clean bool) {
 	r.fitResidual = clamp(1+0.04*rng.NormFloat64(), 0.85, 1.3)
 	r.excessNoiseSig = math.Abs(0.6 * rng.NormFloat64())
 	r.excessNoiseMas = 0.03 * r.excessNoiseSig
@@ -142,8 +150,6 @@ func observeAstro(st *star, rng *rand.Rand, errScale float64, clean bool) astroR
 			r.fitVisits = 5 + rng.IntN(3)
 		}
 	}
-	r.mag = src.mag + 0.003*rng.NormFloat64()
-	return r
 }
 
 // cholesky3 returns the lower-triangular factor of a 3x3 symmetric positive

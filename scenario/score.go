@@ -112,71 +112,100 @@ func ratio(n, d int) float64 {
 
 // Score compares verdicts (keyed by primary star id) with the truth.
 func Score(truth []TruthRow, verdicts map[string]Verdict) Figures {
-	f := Figures{TrapsUnbound: map[string]int{}, BoundUnbound: map[string]int{}}
+	sc := scorer{f: Figures{TrapsUnbound: map[string]int{}, BoundUnbound: map[string]int{}}}
 	known := make(map[string]bool, len(truth))
-	var hpmHits, originHits int
 	for _, t := range truth {
 		known[t.StarID] = true
 		v, ok := verdicts[t.StarID]
-		unbound := ok && v.Status == verdict.Unbound
-		if t.Trap == TrapBadValue {
-			f.NBadRows++
-			if ok && v.Status != verdict.Rejected {
-				f.BadRowsKept++
-			}
-		} else if !ok {
-			f.Missing++
-		}
-		if Injected(t.Population) && t.TrulyUnbound && t.AdequateData && !t.Artefact {
-			f.NAdequateDenominator++
-			if unbound {
-				f.NAdequateHits++
-			}
-			if t.Decidable {
-				f.NCompletenessDenominator++
-				if unbound {
-					f.NCompletenessHits++
-				}
-			}
-		}
-		if unbound {
-			f.NUnbound++
-			if !t.TrulyUnbound || t.Artefact {
-				f.NContaminating++
-			}
-			if t.Artefact {
-				f.TrapsUnbound[t.Trap]++
-			} else if !t.TrulyUnbound {
-				f.BoundUnbound[t.Population]++
-			}
-			if t.Population == PopGCEjectee {
-				f.NOriginDenominator++
-				if v.Origin == orbit.OriginGC {
-					originHits++
-				}
-			}
-		}
-		if t.Trap == TrapHighPM && t.HasSpectrum {
-			f.NHighPM++
-			if ok && v.Status != verdict.NeedsRV {
-				hpmHits++
-			}
-		}
+		sc.add(t, v, ok)
 	}
 	for id, v := range verdicts {
 		if !known[id] {
-			f.Unknown++
-			if v.Status == verdict.Unbound {
-				f.NUnbound++
-				f.NContaminating++
+			sc.addUnknown(v)
+		}
+	}
+	return sc.figures()
+}
+
+// scorer accumulates the counts of Figures over the truth rows.
+type scorer struct {
+	f                   Figures
+	hpmHits, originHits int
+}
+
+// add counts truth row t with its verdict v (ok: there is one).
+func (sc *scorer) add(t TruthRow, v Verdict, ok bool) {
+	f := &sc.f
+	unbound := ok && v.Status == verdict.Unbound
+	if t.Trap == TrapBadValue {
+		f.NBadRows++
+		if ok && v.Status != verdict.Rejected {
+			f.BadRowsKept++
+		}
+	} else if !ok {
+		f.Missing++
+	}
+	if Injected(t.Population) && t.TrulyUnbound && t.AdequateData && !t.Artefact {
+		f.NAdequateDenominator++
+		if unbound {
+			f.NAdequateHits++
+		}
+		if t.Decidable {
+			f.NCompletenessDenominator++
+			if unbound {
+				f.NCompletenessHits++
 			}
 		}
 	}
+	if unbound {
+		sc.addUnbound(t, v)
+	}
+	if t.Trap == TrapHighPM && t.HasSpectrum {
+		f.NHighPM++
+		if ok && v.Status != verdict.NeedsRV {
+			sc.hpmHits++
+		}
+	}
+}
+
+// addUnbound counts a truth row whose verdict v is unbound: contamination
+// and origin accuracy.
+func (sc *scorer) addUnbound(t TruthRow, v Verdict) {
+	f := &sc.f
+	f.NUnbound++
+	if !t.TrulyUnbound || t.Artefact {
+		f.NContaminating++
+	}
+	if t.Artefact {
+		f.TrapsUnbound[t.Trap]++
+	} else if !t.TrulyUnbound {
+		f.BoundUnbound[t.Population]++
+	}
+	if t.Population == PopGCEjectee {
+		f.NOriginDenominator++
+		if v.Origin == orbit.OriginGC {
+			sc.originHits++
+		}
+	}
+}
+
+// addUnknown counts a verdict for an id absent from the truth.
+func (sc *scorer) addUnknown(v Verdict) {
+	sc.f.Unknown++
+	if v.Status == verdict.Unbound {
+		sc.f.NUnbound++
+		sc.f.NContaminating++
+	}
+}
+
+// figures returns the counts with their ratios.
+func (sc *scorer) figures() Figures {
+	f := sc.f
 	f.Completeness = ratio(f.NCompletenessHits, f.NCompletenessDenominator)
 	f.CompletenessAdequate = ratio(f.NAdequateHits, f.NAdequateDenominator)
 	f.Contamination = ratio(f.NContaminating, f.NUnbound)
-	f.OriginAccuracy = ratio(originHits, f.NOriginDenominator)
-	f.HighPMWithRV = ratio(hpmHits, f.NHighPM)
+	f.OriginAccuracy = ratio(sc.originHits, f.NOriginDenominator)
+	f.HighPMWithRV = ratio(sc.hpmHits, f.NHighPM)
 	return f
 }
 
@@ -207,18 +236,9 @@ func LoadTruth(path string) ([]TruthRow, error) {
 func readTruth(r io.Reader, name string) ([]TruthRow, error) {
 	cr := csv.NewReader(r)
 	cr.FieldsPerRecord = -1
-	header, err := cr.Read()
+	header, col, err := readTruthHeader(cr, name)
 	if err != nil {
-		return nil, &TruthError{File: name, Line: 1, Column: 1, Reason: "cannot read header: " + err.Error()}
-	}
-	col := make(map[string]int, len(header))
-	for i, h := range header {
-		col[h] = i
-	}
-	for i, h := range truthHeader {
-		if _, ok := col[h]; !ok {
-			return nil, &TruthError{File: name, Line: 1, Column: i + 1, Reason: fmt.Sprintf("missing column %q", h)}
-		}
+		return nil, err
 	}
 	var rows []TruthRow
 	for {
@@ -238,44 +258,9 @@ func readTruth(r io.Reader, name string) ([]TruthRow, error) {
 			return nil, &TruthError{File: name, Line: line, Column: min(len(rec), len(header)) + 1,
 				Reason: fmt.Sprintf("row has %d fields, header has %d", len(rec), len(header))}
 		}
-		var perr *TruthError
-		get := func(h string) (string, int) { i := col[h]; return rec[i], i }
-		num := func(h string) float64 {
-			s, i := get(h)
-			if s == "" || perr != nil {
-				return math.NaN()
-			}
-			v, err := strconv.ParseFloat(s, 64)
-			if err != nil {
-				l, _ := cr.FieldPos(i)
-				perr = &TruthError{File: name, Line: l, Column: i + 1, Reason: fmt.Sprintf("%s: not a number: %q", h, s)}
-			}
-			return v
-		}
-		flag := func(h string) bool {
-			s, i := get(h)
-			if perr != nil {
-				return false
-			}
-			v, err := strconv.ParseBool(s)
-			if err != nil {
-				l, _ := cr.FieldPos(i)
-				perr = &TruthError{File: name, Line: l, Column: i + 1, Reason: fmt.Sprintf("%s: not true/false: %q", h, s)}
-			}
-			return v
-		}
-		str := func(h string) string { s, _ := get(h); return s }
-		t := TruthRow{
-			StarID: str("star_id"), Population: str("population"), TrulyUnbound: flag("truly_unbound"),
-			AdequateData: flag("adequate_data"), MarginSigma: num("margin_sigma"), Decidable: flag("decidable"), Trap: str("trap"), Artefact: flag("artefact"),
-			OriginTrue: orbit.Origin(str("origin_true")), FlightTimeMyrTrue: num("flight_time_myr_true"),
-			VGCTrueKms: num("v_gc_true_kms"), VEscTrueKms: num("v_esc_true_kms"), DistTrueKpc: num("dist_true_kpc"),
-			PosKpc:      [3]float64{num("x_kpc"), num("y_kpc"), num("z_kpc")},
-			VelKms:      [3]float64{num("vx_kms"), num("vy_kms"), num("vz_kms")},
-			InFootprint: flag("in_footprint"), HasSpectrum: flag("has_spectrum"), SpecID: str("spec_id"),
-		}
-		if perr != nil {
-			return nil, perr
+		t, err := parseTruthRow(cr, name, rec, col)
+		if err != nil {
+			return nil, err
 		}
 		if t.StarID == "" {
 			return nil, &TruthError{File: name, Line: line, Column: col["star_id"] + 1, Reason: "empty star_id"}
@@ -283,4 +268,68 @@ func readTruth(r io.Reader, name string) ([]TruthRow, error) {
 		rows = append(rows, t)
 	}
 	return rows, nil
+}
+
+// readTruthHeader reads the header and returns it with the index of each
+// column by name; every column of truthHeader must be there.
+func readTruthHeader(cr *csv.Reader, name string) ([]string, map[string]int, error) {
+	header, err := cr.Read()
+	if err != nil {
+		return nil, nil, &TruthError{File: name, Line: 1, Column: 1, Reason: "cannot read header: " + err.Error()}
+	}
+	col := make(map[string]int, len(header))
+	for i, h := range header {
+		col[h] = i
+	}
+	for i, h := range truthHeader {
+		if _, ok := col[h]; !ok {
+			return nil, nil, &TruthError{File: name, Line: 1, Column: i + 1, Reason: fmt.Sprintf("missing column %q", h)}
+		}
+	}
+	return header, col, nil
+}
+
+// parseTruthRow converts record rec, just read by cr, into a TruthRow; the
+// error is the first bad number or flag.
+func parseTruthRow(cr *csv.Reader, name string, rec []string, col map[string]int) (TruthRow, error) {
+	var perr *TruthError
+	get := func(h string) (string, int) { i := col[h]; return rec[i], i }
+	num := func(h string) float64 {
+		s, i := get(h)
+		if s == "" || perr != nil {
+			return math.NaN()
+		}
+		v, err := strconv.ParseFloat(s, 64)
+		if err != nil {
+			l, _ := cr.FieldPos(i)
+			perr = &TruthError{File: name, Line: l, Column: i + 1, Reason: fmt.Sprintf("%s: not a number: %q", h, s)}
+		}
+		return v
+	}
+	flag := func(h string) bool {
+		s, i := get(h)
+		if perr != nil {
+			return false
+		}
+		v, err := strconv.ParseBool(s)
+		if err != nil {
+			l, _ := cr.FieldPos(i)
+			perr = &TruthError{File: name, Line: l, Column: i + 1, Reason: fmt.Sprintf("%s: not true/false: %q", h, s)}
+		}
+		return v
+	}
+	str := func(h string) string { s, _ := get(h); return s }
+	t := TruthRow{
+		StarID: str("star_id"), Population: str("population"), TrulyUnbound: flag("truly_unbound"),
+		AdequateData: flag("adequate_data"), MarginSigma: num("margin_sigma"), Decidable: flag("decidable"), Trap: str("trap"), Artefact: flag("artefact"),
+		OriginTrue: orbit.Origin(str("origin_true")), FlightTimeMyrTrue: num("flight_time_myr_true"),
+		VGCTrueKms: num("v_gc_true_kms"), VEscTrueKms: num("v_esc_true_kms"), DistTrueKpc: num("dist_true_kpc"),
+		PosKpc:      [3]float64{num("x_kpc"), num("y_kpc"), num("z_kpc")},
+		VelKms:      [3]float64{num("vx_kms"), num("vy_kms"), num("vz_kms")},
+		InFootprint: flag("in_footprint"), HasSpectrum: flag("has_spectrum"), SpecID: str("spec_id"),
+	}
+	if perr != nil {
+		return TruthRow{}, perr
+	}
+	return t, nil
 }

@@ -133,8 +133,9 @@ func finish(ctx context.Context, w *db.RunWriter, computed, carried int, sum *Su
 // the engine to compute with: while the writer is the bottleneck (the last
 // batch had to wait for it) that engine has one worker fewer, which leaves
 // the writer a core of its own instead of a share of one; otherwise all
-// workers. The first error of either side stops both. It is one function
-// because the two sides share the cancellation and the spent batches.
+// workers. The first error of either side stops both. The writer side is
+// writeBatches; the computing side stays here, beside the channels and the
+// cancellation both sides share.
 func (e *Engine) computeAndWrite(ctx context.Context, w *db.RunWriter, total int, sum *Summary,
 	next func(ctx context.Context, ce *Engine, reuse []db.StarRecord) ([]db.StarRecord, bool, error)) error {
 	workers := parallel.Workers(e.Workers)
@@ -150,23 +151,8 @@ func (e *Engine) computeAndWrite(ctx context.Context, w *db.RunWriter, total int
 	werr := make(chan error, 1)
 	var writeTime time.Duration
 	go func() {
-		done := 0
 		var err error
-		for recs := range todo {
-			if err == nil {
-				t := time.Now()
-				if err = w.AddStars(ctx, recs); err != nil {
-					cancel(err)
-				}
-				writeTime += time.Since(t)
-				done += len(recs)
-				st.Set(done)
-			}
-			select {
-			case spent <- recs:
-			default:
-			}
-		}
+		writeTime, err = writeBatches(ctx, cancel, w, st, todo, spent)
 		werr <- err
 	}()
 	var err error
@@ -207,4 +193,31 @@ func (e *Engine) computeAndWrite(ctx context.Context, w *db.RunWriter, total int
 		err = ctx.Err()
 	}
 	return err
+}
+
+// writeBatches is computeAndWrite's writer: it writes each batch from todo
+// in one transaction and offers it back on spent for reuse, until todo is
+// closed. After its first error, which cancels ctx, it only drains todo.
+// It returns that error and the time spent writing.
+func writeBatches(ctx context.Context, cancel context.CancelCauseFunc, w *db.RunWriter, st Stage,
+	todo <-chan []db.StarRecord, spent chan<- []db.StarRecord) (time.Duration, error) {
+	var writeTime time.Duration
+	done := 0
+	var err error
+	for recs := range todo {
+		if err == nil {
+			t := time.Now()
+			if err = w.AddStars(ctx, recs); err != nil {
+				cancel(err)
+			}
+			writeTime += time.Since(t)
+			done += len(recs)
+			st.Set(done)
+		}
+		select {
+		case spent <- recs:
+		default:
+		}
+	}
+	return writeTime, err
 }

@@ -123,7 +123,9 @@ func propagateSphere(a Astrometry, dtYr float64) Astrometry {
 
 // propagateSpace follows ERFA eraPmsafe -> eraStarpm (eraStarpv, straight
 // line motion with light time, eraPvstar) step by step, in au and au/day.
-// It reports false where ERFA would fail (speed of light reached).
+// It reports false where ERFA would fail (speed of light reached). It
+// stays one function so that it reads against ERFA step by step and keeps
+// ERFA's order of operations, which the agreement with ERFA rests on.
 func propagateSpace(a Astrometry, dtDay float64) (Astrometry, bool) {
 	raRad, decRad := a.RADeg*units.RadPerDeg, a.DecDeg*units.RadPerDeg
 	pmRARad := a.PMRAMasYr * units.RadPerMas // mu_alpha*, rad/yr

@@ -97,7 +97,7 @@ func edsdModes(w, s, l float64) []float64 {
 type edsdTable struct {
 	r, f, cdf []float64 // abscissae, density (relative), cumulative mass
 	cells     []edsdCell
-	guide     []int // see build
+	guide     []int // see buildGuide
 }
 
 // edsdCell is grid cell [r[i], r[i+1]] as quantile reads it: start, width,
@@ -117,48 +117,7 @@ func (t *edsdTable) build(w, s, l float64) bool {
 	for _, m := range modes {
 		logMax = math.Max(logMax, edsdLogPDF(m, w, s, l))
 	}
-	cut := logMax - edsdLogDrop
-	width := func(m float64) float64 {
-		// -d2 lnP/dr2 at a mode is g'(m)/m^3.
-		if k := edsdCubicSlope(m, w, s, l) / (m * m * m); k > 0 {
-			return 1 / math.Sqrt(k)
-		}
-		return 0.1 * m
-	}
-	// Walk outward from the outermost modes until the density is below cut.
-	lo := modes[0]
-	step := 0.5 * width(lo)
-	for {
-		next := lo - step
-		if next <= 0 {
-			// Bisect between 0 and lo: ln P -> -inf as r -> 0.
-			a, b := 0.0, lo
-			for range 100 {
-				mid := 0.5 * (a + b)
-				if edsdLogPDF(mid, w, s, l) < cut {
-					a = mid
-				} else {
-					b = mid
-				}
-			}
-			lo = math.Max(a, b*1e-12)
-			break
-		}
-		lo = next
-		if edsdLogPDF(lo, w, s, l) < cut {
-			break
-		}
-		step *= 1.5
-	}
-	hi := modes[len(modes)-1]
-	step = 0.5 * width(hi)
-	for {
-		hi += step
-		if edsdLogPDF(hi, w, s, l) < cut {
-			break
-		}
-		step *= 1.5
-	}
+	lo, hi := edsdBracket(modes, w, s, l, logMax-edsdLogDrop)
 	n := edsdGridPoints
 	t.r, t.f, t.cdf = resize(t.r, n), resize(t.f, n), resize(t.cdf, n)
 	lnLo := math.Log(lo)
@@ -182,17 +141,69 @@ func (t *edsdTable) build(w, s, l float64) bool {
 	for i := 1; i < n; i++ {
 		t.cdf[i] = t.cdf[i-1] + 0.5*(t.f[i]+t.f[i-1])*(t.r[i]-t.r[i-1])
 	}
-	// Guide table (Chen & Asau 1974, J. Chinese Inst. Eng. 2, 197, the
-	// "guide table" method, from memory): guide[k] is the first cell whose
-	// upper CDF reaches k/len(guide) of the total, so a lookup scans a
-	// cell or two instead of bisecting.
+	t.buildGuide()
+	return t.cdf[n-1] > 0
+}
+
+// edsdBracket walks outward from the outermost modes until the log density
+// (edsdLogPDF) falls below cut, and returns the radii reached.
+func edsdBracket(modes []float64, w, s, l, cut float64) (lo, hi float64) {
+	width := func(m float64) float64 {
+		// -d2 lnP/dr2 at a mode is g'(m)/m^3.
+		if k := edsdCubicSlope(m, w, s, l) / (m * m * m); k > 0 {
+			return 1 / math.Sqrt(k)
+		}
+		return 0.1 * m
+	}
+	lo = modes[0]
+	step := 0.5 * width(lo)
+	for {
+		next := lo - step
+		if next <= 0 {
+			// Bisect between 0 and lo: ln P -> -inf as r -> 0.
+			a, b := 0.0, lo
+			for range 100 {
+				mid := 0.5 * (a + b)
+				if edsdLogPDF(mid, w, s, l) < cut {
+					a = mid
+				} else {
+					b = mid
+				}
+			}
+			lo = math.Max(a, b*1e-12)
+			break
+		}
+		lo = next
+		if edsdLogPDF(lo, w, s, l) < cut {
+			break
+		}
+		step *= 1.5
+	}
+	hi = modes[len(modes)-1]
+	step = 0.5 * width(hi)
+	for {
+		hi += step
+		if edsdLogPDF(hi, w, s, l) < cut {
+			break
+		}
+		step *= 1.5
+	}
+	return lo, hi
+}
+
+// buildGuide fills t's cells and guide table from its grid. Guide table
+// (Chen & Asau 1974, J. Chinese Inst. Eng. 2, 197, the "guide table"
+// method, from memory): guide[k] is the first cell whose upper CDF reaches
+// k/len(guide) of the total, so a lookup scans a cell or two instead of
+// bisecting.
+func (t *edsdTable) buildGuide() {
+	n := len(t.r)
 	t.cells = t.cells[:0]
 	for i := range n - 1 {
 		h := t.r[i+1] - t.r[i]
 		t.cells = append(t.cells, edsdCell{r0: t.r[i], h: h, f0: t.f[i], slope: (t.f[i+1] - t.f[i]) / h, cdf0: t.cdf[i]})
 	}
-	// guide[k] is the first cell whose upper CDF reaches k/len(guide) of
-	// the total, twice as many entries as cells.
+	// Twice as many guide entries as cells.
 	total := t.cdf[n-1]
 	ng := 2 * n
 	t.guide = resizeInt(t.guide, ng)
@@ -204,7 +215,6 @@ func (t *edsdTable) build(w, s, l float64) bool {
 		}
 		t.guide[k] = j - 1
 	}
-	return t.cdf[n-1] > 0
 }
 
 // quantile maps u in [0, 1) to r, treating the density as linear within each

@@ -142,7 +142,8 @@ func median(a []float64) [3]float64      { return new(quantiler).median(a, nil) 
 // bucket counts locate the bucket of every wanted rank, and only the
 // values in those buckets are collected and ordered. Three linear passes
 // over a with few unpredictable branches; partition-based selection
-// spends most of its time on mispredicted comparisons.
+// spends most of its time on mispredicted comparisons. It stays whole: the
+// passes share the bucket counts and offsets in arrays on the stack.
 func (q *quantiler) orderStats(a []float64, ranks []int, v []float64) bool {
 	n := len(a)
 	lo, hi := span(a)
