@@ -3,6 +3,7 @@ package main
 import (
 	"context"
 	"fmt"
+	"io"
 	"os"
 	"path/filepath"
 	"time"
@@ -17,6 +18,47 @@ import (
 )
 
 func runDemo(ctx context.Context, env *Env, args []string) error {
+	o, err := parseDemoFlags(env, args)
+	if err != nil {
+		return err
+	}
+	if err := freshDemoDir(o.dir); err != nil {
+		return err
+	}
+	out := env.Stdout
+	t0 := time.Now()
+	sc, err := scenario.Generate(scenario.Config{Seed: o.seed, Stars: o.stars}, o.dir)
+	if err != nil {
+		return err
+	}
+	fmt.Fprintf(out, "== invented scenario (seed %d): %d primary stars written to %s in %s\n", o.seed, len(sc.Truth), o.dir, time.Since(t0).Round(time.Millisecond))
+	first, second, err := vetBothReleases(ctx, env, o, sc)
+	if err != nil {
+		return err
+	}
+	reportDir := filepath.Join(o.dir, "report")
+	if _, err := makeReport(ctx, second.LedgerPath, second.RunID, reportDir, report.Options{}); err != nil {
+		return err
+	}
+	fig, err := scoreAgainstTruth(ctx, second, sc.Truth)
+	if err != nil {
+		return err
+	}
+	printDemoPlaces(out, sc, first, second, reportDir)
+	printRecovery(out, second, fig)
+	fmt.Fprintf(out, "demo finished in %s\n", time.Since(t0).Round(time.Millisecond))
+	printTargets(out, fig)
+	return nil
+}
+
+type demoOptions struct {
+	dir     string
+	stars   int
+	seed    uint64
+	workers int
+}
+
+func parseDemoFlags(env *Env, args []string) (demoOptions, error) {
 	fs := newFlags(env, "demo", "[options] [DIR]",
 		"Write an invented survey campaign (fictional catalogs with injected hypervelocity stars,\n"+
 			"runaways and artefacts, plus its ground truth) into DIR (default ./starvet-demo), vet it\n"+
@@ -27,31 +69,35 @@ func runDemo(ctx context.Context, env *Env, args []string) error {
 	workers := fs.Int("workers", 0, "worker goroutines (0: one per core)")
 	pos, err := parseArgs(env, fs, args)
 	if err != nil {
-		return err
+		return demoOptions{}, err
 	}
 	if len(pos) > 1 {
-		return usageError("demo wants at most one directory, got %d arguments", len(pos))
+		return demoOptions{}, usageError("demo wants at most one directory, got %d arguments", len(pos))
 	}
-	dir := "starvet-demo"
+	o := demoOptions{dir: "starvet-demo", stars: *stars, seed: *seed, workers: *workers}
 	if len(pos) == 1 {
-		dir = pos[0]
+		o.dir = pos[0]
 	}
+	return o, nil
+}
+
+// freshDemoDir makes dir and removes any ledger in it: the demo's first
+// run is a full run.
+func freshDemoDir(dir string) error {
 	if err := os.MkdirAll(dir, 0o755); err != nil {
 		return err
 	}
-	// A fresh ledger each time: the demo's first run is a full run.
 	for _, suffix := range []string{"", "-wal", "-shm", ".lock"} {
 		_ = os.Remove(filepath.Join(dir, "starvet.db"+suffix))
 	}
-	out := env.Stdout
-	t0 := time.Now()
-	sc, err := scenario.Generate(scenario.Config{Seed: *seed, Stars: *stars}, dir)
-	if err != nil {
-		return err
-	}
-	fmt.Fprintf(out, "== invented scenario (seed %d): %d primary stars written to %s in %s\n", *seed, len(sc.Truth), dir, time.Since(t0).Round(time.Millisecond))
+	return nil
+}
 
-	e := &vetting.Engine{Log: env.Log, Progress: newProgress(env), Workers: *workers, ToolVersion: toolVersion}
+// vetBothReleases vets the first release, applies the catalog update and
+// vets the second release incrementally.
+func vetBothReleases(ctx context.Context, env *Env, o demoOptions, sc *scenario.Scenario) (first, second *vetting.Summary, err error) {
+	out := env.Stdout
+	e := &vetting.Engine{Log: env.Log, Progress: newProgress(env), Workers: o.workers, ToolVersion: toolVersion}
 	run := func(title string) (*vetting.Summary, error) {
 		c, err := campaign.Load(sc.CampaignPath)
 		if err != nil {
@@ -65,26 +111,25 @@ func runDemo(ctx context.Context, env *Env, args []string) error {
 		printSummary(out, sum)
 		return sum, nil
 	}
-	first, err := run("release 1")
-	if err != nil {
-		return err
+	if first, err = run("release 1"); err != nil {
+		return nil, nil, err
 	}
-	if err := scenario.Update(sc, dir, *seed+1); err != nil {
-		return err
+	if err := scenario.Update(sc, o.dir, o.seed+1); err != nil {
+		return nil, nil, err
 	}
 	fmt.Fprintf(out, "\n== catalog update: release %d revises the astrometry or adds spectra for %d stars\n", sc.Release, len(sc.Changed))
-	second, err := run(fmt.Sprintf("release %d, incremental", sc.Release))
-	if err != nil {
-		return err
+	if second, err = run(fmt.Sprintf("release %d, incremental", sc.Release)); err != nil {
+		return nil, nil, err
 	}
-	reportDir := filepath.Join(dir, "report")
-	if _, err := makeReport(ctx, second.LedgerPath, second.RunID, reportDir, report.Options{}); err != nil {
-		return err
-	}
+	return first, second, nil
+}
 
+// scoreAgainstTruth reads the verdicts of the second run back from the
+// ledger and scores them against the injected truth.
+func scoreAgainstTruth(ctx context.Context, second *vetting.Summary, truth []scenario.TruthRow) (scenario.Figures, error) {
 	l, err := db.Open(ctx, second.LedgerPath, db.Options{ReadOnly: true})
 	if err != nil {
-		return err
+		return scenario.Figures{}, err
 	}
 	defer l.Close()
 	verdicts := map[string]scenario.Verdict{}
@@ -92,13 +137,19 @@ func runDemo(ctx context.Context, env *Env, args []string) error {
 		verdicts[v.StarID] = scenario.Verdict{Status: verdict.Status(v.Status), Origin: orbit.Origin(v.Origin)}
 		return nil
 	}); err != nil {
-		return err
+		return scenario.Figures{}, err
 	}
-	fig := scenario.Score(sc.Truth, verdicts)
+	return scenario.Score(truth, verdicts), nil
+}
+
+func printDemoPlaces(out io.Writer, sc *scenario.Scenario, first, second *vetting.Summary, reportDir string) {
 	fmt.Fprintf(out, "\n== where everything is\n")
 	fmt.Fprintf(out, "  campaign   %s\n  truth      %s\n  ledger     %s (runs %d and %d)\n  report     %s\n",
 		sc.CampaignPath, sc.TruthPath, second.LedgerPath, first.RunID, second.RunID, filepath.Join(reportDir, "index.html"))
 	fmt.Fprintf(out, "  try        starvet why --ledger %s <star id>; starvet diff --ledger %s\n", second.LedgerPath, second.LedgerPath)
+}
+
+func printRecovery(out io.Writer, second *vetting.Summary, fig scenario.Figures) {
 	fmt.Fprintf(out, "\n== recovery against the truth (run %d)\n", second.RunID)
 	fmt.Fprintf(out, "  completeness    %5.1f%%  (%d of %d injected unbound stars with adequate data and a margin of at least %.0f sigma end unbound; target >= %.0f%%)\n",
 		100*fig.Completeness, fig.NCompletenessHits, fig.NCompletenessDenominator, scenario.DecidableSigma, 100*scenario.TargetCompleteness)
@@ -110,11 +161,12 @@ func runDemo(ctx context.Context, env *Env, args []string) error {
 		100*fig.OriginAccuracy, fig.NOriginDenominator)
 	fmt.Fprintf(out, "  details: %s\n", fig)
 	fmt.Fprintf(out, "\nAn \"unbound\" verdict depends on the adopted potential (%s) and Solar parameters;\nit marks a candidate for follow-up observations, not a discovery.\n", second.ModelName)
-	fmt.Fprintf(out, "demo finished in %s\n", time.Since(t0).Round(time.Millisecond))
+}
+
+func printTargets(out io.Writer, fig scenario.Figures) {
 	if fig.MeetsTargets() {
 		fmt.Fprintf(out, "recovery targets met (completeness >= %.0f%%, contamination <= %.0f%%)\n", 100*scenario.TargetCompleteness, 100*scenario.TargetContamination)
 	} else {
 		fmt.Fprintf(out, "recovery targets MISSED for this seed (completeness >= %.0f%%, contamination <= %.0f%%); see the details above\n", 100*scenario.TargetCompleteness, 100*scenario.TargetContamination)
 	}
-	return nil
 }

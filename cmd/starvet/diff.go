@@ -3,6 +3,9 @@ package main
 import (
 	"context"
 	"fmt"
+	"io"
+
+	"starvet/db"
 )
 
 func runDiff(ctx context.Context, env *Env, args []string) error {
@@ -44,21 +47,29 @@ func runDiff(ctx context.Context, env *Env, args []string) error {
 		return err
 	}
 	if af.json {
-		trans := []map[string]any{}
-		for _, t := range d.Transitions {
-			trans = append(trans, map[string]any{"from": t.From, "to": t.To, "count": t.Count})
-		}
-		stars := []map[string]any{}
-		for _, s := range d.Stars {
-			stars = append(stars, map[string]any{"star_id": s.StarID, "from": s.From, "to": s.To})
-		}
-		return writeJSON(env.Stdout, map[string]any{"run_a": d.RunA, "run_b": d.RunB, "changed": d.Changed,
-			"unchanged": d.Unchanged, "transitions": trans, "stars": stars, "stars_truncated": int64(len(d.Stars)) < d.Changed})
+		return writeJSON(env.Stdout, diffJSON(d))
 	}
-	w := env.Stdout
+	writeDiff(env.Stdout, d)
+	return nil
+}
+
+func diffJSON(d *db.DiffResult) map[string]any {
+	trans := []map[string]any{}
+	for _, t := range d.Transitions {
+		trans = append(trans, map[string]any{"from": t.From, "to": t.To, "count": t.Count})
+	}
+	stars := []map[string]any{}
+	for _, s := range d.Stars {
+		stars = append(stars, map[string]any{"star_id": s.StarID, "from": s.From, "to": s.To})
+	}
+	return map[string]any{"run_a": d.RunA, "run_b": d.RunB, "changed": d.Changed,
+		"unchanged": d.Unchanged, "transitions": trans, "stars": stars, "stars_truncated": int64(len(d.Stars)) < d.Changed}
+}
+
+func writeDiff(w io.Writer, d *db.DiffResult) {
 	fmt.Fprintf(w, "run %d -> run %d: %d stars changed status, %d unchanged\n", d.RunA, d.RunB, d.Changed, d.Unchanged)
 	if d.Changed == 0 {
-		return nil
+		return
 	}
 	width := 0
 	for _, t := range d.Transitions {
@@ -77,5 +88,4 @@ func runDiff(ctx context.Context, env *Env, args []string) error {
 	if rest := d.Changed - int64(len(d.Stars)); rest > 0 {
 		fmt.Fprintf(w, "  ... %d more (--limit N or --all to see them)\n", rest)
 	}
-	return nil
 }

@@ -4,6 +4,7 @@ import (
 	"context"
 	"encoding/csv"
 	"fmt"
+	"io"
 	"strconv"
 
 	"starvet/db"
@@ -52,59 +53,70 @@ func runList(ctx context.Context, env *Env, args []string) error {
 	}
 	defer l.Close()
 	f := db.ListFilter{Status: *status, Run: *run, Limit: *limit}
-	w := env.Stdout
 	switch {
 	case *asCSV:
-		cw := csv.NewWriter(w)
-		cw.Write(append([]string{"run_id"}, listColumns...))
-		_, err := l.ListRun(ctx, f, func(v db.VerdictRow) error {
-			return cw.Write(append([]string{strconv.FormatInt(v.RunID, 10)}, listRecord(v)...))
-		})
-		cw.Flush()
-		if err != nil {
-			return err
-		}
-		return cw.Error()
+		return writeListCSV(ctx, env.Stdout, l, f)
 	case af.json:
-		n := 0
-		fmt.Fprint(w, "[")
-		_, err := l.ListRun(ctx, f, func(v db.VerdictRow) error {
-			if n > 0 {
-				fmt.Fprint(w, ",")
-			}
-			n++
-			fmt.Fprint(w, "\n")
-			return writeJSONLine(w, verdictJSON(v))
-		})
-		fmt.Fprint(w, "\n]\n")
-		return err
+		return writeListJSON(ctx, env.Stdout, l, f)
 	default:
-		n := 0
-		runID, err := l.ListRun(ctx, f, func(v db.VerdictRow) error {
-			if n == 0 {
-				fmt.Fprintf(w, "%-24s %-10s %-7s %-9s %12s %9s\n", "star_id", "status", "quality", "computed", "speed_p50", "p_unbound")
-			}
-			n++
-			q := orDash(v.Quality)
-			comp := strconv.FormatInt(v.ComputedInRun, 10)
-			if v.Carried() {
-				comp += "*"
-			}
-			_, err := fmt.Fprintf(w, "%-24s %-10s %-7s %-9s %12s %9s\n", v.StarID, v.Status, q, comp, numfmt.Kms(v.SpeedP50Kms), numfmt.Prob(v.PUnbound))
-			return err
-		})
-		if err != nil {
-			return err
-		}
-		what := "stars"
-		if *status != "" {
-			what = fmt.Sprintf("stars with status %q", *status)
-		}
-		fmt.Fprintf(w, "%d %s in run %d", n, what, runID)
-		if n > 0 {
-			fmt.Fprint(w, " (* = carried forward from that run)")
-		}
-		fmt.Fprintln(w)
-		return nil
+		return writeListText(ctx, env.Stdout, l, f)
 	}
+}
+
+func writeListCSV(ctx context.Context, w io.Writer, l *db.Ledger, f db.ListFilter) error {
+	cw := csv.NewWriter(w)
+	cw.Write(append([]string{"run_id"}, listColumns...))
+	_, err := l.ListRun(ctx, f, func(v db.VerdictRow) error {
+		return cw.Write(append([]string{strconv.FormatInt(v.RunID, 10)}, listRecord(v)...))
+	})
+	cw.Flush()
+	if err != nil {
+		return err
+	}
+	return cw.Error()
+}
+
+func writeListJSON(ctx context.Context, w io.Writer, l *db.Ledger, f db.ListFilter) error {
+	n := 0
+	fmt.Fprint(w, "[")
+	_, err := l.ListRun(ctx, f, func(v db.VerdictRow) error {
+		if n > 0 {
+			fmt.Fprint(w, ",")
+		}
+		n++
+		fmt.Fprint(w, "\n")
+		return writeJSONLine(w, verdictJSON(v))
+	})
+	fmt.Fprint(w, "\n]\n")
+	return err
+}
+
+func writeListText(ctx context.Context, w io.Writer, l *db.Ledger, f db.ListFilter) error {
+	n := 0
+	runID, err := l.ListRun(ctx, f, func(v db.VerdictRow) error {
+		if n == 0 {
+			fmt.Fprintf(w, "%-24s %-10s %-7s %-9s %12s %9s\n", "star_id", "status", "quality", "computed", "speed_p50", "p_unbound")
+		}
+		n++
+		q := orDash(v.Quality)
+		comp := strconv.FormatInt(v.ComputedInRun, 10)
+		if v.Carried() {
+			comp += "*"
+		}
+		_, err := fmt.Fprintf(w, "%-24s %-10s %-7s %-9s %12s %9s\n", v.StarID, v.Status, q, comp, numfmt.Kms(v.SpeedP50Kms), numfmt.Prob(v.PUnbound))
+		return err
+	})
+	if err != nil {
+		return err
+	}
+	what := "stars"
+	if f.Status != "" {
+		what = fmt.Sprintf("stars with status %q", f.Status)
+	}
+	fmt.Fprintf(w, "%d %s in run %d", n, what, runID)
+	if n > 0 {
+		fmt.Fprint(w, " (* = carried forward from that run)")
+	}
+	fmt.Fprintln(w)
+	return nil
 }

@@ -43,11 +43,26 @@ func runReport(ctx context.Context, env *Env, args []string) error {
 	case *camp != "" && (*escR > 0 || *gcR > 0):
 		return usageError("--campaign excludes --escape-radius-kpc and --gc-radius-kpc")
 	}
+	opt, err := reportOptions(ctx, env, fs, *ledger, *run, *camp, report.Options{EscapeRadiusKpc: *escR, GCRadiusKpc: *gcR})
+	if err != nil {
+		return err
+	}
+	sum, err := makeReport(ctx, *ledger, *run, *out, opt)
+	if err != nil {
+		return err
+	}
+	fmt.Fprintf(env.Stdout, "report of run %d: %s\n", sum.RunID, sum.Index)
+	return nil
+}
+
+// reportOptions checks the override flags against the run and, with
+// --campaign, takes the plot settings from the campaign file.
+func reportOptions(ctx context.Context, env *Env, fs *flag.FlagSet, ledger string, run int64, camp string, opt report.Options) (report.Options, error) {
 	var c *campaign.Campaign
-	if *camp != "" {
+	if camp != "" {
 		var err error
-		if c, err = campaign.Load(*camp); err != nil {
-			return err
+		if c, err = campaign.Load(camp); err != nil {
+			return opt, err
 		}
 	}
 	var overrides []string
@@ -56,26 +71,21 @@ func runReport(ctx context.Context, env *Env, args []string) error {
 			overrides = append(overrides, "--"+f.Name)
 		}
 	})
-	opt := report.Options{EscapeRadiusKpc: *escR, GCRadiusKpc: *gcR}
-	if len(overrides) > 0 {
-		r, recorded, err := runRecordedSettings(ctx, *ledger, *run)
-		if err != nil {
-			return err
-		}
-		if recorded {
-			return fmt.Errorf("run %d recorded its settings in the ledger and is drawn with them; %s only serve runs that recorded none",
-				r.ID, strings.Join(overrides, " and "))
-		}
-		if c != nil {
-			opt = campaignOptions(env, c, *camp, r)
-		}
+	if len(overrides) == 0 {
+		return opt, nil
 	}
-	sum, err := makeReport(ctx, *ledger, *run, *out, opt)
+	r, recorded, err := runRecordedSettings(ctx, ledger, run)
 	if err != nil {
-		return err
+		return opt, err
 	}
-	fmt.Fprintf(env.Stdout, "report of run %d: %s\n", sum.RunID, sum.Index)
-	return nil
+	if recorded {
+		return opt, fmt.Errorf("run %d recorded its settings in the ledger and is drawn with them; %s only serve runs that recorded none",
+			r.ID, strings.Join(overrides, " and "))
+	}
+	if c != nil {
+		opt = campaignOptions(env, c, camp, r)
+	}
+	return opt, nil
 }
 
 // makeReport opens the ledger read-only and writes the report of runID

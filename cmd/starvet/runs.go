@@ -169,7 +169,23 @@ func runRuns(ctx context.Context, env *Env, args []string) error {
 	if err != nil {
 		return err
 	}
-	// A running or failed run has no summary; count what it wrote so far.
+	if err := countUnfinished(ctx, l, runs); err != nil {
+		return err
+	}
+	if af.json {
+		out, err := runsJSON(ctx, l, runs)
+		if err != nil {
+			return err
+		}
+		return writeJSON(env.Stdout, out)
+	}
+	writeRuns(env.Stdout, af.ledger, runs)
+	return nil
+}
+
+// countUnfinished fills in the counts of a running or failed run, which
+// has no summary, from what it wrote so far.
+func countUnfinished(ctx context.Context, l *db.Ledger, runs []db.Run) error {
 	for i := range runs {
 		if runs[i].Counts != nil {
 			continue
@@ -183,33 +199,37 @@ func runRuns(ctx context.Context, env *Env, args []string) error {
 			runs[i].StarsTotal += n
 		}
 	}
-	if af.json {
-		out := make([]runJSON, len(runs))
-		for i, r := range runs {
-			out[i] = toRunJSON(r)
-			s, err := l.RunSettings(ctx, r.ID)
-			if err != nil {
-				return err
-			}
-			if out[i].Settings = settingsJSON(s); out[i].Settings != nil {
-				out[i].RuleText = &s.RuleText
-			}
+	return nil
+}
+
+func runsJSON(ctx context.Context, l *db.Ledger, runs []db.Run) ([]runJSON, error) {
+	out := make([]runJSON, len(runs))
+	for i, r := range runs {
+		out[i] = toRunJSON(r)
+		s, err := l.RunSettings(ctx, r.ID)
+		if err != nil {
+			return nil, err
 		}
-		return writeJSON(env.Stdout, out)
+		if out[i].Settings = settingsJSON(s); out[i].Settings != nil {
+			out[i].RuleText = &s.RuleText
+		}
 	}
+	return out, nil
+}
+
+func writeRuns(w io.Writer, ledger string, runs []db.Run) {
 	if len(runs) == 0 {
-		fmt.Fprintf(env.Stdout, "ledger %s has no runs\n", af.ledger)
-		return nil
+		fmt.Fprintf(w, "ledger %s has no runs\n", ledger)
+		return
 	}
-	fmt.Fprintf(env.Stdout, "%-5s %-20s %-20s %-9s %9s %19s  %s\n", "run", "state", "started", "duration", "stars", "computed/carried", "counts")
+	fmt.Fprintf(w, "%-5s %-20s %-20s %-9s %9s %19s  %s\n", "run", "state", "started", "duration", "stars", "computed/carried", "counts")
 	for _, r := range runs {
-		fmt.Fprintf(env.Stdout, "%-5d %-20s %-20s %-9s %9d %19s  %s\n", r.ID, r.StateText(), stamp(r.StartedAt),
+		fmt.Fprintf(w, "%-5d %-20s %-20s %-9s %9d %19s  %s\n", r.ID, r.StateText(), stamp(r.StartedAt),
 			duration(r), r.StarsTotal, fmt.Sprintf("%d/%d", r.StarsComputed, r.StarsCarried), countsText(r.Counts))
 		if r.State == "failed" && r.Note != "" {
-			fmt.Fprintf(env.Stdout, "      note: %s\n", r.Note)
+			fmt.Fprintf(w, "      note: %s\n", r.Note)
 		}
 	}
-	return nil
 }
 
 // writeJSONLine writes v compactly without a trailing newline.

@@ -75,6 +75,22 @@ func settingsText(runID int64, s *db.RunSettings) string {
 }
 
 func writeHistory(w io.Writer, h *db.StarHistory, settings map[int64]*db.RunSettings) {
+	writeStatusByRun(w, h)
+	for i := range h.Computations {
+		c := &h.Computations[i]
+		fmt.Fprintf(w, "\ncomputed in run %d: %s\n", c.RunID, c.Verdict.Status)
+		fmt.Fprintf(w, "  %s\n", settingsText(c.RunID, settings[c.RunID]))
+		writeInputChanges(w, c)
+		writeReasons(w, c)
+		writeKinematics(w, c.Verdict)
+		writeMatches(w, c)
+	}
+	if hasCandidate(h) {
+		fmt.Fprintf(w, "\n%s\n", candidateCaution)
+	}
+}
+
+func writeStatusByRun(w io.Writer, h *db.StarHistory) {
 	switch {
 	case h.CurrentRun == 0:
 		fmt.Fprintf(w, "star %s: no complete run yet\n", h.StarID)
@@ -93,61 +109,69 @@ func writeHistory(w io.Writer, h *db.StarHistory, settings map[int64]*db.RunSett
 		q := orDash(v.Quality)
 		fmt.Fprintf(w, "  run %-4d %-22s %-10s quality %-7s %s\n", v.RunID, "("+r.RunState+")", v.Status, q, how)
 	}
-	for _, c := range h.Computations {
-		v := c.Verdict
-		fmt.Fprintf(w, "\ncomputed in run %d: %s\n", c.RunID, v.Status)
-		fmt.Fprintf(w, "  %s\n", settingsText(c.RunID, settings[c.RunID]))
-		if c.Inputs != nil {
-			fmt.Fprintf(w, "  input hash %s, dup_count %d\n", c.Inputs.InputHash, c.Inputs.DupCount)
-		}
-		if len(c.Changes) > 0 || c.DupCountChange != nil {
-			fmt.Fprintf(w, "  inputs changed since the previous computation:\n")
-			for _, ch := range c.Changes {
-				fmt.Fprintf(w, "    %-22s %s -> %s %s\n", ch.Name, changed(ch.Old, ch.New), changed(ch.New, ch.Old), ch.Unit)
-			}
-			if d := c.DupCountChange; d != nil {
-				fmt.Fprintf(w, "    %-22s %d -> %d\n", "duplicate rows", d[0], d[1])
-			}
-		}
-		if len(c.Reasons) > 0 {
-			fmt.Fprintf(w, "  reasons:\n")
-			for _, r := range c.Reasons {
-				fmt.Fprintf(w, "    %-8s %-24s value %-10s threshold %-12s", r.Outcome, r.RuleID, numfmt.Value(r.Value), orDash(r.Threshold))
-				if r.Severity != "" {
-					fmt.Fprintf(w, " [%s]", r.Severity)
-				}
-				if r.Message != "" {
-					fmt.Fprintf(w, " %s", r.Message)
-				}
-				fmt.Fprintln(w)
-			}
-		}
-		if hasKinematics(v) {
-			fmt.Fprintf(w, "  kinematics (%s):\n", orDash(v.ModelName))
-			fmt.Fprintf(w, "    distance from %s, radial velocity %s\n", orDash(v.DistanceMethod), map[bool]string{true: "measured", false: "not measured"}[v.HasRV])
-			fmt.Fprintf(w, "    speed p16/p50/p84   %s / %s / %s km/s (lower bound p50 %s km/s)\n",
-				numfmt.Kms(v.SpeedP16Kms), numfmt.Kms(v.SpeedP50Kms), numfmt.Kms(v.SpeedP84Kms), numfmt.Kms(v.SpeedLowerP50Kms))
-			fmt.Fprintf(w, "    r_gc %s kpc, escape speed %s km/s, p_unbound %s (lower bound %s)\n",
-				numfmt.Kpc(v.RGCKpc), numfmt.Kms(v.VEscKms), numfmt.Prob(v.PUnbound), numfmt.Prob(v.PUnboundLower))
-			if v.Origin != "" || !math.IsNaN(v.PGCOrigin) || !math.IsNaN(v.FlightTimeMyr) {
-				fmt.Fprintf(w, "    origin %s, p_gc_origin %s, gc_consistency %s, flight time %s Myr\n",
-					orDash(v.Origin), numfmt.Prob(v.PGCOrigin), numfmt.Prob(v.GCConsistency), numfmt.Myr(v.FlightTimeMyr))
-			}
-		}
-		if len(c.Matches) > 0 {
-			fmt.Fprintf(w, "  matches:\n")
-			for _, m := range c.Matches {
-				amb := ""
-				if m.Ambiguous {
-					amb = " ambiguous"
-				}
-				fmt.Fprintf(w, "    %-16s counterpart %-16s sep %s arcsec, p %s, %d candidates%s\n",
-					m.Catalog, orDash(m.CounterpartID), numfmt.Sep(m.SepArcsec), numfmt.Prob(m.MatchProb), m.Candidates, amb)
-			}
-		}
+}
+
+func writeInputChanges(w io.Writer, c *db.Computation) {
+	if c.Inputs != nil {
+		fmt.Fprintf(w, "  input hash %s, dup_count %d\n", c.Inputs.InputHash, c.Inputs.DupCount)
 	}
-	if hasCandidate(h) {
-		fmt.Fprintf(w, "\n%s\n", candidateCaution)
+	if len(c.Changes) == 0 && c.DupCountChange == nil {
+		return
+	}
+	fmt.Fprintf(w, "  inputs changed since the previous computation:\n")
+	for _, ch := range c.Changes {
+		fmt.Fprintf(w, "    %-22s %s -> %s %s\n", ch.Name, changed(ch.Old, ch.New), changed(ch.New, ch.Old), ch.Unit)
+	}
+	if d := c.DupCountChange; d != nil {
+		fmt.Fprintf(w, "    %-22s %d -> %d\n", "duplicate rows", d[0], d[1])
+	}
+}
+
+func writeReasons(w io.Writer, c *db.Computation) {
+	if len(c.Reasons) == 0 {
+		return
+	}
+	fmt.Fprintf(w, "  reasons:\n")
+	for _, r := range c.Reasons {
+		fmt.Fprintf(w, "    %-8s %-24s value %-10s threshold %-12s", r.Outcome, r.RuleID, numfmt.Value(r.Value), orDash(r.Threshold))
+		if r.Severity != "" {
+			fmt.Fprintf(w, " [%s]", r.Severity)
+		}
+		if r.Message != "" {
+			fmt.Fprintf(w, " %s", r.Message)
+		}
+		fmt.Fprintln(w)
+	}
+}
+
+func writeKinematics(w io.Writer, v db.VerdictRow) {
+	if !hasKinematics(v) {
+		return
+	}
+	fmt.Fprintf(w, "  kinematics (%s):\n", orDash(v.ModelName))
+	fmt.Fprintf(w, "    distance from %s, radial velocity %s\n", orDash(v.DistanceMethod), map[bool]string{true: "measured", false: "not measured"}[v.HasRV])
+	fmt.Fprintf(w, "    speed p16/p50/p84   %s / %s / %s km/s (lower bound p50 %s km/s)\n",
+		numfmt.Kms(v.SpeedP16Kms), numfmt.Kms(v.SpeedP50Kms), numfmt.Kms(v.SpeedP84Kms), numfmt.Kms(v.SpeedLowerP50Kms))
+	fmt.Fprintf(w, "    r_gc %s kpc, escape speed %s km/s, p_unbound %s (lower bound %s)\n",
+		numfmt.Kpc(v.RGCKpc), numfmt.Kms(v.VEscKms), numfmt.Prob(v.PUnbound), numfmt.Prob(v.PUnboundLower))
+	if v.Origin != "" || !math.IsNaN(v.PGCOrigin) || !math.IsNaN(v.FlightTimeMyr) {
+		fmt.Fprintf(w, "    origin %s, p_gc_origin %s, gc_consistency %s, flight time %s Myr\n",
+			orDash(v.Origin), numfmt.Prob(v.PGCOrigin), numfmt.Prob(v.GCConsistency), numfmt.Myr(v.FlightTimeMyr))
+	}
+}
+
+func writeMatches(w io.Writer, c *db.Computation) {
+	if len(c.Matches) == 0 {
+		return
+	}
+	fmt.Fprintf(w, "  matches:\n")
+	for _, m := range c.Matches {
+		amb := ""
+		if m.Ambiguous {
+			amb = " ambiguous"
+		}
+		fmt.Fprintf(w, "    %-16s counterpart %-16s sep %s arcsec, p %s, %d candidates%s\n",
+			m.Catalog, orDash(m.CounterpartID), numfmt.Sep(m.SepArcsec), numfmt.Prob(m.MatchProb), m.Candidates, amb)
 	}
 }
 
