@@ -140,8 +140,27 @@ func renderHTML(d *data, plots []PlotSummary) ([]byte, int, error) {
 		v.Catalogs = append(v.Catalogs, catView{Name: c.Name, Release: c.Release, Role: c.Role,
 			Epoch: numfmt.Fixed(c.Epoch, 1), File: filepath.Base(c.File), Read: c.RowsRead, Kept: c.RowsKept, Quarantined: c.RowsQuarantined})
 	}
+	v.Counts = countRows(d.counts)
+	if len(d.reasons) > d.opt.TopReasons {
+		v.Reasons = d.reasons[:d.opt.TopReasons]
+	} else {
+		v.Reasons = d.reasons
+	}
+	v.Plots = plotViews(plots)
+	v.EscapeText, v.GCText, v.SunText = settingsTexts(d)
+	v.Thresholds = thresholdsText(d)
+	var buf bytes.Buffer
+	if err := pageTemplate.Execute(&buf, v); err != nil {
+		return nil, 0, err
+	}
+	return buf.Bytes(), len(v.Candidates), nil
+}
+
+// countRows lists the statuses of tableOrder, then any others present,
+// with their counts.
+func countRows(counts map[string]int64) []countRow {
 	present := map[string]bool{}
-	for s := range d.counts {
+	for s := range counts {
 		present[s] = true
 	}
 	seen := map[string]bool{}
@@ -155,15 +174,16 @@ func renderHTML(d *data, plots []PlotSummary) ([]byte, int, error) {
 			order = append(order, s)
 		}
 	}
+	var rows []countRow
 	for _, s := range order {
 		st := styleOf(s)
-		v.Counts = append(v.Counts, countRow{Status: s, Symbol: st.Symbol, Color: hexColor(st.Color), Stars: d.counts[s]})
+		rows = append(rows, countRow{Status: s, Symbol: st.Symbol, Color: hexColor(st.Color), Stars: counts[s]})
 	}
-	if len(d.reasons) > d.opt.TopReasons {
-		v.Reasons = d.reasons[:d.opt.TopReasons]
-	} else {
-		v.Reasons = d.reasons
-	}
+	return rows
+}
+
+func plotViews(plots []PlotSummary) []plotView {
+	var views []plotView
 	for _, ps := range plots {
 		n := 0
 		for _, c := range ps.Points {
@@ -173,32 +193,33 @@ func renderHTML(d *data, plots []PlotSummary) ([]byte, int, error) {
 		if ps.File == "p_unbound.svg" {
 			unit = "bar segments"
 		}
-		v.Plots = append(v.Plots, plotView{PlotSummary: ps, Drawn: fmt.Sprintf("%d %s", n, unit)})
+		views = append(views, plotView{PlotSummary: ps, Drawn: fmt.Sprintf("%d %s", n, unit)})
 	}
+	return views
+}
+
+// settingsTexts states the escape radius, centre radius and Solar
+// distance the plots were drawn with, and where each comes from.
+func settingsTexts(d *data) (escape, gc, sun string) {
 	src := d.opt.SettingsSource
 	if src == "" {
 		src = "given in the options"
 	}
-	v.EscapeText = "escape to infinity (the campaign default; this run's setting is not recorded in the ledger)"
+	escape = "escape to infinity (the campaign default; this run's setting is not recorded in the ledger)"
 	if d.opt.EscapeRadiusKpc > 0 {
-		v.EscapeText = "escape to r = " + numfmt.Exact(d.opt.EscapeRadiusKpc) + " kpc (" + src + ")"
+		escape = "escape to r = " + numfmt.Exact(d.opt.EscapeRadiusKpc) + " kpc (" + src + ")"
 	} else if d.opt.SettingsSource != "" {
-		v.EscapeText = fmt.Sprintf("escape to infinity (%s)", src)
+		escape = fmt.Sprintf("escape to infinity (%s)", src)
 	}
-	v.GCText = numfmt.Exact(d.opt.GCRadiusKpc) + " kpc (" + src + ")"
+	gc = numfmt.Exact(d.opt.GCRadiusKpc) + " kpc (" + src + ")"
 	if d.gcDefault {
-		v.GCText = numfmt.Exact(d.opt.GCRadiusKpc) + " kpc (default; not recorded in the ledger)"
+		gc = numfmt.Exact(d.opt.GCRadiusKpc) + " kpc (default; not recorded in the ledger)"
 	}
-	v.SunText = numfmt.Exact(d.opt.SunDistanceKpc) + " kpc (" + src + ")"
+	sun = numfmt.Exact(d.opt.SunDistanceKpc) + " kpc (" + src + ")"
 	if d.sunDefault {
-		v.SunText = numfmt.Exact(d.opt.SunDistanceKpc) + " kpc (default; not recorded in the ledger)"
+		sun = numfmt.Exact(d.opt.SunDistanceKpc) + " kpc (default; not recorded in the ledger)"
 	}
-	v.Thresholds = thresholdsText(d)
-	var buf bytes.Buffer
-	if err := pageTemplate.Execute(&buf, v); err != nil {
-		return nil, 0, err
-	}
-	return buf.Bytes(), len(v.Candidates), nil
+	return escape, gc, sun
 }
 
 var pageTemplate = template.Must(template.New("page").Parse(`<!DOCTYPE html>

@@ -75,17 +75,47 @@ func line(p *plot.Plot, xys plotter.XYs, c color.Color, width vg.Length, dashes 
 func speedPlot(d *data) (*PlotSummary, []byte, error) {
 	ps := &PlotSummary{File: "speed.svg", Title: "Galactocentric speed against Galactocentric distance", Points: map[string]int{}}
 	p := newPlot(ps.Title, "Galactocentric distance r (kpc, logarithmic)", "Galactocentric speed (km/s)")
-	pts := map[string]plotter.XYs{}
-	bars := map[string]plotter.YErrors{}
-	present := map[string]bool{}
-	omitted := map[string]int{}
-	var vesc plotter.XYs
-	rMin, rMax := math.Inf(1), 0.0
+	sp := collectSpeeds(d)
+	// Distances span two decades: a logarithmic axis keeps the stars near
+	// the Sun apart from the fast ones far out.
+	rLo, rHi := math.Min(sp.rMin/1.25, 1), sp.rMax*1.25
+	if err := drawEscapeSpeed(p, ps, d, sp.vesc, rLo, rHi); err != nil {
+		return ps, nil, err
+	}
+	if err := drawSpeeds(p, ps, sp); err != nil {
+		return ps, nil, err
+	}
+	p.X.Scale, p.X.Tick.Marker = plot.LogScale{}, plot.LogTicks{Prec: -1}
+	p.X.Min, p.X.Max = rLo, rHi
+	// Head room above the data for the legend in the top right corner.
+	p.Y.Min, p.Y.Max = 0, 1.3*math.Max(p.Y.Max, 100)
+	p.Y.Tick.Marker = linearTicks{}
+	for _, st := range sortStatuses(boolKeys(sp.omitted)) {
+		ps.Omitted += sp.omitted[st]
+		ps.Note += fmt.Sprintf(" Not drawn: %d %s star(s) without a full speed.", sp.omitted[st], st)
+	}
+	svg, err := toSVG(p, 7.5*vg.Inch, 5.2*vg.Inch)
+	return ps, svg, err
+}
+
+// speeds are plot 1's stars by status, with what was left out.
+type speeds struct {
+	pts        map[string]plotter.XYs
+	bars       map[string]plotter.YErrors
+	present    map[string]bool
+	omitted    map[string]int // status -> stars without a full speed
+	vesc       plotter.XYs    // each drawn star's own escape speed
+	rMin, rMax float64
+}
+
+func collectSpeeds(d *data) *speeds {
+	sp := &speeds{pts: map[string]plotter.XYs{}, bars: map[string]plotter.YErrors{}, present: map[string]bool{},
+		omitted: map[string]int{}, rMin: math.Inf(1)}
 	for i := range d.stars {
 		s := &d.stars[i]
 		if !vec.Finite(s.SpeedP50Kms) || !(s.RGCKpc > 0) || math.IsInf(s.RGCKpc, 0) {
 			if s.Status != string(verdict.Rejected) && s.Status != string(verdict.Withdrawn) {
-				omitted[s.Status]++
+				sp.omitted[s.Status]++
 			}
 			continue
 		}
@@ -96,21 +126,23 @@ func speedPlot(d *data) (*PlotSummary, []byte, error) {
 		if vec.Finite(s.SpeedP84Kms) {
 			hi = math.Max(0, s.SpeedP84Kms-s.SpeedP50Kms)
 		}
-		pts[s.Status] = append(pts[s.Status], plotter.XY{X: s.RGCKpc, Y: s.SpeedP50Kms})
-		bars[s.Status] = append(bars[s.Status], struct{ Low, High float64 }{lo, hi})
-		present[s.Status] = true
-		rMin, rMax = math.Min(rMin, s.RGCKpc), math.Max(rMax, s.RGCKpc)
+		sp.pts[s.Status] = append(sp.pts[s.Status], plotter.XY{X: s.RGCKpc, Y: s.SpeedP50Kms})
+		sp.bars[s.Status] = append(sp.bars[s.Status], struct{ Low, High float64 }{lo, hi})
+		sp.present[s.Status] = true
+		sp.rMin, sp.rMax = math.Min(sp.rMin, s.RGCKpc), math.Max(sp.rMax, s.RGCKpc)
 		if vec.Finite(s.VEscKms) {
-			vesc = append(vesc, plotter.XY{X: s.RGCKpc, Y: s.VEscKms})
+			sp.vesc = append(sp.vesc, plotter.XY{X: s.RGCKpc, Y: s.VEscKms})
 		}
 	}
-	if rMax == 0 {
-		rMin, rMax = 1, 100
+	if sp.rMax == 0 {
+		sp.rMin, sp.rMax = 1, 100
 	}
-	// Distances span two decades: a logarithmic axis keeps the stars near
-	// the Sun apart from the fast ones far out.
-	rLo, rHi := math.Min(rMin/1.25, 1), rMax*1.25
+	return sp
+}
 
+// drawEscapeSpeed draws the model's escape-speed curves over [rLo, rHi]
+// when the model can be rebuilt, else each star's own escape speed.
+func drawEscapeSpeed(p *plot.Plot, ps *PlotSummary, d *data, vesc plotter.XYs, rLo, rHi float64) error {
 	var model *potential.Model
 	if len(d.models) == 1 && d.models[0] != campaign.ComponentsModel {
 		model, _ = potential.Builtin(d.models[0])
@@ -126,11 +158,11 @@ func speedPlot(d *data) (*PlotSummary, []byte, error) {
 		}
 		l1, err := line(p, plane, curveGrey, 1.2)
 		if err != nil {
-			return ps, nil, err
+			return err
 		}
 		l2, err := line(p, pole, curveGrey, 1.2, vg.Points(5), vg.Points(3))
 		if err != nil {
-			return ps, nil, err
+			return err
 		}
 		p.Legend.Add("escape speed in the plane", l1)
 		p.Legend.Add("escape speed toward the pole", l2)
@@ -139,7 +171,7 @@ func speedPlot(d *data) (*PlotSummary, []byte, error) {
 	case len(vesc) > 0:
 		s, err := plotter.NewScatter(vesc)
 		if err != nil {
-			return ps, nil, err
+			return err
 		}
 		s.GlyphStyle = draw.GlyphStyle{Color: black, Shape: draw.RingGlyph{}, Radius: 1.6}
 		p.Add(s)
@@ -149,29 +181,24 @@ func speedPlot(d *data) (*PlotSummary, []byte, error) {
 	default:
 		ps.Note = "No escape speed to draw: the run has no model name and no stored escape speeds."
 	}
+	return nil
+}
 
-	for _, st := range sortStatuses(present) {
-		eb := &plotter.YErrorBars{XYs: pts[st], YErrors: bars[st], CapWidth: 2,
+// drawSpeeds draws every status's 16-84 ranges first, then its markers
+// over them.
+func drawSpeeds(p *plot.Plot, ps *PlotSummary, sp *speeds) error {
+	for _, st := range sortStatuses(sp.present) {
+		eb := &plotter.YErrorBars{XYs: sp.pts[st], YErrors: sp.bars[st], CapWidth: 2,
 			LineStyle: draw.LineStyle{Color: styleOf(st).Color, Width: 0.6}}
 		p.Add(eb)
 	}
-	for _, st := range sortStatuses(present) {
-		if err := scatter(p, st, pts[st]); err != nil {
-			return ps, nil, err
+	for _, st := range sortStatuses(sp.present) {
+		if err := scatter(p, st, sp.pts[st]); err != nil {
+			return err
 		}
-		ps.Points[st] = len(pts[st])
+		ps.Points[st] = len(sp.pts[st])
 	}
-	p.X.Scale, p.X.Tick.Marker = plot.LogScale{}, plot.LogTicks{Prec: -1}
-	p.X.Min, p.X.Max = rLo, rHi
-	// Head room above the data for the legend in the top right corner.
-	p.Y.Min, p.Y.Max = 0, 1.3*math.Max(p.Y.Max, 100)
-	p.Y.Tick.Marker = linearTicks{}
-	for _, st := range sortStatuses(boolKeys(omitted)) {
-		ps.Omitted += omitted[st]
-		ps.Note += fmt.Sprintf(" Not drawn: %d %s star(s) without a full speed.", omitted[st], st)
-	}
-	svg, err := toSVG(p, 7.5*vg.Inch, 5.2*vg.Inch)
-	return ps, svg, err
+	return nil
 }
 
 // linearTicks labels round steps (1, 2 or 5 times a power of ten) with
@@ -244,64 +271,9 @@ func skyPlot(d *data) (*PlotSummary, []byte, error) {
 	const r2 = math.Sqrt2
 	p.X.Min, p.X.Max = -2*r2*1.02, 2*r2*1.02
 	p.Y.Min, p.Y.Max = -r2*1.04, r2*1.18
-
-	proj := func(lDeg, bDeg float64) plotter.XY {
-		x, y := HammerAitoff(wrapLon(lDeg*units.RadPerDeg), bDeg*units.RadPerDeg)
-		return plotter.XY{X: -x, Y: y}
-	}
-	for _, lDeg := range []float64{-120, -60, 0, 60, 120} {
-		var m plotter.XYs
-		for b := -90.0; b <= 90; b += 2 {
-			m = append(m, proj(lDeg, b))
-		}
-		if _, err := line(p, m, gridGrey, 0.5); err != nil {
-			return ps, nil, err
-		}
-	}
-	for _, bDeg := range []float64{-60, -30, 0, 30, 60} {
-		var m plotter.XYs
-		for l := -180.0; l <= 180; l += 2 {
-			m = append(m, proj(l, bDeg))
-		}
-		if _, err := line(p, m, gridGrey, 0.5); err != nil {
-			return ps, nil, err
-		}
-	}
-	var outline plotter.XYs
-	for k := 0; k <= 360; k++ {
-		t := float64(k) * units.RadPerDeg
-		outline = append(outline, plotter.XY{X: 2 * r2 * math.Cos(t), Y: r2 * math.Sin(t)})
-	}
-	if _, err := line(p, outline, curveGrey, 1); err != nil {
+	if err := drawGraticule(p); err != nil {
 		return ps, nil, err
 	}
-	var lxy plotter.XYs
-	var ltxt []string
-	for _, lDeg := range []float64{120, 60, 0, -60, -120} {
-		q := proj(lDeg, 0)
-		q.Y -= 0.09
-		lxy = append(lxy, q)
-		ltxt = append(ltxt, numfmt.Exact(math.Mod(lDeg+360, 360))+"°")
-	}
-	for _, bDeg := range []float64{60, 30, -30, -60} {
-		q := proj(0, bDeg)
-		lxy = append(lxy, q)
-		sign := ""
-		if bDeg > 0 {
-			sign = "+"
-		}
-		ltxt = append(ltxt, sign+numfmt.Exact(bDeg)+"°")
-	}
-	labels, err := plotter.NewLabels(plotter.XYLabels{XYs: lxy, Labels: ltxt})
-	if err != nil {
-		return ps, nil, err
-	}
-	for i := range labels.TextStyle {
-		labels.TextStyle[i].Font.Size = vg.Points(8)
-		labels.TextStyle[i].Color = curveGrey
-	}
-	p.Add(labels)
-
 	pts := map[string]plotter.XYs{}
 	present := map[string]bool{}
 	for i := range d.stars {
@@ -327,6 +299,76 @@ func skyPlot(d *data) (*PlotSummary, []byte, error) {
 	ps.Note = "Longitude l increases to the left, l = 0 at the centre; graticule every 60° in l and 30° in b. " + ps.Note
 	svg, err := toSVG(p, 9*vg.Inch, 5*vg.Inch)
 	return ps, svg, err
+}
+
+// skyXY projects Galactic (l, b) in degrees onto the sky map, longitude
+// increasing to the left.
+func skyXY(lDeg, bDeg float64) plotter.XY {
+	x, y := HammerAitoff(wrapLon(lDeg*units.RadPerDeg), bDeg*units.RadPerDeg)
+	return plotter.XY{X: -x, Y: y}
+}
+
+// drawGraticule draws the meridians every 60°, the parallels every 30°,
+// the map's outline and the grid's labels.
+func drawGraticule(p *plot.Plot) error {
+	const r2 = math.Sqrt2
+	for _, lDeg := range []float64{-120, -60, 0, 60, 120} {
+		var m plotter.XYs
+		for b := -90.0; b <= 90; b += 2 {
+			m = append(m, skyXY(lDeg, b))
+		}
+		if _, err := line(p, m, gridGrey, 0.5); err != nil {
+			return err
+		}
+	}
+	for _, bDeg := range []float64{-60, -30, 0, 30, 60} {
+		var m plotter.XYs
+		for l := -180.0; l <= 180; l += 2 {
+			m = append(m, skyXY(l, bDeg))
+		}
+		if _, err := line(p, m, gridGrey, 0.5); err != nil {
+			return err
+		}
+	}
+	var outline plotter.XYs
+	for k := 0; k <= 360; k++ {
+		t := float64(k) * units.RadPerDeg
+		outline = append(outline, plotter.XY{X: 2 * r2 * math.Cos(t), Y: r2 * math.Sin(t)})
+	}
+	if _, err := line(p, outline, curveGrey, 1); err != nil {
+		return err
+	}
+	return drawGraticuleLabels(p)
+}
+
+func drawGraticuleLabels(p *plot.Plot) error {
+	var lxy plotter.XYs
+	var ltxt []string
+	for _, lDeg := range []float64{120, 60, 0, -60, -120} {
+		q := skyXY(lDeg, 0)
+		q.Y -= 0.09
+		lxy = append(lxy, q)
+		ltxt = append(ltxt, numfmt.Exact(math.Mod(lDeg+360, 360))+"°")
+	}
+	for _, bDeg := range []float64{60, 30, -30, -60} {
+		q := skyXY(0, bDeg)
+		lxy = append(lxy, q)
+		sign := ""
+		if bDeg > 0 {
+			sign = "+"
+		}
+		ltxt = append(ltxt, sign+numfmt.Exact(bDeg)+"°")
+	}
+	labels, err := plotter.NewLabels(plotter.XYLabels{XYs: lxy, Labels: ltxt})
+	if err != nil {
+		return err
+	}
+	for i := range labels.TextStyle {
+		labels.TextStyle[i].Font.Size = vg.Points(8)
+		labels.TextStyle[i].Color = curveGrey
+	}
+	p.Add(labels)
+	return nil
 }
 
 // pUnboundBins is the number of equal bins of the p_unbound histogram on
@@ -475,36 +517,58 @@ func crossingPlot(d *data) (*PlotSummary, []byte, error) {
 	extent *= 1.08
 	p.X.Min, p.X.Max, p.Y.Min, p.Y.Max = -extent, extent, -extent, extent
 
-	var circ plotter.XYs
-	for k := 0; k <= 180; k++ {
-		t := float64(2*k) * units.RadPerDeg
-		circ = append(circ, plotter.XY{X: d.opt.GCRadiusKpc * math.Cos(t), Y: d.opt.GCRadiusKpc * math.Sin(t)})
-	}
-	cl, err := line(p, circ, black, 1, vg.Points(3), vg.Points(2))
-	if err != nil {
+	if err := drawCentreCircle(p, d.opt.GCRadiusKpc); err != nil {
 		return ps, nil, err
 	}
-	p.Legend.Add("centre radius "+numfmt.Exact(d.opt.GCRadiusKpc)+" kpc", cl)
 	for _, st := range sortStatuses(present) {
 		if err := scatter(p, st, pts[st]); err != nil {
 			return ps, nil, err
 		}
 		ps.Points[st] = len(pts[st])
 	}
-	sun := plotter.XYs{{X: -d.opt.SunDistanceKpc, Y: 0}}
+	if err := drawSun(p, d.opt.SunDistanceKpc); err != nil {
+		return ps, nil, err
+	}
+	ps.Note = crossingNote(d, ps.Omitted)
+	svg, err := toSVG(p, 6.8*vg.Inch, 6.8*vg.Inch)
+	return ps, svg, err
+}
+
+func drawCentreCircle(p *plot.Plot, rKpc float64) error {
+	var circ plotter.XYs
+	for k := 0; k <= 180; k++ {
+		t := float64(2*k) * units.RadPerDeg
+		circ = append(circ, plotter.XY{X: rKpc * math.Cos(t), Y: rKpc * math.Sin(t)})
+	}
+	cl, err := line(p, circ, black, 1, vg.Points(3), vg.Points(2))
+	if err != nil {
+		return err
+	}
+	p.Legend.Add("centre radius "+numfmt.Exact(rKpc)+" kpc", cl)
+	return nil
+}
+
+// drawSun marks the Sun at x = -r0 with a ring around a dot.
+func drawSun(p *plot.Plot, r0Kpc float64) error {
+	sun := plotter.XYs{{X: -r0Kpc, Y: 0}}
 	ring, err := plotter.NewScatter(sun)
 	if err != nil {
-		return ps, nil, err
+		return err
 	}
 	ring.GlyphStyle = draw.GlyphStyle{Color: black, Shape: draw.RingGlyph{}, Radius: 4.5}
 	dot, err := plotter.NewScatter(sun)
 	if err != nil {
-		return ps, nil, err
+		return err
 	}
 	dot.GlyphStyle = draw.GlyphStyle{Color: black, Shape: draw.CircleGlyph{}, Radius: 1.2}
 	p.Add(ring, dot)
-	p.Legend.Add("Sun (x = "+numfmt.Exact(-d.opt.SunDistanceKpc)+" kpc)", ring, dot)
+	p.Legend.Add("Sun (x = "+numfmt.Exact(-r0Kpc)+" kpc)", ring, dot)
+	return nil
+}
 
+// crossingNote says where the centre radius and the Sun come from and
+// what was not drawn.
+func crossingNote(d *data, omitted int) string {
 	src := d.opt.SettingsSource
 	if src == "" {
 		src = "given in the options"
@@ -517,13 +581,12 @@ func crossingPlot(d *data) (*PlotSummary, []byte, error) {
 	if d.sunDefault {
 		sunText += " (starvet's default Solar distance; this run's is not recorded in the ledger)"
 	}
-	ps.Note = gcText + " " + sunText + "."
+	note := gcText + " " + sunText + "."
 	if len(d.crossings) == 0 {
-		ps.Note += " The ledger holds no crossings for the stars of this run (none was traced back, or the run predates the crossings table)."
+		note += " The ledger holds no crossings for the stars of this run (none was traced back, or the run predates the crossings table)."
 	}
-	if ps.Omitted > 0 {
-		ps.Note += fmt.Sprintf(" Not drawn: %d crossing(s) with a missing coordinate.", ps.Omitted)
+	if omitted > 0 {
+		note += fmt.Sprintf(" Not drawn: %d crossing(s) with a missing coordinate.", omitted)
 	}
-	svg, err := toSVG(p, 6.8*vg.Inch, 6.8*vg.Inch)
-	return ps, svg, err
+	return note
 }

@@ -146,15 +146,7 @@ func gather(ctx context.Context, src Source, runID int64, opt Options) (*data, e
 		d.opt.TopReasons = DefaultTopReasons
 	}
 	var err error
-	if runID == 0 {
-		d.run, err = src.LastCompleteRun(ctx)
-		if err == nil && d.run == nil {
-			err = ErrNoRun
-		}
-	} else {
-		d.run, err = src.Run(ctx, runID)
-	}
-	if err != nil {
+	if d.run, err = findRun(ctx, src, runID); err != nil {
 		return nil, fmt.Errorf("report: %w", err)
 	}
 	if d.settings, err = src.RunSettings(ctx, d.run.ID); err != nil {
@@ -164,9 +156,43 @@ func gather(ctx context.Context, src Source, runID int64, opt Options) (*data, e
 	if d.catalogs, err = src.RunCatalogs(ctx, d.run.ID); err != nil {
 		return nil, fmt.Errorf("report: %w", err)
 	}
+	if err := d.gatherStars(ctx, src); err != nil {
+		return nil, fmt.Errorf("report: %w", err)
+	}
+	index := make(map[string]int, len(d.stars))
+	for i := range d.stars {
+		index[d.stars[i].StarID] = i
+	}
+	if err := d.gatherReasons(ctx, src); err != nil {
+		return nil, err
+	}
+	if err := d.gatherPositions(ctx, src, index); err != nil {
+		return nil, fmt.Errorf("report: %w", err)
+	}
+	if err := d.gatherCrossings(ctx, src, index); err != nil {
+		return nil, err
+	}
+	return d, nil
+}
+
+// findRun returns run runID, or the latest complete run for 0.
+func findRun(ctx context.Context, src Source, runID int64) (*db.Run, error) {
+	if runID != 0 {
+		return src.Run(ctx, runID)
+	}
+	r, err := src.LastCompleteRun(ctx)
+	if err == nil && r == nil {
+		err = ErrNoRun
+	}
+	return r, err
+}
+
+// gatherStars reads the run's verdicts in star id order, counting them
+// by status and collecting the model names.
+func (d *data) gatherStars(ctx context.Context, src Source) error {
 	models := map[string]bool{}
 	n := 0
-	_, err = src.ListRun(ctx, db.ListFilter{Run: d.run.ID}, func(v db.VerdictRow) error {
+	_, err := src.ListRun(ctx, db.ListFilter{Run: d.run.ID}, func(v db.VerdictRow) error {
 		if n++; n%4096 == 0 {
 			if err := ctx.Err(); err != nil {
 				return err
@@ -180,7 +206,7 @@ func gather(ctx context.Context, src Source, runID int64, opt Options) (*data, e
 		return nil
 	})
 	if err != nil {
-		return nil, fmt.Errorf("report: %w", err)
+		return err
 	}
 	// ListRun orders by star id already; sorting again makes the order ours.
 	sort.SliceStable(d.stars, func(i, j int) bool { return d.stars[i].StarID < d.stars[j].StarID })
@@ -188,14 +214,12 @@ func gather(ctx context.Context, src Source, runID int64, opt Options) (*data, e
 		d.models = append(d.models, m)
 	}
 	sort.Strings(d.models)
-	index := make(map[string]int, len(d.stars))
-	for i := range d.stars {
-		index[d.stars[i].StarID] = i
-	}
-	if err := d.gatherReasons(ctx, src); err != nil {
-		return nil, err
-	}
-	err = src.Positions(ctx, d.run.ID, func(id string, ra, dec float64) error {
+	return nil
+}
+
+// gatherPositions attaches the stored positions to the run's stars.
+func (d *data) gatherPositions(ctx context.Context, src Source, index map[string]int) error {
+	return src.Positions(ctx, d.run.ID, func(id string, ra, dec float64) error {
 		i, ok := index[id]
 		if !ok || math.IsNaN(ra) || math.IsNaN(dec) {
 			return nil
@@ -203,13 +227,6 @@ func gather(ctx context.Context, src Source, runID int64, opt Options) (*data, e
 		d.stars[i].hasPos, d.stars[i].raDeg, d.stars[i].decDeg = true, ra, dec
 		return nil
 	})
-	if err != nil {
-		return nil, fmt.Errorf("report: %w", err)
-	}
-	if err := d.gatherCrossings(ctx, src, index); err != nil {
-		return nil, err
-	}
-	return d, nil
 }
 
 // useSettings draws the plots with the settings the run recorded; for a
