@@ -2,14 +2,13 @@ package db
 
 import (
 	"context"
-	"crypto/sha256"
 	"database/sql"
-	"encoding/hex"
 	"errors"
 	"fmt"
 	"math"
 	"regexp"
 	"slices"
+	"starvet/internal/fingerprint"
 	"strconv"
 	"strings"
 )
@@ -81,13 +80,12 @@ func (s *RunSettings) Map() map[string]string {
 func (s *RunSettings) ConfigHash() string {
 	vs := slices.Clone(s.Values)
 	slices.SortFunc(vs, func(a, b Setting) int { return strings.Compare(a.Name, b.Name) })
-	h := sha256.New()
+	var b []byte
 	for _, v := range vs {
-		fmt.Fprintf(h, "%s=%s\n", v.Name, v.Value)
+		b = append(append(append(append(b, v.Name...), '='), v.Value...), '\n')
 	}
-	h.Write([]byte{'\n'})
-	h.Write([]byte(s.RuleText))
-	return hex.EncodeToString(h.Sum(nil))
+	b = append(append(b, '\n'), s.RuleText...)
+	return fingerprint.Hex(b, 0)
 }
 
 var settingNameRE = regexp.MustCompile(`^[a-z0-9_]+(\.[a-z0-9_-]+)*$`)

@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"io"
 	"math"
+	"starvet/verdict"
 
 	"starvet/campaign"
 	"starvet/db"
@@ -180,7 +181,7 @@ const candidateCaution = "An unbound or marginal verdict depends on the adopted 
 
 func hasCandidate(h *db.StarHistory) bool {
 	for _, r := range h.Runs {
-		if st := r.Verdict.Status; st == "unbound" || st == "marginal" {
+		if st := verdict.Status(r.Verdict.Status); st == verdict.Unbound || st == verdict.Marginal {
 			return true
 		}
 	}
