@@ -5,6 +5,7 @@ import (
 	"os"
 	"path/filepath"
 	"regexp"
+	"slices"
 	"sort"
 	"strconv"
 	"strings"
@@ -149,6 +150,10 @@ type rawCat struct {
 	NullMarkers    *[]string         `toml:"null_markers"`
 	Columns        map[string]string `toml:"columns"`
 	Units          map[string]string `toml:"units"`
+	Format         *string           `toml:"format"`
+	HDU            *tomlScalar       `toml:"hdu"`
+	Table          *tomlScalar       `toml:"table"`
+	Delimiter      *string           `toml:"delimiter"`
 }
 
 type rawPot struct {
@@ -334,6 +339,7 @@ func (p *parser) catalogs(c *Campaign, r *raw) {
 		s := &cs.Spec
 		ct.name(s, rc.Name, seen)
 		ct.file(s, rc.File, c.Dir)
+		ct.format(s, rc)
 		if ct.role(s, rc.Role) && s.Role == catalog.Astrometry {
 			astrometry++
 			if astrometry == 2 {
@@ -402,11 +408,66 @@ func (ct catTable) file(s *catalog.Spec, file *string, dir string) {
 		ct.bad(ct.at(), ct.key("file"), ErrMissing, "is required")
 		return
 	}
-	f := *file
-	if !strings.HasSuffix(f, ".csv") && !strings.HasSuffix(f, ".csv.gz") {
-		ct.bad(ct.at("file"), ct.key("file"), ErrBadValue, "%q must end in .csv or .csv.gz", f)
+	s.File = resolve(dir, *file)
+}
+
+// format checks the file's format (by the `format` key, else the file
+// name's ending) and the keys that only one format takes.
+func (ct catTable) format(s *catalog.Spec, rc rawCat) {
+	if rc.Format != nil {
+		s.Format = *rc.Format
 	}
-	s.File = resolve(dir, f)
+	if s.File == "" {
+		return
+	}
+	format, err := catalog.FormatOf(s.File, s.Format)
+	if err != nil {
+		k := "file"
+		if rc.Format != nil {
+			k = "format"
+		}
+		ct.bad(ct.at(k), ct.key(k), ErrBadValue, "%v", err)
+		return
+	}
+	only := func(key string, set bool, formats ...string) {
+		if set && !slices.Contains(formats, format) {
+			ct.bad(ct.at(key), ct.key(key), ErrBadValue, "applies to %s files only; this file is %s", strings.Join(formats, " and "), format)
+		}
+	}
+	if rc.HDU != nil {
+		s.HDU = rc.HDU.text
+	}
+	only("hdu", rc.HDU != nil, catalog.FormatFITS)
+	if rc.Table != nil {
+		s.Table = rc.Table.text
+	}
+	only("table", rc.Table != nil, catalog.FormatVOTable)
+	if rc.Delimiter != nil {
+		s.Delimiter = *rc.Delimiter
+		if !slices.Contains(delimiters, s.Delimiter) {
+			ct.bad(ct.at("delimiter"), ct.key("delimiter"), ErrBadValue, "%q is not one of \",\" \";\" \"\\t\" \" \" (whitespace)", s.Delimiter)
+		}
+	}
+	only("delimiter", rc.Delimiter != nil, catalog.FormatCSV, catalog.FormatECSV)
+}
+
+// delimiters are the field separators of delimited text a campaign may name.
+var delimiters = []string{",", ";", "\t", " "}
+
+// tomlScalar is a key that may be written as a number or a string (an HDU
+// number or EXTNAME, a table number or name); text is its value as text.
+type tomlScalar struct{ text string }
+
+func (t *tomlScalar) UnmarshalTOML(v any) error {
+	switch x := v.(type) {
+	case string:
+		t.text = x
+	case int64:
+		t.text = strconv.FormatInt(x, 10)
+	default:
+		return fmt.Errorf("want a number or a name, got %T", v)
+	}
+	return nil
 }
 
 // role sets the catalog's role; it returns false when the role is absent.

@@ -162,7 +162,11 @@ func TestErrors(t *testing.T) {
 		{"no astrometry", strings.Replace(baseText, `"astrometry"`, `"photometry"`, 1), ErrBadValue, 0, 0, "catalog"},
 		{"duplicate name", strings.Replace(baseText, `"wren_spec"`, `"lark_astro"`, 1), ErrBadValue, 8, 1, "catalog[2].name"},
 		{"bad name", strings.Replace(baseText, `"wren_spec"`, `"Wren-Spec"`, 1), ErrBadValue, 8, 1, "catalog[2].name"},
-		{"bad suffix", strings.Replace(baseText, `"wren.csv.gz"`, `"wren.fits"`, 1), ErrBadValue, 9, 1, "catalog[2].file"},
+		{"bad suffix", strings.Replace(baseText, `"wren.csv.gz"`, `"wren.dat"`, 1), ErrBadValue, 9, 1, "catalog[2].file"},
+		{"unknown format", strings.Replace(baseText, `file = "wren.csv.gz"`, "file = \"wren.dat\"\nformat = \"spreadsheet\"", 1), ErrBadValue, 10, 1, "catalog[2].format"},
+		{"hdu for a csv file", strings.Replace(baseText, `file = "wren.csv.gz"`, "file = \"wren.csv.gz\"\nhdu = 2", 1), ErrBadValue, 10, 1, "catalog[2].hdu"},
+		{"table for a fits file", strings.Replace(baseText, `file = "wren.csv.gz"`, "file = \"wren.fits\"\ntable = \"main\"", 1), ErrBadValue, 10, 1, "catalog[2].table"},
+		{"bad delimiter", strings.Replace(baseText, `file = "wren.csv.gz"`, "file = \"wren.csv.gz\"\ndelimiter = \"|\"", 1), ErrBadValue, 10, 1, "catalog[2].delimiter"},
 		{"missing epoch", strings.Replace(baseText, "epoch = 2020.5\n", "", 1), ErrMissing, 7, 1, "catalog[2].epoch"},
 		{"negative radius", baseText + "[match]\nradius_arcsec = -1\n", ErrBadValue, 13, 1, "match.radius_arcsec"},
 		{"zero radius", baseText + "[match]\nradius_arcsec = 0\n", ErrBadValue, 13, 1, "match.radius_arcsec"},
@@ -361,5 +365,31 @@ func TestTypeErrorMessage(t *testing.T) {
 	_, err := Parse("camp.toml", []byte("  seed = \"x\"\n"+baseText), "/data")
 	if want := `camp.toml:1:3: (last key "seed"): incompatible types`; err == nil || !strings.HasPrefix(err.Error(), want) {
 		t.Errorf("got %v, want it to start with %s", err, want)
+	}
+}
+
+// The format keys reach the catalog's spec: an HDU by number, a table by
+// name, a delimiter, and a format named explicitly for an unusual ending.
+func TestFormatKeys(t *testing.T) {
+	for _, c := range []struct {
+		repl string
+		want catalog.Spec
+	}{
+		{"file = \"wren.fits.gz\"\nhdu = 2", catalog.Spec{HDU: "2"}},
+		{"file = \"wren.fits\"\nhdu = \"SPECTRA\"", catalog.Spec{HDU: "SPECTRA"}},
+		{"file = \"wren.vot\"\ntable = \"main\"", catalog.Spec{Table: "main"}},
+		{"file = \"wren.csv\"\ndelimiter = \";\"", catalog.Spec{Delimiter: ";"}},
+		{"file = \"wren.txt\"\nformat = \"csv\"\ndelimiter = \"\\t\"", catalog.Spec{Format: "csv", Delimiter: "\t"}},
+	} {
+		text := strings.Replace(baseText, `file = "wren.csv.gz"`, c.repl, 1)
+		camp, err := Parse("camp.toml", []byte(text), "/data")
+		if err != nil {
+			t.Errorf("%q: %v", c.repl, err)
+			continue
+		}
+		s := camp.Catalogs[1].Spec
+		if s.Format != c.want.Format || s.HDU != c.want.HDU || s.Table != c.want.Table || s.Delimiter != c.want.Delimiter {
+			t.Errorf("%q: format %q hdu %q table %q delimiter %q", c.repl, s.Format, s.HDU, s.Table, s.Delimiter)
+		}
 	}
 }

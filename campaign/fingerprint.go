@@ -36,6 +36,12 @@ type catPart struct {
 	EpochJyr, PositionErrMas  float64
 	Columns, Units            map[string]string
 	NullMarkers               []string
+	// Empty for a comma-separated file named by its ending, so that the
+	// hashes of campaigns written before these keys do not change.
+	Format    string `json:",omitempty"`
+	HDU       string `json:",omitempty"`
+	Table     string `json:",omitempty"`
+	Delimiter string `json:",omitempty"`
 }
 
 type modelPart struct {
@@ -65,7 +71,8 @@ func (c *Campaign) matchPart() matchPart {
 	for _, cs := range c.Catalogs {
 		m.Catalogs = append(m.Catalogs, catPart{Name: cs.Name, File: c.rel(cs.File), Role: string(cs.Role),
 			Release: cs.Release, EpochJyr: cs.EpochJyr, PositionErrMas: cs.PositionErrMas,
-			Columns: cs.Columns, Units: cs.Units, NullMarkers: cs.NullMarkers})
+			Columns: cs.Columns, Units: cs.Units, NullMarkers: cs.NullMarkers,
+			Format: cs.Format, HDU: cs.HDU, Table: cs.Table, Delimiter: cs.Delimiter})
 	}
 	return m
 }

@@ -3,6 +3,7 @@ package catalog
 import (
 	"fmt"
 	"math"
+	"sort"
 	"strconv"
 	"strings"
 )
@@ -16,6 +17,9 @@ type Layout struct {
 	IDIndex int      // 0-based position of the id column
 	markers []string // cell texts meaning missing, besides the empty one
 	distMag bool     // distance comes as a distance modulus
+	// Rows says that the positions a reader passes are 1-based rows of a
+	// binary table, not lines of a text file.
+	Rows bool
 }
 
 // NullMarkers are the non-empty cell texts that mean missing.
@@ -223,7 +227,72 @@ func NewBuilder(spec Spec, header []string, headerLine int, opt ReadOptions) (*B
 	if err != nil {
 		return nil, err
 	}
-	l := &Layout{Header: header, Columns: cols, IDIndex: idIdx, distMag: units[Distance] == "mag"}
+	b := newBuilder(spec, header, cols, idIdx, units[Distance] == "mag", opt)
+	b.rep.Mapped, b.rep.Unused = mapped, unused
+	return b, nil
+}
+
+// NewBuilderFromMeta is NewBuilder for a file that describes its columns:
+// they map by the campaign, then by UCD, then by name (Spec.Map), in the
+// unit the campaign or else the file gives. rows says that the positions
+// the reader passes are 1-based rows of a binary table. Every column keeps
+// its index in cols.
+func NewBuilderFromMeta(spec Spec, cols []ColumnMeta, rows bool, opt ReadOptions) (*Builder, *Mapping, error) {
+	if _, err := spec.units(); err != nil {
+		return nil, nil, fileError(spec.File, 0, 0, "", err.Error(), err)
+	}
+	m, err := spec.Map(cols)
+	if err != nil {
+		return nil, nil, err
+	}
+	header := make([]string, len(cols))
+	for i, c := range cols {
+		header[i] = c.Name
+	}
+	for name, h := range spec.Columns {
+		if f, _ := FieldByName(name); m.Column[f] < 0 {
+			return nil, nil, fileError(spec.File, 0, 0, h,
+				fmt.Sprintf("%s: the file has no column %q (mapped to %s)", ErrMissingColumn, h, name), ErrMissingColumn)
+		}
+	}
+	for _, f := range []Field{ID, RA, Dec} {
+		if m.Column[f] < 0 {
+			return nil, nil, fileError(spec.File, 0, 0, "",
+				fmt.Sprintf("%s: no column for required field %s (by name, UCD or [catalog.columns])", ErrMissingColumn, Fields[f].Name), ErrMissingColumn)
+		}
+	}
+	var bcols []Column
+	used := make([]bool, len(cols))
+	mapped, by := make(map[string]string), make(map[string]string)
+	for f := Field(0); f < NumFields; f++ {
+		i := m.Column[f]
+		if i < 0 {
+			continue
+		}
+		used[i] = true
+		mapped[Fields[f].Name], by[Fields[f].Name] = cols[i].Name, m.MappedBy[f]
+		if f != ID {
+			bcols = append(bcols, Column{Index: i, Field: f, Factor: unitFactor(f, m.Unit[f])})
+		}
+	}
+	sort.Slice(bcols, func(a, b int) bool { return bcols[a].Index < bcols[b].Index })
+	if m.Unit[DistanceErr] == "mag" && m.Unit[Distance] != "mag" || m.Unit[Distance] == "mag" && m.Column[DistanceErr] >= 0 && m.Unit[DistanceErr] != "mag" {
+		return nil, nil, fileError(spec.File, 0, 0, "", fmt.Sprintf("%s: distance and distance_err must both be in mag or neither", ErrBadSpec), ErrBadSpec)
+	}
+	b := newBuilder(spec, header, bcols, m.Column[ID], m.Unit[Distance] == "mag", opt)
+	b.layout.Rows = rows
+	b.rep.Mapped, b.rep.MappedBy = mapped, by
+	for i, c := range cols {
+		if !used[i] {
+			b.rep.Unused = append(b.rep.Unused, c.Name)
+		}
+	}
+	return b, m, nil
+}
+
+// newBuilder starts the table and the report for a resolved layout.
+func newBuilder(spec Spec, header []string, cols []Column, idIdx int, distMag bool, opt ReadOptions) *Builder {
+	l := &Layout{Header: header, Columns: cols, IDIndex: idIdx, distMag: distMag}
 	markers := spec.NullMarkers
 	if markers == nil {
 		markers = DefaultNullMarkers()
@@ -245,8 +314,8 @@ func NewBuilder(spec Spec, header []string, headerLine int, opt ReadOptions) (*B
 			t.Cols[DistModErr] = make([]float64, 0, 1024)
 		}
 	}
-	rep := &Report{File: spec.File, Header: header, Mapped: mapped, Unused: unused}
-	return &Builder{layout: l, spec: spec, strict: opt.Strict, t: t, rep: rep}, nil
+	rep := &Report{File: spec.File, Header: header}
+	return &Builder{layout: l, spec: spec, strict: opt.Strict, t: t, rep: rep}
 }
 
 // Layout is how the builder reads the file's columns.
@@ -279,8 +348,13 @@ func (b *Builder) Add(bt *Batch, raw RawRows) error {
 		if q == nil {
 			id = bt.ids[bt.idOff[r]:bt.idOff[r+1]]
 			if first := seen.find(id, bt.idHash[r], t.IDs); first >= 0 {
-				q = &Quarantine{Line: raw.FieldLine(r, idIdx), Column: idIdx + 1, ColumnName: b.layout.Header[idIdx], Value: id,
-					Reason: fmt.Sprintf("%s: first seen on line %d", ErrDuplicateID, t.Lines[first]), Err: ErrDuplicateID}
+				where := "line"
+				if b.layout.Rows {
+					where = "row"
+				}
+				q = &Quarantine{Column: idIdx + 1, ColumnName: b.layout.Header[idIdx], Value: id,
+					Reason: fmt.Sprintf("%s: first seen on %s %d", ErrDuplicateID, where, t.Lines[first]), Err: ErrDuplicateID}
+				b.layout.place(q, raw.FieldLine(r, idIdx))
 			}
 		}
 		if q != nil {
@@ -429,4 +503,56 @@ func fillPositionErr(t *Table, errMas float64) int {
 		}
 	}
 	return filled
+}
+
+// place sets q's position: a line of a text file, or a row of a binary
+// table.
+func (l *Layout) place(q *Quarantine, at int) {
+	if l.Rows {
+		q.Row, q.Line = at, 0
+	} else {
+		q.Line = at
+	}
+}
+
+// MissingID is the quarantine of a row, at position at, whose id is null.
+func (l *Layout) MissingID(at int) *Quarantine {
+	q := &Quarantine{Column: l.IDIndex + 1, ColumnName: l.Header[l.IDIndex], Reason: ErrMissingValue.Error() + ": id is required", Err: ErrMissingValue}
+	l.place(q, at)
+	return q
+}
+
+// ConvertValues converts one row given as numbers in the file's units into
+// row, in canonical units, or returns why the row is set aside: vals[k] is
+// the value of Columns[k], NaN when the file marks it null. at is the row's
+// position (a row of a binary table when Rows).
+func (l *Layout) ConvertValues(vals []float64, row *[NumFields]float64, at int) *Quarantine {
+	for k, c := range l.Columns {
+		v := vals[k]
+		var reason string
+		var err error
+		switch {
+		case math.IsNaN(v):
+			if c.Field == RA || c.Field == Dec {
+				reason, err = fmt.Sprintf("%s: %s is required", ErrMissingValue, Fields[c.Field].Name), ErrMissingValue
+				break
+			}
+			row[c.Field] = math.NaN()
+			continue
+		case math.IsInf(v, 0):
+			reason, err = ErrNotNumber.Error()+": not finite", ErrNotNumber
+		default:
+			v *= c.Factor
+			if r := CheckRange(c.Field, v); r != "" {
+				reason, err = ErrOutOfRange.Error()+": "+r, ErrOutOfRange
+			}
+		}
+		if err != nil {
+			q := &Quarantine{Column: c.Index + 1, ColumnName: l.Header[c.Index], Value: strconv.FormatFloat(vals[k], 'g', -1, 64), Reason: reason, Err: err}
+			l.place(q, at)
+			return q
+		}
+		row[c.Field] = v
+	}
+	return nil
 }

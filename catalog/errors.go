@@ -42,7 +42,7 @@ func WrapFileError(file string, line int, msg string, sentinel, cause error) *po
 // "file:line:col: column "NAME" value "V": reason", or "file:line: reason"
 // for the row as a whole.
 func (q *Quarantine) Error(file string) *position.Error {
-	e := &position.Error{File: file, Line: q.Line, Col: q.Column, Name: q.ColumnName, Msg: q.Reason, Err: q.Err}
+	e := &position.Error{File: file, Line: q.Line, Row: int64(q.Row), Col: q.Column, Name: q.ColumnName, Msg: q.Reason, Err: q.Err}
 	if q.ColumnName != "" {
 		e.What = fmt.Sprintf("column %q value %q", q.ColumnName, q.Value)
 	}

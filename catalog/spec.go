@@ -8,11 +8,23 @@ import (
 
 // Spec says where a catalog is and how to read it.
 type Spec struct {
-	Name     string
-	File     string // path to the catalog file; its suffix names the format
-	Role     Role
-	EpochJyr float64 // Julian year of the positions
-	Release  string
+	Name string
+	File string // path to the catalog file; its suffix names the format unless Format does
+	// Format is the file's format (FormatCSV, ...); "" tells it by the file
+	// name's ending (FormatOf).
+	Format string
+	// HDU selects a FITS extension by number (1 = the first extension) or
+	// EXTNAME; "" is the first binary table.
+	HDU string
+	// Table selects a VOTable TABLE by its name or ID, or by number (1 =
+	// the first); "" is the first table.
+	Table string
+	// Delimiter separates the fields of delimited text: "" or "," (comma),
+	// ";", "\t" (tab) or " " (runs of whitespace).
+	Delimiter string
+	Role      Role
+	EpochJyr  float64 // Julian year of the positions
+	Release   string
 	// Columns maps a canonical field name to a file header. A header equal
 	// to a canonical name maps onto that field unless the field is mapped
 	// explicitly.
@@ -41,7 +53,8 @@ type ReadOptions struct {
 
 // Quarantine is a row set aside, with the reason.
 type Quarantine struct {
-	Line       int
+	Line       int // 1-based line of a text file; 0 for a binary table
+	Row        int // 1-based row of a binary table; 0 for a text file
 	Column     int // 1-based field index; 0 for the row as a whole
 	ColumnName string
 	Value      string
@@ -61,6 +74,10 @@ type Report struct {
 	Quarantined []Quarantine
 	// Mapped gives, per canonical field name, the header it was read from.
 	Mapped map[string]string
+	// MappedBy gives, per canonical field name, why its column was chosen
+	// (ByCampaign, ByUCD, ByName) for a file that describes its columns;
+	// nil for delimited text.
+	MappedBy map[string]string
 	// Unused lists headers that fed no field, so nothing is dropped unseen.
 	Unused []string
 	// PositionErrFilled counts ra_err/dec_err cells filled from

@@ -36,7 +36,7 @@ func unitChoices(f Field) []string {
 	case RA:
 		return []string{"deg", "hour"}
 	case RAErr, DecErr, Parallax, ParallaxErr, ExcessNoise:
-		return []string{"mas", "arcsec", "deg"}
+		return []string{"mas", "arcsec", "deg", "uarcsec"}
 	case PMRA, PMRAErr, PMDec, PMDecErr:
 		return []string{"mas/yr", "arcsec/yr"}
 	case RV, RVErr:
@@ -74,6 +74,8 @@ func unitFactor(f Field, unit string) float64 {
 		return units.DegPerHour
 	case "arcsec":
 		return units.MasPerArcsec
+	case "uarcsec":
+		return 1 / units.MuasPerMas
 	case "deg":
 		if f != RA && f != Dec {
 			return units.MasPerDeg

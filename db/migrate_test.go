@@ -295,3 +295,49 @@ func TestMigrateFromSchema6Names(t *testing.T) {
 		t.Errorf("integrity_check: %q, %v", ok, err)
 	}
 }
+
+// A schema-8 ledger with a quarantined line upgrades to schema 9 with the
+// line intact and no table row; a binary table's rejected row is then
+// recorded by its row number.
+func TestMigrateQuarantineRows(t *testing.T) {
+	ctx := context.Background()
+	p := tempLedger(t)
+	sdb, err := sql.Open("sqlite3", p)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, m := range loadMigrations()[:8] {
+		if _, err := sdb.Exec(m.sql); err != nil {
+			t.Fatalf("%s: %v", m.name, err)
+		}
+	}
+	for _, q := range []string{
+		`INSERT INTO runs (id, started_at, state, tool_version, seed, "full") VALUES (1, '2026-01-01T00:00:00Z', 'failed', 'old', 7, 1)`,
+		`INSERT INTO quarantine (run_id, catalog, line, "column", column_name, value, reason) VALUES (1, 'lark', 12, 3, 'dec', '95', 'out of range')`,
+		"PRAGMA user_version = 8",
+	} {
+		if _, err := sdb.Exec(q); err != nil {
+			t.Fatalf("%s: %v", q, err)
+		}
+	}
+	sdb.Close()
+	l := openT(t, p, Options{})
+	var line int
+	var row sql.NullInt64
+	if err := l.db.QueryRow("SELECT line, table_row FROM quarantine WHERE run_id = 1").Scan(&line, &row); err != nil || line != 12 || row.Valid {
+		t.Errorf("old quarantine row after the upgrade: line %d, table_row %v, %v", line, row, err)
+	}
+	w, err := l.BeginRun(ctx, RunInfo{Settings: testSettings, ToolVersion: "test"})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if err := w.AddQuarantine(ctx, []QuarantineRow{{Catalog: "wren", Row: 17, Column: 2, ColumnName: "plx", Value: "-Inf", Reason: "not a number"}}); err != nil {
+		t.Fatal(err)
+	}
+	if err := l.db.QueryRow("SELECT line, table_row FROM quarantine WHERE run_id = ?", w.ID()).Scan(&line, &row); err != nil || line != 0 || row.Int64 != 17 {
+		t.Errorf("binary row: line %d, table_row %v, %v", line, row, err)
+	}
+	if err := w.Finish(ctx, RunSummary{}); err != nil {
+		t.Fatal(err)
+	}
+}

@@ -108,7 +108,8 @@ type CatalogRow struct {
 // Column 0 means the whole line.
 type QuarantineRow struct {
 	Catalog    string
-	Line       int
+	Line       int // 1-based line of a text file; 0 for a binary table
+	Row        int // 1-based row of a binary table; 0 for a text file
 	Column     int
 	ColumnName string
 	Value      string

@@ -108,15 +108,19 @@ func (w *RunWriter) AddQuarantine(ctx context.Context, rows []QuarantineRow) err
 	}
 	err := w.l.inTx(ctx, func(tx *sql.Tx) error {
 		st, err := tx.PrepareContext(ctx,
-			`INSERT INTO quarantine (run_id, catalog, line, "column", column_name, value, reason)
-			 VALUES (?, ?, ?, ?, ?, ?, ?)`)
+			`INSERT INTO quarantine (run_id, catalog, line, table_row, "column", column_name, value, reason)
+			 VALUES (?, ?, ?, ?, ?, ?, ?, ?)`)
 		if err != nil {
 			return err
 		}
 		defer st.Close()
 		bg := context.Background() // per-row: no cancellation goroutine in the driver
 		for _, q := range rows {
-			if _, err := st.ExecContext(bg, w.id, q.Catalog, q.Line, q.Column, ns(q.ColumnName), q.Value, q.Reason); err != nil {
+			var row any // NULL for a text file's line
+			if q.Row > 0 {
+				row = q.Row
+			}
+			if _, err := st.ExecContext(bg, w.id, q.Catalog, q.Line, row, q.Column, ns(q.ColumnName), q.Value, q.Reason); err != nil {
 				return fmt.Errorf("%s line %d: %w", q.Catalog, q.Line, err)
 			}
 		}

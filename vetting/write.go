@@ -40,7 +40,7 @@ func recordCatalogs(ctx context.Context, w *db.RunWriter, cats *Catalogs, sum *S
 		sum.Catalogs = append(sum.Catalogs, row)
 		q := make([]db.QuarantineRow, len(rep.Quarantined))
 		for i, x := range rep.Quarantined {
-			q[i] = db.QuarantineRow{Catalog: spec.Name, Line: x.Line, Column: x.Column, ColumnName: x.ColumnName, Value: x.Value, Reason: x.Reason}
+			q[i] = db.QuarantineRow{Catalog: spec.Name, Line: x.Line, Row: x.Row, Column: x.Column, ColumnName: x.ColumnName, Value: x.Value, Reason: x.Reason}
 		}
 		if err := w.AddQuarantine(ctx, q); err != nil {
 			return err

@@ -541,3 +541,22 @@ func (h *hashingReader) close() {
 		close(h.done)
 	}
 }
+
+// Columns describes the file's columns as delimited text can: by the
+// header's names, with no datatype, unit or UCD.
+func Columns(spec catalog.Spec) ([]catalog.ColumnMeta, error) {
+	in, err := open(spec.File)
+	if err != nil {
+		return nil, err
+	}
+	defer in.close()
+	header, err := readHeader(spec.File, newLineSplitter(in.text))
+	if err != nil {
+		return nil, err
+	}
+	cols := make([]catalog.ColumnMeta, len(header))
+	for i, h := range header {
+		cols[i] = catalog.ColumnMeta{Name: h}
+	}
+	return cols, nil
+}

@@ -10,7 +10,8 @@ const (
 	ArcsecPerDeg = 3600.0 // 1 deg = 60 arcmin = 3600 arcsec
 	MasPerArcsec = 1000.0 // 1 arcsec = 1000 mas
 	MasPerDeg    = 3600e3 // ArcsecPerDeg * MasPerArcsec
-	MuasPerDeg   = 3600e6 // 1 mas = 1000 microarcsec
+	MuasPerMas   = 1000.0 // 1 mas = 1000 microarcsec
+	MuasPerDeg   = 3600e6 // MasPerDeg * MuasPerMas
 	RadPerArcsec = RadPerDeg / ArcsecPerDeg
 	RadPerMas    = RadPerDeg / MasPerDeg
 	MuasPerRad   = DegPerRad * MuasPerDeg
