@@ -38,7 +38,8 @@ func (s Spec) Describe(cols []ColumnMeta) ([]ColumnRow, []Field, error) {
 	for i, c := range cols {
 		rows[i] = ColumnRow{Position: i + 1, ColumnMeta: c}
 	}
-	if _, err := s.units(); err != nil {
+	units, err := s.units()
+	if err != nil {
 		return rows, nil, fileError(s.File, 0, 0, "", err.Error(), err)
 	}
 	m, err := s.Map(cols)
@@ -63,6 +64,10 @@ func (s Spec) Describe(cols []ColumnMeta) ([]ColumnRow, []Field, error) {
 		}
 		if r.UnitFrom == "" {
 			r.UnitFrom = UnitCanonical
+		}
+		if units[f] != "" && r.UnitFrom != "campaign" {
+			// distance in mag puts distance_err in mag too (Spec.units)
+			r.ReadUnit, r.UnitFrom = units[f], "campaign"
 		}
 		if f == ID || Fields[f].Unit == "" {
 			r.ReadUnit, r.UnitFrom = "", ""

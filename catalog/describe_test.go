@@ -84,6 +84,18 @@ func TestDescribe(t *testing.T) {
 				{},
 			},
 		},
+		{
+			name: "a distance modulus puts its error in mag too",
+			spec: Spec{File: "mod.csv", Units: map[string]string{"distance": "mag"}},
+			cols: []ColumnMeta{{Name: "id"}, {Name: "ra"}, {Name: "dec"}, {Name: "distance"}, {Name: "distance_err"}},
+			rows: []want{
+				{"id", ByName, "", ""},
+				{"ra", ByName, "deg", UnitCanonical},
+				{"dec", ByName, "deg", UnitCanonical},
+				{"distance", ByName, "mag", "campaign"},
+				{"distance_err", ByName, "mag", "campaign"},
+			},
+		},
 	} {
 		t.Run(c.name, func(t *testing.T) {
 			rows, missing, err := c.spec.Describe(c.cols)

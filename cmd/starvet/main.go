@@ -45,6 +45,7 @@ type command struct {
 func commands() []command {
 	return []command{
 		{"demo", "write an invented campaign, run it twice and print the recovery figures", runDemo},
+		{"columns", "show how a catalog file's columns map onto starvet's fields", runColumns},
 		{"match", "cross-match a campaign's catalogs and write one row per primary source", runMatch},
 		{"run", "vet a campaign into the SQLite ledger (the main job)", runRun},
 		{"rules", "show or check a rule set", runRules},
