@@ -205,12 +205,16 @@ func (s Spec) twice(f Field, a, b ColumnMeta, how string) error {
 // fillUnits fills the mapping's units: the campaign's where it names one,
 // else the file's.
 func (s Spec) fillUnits(m *Mapping, cols []ColumnMeta) error {
+	campaign, err := s.units() // validated, with distance_err in mag when distance is
+	if err != nil {
+		return fileError(s.File, 0, 0, "", err.Error(), err)
+	}
 	for f := Field(0); f < NumFields; f++ {
 		i := m.Column[f]
 		if i < 0 {
 			continue
 		}
-		if u, ok := s.Units[Fields[f].Name]; ok {
+		if u := campaign[f]; u != "" {
 			m.Unit[f], m.UnitFrom[f] = u, "campaign"
 			continue
 		}

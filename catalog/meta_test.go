@@ -193,3 +193,16 @@ type rawRows [][]string
 
 func (r rawRows) Record(i int) []string  { return r[i] }
 func (r rawRows) FieldLine(i, _ int) int { return i + 1 }
+
+// A campaign giving distance in mag reads distance_err in mag too, as the
+// delimited-text reader does (Spec.units).
+func TestMapDistanceModulusUnits(t *testing.T) {
+	cols := []ColumnMeta{{Name: "id"}, {Name: "ra"}, {Name: "dec"}, {Name: "dm", Unit: "mag"}, {Name: "distance_err", Unit: "mag"}}
+	m, err := Spec{File: "x.fits", Columns: map[string]string{"distance": "dm"}, Units: map[string]string{"distance": "mag"}}.Map(cols)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if m.Unit[Distance] != "mag" || m.Unit[DistanceErr] != "mag" || m.UnitFrom[DistanceErr] != "campaign" {
+		t.Errorf("distance %q, distance_err %q from %q", m.Unit[Distance], m.Unit[DistanceErr], m.UnitFrom[DistanceErr])
+	}
+}
