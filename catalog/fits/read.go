@@ -2,9 +2,11 @@ package fitscat
 
 import (
 	"context"
+	"encoding/binary"
 	"errors"
 	"fmt"
 	"io"
+	"math"
 	"strconv"
 	"strings"
 	"sync"
@@ -445,7 +447,17 @@ func (p *plan) decode(ch *chunk) {
 			continue
 		}
 		for k, c := range p.num {
-			vals[k] = c.number(rec[c.offset:])
+			b := rec[c.offset:]
+			switch {
+			case c.scaled:
+				vals[k] = c.number(b)
+			case c.code == 'D':
+				vals[k] = math.Float64frombits(binary.BigEndian.Uint64(b))
+			case c.code == 'E':
+				vals[k] = float64(math.Float32frombits(binary.BigEndian.Uint32(b)))
+			default:
+				vals[k] = c.number(b)
+			}
 		}
 		if q := l.ConvertValues(vals, row, at); q != nil {
 			out.Reject(at, q)
