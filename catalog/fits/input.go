@@ -37,7 +37,7 @@ func open(name string) (*input, error) {
 		f.Close()
 		return nil, catalog.WrapFileError(name, 0, "", catalog.ErrNoFile, err)
 	}
-	in := &input{f: f, raw: newSumReader(f), size: st.Size(), name: name}
+	in := &input{f: f, raw: newSumReader(f, int(min(max(st.Size(), 4096), pieceBytes))), size: st.Size(), name: name}
 	br := bufio.NewReaderSize(in.raw, bufBytes)
 	magic, _ := br.Peek(2)
 	if strings.HasSuffix(strings.ToLower(name), ".gz") || len(magic) == 2 && magic[0] == 0x1f && magic[1] == 0x8b {
@@ -89,10 +89,10 @@ type piece struct {
 
 const pieceBytes = 1 << 20
 
-func newSumReader(r io.Reader) *sumReader {
+func newSumReader(r io.Reader, size int) *sumReader {
 	s := &sumReader{pieces: make(chan piece, 2), spare: make(chan []byte, 3), quit: make(chan struct{})}
 	for range cap(s.spare) {
-		s.spare <- make([]byte, pieceBytes)
+		s.spare <- make([]byte, size)
 	}
 	go func() {
 		defer close(s.pieces)
