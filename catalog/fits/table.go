@@ -21,6 +21,8 @@ type column struct {
 	scale, zero     float64
 	scaled          bool // TSCALn or TZEROn other than 1 and 0
 	zeroText        string
+	zeroInt         int64 // TZEROn when an integer of at most 62 bits, so adding a B, I or J value cannot overflow
+	zeroIntOK       bool
 	// unsigned: TZEROn is the offset that stores unsigned integers in a
 	// signed type (section 7.3.2, table 19): 32768 for I, 2147483648 for J,
 	// 9223372036854775808 for K, with TSCALn 1; -128 for signed bytes in B.
@@ -166,6 +168,9 @@ func (c *column) scaling(h *header, n string) error {
 	if hasZero {
 		zc, _ := h.card("TZERO" + n)
 		c.zeroText = strings.TrimPrefix(zc.value, "+")
+		if z, err := strconv.ParseInt(c.zeroText, 10, 64); err == nil && z > -1<<62 && z < 1<<62 {
+			c.zeroInt, c.zeroIntOK = z, true
+		}
 	}
 	c.scaled = c.scale != 1 || c.zero != 0
 	if c.scale == 1 && hasZero {
@@ -252,6 +257,8 @@ func (c *column) appendIntText(dst, b []byte) ([]byte, bool) {
 		return strconv.AppendUint(dst, uint64(r)^1<<63, 10), true
 	case c.zero == 0:
 		return strconv.AppendInt(dst, r, 10), true
+	case c.zeroIntOK && c.code != 'K':
+		return strconv.AppendInt(dst, r+c.zeroInt, 10), true
 	}
 	z, ok := new(big.Int).SetString(c.zeroText, 10)
 	if !ok {
