@@ -59,6 +59,10 @@ var errSyntax = errors.New("not well-formed XML")
 
 func (s *scanner) token() (xml.Token, error) {
 	t, err := s.dec.Token()
+	var se *xml.SyntaxError
+	if errors.As(err, &se) && se.Msg == "unexpected EOF" {
+		return nil, fmt.Errorf("%w: the document ends before its elements close (line %d); the file is cut short", errSyntax, se.Line)
+	}
 	if err != nil && err != io.EOF {
 		return nil, fmt.Errorf("%w (near byte %d): %v", errSyntax, s.dec.InputOffset(), err)
 	}
