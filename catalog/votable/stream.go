@@ -53,6 +53,21 @@ func (s *b64Stream) fill(dst []byte) (int, error) {
 				chunk = nil
 			}
 			line = bytes.TrimSpace(line)
+			if s.nc > 0 {
+				// Complete the group a previous read split, then go on fast.
+				k := 0
+				for have := s.nc; k < len(line) && have < 4; k++ {
+					if c := line[k]; c != ' ' && c != '\t' && c != '\r' {
+						have++
+					}
+				}
+				m, err := s.slow(dst[n:], line[:k])
+				n += m
+				if err != nil {
+					return n, err
+				}
+				line = line[k:]
+			}
 			if s.nc == 0 && !s.pad {
 				k := len(line) / 4 * 4
 				if m, err := base64.StdEncoding.Decode(dst[n:], line[:k]); err == nil {
