@@ -120,6 +120,9 @@ func ReadTable(ctx context.Context, spec catalog.Spec, opt catalog.ReadOptions) 
 	if err != nil {
 		return nil, bld.Report(), info, err
 	}
+	if in.zr == nil {
+		rd.size = in.size
+	}
 	info.Epoch = sc.epoch(m.Column[catalog.RA])
 	info.EpochJyr, _ = julianYear(info.Epoch)
 	if err := rd.run(ctx, bld); err != nil {
@@ -200,6 +203,7 @@ type input struct {
 	zr   *gzip.Reader
 	text io.Reader
 	name string
+	size int64 // bytes in the file
 }
 
 func open(name string) (*input, error) {
@@ -207,7 +211,12 @@ func open(name string) (*input, error) {
 	if err != nil {
 		return nil, catalog.WrapFileError(name, 0, "", catalog.ErrNoFile, err)
 	}
-	in := &input{f: f, hr: newHashingReader(f), name: name}
+	st, err := f.Stat()
+	if err != nil {
+		f.Close()
+		return nil, catalog.WrapFileError(name, 0, "", catalog.ErrNoFile, err)
+	}
+	in := &input{f: f, hr: newHashingReader(f), name: name, size: st.Size()}
 	in.text = in.hr
 	if strings.HasSuffix(strings.ToLower(name), ".gz") {
 		if in.zr, err = gzip.NewReader(in.hr); err != nil {
