@@ -62,7 +62,7 @@ func newRowDecoder(sc *scanner, l *catalog.Layout, file string, ser data) (*rowD
 		}
 	}
 	if ser == binary1 || ser == binary2 {
-		d.rs = newRowStream(&b64Stream{br: sc.br})
+		d.rs = newRowStream(newChunkSource(&b64Stream{br: sc.br}))
 		d.mask = make([]byte, (len(sc.fields)+7)/8)
 	}
 	return d, nil
@@ -190,6 +190,9 @@ func (d *rowDecoder) run(ctx context.Context, bld *catalog.Builder) error {
 		close(done)
 		for range out {
 		}
+		if d.rs != nil {
+			d.rs.src.stop()
+		}
 	}()
 	presized := d.size <= 0 || d.rs == nil
 	for b := range out {
@@ -270,7 +273,7 @@ func (d *rowDecoder) binaryRow(b *batch) (bool, error) {
 	}
 	id, idNull := d.id[:0], false
 	for i, f := range d.sc.fields {
-		p, _, err := value(s, f)
+		p, _, err := s.value(f)
 		if err != nil {
 			return false, d.streamError(at, f, err)
 		}

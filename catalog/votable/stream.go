@@ -4,6 +4,7 @@ import (
 	"bufio"
 	"bytes"
 	"encoding/base64"
+	"encoding/binary"
 	"errors"
 	"fmt"
 	"io"
@@ -124,11 +125,91 @@ func (s *b64Stream) slow(dst, text []byte) (int, error) {
 	return n, nil
 }
 
+// decodedChunk is base64-decoded bytes handed from the decoding
+// goroutine to the row decoder.
+type decodedChunk struct {
+	b   []byte
+	err error
+}
+
+// chunkSource decodes a STREAM's base64 on a goroutine of its own, a
+// bounded number of chunks ahead of the row decoder.
+type chunkSource struct {
+	full chan decodedChunk
+	free chan []byte
+	done chan struct{}
+	cur  []byte
+	held []byte
+	err  error
+}
+
+func newChunkSource(src *b64Stream) *chunkSource {
+	c := &chunkSource{full: make(chan decodedChunk, 3), free: make(chan []byte, 4), done: make(chan struct{})}
+	for range cap(c.free) {
+		c.free <- make([]byte, 256<<10)
+	}
+	go func() {
+		defer close(c.full)
+		for {
+			var b []byte
+			select {
+			case b = <-c.free:
+			case <-c.done:
+				return
+			}
+			n, err := src.fill(b)
+			select {
+			case c.full <- decodedChunk{b[:n], err}:
+			case <-c.done:
+				return
+			}
+			if err != nil {
+				return
+			}
+		}
+	}()
+	return c
+}
+
+// fill is b64Stream.fill, from the chunks.
+func (c *chunkSource) fill(dst []byte) (int, error) {
+	for len(c.cur) == 0 {
+		if c.err != nil {
+			return 0, c.err
+		}
+		if c.held != nil {
+			c.free <- c.held[:cap(c.held)]
+			c.held = nil
+		}
+		ch, ok := <-c.full
+		if !ok {
+			c.err = io.EOF
+			continue
+		}
+		c.held, c.cur, c.err = ch.b, ch.b, ch.err
+	}
+	n := copy(dst, c.cur)
+	c.cur = c.cur[n:]
+	return n, nil
+}
+
+// stop ends the goroutine; the caller must not use the document's reader
+// unless the stream was read to its end.
+func (c *chunkSource) stop() {
+	select {
+	case <-c.done:
+	default:
+		close(c.done)
+	}
+	for range c.full {
+	}
+}
+
 // rowStream is the decoded bytes of a binary stream in a bounded buffer,
 // handed out a value at a time. The bytes from mark on stay in the buffer
 // (a row's raw bytes, kept for the rejected-rows file).
 type rowStream struct {
-	src      *b64Stream
+	src      *chunkSource
 	buf      []byte
 	r, w     int
 	mark     int
@@ -136,7 +217,7 @@ type rowStream struct {
 	consumed int64 // decoded bytes before buf[0]
 }
 
-func newRowStream(src *b64Stream) *rowStream {
+func newRowStream(src *chunkSource) *rowStream {
 	return &rowStream{src: src, buf: make([]byte, 1<<20)}
 }
 
@@ -186,6 +267,24 @@ func (s *rowStream) more(n int) error {
 		}
 	}
 	return nil
+}
+
+// value is the package's value for the stream itself, without the
+// interface call, for the hot loop.
+func (s *rowStream) value(f *field) ([]byte, int, error) {
+	n := f.count
+	if f.variable {
+		p, err := s.next(4)
+		if err != nil {
+			return nil, 0, err
+		}
+		n = int(binary.BigEndian.Uint32(p))
+		if f.bytesFor(n) > maxValueBytes || n < 0 {
+			return nil, 0, fmt.Errorf("a variable-length value claims %d elements", n)
+		}
+	}
+	p, err := s.next(f.bytesFor(n))
+	return p, n, err
 }
 
 // atEnd says whether the stream has no bytes left.
