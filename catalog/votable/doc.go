@@ -33,6 +33,9 @@
 // are errors, never a shorter table. A QUERY_STATUS of OVERFLOW returns
 // the table read together with an error wrapping ErrOverflow.
 //
+// Section numbers of the standard cited in comments are from memory of
+// VOTable 1.3 and have not been checked against its text.
+//
 // The reader streams: encoding/xml's token reader walks the document,
 // and a binary STREAM's base64 text is decoded from the same buffered
 // reader into a bounded buffer, rows at a time, on a goroutine of its own

@@ -88,6 +88,9 @@ func newField(attrs map[string]string) (*field, error) {
 				return f, fmt.Errorf("FIELD %q: arraysize %q is not a size", f.name, f.arraysz)
 			}
 			f.count *= n
+			if f.bytesFor(f.count) > maxValueBytes {
+				return f, fmt.Errorf("FIELD %q: arraysize %q is larger than starvet reads", f.name, f.arraysz)
+			}
 		}
 	}
 	return f, nil

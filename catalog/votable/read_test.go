@@ -181,3 +181,21 @@ func TestBadFiles(t *testing.T) {
 		}
 	}
 }
+
+// An empty STREAM element ("<STREAM .../>", allowed by XML) holds no
+// rows; the reader must not take the text after it for base64. The
+// document is hand-written (common practice: XML empty-element syntax).
+func TestEmptyStream(t *testing.T) {
+	doc := `<VOTABLE><RESOURCE><TABLE name="t"><FIELD name="id" datatype="char" arraysize="*"/>` +
+		`<FIELD name="ra" datatype="double"/><FIELD name="dec" datatype="double"/>` +
+		`<DATA><BINARY2><STREAM encoding="base64"/></BINARY2></DATA></TABLE>` +
+		`<INFO name="QUERY_STATUS" value="OK">fine</INFO></RESOURCE></VOTABLE>`
+	p := t.TempDir() + "/empty.vot"
+	if err := os.WriteFile(p, []byte(doc), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	tab, rep, info, err := ReadTable(context.Background(), catalog.Spec{File: p}, catalog.ReadOptions{})
+	if err != nil || tab.Len() != 0 || rep.RowsRead != 0 || info.QueryStatus != "OK" || info.QueryMessage != "fine" {
+		t.Fatalf("rows %v, info %+v, err %v", rep, info, err)
+	}
+}

@@ -23,7 +23,7 @@ const (
 
 // maxValueBytes bounds one variable-length value, so a corrupt length
 // prefix is an error rather than an attempt to buffer gigabytes.
-const maxValueBytes = 1 << 26
+const maxValueBytes = 1 << 24
 
 // batchRows is how many rows the decoding goroutine hands over at a time;
 // the context is checked between batches.

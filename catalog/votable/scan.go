@@ -16,6 +16,7 @@ import (
 // the same bufio.Reader (see b64Stream), then lets the decoder go on.
 type scanner struct {
 	br  *bufio.Reader
+	tr  *lastBytes
 	dec *xml.Decoder
 
 	want    string // Spec.Table
@@ -34,7 +35,8 @@ type scanner struct {
 
 func newScanner(r io.Reader, want string) *scanner {
 	br := bufio.NewReaderSize(r, 1<<20)
-	dec := xml.NewDecoder(br)
+	tr := &lastBytes{br: br}
+	dec := xml.NewDecoder(tr)
 	dec.CharsetReader = func(label string, in io.Reader) (io.Reader, error) {
 		switch strings.ToLower(label) {
 		case "us-ascii", "ascii":
@@ -42,8 +44,39 @@ func newScanner(r io.Reader, want string) *scanner {
 		}
 		return nil, fmt.Errorf("character encoding %q is not read (UTF-8 or US-ASCII)", label)
 	}
-	return &scanner{br: br, dec: dec, want: want, coosys: map[string]string{}, nrows: -1}
+	return &scanner{br: br, tr: tr, dec: dec, want: want, coosys: map[string]string{}, nrows: -1}
 }
+
+// lastBytes is the document's reader as encoding/xml sees it, remembering
+// the last two bytes it handed over: "/>" ends an empty element, which
+// Token reports as a start and an end alike.
+type lastBytes struct {
+	br         *bufio.Reader
+	prev, last byte
+}
+
+func (l *lastBytes) ReadByte() (byte, error) {
+	b, err := l.br.ReadByte()
+	if err == nil {
+		l.prev, l.last = l.last, b
+	}
+	return b, err
+}
+
+func (l *lastBytes) Read(p []byte) (int, error) {
+	n, err := l.br.Read(p)
+	if n > 0 {
+		l.last = p[n-1]
+		if n > 1 {
+			l.prev = p[n-2]
+		}
+	}
+	return n, err
+}
+
+// emptyElement says whether the start element just read was written
+// "<X .../>".
+func (s *scanner) emptyElement() bool { return s.tr.prev == '/' && s.tr.last == '>' }
 
 func attrMap(se xml.StartElement) map[string]string {
 	m := make(map[string]string, len(se.Attr))
@@ -182,6 +215,9 @@ func (s *scanner) head() (data, error) {
 					if enc := a["encoding"]; enc != "base64" {
 						return noData, fmt.Errorf("the %s STREAM has encoding %q; starvet reads base64", ser, enc)
 					}
+					if s.emptyElement() {
+						return noData, nil // an empty stream: no rows
+					}
 					if ser == "BINARY2" {
 						return binary2, nil
 					}
@@ -225,7 +261,7 @@ func (s *scanner) noTable() error {
 // skipStream reads through the base64 text of a STREAM the reader does
 // not want, in bounded memory.
 func (s *scanner) skipStream(a map[string]string) error {
-	if a["encoding"] != "base64" {
+	if a["encoding"] != "base64" || s.emptyElement() {
 		return nil // let encoding/xml read whatever it is
 	}
 	b := &b64Stream{br: s.br}
