@@ -41,7 +41,7 @@ type rowDecoder struct {
 	rs    *rowStream
 	mask  []byte
 	id    []byte
-	rows  int // rows decoded so far
+	rows  int   // rows decoded so far
 	size  int64 // bytes in the file; 0 when unknown or compressed
 }
 
