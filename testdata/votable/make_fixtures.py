@@ -83,8 +83,9 @@ def main():
     write(lark_votable(), "lark_tabledata.vot", "tabledata")
     write(lark_votable(), "lark_binary.vot", "binary")
     write(lark_votable(), "lark_binary2.vot", "binary2")
-    with open("lark_binary2.vot", "rb") as f, gzip.open("lark_binary2.vot.gz", "wb") as g:
-        g.write(f.read())
+    with open("lark_binary2.vot", "rb") as f, open("lark_binary2.vot.gz", "wb") as raw:
+        with gzip.GzipFile(filename="", mode="wb", fileobj=raw, mtime=0) as g:
+            g.write(f.read())
     write(lark_votable(with_overflow=True), "overflow.vot", "binary2")
 
     # The same rows as delimited text with canonical headers; float32
