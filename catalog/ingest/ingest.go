@@ -13,10 +13,12 @@ package ingest
 import (
 	"context"
 	"fmt"
+	"strings"
 
 	"starvet/catalog"
 	csvcat "starvet/catalog/csv"
 	fitscat "starvet/catalog/fits"
+	"starvet/catalog/votable"
 )
 
 // Reader reads one file format.
@@ -29,20 +31,31 @@ type Reader interface {
 	Read(ctx context.Context, spec catalog.Spec, opt catalog.ReadOptions) (*catalog.Table, *catalog.Report, error)
 }
 
+// readers maps each format to its reader; a format missing here is named
+// by catalog.FormatOf but not read by this build.
+var readers = map[string]Reader{
+	catalog.FormatCSV:     csvReader{},
+	catalog.FormatFITS:    fitscat.Reader{},
+	catalog.FormatVOTable: votable.Reader{},
+}
+
 // For returns the reader of spec's file.
 func For(spec catalog.Spec) (Reader, error) {
 	format, err := catalog.FormatOf(spec.File, spec.Format)
 	if err != nil {
 		return nil, catalog.WrapFileError(spec.File, 0, "", catalog.ErrFormat, err)
 	}
-	switch format {
-	case catalog.FormatCSV:
-		return csvReader{}, nil
-	case catalog.FormatFITS:
-		return fitscat.Reader{}, nil
+	if r, ok := readers[format]; ok {
+		return r, nil
+	}
+	var reads []string
+	for _, f := range catalog.FormatNames() {
+		if _, ok := readers[f]; ok {
+			reads = append(reads, f)
+		}
 	}
 	return nil, catalog.WrapFileError(spec.File, 0, "", catalog.ErrFormat,
-		fmt.Errorf("format %s is not read by this build of starvet (it reads %s)", format, catalog.FormatCSV))
+		fmt.Errorf("format %s is not read by this build of starvet (it reads %s)", format, strings.Join(reads, ", ")))
 }
 
 // Read ingests the catalog file spec.File into canonical units with the

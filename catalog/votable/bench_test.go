@@ -1,0 +1,122 @@
+package votable
+
+import (
+	"bufio"
+	"context"
+	"encoding/base64"
+	"encoding/binary"
+	"fmt"
+	"math"
+	"math/rand/v2"
+	"os"
+	"path/filepath"
+	"syscall"
+	"testing"
+
+	"starvet/catalog"
+)
+
+// benchColumns are the columns of catalog/csv's BenchmarkReadCSV: an id
+// and 15 doubles, here with units so that they map by name in canonical
+// units.
+var benchColumns = []struct{ name, unit string }{
+	{"ra", "deg"}, {"dec", "deg"}, {"ra_err", "mas"}, {"dec_err", "mas"},
+	{"parallax", "mas"}, {"parallax_err", "mas"}, {"pm_ra", "mas/yr"}, {"pm_ra_err", "mas/yr"},
+	{"pm_dec", "mas/yr"}, {"pm_dec_err", "mas/yr"}, {"corr_ra_dec", ""}, {"fit_residual", ""},
+	{"excess_noise", "mas"}, {"mag", "mag"}, {"color", "mag"},
+}
+
+// writeBenchBinary2 writes rows rows as a BINARY2 VOTable with a minimal
+// writer of our own (VOTable 1.3, section 5.5: per row a null bitmask,
+// then each field; the id a variable-length char array led by its
+// length), with a fixed seed and the value ranges of the CSV benchmark.
+func writeBenchBinary2(tb testing.TB, path string, rows int) {
+	tb.Helper()
+	f, err := os.Create(path)
+	if err != nil {
+		tb.Fatal(err)
+	}
+	w := bufio.NewWriterSize(f, 1<<20)
+	fmt.Fprintln(w, `<?xml version="1.0" encoding="utf-8"?>`)
+	fmt.Fprintln(w, `<VOTABLE version="1.4" xmlns="http://www.ivoa.net/xml/VOTable/v1.3"><RESOURCE><TABLE name="bench">`)
+	fmt.Fprintln(w, `<FIELD name="id" datatype="char" arraysize="*"/>`)
+	for _, c := range benchColumns {
+		fmt.Fprintf(w, "<FIELD name=%q datatype=\"double\" unit=%q/>\n", c.name, c.unit)
+	}
+	fmt.Fprint(w, `<DATA><BINARY2><STREAM encoding="base64">`)
+	enc := base64.NewEncoder(base64.StdEncoding, w)
+	rng := rand.New(rand.NewPCG(1, 2))
+	row := make([]byte, 0, 256)
+	put := func(x float64) { row = binary.BigEndian.AppendUint64(row, math.Float64bits(x)) }
+	for i := range rows {
+		row = append(row[:0], 0, 0) // 16 fields: two bytes of null flags, none set
+		id := fmt.Appendf(nil, "bench-%08d", i)
+		row = binary.BigEndian.AppendUint32(row, uint32(len(id)))
+		row = append(row, id...)
+		put(rng.Float64() * 360)
+		put(rng.Float64()*180 - 90)
+		put(rng.Float64())
+		put(rng.Float64())
+		put(rng.NormFloat64())
+		put(rng.Float64() * 0.3)
+		put(rng.NormFloat64() * 10)
+		put(rng.Float64())
+		put(rng.NormFloat64() * 10)
+		put(rng.Float64())
+		put(rng.Float64()*2 - 1)
+		put(1 + rng.Float64()*0.4)
+		put(rng.Float64())
+		put(12 + 8*rng.Float64())
+		put(rng.Float64() * 3)
+		enc.Write(row)
+	}
+	if err := enc.Close(); err != nil {
+		tb.Fatal(err)
+	}
+	fmt.Fprintln(w, "</STREAM></BINARY2></DATA></TABLE></RESOURCE></VOTABLE>")
+	if err := w.Flush(); err != nil {
+		tb.Fatal(err)
+	}
+	if err := f.Close(); err != nil {
+		tb.Fatal(err)
+	}
+}
+
+// BenchmarkReadVOTableBinary2 reads 1,000,000 rows x 15 doubles plus a
+// string id from a BINARY2 stream. The target is at most 1.5 s per op on
+// 2 cores.
+func BenchmarkReadVOTableBinary2(b *testing.B) {
+	const rows = 1_000_000
+	p := filepath.Join(b.TempDir(), "bench.vot")
+	writeBenchBinary2(b, p, rows)
+	st, err := os.Stat(p)
+	if err != nil {
+		b.Fatal(err)
+	}
+	b.SetBytes(st.Size())
+	cpu0 := cpuSeconds(b)
+	n := 0
+	b.ResetTimer()
+	for b.Loop() {
+		n++
+		tab, rep, err := Read(context.Background(), catalog.Spec{Name: "bench", File: p}, catalog.ReadOptions{})
+		if err != nil {
+			b.Fatal(err)
+		}
+		if tab.Len() != rows || len(rep.Quarantined) != 0 {
+			b.Fatalf("kept %d of %d, quarantined %d", tab.Len(), rows, len(rep.Quarantined))
+		}
+	}
+	b.ReportMetric((cpuSeconds(b)-cpu0)/float64(n), "cpu-s/op")
+}
+
+// cpuSeconds is user+sys CPU of the process, reported beside wall time
+// because the machine is shared.
+func cpuSeconds(b *testing.B) float64 {
+	var ru syscall.Rusage
+	if err := syscall.Getrusage(syscall.RUSAGE_SELF, &ru); err != nil {
+		b.Fatal(err)
+	}
+	tv := func(t syscall.Timeval) float64 { return float64(t.Sec) + float64(t.Usec)/1e6 }
+	return tv(ru.Utime) + tv(ru.Stime)
+}

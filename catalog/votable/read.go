@@ -1,0 +1,333 @@
+package votable
+
+import (
+	"compress/gzip"
+	"context"
+	"crypto/sha256"
+	"encoding/hex"
+	"errors"
+	"fmt"
+	"io"
+	"os"
+	"strings"
+
+	"starvet/catalog"
+	"starvet/internal/position"
+)
+
+// Sentinels of this reader, wrapped (beside a catalog sentinel) in the
+// *position.Error values it returns.
+var (
+	// ErrMalformed marks a document that is not well-formed XML or ends
+	// early (wrapped with catalog.ErrUnreadable).
+	ErrMalformed = errors.New("malformed VOTable")
+	// ErrTruncated marks a binary stream that ends inside a row, or data
+	// holding fewer or more rows than the TABLE's nrows (wrapped with
+	// catalog.ErrUnreadable).
+	ErrTruncated = errors.New("truncated VOTable data")
+	// ErrNoTable marks a Spec.Table the document does not have (wrapped
+	// with catalog.ErrBadSpec).
+	ErrNoTable = errors.New("no such VOTable TABLE")
+	// ErrDatatype marks a mapped column whose datatype or arraysize cannot
+	// feed its field (wrapped with catalog.ErrBadHeader).
+	ErrDatatype = errors.New("unusable VOTable column")
+	// ErrOverflow marks a document whose INFO QUERY_STATUS is OVERFLOW:
+	// the service that wrote it stopped at a row limit, so the table is
+	// the first rows of a larger result. Read returns the table and report
+	// it read together with this error.
+	ErrOverflow = errors.New("VOTable query result is truncated (QUERY_STATUS OVERFLOW)")
+	// ErrQueryFailed marks a document whose INFO QUERY_STATUS is ERROR.
+	ErrQueryFailed = errors.New("VOTable query failed (QUERY_STATUS ERROR)")
+)
+
+// Info is what a VOTable says about its table beyond the columns.
+type Info struct {
+	Table         string  // the TABLE read: its name, else ID, else "#n"
+	Serialization string  // "TABLEDATA", "BINARY", "BINARY2" or "" (no DATA)
+	Epoch         string  // the COOSYS epoch as written ("J2015.5"), "" when none
+	EpochJyr      float64 // Epoch as a Julian year, 0 when none or Besselian
+	QueryStatus   string  // INFO QUERY_STATUS value ("OK", "OVERFLOW", "ERROR"), "" when none
+	QueryMessage  string  // that INFO's text
+}
+
+// Reader is the VOTable reader for catalog/ingest.
+type Reader struct{}
+
+// Columns is Columns.
+func (Reader) Columns(_ context.Context, spec catalog.Spec) ([]catalog.ColumnMeta, error) {
+	return Columns(spec)
+}
+
+// Read is Read.
+func (Reader) Read(ctx context.Context, spec catalog.Spec, opt catalog.ReadOptions) (*catalog.Table, *catalog.Report, error) {
+	return Read(ctx, spec, opt)
+}
+
+// Columns describes the FIELDs of the table Spec.Table selects.
+func Columns(spec catalog.Spec) ([]catalog.ColumnMeta, error) {
+	in, err := open(spec.File)
+	if err != nil {
+		return nil, err
+	}
+	defer in.close()
+	sc := newScanner(in.text, spec.Table)
+	if _, err := sc.head(); err != nil {
+		return nil, sc.fileError(spec.File, err)
+	}
+	return sc.meta(), nil
+}
+
+// Read ingests the selected table into canonical units (see ReadTable).
+func Read(ctx context.Context, spec catalog.Spec, opt catalog.ReadOptions) (*catalog.Table, *catalog.Report, error) {
+	t, rep, _, err := ReadTable(ctx, spec, opt)
+	return t, rep, err
+}
+
+// ReadTable ingests the table Spec.Table selects and says what the
+// document says about it. File and row problems are as for
+// catalog/csv, as *position.Error values naming the file, the table, the
+// 1-based row and the column. When the document's QUERY_STATUS is
+// OVERFLOW the whole table and report are returned with an error wrapping
+// ErrOverflow; every other error returns no table.
+func ReadTable(ctx context.Context, spec catalog.Spec, opt catalog.ReadOptions) (*catalog.Table, *catalog.Report, Info, error) {
+	var info Info
+	rep := &catalog.Report{File: spec.File}
+	if err := spec.Check(); err != nil {
+		return nil, rep, info, err
+	}
+	in, err := open(spec.File)
+	if err != nil {
+		return nil, nil, info, err
+	}
+	defer in.close()
+	sc := newScanner(in.text, spec.Table)
+	ser, err := sc.head()
+	info.Table = sc.label
+	if err != nil {
+		return nil, rep, info, sc.fileError(spec.File, err)
+	}
+	info.Serialization = [...]string{"", "TABLEDATA", "BINARY", "BINARY2"}[ser]
+	cols := sc.meta()
+	rep.Header = make([]string, len(cols))
+	for i, c := range cols {
+		rep.Header[i] = c.Name
+	}
+	bld, m, err := catalog.NewBuilderFromMeta(spec, cols, true, opt)
+	if err != nil {
+		return nil, rep, info, sc.inTable(err)
+	}
+	rd, err := newRowDecoder(sc, bld.Layout(), spec.File, ser)
+	if err != nil {
+		return nil, bld.Report(), info, err
+	}
+	if in.zr == nil {
+		rd.size = in.size
+	}
+	info.Epoch = sc.epoch(m.Column[catalog.RA])
+	info.EpochJyr, _ = julianYear(info.Epoch)
+	if err := rd.run(ctx, bld); err != nil {
+		return nil, bld.Report(), info, sc.inTable(err)
+	}
+	if err := sc.tail(); err != nil {
+		return nil, bld.Report(), info, sc.fileError(spec.File, err)
+	}
+	sum, err := in.finish()
+	if err != nil {
+		return nil, bld.Report(), info, err
+	}
+	t, rep := bld.Finish()
+	rep.SHA256 = sum
+	if t.EpochJyr == 0 {
+		t.EpochJyr = info.EpochJyr
+	}
+	info.QueryStatus, info.QueryMessage = sc.status, sc.message
+	switch strings.ToUpper(strings.TrimSpace(sc.status)) {
+	case "OVERFLOW":
+		return t, rep, info, &position.Error{File: spec.File, What: fmt.Sprintf("table %q", sc.label), Err: ErrOverflow,
+			Msg: fmt.Sprintf("%v: the service stopped at a row limit, so these %d rows are the first of a larger result; query again in smaller pieces (%s)", ErrOverflow, rep.RowsRead, sc.message)}
+	case "ERROR":
+		return nil, rep, info, &position.Error{File: spec.File, What: fmt.Sprintf("table %q", sc.label), Err: ErrQueryFailed,
+			Msg: fmt.Sprintf("%v: %s", ErrQueryFailed, sc.message)}
+	}
+	return t, rep, info, nil
+}
+
+// meta is the selected table's FIELDs as catalog.ColumnMeta.
+func (s *scanner) meta() []catalog.ColumnMeta {
+	cols := make([]catalog.ColumnMeta, len(s.fields))
+	for i, f := range s.fields {
+		cols[i] = catalog.ColumnMeta{Name: f.name, Datatype: f.datatype, Unit: f.unit, UCD: f.ucd}
+	}
+	return cols
+}
+
+// fileError words a document-level problem met while scanning.
+func (s *scanner) fileError(file string, err error) error {
+	var pe *position.Error
+	if errors.As(err, &pe) {
+		return s.inTable(pe)
+	}
+	e := &position.Error{File: file, Msg: err.Error()}
+	switch {
+	case errors.Is(err, errSyntax), errors.Is(err, errStreamEOF):
+		e.Err = fmt.Errorf("%w: %w: %w", catalog.ErrUnreadable, ErrMalformed, err)
+	case errors.Is(err, ErrNoTable):
+		e.Err = fmt.Errorf("%w: %w", catalog.ErrBadSpec, err)
+	default:
+		e.Err = fmt.Errorf("%w: %w", catalog.ErrUnreadable, err)
+	}
+	return s.inTable(e)
+}
+
+// inTable adds the table's name to a *position.Error's What.
+func (s *scanner) inTable(err error) error {
+	var pe *position.Error
+	if s.label == "" || !errors.As(err, &pe) || strings.HasPrefix(pe.What, "table ") {
+		return err
+	}
+	t := fmt.Sprintf("table %q", s.label)
+	if pe.What != "" {
+		t += " " + pe.What
+	} else if pe.Name != "" {
+		t += fmt.Sprintf(" column %q", pe.Name)
+	}
+	pe.What = t
+	return err
+}
+
+// input is an opened file: its bytes hashed on a goroutine of their own,
+// then decompressed when the name ends in .gz.
+type input struct {
+	f    *os.File
+	hr   *hashingReader
+	zr   *gzip.Reader
+	text io.Reader
+	name string
+	size int64 // bytes in the file
+}
+
+func open(name string) (*input, error) {
+	f, err := os.Open(name)
+	if err != nil {
+		return nil, catalog.WrapFileError(name, 0, "", catalog.ErrNoFile, err)
+	}
+	st, err := f.Stat()
+	if err != nil {
+		f.Close()
+		return nil, catalog.WrapFileError(name, 0, "", catalog.ErrNoFile, err)
+	}
+	in := &input{f: f, hr: newHashingReader(f), name: name, size: st.Size()}
+	in.text = in.hr
+	if strings.HasSuffix(strings.ToLower(name), ".gz") {
+		if in.zr, err = gzip.NewReader(in.hr); err != nil {
+			in.close()
+			return nil, catalog.WrapFileError(name, 0, "unreadable gzip: ", catalog.ErrUnreadable, err)
+		}
+		in.text = in.zr
+	}
+	return in, nil
+}
+
+// finish reads what the document left (a gzip trailer, say) so that the
+// hash covers the whole file, and returns the hex SHA-256.
+func (in *input) finish() (string, error) {
+	if in.zr != nil {
+		if _, err := io.Copy(io.Discard, in.zr); err != nil {
+			return "", catalog.WrapFileError(in.name, 0, "unreadable gzip: ", catalog.ErrUnreadable, err)
+		}
+	}
+	if _, err := io.Copy(io.Discard, in.hr); err != nil {
+		return "", catalog.WrapFileError(in.name, 0, "", catalog.ErrUnreadable, err)
+	}
+	return hex.EncodeToString(in.hr.total[:]), nil
+}
+
+func (in *input) close() {
+	if in.zr != nil {
+		in.zr.Close()
+	}
+	in.hr.close()
+	in.f.Close()
+}
+
+// hashingReader reads a file in chunks on a goroutine that also hashes
+// them, so hashing runs beside decoding.
+type hashingReader struct {
+	full  chan hashChunk
+	free  chan []byte
+	done  chan struct{}
+	cur   []byte
+	buf   []byte
+	err   error
+	total [sha256.Size]byte
+}
+
+type hashChunk struct {
+	b   []byte
+	err error
+}
+
+func newHashingReader(r io.Reader) *hashingReader {
+	h := &hashingReader{full: make(chan hashChunk, 3), free: make(chan []byte, 4), done: make(chan struct{})}
+	for range 4 {
+		h.free <- make([]byte, 1<<20)
+	}
+	go func() {
+		sum := sha256.New()
+		defer close(h.full)
+		for {
+			var b []byte
+			select {
+			case b = <-h.free:
+			case <-h.done:
+				return
+			}
+			n, err := io.ReadFull(r, b)
+			sum.Write(b[:n])
+			if err == io.ErrUnexpectedEOF {
+				err = io.EOF
+			}
+			if err == io.EOF {
+				copy(h.total[:], sum.Sum(nil))
+			}
+			select {
+			case h.full <- hashChunk{b[:n], err}:
+			case <-h.done:
+				return
+			}
+			if err != nil {
+				return
+			}
+		}
+	}()
+	return h
+}
+
+func (h *hashingReader) Read(p []byte) (int, error) {
+	for len(h.cur) == 0 {
+		if h.err != nil {
+			return 0, h.err
+		}
+		if h.buf != nil {
+			h.free <- h.buf[:cap(h.buf)]
+			h.buf = nil
+		}
+		c, ok := <-h.full
+		if !ok {
+			h.err = io.EOF
+			continue
+		}
+		h.buf, h.cur, h.err = c.b, c.b, c.err
+	}
+	n := copy(p, h.cur)
+	h.cur = h.cur[n:]
+	return n, nil
+}
+
+func (h *hashingReader) close() {
+	select {
+	case <-h.done:
+	default:
+		close(h.done)
+	}
+}
