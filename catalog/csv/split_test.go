@@ -26,10 +26,10 @@ import (
 // sameRead compares a read by the splitter with the encoding/csv read of
 // the same spec and returns the first difference, or "".
 func sameRead(spec catalog.Spec, opt catalog.ReadOptions) string {
-	t1, r1, e1 := read(context.Background(), spec, opt, false)
+	t1, r1, e1 := read(context.Background(), spec, opt, false, nil)
 	ref := opt
 	ref.Workers = 1
-	t2, r2, e2 := read(context.Background(), spec, ref, true)
+	t2, r2, e2 := read(context.Background(), spec, ref, true, nil)
 	if (e1 == nil) != (e2 == nil) {
 		return fmt.Sprintf("error %v, reference %v", e1, e2)
 	}
@@ -352,7 +352,7 @@ func TestParsePlain(t *testing.T) {
 				t.Fatalf("layout %+v id %d, want %+v id 0", l.Columns, l.IDIndex, plans)
 			}
 			var row [catalog.NumFields]float64
-			id, ok := newConverter(bld.Layout()).parsePlain([]byte(c.line), &row)
+			id, ok := newConverter(bld.Layout(), ',').parsePlain([]byte(c.line), &row)
 			if ok != c.ok || string(id) != c.id {
 				t.Fatalf("id %q ok %v, want %q %v", id, ok, c.id, c.ok)
 			}
