@@ -173,12 +173,14 @@ func readHeader(name string, ls *lineSplitter) ([]string, error) {
 	if err != nil {
 		sentinel := catalog.ErrBadHeader
 		var pe *csv.ParseError
-		if err == io.EOF {
+		if err == io.EOF && ls.line > 0 {
+			err = fmt.Errorf("no column-name line after line %d", ls.line)
+		} else if err == io.EOF {
 			err = errors.New("file is empty")
 		} else if !errors.As(err, &pe) {
 			sentinel = catalog.ErrUnreadable
 		}
-		return nil, catalog.WrapFileError(name, 1, "cannot read header: ", sentinel, err)
+		return nil, catalog.WrapFileError(name, ls.line+1, "cannot read header: ", sentinel, err)
 	}
 	header = append([]string(nil), header...)
 	if len(header) > 0 {
