@@ -7,6 +7,7 @@ import (
 	"regexp"
 	"slices"
 	"strconv"
+	"strings"
 
 	"go.yaml.in/yaml/v3"
 
@@ -194,10 +195,14 @@ func (h *header) columns(names []string, line int) ([]catalog.ColumnMeta, error)
 	}
 	cols := make([]catalog.ColumnMeta, len(want))
 	for i, c := range want {
-		cols[i] = catalog.ColumnMeta{Name: *c.Name, Datatype: c.Datatype, Unit: c.Unit, UCD: metaUCD(&c.Meta)}
+		cols[i] = catalog.ColumnMeta{Name: *c.Name, Datatype: c.Datatype, Unit: unit(c.Unit), UCD: metaUCD(&c.Meta)}
 	}
 	return cols, nil
 }
+
+// unit is a unit as catalog.FileUnit spells it: astropy writes a
+// quotient with spaces around the slash ("mas / yr").
+func unit(s string) string { return strings.ReplaceAll(s, " / ", "/") }
 
 // metaUCD is the "ucd" entry of a column's meta, a mapping or an ordered
 // map (a sequence of one-entry mappings), or "".
