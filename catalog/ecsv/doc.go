@@ -14,6 +14,10 @@
 // unit the header gives. Line numbers count the header's lines: a row's
 // line is its line in the file.
 //
+// The header's delimiter is the file's: a campaign's delimiter key is not
+// used. Units: astropy writes quotients as "mas / yr"; the slash is closed
+// up for catalog.FileUnit.
+//
 // Missing values: an empty field (how ECSV writes a masked value; "" in a
 // space-delimited file) and the text null are missing, besides the
 // campaign's null markers.
