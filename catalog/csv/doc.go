@@ -5,9 +5,10 @@
 // leading and trailing whitespace is ignored and a field may be quoted
 // ("" for an empty one). A header of one name that holds another of these
 // delimiters is an error suggesting the key. ReadText serves formats that
-// put a header of their own before delimited rows (package ecsv). It knows only that format; the units, range checks, quarantine
-// and the table itself come from catalog.Builder (see package catalog),
-// and every number it returns is in catalog's canonical units.
+// put a header of their own before delimited rows (package ecsv). It
+// knows only these formats; the units, range checks, quarantine and the
+// table itself come from catalog.Builder (see package catalog), and every
+// number it returns is in catalog's canonical units.
 //
 // The Report's SHA-256 covers the raw file bytes (the compressed bytes for
 // .gz). Positions in errors and quarantined rows are 1-based lines and
