@@ -57,7 +57,8 @@ func withNull(spec catalog.Spec) catalog.Spec {
 // history).
 var versions = []string{"1.0", "0.9"}
 
-// datatypes are ECSV 1.0's column datatypes (APE 6, "Header details").
+// datatypes are ECSV 1.0's column datatypes (APE 6, from memory; astropy
+// 5.2 writes these names).
 var datatypes = []string{"bool", "int8", "int16", "int32", "int64", "uint8", "uint16", "uint32", "uint64",
 	"float16", "float32", "float64", "float128", "complex64", "complex128", "complex256", "string"}
 
