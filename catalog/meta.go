@@ -96,6 +96,8 @@ var unitSpellings = map[string]string{
 	"km/s": "km/s", "km.s**-1": "km/s", "km s-1": "km/s", "km.s-1": "km/s",
 	"m/s": "m/s", "m.s**-1": "m/s", "m s-1": "m/s", "m.s-1": "m/s",
 	"pc": "pc", "kpc": "kpc", "mag": "mag",
+	// The spaced quotients some writers produce (e.g. "mas / yr").
+	"mas / yr": "mas/yr", "arcsec / yr": "arcsec/yr", "km / s": "km/s", "m / s": "m/s",
 }
 
 // dimensionless lists the spellings that mean "no unit" for a

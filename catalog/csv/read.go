@@ -18,6 +18,7 @@ import (
 
 	"starvet/catalog"
 	"starvet/internal/parallel"
+	"starvet/internal/position"
 )
 
 // Read ingests one delimited-text catalog file (.csv, or .csv.gz by
@@ -26,15 +27,41 @@ import (
 // the first is returned as a *position.Error). The Report is returned,
 // possibly partial, with every error except an unopenable file.
 func Read(ctx context.Context, spec catalog.Spec, opt catalog.ReadOptions) (*catalog.Table, *catalog.Report, error) {
-	return read(ctx, spec, opt, false)
+	return read(ctx, spec, opt, false, nil)
 }
 
-// read is Read; forceCSV has encoding/csv split every record, the reference
-// the tests hold the line splitter to.
-func read(ctx context.Context, spec catalog.Spec, opt catalog.ReadOptions, forceCSV bool) (*catalog.Table, *catalog.Report, error) {
+// ReadText is Read for a text format that wraps delimited text in a header
+// of its own (ECSV): p reads that header and describes the columns, and the
+// data rows go through the same splitter and converters as a CSV file's.
+// Lines are numbered from the file's first, the preamble's included.
+func ReadText(ctx context.Context, spec catalog.Spec, opt catalog.ReadOptions, p *Preamble) (*catalog.Table, *catalog.Report, error) {
+	return read(ctx, spec, opt, false, p)
+}
+
+// Preamble is the header a text format puts before its column-name line.
+type Preamble struct {
+	// Comment starts every line of the preamble: the lines from the first
+	// that begin with it.
+	Comment byte
+	// Read is given the preamble's lines, without line ends (the first is
+	// line 1), and returns the delimiter of the rest of the file (a
+	// Spec.Delimiter value).
+	Read func(lines [][]byte) (delimiter string, err error)
+	// Columns describes the columns named by the column-name line, read at
+	// line, or says why the names do not fit the preamble.
+	Columns func(names []string, line int) ([]catalog.ColumnMeta, error)
+}
+
+// read is Read; forceCSV has encoding/csv split every record (for
+// whitespace, the quote-aware splitter), the reference the tests hold the
+// line splitter to.
+func read(ctx context.Context, spec catalog.Spec, opt catalog.ReadOptions, forceCSV bool, p *Preamble) (*catalog.Table, *catalog.Report, error) {
 	name := spec.File
 	rep := &catalog.Report{File: name}
 	if err := spec.Check(); err != nil {
+		return nil, rep, err
+	}
+	if _, err := separator(spec); err != nil {
 		return nil, rep, err
 	}
 	in, err := open(name)
@@ -45,7 +72,10 @@ func read(ctx context.Context, spec catalog.Spec, opt catalog.ReadOptions, force
 		return nil, rep, err
 	}
 	defer in.close()
-	ls := newLineSplitter(in.text)
+	ls, err := start(spec, in, p)
+	if err != nil {
+		return nil, rep, err
+	}
 	if forceCSV {
 		ls.handOver()
 	}
@@ -54,7 +84,19 @@ func read(ctx context.Context, spec catalog.Spec, opt catalog.ReadOptions, force
 		return nil, rep, err
 	}
 	rep.Header = header
-	bld, err := catalog.NewBuilder(spec, header, 1, opt)
+	var bld *catalog.Builder
+	if p == nil {
+		if err := oneColumnHint(spec, header); err != nil {
+			return nil, rep, err
+		}
+		bld, err = catalog.NewBuilder(spec, header, ls.headerLine, opt)
+	} else {
+		var meta []catalog.ColumnMeta
+		if meta, err = p.Columns(header, ls.headerLine); err == nil {
+			bld, _, err = catalog.NewBuilderFromMeta(spec, meta, false, opt)
+			atLine(err, ls.headerLine)
+		}
+	}
 	if err != nil {
 		return nil, rep, err
 	}
@@ -131,12 +173,14 @@ func readHeader(name string, ls *lineSplitter) ([]string, error) {
 	if err != nil {
 		sentinel := catalog.ErrBadHeader
 		var pe *csv.ParseError
-		if err == io.EOF {
+		if err == io.EOF && ls.line > 0 {
+			err = fmt.Errorf("no column-name line after line %d", ls.line)
+		} else if err == io.EOF {
 			err = errors.New("file is empty")
 		} else if !errors.As(err, &pe) {
 			sentinel = catalog.ErrUnreadable
 		}
-		return nil, catalog.WrapFileError(name, 1, "cannot read header: ", sentinel, err)
+		return nil, catalog.WrapFileError(name, ls.line+1, "cannot read header: ", sentinel, err)
 	}
 	header = append([]string(nil), header...)
 	if len(header) > 0 {
@@ -153,7 +197,7 @@ const presizeAfterRows = 4096
 // stream runs the batch pipeline (see readBatches) and hands the batches
 // to the builder in file order. The context is checked between batches.
 func stream(ctx context.Context, ls *lineSplitter, in *input, bld *catalog.Builder, workers int) error {
-	conv := newConverter(bld.Layout())
+	conv := newConverter(bld.Layout(), ls.sep)
 	batches, stop := readBatches(ls, in.name, conv, workers)
 	defer stop()
 	presized := in.gzipped()
@@ -193,6 +237,7 @@ type rowRef struct {
 }
 
 type batch struct {
+	sep    byte     // the field separator of plain rows
 	text   []byte   // plain rows' lines, back to back
 	fields []string // the fields of the other rows
 	rows   []rowRef
@@ -214,7 +259,7 @@ func (b *batch) recycle() {
 func (b *batch) record(r int) []string {
 	br := &b.rows[r]
 	if br.plain {
-		return strings.Split(string(b.text[br.start:br.end]), ",")
+		return strings.Split(string(b.text[br.start:br.end]), string(b.sep))
 	}
 	return b.fields[br.start:br.end]
 }
@@ -249,7 +294,7 @@ func readBatches(ls *lineSplitter, name string, conv *converter, workers int) (<
 	free := make(chan *batch, 2*workers+4)
 	done := make(chan struct{})
 	for range cap(free) {
-		free <- &batch{rows: make([]rowRef, 0, batchRows), free: free}
+		free <- &batch{sep: ls.sep, rows: make([]rowRef, 0, batchRows), free: free}
 	}
 	var wg sync.WaitGroup
 	wg.Add(1 + workers)
@@ -309,6 +354,7 @@ type converter struct {
 	// is set when a null marker reads as a number.
 	roles         []int
 	numericMarker bool
+	sep           byte
 }
 
 // Column roles of a plain row, besides an index into Layout.Columns.
@@ -317,8 +363,8 @@ const (
 	roleID   = -2
 )
 
-func newConverter(l *catalog.Layout) *converter {
-	c := &converter{l: l, roles: make([]int, len(l.Header))}
+func newConverter(l *catalog.Layout, sep byte) *converter {
+	c := &converter{l: l, roles: make([]int, len(l.Header)), sep: sep}
 	for k := range c.roles {
 		c.roles[k] = roleSkip
 	}
@@ -349,7 +395,7 @@ func (c *converter) convert(b *batch) {
 				continue
 			}
 			// Let the general code below find and word the problem.
-			rec := strings.Split(string(b.text[br.start:br.end]), ",")
+			rec := strings.Split(string(b.text[br.start:br.end]), string(c.sep))
 			br.start, br.plain = len(b.fields), false
 			b.fields = append(b.fields, rec...)
 			br.end = len(b.fields)
@@ -384,7 +430,7 @@ func malformed(pe *csv.ParseError) *catalog.Quarantine {
 // its wording to catalog.Layout.ConvertRecord.
 func (c *converter) parsePlain(line []byte, row *[catalog.NumFields]float64) ([]byte, bool) {
 	var id []byte
-	l, cols := c.l, c.l.Columns
+	l, cols, sep := c.l, c.l.Columns, c.sep
 	pos, n := 0, len(line)
 	last := len(c.roles) - 1
 	for k, role := range c.roles {
@@ -392,9 +438,9 @@ func (c *converter) parsePlain(line []byte, row *[catalog.NumFields]float64) ([]
 		if role >= 0 {
 			v, e, ok := scanDecimal(line, pos)
 			end = e
-			if end < n && line[end] != ',' {
+			if end < n && line[end] != sep {
 				ok = false // more than a plain decimal: find the cell's end
-				if j := bytes.IndexByte(line[end:], ','); j >= 0 {
+				if j := bytes.IndexByte(line[end:], sep); j >= 0 {
 					end += j
 				} else {
 					end = n
@@ -422,7 +468,7 @@ func (c *converter) parsePlain(line []byte, row *[catalog.NumFields]float64) ([]
 			}
 		} else {
 			end = n
-			if j := bytes.IndexByte(line[pos:], ','); j >= 0 {
+			if j := bytes.IndexByte(line[pos:], sep); j >= 0 {
 				end = pos + j
 			}
 			if role == roleID {
@@ -545,18 +591,94 @@ func (h *hashingReader) close() {
 // Columns describes the file's columns as delimited text can: by the
 // header's names, with no datatype, unit or UCD.
 func Columns(spec catalog.Spec) ([]catalog.ColumnMeta, error) {
+	return ColumnsText(spec, nil)
+}
+
+// ColumnsText is Columns for a text format with a preamble: the columns as
+// p describes them.
+func ColumnsText(spec catalog.Spec, p *Preamble) ([]catalog.ColumnMeta, error) {
+	if _, err := separator(spec); err != nil {
+		return nil, err
+	}
 	in, err := open(spec.File)
 	if err != nil {
 		return nil, err
 	}
 	defer in.close()
-	header, err := readHeader(spec.File, newLineSplitter(in.text))
+	ls, err := start(spec, in, p)
 	if err != nil {
 		return nil, err
+	}
+	header, err := readHeader(spec.File, ls)
+	if err != nil {
+		return nil, err
+	}
+	if p != nil {
+		return p.Columns(header, ls.headerLine)
 	}
 	cols := make([]catalog.ColumnMeta, len(header))
 	for i, h := range header {
 		cols[i] = catalog.ColumnMeta{Name: h}
 	}
 	return cols, nil
+}
+
+// separator is the byte between fields that spec's delimiter names; ' '
+// stands for runs of spaces and tabs.
+func separator(spec catalog.Spec) (byte, error) {
+	switch spec.Delimiter {
+	case "", ",":
+		return ',', nil
+	case ";", "\t", " ":
+		return spec.Delimiter[0], nil
+	}
+	msg := fmt.Sprintf("%s: delimiter %q: want \",\", \";\", \"\\t\" (tab) or \" \" (runs of whitespace)", catalog.ErrBadSpec, spec.Delimiter)
+	return 0, &position.Error{File: spec.File, Name: "delimiter", Msg: msg, Err: catalog.ErrBadSpec}
+}
+
+// start makes the line splitter for spec's delimiter and, with a preamble,
+// reads it and takes the delimiter it names.
+func start(spec catalog.Spec, in *input, p *Preamble) (*lineSplitter, error) {
+	sep, _ := separator(spec)
+	ls := newLineSplitter(in.text)
+	if p != nil {
+		lines, err := ls.readPreamble(p.Comment)
+		if err != nil {
+			return nil, readError(in.name, err)
+		}
+		d, err := p.Read(lines)
+		if err != nil {
+			return nil, err
+		}
+		if sep, err = separator(catalog.Spec{File: spec.File, Delimiter: d}); err != nil {
+			return nil, err
+		}
+	}
+	ls.setSep(sep)
+	return ls, nil
+}
+
+// oneColumnHint is the error for a header of one name that holds another
+// delimiter: the file is most likely separated by it.
+func oneColumnHint(spec catalog.Spec, header []string) error {
+	if len(header) != 1 {
+		return nil
+	}
+	sep, _ := separator(spec)
+	for _, d := range []string{",", ";", "\t", " "} {
+		if d[0] == sep || !strings.Contains(header[0], d) {
+			continue
+		}
+		msg := fmt.Sprintf("%s: header has one column %q; if the file is separated by %q set delimiter = %q in its [[catalog]]", catalog.ErrBadHeader, header[0], d, d)
+		return &position.Error{File: spec.File, Line: 1, Col: 1, Name: header[0], Msg: msg, Err: catalog.ErrBadHeader}
+	}
+	return nil
+}
+
+// atLine puts line into a builder's error that names no line.
+func atLine(err error, line int) {
+	var pe *position.Error
+	if errors.As(err, &pe) && pe.Line == 0 {
+		pe.Line = line
+	}
 }

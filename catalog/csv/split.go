@@ -29,8 +29,16 @@ type lineSplitter struct {
 	line   int   // lines consumed
 	offset int64 // bytes consumed
 	// keep stops fill from dropping consumed bytes, while the header may
-	// still have to be read again from the first byte.
+	// still have to be read again from its first byte.
 	keep bool
+	// sep separates fields; ws says that sep is ' ' and stands for runs of
+	// spaces and tabs, with those at a line's ends ignored: such lines are
+	// stored with single spaces, and lines with a quote split by splitWS,
+	// as are all lines once wsQuoted is set (the tests' reference).
+	sep        byte
+	ws         bool
+	wsQuoted   bool
+	headerLine int // line of the column-name record
 
 	// Once a line with a quote was seen, cr reads the rest of the input;
 	// its line numbers and offsets count from lineBase and offsetBase.
@@ -42,7 +50,25 @@ type lineSplitter struct {
 const splitBufBytes = 1 << 20
 
 func newLineSplitter(src io.Reader) *lineSplitter {
-	return &lineSplitter{src: src, buf: make([]byte, splitBufBytes)}
+	return &lineSplitter{src: src, buf: make([]byte, splitBufBytes), sep: ','}
+}
+
+func (s *lineSplitter) setSep(sep byte) { s.sep, s.ws = sep, sep == ' ' }
+
+// readPreamble consumes the lines from the first that start with comment
+// and returns copies of their contents.
+func (s *lineSplitter) readPreamble(comment byte) ([][]byte, error) {
+	var lines [][]byte
+	for {
+		raw, err := s.peekLine()
+		if err == io.EOF || len(raw) == 0 || raw[0] != comment {
+			return lines, nil
+		}
+		if err != nil {
+			return lines, err
+		}
+		lines = append(lines, append([]byte(nil), s.consume(raw)...))
+	}
 }
 
 // peekLine returns the next physical line, with its \n when it has one, and
@@ -110,6 +136,10 @@ func (s *lineSplitter) consume(raw []byte) []byte {
 // handOver gives the unconsumed input to an encoding/csv Reader, which reads
 // every later record.
 func (s *lineSplitter) handOver() {
+	if s.ws {
+		s.wsQuoted = true
+		return
+	}
 	rest := io.Reader(bytes.NewReader(s.buf[s.pos:s.end]))
 	switch {
 	case s.srcErr == nil:
@@ -118,6 +148,7 @@ func (s *lineSplitter) handOver() {
 		rest = io.MultiReader(rest, errReader{s.srcErr})
 	}
 	s.cr = csv.NewReader(rest)
+	s.cr.Comma = rune(s.sep)
 	s.cr.ReuseRecord = true
 	s.cr.FieldsPerRecord = -1
 	s.lineBase, s.offsetBase = s.line, s.offset
@@ -131,18 +162,24 @@ func (e errReader) Read([]byte) (int, error) { return 0, e.err }
 // cut short by a read error, is read by encoding/csv from the start of the
 // input, so every header error is its error.
 func (s *lineSplitter) readHeader() ([]string, error) {
+	if s.ws {
+		return s.readHeaderWS()
+	}
 	s.keep = true
 	defer func() { s.keep = false }()
+	pos, line, offset := s.pos, s.line, s.offset
 	for s.cr == nil {
 		raw, err := s.peekLine()
 		if err == nil && bytes.IndexByte(raw, '"') < 0 {
 			if c := s.consume(raw); len(c) > 0 {
-				return strings.Split(string(c), ","), nil
+				s.headerLine = s.line
+				return strings.Split(string(c), string(s.sep)), nil
 			}
 			continue
 		}
-		// Start over from the first byte; only empty lines were consumed.
-		s.pos, s.line, s.offset = 0, 0, 0
+		// Start over from the header's first byte; only empty lines were
+		// consumed since.
+		s.pos, s.line, s.offset = pos, line, offset
 		s.handOver()
 		break
 	}
@@ -150,7 +187,28 @@ func (s *lineSplitter) readHeader() ([]string, error) {
 	if err != nil {
 		return rec, err
 	}
+	l, _ := s.cr.FieldPos(0)
+	s.headerLine = s.lineBase + l
 	return append([]string(nil), rec...), nil
+}
+
+func (s *lineSplitter) readHeaderWS() ([]string, error) {
+	for {
+		raw, err := s.peekLine()
+		if err != nil {
+			return nil, err
+		}
+		c := trimWS(s.consume(raw))
+		if len(c) == 0 {
+			continue
+		}
+		s.headerLine = s.line
+		rec, pe := s.splitWS(c, nil)
+		if pe != nil {
+			return nil, pe
+		}
+		return rec, nil
+	}
 }
 
 // fillBatch reads up to batchRows records into b and reports whether the
@@ -164,7 +222,7 @@ func (s *lineSplitter) fillBatch(name string, b *batch) (eof bool) {
 		if err == io.EOF {
 			return true
 		}
-		if bytes.IndexByte(raw, '"') >= 0 {
+		if !s.ws && bytes.IndexByte(raw, '"') >= 0 {
 			s.handOver()
 			continue
 		}
@@ -173,6 +231,10 @@ func (s *lineSplitter) fillBatch(name string, b *batch) (eof bool) {
 			return true
 		}
 		c := s.consume(raw)
+		if s.ws {
+			s.addWS(c, b)
+			continue
+		}
 		if len(c) == 0 {
 			continue // encoding/csv skips empty lines too
 		}
@@ -272,3 +334,116 @@ func scanDecimal(b []byte, pos int) (v float64, end int, ok bool) {
 // pow10 holds the powers of ten that float64 represents exactly.
 var pow10 = [...]float64{1e0, 1e1, 1e2, 1e3, 1e4, 1e5, 1e6, 1e7, 1e8, 1e9, 1e10,
 	1e11, 1e12, 1e13, 1e14, 1e15, 1e16, 1e17, 1e18, 1e19, 1e20, 1e21, 1e22}
+
+// isWS says whether c separates fields in whitespace mode.
+func isWS(c byte) bool { return c == ' ' || c == '\t' }
+
+func trimWS(c []byte) []byte {
+	for len(c) > 0 && isWS(c[0]) {
+		c = c[1:]
+	}
+	for len(c) > 0 && isWS(c[len(c)-1]) {
+		c = c[:len(c)-1]
+	}
+	return c
+}
+
+// addWS adds the line c, just consumed, to b in whitespace mode: a
+// quote-free line as a plain row with its fields one space apart, any
+// other through splitWS. Blank lines are skipped.
+func (s *lineSplitter) addWS(c []byte, b *batch) {
+	c = trimWS(c)
+	if len(c) == 0 {
+		return
+	}
+	line := s.line
+	if s.wsQuoted || bytes.IndexByte(c, '"') >= 0 {
+		ref := rowRef{start: len(b.fields), line: line}
+		rec, pe := s.splitWS(c, b.fields)
+		if pe != nil {
+			ref.parseErr = pe
+			rec = b.fields
+		}
+		b.fields = rec
+		ref.end, ref.offset = len(b.fields), s.offset
+		b.rows = append(b.rows, ref)
+		return
+	}
+	start := len(b.text)
+	for i := 0; i < len(c); {
+		j := i
+		for j < len(c) && !isWS(c[j]) {
+			j++
+		}
+		if i > 0 {
+			b.text = append(b.text, ' ')
+		}
+		b.text = append(b.text, c[i:j]...)
+		for i = j; i < len(c) && isWS(c[i]); i++ {
+		}
+	}
+	b.rows = append(b.rows, rowRef{start: start, end: len(b.text), line: line, offset: s.offset, plain: true})
+}
+
+// splitWS appends to dst the fields of the record that starts with line c
+// (consumed, trimmed of whitespace), for whitespace mode: fields are
+// separated by runs of spaces and tabs; a field that starts with a double
+// quote runs to the next lone quote, "" standing for one quote, and takes
+// the following lines while the quote is open. A quote anywhere else, or
+// a closing quote not followed by whitespace, is an error, worded as
+// encoding/csv words it.
+func (s *lineSplitter) splitWS(c []byte, dst []string) ([]string, *csv.ParseError) {
+	start := s.line
+	bad := func(col int, err error) ([]string, *csv.ParseError) {
+		return dst, &csv.ParseError{StartLine: start, Line: s.line, Column: col + 1, Err: err}
+	}
+	var field []byte
+	i := 0
+	for {
+		for i < len(c) && isWS(c[i]) {
+			i++
+		}
+		if i == len(c) {
+			return dst, nil
+		}
+		if c[i] != '"' {
+			j := i
+			for j < len(c) && !isWS(c[j]) {
+				if c[j] == '"' {
+					return bad(j, csv.ErrBareQuote)
+				}
+				j++
+			}
+			dst = append(dst, string(c[i:j]))
+			i = j
+			continue
+		}
+		field = field[:0]
+		i++
+		for {
+			j := bytes.IndexByte(c[i:], '"')
+			if j < 0 {
+				field = append(field, c[i:]...)
+				raw, err := s.peekLine()
+				if err != nil {
+					return bad(len(c), csv.ErrQuote)
+				}
+				field = append(field, '\n')
+				c, i = s.consume(raw), 0
+				continue
+			}
+			field = append(field, c[i:i+j]...)
+			i += j + 1
+			if i < len(c) && c[i] == '"' {
+				field = append(field, '"')
+				i++
+				continue
+			}
+			break
+		}
+		if i < len(c) && !isWS(c[i]) {
+			return bad(i, csv.ErrQuote)
+		}
+		dst = append(dst, string(field))
+	}
+}

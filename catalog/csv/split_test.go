@@ -26,10 +26,10 @@ import (
 // sameRead compares a read by the splitter with the encoding/csv read of
 // the same spec and returns the first difference, or "".
 func sameRead(spec catalog.Spec, opt catalog.ReadOptions) string {
-	t1, r1, e1 := read(context.Background(), spec, opt, false)
+	t1, r1, e1 := read(context.Background(), spec, opt, false, nil)
 	ref := opt
 	ref.Workers = 1
-	t2, r2, e2 := read(context.Background(), spec, ref, true)
+	t2, r2, e2 := read(context.Background(), spec, ref, true, nil)
 	if (e1 == nil) != (e2 == nil) {
 		return fmt.Sprintf("error %v, reference %v", e1, e2)
 	}
@@ -239,14 +239,23 @@ func FuzzReadSameAsCSV(f *testing.F) {
 	}
 	f.Add([]byte("a,1,2,3,4\nb,\"1\",2,,\n"), true)
 	f.Add([]byte("a,1,2,3,4\r\n\"b\nc\",1,2,3,4\n"), true)
+	f.Add([]byte("a;1;2;3;4\nb;\"1\";2;;\n"), true)
+	f.Add([]byte("a 1  2 3 4\n b \"1\" 2 \"\" \"x\ny\"\n"), true)
 	f.Fuzz(func(t *testing.T, body []byte, header bool) {
-		if header {
-			body = append([]byte("id,ra,dec,parallax,rv\n"), body...)
-		}
-		p := writeTemp(t, t.TempDir(), "fuzz.csv", body)
-		for _, strict := range []bool{false, true} {
-			if d := sameRead(catalog.Spec{File: p, NullMarkers: []string{"NA"}}, catalog.ReadOptions{Strict: strict}); d != "" {
-				t.Errorf("strict=%v: %s", strict, d)
+		// Each delimiter reads the same bytes: the comma's and the
+		// semicolon's reference is encoding/csv, the whitespace's the
+		// quote-aware splitter on every line.
+		dir := t.TempDir()
+		for _, d := range []string{",", ";", " "} {
+			b := body
+			if header {
+				b = append([]byte(strings.ReplaceAll("id,ra,dec,parallax,rv\n", ",", d)), body...)
+			}
+			p := writeTemp(t, dir, "fuzz.csv", b)
+			for _, strict := range []bool{false, true} {
+				if diff := sameRead(catalog.Spec{File: p, Delimiter: d, NullMarkers: []string{"NA"}}, catalog.ReadOptions{Strict: strict}); diff != "" {
+					t.Errorf("delimiter %q strict=%v: %s", d, strict, diff)
+				}
 			}
 		}
 	})
@@ -352,7 +361,7 @@ func TestParsePlain(t *testing.T) {
 				t.Fatalf("layout %+v id %d, want %+v id 0", l.Columns, l.IDIndex, plans)
 			}
 			var row [catalog.NumFields]float64
-			id, ok := newConverter(bld.Layout()).parsePlain([]byte(c.line), &row)
+			id, ok := newConverter(bld.Layout(), ',').parsePlain([]byte(c.line), &row)
 			if ok != c.ok || string(id) != c.id {
 				t.Fatalf("id %q ok %v, want %q %v", id, ok, c.id, c.ok)
 			}

@@ -3,9 +3,10 @@
 // or the file name's ending (catalog.FormatOf) and returns the reader's
 // catalog.Table (canonical units, see package catalog) and catalog.Report.
 //
-// Each format is a subpackage of catalog built on catalog.Builder: today
-// catalog/csv (delimited text, optionally gzipped). A format starvet names
-// but does not read yet is an error saying so, never a silent fallback to
+// Each format is a subpackage of catalog built on catalog.Builder:
+// catalog/csv (delimited text, optionally gzipped), catalog/ecsv,
+// catalog/fits (binary tables) and catalog/votable. A format starvet names
+// but does not read is an error saying so, never a silent fallback to
 // another reader. ingest exists because package catalog cannot choose: its
 // readers import it.
 package ingest
@@ -17,6 +18,7 @@ import (
 
 	"starvet/catalog"
 	csvcat "starvet/catalog/csv"
+	"starvet/catalog/ecsv"
 	fitscat "starvet/catalog/fits"
 	"starvet/catalog/votable"
 )
@@ -35,6 +37,7 @@ type Reader interface {
 // by catalog.FormatOf but not read by this build.
 var readers = map[string]Reader{
 	catalog.FormatCSV:     csvReader{},
+	catalog.FormatECSV:    ecsv.Reader{},
 	catalog.FormatFITS:    fitscat.Reader{},
 	catalog.FormatVOTable: votable.Reader{},
 }

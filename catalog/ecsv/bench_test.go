@@ -1,0 +1,104 @@
+package ecsv
+
+import (
+	"bufio"
+	"context"
+	"fmt"
+	"math/rand/v2"
+	"os"
+	"path/filepath"
+	"syscall"
+	"testing"
+
+	"starvet/catalog"
+)
+
+// writeBenchECSV writes the primary catalog of csvcat's BenchmarkReadCSV
+// (its generator: same seed, same rows) as comma-delimited ECSV: a YAML
+// header naming the 16 columns, then the same rows.
+func writeBenchECSV(tb testing.TB, path string, rows int) {
+	tb.Helper()
+	f, err := os.Create(path)
+	if err != nil {
+		tb.Fatal(err)
+	}
+	w := bufio.NewWriterSize(f, 1<<20)
+	names := []string{"id", "ra", "dec", "ra_err", "dec_err", "parallax", "parallax_err", "pm_ra", "pm_ra_err", "pm_dec", "pm_dec_err", "corr_ra_dec", "fit_residual", "excess_noise", "mag", "color"}
+	units := []string{"", "deg", "deg", "mas", "mas", "mas", "mas", "mas / yr", "mas / yr", "mas / yr", "mas / yr", "", "", "mas", "mag", "mag"}
+	w.WriteString("# %ECSV 1.0\n# ---\n# datatype:\n# - {name: id, datatype: string}\n")
+	for i, n := range names[1:] {
+		if u := units[i+1]; u != "" {
+			fmt.Fprintf(w, "# - {name: %s, unit: %s, datatype: float64}\n", n, u)
+		} else {
+			fmt.Fprintf(w, "# - {name: %s, datatype: float64}\n", n)
+		}
+	}
+	fmt.Fprint(w, "# delimiter: ','\n")
+	fmt.Fprintln(w, "id,ra,dec,ra_err,dec_err,parallax,parallax_err,pm_ra,pm_ra_err,pm_dec,pm_dec_err,corr_ra_dec,fit_residual,excess_noise,mag,color")
+	rng := rand.New(rand.NewPCG(1, 2))
+	for i := range rows {
+		fmt.Fprintf(w, "bench-%08d,%.9f,%.9f,%.4f,%.4f,%.5f,%.5f,%.4f,%.4f,%.4f,%.4f,%.4f,%.4f,%.4f,%.4f,%.4f\n",
+			i, rng.Float64()*360, rng.Float64()*180-90, rng.Float64(), rng.Float64(),
+			rng.NormFloat64(), rng.Float64()*0.3, rng.NormFloat64()*10, rng.Float64(), rng.NormFloat64()*10, rng.Float64(),
+			rng.Float64()*2-1, 1+rng.Float64()*0.4, rng.Float64(), 12+8*rng.Float64(), rng.Float64()*3)
+	}
+	if err := w.Flush(); err != nil {
+		tb.Fatal(err)
+	}
+	if err := f.Close(); err != nil {
+		tb.Fatal(err)
+	}
+}
+
+// BenchmarkReadECSV reads 1,000,000 rows x 15 numeric columns (plus id) of
+// ECSV: the rows of BenchmarkReadCSV under a YAML header. It should take
+// no longer than BenchmarkReadCSV.
+func BenchmarkReadECSV(b *testing.B) {
+	const rows = 1_000_000
+	p := filepath.Join(b.TempDir(), "bench.ecsv")
+	writeBenchECSV(b, p, rows)
+	st, err := os.Stat(p)
+	if err != nil {
+		b.Fatal(err)
+	}
+	b.SetBytes(st.Size())
+	// CPU seconds per op, as BenchmarkReadCSV reports them: the machine is
+	// shared and wall time swings with its load.
+	cpu0 := cpuSeconds(b)
+	n := 0
+	b.ResetTimer()
+	for b.Loop() {
+		n++
+		tab, rep, err := Read(context.Background(), catalog.Spec{Name: "bench", File: p}, catalog.ReadOptions{})
+		if err != nil {
+			b.Fatal(err)
+		}
+		if tab.Len() != rows || len(rep.Quarantined) != 0 {
+			b.Fatalf("kept %d of %d, quarantined %d", tab.Len(), rows, len(rep.Quarantined))
+		}
+	}
+	b.ReportMetric((cpuSeconds(b)-cpu0)/float64(n), "cpu-s/op")
+}
+
+func cpuSeconds(b *testing.B) float64 {
+	var ru syscall.Rusage
+	if err := syscall.Getrusage(syscall.RUSAGE_SELF, &ru); err != nil {
+		b.Fatal(err)
+	}
+	tv := func(t syscall.Timeval) float64 { return float64(t.Sec) + float64(t.Usec)/1e6 }
+	return tv(ru.Utime) + tv(ru.Stime)
+}
+
+// TestBenchFile checks the benchmark's file on a few rows: it reads whole,
+// with the units of its header.
+func TestBenchFile(t *testing.T) {
+	p := filepath.Join(t.TempDir(), "b.ecsv")
+	writeBenchECSV(t, p, 50)
+	tab, rep, err := Read(context.Background(), catalog.Spec{File: p}, catalog.ReadOptions{Strict: true})
+	if err != nil || tab.Len() != 50 || tab.Lines[0] != 22 {
+		t.Fatalf("%v: kept %d, first line %v", err, tab.Len(), tab.Lines[:1])
+	}
+	if len(rep.Unused) != 0 || rep.Mapped["pm_ra"] != "pm_ra" {
+		t.Fatalf("unused %v mapped %v", rep.Unused, rep.Mapped)
+	}
+}
