@@ -83,6 +83,10 @@ type Report struct {
 	// PositionErrFilled counts ra_err/dec_err cells filled from
 	// Spec.PositionErrMas.
 	PositionErrFilled int
+	// Warnings are what the file says about itself that a user must hear
+	// but that does not stop the read, e.g. a service's note that it cut
+	// the result short. Callers print them loudly.
+	Warnings []string
 }
 
 // DefaultNullMarkers returns the cell texts that mean "missing" when a

@@ -29,8 +29,11 @@ type Summary struct {
 	Transitions map[string]int // "old -> new" for stars whose status changed; "(new) -> s" for new stars
 	Catalogs    []db.CatalogRow
 	Quarantined int
-	Computed    int
-	Carried     int
+	// Warnings are the catalogs' own warnings (catalog.Report.Warnings),
+	// e.g. a query result cut short by the service.
+	Warnings []string
+	Computed int
+	Carried  int
 	// RecomputeAll says why every star was recomputed ("" for an
 	// incremental run).
 	RecomputeAll string

@@ -46,6 +46,9 @@ func (e *Engine) Ingest(ctx context.Context, c *campaign.Campaign, strict bool, 
 		}
 		e.Log.Info().Str("catalog", spec.Name).Int("rows_read", rep.RowsRead).Int("rows_kept", rep.RowsKept).
 			Int("rows_quarantined", len(rep.Quarantined)).Msg("ingested")
+		for _, w := range rep.Warnings {
+			e.Log.Warn().Str("catalog", spec.Name).Msg(w)
+		}
 		if rejectDir != "" && len(rep.Quarantined) > 0 {
 			p := filepath.Join(rejectDir, spec.Name+".rejected.csv")
 			if err := catalog.WriteRejected(p, rep.Header, rep.Quarantined); err != nil {

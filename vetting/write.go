@@ -46,6 +46,7 @@ func recordCatalogs(ctx context.Context, w *db.RunWriter, cats *Catalogs, sum *S
 			return err
 		}
 		sum.Quarantined += len(q)
+		sum.Warnings = append(sum.Warnings, rep.Warnings...)
 	}
 	return nil
 }

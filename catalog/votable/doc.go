@@ -31,7 +31,7 @@
 // and the column: malformed XML, a document that ends early or a binary
 // stream that ends inside a row, or rows fewer or more than TABLE nrows,
 // are errors, never a shorter table. A QUERY_STATUS of OVERFLOW returns
-// the table read together with an error wrapping ErrOverflow.
+// the table read, with a warning in the report naming ErrOverflow.
 //
 // Section numbers of the standard cited in comments are from memory of
 // VOTable 1.3 and have not been checked against its text.

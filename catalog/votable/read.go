@@ -87,8 +87,9 @@ func Read(ctx context.Context, spec catalog.Spec, opt catalog.ReadOptions) (*cat
 // document says about it. File and row problems are as for
 // catalog/csv, as *position.Error values naming the file, the table, the
 // 1-based row and the column. When the document's QUERY_STATUS is
-// OVERFLOW the whole table and report are returned with an error wrapping
-// ErrOverflow; every other error returns no table.
+// OVERFLOW the table is read and the report carries a warning that names
+// ErrOverflow (the result is only the first part of a larger one); an
+// ERROR status and every other error return no table.
 func ReadTable(ctx context.Context, spec catalog.Spec, opt catalog.ReadOptions) (*catalog.Table, *catalog.Report, Info, error) {
 	var info Info
 	rep := &catalog.Report{File: spec.File}
@@ -143,8 +144,10 @@ func ReadTable(ctx context.Context, spec catalog.Spec, opt catalog.ReadOptions) 
 	info.QueryStatus, info.QueryMessage = sc.status, sc.message
 	switch strings.ToUpper(strings.TrimSpace(sc.status)) {
 	case "OVERFLOW":
-		return t, rep, info, &position.Error{File: spec.File, What: fmt.Sprintf("table %q", sc.label), Err: ErrOverflow,
+		w := &position.Error{File: spec.File, What: fmt.Sprintf("table %q", sc.label), Err: ErrOverflow,
 			Msg: fmt.Sprintf("%v: the service stopped at a row limit, so these %d rows are the first of a larger result; query again in smaller pieces (%s)", ErrOverflow, rep.RowsRead, sc.message)}
+		rep.Warnings = append(rep.Warnings, w.Error())
+		return t, rep, info, nil
 	case "ERROR":
 		return nil, rep, info, &position.Error{File: spec.File, What: fmt.Sprintf("table %q", sc.label), Err: ErrQueryFailed,
 			Msg: fmt.Sprintf("%v: %s", ErrQueryFailed, sc.message)}

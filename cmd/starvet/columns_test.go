@@ -8,6 +8,9 @@ import (
 	"strconv"
 	"strings"
 	"testing"
+
+	"starvet/verdict"
+	"starvet/vetting"
 )
 
 // tableRows returns the table lines of `starvet columns` keyed by column
@@ -201,4 +204,14 @@ func TestColumnsCommand(t *testing.T) {
 			t.Errorf("starvet --help: exit %d, no columns line", code)
 		}
 	})
+}
+
+// A catalog's warning (a query result cut short by the service) is
+// printed in the run's summary, not only logged.
+func TestSummaryPrintsWarnings(t *testing.T) {
+	var b strings.Builder
+	printSummary(&b, &vetting.Summary{RunID: 3, Counts: map[verdict.Status]int{}, Warnings: []string{`finch.vot: table "main": VOTable query result is truncated`}})
+	if !strings.Contains(b.String(), "WARNING: finch.vot: table \"main\": VOTable query result is truncated\n") {
+		t.Errorf("summary:\n%s", b.String())
+	}
 }

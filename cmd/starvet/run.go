@@ -77,6 +77,9 @@ func printSummary(w io.Writer, s *vetting.Summary) {
 		}
 	}
 	fmt.Fprintf(w, "rows quarantined: %d\n", s.Quarantined)
+	for _, warn := range s.Warnings {
+		fmt.Fprintf(w, "WARNING: %s\n", warn)
+	}
 	if s.Counts[verdict.Unbound] > 0 {
 		fmt.Fprintln(w, "note: \"unbound\" depends on the adopted potential and Solar parameters; these are candidates for follow-up, not discoveries.")
 	}
