@@ -489,6 +489,9 @@ func (ct catTable) role(s *catalog.Spec, role *string) bool {
 
 func (ct catTable) epoch(s *catalog.Spec, epoch *float64) {
 	if epoch == nil {
+		if f, _ := catalog.FormatOf(s.File, s.Format); f == catalog.FormatVOTable {
+			return // the file's COOSYS may say; ingest fails when it does not
+		}
 		ct.bad(ct.at(), ct.key("epoch"), ErrMissing, "is required (Julian year of the positions)")
 		return
 	}

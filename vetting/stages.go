@@ -44,6 +44,9 @@ func (e *Engine) Ingest(ctx context.Context, c *campaign.Campaign, strict bool, 
 		if err != nil {
 			return nil, err
 		}
+		if t.EpochJyr == 0 {
+			return nil, fmt.Errorf("%s: catalog %s: neither the campaign nor the file gives the epoch of the positions; set `epoch` in its [[catalog]]", spec.File, spec.Name)
+		}
 		e.Log.Info().Str("catalog", spec.Name).Int("rows_read", rep.RowsRead).Int("rows_kept", rep.RowsKept).
 			Int("rows_quarantined", len(rep.Quarantined)).Msg("ingested")
 		for _, w := range rep.Warnings {

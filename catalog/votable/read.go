@@ -7,6 +7,7 @@ import (
 	"encoding/hex"
 	"errors"
 	"fmt"
+	"math"
 	"io"
 	"os"
 	"strings"
@@ -35,7 +36,10 @@ var (
 	// the service that wrote it stopped at a row limit, so the table is
 	// the first rows of a larger result. Read returns the table and report
 	// it read together with this error.
-	ErrOverflow = errors.New("VOTable query result is truncated (QUERY_STATUS OVERFLOW)")
+	// ErrEpochConflict marks a file whose COOSYS epoch differs from the
+	// campaign's epoch for the catalog.
+	ErrEpochConflict = errors.New("epoch of the file and of the campaign differ")
+	ErrOverflow      = errors.New("VOTable query result is truncated (QUERY_STATUS OVERFLOW)")
 	// ErrQueryFailed marks a document whose INFO QUERY_STATUS is ERROR.
 	ErrQueryFailed = errors.New("VOTable query failed (QUERY_STATUS ERROR)")
 )
@@ -126,6 +130,10 @@ func ReadTable(ctx context.Context, spec catalog.Spec, opt catalog.ReadOptions) 
 	}
 	info.Epoch = sc.epoch(m.Column[catalog.RA])
 	info.EpochJyr, _ = julianYear(info.Epoch)
+	if spec.EpochJyr != 0 && info.EpochJyr != 0 && math.Abs(spec.EpochJyr-info.EpochJyr) > epochToleranceJyr {
+		return nil, bld.Report(), info, &position.Error{File: spec.File, What: fmt.Sprintf("table %q", sc.label), Err: ErrEpochConflict,
+			Msg: fmt.Sprintf("%v: the campaign says epoch %v, the file's COOSYS says %s; fix one of them", ErrEpochConflict, spec.EpochJyr, info.Epoch)}
+	}
 	if err := rd.run(ctx, bld); err != nil {
 		return nil, bld.Report(), info, sc.inTable(err)
 	}
@@ -141,6 +149,7 @@ func ReadTable(ctx context.Context, spec catalog.Spec, opt catalog.ReadOptions) 
 	if t.EpochJyr == 0 {
 		t.EpochJyr = info.EpochJyr
 	}
+
 	info.QueryStatus, info.QueryMessage = sc.status, sc.message
 	switch strings.ToUpper(strings.TrimSpace(sc.status)) {
 	case "OVERFLOW":
@@ -334,3 +343,8 @@ func (h *hashingReader) close() {
 		close(h.done)
 	}
 }
+
+// epochToleranceJyr is how far a campaign's epoch may differ from the
+// file's and still agree: well below a day, since both are written to a
+// few decimals of a year (common practice).
+const epochToleranceJyr = 1e-3
