@@ -16,6 +16,7 @@ import (
 
 	"starvet/catalog"
 	csvcat "starvet/catalog/csv"
+	parquetcat "starvet/catalog/parquet"
 )
 
 // Reader reads one file format.
@@ -37,6 +38,8 @@ func For(spec catalog.Spec) (Reader, error) {
 	switch format {
 	case catalog.FormatCSV:
 		return csvReader{}, nil
+	case catalog.FormatParquet:
+		return parquetcat.Reader{}, nil
 	}
 	return nil, catalog.WrapFileError(spec.File, 0, "", catalog.ErrFormat,
 		fmt.Errorf("format %s is not read by this build of starvet (it reads %s)", format, catalog.FormatCSV))
