@@ -12,6 +12,7 @@ import (
 	"sync"
 
 	"github.com/parquet-go/parquet-go"
+	"github.com/parquet-go/parquet-go/encoding"
 
 	"starvet/catalog"
 	"starvet/internal/parallel"
@@ -107,8 +108,13 @@ func (pf *file) plan(l *catalog.Layout) (*plan, error) {
 type work struct {
 	out   catalog.Batch
 	raw   rawRows
+	ids   idColumn
+	vals  [][]float64 // the numeric columns of the batch, in plan order
 	fatal error
 }
+
+// works recycles batches once the builder has taken them.
+var works = sync.Pool{New: func() any { return new(work) }}
 
 // stream decodes the row groups on workers and hands their batches to the
 // builder in file order.
@@ -167,6 +173,8 @@ func (pf *file) stream(ctx context.Context, p *plan, bld *catalog.Builder, worke
 			}
 			err := bld.Add(&w.out, &w.raw)
 			w.raw.close()
+			w.raw = rawRows{}
+			works.Put(w)
 			if err != nil {
 				return err
 			}
@@ -181,32 +189,219 @@ type colReader struct {
 	page  parquet.Page
 	vals  parquet.ValueReader
 	buf   []parquet.Value
+	// The typed path, for a page of numbers: its non-null values as
+	// float64 and its definition levels (nil for a required column).
+	typed      bool
+	fv         []float64
+	defs       []byte
+	maxDef     byte
+	rpos, vpos int // next row, next non-null value
+	unsigned   bool
+	scratch    []float64
+	dict       parquet.Dictionary
+	dictF      []float64
+}
+
+// next loads the next page; io.EOF when the chunk has no more.
+func (c *colReader) next(numeric bool) error {
+	pg, err := c.pages.ReadPage()
+	if err != nil {
+		return err
+	}
+	c.page, c.vals, c.typed = pg, nil, false
+	if numeric {
+		if fv, ok, err := c.floats(pg); err != nil {
+			return err
+		} else if ok {
+			defs := pg.DefinitionLevels()
+			if defs == nil && int64(len(fv)) != pg.NumRows() {
+				return fmt.Errorf("page of %d rows holds %d values", pg.NumRows(), len(fv))
+			}
+			if defs != nil && countDefined(defs, c.maxDef) != len(fv) {
+				return fmt.Errorf("page of %d non-null rows holds %d values", countDefined(defs, c.maxDef), len(fv))
+			}
+			c.typed, c.fv, c.defs, c.rpos, c.vpos = true, fv, defs, 0, 0
+			return nil
+		}
+	}
+	c.vals = pg.Values()
+	return nil
+}
+
+func countDefined(defs []byte, maxDef byte) int {
+	n := 0
+	for _, d := range defs {
+		if d == maxDef {
+			n++
+		}
+	}
+	return n
+}
+
+// floats is a page's non-null values as float64, when its type allows.
+func (c *colReader) floats(pg parquet.Page) ([]float64, bool, error) {
+	d := pg.Data()
+	dict := pg.Dictionary()
+	if dict == nil {
+		fv, ok := toFloats(d, c.unsigned, c.scratch[:0])
+		if ok && d.Kind() != encoding.Double {
+			c.scratch = fv
+		}
+		return fv, ok, nil
+	}
+	if d.Kind() != encoding.Int32 {
+		return nil, false, nil
+	}
+	if dict != c.dict {
+		dd := dict.Page().Data()
+		fv, ok := toFloats(dd, c.unsigned, c.dictF[:0])
+		if !ok {
+			return nil, false, nil
+		}
+		if dd.Kind() == encoding.Double {
+			fv = append(c.dictF[:0], fv...) // the dictionary's own memory: keep a copy
+		}
+		c.dict, c.dictF = dict, fv
+	}
+	idx := d.Int32()
+	out := c.scratch[:0]
+	for _, i := range idx {
+		if i < 0 || int(i) >= len(c.dictF) {
+			return nil, false, fmt.Errorf("dictionary index %d out of %d values", i, len(c.dictF))
+		}
+		out = append(out, c.dictF[i])
+	}
+	c.scratch = out
+	return out, true, nil
+}
+
+// toFloats converts typed values to float64, into dst unless they are
+// already float64.
+func toFloats(v encoding.Values, unsigned bool, dst []float64) ([]float64, bool) {
+	switch v.Kind() {
+	case encoding.Double:
+		return v.Double(), true
+	case encoding.Float:
+		for _, x := range v.Float() {
+			dst = append(dst, float64(x))
+		}
+	case encoding.Int32:
+		if unsigned {
+			for _, x := range v.Uint32() {
+				dst = append(dst, float64(x))
+			}
+		} else {
+			for _, x := range v.Int32() {
+				dst = append(dst, float64(x))
+			}
+		}
+	case encoding.Int64:
+		if unsigned {
+			for _, x := range v.Uint64() {
+				dst = append(dst, float64(x))
+			}
+		} else {
+			for _, x := range v.Int64() {
+				dst = append(dst, float64(x))
+			}
+		}
+	default:
+		return nil, false
+	}
+	return dst, true
+}
+
+func (c *colReader) release() {
+	if c.page != nil {
+		parquet.Release(c.page)
+	}
+	c.page, c.vals, c.typed, c.fv, c.defs = nil, nil, false, nil, nil
+}
+
+// readFloats appends up to n values to dst as float64 (NaN for null).
+func (c *colReader) readFloats(n int, dst []float64) ([]float64, int, error) {
+	got := 0
+	for got < n {
+		if c.page == nil {
+			if err := c.next(true); err == io.EOF {
+				return dst, got, nil
+			} else if err != nil {
+				return dst, got, err
+			}
+		}
+		if !c.typed {
+			k, err := c.readValues(n-got, func(vs []parquet.Value) {
+				for _, v := range vs {
+					dst = append(dst, toFloat(v, c.unsigned))
+				}
+			})
+			got += k
+			if err != nil {
+				return dst, got, err
+			}
+			continue
+		}
+		rows := len(c.fv)
+		if c.defs != nil {
+			rows = len(c.defs)
+		}
+		k := min(n-got, rows-c.rpos)
+		if c.defs == nil {
+			dst = append(dst, c.fv[c.vpos:c.vpos+k]...)
+			c.vpos += k
+		} else {
+			for _, d := range c.defs[c.rpos : c.rpos+k] {
+				if d == c.maxDef {
+					dst = append(dst, c.fv[c.vpos])
+					c.vpos++
+				} else {
+					dst = append(dst, math.NaN())
+				}
+			}
+		}
+		c.rpos += k
+		got += k
+		if c.rpos == rows {
+			c.release()
+		}
+	}
+	return dst, got, nil
 }
 
 // read reads up to n values, handing each run to use before the page
 // that holds them is released; it returns how many it read.
 func (c *colReader) read(n int, use func([]parquet.Value)) (int, error) {
-	got, idle := 0, 0
+	got := 0
 	for got < n {
-		if c.vals == nil {
-			pg, err := c.pages.ReadPage()
-			if err == io.EOF {
+		if c.page == nil {
+			if err := c.next(false); err == io.EOF {
 				return got, nil
-			}
-			if err != nil {
+			} else if err != nil {
 				return got, err
 			}
-			c.page, c.vals = pg, pg.Values()
 		}
+		k, err := c.readValues(n-got, use)
+		got += k
+		if err != nil {
+			return got, err
+		}
+	}
+	return got, nil
+}
+
+// readValues reads up to n values of the current page through the
+// library's value reader, releasing the page at its end.
+func (c *colReader) readValues(n int, use func([]parquet.Value)) (int, error) {
+	got, idle := 0, 0
+	for got < n && c.page != nil {
 		k, err := c.vals.ReadValues(c.buf[:min(len(c.buf), n-got)])
 		if k > 0 {
 			use(c.buf[:k])
 			got, idle = got+k, 0
 		}
 		if err == io.EOF {
-			parquet.Release(c.page)
-			c.page, c.vals = nil, nil
-			continue
+			c.release()
+			break
 		}
 		if err != nil {
 			return got, err
@@ -221,9 +416,7 @@ func (c *colReader) read(n int, use func([]parquet.Value)) (int, error) {
 }
 
 func (c *colReader) close() {
-	if c.page != nil {
-		parquet.Release(c.page)
-	}
+	c.release()
 	if c.pages != nil {
 		c.pages.Close()
 	}
@@ -259,7 +452,8 @@ func (pf *file) decodeGroup(p *plan, gi int, g parquet.RowGroup, start int64, ch
 			return fmt.Errorf("%d column chunks for %d columns", len(chunks), len(pf.leaves))
 		}
 		open := func(i int) *colReader {
-			r := &colReader{pages: chunks[i].Pages(), buf: make([]parquet.Value, 1024)}
+			lf := &pf.leaves[i]
+			r := &colReader{pages: chunks[i].Pages(), buf: make([]parquet.Value, 1024), unsigned: lf.unsigned, maxDef: byte(lf.col.MaxDefinitionLevel())}
 			readers = append(readers, r)
 			return r
 		}
@@ -269,14 +463,19 @@ func (pf *file) decodeGroup(p *plan, gi int, g parquet.RowGroup, start int64, ch
 			nums[k] = open(i)
 		}
 		l := p.layout
-		vals := make([][]float64, len(p.nums))
 		vals1 := make([]float64, len(p.nums))
 		for done < rows {
 			n := int(min(rows-done, batchRows))
-			w := &work{raw: rawRows{pf: pf, p: p, g: g, gstart: start, off: done}}
+			w := works.Get().(*work)
+			w.raw = rawRows{pf: pf, p: p, g: g, gstart: start, off: done}
+			if len(w.vals) != len(p.nums) {
+				w.vals = make([][]float64, len(p.nums))
+			}
+			vals := w.vals
 			// the id column
 			colName = pf.cols[p.id].Name
-			ids := idColumn{unsigned: pf.leaves[p.id].unsigned}
+			ids := &w.ids
+			ids.reset(pf.leaves[p.id].unsigned)
 			got, err := idr.read(n, ids.add)
 			if err != nil {
 				return err
@@ -289,18 +488,17 @@ func (pf *file) decodeGroup(p *plan, gi int, g parquet.RowGroup, start int64, ch
 				if cap(vals[k]) < n {
 					vals[k] = make([]float64, 0, batchRows)
 				}
-				fc := floatColumn{v: vals[k][:0], lf: &pf.leaves[i]}
-				got, err := nums[k].read(n, fc.add)
+				v, got, err := nums[k].readFloats(n, vals[k][:0])
 				if err != nil {
 					return err
 				}
 				if got != n {
 					return fmt.Errorf("%w: the column ends after %d of the row group's %d rows", errShort, done+int64(got), rows)
 				}
-				vals[k] = fc.v
+				vals[k] = v
 			}
 			colName = ""
-			w.raw.ids, w.raw.vals = &ids, vals
+			w.raw.ids, w.raw.vals = ids, vals
 			b := &w.out
 			b.Begin(l, n)
 			for r := range n {
@@ -322,7 +520,6 @@ func (pf *file) decodeGroup(p *plan, gi int, g parquet.RowGroup, start int64, ch
 				b.Add(at, ids.id(r))
 			}
 			b.End()
-			vals = make([][]float64, len(p.nums)) // w keeps the old ones for its raw rows
 			if !send(w) {
 				return nil
 			}
@@ -350,18 +547,6 @@ func (pf *file) decodeGroup(p *plan, gi int, g parquet.RowGroup, start int64, ch
 }
 
 var errShort = errors.New("file truncated or corrupt")
-
-// floatColumn collects a numeric column's values as float64, NaN for null.
-type floatColumn struct {
-	v  []float64
-	lf *leaf
-}
-
-func (c *floatColumn) add(vs []parquet.Value) {
-	for _, v := range vs {
-		c.v = append(c.v, toFloat(v, c.lf.unsigned))
-	}
-}
 
 func toFloat(v parquet.Value, unsigned bool) float64 {
 	if v.IsNull() {
@@ -399,10 +584,11 @@ type idColumn struct {
 	null     []bool
 }
 
+func (c *idColumn) reset(unsigned bool) {
+	c.unsigned, c.buf, c.off, c.null = unsigned, c.buf[:0], append(c.off[:0], 0), c.null[:0]
+}
+
 func (c *idColumn) add(vs []parquet.Value) {
-	if c.off == nil {
-		c.off = append(make([]int32, 0, batchRows+1), 0)
-	}
 	for _, v := range vs {
 		c.null = append(c.null, v.IsNull())
 		if !v.IsNull() {
