@@ -22,6 +22,10 @@ import (
 // batchRows is how many rows a worker converts at a time.
 const batchRows = 4096
 
+// aheadBatches is how many converted batches of one row group may wait
+// for the builder (at 16 columns, about 8 MB).
+const aheadBatches = 16
+
 // Read ingests one Parquet catalog file into canonical units. File-level
 // problems are returned as *position.Error with no table; row problems
 // quarantine the row (or, with opt.Strict, the first is returned). The
@@ -142,7 +146,9 @@ func (pf *file) stream(ctx context.Context, p *plan, bld *catalog.Builder, worke
 		sem := make(chan struct{}, workers)
 		var start int64
 		for gi, g := range groups {
-			ch := make(chan *work, 2)
+			// Room for a group's batches, up to aheadBatches, so that a
+			// worker decodes the next group while the builder takes this one.
+			ch := make(chan *work, min((g.NumRows()+batchRows-1)/batchRows, aheadBatches))
 			select {
 			case queue <- ch:
 			case <-stop:
