@@ -56,5 +56,7 @@
 // Builder in file order; the context is checked between batches. The
 // Report's SHA-256 covers the raw file bytes, hashed on a goroutine of its
 // own while the rows are read. Compressions are those of
-// github.com/parquet-go/parquet-go: snappy, gzip, zstd, lz4 and brotli.
+// github.com/parquet-go/parquet-go; the tests read snappy, zstd and gzip
+// files written by DuckDB (the library also has lz4 and brotli codecs,
+// which no test here reads).
 package parquetcat
