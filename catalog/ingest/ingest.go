@@ -5,7 +5,7 @@
 //
 // Each format is a subpackage of catalog built on catalog.Builder:
 // catalog/csv (delimited text, optionally gzipped), catalog/ecsv,
-// catalog/fits (binary tables) and catalog/votable. A format starvet names
+// catalog/fits (binary tables), catalog/votable and catalog/parquet. A format starvet names
 // but does not read is an error saying so, never a silent fallback to
 // another reader. ingest exists because package catalog cannot choose: its
 // readers import it.
@@ -20,6 +20,7 @@ import (
 	csvcat "starvet/catalog/csv"
 	"starvet/catalog/ecsv"
 	fitscat "starvet/catalog/fits"
+	parquetcat "starvet/catalog/parquet"
 	"starvet/catalog/votable"
 )
 
@@ -40,6 +41,7 @@ var readers = map[string]Reader{
 	catalog.FormatECSV:    ecsv.Reader{},
 	catalog.FormatFITS:    fitscat.Reader{},
 	catalog.FormatVOTable: votable.Reader{},
+	catalog.FormatParquet: parquetcat.Reader{},
 }
 
 // For returns the reader of spec's file.

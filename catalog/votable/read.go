@@ -7,8 +7,8 @@ import (
 	"encoding/hex"
 	"errors"
 	"fmt"
-	"math"
 	"io"
+	"math"
 	"os"
 	"strings"
 

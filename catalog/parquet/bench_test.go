@@ -1,0 +1,108 @@
+package parquetcat
+
+import (
+	"context"
+	"fmt"
+	"math/rand/v2"
+	"os"
+	"path/filepath"
+	"syscall"
+	"testing"
+
+	"github.com/parquet-go/parquet-go"
+
+	"starvet/catalog"
+)
+
+// benchRow is the CSV benchmark's primary catalog (catalog/csv's
+// writeBenchCSV): an id and 15 numbers.
+type benchRow struct {
+	ID          string  `parquet:"id"`
+	RA          float64 `parquet:"ra"`
+	Dec         float64 `parquet:"dec"`
+	RAErr       float64 `parquet:"ra_err"`
+	DecErr      float64 `parquet:"dec_err"`
+	Parallax    float64 `parquet:"parallax"`
+	ParallaxErr float64 `parquet:"parallax_err"`
+	PMRA        float64 `parquet:"pm_ra"`
+	PMRAErr     float64 `parquet:"pm_ra_err"`
+	PMDec       float64 `parquet:"pm_dec"`
+	PMDecErr    float64 `parquet:"pm_dec_err"`
+	CorrRADec   float64 `parquet:"corr_ra_dec"`
+	FitResidual float64 `parquet:"fit_residual"`
+	ExcessNoise float64 `parquet:"excess_noise"`
+	Mag         float64 `parquet:"mag"`
+	Color       float64 `parquet:"color"`
+}
+
+// writeBenchParquet writes rows rows with the same seed and draws as
+// writeBenchCSV, unrounded, snappy-compressed, in row groups of 131,072
+// rows (about the size common writers default to).
+func writeBenchParquet(tb testing.TB, path string, rows int) {
+	tb.Helper()
+	f, err := os.Create(path)
+	if err != nil {
+		tb.Fatal(err)
+	}
+	w := parquet.NewGenericWriter[benchRow](f, parquet.Compression(&parquet.Snappy), parquet.MaxRowsPerRowGroup(131072))
+	rng := rand.New(rand.NewPCG(1, 2))
+	buf := make([]benchRow, 0, 8192)
+	flush := func() {
+		if _, err := w.Write(buf); err != nil {
+			tb.Fatal(err)
+		}
+		buf = buf[:0]
+	}
+	for i := range rows {
+		buf = append(buf, benchRow{fmt.Sprintf("bench-%08d", i), rng.Float64() * 360, rng.Float64()*180 - 90, rng.Float64(), rng.Float64(),
+			rng.NormFloat64(), rng.Float64() * 0.3, rng.NormFloat64() * 10, rng.Float64(), rng.NormFloat64() * 10, rng.Float64(),
+			rng.Float64()*2 - 1, 1 + rng.Float64()*0.4, rng.Float64(), 12 + 8*rng.Float64(), rng.Float64() * 3})
+		if len(buf) == cap(buf) {
+			flush()
+		}
+	}
+	flush()
+	if err := w.Close(); err != nil {
+		tb.Fatal(err)
+	}
+	if err := f.Close(); err != nil {
+		tb.Fatal(err)
+	}
+}
+
+// BenchmarkReadParquet reads 1,000,000 rows x 15 numeric columns (plus
+// id). The target is at most 0.5 s per op on 2 cores.
+func BenchmarkReadParquet(b *testing.B) {
+	const rows = 1_000_000
+	p := filepath.Join(b.TempDir(), "bench.parquet")
+	writeBenchParquet(b, p, rows)
+	st, err := os.Stat(p)
+	if err != nil {
+		b.Fatal(err)
+	}
+	b.SetBytes(st.Size())
+	b.ReportAllocs()
+	cpu0 := cpuSeconds(b)
+	n := 0
+	b.ResetTimer()
+	for b.Loop() {
+		n++
+		tab, rep, err := Read(context.Background(), catalog.Spec{Name: "bench", File: p}, catalog.ReadOptions{})
+		if err != nil {
+			b.Fatal(err)
+		}
+		if tab.Len() != rows || len(rep.Quarantined) != 0 {
+			b.Fatalf("kept %d of %d, quarantined %d", tab.Len(), rows, len(rep.Quarantined))
+		}
+	}
+	b.ReportMetric((cpuSeconds(b)-cpu0)/float64(n), "cpu-s/op")
+}
+
+func cpuSeconds(b *testing.B) float64 {
+	var ru syscall.Rusage
+	if err := syscall.Getrusage(syscall.RUSAGE_SELF, &ru); err != nil {
+		b.Fatal(err)
+	}
+	tv := func(t syscall.Timeval) float64 { return float64(t.Sec) + float64(t.Usec)/1e6 }
+	return tv(ru.Utime) + tv(ru.Stime)
+}
