@@ -173,7 +173,12 @@ func writeColumns(w io.Writer, d columnsView) error {
 	for i, m := range d.NullMarkers {
 		quoted[i] = fmt.Sprintf("%q", m)
 	}
-	fmt.Fprintf(w, "nulls:   %s (cells read as missing)\n\n", strings.Join(quoted, ", "))
+	if d.Format == catalog.FormatCSV || d.Format == catalog.FormatECSV {
+		fmt.Fprintf(w, "nulls:   %s (cells read as missing)\n", strings.Join(quoted, ", "))
+	} else {
+		fmt.Fprintf(w, "nulls:   as the file marks them (null values, NaN, null masks)\n")
+	}
+	fmt.Fprintln(w)
 	tw := tabwriter.NewWriter(w, 0, 0, 2, ' ', 0)
 	fmt.Fprintln(tw, "#\tCOLUMN\tTYPE\tUNIT\tUCD\tFIELD\tBY\tREAD IN")
 	for _, c := range d.Columns {
