@@ -157,3 +157,17 @@ func TestBadDelimiter(t *testing.T) {
 		t.Fatalf("tab Columns %v %v", cols, err)
 	}
 }
+
+// A file named .tsv is tab-separated without a delimiter key (the
+// ending's meaning: common practice); an explicit delimiter still wins.
+func TestTSVEnding(t *testing.T) {
+	dir := t.TempDir()
+	p := writeTemp(t, dir, "t.tsv", []byte("id\tra\tdec\nx1\t10.5\t-3\n"))
+	tab, rep, err := Read(context.Background(), catalog.Spec{File: p}, catalog.ReadOptions{})
+	if err != nil || rep.RowsKept != 1 || tab.Cols[catalog.RA][0] != 10.5 {
+		t.Fatalf("tsv: %v, %+v", err, rep)
+	}
+	if _, _, err := Read(context.Background(), catalog.Spec{File: p, Delimiter: ","}, catalog.ReadOptions{}); !errors.Is(err, catalog.ErrBadHeader) {
+		t.Errorf("tsv read as comma-separated: %v, want the one-column header error", err)
+	}
+}

@@ -624,10 +624,16 @@ func ColumnsText(spec catalog.Spec, p *Preamble) ([]catalog.ColumnMeta, error) {
 }
 
 // separator is the byte between fields that spec's delimiter names; ' '
-// stands for runs of spaces and tabs.
+// stands for runs of spaces and tabs. Without a delimiter a file named
+// .tsv (or .tsv.gz) is tab-separated and any other comma-separated.
 func separator(spec catalog.Spec) (byte, error) {
 	switch spec.Delimiter {
-	case "", ",":
+	case "":
+		if name := strings.ToLower(strings.TrimSuffix(strings.ToLower(spec.File), ".gz")); strings.HasSuffix(name, ".tsv") {
+			return '\t', nil
+		}
+		return ',', nil
+	case ",":
 		return ',', nil
 	case ";", "\t", " ":
 		return spec.Delimiter[0], nil
