@@ -13,7 +13,7 @@ import (
 // WriteTable writes t as a FITS file (FITS Standard 4.0): a primary HDU
 // with no data, then one BINTABLE extension named t.Name (EXTNAME). Float
 // columns are D with NaN as null, Int columns K with TNULLn =
-// catalog.OutNullInt, Text columns nA with A the longest value (blank
+// catalog.OutNullInt, Text columns nA with n the longest value (NUL
 // padded, "" null); TUNITn carries the unit in FITS spelling, TUCDn the
 // UCD, and the TTYPEn comment the description, cut to fit the card. Rows
 // are streamed; a name ending in .gz is gzipped.
@@ -51,10 +51,11 @@ func WriteTable(path string, t *catalog.OutTable) error {
 					o.Abort()
 					return fmt.Errorf("%s: column %q, row %d: %w; write VOTable or ECSV for such text", path, c.Name, i+1, err)
 				}
+				// a shorter string ends at a NUL (section 7.3.3.1); NUL
+				// padding, unlike blanks, keeps trailing blanks of the
+				// value and reads back as the string itself
 				n := copy(row[off:off+w], s)
-				for k := off + n; k < off+w; k++ {
-					row[k] = ' '
-				}
+				clear(row[off+n : off+w])
 				off += w
 			}
 		}
