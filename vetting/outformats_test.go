@@ -81,7 +81,7 @@ func outSample(unicode bool) *catalog.OutTable {
 	id.UCD += ";meta.main"
 	id.Text = []string{"a-1", "it's \"two\" words", "", "#4"}
 	pm := catalog.FieldColumn(catalog.PMRA)
-	pm.Float = []float64{0.1 + 0.2, nan, -1.5e-300, math.Inf(1)}
+	pm.Float = []float64{math.Nextafter(0.3, 1), nan, -1.5e-300, math.Inf(1)}
 	t := &catalog.OutTable{Name: "sample", Columns: []catalog.OutColumn{id, pm,
 		{Name: "speed", Unit: "km/s", UCD: "phys.veloc", Description: "a speed", Float: []float64{712.375, -0.5, nan, 1e300}},
 		{Name: "r_gc", Unit: "kpc", Float: []float64{8.25, 50, nan, 0}},

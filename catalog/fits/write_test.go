@@ -20,7 +20,7 @@ func writeSample() *catalog.OutTable {
 	id := catalog.FieldColumn(catalog.ID)
 	id.Text = []string{"s-1", "it's 2", "s3"}
 	ra := catalog.FieldColumn(catalog.RA)
-	ra.Float = []float64{10.125, 359.999999999999, 0.1 + 0.2}
+	ra.Float = []float64{10.125, 359.999999999999, math.Nextafter(0.3, 1)}
 	pm := catalog.FieldColumn(catalog.PMRA)
 	pm.Float = []float64{-3.25e-7, nan, 1e300}
 	rv := catalog.FieldColumn(catalog.RV)
