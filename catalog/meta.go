@@ -231,3 +231,12 @@ func (s Spec) fillUnits(m *Mapping, cols []ColumnMeta) error {
 	}
 	return nil
 }
+
+// FieldUCD is the UCD a writer gives a column holding field f: its first
+// word list joined by ';' ("stat.error;pos.eq.ra"), "" when none.
+func FieldUCD(f Field) string {
+	if lists := fieldUCDs[f]; len(lists) > 0 {
+		return strings.Join(lists[0], ";")
+	}
+	return ""
+}

@@ -35,4 +35,8 @@
 // convert them through catalog.Layout.ConvertValues, and the caller's
 // goroutine hands the chunks to catalog.Builder in file order. Memory is
 // the table kept plus a few chunks.
+//
+// WriteTable writes a catalog.OutTable as a primary HDU without data and
+// one BINTABLE (D, K with TNULLn, NUL-padded nA; TUNITn, TUCDn, EXTNAME),
+// streamed, gzipped for a name ending in .gz.
 package fitscat

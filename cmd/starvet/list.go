@@ -7,8 +7,10 @@ import (
 	"io"
 	"strconv"
 
+	"starvet/catalog"
 	"starvet/db"
 	"starvet/internal/numfmt"
+	"starvet/vetting"
 )
 
 var listColumns = []string{"star_id", "status", "quality", "computed_in_run", "input_hash", "distance_method",
@@ -24,15 +26,18 @@ func listRecord(v db.VerdictRow) []string {
 
 func runList(ctx context.Context, env *Env, args []string) error {
 	var af auditFlags
-	fs := newFlags(env, "list", "[--ledger PATH] [--status S] [--run N] [--limit N] [--csv | --json]",
+	fs := newFlags(env, "list", "[--ledger PATH] [--status S] [--run N] [--limit N] [--csv | --json | -o FILE]",
 		"List the stars of a run (default: the latest complete run) with their status,\n"+
 			"ordered by star id. Text shows a summary table; --csv and --json give every\n"+
-			"verdict column (missing values empty in CSV, null in JSON).")
+			"verdict column (missing values empty in CSV, null in JSON). -o FILE writes every\n"+
+			"verdict column with units to FILE, in the format its ending names (.csv, .ecsv,\n"+
+			".fits, .vot; .gz after csv, ecsv or fits compresses).")
 	af.register(fs)
 	status := fs.String("status", "", "only stars with this status")
 	run := fs.Int64("run", 0, "run id (0 = latest complete run)")
 	limit := fs.Int("limit", 0, "at most this many stars (0 = all)")
 	asCSV := fs.Bool("csv", false, "write CSV with a header line")
+	out := fs.String("o", "", "write the verdicts with units to this file (.csv, .ecsv, .fits, .vot)")
 	pos, err := parseArgs(env, fs, args)
 	if err != nil {
 		return err
@@ -46,6 +51,13 @@ func runList(ctx context.Context, env *Env, args []string) error {
 		return usageError("--limit %d: want 0 or more", *limit)
 	case *asCSV && af.json:
 		return usageError("--csv and --json exclude each other")
+	case *out != "" && (*asCSV || af.json):
+		return usageError("-o excludes --csv and --json")
+	}
+	if *out != "" {
+		if _, err := catalog.OutFormat(*out); err != nil {
+			return usageError("list: -o: %v", err)
+		}
 	}
 	l, err := openLedgerRO(ctx, af.ledger)
 	if err != nil {
@@ -54,6 +66,8 @@ func runList(ctx context.Context, env *Env, args []string) error {
 	defer l.Close()
 	f := db.ListFilter{Status: *status, Run: *run, Limit: *limit}
 	switch {
+	case *out != "":
+		return writeListFile(ctx, env, l, f, *out)
 	case *asCSV:
 		return writeListCSV(ctx, env.Stdout, l, f)
 	case af.json:
@@ -74,6 +88,22 @@ func writeListCSV(ctx context.Context, w io.Writer, l *db.Ledger, f db.ListFilte
 		return err
 	}
 	return cw.Error()
+}
+
+func writeListFile(ctx context.Context, env *Env, l *db.Ledger, f db.ListFilter, path string) error {
+	vt := vetting.NewVerdictTable("verdicts")
+	runID, err := l.ListRun(ctx, f, func(v db.VerdictRow) error {
+		vt.Add(v)
+		return nil
+	})
+	if err != nil {
+		return err
+	}
+	if err := vetting.WriteOut(path, &vt.Table); err != nil {
+		return err
+	}
+	fmt.Fprintf(env.Stderr, "wrote %d stars of run %d to %s\n", vt.Table.Len(), runID, path)
+	return nil
 }
 
 func writeListJSON(ctx context.Context, w io.Writer, l *db.Ledger, f db.ListFilter) error {

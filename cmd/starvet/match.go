@@ -6,6 +6,7 @@ import (
 	"path/filepath"
 
 	"starvet/campaign"
+	"starvet/catalog"
 	"starvet/internal/numfmt"
 	"starvet/vetting"
 )
@@ -16,7 +17,7 @@ func runMatch(ctx context.Context, env *Env, args []string) error {
 			"counterpart in each other catalog (separation, posterior match probability, number of\n"+
 			"candidates, ambiguity), its duplicate count, and its quality under the rule set.\n"+
 			"Rejected input rows go to <catalog>.rejected.csv beside the output.")
-	out := fs.String("o", "", "output CSV file (required)")
+	out := fs.String("o", "", "output file (required); its ending names the format: .csv, .ecsv, .fits, .vot (also .fit, .votable, .xml; .gz after csv, ecsv or fits compresses)")
 	strict := fs.Bool("strict", false, "stop at the first bad input row instead of quarantining it")
 	rulesPath := fs.String("rules", "", "rule-set file replacing the campaign's (\"default\" for the embedded set)")
 	workers := fs.Int("workers", 0, "worker goroutines (0: one per core)")
@@ -29,6 +30,9 @@ func runMatch(ctx context.Context, env *Env, args []string) error {
 	}
 	if *out == "" {
 		return usageError("match: -o merged.csv is required")
+	}
+	if _, err := catalog.OutFormat(*out); err != nil {
+		return usageError("match: -o: %v", err)
 	}
 	c, err := campaign.Load(pos[0])
 	if err != nil {
