@@ -114,6 +114,7 @@ type work struct {
 	raw   rawRows
 	ids   idColumn
 	vals  [][]float64 // the numeric columns of the batch, in plan order
+	bad   []*catalog.Quarantine
 	fatal error
 }
 
@@ -469,7 +470,6 @@ func (pf *file) decodeGroup(p *plan, gi int, g parquet.RowGroup, start int64, ch
 			nums[k] = open(i)
 		}
 		l := p.layout
-		vals1 := make([]float64, len(p.nums))
 		for done < rows {
 			n := int(min(rows-done, batchRows))
 			w := works.Get().(*work)
@@ -507,23 +507,27 @@ func (pf *file) decodeGroup(p *plan, gi int, g parquet.RowGroup, start int64, ch
 			w.raw.ids, w.raw.vals = ids, vals
 			b := &w.out
 			b.Begin(l, n)
+			for k := range vals {
+				copy(b.Vals[k], vals[k])
+			}
+			first := int(start+done) + 1
+			bad := w.bad[:0]
 			for r := range n {
-				at := int(start+done) + r + 1
+				var q *catalog.Quarantine
 				if ids.null[r] {
-					q := l.MissingID(at)
+					q = l.MissingID(first + r)
+				}
+				bad = append(bad, q)
+			}
+			w.bad = bad
+			l.ConvertColumns(b.Vals, n, first, bad)
+			for r, q := range bad {
+				if q != nil {
 					q.Reason += fmt.Sprintf(" (row group %d)", gi+1)
-					b.Reject(at, q)
+					b.Reject(first+r, q)
 					continue
 				}
-				for k := range vals {
-					vals1[k] = vals[k][r]
-				}
-				if q := l.ConvertValues(vals1, b.Row(), at); q != nil {
-					q.Reason += fmt.Sprintf(" (row group %d)", gi+1)
-					b.Reject(at, q)
-					continue
-				}
-				b.Add(at, ids.id(r))
+				b.AddConverted(first+r, ids.id(r))
 			}
 			b.End()
 			if !send(w) {
