@@ -570,15 +570,18 @@ func (l *Layout) ConvertColumns(vals [][]float64, n, first int, bad []*Quarantin
 	for k, c := range l.Columns {
 		col := vals[k][:n]
 		required := c.Field == RA || c.Field == Dec
+		lo, hi := rangeOf(c.Field)
 		for r, v := range col {
 			if bad[r] != nil {
 				continue
 			}
 			if v == v && v-v == 0 { // finite
 				v *= c.Factor
-				if reason := CheckRange(c.Field, v); reason != "" {
-					bad[r] = l.valueQuarantine(c, col[r], ErrOutOfRange.Error()+": "+reason, ErrOutOfRange, first+r)
-					continue
+				if !(v >= lo && v <= hi) || c.Field == RA && v == 360 {
+					if reason := CheckRange(c.Field, v); reason != "" {
+						bad[r] = l.valueQuarantine(c, col[r], ErrOutOfRange.Error()+": "+reason, ErrOutOfRange, first+r)
+						continue
+					}
 				}
 				col[r] = v
 				continue
@@ -593,6 +596,22 @@ func (l *Layout) ConvertColumns(vals [][]float64, n, first int, bad []*Quarantin
 			}
 		}
 	}
+}
+
+// rangeOf is a closed interval holding every value CheckRange accepts for
+// f, and no value it rejects but ra's 360.
+func rangeOf(f Field) (lo, hi float64) {
+	switch f {
+	case RA:
+		return 0, 360
+	case Dec:
+		return -90, 90
+	case RAErr, DecErr, ParallaxErr, PMRAErr, PMDecErr, RVErr, DistanceErr:
+		return 0, math.Inf(1)
+	case CorrRADec, CorrParallaxPMRA, CorrParallaxPMDec, CorrPMRAPMDec:
+		return -1, 1
+	}
+	return math.Inf(-1), math.Inf(1)
 }
 
 func (l *Layout) valueQuarantine(c Column, v float64, reason string, err error, at int) *Quarantine {

@@ -26,11 +26,13 @@ func TestConvertColumnsAsValues(t *testing.T) {
 	}
 	rng := rand.New(rand.NewPCG(7, 8))
 	pick := func() float64 {
-		switch rng.IntN(12) {
+		switch rng.IntN(14) {
 		case 0:
 			return math.NaN()
 		case 1:
-			return math.Float64frombits(0x7ff8000000000001) // a NaN with a payload
+			return math.Float64frombits(0xfff4000000000abc) // not math.NaN's bits
+		case 5:
+			return []float64{0, math.Copysign(0, -1), 360, 24, -90, 90, -1, 1, 0.09, 1e-300}[rng.IntN(10)] // edges
 		case 2:
 			return math.Inf(1 - 2*rng.IntN(2))
 		case 3:

@@ -48,7 +48,7 @@ func Read(ctx context.Context, spec catalog.Spec, opt catalog.ReadOptions) (*cat
 	hashed := make(chan hashResult, 1)
 	go func() {
 		h := sha256.New()
-		_, err := io.Copy(h, io.NewSectionReader(pf.f, 0, pf.size))
+		_, err := io.CopyBuffer(h, io.NewSectionReader(pf.f, 0, pf.size), make([]byte, 1<<20))
 		hashed <- hashResult{hex.EncodeToString(h.Sum(nil)), err}
 	}()
 	bld, _, err := catalog.NewBuilderFromMeta(spec, pf.cols, true, opt)
@@ -118,8 +118,27 @@ type work struct {
 	fatal error
 }
 
-// works recycles batches once the builder has taken them.
-var works = sync.Pool{New: func() any { return new(work) }}
+// workPool recycles a read's batches once the builder has taken them. At
+// most aheadBatches per group in flight, plus the builder's, are ever
+// made, so their buffers are allocated once a read, not again after every
+// garbage collection (as a sync.Pool would).
+type workPool chan *work
+
+func (wp workPool) get() *work {
+	select {
+	case w := <-wp:
+		return w
+	default:
+		return new(work)
+	}
+}
+
+func (wp workPool) put(w *work) {
+	select {
+	case wp <- w:
+	default:
+	}
+}
 
 // stream decodes the row groups on workers and hands their batches to the
 // builder in file order.
@@ -140,6 +159,7 @@ func (pf *file) stream(ctx context.Context, p *plan, bld *catalog.Builder, worke
 		wg.Wait()
 	}()
 	queue := make(chan chan *work, workers)
+	works := make(workPool, (workers+1)*aheadBatches+1)
 	wg.Add(1)
 	go func() {
 		defer wg.Done()
@@ -165,7 +185,7 @@ func (pf *file) stream(ctx context.Context, p *plan, bld *catalog.Builder, worke
 				defer wg.Done()
 				defer func() { <-sem }()
 				defer close(ch)
-				pf.decodeGroup(p, gi, g, start, ch, stop)
+				pf.decodeGroup(p, gi, g, start, ch, stop, works)
 			}(gi, g, start)
 			start += g.NumRows()
 		}
@@ -181,7 +201,7 @@ func (pf *file) stream(ctx context.Context, p *plan, bld *catalog.Builder, worke
 			err := bld.Add(&w.out, &w.raw)
 			w.raw.close()
 			w.raw = rawRows{}
-			works.Put(w)
+			works.put(w)
 			if err != nil {
 				return err
 			}
@@ -431,7 +451,7 @@ func (c *colReader) close() {
 
 // decodeGroup converts row group gi, whose first row is file row start+1,
 // in batches sent on ch.
-func (pf *file) decodeGroup(p *plan, gi int, g parquet.RowGroup, start int64, ch chan<- *work, stop <-chan struct{}) {
+func (pf *file) decodeGroup(p *plan, gi int, g parquet.RowGroup, start int64, ch chan<- *work, stop <-chan struct{}, works workPool) {
 	send := func(w *work) bool {
 		select {
 		case ch <- w:
@@ -472,7 +492,7 @@ func (pf *file) decodeGroup(p *plan, gi int, g parquet.RowGroup, start int64, ch
 		l := p.layout
 		for done < rows {
 			n := int(min(rows-done, batchRows))
-			w := works.Get().(*work)
+			w := works.get()
 			w.raw = rawRows{pf: pf, p: p, g: g, gstart: start, off: done}
 			if len(w.vals) != len(p.nums) {
 				w.vals = make([][]float64, len(p.nums))
