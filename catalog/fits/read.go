@@ -477,20 +477,29 @@ func (p *plan) decode(ch *chunk) {
 	out.End()
 }
 
-// decodeTile decodes the mapped cells of the rows in buf into vals.
+// decodeTile decodes the mapped cells of the rows in buf into vals, a
+// column at a time: the tile's bytes stay in cache.
 func (p *plan) decodeTile(buf []byte, rb int, vals [][]float64) {
-	for r := range len(buf) / rb {
-		rec := buf[r*rb : (r+1)*rb : (r+1)*rb]
-		for k, c := range p.num {
-			switch {
-			case c.scaled:
-				vals[k][r] = c.number(rec[c.offset:])
-			case c.code == 'D':
-				vals[k][r] = math.Float64frombits(binary.BigEndian.Uint64(rec[c.offset:]))
-			case c.code == 'E':
-				vals[k][r] = float64(math.Float32frombits(binary.BigEndian.Uint32(rec[c.offset:])))
-			default:
-				vals[k][r] = c.number(rec[c.offset:])
+	rows := len(buf) / rb
+	for k, c := range p.num {
+		dst := vals[k][:rows]
+		off := c.offset
+		switch {
+		case c.scaled:
+			for r := range dst {
+				dst[r] = c.number(buf[r*rb+off:])
+			}
+		case c.code == 'D':
+			for r := range dst {
+				dst[r] = math.Float64frombits(binary.BigEndian.Uint64(buf[r*rb+off:]))
+			}
+		case c.code == 'E':
+			for r := range dst {
+				dst[r] = float64(math.Float32frombits(binary.BigEndian.Uint32(buf[r*rb+off:])))
+			}
+		default:
+			for r := range dst {
+				dst[r] = c.number(buf[r*rb+off:])
 			}
 		}
 	}
