@@ -23,8 +23,8 @@ import (
 const batchRows = 4096
 
 // aheadBatches is how many converted batches of one row group may wait
-// for the builder (at 16 columns, about 2 MB).
-const aheadBatches = 4
+// for the builder (at 16 columns, about 8 MB).
+const aheadBatches = 16
 
 // Read ingests one Parquet catalog file into canonical units. File-level
 // problems are returned as *position.Error with no table; row problems
