@@ -293,7 +293,7 @@ func kind(code byte) string {
 // chunkBytes is about how much of the table one chunk holds: large enough
 // that a chunk's overhead vanishes, small enough that a few in flight stay
 // in cache.
-const chunkBytes = 1 << 21
+const chunkBytes = 1 << 19
 
 // chunk is consecutive rows of the table, decoded into out by a worker.
 type chunk struct {
