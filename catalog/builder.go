@@ -556,3 +556,101 @@ func (l *Layout) ConvertValues(vals []float64, row *[NumFields]float64, at int) 
 	}
 	return nil
 }
+
+// ConvertColumns is ConvertValues for rows [0, n) at once, column by
+// column, in place: vals[k][r] is the value of Columns[k] in row r, in
+// the file's units, NaN when the file marks it null; row r is at position
+// first+r. A row whose bad[r] is already set (say, its id is missing) is
+// left alone; any other row that ConvertValues would set aside gets the
+// same quarantine in bad[r], and the values of the rest become what
+// ConvertValues would store. Columns are checked in order, so a row's
+// quarantine names the same first bad column.
+func (l *Layout) ConvertColumns(vals [][]float64, n, first int, bad []*Quarantine) {
+	bad = bad[:n]
+	for k, c := range l.Columns {
+		col := vals[k][:n]
+		required := c.Field == RA || c.Field == Dec
+		lo, hi := rangeOf(c.Field)
+		for r, v := range col {
+			if bad[r] != nil {
+				continue
+			}
+			if v == v && v-v == 0 { // finite
+				v *= c.Factor
+				if !(v >= lo && v <= hi) || c.Field == RA && v == 360 {
+					if reason := CheckRange(c.Field, v); reason != "" {
+						bad[r] = l.valueQuarantine(c, col[r], ErrOutOfRange.Error()+": "+reason, ErrOutOfRange, first+r)
+						continue
+					}
+				}
+				col[r] = v
+				continue
+			}
+			switch {
+			case math.IsNaN(v) && required:
+				bad[r] = l.valueQuarantine(c, v, fmt.Sprintf("%s: %s is required", ErrMissingValue, Fields[c.Field].Name), ErrMissingValue, first+r)
+			case math.IsNaN(v):
+				col[r] = math.NaN()
+			default:
+				bad[r] = l.valueQuarantine(c, v, ErrNotNumber.Error()+": not finite", ErrNotNumber, first+r)
+			}
+		}
+	}
+}
+
+// rangeOf is a closed interval holding every value CheckRange accepts for
+// f, and no value it rejects but ra's 360.
+func rangeOf(f Field) (lo, hi float64) {
+	switch f {
+	case RA:
+		return 0, 360
+	case Dec:
+		return -90, 90
+	case RAErr, DecErr, ParallaxErr, PMRAErr, PMDecErr, RVErr, DistanceErr:
+		return 0, math.Inf(1)
+	case CorrRADec, CorrParallaxPMRA, CorrParallaxPMDec, CorrPMRAPMDec:
+		return -1, 1
+	}
+	return math.Inf(-1), math.Inf(1)
+}
+
+func (l *Layout) valueQuarantine(c Column, v float64, reason string, err error, at int) *Quarantine {
+	q := &Quarantine{Column: c.Index + 1, ColumnName: l.Header[c.Index], Value: strconv.FormatFloat(v, 'g', -1, 64), Reason: reason, Err: err}
+	l.place(q, at)
+	return q
+}
+
+// AddConverted stores the next row, read at line, whose values already
+// stand converted in Vals (by ConvertColumns), with its id cell: Add for
+// a reader that fills the batch column by column.
+func (b *Batch) AddConverted(line int, id []byte) {
+	r := len(b.bad)
+	b.lines = append(b.lines, line)
+	b.bad = append(b.bad, nil)
+	b.idBuf = append(b.idBuf, id...)
+	b.idOff = append(b.idOff, int32(len(b.idBuf)))
+	b.idHash = append(b.idHash, hashID(b.idBuf[b.idOff[r]:]))
+	l := b.layout
+	if !l.distMag {
+		return
+	}
+	mu, muErr := math.NaN(), math.NaN()
+	dc, ec := -1, -1
+	for i, c := range l.Columns {
+		switch c.Field {
+		case Distance:
+			dc, mu = i, b.Vals[i][r]
+		case DistanceErr:
+			ec, muErr = i, b.Vals[i][r]
+		}
+	}
+	d, de := DistanceFromModulus(mu, muErr)
+	if dc >= 0 {
+		b.Vals[dc][r] = d
+	}
+	if ec >= 0 {
+		b.Vals[ec][r] = de
+	}
+	n := len(l.Columns)
+	b.Vals[n][r], b.Vals[n+1][r] = mu, muErr
+}

@@ -13,6 +13,7 @@ import (
 	"testing"
 
 	"starvet/catalog"
+	"starvet/internal/benchfile"
 )
 
 // writeBenchCSV writes rows rows of id plus 15 numeric columns with a fixed
@@ -44,8 +45,7 @@ func writeBenchCSV(tb testing.TB, path string, rows int) {
 // The target is under about 3 s per op.
 func BenchmarkReadCSV(b *testing.B) {
 	const rows = 1_000_000
-	p := filepath.Join(b.TempDir(), "bench.csv")
-	writeBenchCSV(b, p, rows)
+	p := benchfile.Path(b, "bench.csv", func(tb testing.TB, p string) { writeBenchCSV(tb, p, rows) })
 	st, err := os.Stat(p)
 	if err != nil {
 		b.Fatal(err)
@@ -174,4 +174,10 @@ func BenchmarkReadPair(b *testing.B) {
 		}
 	}
 	b.ReportMetric((cpuSeconds(b)-cpu0)/float64(n), "cpu-s/op")
+}
+
+// TestWriteBenchFile writes BenchmarkReadCSV's file to STARVET_BENCH_WRITE, for
+// a run that only reads it (see package starvet/internal/benchfile).
+func TestWriteBenchFile(t *testing.T) {
+	benchfile.Write(t, func(tb testing.TB, p string) { writeBenchCSV(tb, p, 1_000_000) })
 }

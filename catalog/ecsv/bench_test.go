@@ -11,6 +11,7 @@ import (
 	"testing"
 
 	"starvet/catalog"
+	"starvet/internal/benchfile"
 )
 
 // writeBenchECSV writes the primary catalog of csvcat's BenchmarkReadCSV
@@ -55,8 +56,7 @@ func writeBenchECSV(tb testing.TB, path string, rows int) {
 // no longer than BenchmarkReadCSV.
 func BenchmarkReadECSV(b *testing.B) {
 	const rows = 1_000_000
-	p := filepath.Join(b.TempDir(), "bench.ecsv")
-	writeBenchECSV(b, p, rows)
+	p := benchfile.Path(b, "bench.ecsv", func(tb testing.TB, p string) { writeBenchECSV(tb, p, rows) })
 	st, err := os.Stat(p)
 	if err != nil {
 		b.Fatal(err)
@@ -101,4 +101,10 @@ func TestBenchFile(t *testing.T) {
 	if len(rep.Unused) != 0 || rep.Mapped["pm_ra"] != "pm_ra" {
 		t.Fatalf("unused %v mapped %v", rep.Unused, rep.Mapped)
 	}
+}
+
+// TestWriteBenchFile writes BenchmarkReadECSV's file to STARVET_BENCH_WRITE, for
+// a run that only reads it (see package starvet/internal/benchfile).
+func TestWriteBenchFile(t *testing.T) {
+	benchfile.Write(t, func(tb testing.TB, p string) { writeBenchECSV(tb, p, 1_000_000) })
 }

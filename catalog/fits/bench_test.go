@@ -14,6 +14,7 @@ import (
 	"testing"
 
 	"starvet/catalog"
+	"starvet/internal/benchfile"
 )
 
 // benchColumns are the columns of catalog/csv's BenchmarkReadCSV primary:
@@ -89,8 +90,7 @@ func writeBenchFITS(tb testing.TB, path string, rows int) {
 // id. The target is at most 0.35 s per op on 2 cores.
 func BenchmarkReadFITS(b *testing.B) {
 	const rows = 1_000_000
-	p := filepath.Join(b.TempDir(), "bench.fits")
-	writeBenchFITS(b, p, rows)
+	p := benchfile.Path(b, "bench.fits", func(tb testing.TB, p string) { writeBenchFITS(tb, p, rows) })
 	st, err := os.Stat(p)
 	if err != nil {
 		b.Fatal(err)
@@ -135,4 +135,10 @@ func TestBenchWriterRoundTrip(t *testing.T) {
 	if tab.Len() != 3 || tab.IDs[2] != "bench-00000002" || tab.Cols[catalog.RA][0] != ra || len(rep.Unused) != 0 {
 		t.Errorf("ids %v ra %v (want %v) unused %v", tab.IDs, tab.Cols[catalog.RA], ra, rep.Unused)
 	}
+}
+
+// TestWriteBenchFile writes BenchmarkReadFITS's file to STARVET_BENCH_WRITE, for
+// a run that only reads it (see package starvet/internal/benchfile).
+func TestWriteBenchFile(t *testing.T) {
+	benchfile.Write(t, func(tb testing.TB, p string) { writeBenchFITS(tb, p, 1_000_000) })
 }

@@ -293,7 +293,7 @@ func kind(code byte) string {
 // chunkBytes is about how much of the table one chunk holds: large enough
 // that a chunk's overhead vanishes, small enough that a few in flight stay
 // in cache.
-const chunkBytes = 1 << 21
+const chunkBytes = 1 << 19
 
 // chunk is consecutive rows of the table, decoded into out by a worker.
 type chunk struct {
@@ -301,8 +301,10 @@ type chunk struct {
 	n       int   // rows
 	first   int64 // 1-based row of buf's first row
 	out     catalog.Batch
-	vals    []float64
+	bad     []*catalog.Quarantine
 	idBuf   []byte
+	idOff   []int
+	tile    [][]float64
 	err     error
 	decoded chan struct{}
 	p       *plan
@@ -417,53 +419,88 @@ func (p *plan) stream(ctx context.Context, in *input, bld *catalog.Builder, work
 	return nil
 }
 
-// decode converts the chunk's rows into ch.out: each mapped cell to a
-// number in the file's unit (NaN for null), then Layout.ConvertValues.
+// tileRows is how many rows decode converts at a time: their bytes and
+// their values stay in cache between decoding and converting.
+const tileRows = 256
+
+// decode converts the chunk's rows into ch.out: a tile of rows at a time,
+// each mapped cell straight into the batch's column as a number in the
+// file's unit (NaN for null), then Layout.ConvertColumns on the tile.
 func (p *plan) decode(ch *chunk) {
 	l := p.layout
 	out := &ch.out
 	out.Begin(l, ch.n)
-	row := out.Row()
-	if len(ch.vals) != len(p.num) {
-		ch.vals = make([]float64, len(p.num))
-	}
-	vals := ch.vals
 	rb := int(p.h.t.rowBytes)
+	buf := ch.buf[:ch.n*rb]
+	bad := ch.bad[:0]
 	id := p.id
 	idText := id.code == 'A'
+	ch.idBuf, ch.idOff = ch.idBuf[:0], append(ch.idOff[:0], 0)
 	for r := range ch.n {
-		rec := ch.buf[r*rb : (r+1)*rb : (r+1)*rb]
+		rec := buf[r*rb : (r+1)*rb : (r+1)*rb]
 		at := int(ch.first) + r
-		var idb []byte
+		start := len(ch.idBuf)
 		ok := true
 		if idText {
-			idb = appendString(ch.idBuf[:0], rec[id.offset:id.offset+id.width])
+			ch.idBuf = appendString(ch.idBuf, rec[id.offset:id.offset+id.width])
 		} else {
-			idb, ok = id.appendIntText(ch.idBuf[:0], rec[id.offset:])
+			ch.idBuf, ok = id.appendIntText(ch.idBuf, rec[id.offset:])
 		}
-		ch.idBuf = idb
-		if !ok || l.IsNullBytes(idb) {
-			out.Reject(at, l.MissingID(at))
-			continue
+		var q *catalog.Quarantine
+		if !ok || l.IsNullBytes(ch.idBuf[start:]) {
+			ch.idBuf = ch.idBuf[:start]
+			q = l.MissingID(at)
 		}
-		for k, c := range p.num {
-			b := rec[c.offset:]
-			switch {
-			case c.scaled:
-				vals[k] = c.number(b)
-			case c.code == 'D':
-				vals[k] = math.Float64frombits(binary.BigEndian.Uint64(b))
-			case c.code == 'E':
-				vals[k] = float64(math.Float32frombits(binary.BigEndian.Uint32(b)))
-			default:
-				vals[k] = c.number(b)
-			}
+		bad = append(bad, q)
+		ch.idOff = append(ch.idOff, len(ch.idBuf))
+	}
+	ch.bad = bad
+	if len(ch.tile) != len(p.num) {
+		ch.tile = make([][]float64, len(p.num))
+	}
+	for t0 := 0; t0 < ch.n; t0 += tileRows {
+		t1 := min(t0+tileRows, ch.n)
+		for k := range ch.tile {
+			ch.tile[k] = out.Vals[k][t0:t1]
 		}
-		if q := l.ConvertValues(vals, row, at); q != nil {
+		p.decodeTile(buf[t0*rb:t1*rb], rb, ch.tile)
+		l.ConvertColumns(ch.tile, t1-t0, int(ch.first)+t0, bad[t0:t1])
+	}
+	for r, q := range bad {
+		at := int(ch.first) + r
+		if q != nil {
 			out.Reject(at, q)
 			continue
 		}
-		out.Add(at, idb)
+		out.AddConverted(at, ch.idBuf[ch.idOff[r]:ch.idOff[r+1]])
 	}
 	out.End()
+}
+
+// decodeTile decodes the mapped cells of the rows in buf into vals, a
+// column at a time: the tile's bytes stay in cache.
+func (p *plan) decodeTile(buf []byte, rb int, vals [][]float64) {
+	rows := len(buf) / rb
+	for k, c := range p.num {
+		dst := vals[k][:rows]
+		off := c.offset
+		switch {
+		case c.scaled:
+			for r := range dst {
+				dst[r] = c.number(buf[r*rb+off:])
+			}
+		case c.code == 'D':
+			for r := range dst {
+				dst[r] = math.Float64frombits(binary.BigEndian.Uint64(buf[r*rb+off:]))
+			}
+		case c.code == 'E':
+			for r := range dst {
+				dst[r] = float64(math.Float32frombits(binary.BigEndian.Uint32(buf[r*rb+off:])))
+			}
+		default:
+			for r := range dst {
+				dst[r] = c.number(buf[r*rb+off:])
+			}
+		}
+	}
 }

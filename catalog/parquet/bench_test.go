@@ -5,13 +5,13 @@ import (
 	"fmt"
 	"math/rand/v2"
 	"os"
-	"path/filepath"
 	"syscall"
 	"testing"
 
 	"github.com/parquet-go/parquet-go"
 
 	"starvet/catalog"
+	"starvet/internal/benchfile"
 )
 
 // benchRow is the CSV benchmark's primary catalog (catalog/csv's
@@ -74,8 +74,7 @@ func writeBenchParquet(tb testing.TB, path string, rows int) {
 // id). The target is at most 0.5 s per op on 2 cores.
 func BenchmarkReadParquet(b *testing.B) {
 	const rows = 1_000_000
-	p := filepath.Join(b.TempDir(), "bench.parquet")
-	writeBenchParquet(b, p, rows)
+	p := benchfile.Path(b, "bench.parquet", func(tb testing.TB, p string) { writeBenchParquet(tb, p, rows) })
 	st, err := os.Stat(p)
 	if err != nil {
 		b.Fatal(err)
@@ -105,4 +104,10 @@ func cpuSeconds(b *testing.B) float64 {
 	}
 	tv := func(t syscall.Timeval) float64 { return float64(t.Sec) + float64(t.Usec)/1e6 }
 	return tv(ru.Utime) + tv(ru.Stime)
+}
+
+// TestWriteBenchFile writes BenchmarkReadParquet's file to STARVET_BENCH_WRITE, for
+// a run that only reads it (see package starvet/internal/benchfile).
+func TestWriteBenchFile(t *testing.T) {
+	benchfile.Write(t, func(tb testing.TB, p string) { writeBenchParquet(tb, p, 1_000_000) })
 }

@@ -48,7 +48,7 @@ func Read(ctx context.Context, spec catalog.Spec, opt catalog.ReadOptions) (*cat
 	hashed := make(chan hashResult, 1)
 	go func() {
 		h := sha256.New()
-		_, err := io.Copy(h, io.NewSectionReader(pf.f, 0, pf.size))
+		_, err := io.CopyBuffer(h, io.NewSectionReader(pf.f, 0, pf.size), make([]byte, 1<<20))
 		hashed <- hashResult{hex.EncodeToString(h.Sum(nil)), err}
 	}()
 	bld, _, err := catalog.NewBuilderFromMeta(spec, pf.cols, true, opt)
@@ -114,11 +114,31 @@ type work struct {
 	raw   rawRows
 	ids   idColumn
 	vals  [][]float64 // the numeric columns of the batch, in plan order
+	bad   []*catalog.Quarantine
 	fatal error
 }
 
-// works recycles batches once the builder has taken them.
-var works = sync.Pool{New: func() any { return new(work) }}
+// workPool recycles a read's batches once the builder has taken them. At
+// most aheadBatches per group in flight, plus the builder's, are ever
+// made, so their buffers are allocated once a read, not again after every
+// garbage collection (as a sync.Pool would).
+type workPool chan *work
+
+func (wp workPool) get() *work {
+	select {
+	case w := <-wp:
+		return w
+	default:
+		return new(work)
+	}
+}
+
+func (wp workPool) put(w *work) {
+	select {
+	case wp <- w:
+	default:
+	}
+}
 
 // stream decodes the row groups on workers and hands their batches to the
 // builder in file order.
@@ -139,6 +159,7 @@ func (pf *file) stream(ctx context.Context, p *plan, bld *catalog.Builder, worke
 		wg.Wait()
 	}()
 	queue := make(chan chan *work, workers)
+	works := make(workPool, (workers+1)*aheadBatches+1)
 	wg.Add(1)
 	go func() {
 		defer wg.Done()
@@ -164,7 +185,7 @@ func (pf *file) stream(ctx context.Context, p *plan, bld *catalog.Builder, worke
 				defer wg.Done()
 				defer func() { <-sem }()
 				defer close(ch)
-				pf.decodeGroup(p, gi, g, start, ch, stop)
+				pf.decodeGroup(p, gi, g, start, ch, stop, works)
 			}(gi, g, start)
 			start += g.NumRows()
 		}
@@ -180,7 +201,7 @@ func (pf *file) stream(ctx context.Context, p *plan, bld *catalog.Builder, worke
 			err := bld.Add(&w.out, &w.raw)
 			w.raw.close()
 			w.raw = rawRows{}
-			works.Put(w)
+			works.put(w)
 			if err != nil {
 				return err
 			}
@@ -430,7 +451,7 @@ func (c *colReader) close() {
 
 // decodeGroup converts row group gi, whose first row is file row start+1,
 // in batches sent on ch.
-func (pf *file) decodeGroup(p *plan, gi int, g parquet.RowGroup, start int64, ch chan<- *work, stop <-chan struct{}) {
+func (pf *file) decodeGroup(p *plan, gi int, g parquet.RowGroup, start int64, ch chan<- *work, stop <-chan struct{}, works workPool) {
 	send := func(w *work) bool {
 		select {
 		case ch <- w:
@@ -469,10 +490,9 @@ func (pf *file) decodeGroup(p *plan, gi int, g parquet.RowGroup, start int64, ch
 			nums[k] = open(i)
 		}
 		l := p.layout
-		vals1 := make([]float64, len(p.nums))
 		for done < rows {
 			n := int(min(rows-done, batchRows))
-			w := works.Get().(*work)
+			w := works.get()
 			w.raw = rawRows{pf: pf, p: p, g: g, gstart: start, off: done}
 			if len(w.vals) != len(p.nums) {
 				w.vals = make([][]float64, len(p.nums))
@@ -507,23 +527,27 @@ func (pf *file) decodeGroup(p *plan, gi int, g parquet.RowGroup, start int64, ch
 			w.raw.ids, w.raw.vals = ids, vals
 			b := &w.out
 			b.Begin(l, n)
+			for k := range vals {
+				copy(b.Vals[k], vals[k])
+			}
+			first := int(start+done) + 1
+			bad := w.bad[:0]
 			for r := range n {
-				at := int(start+done) + r + 1
+				var q *catalog.Quarantine
 				if ids.null[r] {
-					q := l.MissingID(at)
+					q = l.MissingID(first + r)
+				}
+				bad = append(bad, q)
+			}
+			w.bad = bad
+			l.ConvertColumns(b.Vals, n, first, bad)
+			for r, q := range bad {
+				if q != nil {
 					q.Reason += fmt.Sprintf(" (row group %d)", gi+1)
-					b.Reject(at, q)
+					b.Reject(first+r, q)
 					continue
 				}
-				for k := range vals {
-					vals1[k] = vals[k][r]
-				}
-				if q := l.ConvertValues(vals1, b.Row(), at); q != nil {
-					q.Reason += fmt.Sprintf(" (row group %d)", gi+1)
-					b.Reject(at, q)
-					continue
-				}
-				b.Add(at, ids.id(r))
+				b.AddConverted(first+r, ids.id(r))
 			}
 			b.End()
 			if !send(w) {

@@ -9,11 +9,11 @@ import (
 	"math"
 	"math/rand/v2"
 	"os"
-	"path/filepath"
 	"syscall"
 	"testing"
 
 	"starvet/catalog"
+	"starvet/internal/benchfile"
 )
 
 // benchColumns are the columns of catalog/csv's BenchmarkReadCSV: an id
@@ -87,8 +87,7 @@ func writeBenchBinary2(tb testing.TB, path string, rows int) {
 // 2 cores.
 func BenchmarkReadVOTableBinary2(b *testing.B) {
 	const rows = 1_000_000
-	p := filepath.Join(b.TempDir(), "bench.vot")
-	writeBenchBinary2(b, p, rows)
+	p := benchfile.Path(b, "bench.vot", func(tb testing.TB, p string) { writeBenchBinary2(tb, p, rows) })
 	st, err := os.Stat(p)
 	if err != nil {
 		b.Fatal(err)
@@ -119,4 +118,10 @@ func cpuSeconds(b *testing.B) float64 {
 	}
 	tv := func(t syscall.Timeval) float64 { return float64(t.Sec) + float64(t.Usec)/1e6 }
 	return tv(ru.Utime) + tv(ru.Stime)
+}
+
+// TestWriteBenchFile writes BenchmarkReadVOTableBinary2's file to STARVET_BENCH_WRITE, for
+// a run that only reads it (see package starvet/internal/benchfile).
+func TestWriteBenchFile(t *testing.T) {
+	benchfile.Write(t, func(tb testing.TB, p string) { writeBenchBinary2(tb, p, 1_000_000) })
 }
