@@ -28,8 +28,11 @@ import (
 // machine, ingest included; an incremental rerun with 1% of the stars
 // changed at most 15% of the full run's time.
 
+// benchStars is 1,000,000 unless STARVET_BENCH_STARS sets another count
+// (for measuring the ledger of a smaller run, not for timing comparisons).
+var benchStars = envInt("STARVET_BENCH_STARS", 1_000_000)
+
 const (
-	benchStars        = 1_000_000
 	benchPrimaryEpoch = 2019.5
 	benchSecEpoch     = 2011.5
 	benchMatchedFrac  = 0.9  // secondary rows that are counterparts of primary stars
@@ -66,7 +69,7 @@ func writeBenchCampaign(b *testing.B, samples []int) *benchCampaign {
 			poe5++
 		}
 	}
-	bc.poe5Frac = float64(poe5) / benchStars
+	bc.poe5Frac = float64(poe5) / float64(benchStars)
 	if err := writeBenchFile(bc.primaryV1, func(w *bufio.Writer) { writePrimary(w, stars) }); err != nil {
 		b.Fatal(err)
 	}
@@ -315,6 +318,30 @@ func removeLedger(path string) {
 	}
 }
 
+func envInt(name string, def int) int {
+	if v, err := strconv.Atoi(os.Getenv(name)); err == nil && v > 0 {
+		return v
+	}
+	return def
+}
+
+// keepLedger copies a timed run's ledger to the directory named by
+// STARVET_BENCH_KEEP, if set, for inspection after the benchmark removed
+// its own (db.TableBytes, the audit queries). The copy is checkpointed by
+// the next open; a later run of the same name replaces it.
+func keepLedger(b *testing.B, src, name string) {
+	b.Helper()
+	dir := os.Getenv("STARVET_BENCH_KEEP")
+	if dir == "" {
+		return
+	}
+	dst := filepath.Join(dir, name)
+	removeLedger(dst)
+	if err := copyLedger(dst, src); err != nil {
+		b.Fatal(err)
+	}
+}
+
 // ledgerBytes is the ledger's size on disk, its write-ahead log included.
 func ledgerBytes(b *testing.B, path string) int64 {
 	b.Helper()
@@ -466,6 +493,7 @@ func BenchmarkRun1M(b *testing.B) {
 				growth += ledgerBytes(b, ledger)
 				sums, clocks = append(sums, sum), append(clocks, clock)
 				fullLedger = ledger
+				keepLedger(b, ledger, fmt.Sprintf("full_%d.db", n))
 				b.StartTimer()
 			}
 			reportRun(b, sums, clocks, growth, cpu)
