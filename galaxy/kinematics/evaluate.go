@@ -26,6 +26,7 @@ type worker struct {
 	// Velocity-prior scratch: weights, resample indices, a gather buffer,
 	// and whether each draw is unbound.
 	wt, tmp     []float64
+	z           []float64 // standard normals drawn ahead, up to three per draw
 	idx         []int
 	unbound     []bool
 	table       edsdTable
@@ -46,6 +47,7 @@ func (w *worker) init(n int) {
 	for _, b := range []*[]float64{&w.dist, &w.plx, &w.pmRA, &w.pmDec, &w.rv, &w.speed2, &w.rgc2, &w.vrad2, &w.vtan2, &w.vesc2, &w.wt, &w.tmp} {
 		*b = resize(*b, n)
 	}
+	w.z = resize(w.z, 3*n)
 	if cap(w.idx) < n {
 		w.idx = make([]int, n)
 		w.unbound = make([]bool, n)
@@ -264,15 +266,19 @@ func (w *worker) drawAstrometry(s *Star, set *Settings, method string, catDist c
 	switch method {
 	case MethodInverse:
 		dropped := 0
-		for range n {
-			var x [3]float64
-			joint.draw(&w.rnd, &x)
-			if x[0] <= 0 {
-				dropped++
-				continue
+		if joint.nAct == 3 {
+			kept, dropped = w.drawInverse3(&joint, n)
+		} else {
+			for range n {
+				var x [3]float64
+				joint.draw(&w.rnd, &x)
+				if x[0] <= 0 {
+					dropped++
+					continue
+				}
+				w.dist[kept], w.plx[kept], w.pmRA[kept], w.pmDec[kept] = 1/x[0], x[0], x[1], x[2]
+				kept++
 			}
-			w.dist[kept], w.plx[kept], w.pmRA[kept], w.pmDec[kept] = 1/x[0], x[0], x[1], x[2]
-			kept++
 		}
 		if dropped > 0 {
 			r.note(ReasonPlxDrawsDropped, "%d of %d parallax draws non-positive, dropped", dropped, n)
@@ -298,6 +304,30 @@ func (w *worker) drawAstrometry(s *Star, set *Settings, method string, catDist c
 	return 0, true // Settings.Validate admits no other method
 }
 
+// drawInverse3 is the inverse-distance loop of drawAstrometry for a joint
+// normal with all three components active: the 3n normals that n calls of
+// joint.draw take are drawn first, then mapped with the same arithmetic.
+func (w *worker) drawInverse3(joint *gauss, n int) (kept, dropped int) {
+	z := w.z[:3*n]
+	w.rnd.normals(z)
+	dist, plx, pmRA, pmDec := w.dist[:n], w.plx[:n], w.pmRA[:n], w.pmDec[:n]
+	l, m := &joint.lower, joint.mean
+	for i := range n {
+		zi := z[3*i : 3*i+3 : 3*i+3]
+		z0, z1, z2 := zi[0], zi[1], zi[2]
+		x0 := m[0] + l[0][0]*z0
+		if x0 <= 0 {
+			dropped++
+			continue
+		}
+		x1 := m[1] + (l[1][0]*z0 + l[1][1]*z1)
+		x2 := m[2] + (l[2][0]*z0 + l[2][1]*z1 + l[2][2]*z2)
+		dist[kept], plx[kept], pmRA[kept], pmDec[kept] = 1/x0, x0, x1, x2
+		kept++
+	}
+	return kept, dropped
+}
+
 // drawRV fills the kept radial-velocity draws from their own stream (0
 // without a usable radial velocity, noted in r) and returns the nominal
 // radial velocity the star's position and velocity are given at.
@@ -312,17 +342,16 @@ func (w *worker) drawRV(s *Star, kept int, r *Result) (rvNomKms float64) {
 			r.note(ReasonNoRV, "no radial velocity: speeds are lower bounds over all radial velocities")
 		}
 	}
-	for i := range kept {
-		if r.HasRV {
-			w.rv[i] = rvKms + rvErr*w.rndV.norm()
-		} else {
-			w.rv[i] = 0
-		}
+	rv := w.rv[:kept]
+	if !r.HasRV {
+		clear(rv)
+		return 0
 	}
-	if r.HasRV {
-		return rvKms
+	w.rndV.normals(rv)
+	for i, z := range rv {
+		rv[i] = rvKms + rvErr*z
 	}
-	return 0
+	return rvKms
 }
 
 // starDraws is what the steps of evaluate hand on about one star's draws.
@@ -483,10 +512,34 @@ func (w *worker) drawEDSD(s *Star, set *Settings, cov *[3][3]float64, joint *gau
 			w.dist[i] = w.table.quantile(w.rnd.float64())
 		}
 	}
+	if g.nAct == 2 {
+		w.drawPMs2(n, wObs, mean, beta, &g)
+		return true
+	}
 	for i := range n {
 		w.drawPM(i, w.dist[i], wObs, mean, beta, &g)
 	}
 	return true
+}
+
+// drawPMs2 is drawPM for draws 0..n-1 when both proper motions have an
+// uncertainty: the 2n normals of the n calls of g.draw first, then the
+// same arithmetic.
+func (w *worker) drawPMs2(n int, wObs float64, mean [3]float64, beta [2]float64, g *gauss) {
+	z := w.z[:2*n]
+	w.rnd.normals(z)
+	dist, plxs, pmRA, pmDec := w.dist[:n], w.plx[:n], w.pmRA[:n], w.pmDec[:n]
+	l, m := &g.lower, g.mean
+	for i, d := range dist {
+		zi := z[2*i : 2*i+2 : 2*i+2]
+		z0, z1 := zi[0], zi[1]
+		x0 := m[0] + l[0][0]*z0
+		x1 := m[1] + (l[1][0]*z0 + l[1][1]*z1)
+		plx := 1 / d
+		plxs[i] = plx
+		pmRA[i] = mean[1] + beta[0]*(plx-wObs) + x0
+		pmDec[i] = mean[2] + beta[1]*(plx-wObs) + x1
+	}
 }
 
 // drawPM stores distance d and proper motions drawn from their normal
