@@ -396,9 +396,14 @@ func (w *worker) speeds(p potential.Potential, set *Settings, d *starDraws, r *R
 	unbound := 0
 	// l is los.at written out on scalars: Go keeps arrays in memory, and
 	// this loop does most of a star's arithmetic.
+	// The slices as locals of one length: no reloads through w and no
+	// bounds checks in the loop.
 	l := &d.los
-	for i := range d.kept {
-		dKpc, pmRA, pmDec, rv := w.dist[i], w.pmRA[i], w.pmDec[i], w.rv[i]
+	n := d.kept
+	dist, pmRAs, pmDecs, rvs := w.dist[:n], w.pmRA[:n], w.pmDec[:n], w.rv[:n]
+	speed2, rgc2, vrad2, vtan2, vesc2, unb := w.speed2[:n], w.rgc2[:n], w.vrad2[:n], w.vtan2[:n], w.vesc2[:n], w.unbound[:n]
+	for i := range n {
+		dKpc, pmRA, pmDec, rv := dist[i], pmRAs[i], pmDecs[i], rvs[i]
 		x := l.pos0[0] + dKpc*l.posR[0]
 		y := l.pos0[1] + dKpc*l.posR[1]
 		z := l.pos0[2] + dKpc*l.posR[2]
@@ -418,17 +423,17 @@ func (w *worker) speeds(p potential.Potential, set *Settings, d *starDraws, r *R
 			} else {
 				ve2 = escapeSpeed2(p, [3]float64{x, y, z}, math.Sqrt(r2), set.EscapeRadiusKpc)
 			}
-			w.vesc2[i] = ve2
+			vesc2[i] = ve2
 			ub = v2 > ve2 // v > v_esc
 		}
 		if ub {
 			unbound++
 		}
-		w.unbound[i] = ub
+		unb[i] = ub
 		vr2 := pv * pv / r2 // v_r = pos.vel / r_gc
-		w.speed2[i], w.rgc2[i] = v2, r2
-		w.vrad2[i] = math.Copysign(vr2, pv)
-		w.vtan2[i] = max(0, v2-vr2)
+		speed2[i], rgc2[i] = v2, r2
+		vrad2[i] = math.Copysign(vr2, pv)
+		vtan2[i] = max(0, v2-vr2)
 		if i < keep {
 			r.SamplePos[i], r.SampleVel[i] = [3]float64{x, y, z}, [3]float64{vx, vy, vz}
 		}
