@@ -364,6 +364,9 @@ type starDraws struct {
 	escMonotone  bool
 	ve2Lo, ve2Hi float64
 	unbound      int // draws faster than their escape speed
+	// span of speed2, vrad2 and vtan2 over the kept draws, as span
+	// returns them (valid until the velocity prior resamples the draws).
+	speed2Span, vrad2Span, vtan2Span [2]float64
 }
 
 // escapeRange tabulates the escape speed along the line of sight when the
@@ -394,6 +397,8 @@ func (w *worker) speeds(p potential.Potential, set *Settings, d *starDraws, r *R
 	r.SampleVel = growVec(r.SampleVel, d.keep)
 	keep, ve2Lo, ve2Hi := d.keep, d.ve2Lo, d.ve2Hi
 	unbound := 0
+	inf := math.Inf(1)
+	sLo, sHi, rLo, rHi, tLo, tHi := inf, -inf, inf, -inf, inf, -inf
 	// l is los.at written out on scalars: Go keeps arrays in memory, and
 	// this loop does most of a star's arithmetic.
 	// The slices as locals of one length: no reloads through w and no
@@ -431,14 +436,20 @@ func (w *worker) speeds(p potential.Potential, set *Settings, d *starDraws, r *R
 		}
 		unb[i] = ub
 		vr2 := pv * pv / r2 // v_r = pos.vel / r_gc
+		vr2s, vt2 := math.Copysign(vr2, pv), max(0, v2-vr2)
 		speed2[i], rgc2[i] = v2, r2
-		vrad2[i] = math.Copysign(vr2, pv)
-		vtan2[i] = max(0, v2-vr2)
+		vrad2[i], vtan2[i] = vr2s, vt2
+		// The spans the percentiles need, while the values are in
+		// registers (min and max are exact and independent of order).
+		sLo, sHi = min(sLo, v2), max(sHi, v2)
+		rLo, rHi = min(rLo, vr2s), max(rHi, vr2s)
+		tLo, tHi = min(tLo, vt2), max(tHi, vt2)
 		if i < keep {
 			r.SamplePos[i], r.SampleVel[i] = [3]float64{x, y, z}, [3]float64{vx, vy, vz}
 		}
 	}
 	d.unbound = unbound
+	d.speed2Span, d.vrad2Span, d.vtan2Span = [2]float64{sLo, sHi}, [2]float64{rLo, rHi}, [2]float64{tLo, tHi}
 }
 
 // summarise reweights the draws by the velocity prior when there is one
@@ -449,13 +460,20 @@ func (w *worker) summarise(set *Settings, d *starDraws, r *Result) {
 	kept := d.kept
 	pUnbound := float64(d.unbound) / float64(kept)
 	rgcMonotone, rgcInc := d.los.r2Monotone(d.dMinKpc, d.dMaxKpc)
+	// The spans found so far hold until the prior resamples the draws.
+	distSpan := [2]float64{d.dMinKpc, d.dMaxKpc}
+	speed2Span, vrad2Span, vtan2Span := d.speed2Span, d.vrad2Span, d.vtan2Span
 	if r.HasRV && set.VelocityPriorKms > 0 {
 		r.PUnboundFlat = pUnbound
 		pUnbound = w.applyPrior(set.VelocityPriorKms, kept, d.keep, !rgcMonotone, !d.escMonotone, &d.los, r)
+		distSpan[0], distSpan[1] = span(w.dist[:kept])
+		speed2Span[0], speed2Span[1] = span(w.speed2[:kept])
+		vrad2Span[0], vrad2Span[1] = span(w.vrad2[:kept])
+		vtan2Span[0], vtan2Span[1] = span(w.vtan2[:kept])
 	}
 	q := &w.quant
 	var mid middle
-	r.DistKpc, mid = q.percentilesMid(w.dist[:kept], nil)
+	r.DistKpc, mid = q.percentilesMidIn(w.dist[:kept], distSpan[0], distSpan[1], nil)
 	// r_gc and, when its table is monotone, v_esc are monotone functions
 	// of the distance for most stars: their medians then follow from the
 	// distance's middle order statistics without a selection.
@@ -470,12 +488,12 @@ func (w *worker) summarise(set *Settings, d *starDraws, r *Result) {
 		r.VEscKms = q.median(w.vesc2[:kept], math.Sqrt)
 	}
 	if r.HasRV {
-		r.SpeedKms = q.percentiles(w.speed2[:kept], math.Sqrt)
-		r.VRadialKms = q.median(w.vrad2[:kept], signedSqrt)
-		r.VTangentialKms = q.median(w.vtan2[:kept], math.Sqrt)
+		r.SpeedKms = q.percentilesIn(w.speed2[:kept], speed2Span[0], speed2Span[1], math.Sqrt)
+		r.VRadialKms = q.medianIn(w.vrad2[:kept], vrad2Span[0], vrad2Span[1], signedSqrt)
+		r.VTangentialKms = q.medianIn(w.vtan2[:kept], vtan2Span[0], vtan2Span[1], math.Sqrt)
 		r.PUnbound = pUnbound
 	} else {
-		r.SpeedLowerKms = q.percentiles(w.speed2[:kept], math.Sqrt)
+		r.SpeedLowerKms = q.percentilesIn(w.speed2[:kept], speed2Span[0], speed2Span[1], math.Sqrt)
 		r.PUnboundLower = pUnbound
 	}
 }
