@@ -258,7 +258,7 @@ func (w *worker) drawAstrometry(s *Star, set *Settings, method string, catDist c
 	}
 	wCorr := s.ParallaxMas - set.ParallaxZeroPointMas
 	mean := [3]float64{wCorr, s.PMRAMasYr, s.PMDecMasYr}
-	joint, ok := newGauss(3, mean, &cov, &w.rnd)
+	joint, ok := newGauss(3, mean, &cov)
 	if !ok {
 		r.fail(ReasonCovariance, "covariance of parallax and proper motions not positive definite")
 		return 0, false

@@ -19,7 +19,7 @@ type stream struct {
 // seed sets the state as rand.PCG.Seed does.
 func (s *stream) seed(hi, lo uint64) { s.hi, s.lo = hi, lo }
 
-// Uint64 makes stream a rand.Source (for distmv, which draws nothing here).
+// Uint64 is the next output (stream is a rand.Source).
 func (s *stream) Uint64() uint64 {
 	const (
 		mulHi    = 2549297995355413924
