@@ -465,7 +465,7 @@ func (w *worker) summarise(set *Settings, d *starDraws, r *Result) {
 	speed2Span, vrad2Span, vtan2Span := d.speed2Span, d.vrad2Span, d.vtan2Span
 	if r.HasRV && set.VelocityPriorKms > 0 {
 		r.PUnboundFlat = pUnbound
-		pUnbound = w.applyPrior(set.VelocityPriorKms, kept, d.keep, !rgcMonotone, !d.escMonotone, &d.los, r)
+		pUnbound = w.applyPrior(set.VelocityPriorKms, kept, d.keep, d.speed2Span[0], !rgcMonotone, !d.escMonotone, &d.los, r)
 		distSpan[0], distSpan[1] = span(w.dist[:kept])
 		speed2Span[0], speed2Span[1] = span(w.speed2[:kept])
 		vrad2Span[0], vrad2Span[1] = span(w.vrad2[:kept])
@@ -662,10 +662,11 @@ func growVec(b [][3]float64, n int) [][3]float64 {
 // (prior.go), replaces them by the equal-weight resample where they are
 // used later (r_gc^2 and v_esc^2 only when their medians need the draws),
 // takes the traced draws spread evenly over it (the resample is in draw
-// order) and returns the weighted unbound share.
-func (w *worker) applyPrior(sigmaKms float64, kept, keep int, needRGC, needVesc bool, los *lineOfSight, r *Result) float64 {
+// order) and returns the weighted unbound share; minSpeed2 is the smallest
+// speed^2 of the draws.
+func (w *worker) applyPrior(sigmaKms float64, kept, keep int, minSpeed2 float64, needRGC, needVesc bool, los *lineOfSight, r *Result) float64 {
 	idx := w.idx[:kept]
-	pu, ess := priorResample(w.speed2[:kept], w.unbound[:kept], sigmaKms, w.rndV.float64(), w.wt[:kept], idx)
+	pu, ess := priorResampleMin(w.speed2[:kept], minSpeed2, w.unbound[:kept], sigmaKms, w.rndV.float64(), w.wt[:kept], idx)
 	for i := range keep {
 		j := idx[i*kept/keep]
 		r.SamplePos[i], r.SampleVel[i] = los.at(w.dist[j], w.pmRA[j], w.pmDec[j], w.rv[j])
