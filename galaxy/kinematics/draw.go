@@ -1,10 +1,9 @@
 package kinematics
 
 import (
-	"math/rand/v2"
-
-	"gonum.org/v1/gonum/mat"
-	"gonum.org/v1/gonum/stat/distmv"
+	"gonum.org/v1/gonum/blas"
+	"gonum.org/v1/gonum/blas/blas64"
+	"gonum.org/v1/gonum/lapack/lapack64"
 
 	"starvet/internal/fingerprint"
 )
@@ -36,8 +35,9 @@ func splitmix64(x uint64) uint64 {
 
 // gauss draws from a normal of up to three dimensions. Components with zero
 // variance are held at their mean (a zero uncertainty collapses the draw to
-// the measured value); the others go through distmv, which checks that their
-// covariance is positive definite and factorises it.
+// the measured value); the others are factorised as distmv.Normal does
+// it (newGauss), which also checks that their covariance is positive
+// definite.
 type gauss struct {
 	dim    int
 	mean   [3]float64
@@ -49,7 +49,7 @@ type gauss struct {
 // newGauss prepares draws from N(mean, cov) over the first dim components.
 // ok is false when the covariance of the active components is not positive
 // definite. Called once per star: the per-draw work is in draw.
-func newGauss(dim int, mean [3]float64, cov *[3][3]float64, src rand.Source) (g gauss, ok bool) {
+func newGauss(dim int, mean [3]float64, cov *[3][3]float64) (g gauss, ok bool) {
 	g.dim, g.mean = dim, mean
 	for i := range dim {
 		if cov[i][i] > 0 {
@@ -61,25 +61,30 @@ func newGauss(dim int, mean [3]float64, cov *[3][3]float64, src rand.Source) (g 
 	if n == 0 {
 		return g, true
 	}
-	sym := mat.NewSymDense(n, nil)
+	// The calls distmv.NewNormal and Normal.TransformNormal (gonum
+	// v0.17.0) make, without the condition estimate and the allocations
+	// of a distmv.Normal: the upper triangle into an n x n array, its
+	// Cholesky factor U by lapack64.Potrf (false when not positive
+	// definite), then for a zero mean U^T e_b by blas64.Trmv plus the
+	// zero mean, which is column b of L = U^T exactly; so the factor used
+	// per draw is distmv's own (TestGaussMatchesDistmv).
+	u := make([]float64, n*n)
 	for a := range n {
 		for b := a; b < n; b++ {
-			sym.SetSym(a, b, cov[g.active[a]][g.active[b]])
+			u[a*n+b] = cov[g.active[a]][g.active[b]]
 		}
 	}
-	// Zero mean: distmv then maps a unit vector e_b to column b of its
-	// Cholesky factor exactly, so the factor used per draw is distmv's own.
-	var zero, e, col [3]float64
-	nrm, ok := distmv.NewNormal(zero[:n], sym, src)
+	tri, ok := lapack64.Potrf(blas64.Symmetric{Uplo: blas.Upper, N: n, Stride: n, Data: u})
 	if !ok {
 		return g, false
 	}
+	var e [3]float64
 	for b := range n {
 		e = [3]float64{}
 		e[b] = 1
-		nrm.TransformNormal(col[:n], e[:n])
+		blas64.Trmv(blas.Trans, tri, blas64.Vector{N: n, Inc: 1, Data: e[:n]})
 		for a := range n {
-			g.lower[a][b] = col[a]
+			g.lower[a][b] = e[a] + 0 // distmv adds the mean, turning -0 into +0
 		}
 	}
 	return g, true

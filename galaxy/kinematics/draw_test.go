@@ -4,6 +4,9 @@ import (
 	"math"
 	"math/rand/v2"
 	"testing"
+
+	"gonum.org/v1/gonum/mat"
+	"gonum.org/v1/gonum/stat/distmv"
 )
 
 // The conditional factor taken from the joint one reproduces the Schur
@@ -29,7 +32,7 @@ func TestConditionalOnFirst(t *testing.T) {
 				{c[0] * s[0] * s[1], s[1] * s[1], c[2] * s[1] * s[2]},
 				{c[1] * s[0] * s[2], c[2] * s[1] * s[2], s[2] * s[2]},
 			}
-			joint, ok := newGauss(3, [3]float64{}, &cov, rand.NewPCG(1, 2))
+			joint, ok := newGauss(3, [3]float64{}, &cov)
 			if !ok {
 				t.Fatal("not positive definite")
 			}
@@ -60,5 +63,88 @@ func TestConditionalOnFirst(t *testing.T) {
 				}
 			}
 		})
+	}
+}
+
+// distmvFactor is the factor newGauss took from distmv before it called
+// the same gonum routines itself: column b of L is the transform of e_b by a
+// zero-mean distmv.Normal.
+func distmvFactor(n int, cov *[3][3]float64) (l [3][3]float64, ok bool) {
+	sym := mat.NewSymDense(n, nil)
+	for a := range n {
+		for b := a; b < n; b++ {
+			sym.SetSym(a, b, cov[a][b])
+		}
+	}
+	var zero, e, col [3]float64
+	nrm, ok := distmv.NewNormal(zero[:n], sym, rand.NewPCG(1, 2))
+	if !ok {
+		return l, false
+	}
+	for b := range n {
+		e = [3]float64{}
+		e[b] = 1
+		nrm.TransformNormal(col[:n], e[:n])
+		for a := range n {
+			l[a][b] = col[a]
+		}
+	}
+	return l, true
+}
+
+// TestGaussFactorMatchesDistmv: newGauss's factor and positive-definiteness
+// verdict are distmv's bit for bit, over random covariances with exact zero
+// and opposite-sign correlations, correlations of +-1 and some zero
+// variances.
+func TestGaussFactorMatchesDistmv(t *testing.T) {
+	rnd := rand.New(rand.NewPCG(9, 10))
+	pick := func() float64 {
+		switch rnd.IntN(6) {
+		case 0:
+			return 0
+		case 1:
+			return 1 - 2*float64(rnd.IntN(2))
+		}
+		return 2*rnd.Float64() - 1
+	}
+	for i := range 20000 {
+		var sd [3]float64
+		for k := range sd {
+			sd[k] = math.Exp(4 * rnd.NormFloat64())
+			if rnd.IntN(8) == 0 {
+				sd[k] = 0
+			}
+		}
+		c := [3]float64{pick(), pick(), pick()}
+		cov := [3][3]float64{
+			{sd[0] * sd[0], c[0] * sd[0] * sd[1], c[1] * sd[0] * sd[2]},
+			{c[0] * sd[0] * sd[1], sd[1] * sd[1], c[2] * sd[1] * sd[2]},
+			{c[1] * sd[0] * sd[2], c[2] * sd[1] * sd[2], sd[2] * sd[2]},
+		}
+		g, ok := newGauss(3, [3]float64{}, &cov)
+		// distmv on the active block, as newGauss builds it.
+		var act [3][3]float64
+		for a := range g.nAct {
+			for b := range g.nAct {
+				act[a][b] = cov[g.active[a]][g.active[b]]
+			}
+		}
+		if g.nAct == 0 {
+			continue
+		}
+		want, wantOK := distmvFactor(g.nAct, &act)
+		if ok != wantOK {
+			t.Fatalf("case %d: ok %v, distmv %v (cov %v)", i, ok, wantOK, cov)
+		}
+		if !ok {
+			continue
+		}
+		for a := range 3 {
+			for b := range 3 {
+				if math.Float64bits(g.lower[a][b]) != math.Float64bits(want[a][b]) {
+					t.Fatalf("case %d: L[%d][%d] = %v, distmv %v (cov %v)", i, a, b, g.lower[a][b], want[a][b], cov)
+				}
+			}
+		}
 	}
 }

@@ -207,9 +207,20 @@ func (t *edsdTable) buildGuide() {
 	total := t.cdf[n-1]
 	ng := 2 * n
 	t.guide = resizeInt(t.guide, ng)
+	// k/ng is k times 1/ng exactly when ng is a power of two (a product
+	// by a power of two is exact): the same m without a division.
+	invNG := 0.0
+	if ng&(ng-1) == 0 {
+		invNG = 1 / float64(ng)
+	}
 	j := 1
 	for k := range t.guide {
-		m := float64(k) / float64(ng) * total
+		var m float64
+		if invNG != 0 {
+			m = float64(k) * invNG * total
+		} else {
+			m = float64(k) / float64(ng) * total
+		}
 		for j < n-1 && t.cdf[j] < m {
 			j++
 		}

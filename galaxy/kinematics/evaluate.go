@@ -26,6 +26,7 @@ type worker struct {
 	// Velocity-prior scratch: weights, resample indices, a gather buffer,
 	// and whether each draw is unbound.
 	wt, tmp     []float64
+	z           []float64 // standard normals drawn ahead, up to three per draw
 	idx         []int
 	unbound     []bool
 	table       edsdTable
@@ -46,6 +47,7 @@ func (w *worker) init(n int) {
 	for _, b := range []*[]float64{&w.dist, &w.plx, &w.pmRA, &w.pmDec, &w.rv, &w.speed2, &w.rgc2, &w.vrad2, &w.vtan2, &w.vesc2, &w.wt, &w.tmp} {
 		*b = resize(*b, n)
 	}
+	w.z = resize(w.z, 3*n)
 	if cap(w.idx) < n {
 		w.idx = make([]int, n)
 		w.unbound = make([]bool, n)
@@ -256,7 +258,7 @@ func (w *worker) drawAstrometry(s *Star, set *Settings, method string, catDist c
 	}
 	wCorr := s.ParallaxMas - set.ParallaxZeroPointMas
 	mean := [3]float64{wCorr, s.PMRAMasYr, s.PMDecMasYr}
-	joint, ok := newGauss(3, mean, &cov, &w.rnd)
+	joint, ok := newGauss(3, mean, &cov)
 	if !ok {
 		r.fail(ReasonCovariance, "covariance of parallax and proper motions not positive definite")
 		return 0, false
@@ -264,15 +266,19 @@ func (w *worker) drawAstrometry(s *Star, set *Settings, method string, catDist c
 	switch method {
 	case MethodInverse:
 		dropped := 0
-		for range n {
-			var x [3]float64
-			joint.draw(&w.rnd, &x)
-			if x[0] <= 0 {
-				dropped++
-				continue
+		if joint.nAct == 3 {
+			kept, dropped = w.drawInverse3(&joint, n)
+		} else {
+			for range n {
+				var x [3]float64
+				joint.draw(&w.rnd, &x)
+				if x[0] <= 0 {
+					dropped++
+					continue
+				}
+				w.dist[kept], w.plx[kept], w.pmRA[kept], w.pmDec[kept] = 1/x[0], x[0], x[1], x[2]
+				kept++
 			}
-			w.dist[kept], w.plx[kept], w.pmRA[kept], w.pmDec[kept] = 1/x[0], x[0], x[1], x[2]
-			kept++
 		}
 		if dropped > 0 {
 			r.note(ReasonPlxDrawsDropped, "%d of %d parallax draws non-positive, dropped", dropped, n)
@@ -298,6 +304,30 @@ func (w *worker) drawAstrometry(s *Star, set *Settings, method string, catDist c
 	return 0, true // Settings.Validate admits no other method
 }
 
+// drawInverse3 is the inverse-distance loop of drawAstrometry for a joint
+// normal with all three components active: the 3n normals that n calls of
+// joint.draw take are drawn first, then mapped with the same arithmetic.
+func (w *worker) drawInverse3(joint *gauss, n int) (kept, dropped int) {
+	z := w.z[:3*n]
+	w.rnd.normals(z)
+	dist, plx, pmRA, pmDec := w.dist[:n], w.plx[:n], w.pmRA[:n], w.pmDec[:n]
+	l, m := &joint.lower, joint.mean
+	for i := range n {
+		zi := z[3*i : 3*i+3 : 3*i+3]
+		z0, z1, z2 := zi[0], zi[1], zi[2]
+		x0 := m[0] + l[0][0]*z0
+		if x0 <= 0 {
+			dropped++
+			continue
+		}
+		x1 := m[1] + (l[1][0]*z0 + l[1][1]*z1)
+		x2 := m[2] + (l[2][0]*z0 + l[2][1]*z1 + l[2][2]*z2)
+		dist[kept], plx[kept], pmRA[kept], pmDec[kept] = 1/x0, x0, x1, x2
+		kept++
+	}
+	return kept, dropped
+}
+
 // drawRV fills the kept radial-velocity draws from their own stream (0
 // without a usable radial velocity, noted in r) and returns the nominal
 // radial velocity the star's position and velocity are given at.
@@ -312,17 +342,16 @@ func (w *worker) drawRV(s *Star, kept int, r *Result) (rvNomKms float64) {
 			r.note(ReasonNoRV, "no radial velocity: speeds are lower bounds over all radial velocities")
 		}
 	}
-	for i := range kept {
-		if r.HasRV {
-			w.rv[i] = rvKms + rvErr*w.rndV.norm()
-		} else {
-			w.rv[i] = 0
-		}
+	rv := w.rv[:kept]
+	if !r.HasRV {
+		clear(rv)
+		return 0
 	}
-	if r.HasRV {
-		return rvKms
+	w.rndV.normals(rv)
+	for i, z := range rv {
+		rv[i] = rvKms + rvErr*z
 	}
-	return 0
+	return rvKms
 }
 
 // starDraws is what the steps of evaluate hand on about one star's draws.
@@ -335,6 +364,9 @@ type starDraws struct {
 	escMonotone  bool
 	ve2Lo, ve2Hi float64
 	unbound      int // draws faster than their escape speed
+	// span of speed2, vrad2 and vtan2 over the kept draws, as span
+	// returns them (valid until the velocity prior resamples the draws).
+	speed2Span, vrad2Span, vtan2Span [2]float64
 }
 
 // escapeRange tabulates the escape speed along the line of sight when the
@@ -365,11 +397,18 @@ func (w *worker) speeds(p potential.Potential, set *Settings, d *starDraws, r *R
 	r.SampleVel = growVec(r.SampleVel, d.keep)
 	keep, ve2Lo, ve2Hi := d.keep, d.ve2Lo, d.ve2Hi
 	unbound := 0
+	inf := math.Inf(1)
+	sLo, sHi, rLo, rHi, tLo, tHi := inf, -inf, inf, -inf, inf, -inf
 	// l is los.at written out on scalars: Go keeps arrays in memory, and
 	// this loop does most of a star's arithmetic.
+	// The slices as locals of one length: no reloads through w and no
+	// bounds checks in the loop.
 	l := &d.los
-	for i := range d.kept {
-		dKpc, pmRA, pmDec, rv := w.dist[i], w.pmRA[i], w.pmDec[i], w.rv[i]
+	n := d.kept
+	dist, pmRAs, pmDecs, rvs := w.dist[:n], w.pmRA[:n], w.pmDec[:n], w.rv[:n]
+	speed2, rgc2, vrad2, vtan2, vesc2, unb := w.speed2[:n], w.rgc2[:n], w.vrad2[:n], w.vtan2[:n], w.vesc2[:n], w.unbound[:n]
+	for i := range n {
+		dKpc, pmRA, pmDec, rv := dist[i], pmRAs[i], pmDecs[i], rvs[i]
 		x := l.pos0[0] + dKpc*l.posR[0]
 		y := l.pos0[1] + dKpc*l.posR[1]
 		z := l.pos0[2] + dKpc*l.posR[2]
@@ -389,22 +428,28 @@ func (w *worker) speeds(p potential.Potential, set *Settings, d *starDraws, r *R
 			} else {
 				ve2 = escapeSpeed2(p, [3]float64{x, y, z}, math.Sqrt(r2), set.EscapeRadiusKpc)
 			}
-			w.vesc2[i] = ve2
+			vesc2[i] = ve2
 			ub = v2 > ve2 // v > v_esc
 		}
 		if ub {
 			unbound++
 		}
-		w.unbound[i] = ub
+		unb[i] = ub
 		vr2 := pv * pv / r2 // v_r = pos.vel / r_gc
-		w.speed2[i], w.rgc2[i] = v2, r2
-		w.vrad2[i] = math.Copysign(vr2, pv)
-		w.vtan2[i] = max(0, v2-vr2)
+		vr2s, vt2 := math.Copysign(vr2, pv), max(0, v2-vr2)
+		speed2[i], rgc2[i] = v2, r2
+		vrad2[i], vtan2[i] = vr2s, vt2
+		// The spans the percentiles need, while the values are in
+		// registers (min and max are exact and independent of order).
+		sLo, sHi = min(sLo, v2), max(sHi, v2)
+		rLo, rHi = min(rLo, vr2s), max(rHi, vr2s)
+		tLo, tHi = min(tLo, vt2), max(tHi, vt2)
 		if i < keep {
 			r.SamplePos[i], r.SampleVel[i] = [3]float64{x, y, z}, [3]float64{vx, vy, vz}
 		}
 	}
 	d.unbound = unbound
+	d.speed2Span, d.vrad2Span, d.vtan2Span = [2]float64{sLo, sHi}, [2]float64{rLo, rHi}, [2]float64{tLo, tHi}
 }
 
 // summarise reweights the draws by the velocity prior when there is one
@@ -415,13 +460,20 @@ func (w *worker) summarise(set *Settings, d *starDraws, r *Result) {
 	kept := d.kept
 	pUnbound := float64(d.unbound) / float64(kept)
 	rgcMonotone, rgcInc := d.los.r2Monotone(d.dMinKpc, d.dMaxKpc)
+	// The spans found so far hold until the prior resamples the draws.
+	distSpan := [2]float64{d.dMinKpc, d.dMaxKpc}
+	speed2Span, vrad2Span, vtan2Span := d.speed2Span, d.vrad2Span, d.vtan2Span
 	if r.HasRV && set.VelocityPriorKms > 0 {
 		r.PUnboundFlat = pUnbound
-		pUnbound = w.applyPrior(set.VelocityPriorKms, kept, d.keep, !rgcMonotone, !d.escMonotone, &d.los, r)
+		pUnbound = w.applyPrior(set.VelocityPriorKms, kept, d.keep, d.speed2Span[0], !rgcMonotone, !d.escMonotone, &d.los, r)
+		distSpan[0], distSpan[1] = span(w.dist[:kept])
+		speed2Span[0], speed2Span[1] = span(w.speed2[:kept])
+		vrad2Span[0], vrad2Span[1] = span(w.vrad2[:kept])
+		vtan2Span[0], vtan2Span[1] = span(w.vtan2[:kept])
 	}
 	q := &w.quant
 	var mid middle
-	r.DistKpc, mid = q.percentilesMid(w.dist[:kept], nil)
+	r.DistKpc, mid = q.percentilesMidIn(w.dist[:kept], distSpan[0], distSpan[1], nil)
 	// r_gc and, when its table is monotone, v_esc are monotone functions
 	// of the distance for most stars: their medians then follow from the
 	// distance's middle order statistics without a selection.
@@ -436,12 +488,12 @@ func (w *worker) summarise(set *Settings, d *starDraws, r *Result) {
 		r.VEscKms = q.median(w.vesc2[:kept], math.Sqrt)
 	}
 	if r.HasRV {
-		r.SpeedKms = q.percentiles(w.speed2[:kept], math.Sqrt)
-		r.VRadialKms = q.median(w.vrad2[:kept], signedSqrt)
-		r.VTangentialKms = q.median(w.vtan2[:kept], math.Sqrt)
+		r.SpeedKms = q.percentilesIn(w.speed2[:kept], speed2Span[0], speed2Span[1], math.Sqrt)
+		r.VRadialKms = q.medianIn(w.vrad2[:kept], vrad2Span[0], vrad2Span[1], signedSqrt)
+		r.VTangentialKms = q.medianIn(w.vtan2[:kept], vtan2Span[0], vtan2Span[1], math.Sqrt)
 		r.PUnbound = pUnbound
 	} else {
-		r.SpeedLowerKms = q.percentiles(w.speed2[:kept], math.Sqrt)
+		r.SpeedLowerKms = q.percentilesIn(w.speed2[:kept], speed2Span[0], speed2Span[1], math.Sqrt)
 		r.PUnboundLower = pUnbound
 	}
 }
@@ -483,10 +535,34 @@ func (w *worker) drawEDSD(s *Star, set *Settings, cov *[3][3]float64, joint *gau
 			w.dist[i] = w.table.quantile(w.rnd.float64())
 		}
 	}
+	if g.nAct == 2 {
+		w.drawPMs2(n, wObs, mean, beta, &g)
+		return true
+	}
 	for i := range n {
 		w.drawPM(i, w.dist[i], wObs, mean, beta, &g)
 	}
 	return true
+}
+
+// drawPMs2 is drawPM for draws 0..n-1 when both proper motions have an
+// uncertainty: the 2n normals of the n calls of g.draw first, then the
+// same arithmetic.
+func (w *worker) drawPMs2(n int, wObs float64, mean [3]float64, beta [2]float64, g *gauss) {
+	z := w.z[:2*n]
+	w.rnd.normals(z)
+	dist, plxs, pmRA, pmDec := w.dist[:n], w.plx[:n], w.pmRA[:n], w.pmDec[:n]
+	l, m := &g.lower, g.mean
+	for i, d := range dist {
+		zi := z[2*i : 2*i+2 : 2*i+2]
+		z0, z1 := zi[0], zi[1]
+		x0 := m[0] + l[0][0]*z0
+		x1 := m[1] + (l[1][0]*z0 + l[1][1]*z1)
+		plx := 1 / d
+		plxs[i] = plx
+		pmRA[i] = mean[1] + beta[0]*(plx-wObs) + x0
+		pmDec[i] = mean[2] + beta[1]*(plx-wObs) + x1
+	}
 }
 
 // drawPM stores distance d and proper motions drawn from their normal
@@ -586,10 +662,11 @@ func growVec(b [][3]float64, n int) [][3]float64 {
 // (prior.go), replaces them by the equal-weight resample where they are
 // used later (r_gc^2 and v_esc^2 only when their medians need the draws),
 // takes the traced draws spread evenly over it (the resample is in draw
-// order) and returns the weighted unbound share.
-func (w *worker) applyPrior(sigmaKms float64, kept, keep int, needRGC, needVesc bool, los *lineOfSight, r *Result) float64 {
+// order) and returns the weighted unbound share; minSpeed2 is the smallest
+// speed^2 of the draws.
+func (w *worker) applyPrior(sigmaKms float64, kept, keep int, minSpeed2 float64, needRGC, needVesc bool, los *lineOfSight, r *Result) float64 {
 	idx := w.idx[:kept]
-	pu, ess := priorResample(w.speed2[:kept], w.unbound[:kept], sigmaKms, w.rndV.float64(), w.wt[:kept], idx)
+	pu, ess := priorResampleMin(w.speed2[:kept], minSpeed2, w.unbound[:kept], sigmaKms, w.rndV.float64(), w.wt[:kept], idx)
 	for i := range keep {
 		j := idx[i*kept/keep]
 		r.SamplePos[i], r.SampleVel[i] = los.at(w.dist[j], w.pmRA[j], w.pmDec[j], w.rv[j])

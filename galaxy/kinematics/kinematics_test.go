@@ -321,7 +321,7 @@ func TestGaussMatchesDistmv(t *testing.T) {
 	pcg2 := rand.NewPCG(1, 2)
 	var rnd stream
 	rnd.seed(1, 2)
-	g, ok := newGauss(3, mean, &cov, &rnd)
+	g, ok := newGauss(3, mean, &cov)
 	if !ok {
 		t.Fatal("not positive definite")
 	}

@@ -32,13 +32,18 @@ const minPriorESSShare = 0.2
 // marked unbound and the effective sample size
 // (sum w)^2 / sum w^2 (Kish 1965, Survey Sampling, section 11.7).
 func priorResample(speed2 []float64, unbound []bool, sigmaKms, u float64, wt []float64, idx []int) (pUnbound, ess float64) {
-	n := len(speed2)
-	inv := 1 / (2 * sigmaKms * sigmaKms)
-	// Subtract the smallest exponent so that the largest weight is 1.
 	minSq := math.Inf(1)
 	for _, v2 := range speed2 {
 		minSq = min(minSq, v2)
 	}
+	return priorResampleMin(speed2, minSq, unbound, sigmaKms, u, wt, idx)
+}
+
+// priorResampleMin is priorResample with the smallest of speed2 known
+// (minSq, as min over speed2 gives it; the largest weight is then 1).
+func priorResampleMin(speed2 []float64, minSq float64, unbound []bool, sigmaKms, u float64, wt []float64, idx []int) (pUnbound, ess float64) {
+	n := len(speed2)
+	inv := 1 / (2 * sigmaKms * sigmaKms)
 	var sum, sum2, ub float64
 	for i, v2 := range speed2 {
 		w := math.Exp(-(v2 - minSq) * inv)

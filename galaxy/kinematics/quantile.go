@@ -23,7 +23,7 @@ type quantiler struct {
 }
 
 // selectBuckets is the number of equal-width value buckets of the
-// distribution selection (orderStats); with n = 1000 draws about four
+// distribution selection (orderStatsIn); with n = 1000 draws about four
 // values share a bucket.
 const selectBuckets = 256
 
@@ -51,6 +51,23 @@ type middle struct {
 // percentilesMid is percentiles that also returns the middle order
 // statistics.
 func (q *quantiler) percentilesMid(a []float64, back func(float64) float64) ([3]float64, middle) {
+	if len(a) == 0 {
+		return [3]float64{math.NaN(), math.NaN(), math.NaN()}, middle{}
+	}
+	lo, hi := span(a)
+	return q.percentilesMidIn(a, lo, hi, back)
+}
+
+// percentilesIn is percentiles for a whose span (lo, hi) is known: they
+// must be what span(a) returns.
+func (q *quantiler) percentilesIn(a []float64, lo, hi float64, back func(float64) float64) [3]float64 {
+	out, _ := q.percentilesMidIn(a, lo, hi, back)
+	return out
+}
+
+// percentilesMidIn is percentilesMid with the span of a known (as
+// percentilesIn).
+func (q *quantiler) percentilesMidIn(a []float64, lo, hi float64, back func(float64) float64) ([3]float64, middle) {
 	n := len(a)
 	out := [3]float64{math.NaN(), math.NaN(), math.NaN()}
 	if n == 0 {
@@ -65,7 +82,7 @@ func (q *quantiler) percentilesMid(a []float64, back func(float64) float64) ([3]
 		ranks[2*i], ranks[2*i+1] = k, min(k+1, n-1)
 	}
 	var v [6]float64
-	if !q.orderStats(a, ranks[:], v[:]) {
+	if !q.orderStatsIn(a, lo, hi, ranks[:], v[:]) {
 		return out, middle{}
 	}
 	for i := range 3 {
@@ -101,6 +118,15 @@ func medianOfMonotone(f func(float64) float64, m middle, increasing bool, back f
 // median returns {NaN, median, NaN} of a with the same definition as
 // percentiles, for the quantities whose spread nobody reads.
 func (q *quantiler) median(a []float64, back func(float64) float64) [3]float64 {
+	if len(a) == 0 {
+		return [3]float64{math.NaN(), math.NaN(), math.NaN()}
+	}
+	lo, hi := span(a)
+	return q.medianIn(a, lo, hi, back)
+}
+
+// medianIn is median for a whose span (lo, hi) is known (as percentilesIn).
+func (q *quantiler) medianIn(a []float64, lo, hi float64, back func(float64) float64) [3]float64 {
 	n := len(a)
 	out := [3]float64{math.NaN(), math.NaN(), math.NaN()}
 	if n == 0 {
@@ -110,7 +136,7 @@ func (q *quantiler) median(a []float64, back func(float64) float64) [3]float64 {
 	k := int(h)
 	ranks := [2]int{k, min(k+1, n-1)}
 	var v [2]float64
-	if !q.orderStats(a, ranks[:], v[:]) {
+	if !q.orderStatsIn(a, lo, hi, ranks[:], v[:]) {
 		return out
 	}
 	out[1] = interpolate(v[0], v[1], h-float64(k), back)
@@ -131,8 +157,9 @@ func interpolate(lo, hi, frac float64, back func(float64) float64) float64 {
 func percentiles(a []float64) [3]float64 { return new(quantiler).percentiles(a, nil) }
 func median(a []float64) [3]float64      { return new(quantiler).median(a, nil) }
 
-// orderStats stores in v[i] the order statistic of rank ranks[i] (0-based:
-// the value at that index after sorting a; at most 8 ranks, ascending). It returns
+// orderStatsIn stores in v[i] the order statistic of rank ranks[i] (0-based:
+// the value at that index after sorting a; at most 8 ranks, ascending);
+// (lo, hi) must be span(a), which callers often know already. It returns
 // false when a holds a NaN, which has no place in the order. a may be
 // reordered.
 //
@@ -144,9 +171,8 @@ func median(a []float64) [3]float64      { return new(quantiler).median(a, nil) 
 // over a with few unpredictable branches; partition-based selection
 // spends most of its time on mispredicted comparisons. It stays whole: the
 // passes share the bucket counts and offsets in arrays on the stack.
-func (q *quantiler) orderStats(a []float64, ranks []int, v []float64) bool {
+func (q *quantiler) orderStatsIn(a []float64, lo, hi float64, ranks []int, v []float64) bool {
 	n := len(a)
-	lo, hi := span(a)
 	if lo != lo || hi != hi {
 		return false
 	}
@@ -177,10 +203,15 @@ func (q *quantiler) orderStats(a []float64, ranks []int, v []float64) bool {
 		count[b]++
 	}
 	// first[b]: rank of the smallest value in bucket b.
+	// The running sum stays in a register: reading back first[b] just
+	// stored would wait on the store at every bucket.
 	var first [selectBuckets + 1]int32
-	for b := range selectBuckets {
-		first[b+1] = first[b] + count[b]
+	sum := int32(0)
+	for b, c := range count {
+		first[b] = sum
+		sum += c
 	}
+	first[selectBuckets] = sum
 	var wanted [selectBuckets]bool
 	var where [8]int // bucket of each rank
 	for i, k := range ranks {
@@ -258,7 +289,7 @@ func bucketOfRank(first *[selectBuckets + 1]int32, k int) int {
 	return lo
 }
 
-// selectEach is orderStats by Floyd-Rivest selection, one rank at a time
+// selectEach is orderStatsIn by Floyd-Rivest selection, one rank at a time
 // (each selection is correct from any arrangement of a); it reorders a.
 func (q *quantiler) selectEach(a []float64, ranks []int, v []float64) {
 	for i, k := range ranks {

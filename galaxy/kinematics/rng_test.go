@@ -1,6 +1,7 @@
 package kinematics
 
 import (
+	"math"
 	"math/rand/v2"
 	"testing"
 )
@@ -35,6 +36,26 @@ func TestStreamMatches(t *testing.T) {
 		if edge == 0 {
 			t.Errorf("seed %v: no tail draw", seed)
 		}
+	}
+}
+
+// TestNormalsMatchNorm: the batched fill draws what norm draws, and
+// leaves the stream where norm leaves it.
+func TestNormalsMatchNorm(t *testing.T) {
+	var a, b stream
+	a.seed(3, 4)
+	b.seed(3, 4)
+	z := make([]float64, 4099)
+	for range 200 {
+		a.normals(z)
+		for i, x := range z {
+			if y := b.norm(); math.Float64bits(x) != math.Float64bits(y) {
+				t.Fatalf("draw %d: %v, want %v", i, x, y)
+			}
+		}
+	}
+	if a != b {
+		t.Fatalf("state %v, want %v", a, b)
 	}
 }
 
