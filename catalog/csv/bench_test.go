@@ -9,7 +9,6 @@ import (
 	"path/filepath"
 	"strconv"
 	"sync"
-	"syscall"
 	"testing"
 
 	"starvet/catalog"
@@ -25,13 +24,13 @@ func writeBenchCSV(tb testing.TB, path string, rows int) {
 		tb.Fatal(err)
 	}
 	w := bufio.NewWriterSize(f, 1<<20)
-	fmt.Fprintln(w, "id,ra,dec,ra_err,dec_err,parallax,parallax_err,pm_ra,pm_ra_err,pm_dec,pm_dec_err,corr_ra_dec,fit_residual,excess_noise,mag,color")
-	rng := rand.New(rand.NewPCG(1, 2))
+	fmt.Fprintln(w, benchfile.TextHeader())
+	rng := benchfile.NewRand()
+	var v [benchfile.NumValues]float64
+	var line []byte
 	for i := range rows {
-		fmt.Fprintf(w, "bench-%08d,%.9f,%.9f,%.4f,%.4f,%.5f,%.5f,%.4f,%.4f,%.4f,%.4f,%.4f,%.4f,%.4f,%.4f,%.4f\n",
-			i, rng.Float64()*360, rng.Float64()*180-90, rng.Float64(), rng.Float64(),
-			rng.NormFloat64(), rng.Float64()*0.3, rng.NormFloat64()*10, rng.Float64(), rng.NormFloat64()*10, rng.Float64(),
-			rng.Float64()*2-1, 1+rng.Float64()*0.4, rng.Float64(), 12+8*rng.Float64(), rng.Float64()*3)
+		line = benchfile.AppendText(line[:0], benchfile.Row(rng, i, &v), &v)
+		w.Write(line)
 	}
 	if err := w.Flush(); err != nil {
 		tb.Fatal(err)
@@ -53,7 +52,7 @@ func BenchmarkReadCSV(b *testing.B) {
 	b.SetBytes(st.Size())
 	// CPU seconds (user+sys, all threads) per op, reported beside wall time
 	// because the machine is shared and wall time swings with its load.
-	cpu0 := cpuSeconds(b)
+	cpu0 := benchfile.CPUSeconds(b)
 	n := 0
 	b.ResetTimer()
 	for b.Loop() {
@@ -66,16 +65,7 @@ func BenchmarkReadCSV(b *testing.B) {
 			b.Fatalf("kept %d of %d, quarantined %d", tab.Len(), rows, len(rep.Quarantined))
 		}
 	}
-	b.ReportMetric((cpuSeconds(b)-cpu0)/float64(n), "cpu-s/op")
-}
-
-func cpuSeconds(b *testing.B) float64 {
-	var ru syscall.Rusage
-	if err := syscall.Getrusage(syscall.RUSAGE_SELF, &ru); err != nil {
-		b.Fatal(err)
-	}
-	tv := func(t syscall.Timeval) float64 { return float64(t.Sec) + float64(t.Usec)/1e6 }
-	return tv(ru.Utime) + tv(ru.Stime)
+	b.ReportMetric((benchfile.CPUSeconds(b)-cpu0)/float64(n), "cpu-s/op")
 }
 
 // writePairCSV writes an invented primary of rows rows in the 14 columns of
@@ -148,7 +138,7 @@ func BenchmarkReadPair(b *testing.B) {
 	dir := b.TempDir()
 	pp, sp := filepath.Join(dir, "primary.csv"), filepath.Join(dir, "secondary.csv")
 	writePairCSV(b, pp, sp, rows)
-	cpu0 := cpuSeconds(b)
+	cpu0 := benchfile.CPUSeconds(b)
 	n := 0
 	b.ResetTimer()
 	for b.Loop() {
@@ -173,7 +163,7 @@ func BenchmarkReadPair(b *testing.B) {
 			}
 		}
 	}
-	b.ReportMetric((cpuSeconds(b)-cpu0)/float64(n), "cpu-s/op")
+	b.ReportMetric((benchfile.CPUSeconds(b)-cpu0)/float64(n), "cpu-s/op")
 }
 
 // TestWriteBenchFile writes BenchmarkReadCSV's file to STARVET_BENCH_WRITE, for

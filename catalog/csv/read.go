@@ -4,9 +4,7 @@ import (
 	"bytes"
 	"compress/gzip"
 	"context"
-	"crypto/sha256"
 	"encoding/csv"
-	"encoding/hex"
 	"errors"
 	"fmt"
 	"io"
@@ -116,7 +114,7 @@ func read(ctx context.Context, spec catalog.Spec, opt catalog.ReadOptions, force
 // their own, then decompressed when the name ends in .gz.
 type input struct {
 	f    *os.File
-	hr   *hashingReader
+	hr   *catalog.HashingReader
 	zr   *gzip.Reader
 	text io.Reader // the delimited text
 	size int64     // bytes in the file
@@ -133,7 +131,7 @@ func open(name string) (*input, error) {
 		f.Close()
 		return nil, catalog.WrapFileError(name, 0, "", catalog.ErrNoFile, err)
 	}
-	in := &input{f: f, hr: newHashingReader(f), size: st.Size(), name: name}
+	in := &input{f: f, hr: catalog.NewHashingReader(f, 0), size: st.Size(), name: name}
 	in.text = in.hr
 	if in.gzipped() {
 		if in.zr, err = gzip.NewReader(in.hr); err != nil {
@@ -155,14 +153,14 @@ func (in *input) finish() (string, error) {
 	if _, err := io.Copy(io.Discard, in.hr); err != nil {
 		return "", readError(in.name, err)
 	}
-	return hex.EncodeToString(in.hr.sum()), nil
+	return in.hr.Sum(), nil
 }
 
 func (in *input) close() {
 	if in.zr != nil {
 		in.zr.Close()
 	}
-	in.hr.close()
+	in.hr.Close()
 	in.f.Close()
 }
 
@@ -499,93 +497,6 @@ func (lf *lineFields) pos(col int) int {
 		line += strings.Count(f, "\n")
 	}
 	return line
-}
-
-// hashingReader reads a file in chunks on its own goroutine, hashing each
-// chunk there, so hashing runs alongside parsing on a second core.
-type hashingReader struct {
-	full  chan chunk
-	free  chan []byte
-	done  chan struct{}
-	cur   []byte
-	buf   []byte
-	err   error
-	total [sha256.Size]byte
-}
-
-type chunk struct {
-	b   []byte
-	err error
-}
-
-const hashChunkBytes = 1 << 20
-
-func newHashingReader(r io.Reader) *hashingReader {
-	h := &hashingReader{full: make(chan chunk, 3), free: make(chan []byte, 4), done: make(chan struct{})}
-	for range 4 {
-		h.free <- make([]byte, hashChunkBytes)
-	}
-	go func() {
-		sum := sha256.New()
-		defer close(h.full)
-		for {
-			var b []byte
-			select {
-			case b = <-h.free:
-			case <-h.done:
-				return
-			}
-			n, err := io.ReadFull(r, b)
-			sum.Write(b[:n])
-			if err == io.ErrUnexpectedEOF {
-				err = io.EOF
-			}
-			if err == io.EOF {
-				copy(h.total[:], sum.Sum(nil))
-			}
-			select {
-			case h.full <- chunk{b[:n], err}:
-			case <-h.done:
-				return
-			}
-			if err != nil {
-				return
-			}
-		}
-	}()
-	return h
-}
-
-func (h *hashingReader) Read(p []byte) (int, error) {
-	for len(h.cur) == 0 {
-		if h.err != nil {
-			return 0, h.err
-		}
-		if h.buf != nil {
-			h.free <- h.buf[:cap(h.buf)]
-			h.buf = nil
-		}
-		c, ok := <-h.full
-		if !ok {
-			h.err = io.EOF
-			continue
-		}
-		h.buf, h.cur, h.err = c.b, c.b, c.err
-	}
-	n := copy(p, h.cur)
-	h.cur = h.cur[n:]
-	return n, nil
-}
-
-// sum is valid once Read has returned io.EOF.
-func (h *hashingReader) sum() []byte { return h.total[:] }
-
-func (h *hashingReader) close() {
-	select {
-	case <-h.done:
-	default:
-		close(h.done)
-	}
 }
 
 // Columns describes the file's columns as delimited text can: by the

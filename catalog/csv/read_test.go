@@ -359,7 +359,7 @@ func TestMultiChunkHash(t *testing.T) {
 	p := filepath.Join(dir, "big.csv")
 	var b strings.Builder
 	b.WriteString("id,ra,dec\n")
-	for i := 0; b.Len() < 5*hashChunkBytes+123; i++ {
+	for i := 0; b.Len() < 5*catalog.HashPieceBytes+123; i++ {
 		fmt.Fprintf(&b, "b-%d,%.6f,%.6f\n", i, float64(i%360000)/1000, float64(i%1800)/20-45)
 	}
 	if err := os.WriteFile(p, []byte(b.String()), 0o644); err != nil {

@@ -4,10 +4,9 @@ import (
 	"bufio"
 	"context"
 	"fmt"
-	"math/rand/v2"
 	"os"
 	"path/filepath"
-	"syscall"
+	"strings"
 	"testing"
 
 	"starvet/catalog"
@@ -24,24 +23,22 @@ func writeBenchECSV(tb testing.TB, path string, rows int) {
 		tb.Fatal(err)
 	}
 	w := bufio.NewWriterSize(f, 1<<20)
-	names := []string{"id", "ra", "dec", "ra_err", "dec_err", "parallax", "parallax_err", "pm_ra", "pm_ra_err", "pm_dec", "pm_dec_err", "corr_ra_dec", "fit_residual", "excess_noise", "mag", "color"}
-	units := []string{"", "deg", "deg", "mas", "mas", "mas", "mas", "mas / yr", "mas / yr", "mas / yr", "mas / yr", "", "", "mas", "mag", "mag"}
 	w.WriteString("# %ECSV 1.0\n# ---\n# datatype:\n# - {name: id, datatype: string}\n")
-	for i, n := range names[1:] {
-		if u := units[i+1]; u != "" {
-			fmt.Fprintf(w, "# - {name: %s, unit: %s, datatype: float64}\n", n, u)
+	for _, c := range benchfile.Columns {
+		if u := strings.ReplaceAll(c.Unit, "/", " / "); u != "" { // the spacing astropy writes
+			fmt.Fprintf(w, "# - {name: %s, unit: %s, datatype: float64}\n", c.Name, u)
 		} else {
-			fmt.Fprintf(w, "# - {name: %s, datatype: float64}\n", n)
+			fmt.Fprintf(w, "# - {name: %s, datatype: float64}\n", c.Name)
 		}
 	}
 	fmt.Fprint(w, "# delimiter: ','\n")
-	fmt.Fprintln(w, "id,ra,dec,ra_err,dec_err,parallax,parallax_err,pm_ra,pm_ra_err,pm_dec,pm_dec_err,corr_ra_dec,fit_residual,excess_noise,mag,color")
-	rng := rand.New(rand.NewPCG(1, 2))
+	fmt.Fprintln(w, benchfile.TextHeader())
+	rng := benchfile.NewRand()
+	var v [benchfile.NumValues]float64
+	var line []byte
 	for i := range rows {
-		fmt.Fprintf(w, "bench-%08d,%.9f,%.9f,%.4f,%.4f,%.5f,%.5f,%.4f,%.4f,%.4f,%.4f,%.4f,%.4f,%.4f,%.4f,%.4f\n",
-			i, rng.Float64()*360, rng.Float64()*180-90, rng.Float64(), rng.Float64(),
-			rng.NormFloat64(), rng.Float64()*0.3, rng.NormFloat64()*10, rng.Float64(), rng.NormFloat64()*10, rng.Float64(),
-			rng.Float64()*2-1, 1+rng.Float64()*0.4, rng.Float64(), 12+8*rng.Float64(), rng.Float64()*3)
+		line = benchfile.AppendText(line[:0], benchfile.Row(rng, i, &v), &v)
+		w.Write(line)
 	}
 	if err := w.Flush(); err != nil {
 		tb.Fatal(err)
@@ -64,7 +61,7 @@ func BenchmarkReadECSV(b *testing.B) {
 	b.SetBytes(st.Size())
 	// CPU seconds per op, as BenchmarkReadCSV reports them: the machine is
 	// shared and wall time swings with its load.
-	cpu0 := cpuSeconds(b)
+	cpu0 := benchfile.CPUSeconds(b)
 	n := 0
 	b.ResetTimer()
 	for b.Loop() {
@@ -77,16 +74,7 @@ func BenchmarkReadECSV(b *testing.B) {
 			b.Fatalf("kept %d of %d, quarantined %d", tab.Len(), rows, len(rep.Quarantined))
 		}
 	}
-	b.ReportMetric((cpuSeconds(b)-cpu0)/float64(n), "cpu-s/op")
-}
-
-func cpuSeconds(b *testing.B) float64 {
-	var ru syscall.Rusage
-	if err := syscall.Getrusage(syscall.RUSAGE_SELF, &ru); err != nil {
-		b.Fatal(err)
-	}
-	tv := func(t syscall.Timeval) float64 { return float64(t.Sec) + float64(t.Usec)/1e6 }
-	return tv(ru.Utime) + tv(ru.Stime)
+	b.ReportMetric((benchfile.CPUSeconds(b)-cpu0)/float64(n), "cpu-s/op")
 }
 
 // TestBenchFile checks the benchmark's file on a few rows: it reads whole,

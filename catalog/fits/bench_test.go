@@ -10,7 +10,6 @@ import (
 	"os"
 	"path/filepath"
 	"strings"
-	"syscall"
 	"testing"
 
 	"starvet/catalog"
@@ -19,12 +18,7 @@ import (
 
 // benchColumns are the columns of catalog/csv's BenchmarkReadCSV primary:
 // a 14-character id and 15 float64 columns, with FITS units.
-var benchColumns = []struct{ name, unit string }{
-	{"ra", "deg"}, {"dec", "deg"}, {"ra_err", "mas"}, {"dec_err", "mas"},
-	{"parallax", "mas"}, {"parallax_err", "mas"}, {"pm_ra", "mas/yr"}, {"pm_ra_err", "mas/yr"},
-	{"pm_dec", "mas/yr"}, {"pm_dec_err", "mas/yr"}, {"corr_ra_dec", ""}, {"fit_residual", ""},
-	{"excess_noise", "mas"}, {"mag", "mag"}, {"color", "mag"},
-}
+var benchColumns = benchfile.Columns
 
 // headerBlocks lays cards out as a FITS header: 80 bytes each, END, blank
 // to a whole block.
@@ -57,19 +51,17 @@ func writeBenchFITS(tb testing.TB, path string, rows int) {
 		"PCOUNT  =                    0", "GCOUNT  =                    1", fmt.Sprintf("TFIELDS = %20d", 1+len(benchColumns)),
 		"TTYPE1  = 'id'", "TFORM1  = '14A'", "EXTNAME = 'BENCH'"}
 	for i, c := range benchColumns {
-		cards = append(cards, fmt.Sprintf("TTYPE%-3d= '%s'", i+2, c.name), fmt.Sprintf("TFORM%-3d= 'D'", i+2))
-		if c.unit != "" {
-			cards = append(cards, fmt.Sprintf("TUNIT%-3d= '%s'", i+2, c.unit))
+		cards = append(cards, fmt.Sprintf("TTYPE%-3d= '%s'", i+2, c.Name), fmt.Sprintf("TFORM%-3d= 'D'", i+2))
+		if c.Unit != "" {
+			cards = append(cards, fmt.Sprintf("TUNIT%-3d= '%s'", i+2, c.Unit))
 		}
 	}
 	w.Write(headerBlocks(cards))
-	rng := rand.New(rand.NewPCG(1, 2))
+	rng := benchfile.NewRand()
 	row := make([]byte, rowBytes)
+	var vals [benchfile.NumValues]float64
 	for i := range rows {
-		copy(row, fmt.Sprintf("bench-%08d", i))
-		vals := [...]float64{rng.Float64() * 360, rng.Float64()*180 - 90, rng.Float64(), rng.Float64(),
-			rng.NormFloat64(), rng.Float64() * 0.3, rng.NormFloat64() * 10, rng.Float64(), rng.NormFloat64() * 10, rng.Float64(),
-			rng.Float64()*2 - 1, 1 + rng.Float64()*0.4, rng.Float64(), 12 + 8*rng.Float64(), rng.Float64() * 3}
+		copy(row, benchfile.Row(rng, i, &vals))
 		for k, v := range vals {
 			binary.BigEndian.PutUint64(row[idBytes+8*k:], math.Float64bits(v))
 		}
@@ -96,7 +88,7 @@ func BenchmarkReadFITS(b *testing.B) {
 		b.Fatal(err)
 	}
 	b.SetBytes(st.Size())
-	cpu0 := cpuSeconds(b)
+	cpu0 := benchfile.CPUSeconds(b)
 	n := 0
 	b.ResetTimer()
 	for b.Loop() {
@@ -109,16 +101,7 @@ func BenchmarkReadFITS(b *testing.B) {
 			b.Fatalf("kept %d of %d, quarantined %d", tab.Len(), rows, len(rep.Quarantined))
 		}
 	}
-	b.ReportMetric((cpuSeconds(b)-cpu0)/float64(n), "cpu-s/op")
-}
-
-func cpuSeconds(b *testing.B) float64 {
-	var ru syscall.Rusage
-	if err := syscall.Getrusage(syscall.RUSAGE_SELF, &ru); err != nil {
-		b.Fatal(err)
-	}
-	tv := func(t syscall.Timeval) float64 { return float64(t.Sec) + float64(t.Usec)/1e6 }
-	return tv(ru.Utime) + tv(ru.Stime)
+	b.ReportMetric((benchfile.CPUSeconds(b)-cpu0)/float64(n), "cpu-s/op")
 }
 
 // The benchmark's writer makes a file fitsverify-clean tables read back:

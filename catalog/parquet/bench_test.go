@@ -2,10 +2,7 @@ package parquetcat
 
 import (
 	"context"
-	"fmt"
-	"math/rand/v2"
 	"os"
-	"syscall"
 	"testing"
 
 	"github.com/parquet-go/parquet-go"
@@ -45,7 +42,8 @@ func writeBenchParquet(tb testing.TB, path string, rows int) {
 		tb.Fatal(err)
 	}
 	w := parquet.NewGenericWriter[benchRow](f, parquet.Compression(&parquet.Snappy), parquet.MaxRowsPerRowGroup(131072))
-	rng := rand.New(rand.NewPCG(1, 2))
+	rng := benchfile.NewRand()
+	var v [benchfile.NumValues]float64
 	buf := make([]benchRow, 0, 8192)
 	flush := func() {
 		if _, err := w.Write(buf); err != nil {
@@ -54,9 +52,8 @@ func writeBenchParquet(tb testing.TB, path string, rows int) {
 		buf = buf[:0]
 	}
 	for i := range rows {
-		buf = append(buf, benchRow{fmt.Sprintf("bench-%08d", i), rng.Float64() * 360, rng.Float64()*180 - 90, rng.Float64(), rng.Float64(),
-			rng.NormFloat64(), rng.Float64() * 0.3, rng.NormFloat64() * 10, rng.Float64(), rng.NormFloat64() * 10, rng.Float64(),
-			rng.Float64()*2 - 1, 1 + rng.Float64()*0.4, rng.Float64(), 12 + 8*rng.Float64(), rng.Float64() * 3})
+		id := benchfile.Row(rng, i, &v)
+		buf = append(buf, benchRow{id, v[0], v[1], v[2], v[3], v[4], v[5], v[6], v[7], v[8], v[9], v[10], v[11], v[12], v[13], v[14]})
 		if len(buf) == cap(buf) {
 			flush()
 		}
@@ -81,7 +78,7 @@ func BenchmarkReadParquet(b *testing.B) {
 	}
 	b.SetBytes(st.Size())
 	b.ReportAllocs()
-	cpu0 := cpuSeconds(b)
+	cpu0 := benchfile.CPUSeconds(b)
 	n := 0
 	b.ResetTimer()
 	for b.Loop() {
@@ -94,16 +91,7 @@ func BenchmarkReadParquet(b *testing.B) {
 			b.Fatalf("kept %d of %d, quarantined %d", tab.Len(), rows, len(rep.Quarantined))
 		}
 	}
-	b.ReportMetric((cpuSeconds(b)-cpu0)/float64(n), "cpu-s/op")
-}
-
-func cpuSeconds(b *testing.B) float64 {
-	var ru syscall.Rusage
-	if err := syscall.Getrusage(syscall.RUSAGE_SELF, &ru); err != nil {
-		b.Fatal(err)
-	}
-	tv := func(t syscall.Timeval) float64 { return float64(t.Sec) + float64(t.Usec)/1e6 }
-	return tv(ru.Utime) + tv(ru.Stime)
+	b.ReportMetric((benchfile.CPUSeconds(b)-cpu0)/float64(n), "cpu-s/op")
 }
 
 // TestWriteBenchFile writes BenchmarkReadParquet's file to STARVET_BENCH_WRITE, for

@@ -7,9 +7,7 @@ import (
 	"encoding/binary"
 	"fmt"
 	"math"
-	"math/rand/v2"
 	"os"
-	"syscall"
 	"testing"
 
 	"starvet/catalog"
@@ -19,12 +17,7 @@ import (
 // benchColumns are the columns of catalog/csv's BenchmarkReadCSV: an id
 // and 15 doubles, here with units so that they map by name in canonical
 // units.
-var benchColumns = []struct{ name, unit string }{
-	{"ra", "deg"}, {"dec", "deg"}, {"ra_err", "mas"}, {"dec_err", "mas"},
-	{"parallax", "mas"}, {"parallax_err", "mas"}, {"pm_ra", "mas/yr"}, {"pm_ra_err", "mas/yr"},
-	{"pm_dec", "mas/yr"}, {"pm_dec_err", "mas/yr"}, {"corr_ra_dec", ""}, {"fit_residual", ""},
-	{"excess_noise", "mas"}, {"mag", "mag"}, {"color", "mag"},
-}
+var benchColumns = benchfile.Columns
 
 // writeBenchBinary2 writes rows rows as a BINARY2 VOTable with a minimal
 // writer of our own (VOTable 1.3, section 5.5: per row a null bitmask,
@@ -41,33 +34,21 @@ func writeBenchBinary2(tb testing.TB, path string, rows int) {
 	fmt.Fprintln(w, `<VOTABLE version="1.4" xmlns="http://www.ivoa.net/xml/VOTable/v1.3"><RESOURCE><TABLE name="bench">`)
 	fmt.Fprintln(w, `<FIELD name="id" datatype="char" arraysize="*"/>`)
 	for _, c := range benchColumns {
-		fmt.Fprintf(w, "<FIELD name=%q datatype=\"double\" unit=%q/>\n", c.name, c.unit)
+		fmt.Fprintf(w, "<FIELD name=%q datatype=\"double\" unit=%q/>\n", c.Name, c.Unit)
 	}
 	fmt.Fprint(w, `<DATA><BINARY2><STREAM encoding="base64">`)
 	enc := base64.NewEncoder(base64.StdEncoding, w)
-	rng := rand.New(rand.NewPCG(1, 2))
+	rng := benchfile.NewRand()
 	row := make([]byte, 0, 256)
-	put := func(x float64) { row = binary.BigEndian.AppendUint64(row, math.Float64bits(x)) }
+	var vals [benchfile.NumValues]float64
 	for i := range rows {
 		row = append(row[:0], 0, 0) // 16 fields: two bytes of null flags, none set
-		id := fmt.Appendf(nil, "bench-%08d", i)
+		id := benchfile.Row(rng, i, &vals)
 		row = binary.BigEndian.AppendUint32(row, uint32(len(id)))
 		row = append(row, id...)
-		put(rng.Float64() * 360)
-		put(rng.Float64()*180 - 90)
-		put(rng.Float64())
-		put(rng.Float64())
-		put(rng.NormFloat64())
-		put(rng.Float64() * 0.3)
-		put(rng.NormFloat64() * 10)
-		put(rng.Float64())
-		put(rng.NormFloat64() * 10)
-		put(rng.Float64())
-		put(rng.Float64()*2 - 1)
-		put(1 + rng.Float64()*0.4)
-		put(rng.Float64())
-		put(12 + 8*rng.Float64())
-		put(rng.Float64() * 3)
+		for _, v := range vals {
+			row = binary.BigEndian.AppendUint64(row, math.Float64bits(v))
+		}
 		enc.Write(row)
 	}
 	if err := enc.Close(); err != nil {
@@ -93,7 +74,7 @@ func BenchmarkReadVOTableBinary2(b *testing.B) {
 		b.Fatal(err)
 	}
 	b.SetBytes(st.Size())
-	cpu0 := cpuSeconds(b)
+	cpu0 := benchfile.CPUSeconds(b)
 	n := 0
 	b.ResetTimer()
 	for b.Loop() {
@@ -106,19 +87,11 @@ func BenchmarkReadVOTableBinary2(b *testing.B) {
 			b.Fatalf("kept %d of %d, quarantined %d", tab.Len(), rows, len(rep.Quarantined))
 		}
 	}
-	b.ReportMetric((cpuSeconds(b)-cpu0)/float64(n), "cpu-s/op")
+	b.ReportMetric((benchfile.CPUSeconds(b)-cpu0)/float64(n), "cpu-s/op")
 }
 
 // cpuSeconds is user+sys CPU of the process, reported beside wall time
 // because the machine is shared.
-func cpuSeconds(b *testing.B) float64 {
-	var ru syscall.Rusage
-	if err := syscall.Getrusage(syscall.RUSAGE_SELF, &ru); err != nil {
-		b.Fatal(err)
-	}
-	tv := func(t syscall.Timeval) float64 { return float64(t.Sec) + float64(t.Usec)/1e6 }
-	return tv(ru.Utime) + tv(ru.Stime)
-}
 
 // TestWriteBenchFile writes BenchmarkReadVOTableBinary2's file to STARVET_BENCH_WRITE, for
 // a run that only reads it (see package starvet/internal/benchfile).

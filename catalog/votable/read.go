@@ -3,8 +3,6 @@ package votable
 import (
 	"compress/gzip"
 	"context"
-	"crypto/sha256"
-	"encoding/hex"
 	"errors"
 	"fmt"
 	"io"
@@ -211,7 +209,7 @@ func (s *scanner) inTable(err error) error {
 // then decompressed when the name ends in .gz.
 type input struct {
 	f    *os.File
-	hr   *hashingReader
+	hr   *catalog.HashingReader
 	zr   *gzip.Reader
 	text io.Reader
 	name string
@@ -228,7 +226,7 @@ func open(name string) (*input, error) {
 		f.Close()
 		return nil, catalog.WrapFileError(name, 0, "", catalog.ErrNoFile, err)
 	}
-	in := &input{f: f, hr: newHashingReader(f), name: name, size: st.Size()}
+	in := &input{f: f, hr: catalog.NewHashingReader(f, 0), name: name, size: st.Size()}
 	in.text = in.hr
 	if strings.HasSuffix(strings.ToLower(name), ".gz") {
 		if in.zr, err = gzip.NewReader(in.hr); err != nil {
@@ -251,97 +249,15 @@ func (in *input) finish() (string, error) {
 	if _, err := io.Copy(io.Discard, in.hr); err != nil {
 		return "", catalog.WrapFileError(in.name, 0, "", catalog.ErrUnreadable, err)
 	}
-	return hex.EncodeToString(in.hr.total[:]), nil
+	return in.hr.Sum(), nil
 }
 
 func (in *input) close() {
 	if in.zr != nil {
 		in.zr.Close()
 	}
-	in.hr.close()
+	in.hr.Close()
 	in.f.Close()
-}
-
-// hashingReader reads a file in chunks on a goroutine that also hashes
-// them, so hashing runs beside decoding.
-type hashingReader struct {
-	full  chan hashChunk
-	free  chan []byte
-	done  chan struct{}
-	cur   []byte
-	buf   []byte
-	err   error
-	total [sha256.Size]byte
-}
-
-type hashChunk struct {
-	b   []byte
-	err error
-}
-
-func newHashingReader(r io.Reader) *hashingReader {
-	h := &hashingReader{full: make(chan hashChunk, 3), free: make(chan []byte, 4), done: make(chan struct{})}
-	for range 4 {
-		h.free <- make([]byte, 1<<20)
-	}
-	go func() {
-		sum := sha256.New()
-		defer close(h.full)
-		for {
-			var b []byte
-			select {
-			case b = <-h.free:
-			case <-h.done:
-				return
-			}
-			n, err := io.ReadFull(r, b)
-			sum.Write(b[:n])
-			if err == io.ErrUnexpectedEOF {
-				err = io.EOF
-			}
-			if err == io.EOF {
-				copy(h.total[:], sum.Sum(nil))
-			}
-			select {
-			case h.full <- hashChunk{b[:n], err}:
-			case <-h.done:
-				return
-			}
-			if err != nil {
-				return
-			}
-		}
-	}()
-	return h
-}
-
-func (h *hashingReader) Read(p []byte) (int, error) {
-	for len(h.cur) == 0 {
-		if h.err != nil {
-			return 0, h.err
-		}
-		if h.buf != nil {
-			h.free <- h.buf[:cap(h.buf)]
-			h.buf = nil
-		}
-		c, ok := <-h.full
-		if !ok {
-			h.err = io.EOF
-			continue
-		}
-		h.buf, h.cur, h.err = c.b, c.b, c.err
-	}
-	n := copy(p, h.cur)
-	h.cur = h.cur[n:]
-	return n, nil
-}
-
-func (h *hashingReader) close() {
-	select {
-	case <-h.done:
-	default:
-		close(h.done)
-	}
 }
 
 // epochToleranceJyr is how far a campaign's epoch may differ from the

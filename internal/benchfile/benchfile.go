@@ -14,8 +14,12 @@
 package benchfile
 
 import (
+	"fmt"
+	"math/rand/v2"
 	"os"
 	"path/filepath"
+	"strings"
+	"syscall"
 	"testing"
 )
 
@@ -44,4 +48,56 @@ func Write(t *testing.T, write func(tb testing.TB, path string)) {
 	}
 	write(t, p)
 	t.Logf("wrote %s", p)
+}
+
+// Columns are the benchmark's primary catalog after its id: 15 numbers
+// with their canonical units ("" for none).
+var Columns = [NumValues]struct{ Name, Unit string }{
+	{"ra", "deg"}, {"dec", "deg"}, {"ra_err", "mas"}, {"dec_err", "mas"},
+	{"parallax", "mas"}, {"parallax_err", "mas"}, {"pm_ra", "mas/yr"}, {"pm_ra_err", "mas/yr"},
+	{"pm_dec", "mas/yr"}, {"pm_dec_err", "mas/yr"}, {"corr_ra_dec", ""}, {"fit_residual", ""},
+	{"excess_noise", "mas"}, {"mag", "mag"}, {"color", "mag"},
+}
+
+// NumValues is the number of numeric columns of a row.
+const NumValues = 15
+
+// NewRand is the generator every format's benchmark draws its rows from,
+// so that all of them read the same catalog.
+func NewRand() *rand.Rand { return rand.New(rand.NewPCG(1, 2)) }
+
+// Row draws row i: its id, and its values in Columns order (uniform
+// positions on the sphere's ra/dec box, unit-scale errors and parallaxes,
+// proper motions of a few mas/yr; invented, not a survey's distribution).
+func Row(rng *rand.Rand, i int, v *[NumValues]float64) string {
+	*v = [NumValues]float64{rng.Float64() * 360, rng.Float64()*180 - 90, rng.Float64(), rng.Float64(),
+		rng.NormFloat64(), rng.Float64() * 0.3, rng.NormFloat64() * 10, rng.Float64(), rng.NormFloat64() * 10, rng.Float64(),
+		rng.Float64()*2 - 1, 1 + rng.Float64()*0.4, rng.Float64(), 12 + 8*rng.Float64(), rng.Float64() * 3}
+	return fmt.Sprintf("bench-%08d", i)
+}
+
+// TextHeader is the delimited-text header line of the catalog.
+func TextHeader() string {
+	names := []string{"id"}
+	for _, c := range Columns {
+		names = append(names, c.Name)
+	}
+	return strings.Join(names, ",")
+}
+
+// AppendText appends one row as delimited text, rounded as a catalog
+// publishes it (positions to 1e-9 deg, the rest to 4 or 5 decimals).
+func AppendText(b []byte, id string, v *[NumValues]float64) []byte {
+	return fmt.Appendf(b, "%s,%.9f,%.9f,%.4f,%.4f,%.5f,%.5f,%.4f,%.4f,%.4f,%.4f,%.4f,%.4f,%.4f,%.4f,%.4f\n",
+		id, v[0], v[1], v[2], v[3], v[4], v[5], v[6], v[7], v[8], v[9], v[10], v[11], v[12], v[13], v[14])
+}
+
+// CPUSeconds is the process's user plus system CPU time so far, for the
+// benchmarks' cpu-s/op metric.
+func CPUSeconds(tb testing.TB) float64 {
+	var ru syscall.Rusage
+	if err := syscall.Getrusage(syscall.RUSAGE_SELF, &ru); err != nil {
+		tb.Fatal(err)
+	}
+	return float64(ru.Utime.Nano()+ru.Stime.Nano()) / 1e9
 }
