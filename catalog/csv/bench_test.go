@@ -45,27 +45,13 @@ func writeBenchCSV(tb testing.TB, path string, rows int) {
 func BenchmarkReadCSV(b *testing.B) {
 	const rows = 1_000_000
 	p := benchfile.Path(b, "bench.csv", func(tb testing.TB, p string) { writeBenchCSV(tb, p, rows) })
-	st, err := os.Stat(p)
-	if err != nil {
-		b.Fatal(err)
-	}
-	b.SetBytes(st.Size())
-	// CPU seconds (user+sys, all threads) per op, reported beside wall time
-	// because the machine is shared and wall time swings with its load.
-	cpu0 := benchfile.CPUSeconds(b)
-	n := 0
-	b.ResetTimer()
-	for b.Loop() {
-		n++
+	benchfile.Read(b, p, rows, func(p string) (int, int, error) {
 		tab, rep, err := Read(context.Background(), catalog.Spec{Name: "bench", File: p}, catalog.ReadOptions{})
 		if err != nil {
-			b.Fatal(err)
+			return 0, 0, err
 		}
-		if tab.Len() != rows || len(rep.Quarantined) != 0 {
-			b.Fatalf("kept %d of %d, quarantined %d", tab.Len(), rows, len(rep.Quarantined))
-		}
-	}
-	b.ReportMetric((benchfile.CPUSeconds(b)-cpu0)/float64(n), "cpu-s/op")
+		return tab.Len(), len(rep.Quarantined), nil
+	})
 }
 
 // writePairCSV writes an invented primary of rows rows in the 14 columns of

@@ -54,27 +54,13 @@ func writeBenchECSV(tb testing.TB, path string, rows int) {
 func BenchmarkReadECSV(b *testing.B) {
 	const rows = 1_000_000
 	p := benchfile.Path(b, "bench.ecsv", func(tb testing.TB, p string) { writeBenchECSV(tb, p, rows) })
-	st, err := os.Stat(p)
-	if err != nil {
-		b.Fatal(err)
-	}
-	b.SetBytes(st.Size())
-	// CPU seconds per op, as BenchmarkReadCSV reports them: the machine is
-	// shared and wall time swings with its load.
-	cpu0 := benchfile.CPUSeconds(b)
-	n := 0
-	b.ResetTimer()
-	for b.Loop() {
-		n++
+	benchfile.Read(b, p, rows, func(p string) (int, int, error) {
 		tab, rep, err := Read(context.Background(), catalog.Spec{Name: "bench", File: p}, catalog.ReadOptions{})
 		if err != nil {
-			b.Fatal(err)
+			return 0, 0, err
 		}
-		if tab.Len() != rows || len(rep.Quarantined) != 0 {
-			b.Fatalf("kept %d of %d, quarantined %d", tab.Len(), rows, len(rep.Quarantined))
-		}
-	}
-	b.ReportMetric((benchfile.CPUSeconds(b)-cpu0)/float64(n), "cpu-s/op")
+		return tab.Len(), len(rep.Quarantined), nil
+	})
 }
 
 // TestBenchFile checks the benchmark's file on a few rows: it reads whole,

@@ -72,26 +72,13 @@ func writeBenchParquet(tb testing.TB, path string, rows int) {
 func BenchmarkReadParquet(b *testing.B) {
 	const rows = 1_000_000
 	p := benchfile.Path(b, "bench.parquet", func(tb testing.TB, p string) { writeBenchParquet(tb, p, rows) })
-	st, err := os.Stat(p)
-	if err != nil {
-		b.Fatal(err)
-	}
-	b.SetBytes(st.Size())
-	b.ReportAllocs()
-	cpu0 := benchfile.CPUSeconds(b)
-	n := 0
-	b.ResetTimer()
-	for b.Loop() {
-		n++
+	benchfile.Read(b, p, rows, func(p string) (int, int, error) {
 		tab, rep, err := Read(context.Background(), catalog.Spec{Name: "bench", File: p}, catalog.ReadOptions{})
 		if err != nil {
-			b.Fatal(err)
+			return 0, 0, err
 		}
-		if tab.Len() != rows || len(rep.Quarantined) != 0 {
-			b.Fatalf("kept %d of %d, quarantined %d", tab.Len(), rows, len(rep.Quarantined))
-		}
-	}
-	b.ReportMetric((benchfile.CPUSeconds(b)-cpu0)/float64(n), "cpu-s/op")
+		return tab.Len(), len(rep.Quarantined), nil
+	})
 }
 
 // TestWriteBenchFile writes BenchmarkReadParquet's file to STARVET_BENCH_WRITE, for

@@ -101,3 +101,31 @@ func CPUSeconds(tb testing.TB) float64 {
 	}
 	return float64(ru.Utime.Nano()+ru.Stime.Nano()) / 1e9
 }
+
+// Read is the body of a reader's 1M-row benchmark: it times read on the
+// file at path, checks that every one of rows rows was kept and none
+// quarantined, and reports bytes per second and CPU seconds (user + sys,
+// all threads) per op beside the wall time, because the machine is shared
+// and wall time swings with its load.
+func Read(b *testing.B, path string, rows int, read func(path string) (kept, quarantined int, err error)) {
+	st, err := os.Stat(path)
+	if err != nil {
+		b.Fatal(err)
+	}
+	b.SetBytes(st.Size())
+	b.ReportAllocs()
+	cpu0 := CPUSeconds(b)
+	n := 0
+	b.ResetTimer()
+	for b.Loop() {
+		n++
+		kept, quarantined, err := read(path)
+		if err != nil {
+			b.Fatal(err)
+		}
+		if kept != rows || quarantined != 0 {
+			b.Fatalf("kept %d of %d, quarantined %d", kept, rows, quarantined)
+		}
+	}
+	b.ReportMetric((CPUSeconds(b)-cpu0)/float64(n), "cpu-s/op")
+}
