@@ -2,14 +2,12 @@ package csvcat
 
 import (
 	"bytes"
-	"compress/gzip"
 	"context"
 	"encoding/csv"
 	"errors"
 	"fmt"
 	"io"
 	"math"
-	"os"
 	"strconv"
 	"strings"
 	"sync"
@@ -69,7 +67,7 @@ func read(ctx context.Context, spec catalog.Spec, opt catalog.ReadOptions, force
 	if err != nil {
 		return nil, rep, err
 	}
-	defer in.close()
+	defer in.Close()
 	ls, err := start(spec, in, p)
 	if err != nil {
 		return nil, rep, err
@@ -101,7 +99,7 @@ func read(ctx context.Context, spec catalog.Spec, opt catalog.ReadOptions, force
 	if err := stream(ctx, ls, in, bld, parallel.Workers(opt.Workers)); err != nil {
 		return nil, bld.Report(), err
 	}
-	sum, err := in.finish()
+	sum, err := in.Finish()
 	if err != nil {
 		return nil, bld.Report(), err
 	}
@@ -110,59 +108,7 @@ func read(ctx context.Context, spec catalog.Spec, opt catalog.ReadOptions, force
 	return t, rep, nil
 }
 
-// input is an opened catalog file: its bytes hashed on a goroutine of
-// their own, then decompressed when the name ends in .gz.
-type input struct {
-	f    *os.File
-	hr   *catalog.HashingReader
-	zr   *gzip.Reader
-	text io.Reader // the delimited text
-	size int64     // bytes in the file
-	name string
-}
-
-func open(name string) (*input, error) {
-	f, err := os.Open(name)
-	if err != nil {
-		return nil, catalog.WrapFileError(name, 0, "", catalog.ErrNoFile, err)
-	}
-	st, err := f.Stat()
-	if err != nil {
-		f.Close()
-		return nil, catalog.WrapFileError(name, 0, "", catalog.ErrNoFile, err)
-	}
-	in := &input{f: f, hr: catalog.NewHashingReader(f, 0), size: st.Size(), name: name}
-	in.text = in.hr
-	if in.gzipped() {
-		if in.zr, err = gzip.NewReader(in.hr); err != nil {
-			in.close()
-			return nil, catalog.WrapFileError(name, 0, "unreadable gzip: ", catalog.ErrUnreadable, err)
-		}
-		in.text = in.zr
-	}
-	return in, nil
-}
-
-// gzipped says whether the file is read through gzip; its size then says
-// little about its rows.
-func (in *input) gzipped() bool { return strings.HasSuffix(strings.ToLower(in.name), ".gz") }
-
-// finish drains whatever the text reader left (a gzip trailer, say), so
-// that the hash covers the whole file, and returns the hex SHA-256.
-func (in *input) finish() (string, error) {
-	if _, err := io.Copy(io.Discard, in.hr); err != nil {
-		return "", readError(in.name, err)
-	}
-	return in.hr.Sum(), nil
-}
-
-func (in *input) close() {
-	if in.zr != nil {
-		in.zr.Close()
-	}
-	in.hr.Close()
-	in.f.Close()
-}
+func open(name string) (*catalog.Input, error) { return catalog.OpenInput(name, false) }
 
 // readHeader reads the first record: the column names, a leading byte
 // order mark dropped.
@@ -194,11 +140,11 @@ const presizeAfterRows = 4096
 
 // stream runs the batch pipeline (see readBatches) and hands the batches
 // to the builder in file order. The context is checked between batches.
-func stream(ctx context.Context, ls *lineSplitter, in *input, bld *catalog.Builder, workers int) error {
+func stream(ctx context.Context, ls *lineSplitter, in *catalog.Input, bld *catalog.Builder, workers int) error {
 	conv := newConverter(bld.Layout(), ls.sep)
-	batches, stop := readBatches(ls, in.name, conv, workers)
+	batches, stop := readBatches(ls, in.Name, conv, workers)
 	defer stop()
-	presized := in.gzipped()
+	presized := in.Gzipped()
 	for b := range batches {
 		<-b.parsed
 		if err := ctx.Err(); err != nil {
@@ -212,7 +158,7 @@ func stream(ctx context.Context, ls *lineSplitter, in *input, bld *catalog.Build
 		}
 		if !presized && bld.Len() >= presizeAfterRows && len(b.rows) > 0 {
 			if used := b.rows[len(b.rows)-1].offset; used > 0 {
-				bld.Reserve(int(float64(in.size)/float64(used)*float64(bld.Len())*1.02) + 16)
+				bld.Reserve(int(float64(in.Size)/float64(used)*float64(bld.Len())*1.02) + 16)
 			}
 			presized = true
 		}
@@ -515,7 +461,7 @@ func ColumnsText(spec catalog.Spec, p *Preamble) ([]catalog.ColumnMeta, error) {
 	if err != nil {
 		return nil, err
 	}
-	defer in.close()
+	defer in.Close()
 	ls, err := start(spec, in, p)
 	if err != nil {
 		return nil, err
@@ -555,13 +501,13 @@ func separator(spec catalog.Spec) (byte, error) {
 
 // start makes the line splitter for spec's delimiter and, with a preamble,
 // reads it and takes the delimiter it names.
-func start(spec catalog.Spec, in *input, p *Preamble) (*lineSplitter, error) {
+func start(spec catalog.Spec, in *catalog.Input, p *Preamble) (*lineSplitter, error) {
 	sep, _ := separator(spec)
-	ls := newLineSplitter(in.text)
+	ls := newLineSplitter(in.Text)
 	if p != nil {
 		lines, err := ls.readPreamble(p.Comment)
 		if err != nil {
-			return nil, readError(in.name, err)
+			return nil, readError(in.Name, err)
 		}
 		d, err := p.Read(lines)
 		if err != nil {

@@ -57,7 +57,7 @@ func Columns(spec catalog.Spec) ([]catalog.ColumnMeta, error) {
 	if err != nil {
 		return nil, err
 	}
-	defer in.close()
+	defer in.Close()
 	h, err := in.find(spec.HDU)
 	if err != nil {
 		return nil, err
@@ -80,7 +80,7 @@ func (in *input) fileErr(sentinel error, where, format string, args ...any) *pos
 	if where != "" {
 		msg = where + ": " + msg
 	}
-	return &position.Error{File: in.name, Msg: msg, Err: sentinel}
+	return &position.Error{File: in.Name, Msg: msg, Err: sentinel}
 }
 
 // colErr is a problem with one column of the selected table.
@@ -189,7 +189,7 @@ func Read(ctx context.Context, spec catalog.Spec, opt catalog.ReadOptions) (*cat
 	if err != nil {
 		return nil, rep, err
 	}
-	defer in.close()
+	defer in.Close()
 	h, err := in.find(spec.HDU)
 	if err != nil {
 		return nil, rep, err
@@ -208,15 +208,15 @@ func Read(ctx context.Context, spec catalog.Spec, opt catalog.ReadOptions) (*cat
 		return nil, bld.Report(), in.fileErr(catalog.ErrBadHeader, h.label(), "NAXIS2 = %d rows of NAXIS1 = 0 bytes", t.rows)
 	}
 	reserve := t.rows
-	if !in.gzipped() {
-		if left := in.size - in.pos; dataBytes > left {
+	if !in.Gzipped() {
+		if left := in.Size - in.pos; dataBytes > left {
 			return nil, bld.Report(), in.fileErr(catalog.ErrUnreadable, h.label(),
 				"data truncated: NAXIS1 x NAXIS2 = %d x %d = %d bytes, the file has %d after the header", t.rowBytes, t.rows, dataBytes, left)
 		}
 	} else if t.rowBytes > 0 {
 		// deflate expands at most about 1032 to 1 (RFC 1951), which bounds
 		// the rows a hostile NAXIS2 can make us reserve room for.
-		reserve = min(reserve, in.size*1100/t.rowBytes+1)
+		reserve = min(reserve, in.Size*1100/t.rowBytes+1)
 	}
 	bld.Reserve(int(reserve))
 	if err := p.stream(ctx, in, bld, parallel.Workers(opt.Workers)); err != nil {
@@ -226,7 +226,7 @@ func Read(ctx context.Context, spec catalog.Spec, opt catalog.ReadOptions) (*cat
 		}
 		return nil, bld.Report(), err
 	}
-	sum, err := in.finish()
+	sum, err := in.Finish()
 	if err != nil {
 		return nil, bld.Report(), err
 	}

@@ -192,7 +192,7 @@ func TestHeaderKeywords(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	defer in.close()
+	defer in.Close()
 	h, err := in.find("KINDS")
 	if err != nil {
 		t.Fatal(err)

@@ -1,13 +1,10 @@
 package votable
 
 import (
-	"compress/gzip"
 	"context"
 	"errors"
 	"fmt"
-	"io"
 	"math"
-	"os"
 	"strings"
 
 	"starvet/catalog"
@@ -71,8 +68,8 @@ func Columns(spec catalog.Spec) ([]catalog.ColumnMeta, error) {
 	if err != nil {
 		return nil, err
 	}
-	defer in.close()
-	sc := newScanner(in.text, spec.Table)
+	defer in.Close()
+	sc := newScanner(in.Text, spec.Table)
 	if _, err := sc.head(); err != nil {
 		return nil, sc.fileError(spec.File, err)
 	}
@@ -102,8 +99,8 @@ func ReadTable(ctx context.Context, spec catalog.Spec, opt catalog.ReadOptions) 
 	if err != nil {
 		return nil, nil, info, err
 	}
-	defer in.close()
-	sc := newScanner(in.text, spec.Table)
+	defer in.Close()
+	sc := newScanner(in.Text, spec.Table)
 	ser, err := sc.head()
 	info.Table = sc.label
 	if err != nil {
@@ -123,8 +120,8 @@ func ReadTable(ctx context.Context, spec catalog.Spec, opt catalog.ReadOptions) 
 	if err != nil {
 		return nil, bld.Report(), info, err
 	}
-	if in.zr == nil {
-		rd.size = in.size
+	if !in.Gzipped() {
+		rd.size = in.Size
 	}
 	info.Epoch = sc.epoch(m.Column[catalog.RA])
 	info.EpochJyr, _ = julianYear(info.Epoch)
@@ -138,7 +135,7 @@ func ReadTable(ctx context.Context, spec catalog.Spec, opt catalog.ReadOptions) 
 	if err := sc.tail(); err != nil {
 		return nil, bld.Report(), info, sc.fileError(spec.File, err)
 	}
-	sum, err := in.finish()
+	sum, err := in.Finish()
 	if err != nil {
 		return nil, bld.Report(), info, err
 	}
@@ -205,60 +202,7 @@ func (s *scanner) inTable(err error) error {
 	return err
 }
 
-// input is an opened file: its bytes hashed on a goroutine of their own,
-// then decompressed when the name ends in .gz.
-type input struct {
-	f    *os.File
-	hr   *catalog.HashingReader
-	zr   *gzip.Reader
-	text io.Reader
-	name string
-	size int64 // bytes in the file
-}
-
-func open(name string) (*input, error) {
-	f, err := os.Open(name)
-	if err != nil {
-		return nil, catalog.WrapFileError(name, 0, "", catalog.ErrNoFile, err)
-	}
-	st, err := f.Stat()
-	if err != nil {
-		f.Close()
-		return nil, catalog.WrapFileError(name, 0, "", catalog.ErrNoFile, err)
-	}
-	in := &input{f: f, hr: catalog.NewHashingReader(f, 0), name: name, size: st.Size()}
-	in.text = in.hr
-	if strings.HasSuffix(strings.ToLower(name), ".gz") {
-		if in.zr, err = gzip.NewReader(in.hr); err != nil {
-			in.close()
-			return nil, catalog.WrapFileError(name, 0, "unreadable gzip: ", catalog.ErrUnreadable, err)
-		}
-		in.text = in.zr
-	}
-	return in, nil
-}
-
-// finish reads what the document left (a gzip trailer, say) so that the
-// hash covers the whole file, and returns the hex SHA-256.
-func (in *input) finish() (string, error) {
-	if in.zr != nil {
-		if _, err := io.Copy(io.Discard, in.zr); err != nil {
-			return "", catalog.WrapFileError(in.name, 0, "unreadable gzip: ", catalog.ErrUnreadable, err)
-		}
-	}
-	if _, err := io.Copy(io.Discard, in.hr); err != nil {
-		return "", catalog.WrapFileError(in.name, 0, "", catalog.ErrUnreadable, err)
-	}
-	return in.hr.Sum(), nil
-}
-
-func (in *input) close() {
-	if in.zr != nil {
-		in.zr.Close()
-	}
-	in.hr.Close()
-	in.f.Close()
-}
+func open(name string) (*catalog.Input, error) { return catalog.OpenInput(name, false) }
 
 // epochToleranceJyr is how far a campaign's epoch may differ from the
 // file's and still agree: well below a day, since both are written to a
