@@ -18,11 +18,13 @@ import (
 // why). A setting's name is its key in the campaign file, dotted with its
 // table: [kinematics] unbound_p is kinematics.unbound_p.
 const (
-	SettingEscapeRadiusKpc = "potential.escape_radius_kpc"
-	SettingSunDistanceKpc  = "galaxy.sun_distance_kpc"
-	SettingUnboundP        = "kinematics.unbound_p"
-	SettingMarginalP       = "kinematics.marginal_p"
-	SettingGCRadiusKpc     = "kinematics.gc_radius_kpc"
+	SettingEscapeRadiusKpc  = "potential.escape_radius_kpc"
+	SettingSunDistanceKpc   = "galaxy.sun_distance_kpc"
+	SettingUnboundP         = "kinematics.unbound_p"
+	SettingMarginalP        = "kinematics.marginal_p"
+	SettingGCRadiusKpc      = "kinematics.gc_radius_kpc"
+	SettingVelocityPriorKms = "kinematics.velocity_prior_kms"
+	SettingTraceMyr         = "kinematics.trace_myr"
 	// The potential the run used (a built-in model's name, or
 	// ComponentsModel) and how many components it has; each component's
 	// values are named by ComponentSetting.
@@ -98,7 +100,7 @@ var settings = []setting{
 	// near the Sun, Bond et al. 2010, ApJ 716, 1, from memory), so the
 	// prior only bites where the measurement errors are larger than the
 	// halo's own spread. The value is our choice.
-	number("kinematics.velocity_prior_kms", func(c *Campaign) *float64 { return &c.Kinematics.VelocityPriorKms }, 150, nonNegative,
+	number(SettingVelocityPriorKms, func(c *Campaign) *float64 { return &c.Kinematics.VelocityPriorKms }, 150, nonNegative,
 		"dispersion of the velocity prior, km/s; 0 = flat prior"),
 	number(SettingUnboundP, func(c *Campaign) *float64 { return &c.Kinematics.UnboundP }, 0.8, probability,
 		"a star is `unbound` when `p_unbound` ≥ this"),
@@ -108,7 +110,7 @@ var settings = []setting{
 		"least `p_unbound` for a star's orbit to be traced back"),
 	count("kinematics.trace_samples", func(c *Campaign) *int { return &c.Kinematics.TraceSamples }, 200,
 		"samples traced back per star (and kept as `crossings`)"),
-	number("kinematics.trace_myr", func(c *Campaign) *float64 { return &c.Kinematics.TraceMyr }, orbit.DefaultTraceMyr, positive,
+	number(SettingTraceMyr, func(c *Campaign) *float64 { return &c.Kinematics.TraceMyr }, orbit.DefaultTraceMyr, positive,
 		"how far back orbits are traced, Myr"),
 	number(SettingGCRadiusKpc, func(c *Campaign) *float64 { return &c.Kinematics.GCRadiusKpc }, orbit.DefaultGCRadiusKpc, positive,
 		"plane crossings this close to the Galactic Centre count as a centre origin, kpc"),

@@ -119,6 +119,14 @@ func dvf(x float64) driver.Value {
 	return x
 }
 
+// dvPos is n, or NULL when n is 0 (a count that does not apply).
+func dvPos(n int) driver.Value {
+	if n == 0 {
+		return nil
+	}
+	return int64(n)
+}
+
 func dvs(s string) driver.Value {
 	if s == "" {
 		return nil

@@ -73,13 +73,19 @@ func oldLedger(t *testing.T) string {
 	return p
 }
 
+// verdictColsSchema9 are the verdicts view's columns up to schema 9; schema
+// 10 added columns after them.
+const verdictColsSchema9 = "run_id, star_id, status, quality, computed_in_run, input_hash, distance_method, has_rv, " +
+	"speed_p16_kms, speed_p50_kms, speed_p84_kms, speed_lower_p50_kms, r_gc_kpc, v_esc_kms, " +
+	"p_unbound, p_unbound_lower, origin, p_gc_origin, gc_consistency, flight_time_myr, model_name"
+
 // stableSum hashes a run with queries that read the same in schemas 5 and
 // 6: its verdict set (columns named), inputs, matches and reasons.
 func stableSum(t *testing.T, db *sql.DB, run int64) string {
 	t.Helper()
 	h := sha256.New()
 	for _, q := range []string{
-		"SELECT " + verdictCols + " FROM verdicts WHERE run_id = ? ORDER BY star_id",
+		"SELECT " + verdictColsSchema9 + " FROM verdicts WHERE run_id = ? ORDER BY star_id",
 		"SELECT * FROM inputs WHERE run_id = ? ORDER BY star_id",
 		"SELECT * FROM matches WHERE run_id = ? ORDER BY star_id, catalog",
 		"SELECT run_id, star_id, seq, rule_id, outcome, severity, value, threshold, message FROM reasons WHERE run_id = ? ORDER BY star_id, seq",
@@ -143,12 +149,15 @@ func TestMigrateFromSchema2(t *testing.T) {
 		t.Errorf("stars new-1: first %d last %d, %v; want 2 2", first, last, err)
 	}
 	for _, tc := range []struct{ name, want string }{
-		{"inputs", "WITHOUT ROWID"},
+		{"input_values", "WITHOUT ROWID"},
+		{"inputs", "CREATE VIEW inputs"},
 		{"computed_verdicts", "PRIMARY KEY (star_id, computed_in_run)"},
 		{"computed_verdicts_by_run", "ON computed_verdicts (computed_in_run, status)"},
 		{"verdicts", "CREATE VIEW verdicts"},
 		{"stars", "CREATE VIEW stars"},
-		{"reasons", "PRIMARY KEY (run_id, star_id, seq)"},
+		{"star_reasons", "PRIMARY KEY (run_id, star_id, seq)"},
+		{"reason_forms", "PRIMARY KEY (run_id, form_id)"},
+		{"reasons", "CREATE VIEW reasons"},
 		{"matches", "PRIMARY KEY (run_id, star_id, catalog)"},
 	} {
 		t.Run(tc.name, func(t *testing.T) {

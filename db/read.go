@@ -287,14 +287,18 @@ func scanVerdict(sc scanner) (VerdictRow, error) {
 		v                                       VerdictRow
 		q, ih, dm, or, mn                       sql.NullString
 		p16, p50, p84, lp50, rgc, vesc, pu, pul sql.NullFloat64
-		pgc, gcc, ft                            sql.NullFloat64
+		pgc, gcc, ft, d16, d50, d84, puf        sql.NullFloat64
 		hasRV                                   int64
+		used, traced, crossed                   sql.NullInt64
 	)
 	err := sc.Scan(&v.RunID, &v.StarID, &v.Status, &q, &v.ComputedInRun, &ih, &dm, &hasRV,
-		&p16, &p50, &p84, &lp50, &rgc, &vesc, &pu, &pul, &or, &pgc, &gcc, &ft, &mn)
+		&p16, &p50, &p84, &lp50, &rgc, &vesc, &pu, &pul, &or, &pgc, &gcc, &ft, &mn,
+		&used, &d16, &d50, &d84, &puf, &traced, &crossed)
 	if err != nil {
 		return v, err
 	}
+	v.SamplesUsed, v.TraceSamples, v.TraceCrossed = int(used.Int64), int(traced.Int64), int(crossed.Int64)
+	v.DistP16Kpc, v.DistP50Kpc, v.DistP84Kpc, v.PUnboundFlat = fv(d16), fv(d50), fv(d84), fv(puf)
 	v.Quality, v.InputHash, v.DistanceMethod, v.Origin, v.ModelName = sv(q), sv(ih), sv(dm), sv(or), sv(mn)
 	v.HasRV = hasRV == 1
 	v.SpeedP16Kms, v.SpeedP50Kms, v.SpeedP84Kms, v.SpeedLowerP50Kms = fv(p16), fv(p50), fv(p84), fv(lp50)
@@ -372,6 +376,7 @@ func verdictOf(runID int64, r []driver.Value) VerdictRow {
 		}
 		return math.NaN()
 	}
+	count := func(x driver.Value) int { n, _ := x.(int64); return int(n) }
 	cin, _ := r[1].(int64)
 	hasRV, _ := r[6].(int64)
 	return VerdictRow{RunID: runID, StarID: str(r[0]), ComputedInRun: cin, Status: str(r[2]), Quality: str(r[3]),
@@ -379,7 +384,8 @@ func verdictOf(runID int64, r []driver.Value) VerdictRow {
 		SpeedP16Kms: num(r[7]), SpeedP50Kms: num(r[8]), SpeedP84Kms: num(r[9]), SpeedLowerP50Kms: num(r[10]),
 		RGCKpc: num(r[11]), VEscKms: num(r[12]), PUnbound: num(r[13]), PUnboundLower: num(r[14]),
 		Origin: str(r[15]), PGCOrigin: num(r[16]), GCConsistency: num(r[17]), FlightTimeMyr: num(r[18]),
-		ModelName: str(r[19])}
+		ModelName: str(r[19]), SamplesUsed: count(r[20]), DistP16Kpc: num(r[21]), DistP50Kpc: num(r[22]),
+		DistP84Kpc: num(r[23]), PUnboundFlat: num(r[24]), TraceSamples: count(r[25]), TraceCrossed: count(r[26])}
 }
 
 // RunCatalogs returns the input catalogs recorded for a run.

@@ -168,6 +168,15 @@ type VerdictRow struct {
 	GCConsistency    float64
 	FlightTimeMyr    float64
 	ModelName        string
+	// Since schema 10, the numbers a star's kinematic reasons are written
+	// from (KinematicNumbers): the Monte Carlo draws used (0 = none, NULL),
+	// the distance percentiles in kpc, the flat-prior p_unbound, and for a
+	// traced star the samples traced and how many crossed the plane
+	// (TraceSamples 0 = not traced).
+	SamplesUsed                        int
+	DistP16Kpc, DistP50Kpc, DistP84Kpc float64
+	PUnboundFlat                       float64
+	TraceSamples, TraceCrossed         int
 }
 
 // NewVerdictRow returns a verdict with the given status and every numeric
@@ -176,7 +185,8 @@ type VerdictRow struct {
 func NewVerdictRow(status string) VerdictRow {
 	nan := math.NaN()
 	return VerdictRow{Status: status, SpeedP16Kms: nan, SpeedP50Kms: nan, SpeedP84Kms: nan, SpeedLowerP50Kms: nan,
-		RGCKpc: nan, VEscKms: nan, PUnbound: nan, PUnboundLower: nan, PGCOrigin: nan, GCConsistency: nan, FlightTimeMyr: nan}
+		RGCKpc: nan, VEscKms: nan, PUnbound: nan, PUnboundLower: nan, PGCOrigin: nan, GCConsistency: nan, FlightTimeMyr: nan,
+		DistP16Kpc: nan, DistP50Kpc: nan, DistP84Kpc: nan, PUnboundFlat: nan}
 }
 
 // Carried reports whether the verdict was carried forward from an earlier

@@ -23,6 +23,24 @@ type RunWriter struct {
 	done bool
 	// computed counts the verdicts of committed AddStars batches.
 	computed int64
+	// forms are the run's committed reason forms (reason_forms), by what
+	// they share.
+	forms map[formKey]form
+}
+
+// formKey is what the reasons of one form share. Whether the message is
+// empty is part of it, so that a stored NULL message always means "the
+// form's message".
+type formKey struct {
+	ruleID, outcome, severity, threshold string
+	noMessage                            bool
+}
+
+// form is a row of reason_forms: its id and message, the message of the
+// first reason written with it.
+type form struct {
+	id      int64
+	message string
 }
 
 // BeginRun takes the writer lock (polling up to Options.LockWait, then
@@ -138,7 +156,8 @@ const inputCols = "ra, dec, ra_err, dec_err, parallax, parallax_err, pm_ra, pm_r
 	"duplicate_flag, mag, color, snr, distance_modulus, distance_modulus_err"
 
 const verdictSummaryCols = "speed_p16_kms, speed_p50_kms, speed_p84_kms, speed_lower_p50_kms, r_gc_kpc, v_esc_kms, " +
-	"p_unbound, p_unbound_lower, origin, p_gc_origin, gc_consistency, flight_time_myr, model_name"
+	"p_unbound, p_unbound_lower, origin, p_gc_origin, gc_consistency, flight_time_myr, model_name, " +
+	"samples_used, distance_p16_kpc, distance_p50_kpc, distance_p84_kpc, p_unbound_flat, trace_samples, trace_crossed"
 
 // verdictCols are the columns of the verdicts view, computedCols those of
 // the computed_verdicts table behind it.
@@ -208,11 +227,18 @@ func (w *RunWriter) AddStars(ctx context.Context, batch []StarRecord) error {
 		if err != nil {
 			return err
 		}
-		if err := w.writeStars(c, batch); err != nil {
+		added, err := w.writeStars(c, batch)
+		if err != nil {
 			tx.Rollback()
 			return err
 		}
-		return tx.Commit()
+		if err := tx.Commit(); err != nil {
+			return err
+		}
+		for k, f := range added {
+			w.forms[k] = f
+		}
+		return nil
 	})
 	if err == nil {
 		w.computed += int64(len(batch))
@@ -224,22 +250,29 @@ func (w *RunWriter) AddStars(ctx context.Context, batch []StarRecord) error {
 }
 
 // writeStars queues every row of the batch in multi-row inserts. It runs
-// inside AddStars's transaction. One loop over the batch fills all five
-// tables: it is the writer's hot path, and each table's part is a few lines.
-func (w *RunWriter) writeStars(c *sqlite3.SQLiteConn, batch []StarRecord) error {
-	inputs := newBulk(c, "inputs", "INSERT INTO inputs (run_id, star_id, input_hash, "+inputCols+", dup_count) VALUES", 3+NumInputs+1, "")
+// inside AddStars's transaction and returns the reason forms it added,
+// which become the run's once the transaction commits. One loop over the
+// batch fills all the tables: it is the writer's hot path, and each
+// table's part is a few lines.
+func (w *RunWriter) writeStars(c *sqlite3.SQLiteConn, batch []StarRecord) (map[formKey]form, error) {
+	inputs := newBulk(c, "inputs", "INSERT INTO input_values (run_id, star_id, "+inputCols+", dup_count) VALUES", 2+NumInputs+1, "")
 	matches := newBulk(c, "matches", "INSERT INTO matches (run_id, star_id, catalog, counterpart_id, sep_arcsec, match_prob, candidates, ambiguous) VALUES", 8, "")
-	verdicts := newBulk(c, "verdicts", "INSERT INTO computed_verdicts ("+computedCols+") VALUES", 20, "")
-	reasons := newBulk(c, "reasons", "INSERT INTO reasons (run_id, star_id, seq, rule_id, outcome, severity, value, threshold, message) VALUES", 9, "")
+	verdicts := newBulk(c, "verdicts", "INSERT INTO computed_verdicts ("+computedCols+") VALUES", 27, "")
+	forms := newBulk(c, "reason forms", "INSERT INTO reason_forms (run_id, form_id, rule_id, outcome, severity, threshold, message) VALUES", 7, "")
+	reasons := newBulk(c, "reasons", "INSERT INTO star_reasons (run_id, star_id, seq, form_id, value, message) VALUES", 6, "")
 	crossings := newBulk(c, "crossings", "INSERT INTO crossings (run_id, star_id, x_kpc, y_kpc, t_myr) VALUES", 5, "")
-	all := []*bulk{inputs, matches, verdicts, reasons, crossings}
+	all := []*bulk{inputs, matches, verdicts, forms, reasons, crossings}
 	defer func() {
 		for _, b := range all {
 			b.close()
 		}
 	}()
+	if w.forms == nil {
+		w.forms = map[formKey]form{}
+	}
+	added := map[formKey]form{}
 	id := w.id
-	in := make([]driver.Value, 3+NumInputs+1)
+	in := make([]driver.Value, 2+NumInputs+1)
 	for i := range batch {
 		r := &batch[i]
 		sid := r.StarID
@@ -248,45 +281,66 @@ func (w *RunWriter) writeStars(c *sqlite3.SQLiteConn, batch []StarRecord) error 
 			if v.InputHash == "" {
 				v.InputHash = r.Inputs.InputHash
 			}
-			in[0], in[1], in[2] = id, sid, r.Inputs.InputHash
+			in[0], in[1] = id, sid
 			for j, x := range r.Inputs.Values {
-				in[3+j] = dvf(x)
+				in[2+j] = dvf(x)
 			}
-			in[3+NumInputs] = int64(r.Inputs.DupCount)
+			in[2+NumInputs] = int64(r.Inputs.DupCount)
 			if err := inputs.add(sid, in...); err != nil {
-				return err
+				return nil, err
 			}
 		}
 		for _, m := range r.Matches {
 			if err := matches.add(sid, id, sid, m.Catalog, dvs(m.CounterpartID), dvf(m.SepArcsec), dvf(m.MatchProb),
 				int64(m.Candidates), b2i(m.Ambiguous)); err != nil {
-				return err
+				return nil, err
 			}
 		}
 		for _, x := range r.Crossings {
 			if err := crossings.add(sid, id, sid, x.XKpc, x.YKpc, x.TMyr); err != nil {
-				return err
+				return nil, err
 			}
 		}
 		for k, x := range r.Reasons {
-			if err := reasons.add(sid, id, sid, int64(k), x.RuleID, x.Outcome, dvs(x.Severity), dvf(x.Value),
-				dvs(x.Threshold), dvs(x.Message)); err != nil {
-				return err
+			key := formKey{x.RuleID, x.Outcome, x.Severity, x.Threshold, x.Message == ""}
+			f, ok := w.forms[key]
+			if !ok {
+				f, ok = added[key]
 			}
+			if !ok {
+				f = form{id: int64(len(w.forms) + len(added)), message: x.Message}
+				added[key] = f
+				if err := forms.add(sid, id, f.id, x.RuleID, x.Outcome, dvs(x.Severity), dvs(x.Threshold), dvs(x.Message)); err != nil {
+					return nil, err
+				}
+			}
+			var msg driver.Value
+			if x.Message != f.message {
+				msg = x.Message
+			}
+			if err := reasons.add(sid, id, sid, int64(k), f.id, dvf(x.Value), msg); err != nil {
+				return nil, err
+			}
+		}
+		var crossed driver.Value
+		if v.TraceSamples > 0 {
+			crossed = int64(v.TraceCrossed)
 		}
 		if err := verdicts.add(sid, sid, id, v.Status, dvs(v.Quality), dvs(v.InputHash),
 			dvs(v.DistanceMethod), b2i(v.HasRV), dvf(v.SpeedP16Kms), dvf(v.SpeedP50Kms), dvf(v.SpeedP84Kms),
 			dvf(v.SpeedLowerP50Kms), dvf(v.RGCKpc), dvf(v.VEscKms), dvf(v.PUnbound), dvf(v.PUnboundLower),
-			dvs(v.Origin), dvf(v.PGCOrigin), dvf(v.GCConsistency), dvf(v.FlightTimeMyr), dvs(v.ModelName)); err != nil {
-			return err
+			dvs(v.Origin), dvf(v.PGCOrigin), dvf(v.GCConsistency), dvf(v.FlightTimeMyr), dvs(v.ModelName),
+			dvPos(v.SamplesUsed), dvf(v.DistP16Kpc), dvf(v.DistP50Kpc), dvf(v.DistP84Kpc), dvf(v.PUnboundFlat),
+			dvPos(v.TraceSamples), crossed); err != nil {
+			return nil, err
 		}
 	}
 	for _, b := range all {
 		if err := b.flush(); err != nil {
-			return err
+			return nil, err
 		}
 	}
-	return nil
+	return added, nil
 }
 
 func inConnTx(ctx context.Context, conn *sql.Conn, fn func(*sql.Tx) error) error {

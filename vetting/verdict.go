@@ -4,6 +4,7 @@ import (
 	"fmt"
 	"math"
 
+	"starvet/campaign"
 	"starvet/db"
 	"starvet/galaxy/kinematics"
 	"starvet/galaxy/orbit"
@@ -31,7 +32,10 @@ func addReason(rec *db.StarRecord, id, outcome string, value float64, threshold,
 }
 
 // applyKinematics turns a Monte Carlo result (and a trace, for the fast
-// stars) into the star's status, summary columns and kinematic reasons.
+// stars) into the star's status and summary columns, and keeps the
+// kinematic notes of the Monte Carlo as reasons. The reasons that follow
+// from the summary columns (KinematicReasons) are not stored: they are
+// written again from the columns whenever a star is shown.
 func applyKinematics(rec *db.StarRecord, r *kinematics.Result, t *orbit.TraceResult, s *runSettings) {
 	v := &rec.Verdict
 	v.DistanceMethod = r.Method
@@ -48,63 +52,99 @@ func applyKinematics(rec *db.StarRecord, r *kinematics.Result, t *orbit.TraceRes
 		v.Status = string(verdict.Rejected)
 		return
 	}
-	addReason(rec, "kinematics.distance", "info", r.DistKpc[1], "", "distance %s kpc (16-50-84%%: %s, %s, %s) from method %q",
-		numfmt.Sig(r.DistKpc[1], 3), numfmt.Sig(r.DistKpc[0], 3), numfmt.Sig(r.DistKpc[1], 3), numfmt.Sig(r.DistKpc[2], 3), r.Method)
+	v.SamplesUsed = r.Samples
+	v.DistP16Kpc, v.DistP50Kpc, v.DistP84Kpc = r.DistKpc[0], r.DistKpc[1], r.DistKpc[2]
 	v.RGCKpc, v.VEscKms = r.RGCKpc[1], r.VEscKms[1]
 	if !r.HasRV {
 		v.Status = string(verdict.NeedsRV)
 		v.SpeedLowerP50Kms, v.PUnboundLower = r.SpeedLowerKms[1], r.PUnboundLower
-		addReason(rec, "kinematics.needs-rv", "info", r.SpeedLowerKms[1], "", "no usable radial velocity: Galactocentric speed at least %s km/s (median over samples), %s of samples already unbound on that bound under model %s",
-			numfmt.Kms(r.SpeedLowerKms[1]), numfmt.Prob(r.PUnboundLower), s.modelName)
 		return
 	}
 	v.SpeedP16Kms, v.SpeedP50Kms, v.SpeedP84Kms = r.SpeedKms[0], r.SpeedKms[1], r.SpeedKms[2]
-	v.PUnbound = r.PUnbound
-	applyPUnbound(rec, r, s)
+	v.PUnbound, v.PUnboundFlat = r.PUnbound, r.PUnboundFlat
+	k := &s.campaign.Kinematics
+	v.Status = string(pUnboundStatus(r.PUnbound, k.UnboundP, k.MarginalP))
 	if t != nil {
-		applyTrace(rec, t, s)
+		v.Origin, v.PGCOrigin, v.GCConsistency, v.FlightTimeMyr = string(t.Origin), t.PGCOrigin, t.GCConsistency, t.FlightTimeMyr
+		v.TraceSamples, v.TraceCrossed = t.Samples, len(t.Crossings)
+		rec.Crossings = make([]db.CrossingRow, len(t.Crossings))
+		for i, c := range t.Crossings {
+			rec.Crossings[i] = db.CrossingRow{XKpc: c.XKpc, YKpc: c.YKpc, TMyr: c.TMyr}
+		}
 	}
 }
 
-// applyPUnbound gives a star with a usable radial velocity its status from
-// p_unbound and the campaign's thresholds, and says why.
-func applyPUnbound(rec *db.StarRecord, r *kinematics.Result, s *runSettings) {
-	k := &s.campaign.Kinematics
+// ReasonThresholds are the settings a star's kinematic reasons quote.
+type ReasonThresholds struct {
+	UnboundP, MarginalP float64
+	VelocityPriorKms    float64 // 0: flat prior
+	TraceMyr            float64
+	GCRadiusKpc         float64
+}
+
+// RecordedThresholds reads ReasonThresholds from a run's recorded
+// settings; ok is false when the run recorded none of them.
+func RecordedThresholds(rs *db.RunSettings) (t ReasonThresholds, ok bool) {
+	for _, x := range []struct {
+		name string
+		to   *float64
+	}{
+		{campaign.SettingUnboundP, &t.UnboundP}, {campaign.SettingMarginalP, &t.MarginalP},
+		{campaign.SettingVelocityPriorKms, &t.VelocityPriorKms}, {campaign.SettingTraceMyr, &t.TraceMyr},
+		{campaign.SettingGCRadiusKpc, &t.GCRadiusKpc},
+	} {
+		f, found := rs.Float(x.name)
+		if !found {
+			return t, false
+		}
+		*x.to = f
+	}
+	return t, true
+}
+
+// KinematicReasons are the reasons that follow from a computed verdict's
+// kinematic columns and the run's thresholds: the distance, the speed
+// against the escape speed (or the lower bound without a radial velocity)
+// and, for a traced star, its origin. They come after the star's stored
+// reasons. A verdict without Monte Carlo draws (SamplesUsed 0, which
+// includes every verdict written before schema 10, whose reasons were
+// stored whole) has none.
+func KinematicReasons(v *db.VerdictRow, k ReasonThresholds) []db.ReasonRow {
+	if v.SamplesUsed == 0 {
+		return nil
+	}
+	var rec db.StarRecord
+	addReason(&rec, "kinematics.distance", "info", v.DistP50Kpc, "", "distance %s kpc (16-50-84%%: %s, %s, %s) from method %q",
+		numfmt.Sig(v.DistP50Kpc, 3), numfmt.Sig(v.DistP16Kpc, 3), numfmt.Sig(v.DistP50Kpc, 3), numfmt.Sig(v.DistP84Kpc, 3), v.DistanceMethod)
+	if !v.HasRV {
+		addReason(&rec, "kinematics.needs-rv", "info", v.SpeedLowerP50Kms, "", "no usable radial velocity: Galactocentric speed at least %s km/s (median over samples), %s of samples already unbound on that bound under model %s",
+			numfmt.Kms(v.SpeedLowerP50Kms), numfmt.Prob(v.PUnboundLower), v.ModelName)
+		return rec.Reasons
+	}
 	prior := ""
-	if !math.IsNaN(r.PUnboundFlat) {
-		prior = ", velocity prior " + numfmt.Exact(k.VelocityPriorKms) + " km/s (flat prior: p_unbound " + numfmt.Prob(r.PUnboundFlat) + ")"
+	if !math.IsNaN(v.PUnboundFlat) {
+		prior = ", velocity prior " + numfmt.Exact(k.VelocityPriorKms) + " km/s (flat prior: p_unbound " + numfmt.Prob(v.PUnboundFlat) + ")"
 	}
-	st := pUnboundStatus(r.PUnbound, k.UnboundP, k.MarginalP)
-	rec.Verdict.Status = string(st)
-	switch st {
+	switch pUnboundStatus(v.PUnbound, k.UnboundP, k.MarginalP) {
 	case verdict.Unbound:
-		addReason(rec, "kinematics.p-unbound", "info", r.PUnbound, ">= "+numfmt.Exact(k.UnboundP),
+		addReason(&rec, "kinematics.p-unbound", "info", v.PUnbound, ">= "+numfmt.Exact(k.UnboundP),
 			"p_unbound %s >= %s under model %s%s: speed %s (+%s/-%s) km/s against escape speed %s km/s; a candidate for follow-up, not a discovery",
-			numfmt.Prob(r.PUnbound), numfmt.Exact(k.UnboundP), s.modelName, prior, numfmt.Kms(r.SpeedKms[1]), numfmt.Kms(r.SpeedKms[2]-r.SpeedKms[1]), numfmt.Kms(r.SpeedKms[1]-r.SpeedKms[0]), numfmt.Kms(r.VEscKms[1]))
+			numfmt.Prob(v.PUnbound), numfmt.Exact(k.UnboundP), v.ModelName, prior, numfmt.Kms(v.SpeedP50Kms), numfmt.Kms(v.SpeedP84Kms-v.SpeedP50Kms), numfmt.Kms(v.SpeedP50Kms-v.SpeedP16Kms), numfmt.Kms(v.VEscKms))
 	case verdict.Marginal:
-		addReason(rec, "kinematics.p-unbound", "info", r.PUnbound, ">= "+numfmt.Exact(k.MarginalP)+" and < "+numfmt.Exact(k.UnboundP),
+		addReason(&rec, "kinematics.p-unbound", "info", v.PUnbound, ">= "+numfmt.Exact(k.MarginalP)+" and < "+numfmt.Exact(k.UnboundP),
 			"p_unbound %s between %s and %s under model %s%s: speed %s km/s against escape speed %s km/s",
-			numfmt.Prob(r.PUnbound), numfmt.Exact(k.MarginalP), numfmt.Exact(k.UnboundP), s.modelName, prior, numfmt.Kms(r.SpeedKms[1]), numfmt.Kms(r.VEscKms[1]))
+			numfmt.Prob(v.PUnbound), numfmt.Exact(k.MarginalP), numfmt.Exact(k.UnboundP), v.ModelName, prior, numfmt.Kms(v.SpeedP50Kms), numfmt.Kms(v.VEscKms))
 	default:
-		addReason(rec, "kinematics.p-unbound", "info", r.PUnbound, "< "+numfmt.Exact(k.MarginalP),
+		addReason(&rec, "kinematics.p-unbound", "info", v.PUnbound, "< "+numfmt.Exact(k.MarginalP),
 			"p_unbound %s < %s under model %s%s: speed %s km/s against escape speed %s km/s",
-			numfmt.Prob(r.PUnbound), numfmt.Exact(k.MarginalP), s.modelName, prior, numfmt.Kms(r.SpeedKms[1]), numfmt.Kms(r.VEscKms[1]))
+			numfmt.Prob(v.PUnbound), numfmt.Exact(k.MarginalP), v.ModelName, prior, numfmt.Kms(v.SpeedP50Kms), numfmt.Kms(v.VEscKms))
 	}
-}
-
-// applyTrace records a fast star's back-trace: origin, plane crossings and
-// the centre's containment level against orbit.GCConsistencyLevel.
-func applyTrace(rec *db.StarRecord, t *orbit.TraceResult, s *runSettings) {
-	k := &s.campaign.Kinematics
-	v := &rec.Verdict
-	v.Origin, v.PGCOrigin, v.GCConsistency, v.FlightTimeMyr = string(t.Origin), t.PGCOrigin, t.GCConsistency, t.FlightTimeMyr
-	rec.Crossings = make([]db.CrossingRow, len(t.Crossings))
-	for i, c := range t.Crossings {
-		rec.Crossings[i] = db.CrossingRow{XKpc: c.XKpc, YKpc: c.YKpc, TMyr: c.TMyr}
+	if v.TraceSamples > 0 {
+		addReason(&rec, "kinematics.origin", "info", v.GCConsistency, "<= "+numfmt.Exact(orbit.GCConsistencyLevel),
+			"origin %s: the centre lies at containment level %s of the plane crossings (%d of %d samples crossed within %s Myr; %s within %s kpc of the centre; flight time %s Myr)",
+			v.Origin, numfmt.Prob(v.GCConsistency), v.TraceCrossed, v.TraceSamples, numfmt.Exact(k.TraceMyr), numfmt.Prob(v.PGCOrigin), numfmt.Exact(k.GCRadiusKpc), numfmt.Myr(v.FlightTimeMyr))
 	}
-	addReason(rec, "kinematics.origin", "info", t.GCConsistency, "<= "+numfmt.Exact(orbit.GCConsistencyLevel),
-		"origin %s: the centre lies at containment level %s of the plane crossings (%d of %d samples crossed within %s Myr; %s within %s kpc of the centre; flight time %s Myr)",
-		t.Origin, numfmt.Prob(t.GCConsistency), len(t.Crossings), t.Samples, numfmt.Exact(k.TraceMyr), numfmt.Prob(t.PGCOrigin), numfmt.Exact(k.GCRadiusKpc), numfmt.Myr(t.FlightTimeMyr))
+	return rec.Reasons
 }
 
 // withdrawnRecord is the record of a star of the previous complete run

@@ -10,6 +10,7 @@ import (
 	"starvet/campaign"
 	"starvet/db"
 	"starvet/internal/numfmt"
+	"starvet/vetting"
 )
 
 func runWhy(ctx context.Context, env *Env, args []string) error {
@@ -39,11 +40,15 @@ func runWhy(ctx context.Context, env *Env, args []string) error {
 		return err
 	}
 	settings := map[int64]*db.RunSettings{}
-	for _, c := range h.Computations {
+	for i := range h.Computations {
+		c := &h.Computations[i]
 		if settings[c.RunID] == nil {
 			if settings[c.RunID], err = l.RunSettings(ctx, c.RunID); err != nil {
 				return err
 			}
+		}
+		if th, ok := vetting.RecordedThresholds(settings[c.RunID]); ok {
+			c.Reasons = append(c.Reasons, vetting.KinematicReasons(&c.Verdict, th)...)
 		}
 	}
 	if af.json {
