@@ -4,9 +4,13 @@ import (
 	"context"
 	"database/sql"
 	"database/sql/driver"
+	"encoding/json"
 	"errors"
 	"fmt"
+	"math"
 	"sort"
+	"strconv"
+	"strings"
 )
 
 // StarRun is a star's verdict in one run.
@@ -190,12 +194,31 @@ func (l *Ledger) Reasons(ctx context.Context, runID int64, starID string) ([]Rea
 	return l.reasonsOf(ctx, runID, starID)
 }
 
+// reasonsOf reads a star's reasons as the reasons view gives them: from
+// its verdict's reason_list and the run's forms since schema 10, else from
+// the rows an earlier run stored.
 func (l *Ledger) reasonsOf(ctx context.Context, runID int64, starID string) ([]ReasonRow, error) {
+	bad := func(err error) error {
+		return fmt.Errorf("ledger %s run %d: star %q reasons: %w", l.path, runID, starID, err)
+	}
+	var list sql.NullString
+	err := l.db.QueryRowContext(ctx, "SELECT reason_list FROM computed_verdicts WHERE star_id = ? AND computed_in_run = ?",
+		starID, runID).Scan(&list)
+	if err != nil && !errors.Is(err, sql.ErrNoRows) {
+		return nil, bad(err)
+	}
+	if list.Valid {
+		out, err := l.decodeReasons(ctx, runID, list.String)
+		if err != nil {
+			return nil, bad(err)
+		}
+		return out, nil
+	}
 	rows, err := l.db.QueryContext(ctx,
 		`SELECT rule_id, outcome, severity, value, threshold, message FROM reasons
 		 WHERE run_id = ? AND star_id = ? ORDER BY seq`, runID, starID)
 	if err != nil {
-		return nil, fmt.Errorf("ledger %s run %d: star %q reasons: %w", l.path, runID, starID, err)
+		return nil, bad(err)
 	}
 	defer rows.Close()
 	var out []ReasonRow
@@ -204,12 +227,93 @@ func (l *Ledger) reasonsOf(ctx context.Context, runID int64, starID string) ([]R
 		var sev, thr, msg sql.NullString
 		var val sql.NullFloat64
 		if err := rows.Scan(&r.RuleID, &r.Outcome, &sev, &val, &thr, &msg); err != nil {
-			return nil, fmt.Errorf("ledger %s run %d: star %q reasons: %w", l.path, runID, starID, err)
+			return nil, bad(err)
 		}
 		r.Severity, r.Value, r.Threshold, r.Message = sv(sev), fv(val), sv(thr), sv(msg)
 		out = append(out, r)
 	}
-	return out, rows.Err()
+	if err := rows.Err(); err != nil {
+		return nil, bad(err)
+	}
+	return out, nil
+}
+
+// decodeReasons reads a reason_list (appendReason) against the run's
+// forms, as the reasons view does in SQL.
+func (l *Ledger) decodeReasons(ctx context.Context, runID int64, list string) ([]ReasonRow, error) {
+	dec := json.NewDecoder(strings.NewReader(list))
+	dec.UseNumber()
+	var entries [][]any
+	if err := dec.Decode(&entries); err != nil {
+		return nil, fmt.Errorf("reason_list %q: %w", list, err)
+	}
+	out := make([]ReasonRow, len(entries))
+	for k, e := range entries {
+		n, _ := e[0].(json.Number)
+		id, err := n.Int64()
+		if err != nil {
+			return nil, fmt.Errorf("reason_list %q: entry %d: form %v", list, k, e[0])
+		}
+		f, err := l.form(ctx, runID, id)
+		if err != nil {
+			return nil, err
+		}
+		r := ReasonRow{RuleID: f.ruleID, Outcome: f.outcome, Severity: f.severity, Threshold: f.threshold,
+			Message: f.message, Value: math.NaN()}
+		if len(e) > 1 && e[1] != nil {
+			v, _ := e[1].(json.Number)
+			x, err := strconv.ParseFloat(string(v), 64)
+			if err != nil && !(errors.Is(err, strconv.ErrRange) && math.IsInf(x, 0)) {
+				return nil, fmt.Errorf("reason_list %q: entry %d: value %v", list, k, e[1])
+			}
+			r.Value = x
+		}
+		if len(e) > 2 {
+			r.Message, _ = e[2].(string)
+		}
+		out[k] = r
+	}
+	return out, nil
+}
+
+// form returns a run's reason form, from the cache or read again when the
+// run has added forms since.
+func (l *Ledger) form(ctx context.Context, runID, id int64) (form, error) {
+	l.formsMu.Lock()
+	defer l.formsMu.Unlock()
+	if fs := l.forms[runID]; id >= 0 && id < int64(len(fs)) {
+		return fs[id], nil
+	}
+	rows, err := l.db.QueryContext(ctx,
+		"SELECT form_id, rule_id, outcome, severity, threshold, message FROM reason_forms WHERE run_id = ? ORDER BY form_id", runID)
+	if err != nil {
+		return form{}, err
+	}
+	defer rows.Close()
+	var fs []form
+	for rows.Next() {
+		var f form
+		var sev, thr, msg sql.NullString
+		if err := rows.Scan(&f.id, &f.ruleID, &f.outcome, &sev, &thr, &msg); err != nil {
+			return form{}, err
+		}
+		if f.id != int64(len(fs)) {
+			return form{}, fmt.Errorf("reason_forms of run %d: form %d where %d was expected", runID, f.id, len(fs))
+		}
+		f.severity, f.threshold, f.message = sv(sev), sv(thr), sv(msg)
+		fs = append(fs, f)
+	}
+	if err := rows.Err(); err != nil {
+		return form{}, err
+	}
+	if l.forms == nil {
+		l.forms = map[int64][]form{}
+	}
+	l.forms[runID] = fs
+	if id < 0 || id >= int64(len(fs)) {
+		return form{}, fmt.Errorf("run %d has no reason form %d", runID, id)
+	}
+	return fs[id], nil
 }
 
 func (l *Ledger) matchesOf(ctx context.Context, runID int64, starID string) ([]MatchRow, error) {

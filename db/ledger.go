@@ -12,6 +12,7 @@ import (
 	"sort"
 	"strconv"
 	"strings"
+	"sync"
 	"time"
 
 	_ "github.com/mattn/go-sqlite3" // registers the "sqlite3" driver
@@ -109,6 +110,10 @@ type Ledger struct {
 	opt  Options
 	db   *sql.DB
 	now  func() time.Time
+	// forms caches each run's reason_forms (schema 10) for reading the
+	// reason lists of its stars.
+	formsMu sync.Mutex
+	forms   map[int64][]form
 }
 
 // Path returns the ledger file name as given to Open.

@@ -789,3 +789,108 @@ func TestMigrateFromSchema1(t *testing.T) {
 		t.Errorf("crossings table after upgrade: %v", err)
 	}
 }
+
+// Since schema 10 a run keeps a star's reasons as a JSON list in its
+// verdict row; the reasons view gives them back exactly: every value bit
+// for bit (NaN as NULL, infinities, subnormals, integral values), messages
+// with any characters, a message shared by a form or a star's own, across
+// batches that reuse the run's forms.
+func TestReasonListRoundTrip(t *testing.T) {
+	ctx := context.Background()
+	l := openT(t, tempLedger(t), Options{})
+	w, err := l.BeginRun(ctx, RunInfo{Settings: testSettings, ToolVersion: "test"})
+	if err != nil {
+		t.Fatal(err)
+	}
+	odd := "quote \" backslash \\ newline \n tab \t µas <b>&</b> \u2028 end"
+	values := []float64{math.NaN(), math.Inf(1), math.Inf(-1), 3, 1e-300, 5e-324, -2.5e-7, 0.1, math.MaxFloat64, 123456789.123456789}
+	var recs [][]StarRecord
+	for b := range 2 {
+		var batch []StarRecord
+		for i, v := range values {
+			id := fmt.Sprintf("s%d-%02d", b, i)
+			r := record(id, i, 0, "rejected")
+			r.Reasons = []ReasonRow{
+				{RuleID: "skip-rule", Outcome: "skipped", Severity: "flag", Value: math.NaN(), Threshold: "<= 2", Message: "skipped: x missing"},
+				{RuleID: "fail-rule", Outcome: "fail", Severity: "reject", Value: v, Threshold: ">= 5", Message: fmt.Sprintf("value %v of %s", v, id)},
+				{RuleID: "note", Outcome: "info", Value: math.NaN(), Message: odd},
+				{RuleID: "note", Outcome: "info", Value: v},
+			}
+			batch = append(batch, r)
+		}
+		if err := w.AddStars(ctx, batch); err != nil {
+			t.Fatal(err)
+		}
+		recs = append(recs, batch)
+	}
+	if err := w.Finish(ctx, RunSummary{}); err != nil {
+		t.Fatal(err)
+	}
+	same := func(a, b float64) bool {
+		return math.Float64bits(a) == math.Float64bits(b) || (math.IsNaN(a) && math.IsNaN(b))
+	}
+	for _, batch := range recs {
+		for _, r := range batch {
+			got, err := l.Reasons(ctx, w.ID(), r.StarID)
+			if err != nil {
+				t.Fatal(err)
+			}
+			viewed := reasonsView(t, l, w.ID(), r.StarID)
+			if len(viewed) != len(r.Reasons) {
+				t.Fatalf("%s: the reasons view gives %d reasons, want %d", r.StarID, len(viewed), len(r.Reasons))
+			}
+			for k, want := range r.Reasons {
+				g := viewed[k]
+				if g.RuleID != want.RuleID || g.Outcome != want.Outcome || g.Severity != want.Severity || !same(g.Value, want.Value) ||
+					g.Threshold != want.Threshold || g.Message != want.Message {
+					t.Errorf("%s reason %d in SQL:\n got %+v\nwant %+v", r.StarID, k, g, want)
+				}
+			}
+			if len(got) != len(r.Reasons) {
+				t.Fatalf("%s: %d reasons, want %d", r.StarID, len(got), len(r.Reasons))
+			}
+			for k, want := range r.Reasons {
+				g := got[k]
+				if g.RuleID != want.RuleID || g.Outcome != want.Outcome || g.Severity != want.Severity || !same(g.Value, want.Value) ||
+					g.Threshold != want.Threshold || g.Message != want.Message {
+					t.Errorf("%s reason %d:\n got %+v\nwant %+v", r.StarID, k, g, want)
+				}
+			}
+		}
+	}
+	var forms int
+	if err := l.db.QueryRow("SELECT count(*) FROM reason_forms WHERE run_id = ?", w.ID()).Scan(&forms); err != nil || forms != 4 {
+		t.Errorf("%d reason forms, %v; want 4 (skip, fail, note with and without a message)", forms, err)
+	}
+	var typ string
+	if err := l.db.QueryRow("SELECT typeof(value) FROM reasons WHERE run_id = ? AND star_id = 's0-03' AND seq = 1", w.ID()).Scan(&typ); err != nil || typ != "real" {
+		t.Errorf("an integral value reads as %q, %v; want real, as the column was", typ, err)
+	}
+}
+
+// reasonsView reads a star's reasons through the SQL view, as a user of the
+// ledger would.
+func reasonsView(t *testing.T, l *Ledger, runID int64, starID string) []ReasonRow {
+	t.Helper()
+	rows, err := l.db.Query(`SELECT rule_id, outcome, severity, value, threshold, message FROM reasons
+		WHERE run_id = ? AND star_id = ? ORDER BY seq`, runID, starID)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer rows.Close()
+	var out []ReasonRow
+	for rows.Next() {
+		var r ReasonRow
+		var sev, thr, msg sql.NullString
+		var val sql.NullFloat64
+		if err := rows.Scan(&r.RuleID, &r.Outcome, &sev, &val, &thr, &msg); err != nil {
+			t.Fatal(err)
+		}
+		r.Severity, r.Value, r.Threshold, r.Message = sv(sev), fv(val), sv(thr), sv(msg)
+		out = append(out, r)
+	}
+	if err := rows.Err(); err != nil {
+		t.Fatal(err)
+	}
+	return out
+}

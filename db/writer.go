@@ -1,12 +1,15 @@
 package db
 
 import (
+	"bytes"
 	"context"
 	"database/sql"
 	"database/sql/driver"
 	"encoding/json"
 	"fmt"
 	"maps"
+	"math"
+	"strconv"
 	"strings"
 	"sync"
 
@@ -36,11 +39,12 @@ type formKey struct {
 	noMessage                            bool
 }
 
-// form is a row of reason_forms: its id and message, the message of the
-// first reason written with it.
+// form is a row of reason_forms. Its message is that of the first reason
+// written with it.
 type form struct {
-	id      int64
-	message string
+	id                                   int64
+	ruleID, outcome, severity, threshold string
+	message                              string
 }
 
 // BeginRun takes the writer lock (polling up to Options.LockWait, then
@@ -257,11 +261,10 @@ func (w *RunWriter) AddStars(ctx context.Context, batch []StarRecord) error {
 func (w *RunWriter) writeStars(c *sqlite3.SQLiteConn, batch []StarRecord) (map[formKey]form, error) {
 	inputs := newBulk(c, "inputs", "INSERT INTO input_values (run_id, star_id, "+inputCols+", dup_count) VALUES", 2+NumInputs+1, "")
 	matches := newBulk(c, "matches", "INSERT INTO matches (run_id, star_id, catalog, counterpart_id, sep_arcsec, match_prob, candidates, ambiguous) VALUES", 8, "")
-	verdicts := newBulk(c, "verdicts", "INSERT INTO computed_verdicts ("+computedCols+") VALUES", 27, "")
+	verdicts := newBulk(c, "verdicts", "INSERT INTO computed_verdicts ("+computedCols+", reason_list) VALUES", 28, "")
 	forms := newBulk(c, "reason forms", "INSERT INTO reason_forms (run_id, form_id, rule_id, outcome, severity, threshold, message) VALUES", 7, "")
-	reasons := newBulk(c, "reasons", "INSERT INTO star_reasons (run_id, star_id, seq, form_id, value, message) VALUES", 6, "")
 	crossings := newBulk(c, "crossings", "INSERT INTO crossings (run_id, star_id, x_kpc, y_kpc, t_myr) VALUES", 5, "")
-	all := []*bulk{inputs, matches, verdicts, forms, reasons, crossings}
+	all := []*bulk{inputs, matches, verdicts, forms, crossings}
 	defer func() {
 		for _, b := range all {
 			b.close()
@@ -271,6 +274,7 @@ func (w *RunWriter) writeStars(c *sqlite3.SQLiteConn, batch []StarRecord) (map[f
 		w.forms = map[formKey]form{}
 	}
 	added := map[formKey]form{}
+	var list []byte
 	id := w.id
 	in := make([]driver.Value, 2+NumInputs+1)
 	for i := range batch {
@@ -301,26 +305,26 @@ func (w *RunWriter) writeStars(c *sqlite3.SQLiteConn, batch []StarRecord) (map[f
 				return nil, err
 			}
 		}
-		for k, x := range r.Reasons {
+		list = list[:0]
+		for _, x := range r.Reasons {
 			key := formKey{x.RuleID, x.Outcome, x.Severity, x.Threshold, x.Message == ""}
 			f, ok := w.forms[key]
 			if !ok {
 				f, ok = added[key]
 			}
 			if !ok {
-				f = form{id: int64(len(w.forms) + len(added)), message: x.Message}
+				f = form{id: int64(len(w.forms) + len(added)), ruleID: x.RuleID, outcome: x.Outcome, severity: x.Severity,
+					threshold: x.Threshold, message: x.Message}
 				added[key] = f
 				if err := forms.add(sid, id, f.id, x.RuleID, x.Outcome, dvs(x.Severity), dvs(x.Threshold), dvs(x.Message)); err != nil {
 					return nil, err
 				}
 			}
-			var msg driver.Value
-			if x.Message != f.message {
-				msg = x.Message
-			}
-			if err := reasons.add(sid, id, sid, int64(k), f.id, dvf(x.Value), msg); err != nil {
-				return nil, err
-			}
+			list = appendReason(list, f.id, x.Value, x.Message, x.Message != f.message)
+		}
+		var reasonList driver.Value
+		if len(list) > 0 {
+			reasonList = string(append(list, ']'))
 		}
 		var crossed driver.Value
 		if v.TraceSamples > 0 {
@@ -331,7 +335,7 @@ func (w *RunWriter) writeStars(c *sqlite3.SQLiteConn, batch []StarRecord) (map[f
 			dvf(v.SpeedLowerP50Kms), dvf(v.RGCKpc), dvf(v.VEscKms), dvf(v.PUnbound), dvf(v.PUnboundLower),
 			dvs(v.Origin), dvf(v.PGCOrigin), dvf(v.GCConsistency), dvf(v.FlightTimeMyr), dvs(v.ModelName),
 			dvPos(v.SamplesUsed), dvf(v.DistP16Kpc), dvf(v.DistP50Kpc), dvf(v.DistP84Kpc), dvf(v.PUnboundFlat),
-			dvPos(v.TraceSamples), crossed); err != nil {
+			dvPos(v.TraceSamples), crossed, reasonList); err != nil {
 			return nil, err
 		}
 	}
@@ -341,6 +345,52 @@ func (w *RunWriter) writeStars(c *sqlite3.SQLiteConn, batch []StarRecord) (map[f
 		}
 	}
 	return added, nil
+}
+
+// appendReason appends one entry of a reason_list (schema 10) to list,
+// opening the list with the first: [form_id, value, message], with value
+// null when NaN and the message only when it is the reason's own. Values
+// are the shortest decimals that read back as the same float64 (SQLite's
+// JSON reader returns them bit for bit); infinities are written as
+// +-9e999, which SQLite reads as infinity.
+func appendReason(list []byte, formID int64, value float64, message string, ownMessage bool) []byte {
+	if len(list) == 0 {
+		list = append(list, '[')
+	} else {
+		list = append(list, ',')
+	}
+	list = append(list, '[')
+	list = strconv.AppendInt(list, formID, 10)
+	if math.IsNaN(value) && !ownMessage {
+		return append(list, ']')
+	}
+	list = append(list, ',')
+	switch {
+	case math.IsNaN(value):
+		list = append(list, "null"...)
+	case math.IsInf(value, 1):
+		list = append(list, "9e999"...)
+	case math.IsInf(value, -1):
+		list = append(list, "-9e999"...)
+	default:
+		list = strconv.AppendFloat(list, value, 'g', -1, 64)
+	}
+	if ownMessage {
+		list = append(list, ',')
+		list = appendJSONString(list, message)
+	}
+	return append(list, ']')
+}
+
+// appendJSONString appends s as a JSON string (RFC 8259, section 7),
+// escaping only what JSON requires: encoding/json would also escape <, >
+// and &, which the ledger's messages are full of.
+func appendJSONString(b []byte, s string) []byte {
+	var buf bytes.Buffer
+	enc := json.NewEncoder(&buf)
+	enc.SetEscapeHTML(false)
+	enc.Encode(s) // a string always encodes
+	return append(b, bytes.TrimSuffix(buf.Bytes(), []byte("\n"))...)
 }
 
 func inConnTx(ctx context.Context, conn *sql.Conn, fn func(*sql.Tx) error) error {

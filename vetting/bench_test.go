@@ -482,11 +482,13 @@ func BenchmarkRun1M(b *testing.B) {
 				ledger := filepath.Join(bc.dir, fmt.Sprintf("full_%d_%d.db", n, runs))
 				clock := &stageClock{sum: map[string]time.Duration{}}
 				e := &Engine{Progress: clock}
+				stopProfile := profileIf(b, os.Getenv("STARVET_BENCH_FULL_CPUPROFILE"))
 				cpu0 := benchCPUTime()
 				b.StartTimer()
 				sum, err := e.Run(ctx, c, RunOptions{LedgerPath: ledger, Full: true})
 				b.StopTimer()
 				cpu += benchCPUTime() - cpu0
+				stopProfile()
 				if err != nil {
 					b.Fatal(err)
 				}

@@ -3,10 +3,14 @@
 -- is stored once.
 --
 -- 1. A star's reasons no longer repeat their rule id, outcome, severity and
---    threshold: those live once per run in reason_forms, and star_reasons
---    holds for each reason its form, its value and, only when it differs
---    from the form's, its message. reasons becomes a view with exactly the
---    columns it had.
+--    threshold: those live once per run in reason_forms. A run since this
+--    schema keeps a star's reasons in its computed_verdicts row, as the
+--    JSON list reason_list: one entry [form_id, value, message] per reason
+--    in order, the value null when missing and the message left out when it
+--    is the form's (values are written as the shortest decimal that reads
+--    back as the same 64-bit float). The reasons of earlier runs move to
+--    star_reasons (form, value, own message). reasons becomes a view over
+--    both with exactly the columns it had.
 -- 2. inputs no longer repeats input_hash, which computed_verdicts holds:
 --    the values live in input_values, and inputs becomes a view that takes
 --    the hash from the star's computed verdict.
@@ -27,6 +31,7 @@ ALTER TABLE computed_verdicts ADD COLUMN distance_p84_kpc REAL;
 ALTER TABLE computed_verdicts ADD COLUMN p_unbound_flat REAL;
 ALTER TABLE computed_verdicts ADD COLUMN trace_samples INTEGER;
 ALTER TABLE computed_verdicts ADD COLUMN trace_crossed INTEGER;
+ALTER TABLE computed_verdicts ADD COLUMN reason_list TEXT;
 
 DROP VIEW verdicts;
 CREATE VIEW verdicts AS
@@ -93,13 +98,21 @@ SELECT r.run_id, r.star_id, r.seq, f.form_id, r.value, r.message
 DROP TABLE forms_0010;
 DROP TABLE reasons;
 
--- A star's message is its own when stored, else its form's.
+-- A reason's message is its own when stored, else its form's. CROSS JOIN
+-- keeps SQLite's join order: each list entry finds its form by key.
 CREATE VIEW reasons AS
 SELECT s.run_id AS run_id, s.star_id AS star_id, s.seq AS seq, f.rule_id AS rule_id,
        f.outcome AS outcome, f.severity AS severity, s.value AS value, f.threshold AS threshold,
        coalesce(s.message, f.message) AS message
   FROM star_reasons AS s
-  JOIN reason_forms AS f ON f.run_id = s.run_id AND f.form_id = s.form_id;
+  JOIN reason_forms AS f ON f.run_id = s.run_id AND f.form_id = s.form_id
+UNION ALL
+SELECT v.computed_in_run, v.star_id, CAST(j.key AS INTEGER), f.rule_id,
+       f.outcome, f.severity, CAST(j.value ->> 1 AS REAL), f.threshold,
+       coalesce(j.value ->> 2, f.message)
+  FROM computed_verdicts AS v
+ CROSS JOIN json_each(v.reason_list) AS j
+ CROSS JOIN reason_forms AS f ON f.run_id = v.computed_in_run AND f.form_id = j.value ->> 0;
 
 CREATE TABLE input_values (
     run_id               INTEGER NOT NULL REFERENCES runs (id),
