@@ -61,6 +61,19 @@
 // star whose effective sample size falls below a fifth of its draws gets
 // ReasonPriorDominated. See prior.go for why and for the sources.
 //
+// Early stopping (Settings.StopBelowP > 0; off by default): the draws come
+// in blocks continuing the star's own streams, 64 and then doubling up to
+// Samples. After each block short of Samples the star is summarised as if
+// it ended there, and it stops (Result.Stopped, Result.Samples the draws
+// used) when the exact one-sided upper limit of Clopper & Pearson 1934
+// (Biometrika 26, 404) on its unbound share, at StopSigma's one-sided
+// Gaussian tail divided among the looks (Bonferroni), lies below
+// StopBelowP, unless its speed's 84th percentile exceeds TailEscFraction of
+// its median escape speed (such a star always gets every draw). With the
+// velocity prior the share is the weighted one and n is Kish's effective
+// sample size (sum w)^2 / sum w^2 (Kish 1965, Survey Sampling). A star that
+// does not stop gets exactly the result it gets without early stopping.
+//
 // Percentiles are exact order statistics (Hyndman & Fan 1996 definition
 // 7), found by one distribution pass into 256 value buckets instead of a
 // sort; speeds, r_gc, v_esc and v_tan are kept squared per draw and the
