@@ -32,10 +32,13 @@
 //   - catalog: the independent distance, normal in kpc truncated at d > 0,
 //     or, when a distance modulus is given (it is preferred), normal in mag
 //     with d = 10^(mu/5+1) pc. When the star also has a parallax, the
-//     catalog distance is the prior and the parallax the likelihood: draws
-//     are kept by rejection with probability L(d)/L_max, and the proper
-//     motions come from their normal conditional on 1/d, as for edsd. A
-//     parallax that excludes the catalog distance is a fatal reason.
+//     catalog distance is the prior and the parallax the likelihood: the
+//     posterior is tabulated per star as for edsd (512 points uniform in
+//     ln d where it is within exp(-36) of its peak) and sampled by inverse
+//     CDF, and the proper motions come from their normal conditional on
+//     1/d, as for edsd. A parallax that admits less than 1/200 of the
+//     catalog distance's probability is a fatal reason, less than 5% a
+//     note.
 //     Without a parallax the proper motions come from their own normal.
 //   - auto (default): inverse when (w - zp)/s >= MinParallaxSignificance, else
 //     catalog when usable, else edsd.

@@ -210,7 +210,7 @@ func (w *worker) evaluate(s *Star, set *Settings, p potential.Potential, r *Resu
 		// may stop, else undone. A catalog distance that the parallax
 		// barely admits goes on to the full draws, where its conflict is
 		// judged as without stopping.
-		if dr.kept == 0 || (dr.catPlx && float64(dr.kept) < catalogConflictShare*float64(dr.tries)) {
+		if dr.kept == 0 || (dr.catPlx && dr.accept < catalogConflictShare) {
 			continue
 		}
 		nReasons, rndV := len(r.Reasons), w.rndV
@@ -312,16 +312,20 @@ type drawing struct {
 	mean     [3]float64
 	wObs, sw float64 // parallax (zero point removed) and its error, mas
 	catPlx   bool    // a catalog distance weighed by the parallax
-	lnLMax   float64 // catPlx: log of the largest parallax likelihood
-	// pm is the edsd proper-motion stream: one draw without early stopping
-	// takes every distance and then the proper motions from the astrometry
+	accept   float64 // catPlx: the share of catalog distances the parallax admits
+	// tabled: the distances come from w.table by inverse CDF (edsd with a
+	// parallax error, catPlx with a catalog error), else they are
+	// pointKpc.
+	tabled   bool
+	pointKpc float64
+	// pm is the proper-motion stream of tabled draws: one block takes
+	// every distance and then the proper motions from the astrometry
 	// stream, so in blocks the proper motions come from a copy of it
 	// advanced past all Samples distances.
 	pm       stream
 	attempts int // draws attempted: the index of the next draw of the stream
 	kept     int
 	dropped  int // inverse: draws with a non-positive parallax
-	tries    int // catPlx: catalog draws tried
 }
 
 // prepareAstrometry sets up the draws of (distance, parallax, proper
@@ -350,6 +354,7 @@ func (w *worker) prepareAstrometry(s *Star, set *Settings, method string, catDis
 	switch method {
 	case MethodEDSD:
 		dr.beta, dr.cond = conditionalPM(&cov, &dr.joint)
+		dr.tabled, dr.pointKpc = dr.sw > 0, 1/dr.wObs
 		if dr.sw == 0 {
 			// A zero parallax error: the posterior is the point 1/w.
 			if dr.wObs <= 0 {
@@ -360,19 +365,60 @@ func (w *worker) prepareAstrometry(s *Star, set *Settings, method string, catDis
 			r.fail(ReasonDegenerateSample, "edsd posterior could not be tabulated for parallax %v +- %v mas", dr.wObs, dr.sw)
 			return dr, false
 		}
-		dr.pm = w.rnd
-		if dr.sw > 0 {
-			dr.pm.advance(uint64(set.Samples)) // one uniform per distance
-		}
 	case MethodCatalog:
-		if dr.catPlx = sw > 0; dr.catPlx {
-			dr.beta, dr.cond = conditionalPM(&cov, &dr.joint)
-			if dr.wObs <= 0 {
-				dr.lnLMax = -dr.wObs * dr.wObs / (2 * dr.sw * dr.sw)
-			}
+		if dr.catPlx = sw > 0; dr.catPlx && !w.prepareCatalogWithParallax(&dr, &cov, r) {
+			return dr, false
 		}
 	}
+	dr.pm = w.rnd
+	if dr.tabled {
+		dr.pm.advance(uint64(set.Samples)) // one uniform per distance
+	}
 	return dr, true
+}
+
+// prepareCatalogWithParallax sets up the draws of an independent (catalog)
+// distance that the star's own parallax also constrains. The catalog
+// distance is the prior and the parallax the likelihood:
+//
+//	p(d | w) ∝ p_cat(d) exp(-(w - 1/d)^2 / (2 s^2))
+//
+// (Bayes' theorem with a normal parallax likelihood, as in Bailer-Jones
+// 2015, PASP 127, 994, with the catalog distance in place of a
+// space-density prior), tabulated (edsdTable.buildCatalog) and drawn by
+// inverse CDF like the EDSD posterior. The proper motions then come from
+// their normal conditional on the true parallax 1/d, as for EDSD, so the
+// parallax-pm correlations are kept. A parallax of low significance leaves
+// the catalog distance almost unchanged; a discordant one pulls it, and
+// one that admits less than 1/maxCatalogTries of the catalog distance's
+// probability (the share a rejection sampler from the catalog distance
+// would keep) fails the star. False when it failed r.
+func (w *worker) prepareCatalogWithParallax(dr *drawing, cov *[3][3]float64, r *Result) bool {
+	dr.beta, dr.cond = conditionalPM(cov, &dr.joint)
+	wObs, sw := dr.wObs, dr.sw
+	lnLMax := 0.0 // L_max = 1: 1/d = w is reachable
+	if wObs <= 0 {
+		lnLMax = -wObs * wObs / (2 * sw * sw) // d -> infinity
+	}
+	lnAccept := math.Inf(-1)
+	if dr.cat.sigma > 0 {
+		var ok bool
+		lnAccept, ok = w.table.buildCatalog(dr.cat, wObs, sw, lnLMax)
+		dr.tabled = ok
+	} else {
+		dr.pointKpc = dr.cat.mean
+		if dr.cat.modulus {
+			dr.pointKpc = dr.cat.modKpc
+		}
+		z := (wObs - 1/dr.pointKpc) / sw
+		lnAccept = -z*z/2 - lnLMax
+	}
+	dr.accept = math.Exp(lnAccept)
+	if !(lnAccept >= -math.Log(maxCatalogTries)) {
+		r.fail(ReasonPlxConflict, "the parallax %.4g +- %.2g mas excludes the catalog distance (it admits a share %.2g of it)", wObs, sw, dr.accept)
+		return false
+	}
+	return true
 }
 
 // drawBlock makes the draws dr.attempts..end-1, appending the kept ones;
@@ -400,13 +446,12 @@ func (w *worker) drawBlock(dr *drawing, end int, set *Settings, r *Result) bool 
 			dr.kept++
 		}
 	case MethodEDSD:
-		w.drawEDSD(dr, lo, end)
+		w.drawTabled(dr, lo, end)
 		dr.kept = end
 	case MethodCatalog:
 		if dr.catPlx {
-			if !w.drawCatalogWithParallax(dr, lo, end, set.Samples, r) {
-				return false
-			}
+			w.drawTabled(dr, lo, end)
+			dr.kept = end
 			break
 		}
 		for i := lo; i < end; i++ {
@@ -433,8 +478,8 @@ func (w *worker) finishAstrometry(dr *drawing, r *Result) bool {
 			return false
 		}
 	case dr.catPlx:
-		if acc := float64(dr.kept) / float64(dr.tries); acc < catalogConflictShare {
-			r.note(ReasonPlxConflict, "the parallax %.4g +- %.2g mas and the catalog distance disagree: %.1f%% of catalog draws kept", dr.wObs, dr.sw, 100*acc)
+		if dr.accept < catalogConflictShare {
+			r.note(ReasonPlxConflict, "the parallax %.4g +- %.2g mas and the catalog distance disagree: it admits %.1f%% of the catalog distance", dr.wObs, dr.sw, 100*dr.accept)
 		}
 	}
 	return true
@@ -629,9 +674,10 @@ func (w *worker) summarise(set *Settings, d *starDraws, r *Result) {
 // signedSqrt undoes x -> x |x|.
 func signedSqrt(x float64) float64 { return math.Copysign(math.Sqrt(math.Abs(x)), x) }
 
-// drawEDSD fills dist, plx, pmRA and pmDec of draws lo..hi-1. The
-// distance r comes from the EDSD posterior; the proper motions from their
-// normal conditional on the true parallax 1/r:
+// drawTabled fills dist, plx, pmRA and pmDec of draws lo..hi-1. The
+// distance r comes from the tabulated posterior (EDSD, or a catalog
+// distance weighed by the parallax) or is the fixed pointKpc; the proper
+// motions from their normal conditional on the true parallax 1/r:
 //
 //	mu | w = mu_obs + S_mw / S_ww (1/r - w_obs),  cov S_mm - S_mw S_wm / S_ww
 //
@@ -640,13 +686,13 @@ func signedSqrt(x float64) float64 { return math.Copysign(math.Sqrt(math.Abs(x))
 // prior on the true proper motions this is the exact joint posterior of
 // (r, mu): the marginal of r is the EDSD posterior of the parallax alone, and
 // the parallax-pm correlations survive in the draws.
-func (w *worker) drawEDSD(dr *drawing, lo, hi int) {
+func (w *worker) drawTabled(dr *drawing, lo, hi int) {
 	// All distances of the block first, then the proper motions: the
 	// table lookups of a tight loop overlap in the processor, interleaved
 	// with the normal draws they wait on each other.
 	for i := lo; i < hi; i++ {
-		w.dist[i] = 1 / dr.wObs
-		if dr.sw > 0 {
+		w.dist[i] = dr.pointKpc
+		if dr.tabled {
 			w.dist[i] = w.table.quantile(w.rnd.float64())
 		}
 	}
@@ -690,63 +736,14 @@ func (w *worker) drawPM(rnd *stream, i int, d, wObs float64, mean [3]float64, be
 	w.pmDec[i] = mean[2] + beta[1]*(plx-wObs) + x[1]
 }
 
-// maxCatalogTries bounds the rejection draws per catalog distance: a star
-// fails once maxCatalogTries x Samples draws have been tried.
+// maxCatalogTries: a catalog distance of which the parallax admits less
+// than 1/maxCatalogTries fails the star (the rejection sampler this
+// replaced gave up after maxCatalogTries tries per draw).
 const maxCatalogTries = 200
 
-// catalogConflictShare: below this share of catalog draws kept the star
-// gets a ReasonPlxConflict note.
+// catalogConflictShare: below this share of the catalog distance admitted
+// by the parallax the star gets a ReasonPlxConflict note.
 const catalogConflictShare = 0.05
-
-// drawCatalogWithParallax fills the draws lo..hi-1 for an independent
-// (catalog) distance that the star's own parallax also constrains. The
-// catalog distance is the prior and the parallax the likelihood:
-//
-//	p(d | w) ∝ p_cat(d) exp(-(w - 1/d)^2 / (2 s^2))
-//
-// (Bayes' theorem with a normal parallax likelihood, as in Bailer-Jones
-// 2015, PASP 127, 994, with the catalog distance in place of a space-density
-// prior), sampled by rejection: a catalog draw is kept with probability
-// L(d)/L_max, where L_max = 1 if w > 0 (1/d = w is reachable) and
-// exp(-w^2/(2 s^2)) otherwise (d -> infinity). The proper motions then come
-// from their normal conditional on the true parallax 1/d, as for EDSD, so
-// the parallax-pm correlations are kept. A parallax of low significance
-// leaves the catalog distance almost unchanged; a discordant one pulls it.
-func (w *worker) drawCatalogWithParallax(dr *drawing, lo, hi, samples int, r *Result) bool {
-	wObs, sw := dr.wObs, dr.sw
-	for i := lo; i < hi; i++ {
-		for {
-			if dr.tries >= maxCatalogTries*samples {
-				r.fail(ReasonPlxConflict, "the parallax %.4g +- %.2g mas excludes the catalog distance (no draw kept in %d)", wObs, sw, dr.tries)
-				return false
-			}
-			dr.tries++
-			d := dr.cat.draw(&w.rnd)
-			z := (wObs - 1/d) / sw
-			if logBelow(w.rnd.float64(), -z*z/2-dr.lnLMax) {
-				w.drawPM(&w.rnd, i, d, wObs, dr.mean, dr.beta, &dr.cond)
-				break
-			}
-		}
-	}
-	dr.kept = hi
-	return true
-}
-
-// logBelow reports ln(u) < t for u in [0, 1). The bounds
-// 1 - 1/u <= ln(u) <= u - 1 (from ln(x) <= x - 1, e.g. Abramowitz & Stegun
-// 1964, 4.1.33, from memory) decide most cases without the logarithm; the margin keeps
-// the decision that of math.Log.
-func logBelow(u, t float64) bool {
-	const margin = 1e-12
-	switch {
-	case u-1 < t-margin:
-		return true
-	case 1-1/u > t+margin:
-		return false
-	}
-	return math.Log(u) < t
-}
 
 // conditionalPM returns the regression of the proper motions on the
 // parallax and a sampler of their conditional normal; joint is the sampler
