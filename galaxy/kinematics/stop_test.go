@@ -191,7 +191,7 @@ func TestEarlyStoppingAgrees(t *testing.T) {
 					t.Errorf("%s: status %s stopped, %s with every draw (p %v / %v)", g.ID, status(g), status(f), g.PUnbound, f.PUnbound)
 				}
 				checkStoppedShare(t, g, f, z)
-				checkStoppedPercentiles(t, g, f, z)
+				checkStoppedPercentiles(t, &stars[i], on, g, f, z)
 			}
 			t.Logf("%v", counts)
 			// The test must see stopped stars of each kind, and stars that
@@ -225,36 +225,52 @@ func checkStoppedShare(t *testing.T, g, f *Result, z float64) {
 	}
 }
 
-// checkStoppedPercentiles: each full-sample speed percentile lies between
-// the stopped draws' order statistics of ranks n q -+ z sqrt(n_eff q (1-q))
-// n/n_eff (the distribution-free confidence interval of a quantile, its
-// binomial rank count in the normal approximation, e.g. David & Nagaraja
-// 2003, Order Statistics, 3rd ed., sec. 7.1, from memory; n_eff for the
-// velocity prior's resample, whose rows repeat). The stopped draws are
-// all kept (KeepSamples = Samples): their speeds are |SampleVel|.
-func checkStoppedPercentiles(t *testing.T, g, f *Result, z float64) {
+// checkStoppedPercentiles: at each full-sample speed percentile x (level
+// q) the stopped draws' CDF, F = sum w_i 1{v_i <= x} / sum w_i, lies within
+// z standard errors sqrt(q (1-q) / n_eff) of q, n_eff = (sum w)^2 / sum w^2
+// (Kish 1965, Survey Sampling, as the stopping bound uses it; w_i the
+// velocity prior's weights, 1 without it). With equal weights this is the
+// distribution-free interval of a quantile between the order statistics of
+// ranks n q -+ z sqrt(n q (1-q)) (the binomial count of draws below it,
+// e.g. David & Nagaraja 2003, Order Statistics, 3rd ed., sec. 7.1, from
+// memory). The stopped star's draws are those of the same star with the
+// flat prior and Samples set to its last block end (blocks continue the
+// same streams).
+func checkStoppedPercentiles(t *testing.T, s *Star, set Settings, g, f *Result, z float64) {
 	t.Helper()
-	if len(g.SampleVel) != g.Samples {
-		t.Fatalf("%s: %d kept velocities of %d draws", g.ID, len(g.SampleVel), g.Samples)
+	raw := set
+	raw.StopBelowP, raw.VelocityPriorKms = 0, 0
+	var r Result
+	for m := stopFirstBlock; r.Samples != g.Samples; m *= 2 {
+		if m > set.Samples {
+			t.Fatalf("%s: no block end gives its %d draws", g.ID, g.Samples)
+		}
+		raw.Samples, raw.KeepSamples = m, m
+		r = eval(*s, raw)
 	}
-	v := make([]float64, len(g.SampleVel))
-	for i, x := range g.SampleVel {
+	v, w := make([]float64, len(r.SampleVel)), make([]float64, len(r.SampleVel))
+	for i, x := range r.SampleVel {
 		v[i] = vec.Norm(x)
+		w[i] = 1
+		if g.HasRV && set.VelocityPriorKms > 0 {
+			w[i] = math.Exp(-v[i] * v[i] / (2 * set.VelocityPriorKms * set.VelocityPriorKms))
+		}
 	}
-	slices.Sort(v)
-	n, neff := float64(len(v)), g.EffectiveSamples
-	want, have := f.SpeedLowerKms, g.SpeedLowerKms
+	want := f.SpeedLowerKms
 	if g.HasRV {
-		want, have = f.SpeedKms, g.SpeedKms
+		want = f.SpeedKms
 	}
-	for i, q := range percentileLevels {
-		half := z * math.Sqrt(neff*q*(1-q)) * n / neff
-		lo := max(0, int(math.Floor(n*q-half)))
-		hi := min(len(v)-1, int(math.Ceil(n*q+half)))
-		// 1e-9 relative: the stopped result's own percentile comes from
-		// squared speeds, these from the kept vectors.
-		if w := want[i]; w < v[lo]*(1-1e-9) || w > v[hi]*(1+1e-9) {
-			t.Errorf("%s: full p%.0f %v outside [%v, %v] of %d stopped draws (stopped %v)", g.ID, 100*q, w, v[lo], v[hi], len(v), have[i])
+	for k, q := range percentileLevels {
+		var sw, sw2, below float64
+		for i := range v {
+			sw += w[i]
+			sw2 += w[i] * w[i]
+			if v[i] <= want[k] {
+				below += w[i]
+			}
+		}
+		if cdf, se := below/sw, math.Sqrt(q*(1-q)*sw2)/sw; math.Abs(cdf-q) > z*se {
+			t.Errorf("%s: full p%.0f %v sits at %.3f of the %d stopped draws (se %.3f)", g.ID, 100*q, want[k], cdf, len(v), se)
 		}
 	}
 }
