@@ -93,22 +93,27 @@ func cpuTime() time.Duration {
 	return time.Duration(ru.Utime.Nano() + ru.Stime.Nano())
 }
 
-// BenchmarkKinematics100k: 100 000 stars x 1000 draws with a bulge + disk +
-// halo potential, all cores. Target: at most 10 s per op on 2 cores.
 // BenchmarkKinematics100k: 100,000 stars x 1,000 draws on every core, in
 // the default potential (potential.DefaultModel), with the campaign's
 // default velocity prior (150 km/s, vetting/campaign) and with the flat
-// prior.
+// prior: fixed draws (no early stopping), so that they measure the cost of
+// a draw. adaptive/...: the same with early stopping as the pipeline calls
+// it (below 0.5 at 5 sigma, tail at half of v_esc); "draws/star" is the
+// mean number of draws used.
 func BenchmarkKinematics100k(b *testing.B) {
 	stars := benchStars(100000)
-	for _, prior := range []struct {
-		name string
-		kms  float64
-	}{{"prior=150", 150}, {"flat", 0}} {
-		b.Run(prior.name, func(b *testing.B) {
+	for _, c := range []struct {
+		name     string
+		priorKms float64
+		stop     bool
+	}{{"prior=150", 150, false}, {"flat", 0, false}, {"adaptive/prior=150", 150, true}, {"adaptive/flat", 0, true}} {
+		b.Run(c.name, func(b *testing.B) {
 			set := DefaultSettings(frames.DefaultSun())
 			set.Seed, set.Samples, set.KeepSamples = 1, 1000, 0
-			set.VelocityPriorKms = prior.kms
+			set.VelocityPriorKms = c.priorKms
+			if c.stop {
+				set.StopBelowP, set.StopSigma, set.TailEscFraction = 0.5, 5, 0.5
+			}
 			// The production default potential, as a run uses it.
 			p, err := potential.Builtin(potential.DefaultModel)
 			if err != nil {
@@ -125,16 +130,27 @@ func BenchmarkKinematics100k(b *testing.B) {
 			}
 			b.ReportMetric((cpuTime()-cpu0).Seconds()/float64(b.N), "cpu-s/op")
 			counts := map[string]int{}
+			draws, ok := 0, 0
 			for i := range res {
 				counts[res[i].Method]++
 				if !res[i].OK {
 					counts["failed"]++
+					continue
+				}
+				ok++
+				draws += res[i].Samples
+				if res[i].Stopped {
+					counts["stopped"]++
 				}
 			}
 			b.ReportMetric(float64(counts[MethodInverse]), "inverse")
 			b.ReportMetric(float64(counts[MethodEDSD]), "edsd")
 			b.ReportMetric(float64(counts[MethodCatalog]), "catalog")
 			b.ReportMetric(float64(counts["failed"]), "failed")
+			if c.stop {
+				b.ReportMetric(float64(draws)/float64(max(1, ok)), "draws/star")
+				b.ReportMetric(float64(counts["stopped"]), "stopped")
+			}
 		})
 	}
 }

@@ -105,3 +105,107 @@ func chooseDistance(s *Star, set *Settings, r *Result) (string, catalogDistance)
 	}
 	return method, cat
 }
+
+// catalogPosteriorScan is the size of the coarse scan that finds where the
+// catalog-distance posterior lives before it is tabulated.
+const catalogPosteriorScan = 256
+
+// logPrior returns ln p_cat(d) for d in kpc as a function of ln d and d,
+// normalised over d > 0: log-normal for a modulus (the density of
+// d = d(mu) exp(z sigma ln10/5) has the Jacobian 1/d), else the normal
+// truncated at 0 (divided by Phi(mean/sigma)). Needs sigma > 0. The
+// constants are worked out once per star.
+func (c catalogDistance) logPrior() func(lnD, d float64) float64 {
+	if c.modulus {
+		lnMode, inv := math.Log(c.modKpc), 1/c.lnSpread
+		norm := math.Log(c.lnSpread * math.Sqrt(2*math.Pi))
+		return func(lnD, _ float64) float64 {
+			x := (lnD - lnMode) * inv
+			return -x*x/2 - lnD - norm
+		}
+	}
+	inv := 1 / c.sigma
+	norm := math.Log(c.sigma * math.Sqrt(2*math.Pi) * 0.5 * math.Erfc(-c.mean/(c.sigma*math.Sqrt2)))
+	return func(_, d float64) float64 {
+		x := (d - c.mean) * inv
+		return -x*x/2 - norm
+	}
+}
+
+// priorRange is where the catalog distance has all but a negligible part
+// of its probability (10 sigma each side; d > 0), in kpc.
+func (c catalogDistance) priorRange() (lo, hi float64) {
+	if c.modulus {
+		return c.modKpc * math.Exp(-10*c.lnSpread), c.modKpc * math.Exp(10*c.lnSpread)
+	}
+	return c.mean - 10*c.sigma, c.mean + 10*c.sigma
+}
+
+// buildCatalog tabulates the posterior of a catalog distance (prior) given
+// the parallax wMas +- sMas (likelihood; s > 0), for inverse-CDF draws:
+//
+//	p(d | w) ∝ p_cat(d) L(d),  L(d) = exp(-(w - 1/d)^2 / (2 s^2)) / L_max
+//
+// (Bayes' theorem, as drawCatalogWithParallax's doc says; L_max the
+// largest L over d > 0, 1 when w > 0). A coarse scan uniform in ln d over
+// the prior's range finds the highest point; the table (edsdGridPoints,
+// uniform in ln d, as for the EDSD posterior) spans the scan cells whose
+// log density is within edsdLogDrop of it, one cell more each side. It
+// returns ln of the acceptance, the integral of p_cat L, which a
+// rejection sampler from the prior would keep; ok is false when the table
+// holds no mass.
+func (t *edsdTable) buildCatalog(c catalogDistance, wMas, sMas, lnLMax float64) (lnAccept float64, ok bool) {
+	lo, hi := c.priorRange()
+	// Below 1/(max(w, 0) + 40 s) the likelihood is below exp(-800).
+	lo = max(lo, 1/(max(wMas, 0)+40*sMas))
+	if !(hi > lo) {
+		return math.Inf(-1), false
+	}
+	inv2s2 := 1 / (2 * sMas * sMas)
+	prior := c.logPrior()
+	logPost := func(lnD, d float64) float64 {
+		z := wMas - 1/d
+		return prior(lnD, d) - z*z*inv2s2 - lnLMax
+	}
+	lnLo, lnHi := math.Log(lo), math.Log(hi)
+	step := (lnHi - lnLo) / (catalogPosteriorScan - 1)
+	var scan [catalogPosteriorScan]float64
+	top := math.Inf(-1)
+	for i := range scan {
+		x := lnLo + float64(i)*step
+		scan[i] = logPost(x, math.Exp(x))
+		top = max(top, scan[i])
+	}
+	if math.IsInf(top, -1) || math.IsNaN(top) {
+		return math.Inf(-1), false
+	}
+	first, last := 0, catalogPosteriorScan-1
+	for scan[first] < top-edsdLogDrop {
+		first++
+	}
+	for scan[last] < top-edsdLogDrop {
+		last--
+	}
+	a := lnLo + float64(max(first-1, 0))*step
+	b := lnLo + float64(min(last+1, catalogPosteriorScan-1))*step
+	n := edsdGridPoints
+	t.r, t.f, t.cdf = resize(t.r, n), resize(t.f, n), resize(t.cdf, n)
+	dln := (b - a) / float64(n-1)
+	peak := math.Inf(-1)
+	for i := range n {
+		x := a + float64(i)*dln
+		d := math.Exp(x)
+		t.r[i], t.f[i] = d, logPost(x, d)
+		peak = max(peak, t.f[i])
+	}
+	for i := range n {
+		t.f[i] = math.Exp(t.f[i] - peak)
+	}
+	t.cdf[0] = 0
+	for i := 1; i < n; i++ {
+		t.cdf[i] = t.cdf[i-1] + 0.5*(t.f[i]+t.f[i-1])*(t.r[i]-t.r[i-1])
+	}
+	t.buildGuide()
+	total := t.cdf[n-1]
+	return peak + math.Log(total), total > 0
+}

@@ -32,10 +32,13 @@
 //   - catalog: the independent distance, normal in kpc truncated at d > 0,
 //     or, when a distance modulus is given (it is preferred), normal in mag
 //     with d = 10^(mu/5+1) pc. When the star also has a parallax, the
-//     catalog distance is the prior and the parallax the likelihood: draws
-//     are kept by rejection with probability L(d)/L_max, and the proper
-//     motions come from their normal conditional on 1/d, as for edsd. A
-//     parallax that excludes the catalog distance is a fatal reason.
+//     catalog distance is the prior and the parallax the likelihood: the
+//     posterior is tabulated per star as for edsd (512 points uniform in
+//     ln d where it is within exp(-36) of its peak) and sampled by inverse
+//     CDF, and the proper motions come from their normal conditional on
+//     1/d, as for edsd. A parallax that admits less than 1/200 of the
+//     catalog distance's probability is a fatal reason, less than 5% a
+//     note.
 //     Without a parallax the proper motions come from their own normal.
 //   - auto (default): inverse when (w - zp)/s >= MinParallaxSignificance, else
 //     catalog when usable, else edsd.
@@ -60,6 +63,19 @@
 // the unweighted one, and the traced draws are spread over the resample. A
 // star whose effective sample size falls below a fifth of its draws gets
 // ReasonPriorDominated. See prior.go for why and for the sources.
+//
+// Early stopping (Settings.StopBelowP > 0; off by default): the draws come
+// in blocks continuing the star's own streams, 64 and then doubling up to
+// Samples. After each block short of Samples the star is summarised as if
+// it ended there, and it stops (Result.Stopped, Result.Samples the draws
+// used) when the exact one-sided upper limit of Clopper & Pearson 1934
+// (Biometrika 26, 404) on its unbound share, at StopSigma's one-sided
+// Gaussian tail divided among the looks (Bonferroni), lies below
+// StopBelowP, unless its speed's 84th percentile exceeds TailEscFraction of
+// its median escape speed (such a star always gets every draw). With the
+// velocity prior the share is the weighted one and n is Kish's effective
+// sample size (sum w)^2 / sum w^2 (Kish 1965, Survey Sampling). A star that
+// does not stop gets exactly the result it gets without early stopping.
 //
 // Percentiles are exact order statistics (Hyndman & Fan 1996 definition
 // 7), found by one distribution pass into 256 value buckets instead of a

@@ -17,6 +17,7 @@ type worker struct {
 	// Draws: distance (kpc), parallax implied or drawn (mas, zero point
 	// removed), proper motions (mas/yr), rv (km/s).
 	dist, plx, pmRA, pmDec, rv []float64
+	distSave                   []float64 // the distances across a look (summarise reorders them)
 	// Per-draw kinematics, stored as squares so that no draw needs a
 	// square root (the quantiler undoes the map on the order statistics):
 	// speed^2, r_gc^2, v_esc^2 and v_tan^2, and v_r |v_r| for the radial
@@ -33,6 +34,30 @@ type worker struct {
 	esc         losEscape
 	quant       quantiler
 	exactEscape bool // never tabulate the escape speed (for tests)
+	// tailSpeedKms: the upper confidence bound on the 84th percentile of
+	// the speed at a look (tailSpeed).
+	tailSpeedKms float64
+}
+
+// tailSpeed is the distribution-free upper confidence bound, at sigma, on
+// the 84th percentile of the speed of the draws so far, before any
+// velocity-prior weighting (which only lowers speeds): the order statistic
+// of rank n q + sigma sqrt(n q (1-q)), q = 0.84, capped at the largest
+// (the count of draws below a quantile is binomial; e.g. David & Nagaraja
+// 2003, Order Statistics, 3rd ed., sec. 7.1, from memory). A bound rather
+// than the estimate: stopping on the estimate would favour stars whose
+// first draws happen to be slow, and bias their percentiles low.
+func (w *worker) tailSpeed(sigma float64, d *starDraws) float64 {
+	n := d.kept
+	q := percentileLevels[2]
+	k := min(n-1, int(math.Ceil(float64(n)*q+sigma*math.Sqrt(float64(n)*q*(1-q)))))
+	tmp := w.tmp[:n]
+	copy(tmp, w.speed2[:n])
+	var v [1]float64
+	if !w.quant.orderStatsIn(tmp, d.speed2Span[0], d.speed2Span[1], []int{k}, v[:]) {
+		return math.NaN()
+	}
+	return math.Sqrt(v[0])
 }
 
 // The escape-speed table along the line of sight (losEscape) is used when a
@@ -44,7 +69,7 @@ const (
 )
 
 func (w *worker) init(n int) {
-	for _, b := range []*[]float64{&w.dist, &w.plx, &w.pmRA, &w.pmDec, &w.rv, &w.speed2, &w.rgc2, &w.vrad2, &w.vtan2, &w.vesc2, &w.wt, &w.tmp} {
+	for _, b := range []*[]float64{&w.dist, &w.plx, &w.pmRA, &w.pmDec, &w.rv, &w.speed2, &w.rgc2, &w.vrad2, &w.vtan2, &w.vesc2, &w.wt, &w.tmp, &w.distSave} {
 		*b = resize(*b, n)
 	}
 	w.z = resize(w.z, 3*n)
@@ -162,7 +187,8 @@ func escapeSpeed2(p potential.Potential, x [3]float64, rKpc, escRadiusKpc float6
 
 // evaluate fills r for one star, step by step; a step that fails the star
 // (r.OK false) ends it. The draws live in the worker's scratch space, so a
-// star allocates nothing for them.
+// star allocates nothing for them. The draws come in blocks (stop.go):
+// one block of Settings.Samples without early stopping.
 func (w *worker) evaluate(s *Star, set *Settings, p potential.Potential, r *Result) {
 	r.reset(s.ID)
 	r.OK = true
@@ -178,20 +204,82 @@ func (w *worker) evaluate(s *Star, set *Settings, p potential.Potential, r *Resu
 	w.init(set.Samples)
 	w.rnd.seed(starSeed(set.Seed, s.ID, streamAstrometry))
 	w.rndV.seed(starSeed(set.Seed, s.ID, streamRV))
-	kept, ok := w.drawAstrometry(s, set, method, catDist, corr, r)
+	dr, ok := w.prepareAstrometry(s, set, method, catDist, corr, r)
 	if !ok {
 		return
 	}
+	hasRV := vec.Finite(s.RVKms) && vec.Finite(s.RVErrKms)
+	stopping := set.StopBelowP > 0
+	alpha := 0.0
+	if stopping {
+		alpha = stopAlpha(set.StopSigma, set.Samples)
+	}
+	for {
+		end := set.Samples
+		if stopping {
+			end = nextBlockEnd(dr.attempts, set.Samples)
+		}
+		k0 := dr.kept
+		if !w.drawBlock(&dr, end, set, r) {
+			return
+		}
+		w.drawRVBlock(s, hasRV, k0, dr.kept)
+		if end == set.Samples {
+			if w.finish(s, set, p, &dr, hasRV, r) && stopping {
+				r.PUnboundUpper = upperBound(r, alpha)
+			}
+			return
+		}
+		// A look: the star summarised as if it ended here, kept if it
+		// may stop, else undone. A catalog distance that the parallax
+		// barely admits goes on to the full draws, where its conflict is
+		// judged as without stopping.
+		if dr.kept == 0 || (dr.catPlx && dr.accept < catalogConflictShare) {
+			continue
+		}
+		nReasons, rndV := len(r.Reasons), w.rndV
+		copy(w.distSave[:dr.kept], w.dist[:dr.kept])
+		w.finish(s, set, p, &dr, hasRV, r)
+		if w.tailSpeedKms > set.TailEscFraction*r.VEscKms[1] || !(r.VEscKms[1] > 0) {
+			stopping = false // never stops: straight on to Samples
+		} else if u := upperBound(r, alpha); u < set.StopBelowP {
+			r.PUnboundUpper, r.Stopped = u, true
+			return
+		}
+		r.Reasons, w.rndV = r.Reasons[:nReasons], rndV
+		copy(w.dist[:dr.kept], w.distSave[:dr.kept])
+	}
+}
+
+// finish summarises the draws made so far into r; false when it failed r
+// (no draw kept).
+func (w *worker) finish(s *Star, set *Settings, p potential.Potential, dr *drawing, hasRV bool, r *Result) bool {
+	if !w.finishAstrometry(dr, r) {
+		return false
+	}
+	kept := dr.kept
 	r.Samples = kept
-	rvNomKms := w.drawRV(s, kept, r)
+	r.HasRV = hasRV
+	rvNomKms := 0.0
+	if hasRV {
+		rvNomKms = s.RVKms
+	} else if vec.Finite(s.RVKms) {
+		r.note(ReasonNoRV, "radial-velocity uncertainty missing: speeds are lower bounds over all radial velocities")
+	} else {
+		r.note(ReasonNoRV, "no radial velocity: speeds are lower bounds over all radial velocities")
+	}
 	d := starDraws{los: newLineOfSight(set.Sun, s.RADeg, s.DecDeg), kept: kept, keep: min(set.KeepSamples, kept)}
 	if !r.HasRV {
 		d.los = d.los.minSpeed()
 	}
 	w.escapeRange(p, set, &d)
 	w.speeds(p, set, &d, r)
+	if set.StopBelowP > 0 {
+		w.tailSpeedKms = w.tailSpeed(set.StopSigma, &d)
+	}
 	w.summarise(set, &d, r)
 	r.PosKpc, r.VelKms = d.los.at(r.DistKpc[1], s.PMRAMasYr, s.PMDecMasYr, rvNomKms)
+	return true
 }
 
 // validateInputs fails r unless the star has a position, proper motions
@@ -240,11 +328,37 @@ func validateInputs(s *Star, set *Settings, r *Result) (corr [3]float64, ok bool
 	return corr, true
 }
 
-// drawAstrometry fills the distance, parallax and proper-motion draws
-// from the astrometry stream by method and returns how many it kept (the
-// inverse method drops non-positive parallaxes); false when it failed r.
-func (w *worker) drawAstrometry(s *Star, set *Settings, method string, catDist catalogDistance, corr [3]float64, r *Result) (kept int, ok bool) {
-	n := set.Samples
+// drawing is a star's drawing state across blocks: what prepareAstrometry
+// set up once, and how far the draws have gone.
+type drawing struct {
+	method   string
+	cat      catalogDistance
+	joint    gauss      // (parallax, pm_ra, pm_dec)
+	cond     gauss      // the proper motions given the parallax (edsd, catPlx)
+	beta     [2]float64 // their regression on the parallax
+	mean     [3]float64
+	wObs, sw float64 // parallax (zero point removed) and its error, mas
+	catPlx   bool    // a catalog distance weighed by the parallax
+	accept   float64 // catPlx: the share of catalog distances the parallax admits
+	// tabled: the distances come from w.table by inverse CDF (edsd with a
+	// parallax error, catPlx with a catalog error), else they are
+	// pointKpc.
+	tabled   bool
+	pointKpc float64
+	// pm is the proper-motion stream of tabled draws: one block takes
+	// every distance and then the proper motions from the astrometry
+	// stream, so in blocks the proper motions come from a copy of it
+	// advanced past all Samples distances.
+	pm       stream
+	attempts int // draws attempted: the index of the next draw of the stream
+	kept     int
+	dropped  int // inverse: draws with a non-positive parallax
+}
+
+// prepareAstrometry sets up the draws of (distance, parallax, proper
+// motions) by method; false when it failed r.
+func (w *worker) prepareAstrometry(s *Star, set *Settings, method string, catDist catalogDistance, corr [3]float64, r *Result) (dr drawing, ok bool) {
+	dr.method, dr.cat = method, catDist
 	// Covariance of (parallax, pm_ra, pm_dec); the parallax row is only
 	// used by the parallax methods.
 	sw, sa, sd := s.ParallaxErrMas, s.PMRAErrMasYr, s.PMDecErrMasYr
@@ -257,61 +371,157 @@ func (w *worker) drawAstrometry(s *Star, set *Settings, method string, catDist c
 		{corr[1] * sw * sd, corr[2] * sa * sd, sd * sd},
 	}
 	wCorr := s.ParallaxMas - set.ParallaxZeroPointMas
-	mean := [3]float64{wCorr, s.PMRAMasYr, s.PMDecMasYr}
-	joint, ok := newGauss(3, mean, &cov)
+	dr.mean = [3]float64{wCorr, s.PMRAMasYr, s.PMDecMasYr}
+	dr.joint, ok = newGauss(3, dr.mean, &cov)
 	if !ok {
 		r.fail(ReasonCovariance, "covariance of parallax and proper motions not positive definite")
-		return 0, false
+		return dr, false
 	}
+	dr.wObs, dr.sw = dr.mean[0], math.Sqrt(cov[0][0])
 	switch method {
-	case MethodInverse:
-		dropped := 0
-		if joint.nAct == 3 {
-			kept, dropped = w.drawInverse3(&joint, n)
-		} else {
-			for range n {
-				var x [3]float64
-				joint.draw(&w.rnd, &x)
-				if x[0] <= 0 {
-					dropped++
-					continue
-				}
-				w.dist[kept], w.plx[kept], w.pmRA[kept], w.pmDec[kept] = 1/x[0], x[0], x[1], x[2]
-				kept++
-			}
-		}
-		if dropped > 0 {
-			r.note(ReasonPlxDrawsDropped, "%d of %d parallax draws non-positive, dropped", dropped, n)
-		}
-		if kept == 0 {
-			r.fail(ReasonNonPositivePlx, "every parallax draw non-positive with inverse distance")
-			return 0, false
-		}
-		return kept, true
 	case MethodEDSD:
-		return n, w.drawEDSD(s, set, &cov, &joint, mean, r)
+		dr.beta, dr.cond = conditionalPM(&cov, &dr.joint)
+		dr.tabled, dr.pointKpc = dr.sw > 0, 1/dr.wObs
+		if dr.sw == 0 {
+			// A zero parallax error: the posterior is the point 1/w.
+			if dr.wObs <= 0 {
+				r.fail(ReasonNonPositivePlx, "non-positive parallax with zero uncertainty")
+				return dr, false
+			}
+		} else if !w.table.build(dr.wObs, dr.sw, set.EDSDLengthKpc) {
+			r.fail(ReasonDegenerateSample, "edsd posterior could not be tabulated for parallax %v +- %v mas", dr.wObs, dr.sw)
+			return dr, false
+		}
 	case MethodCatalog:
-		if sw > 0 {
-			return n, w.drawCatalogWithParallax(set, &cov, &joint, mean, catDist, r)
+		if dr.catPlx = sw > 0; dr.catPlx && !w.prepareCatalogWithParallax(&dr, &cov, r) {
+			return dr, false
 		}
-		for i := range n {
-			var x [3]float64
-			joint.draw(&w.rnd, &x)
-			w.dist[i], w.plx[i], w.pmRA[i], w.pmDec[i] = catDist.draw(&w.rnd), math.NaN(), x[1], x[2]
-		}
-		return n, true
 	}
-	return 0, true // Settings.Validate admits no other method
+	dr.pm = w.rnd
+	if dr.tabled {
+		dr.pm.advance(uint64(set.Samples)) // one uniform per distance
+	}
+	return dr, true
 }
 
-// drawInverse3 is the inverse-distance loop of drawAstrometry for a joint
-// normal with all three components active: the 3n normals that n calls of
-// joint.draw take are drawn first, then mapped with the same arithmetic.
-func (w *worker) drawInverse3(joint *gauss, n int) (kept, dropped int) {
+// prepareCatalogWithParallax sets up the draws of an independent (catalog)
+// distance that the star's own parallax also constrains. The catalog
+// distance is the prior and the parallax the likelihood:
+//
+//	p(d | w) ∝ p_cat(d) exp(-(w - 1/d)^2 / (2 s^2))
+//
+// (Bayes' theorem with a normal parallax likelihood, as in Bailer-Jones
+// 2015, PASP 127, 994, with the catalog distance in place of a
+// space-density prior), tabulated (edsdTable.buildCatalog) and drawn by
+// inverse CDF like the EDSD posterior. The proper motions then come from
+// their normal conditional on the true parallax 1/d, as for EDSD, so the
+// parallax-pm correlations are kept. A parallax of low significance leaves
+// the catalog distance almost unchanged; a discordant one pulls it, and
+// one that admits less than 1/maxCatalogTries of the catalog distance's
+// probability (the share a rejection sampler from the catalog distance
+// would keep) fails the star. False when it failed r.
+func (w *worker) prepareCatalogWithParallax(dr *drawing, cov *[3][3]float64, r *Result) bool {
+	dr.beta, dr.cond = conditionalPM(cov, &dr.joint)
+	wObs, sw := dr.wObs, dr.sw
+	lnLMax := 0.0 // L_max = 1: 1/d = w is reachable
+	if wObs <= 0 {
+		lnLMax = -wObs * wObs / (2 * sw * sw) // d -> infinity
+	}
+	lnAccept := math.Inf(-1)
+	if dr.cat.sigma > 0 {
+		var ok bool
+		lnAccept, ok = w.table.buildCatalog(dr.cat, wObs, sw, lnLMax)
+		dr.tabled = ok
+	} else {
+		dr.pointKpc = dr.cat.mean
+		if dr.cat.modulus {
+			dr.pointKpc = dr.cat.modKpc
+		}
+		z := (wObs - 1/dr.pointKpc) / sw
+		lnAccept = -z*z/2 - lnLMax
+	}
+	dr.accept = math.Exp(lnAccept)
+	if !(lnAccept >= -math.Log(maxCatalogTries)) {
+		r.fail(ReasonPlxConflict, "the parallax %.4g +- %.2g mas excludes the catalog distance (it admits a share %.2g of it)", wObs, sw, dr.accept)
+		return false
+	}
+	return true
+}
+
+// drawBlock makes the draws dr.attempts..end-1, appending the kept ones;
+// false when it failed r.
+func (w *worker) drawBlock(dr *drawing, end int, set *Settings, r *Result) bool {
+	n := end - dr.attempts
+	lo := dr.kept
+	switch dr.method {
+	case MethodInverse:
+		if dr.joint.nAct == 3 {
+			var dropped int
+			dr.kept, dropped = w.drawInverse3(&dr.joint, lo, n)
+			dr.dropped += dropped
+			break
+		}
+		for range n {
+			var x [3]float64
+			dr.joint.draw(&w.rnd, &x)
+			if x[0] <= 0 {
+				dr.dropped++
+				continue
+			}
+			k := dr.kept
+			w.dist[k], w.plx[k], w.pmRA[k], w.pmDec[k] = 1/x[0], x[0], x[1], x[2]
+			dr.kept++
+		}
+	case MethodEDSD:
+		w.drawTabled(dr, lo, end)
+		dr.kept = end
+	case MethodCatalog:
+		if dr.catPlx {
+			w.drawTabled(dr, lo, end)
+			dr.kept = end
+			break
+		}
+		for i := lo; i < end; i++ {
+			var x [3]float64
+			dr.joint.draw(&w.rnd, &x)
+			w.dist[i], w.plx[i], w.pmRA[i], w.pmDec[i] = dr.cat.draw(&w.rnd), math.NaN(), x[1], x[2]
+		}
+		dr.kept = end
+	}
+	dr.attempts = end
+	return true
+}
+
+// finishAstrometry notes what the draws so far dropped or found; false
+// when no draw was kept (the star fails).
+func (w *worker) finishAstrometry(dr *drawing, r *Result) bool {
+	switch {
+	case dr.method == MethodInverse:
+		if dr.dropped > 0 {
+			r.note(ReasonPlxDrawsDropped, "%d of %d parallax draws non-positive, dropped", dr.dropped, dr.attempts)
+		}
+		if dr.kept == 0 {
+			r.fail(ReasonNonPositivePlx, "every parallax draw non-positive with inverse distance")
+			return false
+		}
+	case dr.catPlx:
+		if dr.accept < catalogConflictShare {
+			r.note(ReasonPlxConflict, "the parallax %.4g +- %.2g mas and the catalog distance disagree: it admits %.1f%% of the catalog distance", dr.wObs, dr.sw, 100*dr.accept)
+		}
+	}
+	return true
+}
+
+// drawInverse3 is the inverse-distance loop of drawBlock for a joint normal
+// with all three components active: the 3n normals that n calls of
+// joint.draw take are drawn first, then mapped with the same arithmetic;
+// the kept draws go from index kept on.
+func (w *worker) drawInverse3(joint *gauss, kept, n int) (keptAfter, dropped int) {
 	z := w.z[:3*n]
 	w.rnd.normals(z)
-	dist, plx, pmRA, pmDec := w.dist[:n], w.plx[:n], w.pmRA[:n], w.pmDec[:n]
+	dist, plx, pmRA, pmDec := w.dist[kept:kept+n], w.plx[kept:kept+n], w.pmRA[kept:kept+n], w.pmDec[kept:kept+n]
 	l, m := &joint.lower, joint.mean
+	j := 0
 	for i := range n {
 		zi := z[3*i : 3*i+3 : 3*i+3]
 		z0, z1, z2 := zi[0], zi[1], zi[2]
@@ -322,36 +532,25 @@ func (w *worker) drawInverse3(joint *gauss, n int) (kept, dropped int) {
 		}
 		x1 := m[1] + (l[1][0]*z0 + l[1][1]*z1)
 		x2 := m[2] + (l[2][0]*z0 + l[2][1]*z1 + l[2][2]*z2)
-		dist[kept], plx[kept], pmRA[kept], pmDec[kept] = 1/x0, x0, x1, x2
-		kept++
+		dist[j], plx[j], pmRA[j], pmDec[j] = 1/x0, x0, x1, x2
+		j++
 	}
-	return kept, dropped
+	return kept + j, dropped
 }
 
-// drawRV fills the kept radial-velocity draws from their own stream (0
-// without a usable radial velocity, noted in r) and returns the nominal
-// radial velocity the star's position and velocity are given at.
-func (w *worker) drawRV(s *Star, kept int, r *Result) (rvNomKms float64) {
-	rvKms, rvErr := s.RVKms, s.RVErrKms
-	r.HasRV = vec.Finite(rvKms) && vec.Finite(rvErr)
-	if !r.HasRV {
-		switch {
-		case vec.Finite(rvKms):
-			r.note(ReasonNoRV, "radial-velocity uncertainty missing: speeds are lower bounds over all radial velocities")
-		default:
-			r.note(ReasonNoRV, "no radial velocity: speeds are lower bounds over all radial velocities")
-		}
-	}
-	rv := w.rv[:kept]
-	if !r.HasRV {
+// drawRVBlock fills the radial-velocity draws lo..hi-1 from their own
+// stream (0 without a usable radial velocity).
+func (w *worker) drawRVBlock(s *Star, hasRV bool, lo, hi int) {
+	rv := w.rv[lo:hi]
+	if !hasRV {
 		clear(rv)
-		return 0
+		return
 	}
 	w.rndV.normals(rv)
+	rvKms, rvErr := s.RVKms, s.RVErrKms
 	for i, z := range rv {
 		rv[i] = rvKms + rvErr*z
 	}
-	return rvKms
 }
 
 // starDraws is what the steps of evaluate hand on about one star's draws.
@@ -459,13 +658,14 @@ func (w *worker) speeds(p potential.Potential, set *Settings, d *starDraws, r *R
 func (w *worker) summarise(set *Settings, d *starDraws, r *Result) {
 	kept := d.kept
 	pUnbound := float64(d.unbound) / float64(kept)
+	r.EffectiveSamples = float64(kept)
 	rgcMonotone, rgcInc := d.los.r2Monotone(d.dMinKpc, d.dMaxKpc)
 	// The spans found so far hold until the prior resamples the draws.
 	distSpan := [2]float64{d.dMinKpc, d.dMaxKpc}
 	speed2Span, vrad2Span, vtan2Span := d.speed2Span, d.vrad2Span, d.vtan2Span
 	if r.HasRV && set.VelocityPriorKms > 0 {
 		r.PUnboundFlat = pUnbound
-		pUnbound = w.applyPrior(set.VelocityPriorKms, kept, d.keep, d.speed2Span[0], !rgcMonotone, !d.escMonotone, &d.los, r)
+		pUnbound, r.EffectiveSamples = w.applyPrior(set.VelocityPriorKms, kept, d.keep, d.speed2Span[0], !rgcMonotone, !d.escMonotone, &d.los, r)
 		distSpan[0], distSpan[1] = span(w.dist[:kept])
 		speed2Span[0], speed2Span[1] = span(w.speed2[:kept])
 		vrad2Span[0], vrad2Span[1] = span(w.vrad2[:kept])
@@ -501,9 +701,10 @@ func (w *worker) summarise(set *Settings, d *starDraws, r *Result) {
 // signedSqrt undoes x -> x |x|.
 func signedSqrt(x float64) float64 { return math.Copysign(math.Sqrt(math.Abs(x)), x) }
 
-// drawEDSD fills dist, plx, pmRA and pmDec. The distance r comes from the
-// EDSD posterior; the proper motions from their normal conditional on the
-// true parallax 1/r:
+// drawTabled fills dist, plx, pmRA and pmDec of draws lo..hi-1. The
+// distance r comes from the tabulated posterior (EDSD, or a catalog
+// distance weighed by the parallax) or is the fixed pointKpc; the proper
+// motions from their normal conditional on the true parallax 1/r:
 //
 //	mu | w = mu_obs + S_mw / S_ww (1/r - w_obs),  cov S_mm - S_mw S_wm / S_ww
 //
@@ -512,46 +713,32 @@ func signedSqrt(x float64) float64 { return math.Copysign(math.Sqrt(math.Abs(x))
 // prior on the true proper motions this is the exact joint posterior of
 // (r, mu): the marginal of r is the EDSD posterior of the parallax alone, and
 // the parallax-pm correlations survive in the draws.
-func (w *worker) drawEDSD(s *Star, set *Settings, cov *[3][3]float64, joint *gauss, mean [3]float64, r *Result) bool {
-	n := set.Samples
-	wObs, sw := mean[0], math.Sqrt(cov[0][0])
-	beta, g := conditionalPM(cov, joint)
-	if sw == 0 {
-		// A zero parallax error: the posterior is the point 1/w.
-		if wObs <= 0 {
-			r.fail(ReasonNonPositivePlx, "non-positive parallax with zero uncertainty")
-			return false
-		}
-	} else if !w.table.build(wObs, sw, set.EDSDLengthKpc) {
-		r.fail(ReasonDegenerateSample, "edsd posterior could not be tabulated for parallax %v +- %v mas", wObs, sw)
-		return false
-	}
-	// All distances first, then the proper motions: the table lookups of
-	// a tight loop overlap in the processor, interleaved with the normal
-	// draws they wait on each other.
-	for i := range n {
-		w.dist[i] = 1 / wObs
-		if sw > 0 {
+func (w *worker) drawTabled(dr *drawing, lo, hi int) {
+	// All distances of the block first, then the proper motions: the
+	// table lookups of a tight loop overlap in the processor, interleaved
+	// with the normal draws they wait on each other.
+	for i := lo; i < hi; i++ {
+		w.dist[i] = dr.pointKpc
+		if dr.tabled {
 			w.dist[i] = w.table.quantile(w.rnd.float64())
 		}
 	}
-	if g.nAct == 2 {
-		w.drawPMs2(n, wObs, mean, beta, &g)
-		return true
+	if dr.cond.nAct == 2 {
+		w.drawPMs2(&dr.pm, lo, hi, dr.wObs, dr.mean, dr.beta, &dr.cond)
+		return
 	}
-	for i := range n {
-		w.drawPM(i, w.dist[i], wObs, mean, beta, &g)
+	for i := lo; i < hi; i++ {
+		w.drawPM(&dr.pm, i, w.dist[i], dr.wObs, dr.mean, dr.beta, &dr.cond)
 	}
-	return true
 }
 
-// drawPMs2 is drawPM for draws 0..n-1 when both proper motions have an
-// uncertainty: the 2n normals of the n calls of g.draw first, then the
-// same arithmetic.
-func (w *worker) drawPMs2(n int, wObs float64, mean [3]float64, beta [2]float64, g *gauss) {
-	z := w.z[:2*n]
-	w.rnd.normals(z)
-	dist, plxs, pmRA, pmDec := w.dist[:n], w.plx[:n], w.pmRA[:n], w.pmDec[:n]
+// drawPMs2 is drawPM for draws lo..hi-1 when both proper motions have an
+// uncertainty: the normals of the calls of g.draw first, then the same
+// arithmetic.
+func (w *worker) drawPMs2(rnd *stream, lo, hi int, wObs float64, mean [3]float64, beta [2]float64, g *gauss) {
+	z := w.z[:2*(hi-lo)]
+	rnd.normals(z)
+	dist, plxs, pmRA, pmDec := w.dist[lo:hi], w.plx[lo:hi], w.pmRA[lo:hi], w.pmDec[lo:hi]
 	l, m := &g.lower, g.mean
 	for i, d := range dist {
 		zi := z[2*i : 2*i+2 : 2*i+2]
@@ -565,78 +752,25 @@ func (w *worker) drawPMs2(n int, wObs float64, mean [3]float64, beta [2]float64,
 	}
 }
 
-// drawPM stores distance d and proper motions drawn from their normal
-// conditional on the true parallax 1/d in draw i.
-func (w *worker) drawPM(i int, d, wObs float64, mean [3]float64, beta [2]float64, g *gauss) {
+// drawPM stores distance d and proper motions drawn from rnd from their
+// normal conditional on the true parallax 1/d in draw i.
+func (w *worker) drawPM(rnd *stream, i int, d, wObs float64, mean [3]float64, beta [2]float64, g *gauss) {
 	plx := 1 / d
 	var x [3]float64
-	g.draw(&w.rnd, &x)
+	g.draw(rnd, &x)
 	w.dist[i], w.plx[i] = d, plx
 	w.pmRA[i] = mean[1] + beta[0]*(plx-wObs) + x[0]
 	w.pmDec[i] = mean[2] + beta[1]*(plx-wObs) + x[1]
 }
 
-// maxCatalogTries bounds the rejection draws per kept catalog distance.
+// maxCatalogTries: a catalog distance of which the parallax admits less
+// than 1/maxCatalogTries fails the star (the rejection sampler this
+// replaced gave up after maxCatalogTries tries per draw).
 const maxCatalogTries = 200
 
-// drawCatalogWithParallax fills the draws for an independent (catalog)
-// distance that the star's own parallax also constrains. The catalog
-// distance is the prior and the parallax the likelihood:
-//
-//	p(d | w) ∝ p_cat(d) exp(-(w - 1/d)^2 / (2 s^2))
-//
-// (Bayes' theorem with a normal parallax likelihood, as in Bailer-Jones
-// 2015, PASP 127, 994, with the catalog distance in place of a space-density
-// prior), sampled by rejection: a catalog draw is kept with probability
-// L(d)/L_max, where L_max = 1 if w > 0 (1/d = w is reachable) and
-// exp(-w^2/(2 s^2)) otherwise (d -> infinity). The proper motions then come
-// from their normal conditional on the true parallax 1/d, as for EDSD, so
-// the parallax-pm correlations are kept. A parallax of low significance
-// leaves the catalog distance almost unchanged; a discordant one pulls it.
-func (w *worker) drawCatalogWithParallax(set *Settings, cov *[3][3]float64, joint *gauss, mean [3]float64, cat catalogDistance, r *Result) bool {
-	n := set.Samples
-	wObs, sw := mean[0], math.Sqrt(cov[0][0])
-	beta, g := conditionalPM(cov, joint)
-	lnLMax := 0.0
-	if wObs <= 0 {
-		lnLMax = -wObs * wObs / (2 * sw * sw)
-	}
-	tries := 0
-	for i := range n {
-		for {
-			if tries >= maxCatalogTries*n {
-				r.fail(ReasonPlxConflict, "the parallax %.4g +- %.2g mas excludes the catalog distance (no draw kept in %d)", wObs, sw, tries)
-				return false
-			}
-			tries++
-			d := cat.draw(&w.rnd)
-			z := (wObs - 1/d) / sw
-			if logBelow(w.rnd.float64(), -z*z/2-lnLMax) {
-				w.drawPM(i, d, wObs, mean, beta, &g)
-				break
-			}
-		}
-	}
-	if acc := float64(n) / float64(tries); acc < 0.05 {
-		r.note(ReasonPlxConflict, "the parallax %.4g +- %.2g mas and the catalog distance disagree: %.1f%% of catalog draws kept", wObs, sw, 100*acc)
-	}
-	return true
-}
-
-// logBelow reports ln(u) < t for u in [0, 1). The bounds
-// 1 - 1/u <= ln(u) <= u - 1 (from ln(x) <= x - 1, e.g. Abramowitz & Stegun
-// 1964, 4.1.33, from memory) decide most cases without the logarithm; the margin keeps
-// the decision that of math.Log.
-func logBelow(u, t float64) bool {
-	const margin = 1e-12
-	switch {
-	case u-1 < t-margin:
-		return true
-	case 1-1/u > t+margin:
-		return false
-	}
-	return math.Log(u) < t
-}
+// catalogConflictShare: below this share of the catalog distance admitted
+// by the parallax the star gets a ReasonPlxConflict note.
+const catalogConflictShare = 0.05
 
 // conditionalPM returns the regression of the proper motions on the
 // parallax and a sampler of their conditional normal; joint is the sampler
@@ -662,9 +796,9 @@ func growVec(b [][3]float64, n int) [][3]float64 {
 // (prior.go), replaces them by the equal-weight resample where they are
 // used later (r_gc^2 and v_esc^2 only when their medians need the draws),
 // takes the traced draws spread evenly over it (the resample is in draw
-// order) and returns the weighted unbound share; minSpeed2 is the smallest
-// speed^2 of the draws.
-func (w *worker) applyPrior(sigmaKms float64, kept, keep int, minSpeed2 float64, needRGC, needVesc bool, los *lineOfSight, r *Result) float64 {
+// order) and returns the weighted unbound share and the effective sample
+// size; minSpeed2 is the smallest speed^2 of the draws.
+func (w *worker) applyPrior(sigmaKms float64, kept, keep int, minSpeed2 float64, needRGC, needVesc bool, los *lineOfSight, r *Result) (pUnbound, ess float64) {
 	idx := w.idx[:kept]
 	pu, ess := priorResampleMin(w.speed2[:kept], minSpeed2, w.unbound[:kept], sigmaKms, w.rndV.float64(), w.wt[:kept], idx)
 	for i := range keep {
@@ -683,5 +817,5 @@ func (w *worker) applyPrior(sigmaKms float64, kept, keep int, minSpeed2 float64,
 	if ess < minPriorESSShare*float64(kept) {
 		r.note(ReasonPriorDominated, "the velocity prior (%g km/s) leaves an effective sample size of %.0f of %d draws: the data constrain the velocity poorly", sigmaKms, ess, kept)
 	}
-	return pu
+	return pu, ess
 }

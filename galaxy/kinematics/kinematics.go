@@ -32,7 +32,7 @@ const (
 	ReasonBadUncertainty   = "bad-uncertainty"           // fatal: a negative uncertainty
 	ReasonBadCorrelation   = "bad-correlation"           // fatal: a correlation outside [-1, 1]
 	ReasonDegenerateSample = "degenerate-distance-pdf"   // fatal: the EDSD posterior could not be tabulated
-	ReasonPlxConflict      = "catalog-parallax-conflict" // the parallax and the catalog distance disagree (fatal when no draw survives)
+	ReasonPlxConflict      = "catalog-parallax-conflict" // the parallax and the catalog distance disagree (fatal below 1/200 of the catalog distance admitted)
 	ReasonPriorDominated   = "prior-dominated"           // the velocity prior leaves an effective sample size below a fifth of the draws
 )
 
@@ -71,6 +71,20 @@ type Settings struct {
 	// Galactocentric velocity (prior.go); 0 keeps the flat prior. Stars
 	// without a usable rv are never reweighted.
 	VelocityPriorKms float64
+
+	// Early stopping (stop.go); StopBelowP = 0 turns it off, and every star
+	// then gets Samples draws exactly as before it existed.
+	// StopBelowP: a star may end after fewer draws only when the one-sided
+	// upper confidence bound on its unbound share (PUnbound with a radial
+	// velocity, PUnboundLower without) lies below this probability.
+	// StopSigma: the confidence of that bound as a one-sided Gaussian
+	// tail, in sigma (5: tail probability 2.87e-7), shared among the looks.
+	// TailEscFraction: a star whose speed's 84th percentile (SpeedKms[2],
+	// or SpeedLowerKms[2] without rv) exceeds this fraction of its median
+	// escape speed (VEscKms[1]) at a look never stops: it gets all Samples.
+	StopBelowP      float64
+	StopSigma       float64
+	TailEscFraction float64
 }
 
 // DefaultSettings returns the documented defaults for the given Sun:
@@ -123,6 +137,15 @@ func (s *Settings) Validate() error {
 	if !(s.VelocityPriorKms >= 0) || math.IsInf(s.VelocityPriorKms, 0) {
 		return bad("velocity prior %v km/s must be 0 or positive and finite", s.VelocityPriorKms)
 	}
+	if !(s.StopBelowP >= 0 && s.StopBelowP <= 1) {
+		return bad("stop-below probability %v must be in [0, 1] (0: no early stopping)", s.StopBelowP)
+	}
+	if !(s.StopSigma >= 0) || math.IsInf(s.StopSigma, 0) || !(s.TailEscFraction >= 0) || math.IsInf(s.TailEscFraction, 0) {
+		return bad("stop sigma %v and tail escape fraction %v must be 0 or positive and finite", s.StopSigma, s.TailEscFraction)
+	}
+	if s.StopBelowP > 0 && !(s.StopSigma > 0 && s.TailEscFraction > 0) {
+		return bad("early stopping (stop-below probability %v) needs a positive stop sigma (%v) and tail escape fraction (%v)", s.StopBelowP, s.StopSigma, s.TailEscFraction)
+	}
 	if !(s.EscapeRadiusKpc >= 0) || math.IsInf(s.EscapeRadiusKpc, 0) {
 		return bad("escape radius %v kpc must be 0 or positive and finite", s.EscapeRadiusKpc)
 	}
@@ -145,8 +168,20 @@ type Result struct {
 	OK      bool   // false when a fatal reason stopped the star
 	Method  string // distance method used
 	Reasons []Reason
-	Samples int // draws used (fewer than Settings.Samples when some were dropped)
+	Samples int // draws used (fewer than Settings.Samples when some were dropped or the star stopped early)
 	HasRV   bool
+	// Stopped: early stopping ended the star before Settings.Samples draws
+	// (Settings.StopBelowP); every number below then comes from the
+	// Samples draws used.
+	Stopped bool
+	// PUnboundUpper is the one-sided upper confidence bound (Settings.
+	// StopSigma, its share per look) on the unbound share (PUnbound, or
+	// PUnboundLower without rv) from the draws used; NaN without early
+	// stopping. A stopped star has it below Settings.StopBelowP.
+	PUnboundUpper float64
+	// EffectiveSamples is the effective sample size of the draws used:
+	// Samples, or with the velocity prior Kish's (sum w)^2 / sum w^2.
+	EffectiveSamples float64
 
 	// With HasRV: Galactocentric speed, radial and tangential velocity about
 	// the Galactic centre, and the share of draws faster than the escape
@@ -194,7 +229,8 @@ func (r *Result) reset(id string) {
 	n3 := [3]float64{nan, nan, nan}
 	keepPos, keepVel := r.SamplePos[:0], r.SampleVel[:0]
 	*r = Result{
-		ID: id, SpeedKms: n3, VRadialKms: n3, VTangentialKms: n3, PUnbound: nan, PUnboundFlat: nan,
+		ID: id, PUnboundUpper: nan, EffectiveSamples: nan,
+		SpeedKms: n3, VRadialKms: n3, VTangentialKms: n3, PUnbound: nan, PUnboundFlat: nan,
 		SpeedLowerKms: n3, PUnboundLower: nan, RGCKpc: n3, VEscKms: n3, DistKpc: n3,
 		PosKpc: n3, VelKms: n3, SamplePos: keepPos, SampleVel: keepVel,
 	}

@@ -509,6 +509,12 @@ func TestSettingsValidate(t *testing.T) {
 		{"sun", mod(func(s *Settings) { s.Sun = frames.Sun{} }), "sun distance"},
 		{"escape", mod(func(s *Settings) { s.EscapeRadiusKpc = -5 }), "escape radius"},
 		{"zero-point", mod(func(s *Settings) { s.ParallaxZeroPointMas = nan }), "zero point"},
+		{"stop-p", mod(func(s *Settings) { s.StopBelowP = 1.5 }), "stop-below probability"},
+		{"stop-p-nan", mod(func(s *Settings) { s.StopBelowP = nan }), "stop-below probability"},
+		{"stop-sigma", mod(func(s *Settings) { s.StopSigma = -1 }), "stop sigma"},
+		{"stop-tail", mod(func(s *Settings) { s.TailEscFraction = math.Inf(1) }), "tail escape fraction"},
+		{"stop-no-sigma", mod(func(s *Settings) { s.StopBelowP, s.TailEscFraction = 0.5, 0.5 }), "needs a positive stop sigma"},
+		{"stop-no-tail", mod(func(s *Settings) { s.StopBelowP, s.StopSigma = 0.5, 5 }), "needs a positive stop sigma"},
 	} {
 		t.Run(tc.name, func(t *testing.T) {
 			err := tc.set.Validate()

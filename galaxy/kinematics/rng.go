@@ -177,3 +177,43 @@ func newZigTables() zigTables {
 	}
 	return t
 }
+
+// advance moves s ahead by k outputs, as k calls of Uint64 would, in
+// O(log k) steps: k steps of the LCG state -> a state + c are one step
+// with a^k and c (a^k - 1)/(a - 1), built by repeated squaring (Brown
+// 1994, "Random number generation with arbitrary strides", Trans. Am.
+// Nucl. Soc. 71, 202). TestStreamAdvance checks it against Uint64.
+func (s *stream) advance(k uint64) {
+	const (
+		mulHi = 2549297995355413924
+		mulLo = 4865540595714422341
+		incHi = 6364136223846793005
+		incLo = 1442695040888963407
+	)
+	accMul, accInc := u128{0, 1}, u128{}
+	curMul, curInc := u128{mulHi, mulLo}, u128{incHi, incLo}
+	for ; k > 0; k >>= 1 {
+		if k&1 != 0 {
+			accMul = accMul.mul(curMul)
+			accInc = accInc.mul(curMul).add(curInc)
+		}
+		curInc = curMul.add(u128{0, 1}).mul(curInc)
+		curMul = curMul.mul(curMul)
+	}
+	st := accMul.mul(u128{s.hi, s.lo}).add(accInc)
+	s.hi, s.lo = st.hi, st.lo
+}
+
+// u128 is an unsigned integer modulo 2^128.
+type u128 struct{ hi, lo uint64 }
+
+func (a u128) mul(b u128) u128 {
+	hi, lo := bits.Mul64(a.lo, b.lo)
+	return u128{hi + a.hi*b.lo + a.lo*b.hi, lo}
+}
+
+func (a u128) add(b u128) u128 {
+	lo, c := bits.Add64(a.lo, b.lo, 0)
+	hi, _ := bits.Add64(a.hi, b.hi, c)
+	return u128{hi, lo}
+}
