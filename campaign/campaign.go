@@ -97,10 +97,17 @@ type Kinematics struct {
 	UnboundP         float64
 	MarginalP        float64
 	TraceMinP        float64
-	TraceSamples     int
-	TraceMyr         float64
-	GCRadiusKpc      float64
-	DiskRadiusKpc    float64
+	// StopSigma is the confidence, in one-sided Gaussian sigma, with which
+	// a star's Monte Carlo may end before Samples draws: when p_unbound is
+	// below both MarginalP and TraceMinP at that confidence, and the star's
+	// speed is far from the escape speed (StopTailVEscFraction). 0 gives
+	// every star all Samples draws.
+	StopSigma            float64
+	StopTailVEscFraction float64
+	TraceSamples         int
+	TraceMyr             float64
+	GCRadiusKpc          float64
+	DiskRadiusKpc        float64
 }
 
 // Defaults of settings outside the settings table (settings.go).

@@ -106,6 +106,13 @@ var settings = []setting{
 		"a star is `unbound` when `p_unbound` ≥ this"),
 	number(SettingMarginalP, func(c *Campaign) *float64 { return &c.Kinematics.MarginalP }, 0.5, probability,
 		"a star is `marginal` when `p_unbound` ≥ this (and below `unbound_p`)"),
+	// 5 sigma: a stopped star would have changed status under the full
+	// draws with a probability of about 3e-7 per look (one-sided normal
+	// tail, common practice for a "certain" decision). Our choice.
+	number("kinematics.stop_sigma", func(c *Campaign) *float64 { return &c.Kinematics.StopSigma }, 5, nonNegative,
+		"confidence, in one-sided Gaussian sigma, with which a star's Monte Carlo may end before `samples` draws because no further draws could change its status; 0 = every star gets all `samples`"),
+	number("kinematics.stop_tail_vesc_fraction", func(c *Campaign) *float64 { return &c.Kinematics.StopTailVEscFraction }, 0.5, positive,
+		"a star whose speed's 84th percentile could exceed this fraction of its escape speed always gets all `samples`"),
 	number("kinematics.trace_min_p", func(c *Campaign) *float64 { return &c.Kinematics.TraceMinP }, 0.5, probability,
 		"least `p_unbound` for a star's orbit to be traced back"),
 	count("kinematics.trace_samples", func(c *Campaign) *int { return &c.Kinematics.TraceSamples }, 200,

@@ -35,6 +35,8 @@ func TestValues(t *testing.T) {
 		{"kinematics.velocity_prior_kms", "150"},
 		{"kinematics.unbound_p", "0.8"},
 		{"kinematics.marginal_p", "0.5"},
+		{"kinematics.stop_sigma", "5"},
+		{"kinematics.stop_tail_vesc_fraction", "0.5"},
 		{"kinematics.trace_min_p", "0.5"},
 		{"kinematics.trace_samples", "200"},
 		{"kinematics.trace_myr", "300"},

@@ -96,5 +96,20 @@ func KinematicSettings(c *campaign.Campaign) kinematics.Settings {
 		EscapeRadiusKpc:         c.Potential.EscapeRadiusKpc,
 		KeepSamples:             k.TraceSamples,
 		VelocityPriorKms:        k.VelocityPriorKms,
+		// A star may stop only where neither its status nor its trace
+		// could change: below both thresholds that p_unbound decides.
+		StopBelowP:      stopBelowP(k),
+		StopSigma:       k.StopSigma,
+		TailEscFraction: k.StopTailVEscFraction,
 	}
+}
+
+// stopBelowP is the p_unbound below which a star's Monte Carlo may end
+// early: the lower of marginal_p and trace_min_p, or 0 (never) when the
+// campaign turned early stopping off.
+func stopBelowP(k campaign.Kinematics) float64 {
+	if k.StopSigma == 0 {
+		return 0
+	}
+	return min(k.MarginalP, k.TraceMinP)
 }
