@@ -54,7 +54,7 @@ func TestLoadFull(t *testing.T) {
 			{Kind: "point", MassMsun: 4e6}, {Kind: "hernquist", MassMsun: 3.76e9, AKpc: 0.1},
 			{Kind: "miyamoto-nagai", MassMsun: 6e10, AKpc: 2.75, BKpc: 0.3}, {Kind: "nfw", MassMsun: 8e11, ScaleKpc: 20}}}},
 		{"kinematics", c.Kinematics, Kinematics{Distance: "edsd", EDSDLengthKpc: 1.5, MinParallaxSignificance: 4, Samples: 500, VelocityPriorKms: 120,
-			UnboundP: 0.9, MarginalP: 0.6, TraceMinP: 0.4, StopSigma: 5, StopTailVEscFraction: 0.5, TraceSamples: 100, TraceMyr: 250, GCRadiusKpc: 2, DiskRadiusKpc: 30}},
+			UnboundP: 0.9, MarginalP: 0.6, TraceMinP: 0.4, StopSigma: 5, StopTailVEscFraction: 0.75, TraceSamples: 100, TraceMyr: 250, GCRadiusKpc: 2, DiskRadiusKpc: 30}},
 	}
 	for _, ch := range checks {
 		t.Run(ch.name, func(t *testing.T) {
@@ -102,7 +102,7 @@ func TestDefaults(t *testing.T) {
 		{"galaxy", c.Galaxy, Galaxy{SunDistanceKpc: 8.122, SunHeightPc: 20.8, SunVelocityKms: [3]float64{12.9, 245.6, 7.78}}},
 		{"potential left to integrator", c.Potential, Potential{}},
 		{"kinematics", c.Kinematics, Kinematics{Distance: "auto", EDSDLengthKpc: 1.35, MinParallaxSignificance: 5, Samples: 1000, VelocityPriorKms: 150,
-			UnboundP: 0.8, MarginalP: 0.5, TraceMinP: 0.5, StopSigma: 5, StopTailVEscFraction: 0.5, TraceSamples: 200, TraceMyr: 300, GCRadiusKpc: 1, DiskRadiusKpc: 25}},
+			UnboundP: 0.8, MarginalP: 0.5, TraceMinP: 0.5, StopSigma: 5, StopTailVEscFraction: 0.75, TraceSamples: 200, TraceMyr: 300, GCRadiusKpc: 1, DiskRadiusKpc: 25}},
 		{"primary pos err", c.Catalogs[0].PositionErrMas, 0.0},
 		{"secondary pos err", c.Catalogs[1].PositionErrMas, 100.0},
 		{"markers", c.Catalogs[1].NullMarkers, []string{"", "NaN", "null"}},

@@ -16,8 +16,8 @@ func TestHashesPinned(t *testing.T) {
 	fp := c.Fingerprint()
 	for _, h := range []struct{ name, got, want string }{
 		{"match", fp.Match, "ea277f66c5e3b9ff6dcf44185b2b7bbd9419b1616e43eb9280b79c5ebc38de74"},
-		{"model", fp.Model, "7860a2b7364e80af18be5290d428c3a1e4e9a25a3ea3ef176e1051479d7d47bd"},
-		{"all", fp.All, "6e491008ee648ef7a54a5c1c977503d9f3383a529a123a86448ff26437ea8f03"},
+		{"model", fp.Model, "fae305d31f51857537670f35824399da97f32397858a9f1d4420bef0c000ea43"},
+		{"all", fp.All, "59c0431464a8bb20047bb28c25f62e2e4ea52248a0ef5bd3b78c4f2025befa2c"},
 	} {
 		if h.got != h.want {
 			t.Errorf("%s hash = %s, want %s", h.name, h.got, h.want)

@@ -36,7 +36,7 @@ func TestValues(t *testing.T) {
 		{"kinematics.unbound_p", "0.8"},
 		{"kinematics.marginal_p", "0.5"},
 		{"kinematics.stop_sigma", "5"},
-		{"kinematics.stop_tail_vesc_fraction", "0.5"},
+		{"kinematics.stop_tail_vesc_fraction", "0.75"},
 		{"kinematics.trace_min_p", "0.5"},
 		{"kinematics.trace_samples", "200"},
 		{"kinematics.trace_myr", "300"},
