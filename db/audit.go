@@ -175,8 +175,8 @@ func (l *Ledger) inputsOf(ctx context.Context, runID int64, starID string) (*Inp
 		dest = append(dest, &vals[i])
 	}
 	dest = append(dest, &in.DupCount)
-	err := l.db.QueryRowContext(ctx, "SELECT input_hash, "+inputCols+", dup_count FROM inputs WHERE run_id = ? AND star_id = ?",
-		runID, starID).Scan(dest...)
+	err := l.db.QueryRowContext(ctx, "SELECT input_hash, "+inputCols+", dup_count FROM computed_verdicts "+
+		"WHERE star_id = ? AND computed_in_run = ? AND dup_count IS NOT NULL", starID, runID).Scan(dest...)
 	if errors.Is(err, sql.ErrNoRows) {
 		return nil, nil
 	}

@@ -149,7 +149,6 @@ func TestMigrateFromSchema2(t *testing.T) {
 		t.Errorf("stars new-1: first %d last %d, %v; want 2 2", first, last, err)
 	}
 	for _, tc := range []struct{ name, want string }{
-		{"input_values", "WITHOUT ROWID"},
 		{"inputs", "CREATE VIEW inputs"},
 		{"computed_verdicts", "PRIMARY KEY (star_id, computed_in_run)"},
 		{"computed_verdicts_by_run", "ON computed_verdicts (computed_in_run, status)"},

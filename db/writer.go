@@ -164,10 +164,13 @@ const verdictSummaryCols = "speed_p16_kms, speed_p50_kms, speed_p84_kms, speed_l
 	"samples_used, distance_p16_kpc, distance_p50_kpc, distance_p84_kpc, p_unbound_flat, trace_samples, trace_crossed"
 
 // verdictCols are the columns of the verdicts view, computedCols those of
-// the computed_verdicts table behind it.
+// the computed_verdicts table behind it that hold the verdict
+// (verdictValues of them); the table also holds the reason list and the
+// star's inputs.
 const (
-	verdictCols  = "run_id, star_id, status, quality, computed_in_run, input_hash, distance_method, has_rv, " + verdictSummaryCols
-	computedCols = "star_id, computed_in_run, status, quality, input_hash, distance_method, has_rv, " + verdictSummaryCols
+	verdictCols   = "run_id, star_id, status, quality, computed_in_run, input_hash, distance_method, has_rv, " + verdictSummaryCols
+	computedCols  = "star_id, computed_in_run, status, quality, input_hash, distance_method, has_rv, " + verdictSummaryCols
+	verdictValues = 27
 )
 
 func placeholders(n int) string {
@@ -259,12 +262,12 @@ func (w *RunWriter) AddStars(ctx context.Context, batch []StarRecord) error {
 // batch fills all the tables: it is the writer's hot path, and each
 // table's part is a few lines.
 func (w *RunWriter) writeStars(c *sqlite3.SQLiteConn, batch []StarRecord) (map[formKey]form, error) {
-	inputs := newBulk(c, "inputs", "INSERT INTO input_values (run_id, star_id, "+inputCols+", dup_count) VALUES", 2+NumInputs+1, "")
 	matches := newBulk(c, "matches", "INSERT INTO matches (run_id, star_id, catalog, counterpart_id, sep_arcsec, match_prob, candidates, ambiguous) VALUES", 8, "")
-	verdicts := newBulk(c, "verdicts", "INSERT INTO computed_verdicts ("+computedCols+", reason_list) VALUES", 28, "")
+	verdicts := newBulk(c, "verdicts", "INSERT INTO computed_verdicts ("+computedCols+", reason_list, "+inputCols+", dup_count) VALUES",
+		verdictValues+1+NumInputs+1, "")
 	forms := newBulk(c, "reason forms", "INSERT INTO reason_forms (run_id, form_id, rule_id, outcome, severity, threshold, message) VALUES", 7, "")
 	crossings := newBulk(c, "crossings", "INSERT INTO crossings (run_id, star_id, x_kpc, y_kpc, t_myr) VALUES", 5, "")
-	all := []*bulk{inputs, matches, verdicts, forms, crossings}
+	all := []*bulk{matches, verdicts, forms, crossings}
 	defer func() {
 		for _, b := range all {
 			b.close()
@@ -276,23 +279,22 @@ func (w *RunWriter) writeStars(c *sqlite3.SQLiteConn, batch []StarRecord) (map[f
 	added := map[formKey]form{}
 	var list []byte
 	id := w.id
-	in := make([]driver.Value, 2+NumInputs+1)
+	row := make([]driver.Value, verdictValues+1+NumInputs+1)
 	for i := range batch {
 		r := &batch[i]
 		sid := r.StarID
 		v := r.Verdict
+		in := row[verdictValues+1:]
 		if r.Inputs != nil {
 			if v.InputHash == "" {
 				v.InputHash = r.Inputs.InputHash
 			}
-			in[0], in[1] = id, sid
 			for j, x := range r.Inputs.Values {
-				in[2+j] = dvf(x)
+				in[j] = dvf(x)
 			}
-			in[2+NumInputs] = int64(r.Inputs.DupCount)
-			if err := inputs.add(sid, in...); err != nil {
-				return nil, err
-			}
+			in[NumInputs] = int64(r.Inputs.DupCount)
+		} else {
+			clear(in)
 		}
 		for _, m := range r.Matches {
 			if err := matches.add(sid, id, sid, m.Catalog, dvs(m.CounterpartID), dvf(m.SepArcsec), dvf(m.MatchProb),
@@ -330,12 +332,13 @@ func (w *RunWriter) writeStars(c *sqlite3.SQLiteConn, batch []StarRecord) (map[f
 		if v.TraceSamples > 0 {
 			crossed = int64(v.TraceCrossed)
 		}
-		if err := verdicts.add(sid, sid, id, v.Status, dvs(v.Quality), dvs(v.InputHash),
+		copy(row, []driver.Value{sid, id, v.Status, dvs(v.Quality), dvs(v.InputHash),
 			dvs(v.DistanceMethod), b2i(v.HasRV), dvf(v.SpeedP16Kms), dvf(v.SpeedP50Kms), dvf(v.SpeedP84Kms),
 			dvf(v.SpeedLowerP50Kms), dvf(v.RGCKpc), dvf(v.VEscKms), dvf(v.PUnbound), dvf(v.PUnboundLower),
 			dvs(v.Origin), dvf(v.PGCOrigin), dvf(v.GCConsistency), dvf(v.FlightTimeMyr), dvs(v.ModelName),
 			dvPos(v.SamplesUsed), dvf(v.DistP16Kpc), dvf(v.DistP50Kpc), dvf(v.DistP84Kpc), dvf(v.PUnboundFlat),
-			dvPos(v.TraceSamples), crossed, reasonList); err != nil {
+			dvPos(v.TraceSamples), crossed, reasonList})
+		if err := verdicts.add(sid, row...); err != nil {
 			return nil, err
 		}
 	}

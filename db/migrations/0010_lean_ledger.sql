@@ -11,9 +11,11 @@
 --    back as the same 64-bit float). The reasons of earlier runs move to
 --    star_reasons (form, value, own message). reasons becomes a view over
 --    both with exactly the columns it had.
--- 2. inputs no longer repeats input_hash, which computed_verdicts holds:
---    the values live in input_values, and inputs becomes a view that takes
---    the hash from the star's computed verdict.
+-- 2. A computed star's merged inputs live in its computed_verdicts row
+--    (the columns of inputs, dup_count NULL for a verdict without inputs,
+--    such as a withdrawn star's), so a computed star is one row and the
+--    input hash is stored once. inputs becomes a view with exactly the
+--    columns it had.
 -- 3. computed_verdicts gains the numbers the kinematic reasons were written
 --    from (distance percentiles, the flat-prior p_unbound, the Monte Carlo
 --    draws used, the trace's samples and crossings). A run since this
@@ -114,74 +116,50 @@ SELECT v.computed_in_run, v.star_id, CAST(j.key AS INTEGER), f.rule_id,
  CROSS JOIN json_each(v.reason_list) AS j
  CROSS JOIN reason_forms AS f ON f.run_id = v.computed_in_run AND f.form_id = j.value ->> 0;
 
-CREATE TABLE input_values (
-    run_id               INTEGER NOT NULL REFERENCES runs (id),
-    star_id              TEXT NOT NULL,
-    ra                   REAL,
-    dec                  REAL,
-    ra_err               REAL,
-    dec_err              REAL,
-    parallax             REAL,
-    parallax_err         REAL,
-    pm_ra                REAL,
-    pm_ra_err            REAL,
-    pm_dec               REAL,
-    pm_dec_err           REAL,
-    corr_ra_dec          REAL,
-    corr_parallax_pm_ra  REAL,
-    corr_parallax_pm_dec REAL,
-    corr_pm_ra_pm_dec    REAL,
-    rv                   REAL,
-    rv_err               REAL,
-    distance             REAL,
-    distance_err         REAL,
-    fit_residual         REAL,
-    excess_noise         REAL,
-    excess_noise_sig     REAL,
-    fit_visits           REAL,
-    duplicate_flag       REAL,
-    mag                  REAL,
-    color                REAL,
-    snr                  REAL,
-    distance_modulus     REAL,
-    distance_modulus_err REAL,
-    dup_count            INTEGER NOT NULL DEFAULT 0,
-    PRIMARY KEY (run_id, star_id)
-) WITHOUT ROWID;
-
-INSERT INTO input_values (run_id, star_id, ra, dec, ra_err, dec_err, parallax, parallax_err,
-    pm_ra, pm_ra_err, pm_dec, pm_dec_err, corr_ra_dec, corr_parallax_pm_ra, corr_parallax_pm_dec,
-    corr_pm_ra_pm_dec, rv, rv_err, distance, distance_err, fit_residual, excess_noise, excess_noise_sig,
-    fit_visits, duplicate_flag, mag, color, snr, distance_modulus, distance_modulus_err, dup_count)
-SELECT run_id, star_id, ra, dec, ra_err, dec_err, parallax, parallax_err,
-    pm_ra, pm_ra_err, pm_dec, pm_dec_err, corr_ra_dec, corr_parallax_pm_ra, corr_parallax_pm_dec,
-    corr_pm_ra_pm_dec, rv, rv_err, distance, distance_err, fit_residual, excess_noise, excess_noise_sig,
-    fit_visits, duplicate_flag, mag, color, snr, distance_modulus, distance_modulus_err, dup_count
-  FROM inputs ORDER BY run_id, star_id;
+ALTER TABLE computed_verdicts ADD COLUMN ra REAL;
+ALTER TABLE computed_verdicts ADD COLUMN dec REAL;
+ALTER TABLE computed_verdicts ADD COLUMN ra_err REAL;
+ALTER TABLE computed_verdicts ADD COLUMN dec_err REAL;
+ALTER TABLE computed_verdicts ADD COLUMN parallax REAL;
+ALTER TABLE computed_verdicts ADD COLUMN parallax_err REAL;
+ALTER TABLE computed_verdicts ADD COLUMN pm_ra REAL;
+ALTER TABLE computed_verdicts ADD COLUMN pm_ra_err REAL;
+ALTER TABLE computed_verdicts ADD COLUMN pm_dec REAL;
+ALTER TABLE computed_verdicts ADD COLUMN pm_dec_err REAL;
+ALTER TABLE computed_verdicts ADD COLUMN corr_ra_dec REAL;
+ALTER TABLE computed_verdicts ADD COLUMN corr_parallax_pm_ra REAL;
+ALTER TABLE computed_verdicts ADD COLUMN corr_parallax_pm_dec REAL;
+ALTER TABLE computed_verdicts ADD COLUMN corr_pm_ra_pm_dec REAL;
+ALTER TABLE computed_verdicts ADD COLUMN rv REAL;
+ALTER TABLE computed_verdicts ADD COLUMN rv_err REAL;
+ALTER TABLE computed_verdicts ADD COLUMN distance REAL;
+ALTER TABLE computed_verdicts ADD COLUMN distance_err REAL;
+ALTER TABLE computed_verdicts ADD COLUMN fit_residual REAL;
+ALTER TABLE computed_verdicts ADD COLUMN excess_noise REAL;
+ALTER TABLE computed_verdicts ADD COLUMN excess_noise_sig REAL;
+ALTER TABLE computed_verdicts ADD COLUMN fit_visits REAL;
+ALTER TABLE computed_verdicts ADD COLUMN duplicate_flag REAL;
+ALTER TABLE computed_verdicts ADD COLUMN mag REAL;
+ALTER TABLE computed_verdicts ADD COLUMN color REAL;
+ALTER TABLE computed_verdicts ADD COLUMN snr REAL;
+ALTER TABLE computed_verdicts ADD COLUMN distance_modulus REAL;
+ALTER TABLE computed_verdicts ADD COLUMN distance_modulus_err REAL;
+ALTER TABLE computed_verdicts ADD COLUMN dup_count INTEGER;
 
 -- Before this schema inputs and computed_verdicts held the same hash for a
--- star (the writer took the verdict's from the inputs); a row whose
--- verdict lacks it keeps it there.
-UPDATE computed_verdicts SET input_hash = (
-       SELECT i.input_hash FROM inputs AS i
-        WHERE i.run_id = computed_verdicts.computed_in_run AND i.star_id = computed_verdicts.star_id)
- WHERE input_hash IS NULL
-   AND EXISTS (SELECT 1 FROM inputs AS i
+-- star (the writer took the verdict's from the inputs); a verdict without
+-- one takes the inputs'.
+UPDATE computed_verdicts
+   SET (input_hash, ra, dec, ra_err, dec_err, parallax, parallax_err, pm_ra, pm_ra_err, pm_dec, pm_dec_err, corr_ra_dec, corr_parallax_pm_ra, corr_parallax_pm_dec, corr_pm_ra_pm_dec, rv, rv_err, distance, distance_err, fit_residual, excess_noise, excess_noise_sig, fit_visits, duplicate_flag, mag, color, snr, distance_modulus, distance_modulus_err, dup_count) =
+       (SELECT coalesce(computed_verdicts.input_hash, i.input_hash), i.ra, i.dec, i.ra_err, i.dec_err, i.parallax, i.parallax_err, i.pm_ra, i.pm_ra_err, i.pm_dec, i.pm_dec_err, i.corr_ra_dec, i.corr_parallax_pm_ra, i.corr_parallax_pm_dec, i.corr_pm_ra_pm_dec, i.rv, i.rv_err, i.distance, i.distance_err, i.fit_residual, i.excess_noise, i.excess_noise_sig, i.fit_visits, i.duplicate_flag, i.mag, i.color, i.snr, i.distance_modulus, i.distance_modulus_err, i.dup_count
+          FROM inputs AS i
+         WHERE i.run_id = computed_verdicts.computed_in_run AND i.star_id = computed_verdicts.star_id)
+ WHERE EXISTS (SELECT 1 FROM inputs AS i
                 WHERE i.run_id = computed_verdicts.computed_in_run AND i.star_id = computed_verdicts.star_id);
 
 DROP TABLE inputs;
 
 CREATE VIEW inputs AS
-SELECT i.run_id AS run_id, i.star_id AS star_id, v.input_hash AS input_hash,
-       i.ra AS ra, i.dec AS dec, i.ra_err AS ra_err, i.dec_err AS dec_err,
-       i.parallax AS parallax, i.parallax_err AS parallax_err, i.pm_ra AS pm_ra, i.pm_ra_err AS pm_ra_err,
-       i.pm_dec AS pm_dec, i.pm_dec_err AS pm_dec_err, i.corr_ra_dec AS corr_ra_dec,
-       i.corr_parallax_pm_ra AS corr_parallax_pm_ra, i.corr_parallax_pm_dec AS corr_parallax_pm_dec,
-       i.corr_pm_ra_pm_dec AS corr_pm_ra_pm_dec, i.rv AS rv, i.rv_err AS rv_err,
-       i.distance AS distance, i.distance_err AS distance_err, i.fit_residual AS fit_residual,
-       i.excess_noise AS excess_noise, i.excess_noise_sig AS excess_noise_sig, i.fit_visits AS fit_visits,
-       i.duplicate_flag AS duplicate_flag, i.mag AS mag, i.color AS color, i.snr AS snr,
-       i.distance_modulus AS distance_modulus, i.distance_modulus_err AS distance_modulus_err,
-       i.dup_count AS dup_count
-  FROM input_values AS i
-  JOIN computed_verdicts AS v ON v.star_id = i.star_id AND v.computed_in_run = i.run_id;
+SELECT computed_in_run AS run_id, star_id, input_hash, ra, dec, ra_err, dec_err, parallax, parallax_err, pm_ra, pm_ra_err, pm_dec, pm_dec_err, corr_ra_dec, corr_parallax_pm_ra, corr_parallax_pm_dec, corr_pm_ra_pm_dec, rv, rv_err, distance, distance_err, fit_residual, excess_noise, excess_noise_sig, fit_visits, duplicate_flag, mag, color, snr, distance_modulus, distance_modulus_err, dup_count
+  FROM computed_verdicts
+ WHERE dup_count IS NOT NULL;
