@@ -147,7 +147,7 @@ func (e *Engine) computeAndWrite(ctx context.Context, w *db.RunWriter, total int
 	defer cancel(nil)
 	st := begin(e.Progress, stageVetting, total)
 	defer st.End()
-	todo := make(chan []db.StarRecord) // unbuffered: at most one batch computed ahead
+	todo := make(chan encodedBatch) // unbuffered: at most one batch computed ahead
 	spent := make(chan []db.StarRecord, 2)
 	werr := make(chan error, 1)
 	var writeTime time.Duration
@@ -171,15 +171,23 @@ func (e *Engine) computeAndWrite(ctx context.Context, w *db.RunWriter, total int
 		if !more {
 			break
 		}
+		// Encoding the rows here, not on the writer's goroutine, takes
+		// that work off the writer, which bounds a full run.
+		enc, eerr := w.Encode(recs)
+		if eerr != nil {
+			err = eerr
+			break
+		}
+		b := encodedBatch{recs, enc}
 		select {
-		case todo <- recs: // the writer was waiting
+		case todo <- b: // the writer was waiting
 			ce = &full
 			continue
 		default:
 		}
 		ce = &spare
 		select {
-		case todo <- recs:
+		case todo <- b:
 			continue
 		case <-ctx.Done():
 		}
@@ -201,24 +209,30 @@ func (e *Engine) computeAndWrite(ctx context.Context, w *db.RunWriter, total int
 // closed. After its first error, which cancels ctx, it only drains todo.
 // It returns that error and the time spent writing.
 func writeBatches(ctx context.Context, cancel context.CancelCauseFunc, w *db.RunWriter, st Stage,
-	todo <-chan []db.StarRecord, spent chan<- []db.StarRecord) (time.Duration, error) {
+	todo <-chan encodedBatch, spent chan<- []db.StarRecord) (time.Duration, error) {
 	var writeTime time.Duration
 	done := 0
 	var err error
-	for recs := range todo {
+	for b := range todo {
 		if err == nil {
 			t := time.Now()
-			if err = w.AddStars(ctx, recs); err != nil {
+			if err = w.AddEncoded(ctx, b.enc); err != nil {
 				cancel(err)
 			}
 			writeTime += time.Since(t)
-			done += len(recs)
+			done += len(b.recs)
 			st.Set(done)
 		}
 		select {
-		case spent <- recs:
+		case spent <- b.recs:
 		default:
 		}
 	}
 	return writeTime, err
+}
+
+// encodedBatch is a batch of records and its rows, encoded for the ledger.
+type encodedBatch struct {
+	recs []db.StarRecord
+	enc  *db.Encoded
 }
