@@ -345,12 +345,8 @@ type drawing struct {
 	// pointKpc.
 	tabled   bool
 	pointKpc float64
-	// pm is the proper-motion stream of tabled draws: one block takes
-	// every distance and then the proper motions from the astrometry
-	// stream, so in blocks the proper motions come from a copy of it
-	// advanced past all Samples distances.
-	pm       stream
-	attempts int // draws attempted: the index of the next draw of the stream
+	pm       stream // the proper motions of tabled draws (streamPM)
+	attempts int    // draws attempted: the index of the next draw of the stream
 	kept     int
 	dropped  int // inverse: draws with a non-positive parallax
 }
@@ -397,9 +393,10 @@ func (w *worker) prepareAstrometry(s *Star, set *Settings, method string, catDis
 			return dr, false
 		}
 	}
-	dr.pm = w.rnd
 	if dr.tabled {
-		dr.pm.advance(uint64(set.Samples)) // one uniform per distance
+		dr.pm.seed(starSeed(set.Seed, s.ID, streamPM))
+	} else {
+		dr.pm = w.rnd // a single distance: the proper motions follow in the astrometry stream
 	}
 	return dr, true
 }
