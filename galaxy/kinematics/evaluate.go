@@ -225,7 +225,7 @@ func (w *worker) evaluate(s *Star, set *Settings, p potential.Potential, r *Resu
 		}
 		w.drawRVBlock(s, hasRV, k0, dr.kept)
 		if end == set.Samples {
-			if w.finish(s, set, p, &dr, hasRV, r) && stopping {
+			if w.finish(s, set, p, &dr, hasRV, false, r) && stopping {
 				r.PUnboundUpper = upperBound(r, alpha)
 			}
 			return
@@ -239,7 +239,7 @@ func (w *worker) evaluate(s *Star, set *Settings, p potential.Potential, r *Resu
 		}
 		nReasons, rndV := len(r.Reasons), w.rndV
 		copy(w.distSave[:dr.kept], w.dist[:dr.kept])
-		w.finish(s, set, p, &dr, hasRV, r)
+		w.finish(s, set, p, &dr, hasRV, true, r)
 		if w.tailSpeedKms > set.TailEscFraction*r.VEscKms[1] || !(r.VEscKms[1] > 0) {
 			stopping = false // never stops: straight on to Samples
 		} else if u := upperBound(r, alpha); u < set.StopBelowP {
@@ -251,9 +251,9 @@ func (w *worker) evaluate(s *Star, set *Settings, p potential.Potential, r *Resu
 	}
 }
 
-// finish summarises the draws made so far into r; false when it failed r
-// (no draw kept).
-func (w *worker) finish(s *Star, set *Settings, p potential.Potential, dr *drawing, hasRV bool, r *Result) bool {
+// finish summarises the draws made so far into r, and at a look also
+// w.tailSpeedKms; false when it failed r (no draw kept).
+func (w *worker) finish(s *Star, set *Settings, p potential.Potential, dr *drawing, hasRV, look bool, r *Result) bool {
 	if !w.finishAstrometry(dr, r) {
 		return false
 	}
@@ -274,7 +274,7 @@ func (w *worker) finish(s *Star, set *Settings, p potential.Potential, dr *drawi
 	}
 	w.escapeRange(p, set, &d)
 	w.speeds(p, set, &d, r)
-	if set.StopBelowP > 0 {
+	if look {
 		w.tailSpeedKms = w.tailSpeed(set.StopSigma, &d)
 	}
 	w.summarise(set, &d, r)
