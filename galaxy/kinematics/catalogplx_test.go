@@ -63,7 +63,7 @@ func evalRejection(t *testing.T, s Star, set Settings) Result {
 	}
 	hasRV := !math.IsNaN(s.RVKms) && !math.IsNaN(s.RVErrKms)
 	w.drawRVBlock(&s, hasRV, 0, dr.kept)
-	w.finish(&s, &set, milkyWayTest(), &dr, hasRV, false, &r)
+	w.finish(&s, &set, milkyWayTest(), &dr, hasRV, &r)
 	return r
 }
 

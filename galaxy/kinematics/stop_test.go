@@ -172,6 +172,11 @@ func TestEarlyStoppingAgrees(t *testing.T) {
 				if !(g.Samples < on.Samples && g.PUnboundUpper < on.StopBelowP) {
 					t.Errorf("%s: stopped with %d draws and bound %v", g.ID, g.Samples, g.PUnboundUpper)
 				}
+				// The tail rule on what the stopped star reports (the
+				// brief's TailEscFraction, SpeedKms[2] or SpeedLowerKms[2]).
+				if v84 := map[bool]float64{true: g.SpeedKms[2], false: g.SpeedLowerKms[2]}[g.HasRV]; !(v84 <= on.TailEscFraction*g.VEscKms[1]) {
+					t.Errorf("%s: stopped with v84 %v above %g of v_esc %v", g.ID, v84, on.TailEscFraction, g.VEscKms[1])
+				}
 				if status(g) != status(f) {
 					t.Errorf("%s: status %s stopped, %s with every draw (p %v / %v)", g.ID, status(g), status(f), g.PUnbound, f.PUnbound)
 				}
