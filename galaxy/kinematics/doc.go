@@ -49,12 +49,14 @@
 // fatal reason; the proper motions' factor given the parallax, for edsd and
 // catalog, is the lower block of the same factor); components with zero
 // error stay at their measured values, so zero errors give the
-// deterministic answer. rv is drawn from its normal. Each star has two PCG
-// streams (one for astrometry and distance, one for rv; math/rand/v2's PCG
-// and ziggurat normals, bit for bit, on a concrete type) seeded from
-// Settings.Seed and an FNV-1a hash of its ID, so its numbers do not depend
-// on the order of the stars, the batch or the worker count, and adding an
-// rv leaves the astrometric draws unchanged.
+// deterministic answer. rv is drawn from its normal. Each star has its own
+// xoshiro256++ streams (Blackman & Vigna 2021, ACM Trans. Math. Softw. 47,
+// 36; one for astrometry and distance, one for rv, one for the proper
+// motions of tabulated distances; math/rand/v2's ziggurat normals, bit for
+// bit, on a concrete type) seeded from Settings.Seed and an FNV-1a hash of
+// its ID, so its numbers do not depend on the order of the stars, the batch
+// or the worker count, and adding an rv leaves the astrometric draws
+// unchanged.
 //
 // Velocity prior (Settings.VelocityPriorKms = sigma > 0, stars with a
 // usable rv): the draws are importance-weighted by exp(-|v|^2/(2 sigma^2)),

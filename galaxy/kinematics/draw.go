@@ -11,13 +11,17 @@ import (
 // Stream identifiers mixed into a star's seed. The radial velocity has its
 // own stream so that adding or removing an rv leaves the astrometric draws
 // unchanged.
+// The proper motions of distances drawn from a table (edsd, catalog with a
+// parallax) have their own stream, so that a block of draws continues both
+// where the previous block left them.
 const (
 	streamAstrometry uint64 = 1
 	streamRV         uint64 = 2
+	streamPM         uint64 = 3
 )
 
 // starSeed mixes the settings seed, the star ID (FNV-1a 64) and a stream
-// number into the two PCG seed words, so a star's numbers depend on nothing
+// number into the stream's two seed words, so a star's numbers depend on nothing
 // else: not the batch order, not the worker count.
 func starSeed(seed uint64, id string, stream uint64) (uint64, uint64) {
 	h := fingerprint.FNV1a64(id)

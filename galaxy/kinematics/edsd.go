@@ -197,16 +197,28 @@ func edsdBracket(modes []float64, w, s, l, cut float64) (lo, hi float64) {
 // k/len(guide) of the total, so a lookup scans a cell or two instead of
 // bisecting.
 func (t *edsdTable) buildGuide() {
+	// Local slices of known length and indexed stores: appending through
+	// t reloads and stores the slice header at every cell.
 	n := len(t.r)
-	t.cells = t.cells[:0]
-	for i := range n - 1 {
-		h := t.r[i+1] - t.r[i]
-		t.cells = append(t.cells, edsdCell{r0: t.r[i], h: h, f0: t.f[i], slope: (t.f[i+1] - t.f[i]) / h, cdf0: t.cdf[i]})
+	r, f, cdf := t.r[:n], t.f[:n], t.cdf[:n]
+	if cap(t.cells) < n-1 {
+		t.cells = make([]edsdCell, n-1)
 	}
+	cells := t.cells[:n-1]
+	for i := range cells {
+		// Field by field: a composite literal is built on the stack and
+		// copied in 16-byte moves that straddle its 8-byte stores, which
+		// the processor cannot forward.
+		h := r[i+1] - r[i]
+		c := &cells[i]
+		c.r0, c.h, c.f0, c.slope, c.cdf0 = r[i], h, f[i], (f[i+1]-f[i])/h, cdf[i]
+	}
+	t.cells = cells
 	// Twice as many guide entries as cells.
-	total := t.cdf[n-1]
+	total := cdf[n-1]
 	ng := 2 * n
 	t.guide = resizeInt(t.guide, ng)
+	guide := t.guide[:ng]
 	// k/ng is k times 1/ng exactly when ng is a power of two (a product
 	// by a power of two is exact): the same m without a division.
 	invNG := 0.0
@@ -214,17 +226,17 @@ func (t *edsdTable) buildGuide() {
 		invNG = 1 / float64(ng)
 	}
 	j := 1
-	for k := range t.guide {
+	for k := range guide {
 		var m float64
 		if invNG != 0 {
 			m = float64(k) * invNG * total
 		} else {
 			m = float64(k) / float64(ng) * total
 		}
-		for j < n-1 && t.cdf[j] < m {
+		for j < n-1 && cdf[j] < m {
 			j++
 		}
-		t.guide[k] = j - 1
+		guide[k] = j - 1
 	}
 }
 

@@ -34,30 +34,6 @@ type worker struct {
 	esc         losEscape
 	quant       quantiler
 	exactEscape bool // never tabulate the escape speed (for tests)
-	// tailSpeedKms: the upper confidence bound on the 84th percentile of
-	// the speed at a look (tailSpeed).
-	tailSpeedKms float64
-}
-
-// tailSpeed is the distribution-free upper confidence bound, at sigma, on
-// the 84th percentile of the speed of the draws so far, before any
-// velocity-prior weighting (which only lowers speeds): the order statistic
-// of rank n q + sigma sqrt(n q (1-q)), q = 0.84, capped at the largest
-// (the count of draws below a quantile is binomial; e.g. David & Nagaraja
-// 2003, Order Statistics, 3rd ed., sec. 7.1, from memory). A bound rather
-// than the estimate: stopping on the estimate would favour stars whose
-// first draws happen to be slow, and bias their percentiles low.
-func (w *worker) tailSpeed(sigma float64, d *starDraws) float64 {
-	n := d.kept
-	q := percentileLevels[2]
-	k := min(n-1, int(math.Ceil(float64(n)*q+sigma*math.Sqrt(float64(n)*q*(1-q)))))
-	tmp := w.tmp[:n]
-	copy(tmp, w.speed2[:n])
-	var v [1]float64
-	if !w.quant.orderStatsIn(tmp, d.speed2Span[0], d.speed2Span[1], []int{k}, v[:]) {
-		return math.NaN()
-	}
-	return math.Sqrt(v[0])
 }
 
 // The escape-speed table along the line of sight (losEscape) is used when a
@@ -240,7 +216,7 @@ func (w *worker) evaluate(s *Star, set *Settings, p potential.Potential, r *Resu
 		nReasons, rndV := len(r.Reasons), w.rndV
 		copy(w.distSave[:dr.kept], w.dist[:dr.kept])
 		w.finish(s, set, p, &dr, hasRV, r)
-		if w.tailSpeedKms > set.TailEscFraction*r.VEscKms[1] || !(r.VEscKms[1] > 0) {
+		if fastTail(r, set.TailEscFraction) {
 			stopping = false // never stops: straight on to Samples
 		} else if u := upperBound(r, alpha); u < set.StopBelowP {
 			r.PUnboundUpper, r.Stopped = u, true
@@ -274,9 +250,6 @@ func (w *worker) finish(s *Star, set *Settings, p potential.Potential, dr *drawi
 	}
 	w.escapeRange(p, set, &d)
 	w.speeds(p, set, &d, r)
-	if set.StopBelowP > 0 {
-		w.tailSpeedKms = w.tailSpeed(set.StopSigma, &d)
-	}
 	w.summarise(set, &d, r)
 	r.PosKpc, r.VelKms = d.los.at(r.DistKpc[1], s.PMRAMasYr, s.PMDecMasYr, rvNomKms)
 	return true
@@ -345,12 +318,8 @@ type drawing struct {
 	// pointKpc.
 	tabled   bool
 	pointKpc float64
-	// pm is the proper-motion stream of tabled draws: one block takes
-	// every distance and then the proper motions from the astrometry
-	// stream, so in blocks the proper motions come from a copy of it
-	// advanced past all Samples distances.
-	pm       stream
-	attempts int // draws attempted: the index of the next draw of the stream
+	pm       stream // the proper motions of tabled draws (streamPM)
+	attempts int    // draws attempted: the index of the next draw of the stream
 	kept     int
 	dropped  int // inverse: draws with a non-positive parallax
 }
@@ -397,9 +366,10 @@ func (w *worker) prepareAstrometry(s *Star, set *Settings, method string, catDis
 			return dr, false
 		}
 	}
-	dr.pm = w.rnd
 	if dr.tabled {
-		dr.pm.advance(uint64(set.Samples)) // one uniform per distance
+		dr.pm.seed(starSeed(set.Seed, s.ID, streamPM))
+	} else {
+		dr.pm = w.rnd // a single distance: the proper motions follow in the astrometry stream
 	}
 	return dr, true
 }

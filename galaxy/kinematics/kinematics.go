@@ -81,7 +81,9 @@ type Settings struct {
 	// tail, in sigma (5: tail probability 2.87e-7), shared among the looks.
 	// TailEscFraction: a star whose speed's 84th percentile (SpeedKms[2],
 	// or SpeedLowerKms[2] without rv) exceeds this fraction of its median
-	// escape speed (VEscKms[1]) at a look never stops: it gets all Samples.
+	// escape speed (VEscKms[1]) at a look never stops: it gets all
+	// Samples. A stopped star's reported percentiles therefore never
+	// exceed it (stop.go says what this costs).
 	StopBelowP      float64
 	StopSigma       float64
 	TailEscFraction float64

@@ -5,41 +5,46 @@ import (
 	"math/bits"
 )
 
-// stream is a star's random stream: the PCG generator with DXSM output of
-// math/rand/v2 (O'Neill 2014, "PCG: a family of simple fast space-efficient
-// statistically good algorithms for random number generation", Harvey Mudd
-// College HMC-CS-2014-0905; constants and output function as in
-// math/rand/v2's PCG), with uniform and normal draws written out on the
-// concrete type, so that a draw costs no interface call. TestStreamMatches
-// checks that every draw equals rand.New(rand.NewPCG(seed)) bit for bit.
+// stream is a star's random stream: xoshiro256++ (Blackman & Vigna 2021,
+// "Scrambled linear pseudorandom number generators", ACM Trans. Math.
+// Softw. 47, 36), whose state steps by shifts and xors alone, with uniform
+// and ziggurat normal draws as math/rand/v2's Rand makes them from a
+// Source, written out on the concrete type so that a draw costs no
+// interface call. TestStreamMatches checks every draw against gonum's
+// prng.Xoshiro256plusplus under rand.New, bit for bit. (Until 7085e45 the
+// stream was math/rand/v2's PCG-DXSM, whose 128-bit multiply chain made a
+// normal draw cost about twice as much.)
 type stream struct {
-	hi, lo uint64
+	s0, s1, s2, s3 uint64
 }
 
-// seed sets the state as rand.PCG.Seed does.
-func (s *stream) seed(hi, lo uint64) { s.hi, s.lo = hi, lo }
+// seed fills the state from the two seed words with SplitMix64 outputs
+// (the seeding its authors advise; Steele, Lea & Flood 2014): two from hi,
+// two from lo.
+func (s *stream) seed(hi, lo uint64) {
+	s.s0, s.s1 = splitmixNext(&hi), splitmixNext(&hi)
+	s.s2, s.s3 = splitmixNext(&lo), splitmixNext(&lo)
+}
+
+// splitmixNext is the next output of the SplitMix64 generator whose state
+// is x.
+func splitmixNext(x *uint64) uint64 {
+	r := splitmix64(*x)
+	*x += 0x9e3779b97f4a7c15
+	return r
+}
 
 // Uint64 is the next output (stream is a rand.Source).
 func (s *stream) Uint64() uint64 {
-	const (
-		mulHi    = 2549297995355413924
-		mulLo    = 4865540595714422341
-		incHi    = 6364136223846793005
-		incLo    = 1442695040888963407
-		cheapMul = 0xda942042e4dd58b5
-	)
-	// state = state * mul + inc (128-bit LCG)
-	hi, lo := bits.Mul64(s.lo, mulLo)
-	hi += s.hi*mulLo + s.lo*mulHi
-	lo, c := bits.Add64(lo, incLo, 0)
-	hi, _ = bits.Add64(hi, incHi, c)
-	s.lo, s.hi = lo, hi
-	// DXSM output
-	hi ^= hi >> 32
-	hi *= cheapMul
-	hi ^= hi >> 48
-	hi *= lo | 1
-	return hi
+	r := bits.RotateLeft64(s.s0+s.s3, 23) + s.s0
+	t := s.s1 << 17
+	s.s2 ^= s.s0
+	s.s3 ^= s.s1
+	s.s1 ^= s.s2
+	s.s0 ^= s.s3
+	s.s2 ^= t
+	s.s3 = bits.RotateLeft64(s.s3, 45)
+	return r
 }
 
 // float64 is uniform on [0, 1) with 53 random bits (as rand.Rand.Float64).
@@ -65,37 +70,29 @@ func (s *stream) norm() float64 {
 // order: the rectangle test of norm in one loop, with the generator's
 // state in registers and no call per draw.
 func (s *stream) normals(z []float64) {
-	const (
-		mulHi    = 2549297995355413924
-		mulLo    = 4865540595714422341
-		incHi    = 6364136223846793005
-		incLo    = 1442695040888963407
-		cheapMul = 0xda942042e4dd58b5
-	)
 	t := &zig
-	sHi, sLo := s.hi, s.lo
+	s0, s1, s2, s3 := s.s0, s.s1, s.s2, s.s3
 	for n := range z {
 		// Uint64, written out on the local state.
-		hi, lo := bits.Mul64(sLo, mulLo)
-		hi += sHi*mulLo + sLo*mulHi
-		lo, c := bits.Add64(lo, incLo, 0)
-		hi, _ = bits.Add64(hi, incHi, c)
-		sLo, sHi = lo, hi
-		hi ^= hi >> 32
-		hi *= cheapMul
-		hi ^= hi >> 48
-		hi *= lo | 1
-		j := int32(hi)
-		i := hi >> 32 & 0x7F
+		u := bits.RotateLeft64(s0+s3, 23) + s0
+		x := s1 << 17
+		s2 ^= s0
+		s3 ^= s1
+		s1 ^= s2
+		s0 ^= s3
+		s2 ^= x
+		s3 = bits.RotateLeft64(s3, 45)
+		j := int32(u)
+		i := u >> 32 & 0x7F
 		if absInt32(j) < t.k[i] {
 			z[n] = float64(j) * float64(t.w[i])
 			continue
 		}
-		s.hi, s.lo = sHi, sLo
+		s.s0, s.s1, s.s2, s.s3 = s0, s1, s2, s3
 		z[n] = s.normEdge(j, i)
-		sHi, sLo = s.hi, s.lo
+		s0, s1, s2, s3 = s.s0, s.s1, s.s2, s.s3
 	}
-	s.hi, s.lo = sHi, sLo
+	s.s0, s.s1, s.s2, s.s3 = s0, s1, s2, s3
 }
 
 // normEdge finishes a draw that fell outside the rectangle of strip i: the
@@ -176,44 +173,4 @@ func newZigTables() zigTables {
 		t.w[i] = float32(dn / m1)
 	}
 	return t
-}
-
-// advance moves s ahead by k outputs, as k calls of Uint64 would, in
-// O(log k) steps: k steps of the LCG state -> a state + c are one step
-// with a^k and c (a^k - 1)/(a - 1), built by repeated squaring (Brown
-// 1994, "Random number generation with arbitrary strides", Trans. Am.
-// Nucl. Soc. 71, 202). TestStreamAdvance checks it against Uint64.
-func (s *stream) advance(k uint64) {
-	const (
-		mulHi = 2549297995355413924
-		mulLo = 4865540595714422341
-		incHi = 6364136223846793005
-		incLo = 1442695040888963407
-	)
-	accMul, accInc := u128{0, 1}, u128{}
-	curMul, curInc := u128{mulHi, mulLo}, u128{incHi, incLo}
-	for ; k > 0; k >>= 1 {
-		if k&1 != 0 {
-			accMul = accMul.mul(curMul)
-			accInc = accInc.mul(curMul).add(curInc)
-		}
-		curInc = curMul.add(u128{0, 1}).mul(curInc)
-		curMul = curMul.mul(curMul)
-	}
-	st := accMul.mul(u128{s.hi, s.lo}).add(accInc)
-	s.hi, s.lo = st.hi, st.lo
-}
-
-// u128 is an unsigned integer modulo 2^128.
-type u128 struct{ hi, lo uint64 }
-
-func (a u128) mul(b u128) u128 {
-	hi, lo := bits.Mul64(a.lo, b.lo)
-	return u128{hi + a.hi*b.lo + a.lo*b.hi, lo}
-}
-
-func (a u128) add(b u128) u128 {
-	lo, c := bits.Add64(a.lo, b.lo, 0)
-	hi, _ := bits.Add64(a.hi, b.hi, c)
-	return u128{hi, lo}
 }
