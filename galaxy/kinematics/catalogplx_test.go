@@ -259,35 +259,6 @@ func TestCatalogDistanceExcludedByParallax(t *testing.T) {
 	}
 }
 
-// A conflict fails the star where the rejection sampler of earlier builds
-// (200 tries per draw, catalogplx_test's rejectionCatalog) expected to
-// keep less than one draw in all its tries: below a share 1/(200 Samples)
-// admitted. Above it the star is drawn, with a note below 5%. The shares
-// are exp(-z^2/2) for a point catalog distance z parallax errors from the
-// parallax (common practice: a normal likelihood).
-func TestCatalogConflictThreshold(t *testing.T) {
-	set := testSettings()
-	set.Distance = MethodCatalog
-	for _, c := range []struct {
-		z        float64
-		ok, note bool
-	}{
-		{z: 1, ok: true},                // share 0.61
-		{z: 3.53, ok: true, note: true}, // share 0.002: failed under a 1/200 rule, not under the old sampler
-		{z: 4.5, ok: true, note: true},  // share 4.0e-5, above 1/(200 x 1000) = 5e-6
-		{z: 5.5, ok: false, note: true}, // share 2.7e-7
-	} {
-		s := baseStar("cat-share")
-		s.DistKpc, s.DistErrKpc = 1, 0
-		s.ParallaxErrMas = 0.05
-		s.ParallaxMas = 1 + c.z*s.ParallaxErrMas + set.ParallaxZeroPointMas
-		r := eval(s, set)
-		if r.OK != c.ok || hasReason(r, ReasonPlxConflict) != c.note {
-			t.Errorf("z = %v: ok %v, conflict reason %v; want %v, %v (%+v)", c.z, r.OK, hasReason(r, ReasonPlxConflict), c.ok, c.note, r.Reasons)
-		}
-	}
-}
-
 // logBelow decides ln(u) < t as math.Log does, near and far from the
 // bounds it uses.
 func TestLogBelow(t *testing.T) {

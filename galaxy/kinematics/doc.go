@@ -36,10 +36,9 @@
 //     posterior is tabulated per star as for edsd (512 points uniform in
 //     ln d where it is within exp(-36) of its peak) and sampled by inverse
 //     CDF, and the proper motions come from their normal conditional on
-//     1/d, as for edsd. A parallax that admits less than 1/(200 Samples)
-//     of the catalog distance's probability is a fatal reason (where the
-//     rejection sampler of earlier builds, 200 tries per draw, expected
-//     to keep less than one draw), less than 5% a note.
+//     1/d, as for edsd. A parallax that admits less than 1/200 of the
+//     catalog distance's probability is a fatal reason, less than 5% a
+//     note.
 //     Without a parallax the proper motions come from their own normal.
 //   - auto (default): inverse when (w - zp)/s >= MinParallaxSignificance, else
 //     catalog when usable, else edsd.

@@ -362,7 +362,7 @@ func (w *worker) prepareAstrometry(s *Star, set *Settings, method string, catDis
 			return dr, false
 		}
 	case MethodCatalog:
-		if dr.catPlx = sw > 0; dr.catPlx && !w.prepareCatalogWithParallax(&dr, &cov, set.Samples, r) {
+		if dr.catPlx = sw > 0; dr.catPlx && !w.prepareCatalogWithParallax(&dr, &cov, r) {
 			return dr, false
 		}
 	}
@@ -387,12 +387,10 @@ func (w *worker) prepareAstrometry(s *Star, set *Settings, method string, catDis
 // their normal conditional on the true parallax 1/d, as for EDSD, so the
 // parallax-pm correlations are kept. A parallax of low significance leaves
 // the catalog distance almost unchanged; a discordant one pulls it, and
-// one that admits less than 1/(maxCatalogTries samples) of the catalog
-// distance's probability fails the star: below that share the rejection
-// sampler this replaced, which drew from the catalog distance and gave up
-// after maxCatalogTries tries per draw, expected to keep less than one
-// draw. False when it failed r.
-func (w *worker) prepareCatalogWithParallax(dr *drawing, cov *[3][3]float64, samples int, r *Result) bool {
+// one that admits less than 1/maxCatalogTries of the catalog distance's
+// probability (the share a rejection sampler from the catalog distance
+// would keep) fails the star. False when it failed r.
+func (w *worker) prepareCatalogWithParallax(dr *drawing, cov *[3][3]float64, r *Result) bool {
 	dr.beta, dr.cond = conditionalPM(cov, &dr.joint)
 	wObs, sw := dr.wObs, dr.sw
 	lnLMax := 0.0 // L_max = 1: 1/d = w is reachable
@@ -413,7 +411,7 @@ func (w *worker) prepareCatalogWithParallax(dr *drawing, cov *[3][3]float64, sam
 		lnAccept = -z*z/2 - lnLMax
 	}
 	dr.accept = math.Exp(lnAccept)
-	if !(lnAccept >= -math.Log(maxCatalogTries*float64(samples))) {
+	if !(lnAccept >= -math.Log(maxCatalogTries)) {
 		r.fail(ReasonPlxConflict, "the parallax %.4g +- %.2g mas excludes the catalog distance (it admits a share %.2g of it)", wObs, sw, dr.accept)
 		return false
 	}
@@ -736,9 +734,8 @@ func (w *worker) drawPM(rnd *stream, i int, d, wObs float64, mean [3]float64, be
 }
 
 // maxCatalogTries: a catalog distance of which the parallax admits less
-// than 1/(maxCatalogTries samples) fails the star (the rejection sampler
-// this replaced gave up after maxCatalogTries tries per draw, so it failed
-// where it expected to keep less than one draw in all its tries).
+// than 1/maxCatalogTries fails the star (the rejection sampler this
+// replaced gave up after maxCatalogTries tries per draw).
 const maxCatalogTries = 200
 
 // catalogConflictShare: below this share of the catalog distance admitted

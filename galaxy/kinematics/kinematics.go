@@ -32,7 +32,7 @@ const (
 	ReasonBadUncertainty   = "bad-uncertainty"           // fatal: a negative uncertainty
 	ReasonBadCorrelation   = "bad-correlation"           // fatal: a correlation outside [-1, 1]
 	ReasonDegenerateSample = "degenerate-distance-pdf"   // fatal: the EDSD posterior could not be tabulated
-	ReasonPlxConflict      = "catalog-parallax-conflict" // the parallax and the catalog distance disagree (fatal below 1/(200 Samples) of the catalog distance admitted)
+	ReasonPlxConflict      = "catalog-parallax-conflict" // the parallax and the catalog distance disagree (fatal below 1/200 of the catalog distance admitted)
 	ReasonPriorDominated   = "prior-dominated"           // the velocity prior leaves an effective sample size below a fifth of the draws
 )
 
