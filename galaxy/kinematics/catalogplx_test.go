@@ -259,6 +259,37 @@ func TestCatalogDistanceExcludedByParallax(t *testing.T) {
 	}
 }
 
+// A conflict fails the star where the rejection sampler of earlier builds
+// (rejectionCatalog above: at most 200 tries per kept draw over the star's
+// Samples draws) failed: below a share of about 1/200 of the catalog
+// distance admitted, since it then kept fewer than Samples draws in
+// 200 Samples tries. Above it the star is drawn, with a note below 5%. The
+// shares are exp(-z^2/2) for a point catalog distance z parallax errors
+// from the parallax (a normal likelihood, common practice).
+func TestCatalogConflictThreshold(t *testing.T) {
+	set := testSettings()
+	set.Distance = MethodCatalog
+	for _, c := range []struct {
+		z        float64
+		ok, note bool
+	}{
+		{z: 1, ok: true},                 // share 0.61
+		{z: 2.8, ok: true, note: true},   // share 0.020
+		{z: 3.1, ok: true, note: true},   // share 0.0082
+		{z: 3.45, ok: false, note: true}, // share 0.0026
+		{z: 5.5, ok: false, note: true},  // share 2.7e-7
+	} {
+		s := baseStar("cat-share")
+		s.DistKpc, s.DistErrKpc = 1, 0
+		s.ParallaxErrMas = 0.05
+		s.ParallaxMas = 1 + c.z*s.ParallaxErrMas + set.ParallaxZeroPointMas
+		r := eval(s, set)
+		if r.OK != c.ok || hasReason(r, ReasonPlxConflict) != c.note {
+			t.Errorf("z = %v: ok %v, conflict reason %v; want %v, %v (%+v)", c.z, r.OK, hasReason(r, ReasonPlxConflict), c.ok, c.note, r.Reasons)
+		}
+	}
+}
+
 // logBelow decides ln(u) < t as math.Log does, near and far from the
 // bounds it uses.
 func TestLogBelow(t *testing.T) {
