@@ -42,12 +42,10 @@ const (
 	// insert reads a page back (measured: 15x slower with the 2 MiB default).
 	writerCacheKiB = 256 << 10
 	// newLedgerPageSize is the page size of ledgers this build creates
-	// (SQLite's default is 4096, and 32768 a power of two it allows up to
-	// 65536). Larger pages mean fewer B-tree pages and splits per inserted
-	// row: BenchmarkAddStars (1M stars) took 11.5-12.5 s against
-	// 12.8-13.2 s with 8192, alternating, and 4% fewer bytes. WAL mode
-	// fixes the size at creation, so older ledgers keep theirs.
-	newLedgerPageSize = 32768
+	// (SQLite's default is 4096). Larger pages mean fewer B-tree pages
+	// and splits per inserted row; WAL mode fixes the size at creation,
+	// so older ledgers keep theirs.
+	newLedgerPageSize = 8192
 )
 
 // Options tune Open.
