@@ -44,7 +44,9 @@ const (
 	// newLedgerPageSize is the page size of ledgers this build creates
 	// (SQLite's default is 4096). Larger pages mean fewer B-tree pages
 	// and splits per inserted row; WAL mode fixes the size at creation,
-	// so older ledgers keep theirs.
+	// so older ledgers keep theirs. 32768 wrote the 1M-star writer
+	// benchmark 5-10% faster but made the end-to-end runs slower and the
+	// ledger larger (BENCHMARKS.md, 2026-12-03).
 	newLedgerPageSize = 8192
 )
 
