@@ -9,6 +9,7 @@ import (
 	"math/rand/v2"
 	"os"
 	"path/filepath"
+	"runtime/debug"
 	"runtime/pprof"
 	"strconv"
 	"strings"
@@ -451,6 +452,8 @@ func BenchmarkRun1M(b *testing.B) {
 	if testing.Short() {
 		b.Skip("1M-star end-to-end run")
 	}
+	// As the starvet binary runs (GCPercent).
+	defer debug.SetGCPercent(debug.SetGCPercent(GCPercent))
 	samples := []int{1000, 100}
 	bc := writeBenchCampaign(b, samples)
 	b.Logf("primary: %d stars, %.1f%% with parallax_significance >= 5; %d changed in the second release",

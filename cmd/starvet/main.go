@@ -11,9 +11,12 @@ import (
 	"io"
 	"os"
 	"os/signal"
+	"runtime/debug"
 	"strings"
 	"syscall"
 	"time"
+
+	"starvet/vetting"
 
 	"github.com/mattn/go-isatty"
 	"github.com/rs/zerolog"
@@ -150,6 +153,9 @@ func exitCode(err error) int {
 }
 
 func main() {
+	if os.Getenv("GOGC") == "" {
+		debug.SetGCPercent(vetting.GCPercent)
+	}
 	ctx, stop := signal.NotifyContext(context.Background(), os.Interrupt, syscall.SIGTERM)
 	defer stop()
 	err := Run(ctx, os.Args[1:], os.Stdout, os.Stderr)
