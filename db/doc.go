@@ -38,10 +38,12 @@
 // and Finish counts the set from the previous run's counts plus one probe
 // per computed star.
 //
-// Speed: AddStars writes multi-row INSERTs on the raw driver connection,
-// each bound and stepped in one cgo crossing. computed_verdicts, inputs,
-// reasons and matches are WITHOUT ROWID tables, so a row is one B-tree
-// insert. Send stars in ascending star id order across batches: the keys
+// Speed: AddStars (Encode, then AddEncoded) writes multi-row INSERTs on
+// the raw driver connection, each bound and stepped in one cgo crossing.
+// Since schema 10 a computed star is one row of computed_verdicts (its
+// verdict, inputs and reason list) plus its matches; both are WITHOUT
+// ROWID tables, so a row is one B-tree insert. A pipeline calls Encode on
+// its computing goroutines and AddEncoded on the writer's. Send stars in ascending star id order across batches: the keys
 // then grow by appending, and BenchmarkAddStars shows the difference
 // against a shuffled order. BenchmarkIncremental times PreviousState, a
 // 1% rerun and the audit reads on a 1M-star ledger.

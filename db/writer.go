@@ -219,8 +219,8 @@ type Encoded struct {
 // Encode checks a batch and turns it into row values: the part of writing
 // that needs no connection, which a pipeline does on its own goroutines
 // while the writer's goroutine writes the batch before (measured: about a
-// fifth of the writer's time). It may be called from any goroutine; the
-// batches must then be added in any order with AddEncoded.
+// fifth of the writer's time). It may be called from any goroutine, and
+// the encoded batches added with AddEncoded in any order.
 func (w *RunWriter) Encode(batch []StarRecord) (*Encoded, error) {
 	seen := make(map[string]struct{}, len(batch))
 	for i := range batch {
