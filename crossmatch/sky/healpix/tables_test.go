@@ -162,3 +162,27 @@ func TestInterleave(t *testing.T) {
 		t.Error("x bits must be even, y bits odd")
 	}
 }
+
+// Source: healpy get_all_neighbours(nest=True), testdata/healpix/
+// neighbours.csv (all pixels at orders 0..2, face corners, edges and random
+// pixels at higher orders). healpy's order is SW, W, NW, N, NE, E, SE, S.
+func TestNeighboursNestTable(t *testing.T) {
+	rows := readTable(t, "neighbours.csv")
+	bad := 0
+	for _, r := range rows {
+		order := int(atoi(t, r[0]))
+		pix := uint64(atoi(t, r[1]))
+		var want [8]int64
+		for i := range want {
+			want[i] = atoi(t, r[2+i])
+		}
+		if got := NeighboursNest(order, pix); got != want {
+			if bad++; bad <= 20 {
+				t.Errorf("order %d pix %d: got %v, healpy %v", order, pix, got, want)
+			}
+		}
+	}
+	if bad > 0 {
+		t.Errorf("%d of %d rows differ", bad, len(rows))
+	}
+}
