@@ -113,7 +113,7 @@ def neighbours():
 
 def disc():
     arcsec = math.pi / 180 / 3600
-    radii = [arcsec, 60 * arcsec, 3600 * arcsec * 0.25, math.pi / 180, 10 * math.pi / 180]
+    radii = [1e-3 * arcsec, arcsec, 60 * arcsec, 3600 * arcsec * 0.25, math.pi / 180, 10 * math.pi / 180]
     z23 = math.acos(2.0 / 3.0)
     centres = [(0.0, 0.0), (1e-12, 1.0), (math.pi, 0.0), (math.pi - 1e-7, 4.0),
                (math.pi / 2, 1e-9), (math.pi / 2, 2 * math.pi - 1e-9), (0.7, 0.0), (2.0, 2 * math.pi - 1e-4),
@@ -132,7 +132,9 @@ def disc():
                 for t, p in centres:
                     vec = hp.ang2vec(t, p)
                     for inc in (False, True):
-                        pix = np.sort(hp.query_disc(nside, vec, r, inclusive=inc, nest=True))
+                        # healpy needs fact * nside < 2**30 (a power of 2 in NEST).
+                        fact = min(4, 1 << (29 - order))
+                        pix = np.sort(hp.query_disc(nside, vec, r, inclusive=inc, fact=fact, nest=True))
                         f.write("%d,%r,%r,%r,%d,%s\n" % (order, t, p, r, int(inc), " ".join(str(int(q)) for q in pix)))
 
 
