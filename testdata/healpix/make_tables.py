@@ -67,9 +67,9 @@ def special_pixels(order):
     for face in range(12):
         base = face * npf
         # corners of the face: (x,y) = (0,0), (n-1,0), (0,n-1), (n-1,n-1)
-        px.update([base, base + npf - 1, base + hp.xyf2pix(nside, nside - 1, 0, face, nest=True) - base,
-                   hp.xyf2pix(nside, 0, nside - 1, face, nest=True)])
-        px.add(int(hp.xyf2pix(nside, nside - 1, 0, face, nest=True)))
+        px.update([base, base + npf - 1,
+                   int(hp.xyf2pix(nside, nside - 1, 0, face, nest=True)),
+                   int(hp.xyf2pix(nside, 0, nside - 1, face, nest=True))])
         if nside > 2:
             px.add(int(hp.xyf2pix(nside, nside - 1, nside // 2, face, nest=True)))
             px.add(int(hp.xyf2pix(nside, 0, nside // 2, face, nest=True)))

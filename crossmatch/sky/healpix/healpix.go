@@ -12,14 +12,17 @@ const polarSinZ = 0.9999500004166653
 // NPix is the number of pixels at order: 12 * 4^order.
 func NPix(order int) uint64 { return 12 << (2 * uint(order)) }
 
-// Ang2PixNestRADec is Ang2PixNest with thetaRad = pi/2 - dec, phiRad = ra.
+// Ang2PixNestRADec is Ang2PixNest with thetaRad = pi/2 - dec, phiRad = ra,
+// decDeg in [-90, 90].
 func Ang2PixNestRADec(order int, raDeg, decDeg float64) uint64 {
 	decRad := decDeg * (math.Pi / 180)
 	// cos and sin of theta from dec directly: no cancellation in pi/2 - dec.
 	return ang2pixZ(order, math.Sin(decRad), math.Cos(decRad), raDeg*(math.Pi/180))
 }
 
-// Ang2PixNest is the nested pixel containing (thetaRad, phiRad).
+// Ang2PixNest is the nested pixel containing (thetaRad, phiRad), thetaRad in
+// [0, pi]. order must be in 0..MaxOrder; neither is checked, and non-finite
+// angles give an unspecified pixel.
 func Ang2PixNest(order int, thetaRad, phiRad float64) uint64 {
 	return ang2pixZ(order, math.Cos(thetaRad), math.Sin(thetaRad), phiRad)
 }
@@ -40,7 +43,9 @@ func ang2pixZ(order int, z, sinTheta, phiRad float64) uint64 {
 	var face int64
 	var ix, iy int64
 	if za <= 2.0/3 {
-		// Equatorial zone (Gorski et al. 2005, sect. 4, |z| <= 2/3):
+		// Equatorial zone (Gorski et al. 2005, sect. 4, |z| <= 2/3; the
+		// formulas here and for the caps are from memory of the scheme and
+		// checked against the healpy tables):
 		// the face edges are the lines t - 3z/4 = const and t + 3z/4 = const;
 		// a and b count those lines (in nside units) below the point.
 		u := ns * (0.5 + t)
@@ -90,14 +95,16 @@ func ang2pixZ(order int, z, sinTheta, phiRad float64) uint64 {
 	return uint64(face)<<(2*uint(order)) | interleave(uint64(ix), uint64(iy))
 }
 
-// Pix2AngNest is the centre of nested pixel pix at order.
+// Pix2AngNest is the centre of nested pixel pix at order: thetaRad in
+// [0, pi], phiRad in [0, 2 pi). pix must be below NPix(order); not checked.
 func Pix2AngNest(order int, pix uint64) (thetaRad, phiRad float64) {
 	nside := int64(1) << uint(order)
 	ns := float64(nside)
 	face := int64(pix >> (2 * uint(order)))
 	x, y := deinterleave(pix & (uint64(1)<<(2*uint(order)) - 1))
 	ix, iy := int64(x), int64(y)
-	// Face layout (Gorski et al. 2005, fig. 3 and sect. 4): faces 0-3 are
+	// Face layout (Gorski et al. 2005, fig. 3 and sect. 4; from memory,
+	// checked against the healpy pix2ang table): faces 0-3 are
 	// the north cap, 4-7 the equatorial zone, 8-11 the south cap, numbered
 	// eastwards. faceRing is the ring of the southern corner of the face in
 	// units of nside, faceLon the longitude of its centre in units of pi/4.
