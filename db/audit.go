@@ -249,6 +249,9 @@ func (l *Ledger) decodeReasons(ctx context.Context, runID int64, list string) ([
 	}
 	out := make([]ReasonRow, len(entries))
 	for k, e := range entries {
+		if len(e) == 0 {
+			return nil, fmt.Errorf("reason_list %q: entry %d is empty", list, k)
+		}
 		n, _ := e[0].(json.Number)
 		id, err := n.Int64()
 		if err != nil {

@@ -894,3 +894,20 @@ func reasonsView(t *testing.T, l *Ledger, runID int64, starID string) []ReasonRo
 	}
 	return out
 }
+
+// A reason list that is not what the writer writes is an error naming the
+// star and the list, never a panic.
+func TestReasonListMalformed(t *testing.T) {
+	ctx := context.Background()
+	l := openT(t, tempLedger(t), Options{})
+	writeRun(t, l, []StarRecord{record("bad-1", 1, 0, "rejected")})
+	for _, list := range []string{"[[]]", "[[\"x\"]]", "[[0,\"not a number\"]]", "[[99]]", "not json"} {
+		if _, err := l.db.Exec("UPDATE computed_verdicts SET reason_list = ? WHERE star_id = 'bad-1'", list); err != nil {
+			t.Fatal(err)
+		}
+		_, err := l.Reasons(ctx, 1, "bad-1")
+		if err == nil || !strings.Contains(err.Error(), "bad-1") {
+			t.Errorf("reason_list %s: error %v, want one naming the star", list, err)
+		}
+	}
+}
