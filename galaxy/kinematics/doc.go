@@ -44,8 +44,9 @@
 //     catalog when usable, else edsd.
 //
 // Monte Carlo: (parallax, pm_ra, pm_dec) are drawn jointly from the normal
-// with the catalog's correlations (gonum distmv checks positive
-// definiteness and factorises the covariance once per star; a failure is a
+// with the catalog's correlations (the factor gonum's distmv.Normal makes,
+// computed once per star with LAPACK's Potrf, which checks positive
+// definiteness (draw.go); a failure is a
 // fatal reason; the proper motions' factor given the parallax, for edsd and
 // catalog, is the lower block of the same factor); components with zero
 // error stay at their measured values, so zero errors give the
