@@ -451,18 +451,6 @@ func appendJSONString(b []byte, s string) []byte {
 	return append(b, bytes.TrimSuffix(buf.Bytes(), []byte("\n"))...)
 }
 
-func inConnTx(ctx context.Context, conn *sql.Conn, fn func(*sql.Tx) error) error {
-	tx, err := conn.BeginTx(ctx, nil)
-	if err != nil {
-		return err
-	}
-	if err := fn(tx); err != nil {
-		tx.Rollback()
-		return err
-	}
-	return tx.Commit()
-}
-
 // Finish marks the run complete, stores its summary and releases the lock.
 //
 // The run's status counts are derived from the ledger at a cost
