@@ -35,6 +35,30 @@ type Campaign struct {
 	Galaxy               Galaxy
 	Potential            Potential
 	Kinematics           Kinematics
+	// Tile is set for one sky tile's campaign, written by a split
+	// (package tiling); nil for a whole campaign.
+	Tile *Tile
+}
+
+// Tile says which part of a split campaign a tile's campaign is. Its
+// catalogs are shards holding the tile's own primaries plus a margin of
+// rows of every catalog around it.
+type Tile struct {
+	Order int    // HEALPix order of the tiles (nested scheme)
+	Pixel uint64 // the tile's pixel: it owns the primaries whose position lies in it
+	// Unplaced: the tile also owns the primaries without a position.
+	Unplaced bool
+	// FineOrder and InnerArcsec define a shard row's inner test: a row is
+	// inner when a pixel at FineOrder whose centre lies within InnerArcsec
+	// plus that order's pixel bound of the row belongs to the tile
+	// (see package tiling).
+	FineOrder   int
+	InnerArcsec float64
+	// Prior is each secondary catalog's prior match probability over the
+	// whole catalogs, by catalog name.
+	Prior map[string]float64
+	// Plan is the fingerprint of the split that wrote the tile.
+	Plan string
 }
 
 // Match holds the cross-match settings.
@@ -145,6 +169,17 @@ type raw struct {
 	NullMarkers *[]string `toml:"null_markers"`
 	Catalog     []rawCat  `toml:"catalog"`
 	Potential   *rawPot   `toml:"potential"`
+	Tile        *rawTile  `toml:"tile"`
+}
+
+type rawTile struct {
+	Order       *int               `toml:"order"`
+	Pixel       *int64             `toml:"pixel"`
+	FineOrder   *int               `toml:"fine_order"`
+	InnerArcsec *float64           `toml:"inner_arcsec"`
+	Unplaced    bool               `toml:"unplaced"`
+	Plan        string             `toml:"plan"`
+	Prior       map[string]float64 `toml:"prior"`
 }
 
 type rawCat struct {
@@ -272,7 +307,44 @@ func (p *parser) build(r *raw, given map[string]any, name, dir string) *Campaign
 	p.catalogs(c, r)
 	p.potential(c, r.Potential)
 	p.kinematics(c)
+	p.tile(c, r.Tile)
 	return c
+}
+
+// tile reads the [tile] table of a tile's campaign.
+func (p *parser) tile(c *Campaign, rt *rawTile) {
+	if rt == nil {
+		return
+	}
+	if rt.Order == nil || rt.Pixel == nil || rt.FineOrder == nil || rt.InnerArcsec == nil || rt.Plan == "" {
+		p.bad(p.pos.Near("tile"), "tile", ErrBadValue, "a [tile] table needs order, pixel, fine_order, inner_arcsec and plan")
+		return
+	}
+	t := &Tile{Order: *rt.Order, FineOrder: *rt.FineOrder, InnerArcsec: *rt.InnerArcsec, Unplaced: rt.Unplaced, Plan: rt.Plan, Prior: rt.Prior}
+	const maxOrder = 29
+	if t.Order < 0 || t.Order > maxOrder {
+		p.bad(p.pos.Near("tile", "order"), "tile.order", ErrBadValue, "%d is outside 0..%d", t.Order, maxOrder)
+		return
+	}
+	if t.FineOrder < t.Order || t.FineOrder > maxOrder {
+		p.bad(p.pos.Near("tile", "fine_order"), "tile.fine_order", ErrBadValue, "%d is outside %d..%d", t.FineOrder, t.Order, maxOrder)
+	}
+	if *rt.Pixel < 0 || uint64(*rt.Pixel) >= 12<<(2*uint(t.Order)) {
+		p.bad(p.pos.Near("tile", "pixel"), "tile.pixel", ErrBadValue, "%d is not a pixel of order %d", *rt.Pixel, t.Order)
+	}
+	t.Pixel = uint64(*rt.Pixel)
+	if !(t.InnerArcsec >= 0) {
+		p.bad(p.pos.Near("tile", "inner_arcsec"), "tile.inner_arcsec", ErrBadValue, "must be >= 0")
+	}
+	for _, cs := range c.Catalogs {
+		if cs.Role == catalog.Astrometry {
+			continue
+		}
+		if v, ok := t.Prior[cs.Name]; !ok || !(v > 0 && v <= 1) {
+			p.bad(p.pos.Near("tile", "prior"), "tile.prior."+cs.Name, ErrBadValue, "catalog %s needs a prior in (0, 1]", cs.Name)
+		}
+	}
+	c.Tile = t
 }
 
 // settings fills in the table's settings: the file's value, else the

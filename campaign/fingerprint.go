@@ -57,6 +57,7 @@ type allPart struct {
 	NullMarkers         []string
 	Match               matchPart
 	Model               modelPart
+	Tile                *Tile `json:",omitempty"`
 }
 
 func (c *Campaign) rel(path string) string {
@@ -96,7 +97,7 @@ func (c *Campaign) Hash() string {
 		rules = c.rel(rules)
 	}
 	return hashJSON(allPart{Name: c.Name, Ledger: c.rel(c.Ledger), Rules: rules, NullMarkers: c.NullMarkers,
-		Match: c.matchPart(), Model: c.modelPart()})
+		Match: c.matchPart(), Model: c.modelPart(), Tile: c.Tile})
 }
 
 func hashJSON(v any) string {

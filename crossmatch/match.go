@@ -24,6 +24,9 @@ var (
 	ErrBadOptions = errors.New("bad match options")
 	// ErrNoColumn: a catalog lacks the ra or dec column.
 	ErrNoColumn = errors.New("missing column")
+	// ErrRegionReach: in a sky tile, the match of an owned primary
+	// depends on rows the tile may not hold.
+	ErrRegionReach = errors.New("match reaches past the tile's margin")
 )
 
 // Defaults applied by Match to zero options.
@@ -50,6 +53,14 @@ type Options struct {
 	// Workers is the number of goroutines (parallel.Workers: <= 0 means
 	// GOMAXPROCS).
 	Workers int
+	// Prior, when > 0, is the prior P0 used instead of the estimate from
+	// these two tables' overlap: a sky tile holds part of each catalog and
+	// takes the value Reach found for the whole of both.
+	Prior float64
+	// Region, when set, marks the tables as a sky tile's part of larger
+	// catalogs; Match then fails (ErrRegionReach) rather than decide the
+	// match of an owned primary from an incomplete neighbourhood.
+	Region *Region
 }
 
 // Counterpart is the outcome for one primary row. (It would be called Match
@@ -133,6 +144,11 @@ func Match(ctx context.Context, primary, secondary *catalog.Table, opt Options) 
 	if err != nil {
 		return nil, err
 	}
+	if opt.Region != nil {
+		if err := opt.Region.check(primary, secondary, c); err != nil {
+			return nil, err
+		}
+	}
 	res.Matches, err = resolve(ctx, c.batches, c.order, primary.Len(), c.nPos, secondary.IDs, &opt, res.Prior, &res.Stats)
 	if err != nil {
 		return nil, err
@@ -190,6 +206,9 @@ func findCandidates(ctx context.Context, primary, secondary *catalog.Table, opt 
 		defer close(done)
 		order, _ = spatialOrder(p.keys)
 		res.Prior, res.OverlapSqDeg, nc, n1, n2 = overlapPrior(p.cells, s.cells)
+		if opt.Prior > 0 {
+			res.Prior = opt.Prior
+		}
 	}()
 	ix, err := newIndex(ctx, s.pos, s.keys, opt.Workers)
 	<-done
@@ -219,7 +238,7 @@ func (o *Options) normalize() error {
 		v    float64
 	}{{"radius", o.RadiusArcsec}, {"nsigma", o.NSigma}, {"radius floor", o.RadiusFloorArcsec},
 		{"ambiguity ratio", o.AmbiguityRatio}, {"primary position error", o.PrimaryPosErrMas},
-		{"secondary position error", o.SecondaryPosErrMas}} {
+		{"secondary position error", o.SecondaryPosErrMas}, {"prior", o.Prior}} {
 		if !(f.v >= 0) || math.IsInf(f.v, 0) {
 			return bad(f.name, f.v)
 		}
@@ -232,6 +251,9 @@ func (o *Options) normalize() error {
 	}
 	if o.AmbiguityRatio < 1 {
 		return bad("ambiguity ratio", o.AmbiguityRatio)
+	}
+	if o.Prior > 1 {
+		return bad("prior", o.Prior)
 	}
 	o.Workers = parallel.Workers(o.Workers)
 	return nil

@@ -28,6 +28,9 @@ type Catalogs struct {
 type Matched struct {
 	Results  []*crossmatch.Result // per secondary, one Counterpart per primary row
 	DupCount []int32              // per primary row: other primary rows within the duplicate radius
+	// Owned flags the primary rows a sky tile owns (nil: not a tile, every
+	// row is the run's).
+	Owned []bool
 }
 
 // fieldGroups are the fields a secondary may supply when the primary lacks

@@ -111,7 +111,7 @@ func (e *Engine) Run(ctx context.Context, c *campaign.Campaign, opt RunOptions) 
 	if err := recordCatalogs(ctx, w, in.cats, sum); err != nil {
 		return nil, err
 	}
-	p := makePlan(prevSet, in.cats.Primary.IDs, <-order, in.hashes, sum.RecomputeAll != "")
+	p := makePlan(prevSet, in.cats.Primary.IDs, keepOwned(<-order, in.matched.Owned), in.hashes, sum.RecomputeAll != "")
 	sum.carry(&p)
 	computed, err := e.writeVerdicts(ctx, w, s, in, &p, sum)
 	if err != nil {

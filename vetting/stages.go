@@ -78,6 +78,14 @@ func (e *Engine) Ingest(ctx context.Context, c *campaign.Campaign, strict bool, 
 // primary.
 func (e *Engine) Match(ctx context.Context, c *campaign.Campaign, cats *Catalogs) (*Matched, error) {
 	m := &Matched{}
+	var primaryInner []bool
+	if c.Tile != nil {
+		m.Owned = ownedRows(c.Tile, cats.Primary)
+		var err error
+		if primaryInner, err = InnerRows(ctx, c.Tile, cats.Primary, e.Workers); err != nil {
+			return nil, err
+		}
+	}
 	for k, t := range cats.Secondaries {
 		st := begin(e.Progress, "match "+t.Name, 0)
 		opt := crossmatch.Options{
@@ -88,6 +96,14 @@ func (e *Engine) Match(ctx context.Context, c *campaign.Campaign, cats *Catalogs
 			PrimaryPosErrMas:   cats.Specs[0].PositionErrMas,
 			SecondaryPosErrMas: cats.Specs[k+1].PositionErrMas,
 			Workers:            e.Workers,
+		}
+		if c.Tile != nil {
+			inner, err := InnerRows(ctx, c.Tile, t, e.Workers)
+			if err != nil {
+				return nil, err
+			}
+			opt.Prior = c.Tile.Prior[cats.Specs[k+1].Name]
+			opt.Region = &crossmatch.Region{Owned: m.Owned, PrimaryInner: primaryInner, SecondaryInner: inner}
 		}
 		res, err := crossmatch.Match(ctx, cats.Primary, t, opt)
 		st.End()

@@ -85,3 +85,60 @@ func angleRad(a, b [3]float64) float64 {
 	cz := a[0]*b[1] - a[1]*b[0]
 	return math.Atan2(math.Sqrt(cx*cx+cy*cy+cz*cz), a[0]*b[0]+a[1]*b[1]+a[2]*b[2])
 }
+
+// ParentsNear appends to dst[:0], ascending and once each, the pixels at
+// order that hold a pixel QueryDiscNest(fineOrder, ...) returns for the
+// disc, and returns it with the scratch slice for reuse. fineOrder must not
+// be below order. Because QueryDiscNest returns exactly the pixels whose
+// centre lies within radiusRad + MaxPixRadRad(fineOrder) of the disc
+// centre (the breadth-first walk reaches all of them), the answer obeys
+// the triangle inequality on those centres: a parent found for a point at
+// radius r is found, for any point within d of it, at radius r + d.
+func ParentsNear(order, fineOrder int, thetaRad, phiRad, radiusRad float64, scratch, dst []uint64) (parents, scratchOut []uint64) {
+	scratch = QueryDiscNest(fineOrder, thetaRad, phiRad, radiusRad, scratch)
+	shift := 2 * uint(fineOrder-order)
+	dst = dst[:0]
+	for _, p := range scratch {
+		if q := p >> shift; len(dst) == 0 || dst[len(dst)-1] != q {
+			dst = append(dst, q)
+		}
+	}
+	return dst, scratch
+}
+
+// MaxPixRadRad bounds the angular distance from a pixel's centre to any
+// point of the pixel at order, radians.
+func MaxPixRadRad(order int) float64 { return maxPixRadRad(order) }
+
+// planeStretch bounds how much the HEALPix projection stretches a path on
+// the sphere inside one base face: a path of angle a maps to a path no
+// longer than planeStretch * a in the projection plane. Derivation (the
+// projection formulas of Gorski et al. 2005, sect. 4, quoted in
+// maxPixRadRad): in the equatorial zone y = 3 pi z / 8 changes by at most
+// 3 pi / 8 = 1.178 per radian of declination and x = phi by 1 / cos(dec)
+// <= 3 / sqrt(5) = 1.342 per radian along a parallel; in the caps
+// (y = +-(pi/4)(2 - sigma), x = phi_c + (phi - phi_c) sigma,
+// sigma^2 = 3 (1 - |z|)) dsigma/dtheta <= sqrt(3/2) gives at most
+// (pi/4) sqrt(3/2) = 0.962 for both y and x per radian of colatitude, and
+// x changes by sigma / sin(theta) <= 3 / sqrt(5) per radian along a
+// parallel. The Frobenius norms, 1.786 and 1.911, bound the stretch; 2
+// leaves margin.
+const planeStretch = 2.0
+
+// DiscInside returns the pixel at order holding the point (thetaRad,
+// phiRad) and whether every point within radiusRad of it lies in that
+// pixel too. It answers from the point's pixel at fineOrder (>= order):
+// when k whole fine pixels separate it from each edge of its coarse pixel
+// in the projection plane (each pi / (2 sqrt 2 nside) wide), no path
+// shorter than k * width / planeStretch leaves the coarse pixel. It is
+// sufficient, not necessary: false only means "cannot tell cheaply".
+func DiscInside(order, fineOrder int, thetaRad, phiRad, radiusRad float64) (pixel uint64, inside bool) {
+	p := Ang2PixNest(fineOrder, thetaRad, phiRad)
+	s := uint(fineOrder - order)
+	pixel = p >> (2 * s)
+	n := uint64(1) << s
+	x, y := deinterleave(p & (n*n - 1))
+	k := min(x, y, n-1-x, n-1-y)
+	width := math.Pi / (2 * math.Sqrt2 * float64(uint64(1)<<uint(fineOrder)))
+	return pixel, float64(k)*width > planeStretch*radiusRad
+}

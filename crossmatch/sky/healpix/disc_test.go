@@ -2,6 +2,7 @@ package healpix
 
 import (
 	"math"
+	"math/rand/v2"
 	"slices"
 	"strings"
 	"testing"
@@ -127,5 +128,78 @@ func TestQueryDiscEdgeCases(t *testing.T) {
 	got := QueryDiscNest(29, 0.3, 0.2, 0, nil)
 	if _, ok := slices.BinarySearch(got, Ang2PixNest(29, 0.3, 0.2)); !ok {
 		t.Error("zero radius: the pixel holding the centre is missing")
+	}
+}
+
+// ParentsNear relies on QueryDiscNest returning exactly the pixels whose
+// centre lies within radius + MaxPixRadRad of the disc centre (its walk
+// must not miss one that is not connected through others). Checked by
+// brute force over every pixel at order 5, for random centres (poles and
+// the RA wrap included) and radii from a fraction of a pixel to several.
+func TestQueryDiscExactCentres(t *testing.T) {
+	const order = 5
+	n := NPix(order)
+	centres := make([][3]float64, n)
+	for p := range n {
+		centres[p] = unitVector(Pix2AngNest(order, p))
+	}
+	rng := rand.New(rand.NewPCG(11, 5))
+	m := MaxPixRadRad(order)
+	var got []uint64
+	points := [][2]float64{{0, 0}, {math.Pi, 1}, {math.Pi / 2, 0}, {math.Pi / 2, 2*math.Pi - 1e-9}}
+	for range 300 {
+		points = append(points, [2]float64{math.Acos(2*rng.Float64() - 1), 2 * math.Pi * rng.Float64()})
+	}
+	for k, pt := range points {
+		radius := m * 4 * rng.Float64()
+		if k%3 == 0 {
+			radius = m * 0.1 * rng.Float64()
+		}
+		got = QueryDiscNest(order, pt[0], pt[1], radius, got)
+		c := unitVector(pt[0], pt[1])
+		start := Ang2PixNest(order, pt[0], pt[1])
+		var want []uint64
+		for p := range n {
+			if p == start || angleRad(c, centres[p]) <= radius+m {
+				want = append(want, p)
+			}
+		}
+		if !slices.Equal(got, want) {
+			t.Fatalf("theta %v phi %v radius %v: walk gave %d pixels, brute force %d", pt[0], pt[1], radius, len(got), len(want))
+		}
+	}
+}
+
+// DiscInside must never claim a disc lies in one pixel when a point of it
+// lies in another: checked against ParentsNear (which walks every fine
+// pixel whose centre is within reach) for random points and radii of a
+// fraction to a few fine pixels, at tile orders 0..6, the poles included.
+func TestDiscInsideNeverWrong(t *testing.T) {
+	rng := rand.New(rand.NewPCG(12, 6))
+	var sc, parents []uint64
+	claimed := 0
+	for k := range 20000 {
+		order := k % 7
+		fine := order + 4 + k%5
+		theta, phi := math.Acos(2*rng.Float64()-1), 2*math.Pi*rng.Float64()
+		if k%50 == 0 {
+			theta = 1e-3 * rng.Float64() // near the north pole
+		}
+		r := MaxPixRadRad(fine) * 3 * rng.Float64()
+		pix, inside := DiscInside(order, fine, theta, phi, r+MaxPixRadRad(fine))
+		if want := Ang2PixNest(order, theta, phi); pix != want {
+			t.Fatalf("pixel %d, Ang2PixNest says %d", pix, want)
+		}
+		if !inside {
+			continue
+		}
+		claimed++
+		parents, sc = ParentsNear(order, fine, theta, phi, r, sc, parents)
+		if len(parents) != 1 || parents[0] != pix {
+			t.Fatalf("order %d fine %d theta %v phi %v r %v: DiscInside says only %d, ParentsNear finds %v", order, fine, theta, phi, r, pix, parents)
+		}
+	}
+	if claimed < 5000 {
+		t.Fatalf("only %d of 20000 discs claimed inside: the test checks too little", claimed)
 	}
 }
