@@ -14,6 +14,7 @@ const (
 	FormatFITS    = "fits"    // FITS binary table (FITS Standard 4.0), optionally gzipped
 	FormatVOTable = "votable" // IVOA VOTable 1.3-1.5
 	FormatParquet = "parquet" // Apache Parquet
+	FormatShard   = "shard"   // starvet's own shard of an ingested table (package catalog/shard)
 )
 
 // formatSuffixes maps file-name endings to formats; longer endings are
@@ -24,6 +25,7 @@ var formatSuffixes = []struct{ suffix, format string }{
 	{".fits.gz", FormatFITS}, {".fit.gz", FormatFITS}, {".fits", FormatFITS}, {".fit", FormatFITS},
 	{".vot.gz", FormatVOTable}, {".vot", FormatVOTable}, {".votable", FormatVOTable}, {".xml", FormatVOTable},
 	{".parquet", FormatParquet},
+	{".shard", FormatShard},
 }
 
 // ErrFormat marks a file whose format starvet cannot tell or does not read.
@@ -51,7 +53,7 @@ func FormatOf(file, explicit string) (string, error) {
 
 // FormatNames lists the formats in a fixed order.
 func FormatNames() []string {
-	return []string{FormatCSV, FormatECSV, FormatFITS, FormatVOTable, FormatParquet}
+	return []string{FormatCSV, FormatECSV, FormatFITS, FormatVOTable, FormatParquet, FormatShard}
 }
 
 // Suffixes lists the file-name endings that name a format.

@@ -5,7 +5,9 @@
 //
 // Each format is a subpackage of catalog built on catalog.Builder:
 // catalog/csv (delimited text, optionally gzipped), catalog/ecsv,
-// catalog/fits (binary tables), catalog/votable and catalog/parquet. A format starvet names
+// catalog/fits (binary tables), catalog/votable and catalog/parquet.
+// catalog/shard reads starvet's own shards: rows of a table ingested
+// before, already canonical, so it needs no Builder. A format starvet names
 // but does not read is an error saying so, never a silent fallback to
 // another reader. ingest exists because package catalog cannot choose: its
 // readers import it.
@@ -21,6 +23,7 @@ import (
 	"starvet/catalog/ecsv"
 	fitscat "starvet/catalog/fits"
 	parquetcat "starvet/catalog/parquet"
+	"starvet/catalog/shard"
 	"starvet/catalog/votable"
 )
 
@@ -42,6 +45,7 @@ var readers = map[string]Reader{
 	catalog.FormatFITS:    fitscat.Reader{},
 	catalog.FormatVOTable: votable.Reader{},
 	catalog.FormatParquet: parquetcat.Reader{},
+	catalog.FormatShard:   shard.Reader{},
 }
 
 // For returns the reader of spec's file.
