@@ -139,6 +139,8 @@ type setting struct {
 	// set stores the file's value (of type typ) and returns its problems.
 	set    func(*Campaign, any) []string
 	values func(*Campaign) []NameValue
+	// value is the campaign's value as the file writes it (typ).
+	value func(*Campaign) any
 }
 
 // NameValue is one recorded setting; numbers are the shortest text that
@@ -192,7 +194,8 @@ func number(name string, field func(*Campaign) *float64, def float64, l limit, a
 			*field(c) = v.(float64)
 			return l.problems(v.(float64))
 		},
-		values: func(c *Campaign) []NameValue { return []NameValue{{name, formatFloat(*field(c))}} }}
+		values: func(c *Campaign) []NameValue { return []NameValue{{name, formatFloat(*field(c))}} },
+		value:  func(c *Campaign) any { return *field(c) }}
 }
 
 // count is a whole number >= 1.
@@ -205,7 +208,8 @@ func count(name string, field func(*Campaign) *int, def int, about string) setti
 			}
 			return nil
 		},
-		values: func(c *Campaign) []NameValue { return []NameValue{{name, strconv.Itoa(*field(c))}} }}
+		values: func(c *Campaign) []NameValue { return []NameValue{{name, strconv.Itoa(*field(c))}} },
+		value:  func(c *Campaign) any { return *field(c) }}
 }
 
 // integer is any whole number.
@@ -216,7 +220,8 @@ func integer(name string, field func(*Campaign) *int64, def int64, about string)
 			*field(c) = v.(int64)
 			return nil
 		},
-		values: func(c *Campaign) []NameValue { return []NameValue{{name, strconv.FormatInt(*field(c), 10)}} }}
+		values: func(c *Campaign) []NameValue { return []NameValue{{name, strconv.FormatInt(*field(c), 10)}} },
+		value:  func(c *Campaign) any { return *field(c) }}
 }
 
 func choice(name string, field func(*Campaign) *string, def string, options []string, about string) setting {
@@ -232,7 +237,8 @@ func choice(name string, field func(*Campaign) *string, def string, options []st
 			}
 			return []string{fmt.Sprintf("%q is not one of %q", s, options)}
 		},
-		values: func(c *Campaign) []NameValue { return []NameValue{{name, *field(c)}} }}
+		values: func(c *Campaign) []NameValue { return []NameValue{{name, *field(c)}} },
+		value:  func(c *Campaign) any { return *field(c) }}
 }
 
 // triple is three numbers, written as an array and recorded one by one.
@@ -254,7 +260,8 @@ func triple(name string, field func(*Campaign) *[3]float64, def [3]float64, l li
 		values: func(c *Campaign) []NameValue {
 			v := *field(c)
 			return []NameValue{{recorded[0], formatFloat(v[0])}, {recorded[1], formatFloat(v[1])}, {recorded[2], formatFloat(v[2])}}
-		}}
+		},
+		value: func(c *Campaign) any { v := *field(c); return v[:] }}
 }
 
 // path is the setting's key path in the file: its table (if any) and key.

@@ -88,15 +88,7 @@ func (e *Engine) Match(ctx context.Context, c *campaign.Campaign, cats *Catalogs
 	}
 	for k, t := range cats.Secondaries {
 		st := begin(e.Progress, "match "+t.Name, 0)
-		opt := crossmatch.Options{
-			RadiusArcsec:       c.Match.RadiusArcsec,
-			NSigma:             c.Match.NSigma,
-			RadiusFloorArcsec:  c.Match.RadiusFloorArcsec,
-			AmbiguityRatio:     c.Match.AmbiguityRatio,
-			PrimaryPosErrMas:   cats.Specs[0].PositionErrMas,
-			SecondaryPosErrMas: cats.Specs[k+1].PositionErrMas,
-			Workers:            e.Workers,
-		}
+		opt := MatchOptions(c, cats, k, e.Workers)
 		if c.Tile != nil {
 			inner, err := InnerRows(ctx, c.Tile, t, e.Workers)
 			if err != nil {
@@ -120,6 +112,20 @@ func (e *Engine) Match(ctx context.Context, c *campaign.Campaign, cats *Catalogs
 	}
 	m.DupCount = dup
 	return m, nil
+}
+
+// MatchOptions are the cross-match options for the primary and secondary
+// k (0-based) of cats under campaign c.
+func MatchOptions(c *campaign.Campaign, cats *Catalogs, k, workers int) crossmatch.Options {
+	return crossmatch.Options{
+		RadiusArcsec:       c.Match.RadiusArcsec,
+		NSigma:             c.Match.NSigma,
+		RadiusFloorArcsec:  c.Match.RadiusFloorArcsec,
+		AmbiguityRatio:     c.Match.AmbiguityRatio,
+		PrimaryPosErrMas:   cats.Specs[0].PositionErrMas,
+		SecondaryPosErrMas: cats.Specs[k+1].PositionErrMas,
+		Workers:            workers,
+	}
 }
 
 // LoadRules loads the campaign's rule set (or override, when not empty)
