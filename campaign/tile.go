@@ -20,6 +20,9 @@ import (
 func (c *Campaign) TileText(header string, cats []catalog.Spec, ledgerFile string, t *Tile) ([]byte, error) {
 	doc := map[string]any{}
 	for _, s := range settings {
+		if s.name == "match.radius_floor_arcsec" && c.Match.NSigma == 0 {
+			continue // Parse refuses it without n_sigma
+		}
 		p := s.path()
 		m := doc
 		for _, k := range p[:len(p)-1] {

@@ -116,7 +116,7 @@ func (w *RunWriter) copyIn(ctx context.Context, tx *sql.Tx, srcRun int64, ids []
 		case "computed_in_run":
 			sel[k] = strconv.FormatInt(w.id, 10)
 		case "reason_list":
-			sel[k] = shiftFormsFunc + "(reason_list, " + strconv.FormatInt(base, 10) + ")"
+			sel[k] = "CASE WHEN reason_list IS NULL THEN NULL ELSE " + shiftFormsFunc + "(reason_list, " + strconv.FormatInt(base, 10) + ") END"
 		default:
 			sel[k] = c
 		}
@@ -147,7 +147,8 @@ func (w *RunWriter) copyIn(ctx context.Context, tx *sql.Tx, srcRun int64, ids []
 
 // shiftForms adds base to the form id of every entry of a reason list
 // ([[form_id, value(, message)], ...], see appendReason), leaving every
-// other byte as it is.
+// other byte as it is. The caller keeps NULL lists out: the driver
+// returns a Go nil as an empty string.
 func shiftForms(list string, base int64) (string, error) {
 	if base == 0 {
 		return list, nil

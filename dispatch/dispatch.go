@@ -227,3 +227,15 @@ func names(ts []Task) []string {
 	}
 	return out
 }
+
+// Forget removes the result markers of the named tasks (the final
+// included), so that the next Run runs them again: for a caller that knows
+// their inputs changed since they succeeded.
+func Forget(dir string, names ...string) error {
+	for _, n := range names {
+		if err := clearMarkers(dir, n); err != nil {
+			return err
+		}
+	}
+	return nil
+}

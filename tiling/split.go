@@ -98,11 +98,15 @@ func Split(ctx context.Context, e *vetting.Engine, c *campaign.Campaign, dir str
 	}
 	p.Order = opt.Order
 	p.FineOrder = fineOrder(p.Order, p.MarginArcsec)
+	if old != nil && old.Hops == p.Hops && p.ReachArcsec <= old.ReachArcsec {
+		// The old margin still covers the data: keeping it keeps the
+		// shards and campaigns of unchanged tiles, which need not run.
+		p.ReachArcsec, p.MarginArcsec, p.InnerArcsec, p.FineOrder = old.ReachArcsec, old.MarginArcsec, old.InnerArcsec, old.FineOrder
+	}
 	p.Geometry, err = fingerprint.JSON(struct {
-		Campaign               string
 		Order, FineOrder, Hops int
 		Reach, Margin, Inner   float64
-	}{p.CampaignHash, p.Order, p.FineOrder, p.Hops, p.ReachArcsec, p.MarginArcsec, p.InnerArcsec})
+	}{p.Order, p.FineOrder, p.Hops, p.ReachArcsec, p.MarginArcsec, p.InnerArcsec})
 	if err != nil {
 		return nil, err
 	}
@@ -355,7 +359,12 @@ func (p *Plan) writeTiles(ctx context.Context, c *campaign.Campaign, dir string,
 	if err != nil {
 		return err
 	}
-	return errors.Join(errs...)
+	for _, err := range errs {
+		if err != nil {
+			return err // the first; the others are usually the same
+		}
+	}
+	return nil
 }
 
 // writeQuarantine keeps the catalogs' quarantined rows for the gather and

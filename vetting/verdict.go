@@ -151,9 +151,16 @@ func KinematicReasons(v *db.VerdictRow, k ReasonThresholds) []db.ReasonRow {
 // (prevRunID, where its status was was) absent from the primary catalog
 // now.
 func withdrawnRecord(id string, cats *Catalogs, prevRunID int64, was string) db.StarRecord {
+	return WithdrawnRecord(id, cats.Primary.Name, cats.Primary.Release, prevRunID, was)
+}
+
+// WithdrawnRecord is the record of star id, absent now from the primary
+// catalog name (release), whose status in the previous complete run
+// prevRunID was was.
+func WithdrawnRecord(id, name, release string, prevRunID int64, was string) db.StarRecord {
 	return db.StarRecord{StarID: id,
 		Verdict: db.NewVerdictRow(string(verdict.Withdrawn)),
 		Reasons: []db.ReasonRow{{RuleID: string(verdict.Withdrawn), Outcome: "info", Value: math.NaN(),
 			Message: fmt.Sprintf("absent from the primary catalog %s (release %s); status in run %d was %s",
-				cats.Primary.Name, cats.Primary.Release, prevRunID, was)}}}
+				name, release, prevRunID, was)}}}
 }

@@ -1,0 +1,292 @@
+package tiling
+
+import (
+	"context"
+	"encoding/json"
+	"errors"
+	"fmt"
+	"os"
+	"path/filepath"
+	"slices"
+	"sort"
+	"strings"
+	"time"
+
+	"starvet/campaign"
+	"starvet/db"
+	"starvet/verdict"
+	"starvet/vetting"
+)
+
+// ErrIncomplete marks a set of tile ledgers that cannot be gathered.
+var ErrIncomplete = errors.New("the tiles cannot be gathered")
+
+// GatherOptions tune Gather.
+type GatherOptions struct {
+	Ledger      string // the campaign ledger to append the gathered run to
+	ToolVersion string
+	LockWait    time.Duration
+}
+
+// GatherSummary is what a gather did.
+type GatherSummary struct {
+	RunID     int64
+	PrevRunID int64
+	Tiles     int
+	Computed  int64 // stars copied (or withdrawn) in this run
+	Carried   int64 // stars carried from the previous gathered run
+	Counts    map[string]int64
+	Elapsed   time.Duration
+}
+
+// source is where a star of the gathered run comes from.
+type source struct {
+	tile int
+	star db.PrevStar
+}
+
+// Gather appends to opt.Ledger one run holding every star of the split in
+// dir as its tiles' ledgers last computed it. A star the tile ledger
+// computed in a run an earlier gather already took, unchanged, is carried
+// forward; every other star's rows are copied as the tile wrote them. It
+// refuses, listing every problem, a set with a tile never run, run from
+// another campaign or on other shards, a directory under tiles/ that is
+// not in the plan, or a star two tiles both hold.
+func Gather(ctx context.Context, dir string, opt GatherOptions) (*GatherSummary, error) {
+	t0 := time.Now()
+	p, err := ReadPlan(dir)
+	if err != nil {
+		return nil, err
+	}
+	c, err := campaign.Load(p.Campaign)
+	if err != nil {
+		return nil, err
+	}
+	if h := c.Hash(); h != p.CampaignHash {
+		return nil, fmt.Errorf("%s: campaign %s changed since the split (hash %.12s, split from %.12s): split again: %w", dir, p.Campaign, h, p.CampaignHash, ErrIncomplete)
+	}
+	states, err := States(ctx, dir, p)
+	if err != nil {
+		return nil, err
+	}
+	var problems []string
+	for _, st := range states {
+		if st.Problem != "" {
+			problems = append(problems, "tile "+st.Tile.Name+": "+st.Problem)
+		}
+	}
+	problems = append(problems, foreignTiles(dir, p)...)
+	if len(problems) > 0 {
+		return nil, problemList(dir, problems)
+	}
+	stars, problems, err := tileStars(ctx, dir, p, states)
+	if err != nil {
+		return nil, err
+	}
+	if len(problems) > 0 {
+		return nil, problemList(dir, problems)
+	}
+	info, err := vetting.RunInfo(c, opt.ToolVersion, "", allFull(states))
+	if err != nil {
+		return nil, err
+	}
+	info.Note = fmt.Sprintf("campaign %s, gathered from %d sky tiles in %s", c.File, len(p.Tiles), dir)
+	l, err := db.Open(ctx, opt.Ledger, db.Options{LockWait: opt.LockWait})
+	if err != nil {
+		return nil, err
+	}
+	defer l.Close()
+	prevRun, err := l.LastCompleteRun(ctx)
+	if err != nil {
+		return nil, err
+	}
+	prev := &db.PrevSet{}
+	prevTiles := map[string]db.TileRun{}
+	sum := &GatherSummary{Tiles: len(p.Tiles)}
+	if prevRun != nil {
+		sum.PrevRunID = prevRun.ID
+		if prev, err = l.PreviousState(ctx, prevRun.ID); err != nil {
+			return nil, err
+		}
+		if prevTiles, err = l.RunTiles(ctx, prevRun.ID); err != nil {
+			return nil, err
+		}
+	}
+	w, err := l.BeginRun(ctx, info)
+	if err != nil {
+		return nil, err
+	}
+	if err := gatherInto(ctx, w, dir, p, states, stars, prev, prevTiles, sum); err != nil {
+		_ = w.Fail(context.WithoutCancel(ctx), err)
+		return nil, err
+	}
+	sum.RunID = w.ID()
+	if sum.Counts, err = l.StatusCounts(ctx, sum.RunID); err != nil {
+		return nil, err
+	}
+	sum.Elapsed = time.Since(t0)
+	return sum, nil
+}
+
+// gatherInto writes the gathered run.
+func gatherInto(ctx context.Context, w *db.RunWriter, dir string, p *Plan, states []TileState, stars map[string]source,
+	prev *db.PrevSet, prevTiles map[string]db.TileRun, sum *GatherSummary) error {
+	for _, cr := range p.Catalogs {
+		if err := w.AddCatalog(ctx, cr); err != nil {
+			return err
+		}
+	}
+	var q []db.QuarantineRow
+	data, err := os.ReadFile(filepath.Join(dir, quarantineFile))
+	if err != nil {
+		return err
+	}
+	if err := json.Unmarshal(data, &q); err != nil {
+		return fmt.Errorf("%s: %w", filepath.Join(dir, quarantineFile), err)
+	}
+	if err := w.AddQuarantine(ctx, q); err != nil {
+		return err
+	}
+	primary := p.Catalogs[0]
+	type group struct {
+		tile int
+		run  int64
+	}
+	copies := map[group][]string{}
+	var withdrawn []db.StarRecord
+	ids := make([]string, 0, len(stars))
+	for id := range stars {
+		ids = append(ids, id)
+	}
+	sort.Strings(ids)
+	for _, id := range ids {
+		s := stars[id]
+		t := &p.Tiles[s.tile]
+		was, inPrev := prev.Find(id)
+		gathered := prevTiles[t.Name].TileRun
+		if inPrev && was.Status == s.star.Status && was.InputHash == s.star.InputHash && s.star.ComputedInRun <= gathered {
+			sum.Carried++
+			continue
+		}
+		if s.star.Status == string(verdict.Withdrawn) && inPrev {
+			withdrawn = append(withdrawn, vetting.WithdrawnRecord(id, primary.Name, primary.Release, sum.PrevRunID, was.Status))
+			continue
+		}
+		g := group{s.tile, s.star.ComputedInRun}
+		copies[g] = append(copies[g], id)
+	}
+	// Stars of the previous gathered run that no tile holds any more.
+	for k, id := range prev.IDs {
+		if _, ok := stars[id]; ok {
+			continue
+		}
+		if was := prev.Stars[k]; was.Status == string(verdict.Withdrawn) {
+			sum.Carried++
+		} else {
+			withdrawn = append(withdrawn, vetting.WithdrawnRecord(id, primary.Name, primary.Release, sum.PrevRunID, was.Status))
+		}
+	}
+	groups := make([]group, 0, len(copies))
+	for g := range copies {
+		groups = append(groups, g)
+	}
+	slices.SortFunc(groups, func(a, b group) int {
+		if a.tile != b.tile {
+			return a.tile - b.tile
+		}
+		return int(a.run - b.run)
+	})
+	for _, g := range groups {
+		n, err := w.CopyComputed(ctx, p.Tiles[g.tile].LedgerPath(dir), g.run, copies[g])
+		if err != nil {
+			return fmt.Errorf("tile %s: %w", p.Tiles[g.tile].Name, err)
+		}
+		sum.Computed += n
+	}
+	if len(withdrawn) > 0 {
+		if err := w.AddStars(ctx, withdrawn); err != nil {
+			return err
+		}
+		sum.Computed += int64(len(withdrawn))
+	}
+	tiles := make([]db.TileRun, len(states))
+	for k, st := range states {
+		tiles[k] = db.TileRun{Tile: st.Tile.Name, Ledger: st.Tile.LedgerPath(dir), TileRun: st.Run.ID}
+	}
+	if err := w.AddTiles(ctx, tiles); err != nil {
+		return err
+	}
+	return w.Finish(ctx, db.RunSummary{})
+}
+
+// tileStars reads every tile's set of stars. A star two tiles hold is a
+// problem unless all but one hold it withdrawn (it moved between tiles).
+func tileStars(ctx context.Context, dir string, p *Plan, states []TileState) (map[string]source, []string, error) {
+	stars := map[string]source{}
+	var problems []string
+	for k, st := range states {
+		l, err := db.Open(ctx, st.Tile.LedgerPath(dir), db.Options{ReadOnly: true})
+		if err != nil {
+			return nil, nil, err
+		}
+		set, err := l.PreviousState(ctx, st.Run.ID)
+		l.Close()
+		if err != nil {
+			return nil, nil, err
+		}
+		for i, id := range set.IDs {
+			s := source{tile: k, star: set.Stars[i]}
+			other, ok := stars[id]
+			switch {
+			case !ok:
+				stars[id] = s
+			case other.star.Status == string(verdict.Withdrawn):
+				stars[id] = s
+			case s.star.Status == string(verdict.Withdrawn):
+			default:
+				problems = append(problems, fmt.Sprintf("star %s is held by tiles %s and %s", id, p.Tiles[other.tile].Name, st.Tile.Name))
+			}
+		}
+	}
+	return stars, problems, nil
+}
+
+// foreignTiles lists directories under tiles/ that the plan does not name.
+func foreignTiles(dir string, p *Plan) []string {
+	entries, err := os.ReadDir(filepath.Join(dir, tilesDir))
+	if err != nil {
+		return []string{err.Error()}
+	}
+	var out []string
+	for _, e := range entries {
+		if !e.IsDir() {
+			continue
+		}
+		if !slices.ContainsFunc(p.Tiles, func(t Tile) bool { return t.Name == e.Name() }) {
+			out = append(out, fmt.Sprintf("%s is not a tile of this split's plan (order %d)", filepath.Join(dir, tilesDir, e.Name()), p.Order))
+		}
+	}
+	return out
+}
+
+// allFull reports whether every tile's run recomputed every star on
+// request (--full).
+func allFull(states []TileState) bool {
+	for _, st := range states {
+		if !st.Run.Full {
+			return false
+		}
+	}
+	return len(states) > 0
+}
+
+// maxListed bounds the problems an error lists.
+const maxListed = 50
+
+func problemList(dir string, problems []string) error {
+	n := len(problems)
+	if n > maxListed {
+		problems = append(problems[:maxListed], fmt.Sprintf("... and %d more", n-maxListed))
+	}
+	return fmt.Errorf("%s: %w (%d problems):\n  %s", dir, ErrIncomplete, n, strings.Join(problems, "\n  "))
+}
