@@ -101,10 +101,22 @@ func (w *RunWriter) copyIn(ctx context.Context, tx *sql.Tx, srcRun int64, ids []
 	if legacy > 0 {
 		return 0, fmt.Errorf("%d reasons are stored the way ledgers before schema 10 stored them; re-run the tile with this build", legacy)
 	}
-	var base int64
+	// The copied forms take ids above every form of this run, those the
+	// writer made for AddStars included, and reserve them there.
+	var base, srcMax int64
 	if err := tx.QueryRowContext(ctx, `SELECT coalesce(max(form_id) + 1, 0) FROM main.reason_forms WHERE run_id = ?`, w.id).Scan(&base); err != nil {
 		return 0, err
 	}
+	if err := tx.QueryRowContext(ctx, `SELECT coalesce(max(form_id), -1) FROM src.reason_forms WHERE run_id = ?`, srcRun).Scan(&srcMax); err != nil {
+		return 0, err
+	}
+	w.formMu.Lock()
+	base = max(base, int64(len(w.formList)))
+	for int64(len(w.formList)) <= base+srcMax {
+		w.formList = append(w.formList, form{id: int64(len(w.formList))})
+		w.formWritten = append(w.formWritten, true) // a copied form, or a gap: never written by AddEncoded
+	}
+	w.formMu.Unlock()
 	if _, err := tx.ExecContext(ctx, `INSERT INTO main.reason_forms (run_id, form_id, rule_id, outcome, severity, threshold, message)
 		SELECT ?, form_id + ?, rule_id, outcome, severity, threshold, message FROM src.reason_forms WHERE run_id = ?`, w.id, base, srcRun); err != nil {
 		return 0, err

@@ -168,8 +168,13 @@ func gatherInto(ctx context.Context, w *db.RunWriter, dir string, p *Plan, state
 			sum.Carried++
 			continue
 		}
-		if s.star.Status == string(verdict.Withdrawn) && inPrev {
-			withdrawn = append(withdrawn, vetting.WithdrawnRecord(id, primary.Name, primary.Release, sum.PrevRunID, was.Status))
+		if s.star.Status == string(verdict.Withdrawn) {
+			// Written as a single run writes it (naming the campaign's
+			// previous run); a star the campaign ledger never had is
+			// not a star of a single run either.
+			if inPrev {
+				withdrawn = append(withdrawn, vetting.WithdrawnRecord(id, primary.Name, primary.Release, sum.PrevRunID, was.Status))
+			}
 			continue
 		}
 		g := group{s.tile, s.star.ComputedInRun}
@@ -219,21 +224,33 @@ func gatherInto(ctx context.Context, w *db.RunWriter, dir string, p *Plan, state
 	return w.Finish(ctx, db.RunSummary{})
 }
 
-// tileStars reads every tile's set of stars. A star two tiles hold is a
-// problem unless all but one hold it withdrawn (it moved between tiles).
+// tileStars reads every tile's set of stars (mergeSets).
 func tileStars(ctx context.Context, dir string, p *Plan, states []TileState) (map[string]source, []string, error) {
-	stars := map[string]source{}
-	var problems []string
+	sets := make([]*db.PrevSet, len(states))
+	names := make([]string, len(states))
 	for k, st := range states {
 		l, err := db.Open(ctx, st.Tile.LedgerPath(dir), db.Options{ReadOnly: true})
 		if err != nil {
 			return nil, nil, err
 		}
-		set, err := l.PreviousState(ctx, st.Run.ID)
+		sets[k], err = l.PreviousState(ctx, st.Run.ID)
 		l.Close()
 		if err != nil {
 			return nil, nil, err
 		}
+		names[k] = st.Tile.Name
+	}
+	stars, problems := mergeSets(sets, names)
+	return stars, problems, nil
+}
+
+// mergeSets joins the tiles' sets of stars. A star two tiles hold is a
+// problem unless all but one hold it withdrawn (it moved between tiles
+// after an update of its position).
+func mergeSets(sets []*db.PrevSet, names []string) (map[string]source, []string) {
+	stars := map[string]source{}
+	var problems []string
+	for k, set := range sets {
 		for i, id := range set.IDs {
 			s := source{tile: k, star: set.Stars[i]}
 			other, ok := stars[id]
@@ -244,11 +261,11 @@ func tileStars(ctx context.Context, dir string, p *Plan, states []TileState) (ma
 				stars[id] = s
 			case s.star.Status == string(verdict.Withdrawn):
 			default:
-				problems = append(problems, fmt.Sprintf("star %s is held by tiles %s and %s", id, p.Tiles[other.tile].Name, st.Tile.Name))
+				problems = append(problems, fmt.Sprintf("star %s is held by tiles %s and %s", id, names[other.tile], names[k]))
 			}
 		}
 	}
-	return stars, problems, nil
+	return stars, problems
 }
 
 // foreignTiles lists directories under tiles/ that the plan does not name.

@@ -78,6 +78,9 @@ type Tile struct {
 	// has both is up to date.
 	CampaignHash string            `json:"campaign_hash"`
 	Shards       map[string]string `json:"shards"`
+	// Contents fingerprints each shard's ids and values (splitting
+	// again keeps a shard whose content is unchanged).
+	Contents map[string]string `json:"contents"`
 }
 
 // Dir is the tile's directory under the split directory dir.

@@ -3,6 +3,7 @@ package tiling
 import (
 	"context"
 	"crypto/sha256"
+	"encoding/binary"
 	"encoding/hex"
 	"errors"
 	"fmt"
@@ -115,7 +116,7 @@ func Split(ctx context.Context, e *vetting.Engine, c *campaign.Campaign, dir str
 	if err != nil {
 		return nil, err
 	}
-	if err := p.writeTiles(ctx, c, dir, cats, members, e.Workers); err != nil {
+	if err := p.writeTiles(ctx, c, dir, cats, members, old, e.Workers); err != nil {
 		return nil, err
 	}
 	p.Catalogs, err = writeQuarantine(dir, cats)
@@ -221,7 +222,7 @@ func (p *Plan) makeTiles(owners []uint64, unplaced []bool, old *Plan) {
 	pixels = slices.Compact(pixels)
 	p.Tiles = make([]Tile, len(pixels))
 	for k, px := range pixels {
-		p.Tiles[k] = Tile{Name: tileName(p.Order, px), Pixel: px, Unplaced: k == 0, Rows: map[string]int{}, Shards: map[string]string{}}
+		p.Tiles[k] = Tile{Name: tileName(p.Order, px), Pixel: px, Unplaced: k == 0, Rows: map[string]int{}, Shards: map[string]string{}, Contents: map[string]string{}}
 	}
 	for i, o := range owners {
 		if unplaced[i] {
@@ -311,8 +312,14 @@ func (p *Plan) assign(ctx context.Context, cats *vetting.Catalogs, owners []uint
 
 // writeTiles writes every tile's shards and campaign, several tiles at
 // once, and records their counts and hashes in the plan.
-func (p *Plan) writeTiles(ctx context.Context, c *campaign.Campaign, dir string, cats *vetting.Catalogs, members [][][]int32, workers int) error {
+func (p *Plan) writeTiles(ctx context.Context, c *campaign.Campaign, dir string, cats *vetting.Catalogs, members [][][]int32, old *Plan, workers int) error {
 	tables := append([]*catalog.Table{cats.Primary}, cats.Secondaries...)
+	oldTiles := map[string]*Tile{}
+	if old != nil {
+		for k := range old.Tiles {
+			oldTiles[old.Tiles[k].Name] = &old.Tiles[k]
+		}
+	}
 	errs := make([]error, len(p.Tiles))
 	err := parallel.Batches(ctx, len(p.Tiles), 1, workers, func(_ *struct{}, k, _ int) {
 		t := &p.Tiles[k]
@@ -327,16 +334,32 @@ func (p *Plan) writeTiles(ctx context.Context, c *campaign.Campaign, dir string,
 				file := spec.Name + ".shard"
 				path := filepath.Join(tdir, file)
 				rows := members[ci][k]
-				if err := shard.Write(path, tab, rows); err != nil {
+				content := contentHash(tab, rows)
+				t.Rows[spec.Name], t.Contents[spec.Name] = len(rows), content
+				if ot := oldTiles[t.Name]; ot != nil && ot.Contents[spec.Name] == content {
+					// The same rows as the shard written before: keep its
+					// bytes (its source lines may be an older release's,
+					// used only in error messages the split would have
+					// raised first), so its tile need not run again.
+					if sum, err := fileSHA256(path); err == nil && sum == ot.Shards[spec.Name] {
+						t.Shards[spec.Name] = sum
+						specs = append(specs, tileSpec(spec, file, tab))
+						continue
+					}
+				}
+				// Without the release label, which changes with every
+				// release but changes no result.
+				unlabelled := *tab
+				unlabelled.Release = ""
+				if err := shard.Write(path, &unlabelled, rows); err != nil {
 					return err
 				}
 				sum, err := fileSHA256(path)
 				if err != nil {
 					return err
 				}
-				t.Rows[spec.Name], t.Shards[spec.Name] = len(rows), sum
-				specs = append(specs, catalog.Spec{Name: spec.Name, File: file, Format: catalog.FormatShard, Role: spec.Role,
-					EpochJyr: tab.EpochJyr, Release: spec.Release, PositionErrMas: spec.PositionErrMas})
+				t.Shards[spec.Name] = sum
+				specs = append(specs, tileSpec(spec, file, tab))
 			}
 			header := fmt.Sprintf("Sky tile %s (HEALPix order %d, nested pixel %d) of campaign %s,\nwritten by starvet tile. Do not edit: split the campaign again instead.", t.Name, p.Order, t.Pixel, p.Campaign)
 			text, err := c.TileText(header, specs, tileLedger, &campaign.Tile{Order: p.Order, Pixel: t.Pixel, Unplaced: t.Unplaced,
@@ -365,6 +388,41 @@ func (p *Plan) writeTiles(ctx context.Context, c *campaign.Campaign, dir string,
 		}
 	}
 	return nil
+}
+
+// tileSpec is the tile campaign's entry for the shard file of a catalog.
+func tileSpec(spec catalog.Spec, file string, tab *catalog.Table) catalog.Spec {
+	return catalog.Spec{Name: spec.Name, File: file, Format: catalog.FormatShard, Role: spec.Role,
+		EpochJyr: tab.EpochJyr, PositionErrMas: spec.PositionErrMas}
+}
+
+// contentHash fingerprints what a shard holds that can change a result:
+// the catalog's name, role and epoch and, row by row, the id and every
+// value (not the source line).
+func contentHash(t *catalog.Table, rows []int32) string {
+	h := sha256.New()
+	var buf []byte
+	buf = append(buf, t.Name...)
+	buf = append(buf, 0)
+	buf = append(buf, t.Role...)
+	buf = binary.LittleEndian.AppendUint64(append(buf, 0), math.Float64bits(t.EpochJyr))
+	for f := range t.Cols {
+		if t.Cols[f] != nil {
+			buf = append(buf, byte(f))
+		}
+	}
+	h.Write(buf)
+	for _, i := range rows {
+		buf = append(buf[:0], t.IDs[i]...)
+		buf = append(buf, 0)
+		for f := range t.Cols {
+			if c := t.Cols[f]; c != nil {
+				buf = binary.LittleEndian.AppendUint64(buf, math.Float64bits(c[i]))
+			}
+		}
+		h.Write(buf)
+	}
+	return hex.EncodeToString(h.Sum(nil))
 }
 
 // writeQuarantine keeps the catalogs' quarantined rows for the gather and
