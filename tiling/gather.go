@@ -79,7 +79,7 @@ func Gather(ctx context.Context, dir string, opt GatherOptions) (*GatherSummary,
 	if len(problems) > 0 {
 		return nil, problemList(dir, problems)
 	}
-	stars, problems, err := tileStars(ctx, dir, p, states)
+	stars, sets, problems, err := tileStars(ctx, dir, p, states)
 	if err != nil {
 		return nil, err
 	}
@@ -116,7 +116,7 @@ func Gather(ctx context.Context, dir string, opt GatherOptions) (*GatherSummary,
 	if err != nil {
 		return nil, err
 	}
-	if err := gatherInto(ctx, w, dir, p, states, stars, prev, prevTiles, sum); err != nil {
+	if err := gatherInto(ctx, w, dir, p, states, stars, sets, prev, prevTiles, sum); err != nil {
 		_ = w.Fail(context.WithoutCancel(ctx), err)
 		return nil, err
 	}
@@ -130,7 +130,7 @@ func Gather(ctx context.Context, dir string, opt GatherOptions) (*GatherSummary,
 
 // gatherInto writes the gathered run.
 func gatherInto(ctx context.Context, w *db.RunWriter, dir string, p *Plan, states []TileState, stars map[string]source,
-	prev *db.PrevSet, prevTiles map[string]db.TileRun, sum *GatherSummary) error {
+	sets []*db.PrevSet, prev *db.PrevSet, prevTiles map[string]db.TileRun, sum *GatherSummary) error {
 	for _, cr := range p.Catalogs {
 		if err := w.AddCatalog(ctx, cr); err != nil {
 			return err
@@ -153,6 +153,7 @@ func gatherInto(ctx context.Context, w *db.RunWriter, dir string, p *Plan, state
 		run  int64
 	}
 	copies := map[group][]string{}
+	copyFrom := map[string]group{}
 	var withdrawn []db.StarRecord
 	ids := make([]string, 0, len(stars))
 	for id := range stars {
@@ -179,6 +180,7 @@ func gatherInto(ctx context.Context, w *db.RunWriter, dir string, p *Plan, state
 		}
 		g := group{s.tile, s.star.ComputedInRun}
 		copies[g] = append(copies[g], id)
+		copyFrom[id] = g
 	}
 	// Stars of the previous gathered run that no tile holds any more.
 	for k, id := range prev.IDs {
@@ -191,9 +193,28 @@ func gatherInto(ctx context.Context, w *db.RunWriter, dir string, p *Plan, state
 			withdrawn = append(withdrawn, vetting.WithdrawnRecord(id, primary.Name, primary.Release, sum.PrevRunID, was.Status))
 		}
 	}
+	// A tile's last run's stars are copied as "all it computed but these"
+	// (few, or none); an earlier run's as a list.
+	var sources []db.CopySource
+	for k, st := range states {
+		latest := st.Run.ID
+		var except []string
+		for i, id := range sets[k].IDs {
+			if s := sets[k].Stars[i]; s.ComputedInRun == latest {
+				if g, ok := copyFrom[id]; !ok || g != (group{k, latest}) {
+					except = append(except, id)
+				}
+			}
+		}
+		if len(copies[group{k, latest}]) > 0 {
+			sources = append(sources, db.CopySource{Path: st.Tile.LedgerPath(dir), Run: latest, IDs: except, Except: true})
+		}
+	}
 	groups := make([]group, 0, len(copies))
 	for g := range copies {
-		groups = append(groups, g)
+		if g.run != states[g.tile].Run.ID {
+			groups = append(groups, g)
+		}
 	}
 	slices.SortFunc(groups, func(a, b group) int {
 		if a.tile != b.tile {
@@ -202,12 +223,13 @@ func gatherInto(ctx context.Context, w *db.RunWriter, dir string, p *Plan, state
 		return int(a.run - b.run)
 	})
 	for _, g := range groups {
-		n, err := w.CopyComputed(ctx, p.Tiles[g.tile].LedgerPath(dir), g.run, copies[g])
-		if err != nil {
-			return fmt.Errorf("tile %s: %w", p.Tiles[g.tile].Name, err)
-		}
-		sum.Computed += n
+		sources = append(sources, db.CopySource{Path: p.Tiles[g.tile].LedgerPath(dir), Run: g.run, IDs: copies[g]})
 	}
+	n, err := w.CopyComputed(ctx, sources)
+	if err != nil {
+		return err
+	}
+	sum.Computed += n
 	if len(withdrawn) > 0 {
 		if err := w.AddStars(ctx, withdrawn); err != nil {
 			return err
@@ -225,23 +247,23 @@ func gatherInto(ctx context.Context, w *db.RunWriter, dir string, p *Plan, state
 }
 
 // tileStars reads every tile's set of stars (mergeSets).
-func tileStars(ctx context.Context, dir string, p *Plan, states []TileState) (map[string]source, []string, error) {
+func tileStars(ctx context.Context, dir string, p *Plan, states []TileState) (map[string]source, []*db.PrevSet, []string, error) {
 	sets := make([]*db.PrevSet, len(states))
 	names := make([]string, len(states))
 	for k, st := range states {
 		l, err := db.Open(ctx, st.Tile.LedgerPath(dir), db.Options{ReadOnly: true})
 		if err != nil {
-			return nil, nil, err
+			return nil, nil, nil, err
 		}
 		sets[k], err = l.PreviousState(ctx, st.Run.ID)
 		l.Close()
 		if err != nil {
-			return nil, nil, err
+			return nil, nil, nil, err
 		}
 		names[k] = st.Tile.Name
 	}
 	stars, problems := mergeSets(sets, names)
-	return stars, problems, nil
+	return stars, sets, problems, nil
 }
 
 // mergeSets joins the tiles' sets of stars. A star two tiles hold is a

@@ -55,9 +55,8 @@ type benchCampaign struct {
 
 // writeBenchCampaign writes the catalogs and one campaign file per sample
 // count. Seeded, so every invocation writes the same bytes.
-func writeBenchCampaign(b *testing.B, samples []int) *benchCampaign {
+func writeBenchCampaign(b testing.TB, dir string, samples []int) *benchCampaign {
 	b.Helper()
-	dir := b.TempDir()
 	bc := &benchCampaign{dir: dir, primary: filepath.Join(dir, "primary.csv"),
 		primaryV1: filepath.Join(dir, "primary_v1.csv"), primaryV2: filepath.Join(dir, "primary_v2.csv"),
 		secondary: filepath.Join(dir, "spec.csv"), campaigns: map[int]string{}}
@@ -448,6 +447,25 @@ func reportRun(b *testing.B, sums []*Summary, clocks []*stageClock, growthBytes 
 // Sub-benchmarks by Monte Carlo samples per star (1000 is the campaign
 // default); full is a --full run into a fresh ledger, incremental reruns
 // after 1% of the primary stars changed (only the rerun is timed).
+// TestWriteBenchCampaign writes the benchmark's campaign (catalogs and a
+// campaign file per sample count, primary.csv the first release) into the
+// directory STARVET_BENCH_CAMPAIGN names, for benchmarks run through the
+// starvet binary (the tiled run of BENCHMARKS.md); without it, it skips.
+func TestWriteBenchCampaign(t *testing.T) {
+	dir := os.Getenv("STARVET_BENCH_CAMPAIGN")
+	if dir == "" {
+		t.Skip("STARVET_BENCH_CAMPAIGN not set")
+	}
+	if err := os.MkdirAll(dir, 0o755); err != nil {
+		t.Fatal(err)
+	}
+	bc := writeBenchCampaign(t, dir, []int{1000, 100})
+	if err := copyFile(bc.primary, bc.primaryV1); err != nil {
+		t.Fatal(err)
+	}
+	t.Logf("campaigns %v in %s", bc.campaigns, dir)
+}
+
 func BenchmarkRun1M(b *testing.B) {
 	if testing.Short() {
 		b.Skip("1M-star end-to-end run")
@@ -455,7 +473,7 @@ func BenchmarkRun1M(b *testing.B) {
 	// As the starvet binary runs (GCPercent).
 	defer debug.SetGCPercent(debug.SetGCPercent(GCPercent))
 	samples := []int{1000, 100}
-	bc := writeBenchCampaign(b, samples)
+	bc := writeBenchCampaign(b, b.TempDir(), samples)
 	b.Logf("primary: %d stars, %.1f%% with parallax_significance >= 5; %d changed in the second release",
 		benchStars, 100*bc.poe5Frac, bc.changedIDs)
 	ctx := context.Background()

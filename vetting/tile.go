@@ -57,6 +57,12 @@ func InnerRows(ctx context.Context, t *campaign.Tile, tab *catalog.Table, worker
 				inner[i] = t.Unplaced
 				continue
 			}
+			if p, _ := Owner(t.Order, ra[i], dec[i]); p == t.Pixel {
+				// A row in the tile: its own fine pixel is the tile's, so
+				// ParentsNear would find the tile at any radius.
+				inner[i] = true
+				continue
+			}
 			var parents []uint64
 			parents, sc[0] = healpix.ParentsNear(t.Order, t.FineOrder, (90-dec[i])*units.RadPerDeg, ra[i]*units.RadPerDeg, radius, sc[0], sc[1])
 			sc[1] = parents
