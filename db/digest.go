@@ -111,4 +111,3 @@ func appendDigestValue(b []byte, v any) []byte {
 	}
 	return append(b, fmt.Sprintf("=%T:%v;", v, v)...)
 }
-
