@@ -1,6 +1,7 @@
 package tiling
 
 import (
+	"container/heap"
 	"context"
 	"encoding/json"
 	"errors"
@@ -8,7 +9,6 @@ import (
 	"os"
 	"path/filepath"
 	"slices"
-	"sort"
 	"strings"
 	"time"
 
@@ -39,10 +39,12 @@ type GatherSummary struct {
 	Elapsed   time.Duration
 }
 
-// source is where a star of the gathered run comes from.
+// source is where a star of the gathered run comes from: its entry idx
+// in tile's set.
 type source struct {
-	tile int
-	star db.PrevStar
+	id        string
+	tile, idx int
+	star      db.PrevStar
 }
 
 // Gather appends to opt.Ledger one run holding every star of the split in
@@ -129,7 +131,7 @@ func Gather(ctx context.Context, dir string, opt GatherOptions) (*GatherSummary,
 }
 
 // gatherInto writes the gathered run.
-func gatherInto(ctx context.Context, w *db.RunWriter, dir string, p *Plan, states []TileState, stars map[string]source,
+func gatherInto(ctx context.Context, w *db.RunWriter, dir string, p *Plan, states []TileState, stars []source,
 	sets []*db.PrevSet, prev *db.PrevSet, prevTiles map[string]db.TileRun, sum *GatherSummary) error {
 	for _, cr := range p.Catalogs {
 		if err := w.AddCatalog(ctx, cr); err != nil {
@@ -153,18 +155,30 @@ func gatherInto(ctx context.Context, w *db.RunWriter, dir string, p *Plan, state
 		run  int64
 	}
 	copies := map[group][]string{}
-	copyFrom := map[string]group{}
-	var withdrawn []db.StarRecord
-	ids := make([]string, 0, len(stars))
-	for id := range stars {
-		ids = append(ids, id)
+	// copied[k][i]: tile k's set entry i is copied from the tile's last run.
+	copied := make([][]bool, len(sets))
+	for k, set := range sets {
+		copied[k] = make([]bool, set.Len())
 	}
-	sort.Strings(ids)
-	for _, id := range ids {
-		s := stars[id]
-		t := &p.Tiles[s.tile]
-		was, inPrev := prev.Find(id)
-		gathered := prevTiles[t.Name].TileRun
+	var withdrawn []db.StarRecord
+	// Both lists are in star id order: walk them side by side.
+	j := 0
+	for _, s := range stars {
+		for ; j < prev.Len() && prev.IDs[j] < s.id; j++ {
+			// A star of the previous gathered run no tile holds any more.
+			if was := prev.Stars[j]; was.Status == string(verdict.Withdrawn) {
+				sum.Carried++
+			} else {
+				withdrawn = append(withdrawn, vetting.WithdrawnRecord(prev.IDs[j], primary.Name, primary.Release, sum.PrevRunID, was.Status))
+			}
+		}
+		var was db.PrevStar
+		inPrev := j < prev.Len() && prev.IDs[j] == s.id
+		if inPrev {
+			was = prev.Stars[j]
+			j++
+		}
+		gathered := prevTiles[p.Tiles[s.tile].Name].TileRun
 		if inPrev && was.Status == s.star.Status && was.InputHash == s.star.InputHash && s.star.ComputedInRun <= gathered {
 			sum.Carried++
 			continue
@@ -174,23 +188,21 @@ func gatherInto(ctx context.Context, w *db.RunWriter, dir string, p *Plan, state
 			// previous run); a star the campaign ledger never had is
 			// not a star of a single run either.
 			if inPrev {
-				withdrawn = append(withdrawn, vetting.WithdrawnRecord(id, primary.Name, primary.Release, sum.PrevRunID, was.Status))
+				withdrawn = append(withdrawn, vetting.WithdrawnRecord(s.id, primary.Name, primary.Release, sum.PrevRunID, was.Status))
 			}
 			continue
 		}
 		g := group{s.tile, s.star.ComputedInRun}
-		copies[g] = append(copies[g], id)
-		copyFrom[id] = g
-	}
-	// Stars of the previous gathered run that no tile holds any more.
-	for k, id := range prev.IDs {
-		if _, ok := stars[id]; ok {
-			continue
+		if g.run == states[s.tile].Run.ID {
+			copied[s.tile][s.idx] = true
 		}
-		if was := prev.Stars[k]; was.Status == string(verdict.Withdrawn) {
+		copies[g] = append(copies[g], s.id)
+	}
+	for ; j < prev.Len(); j++ {
+		if was := prev.Stars[j]; was.Status == string(verdict.Withdrawn) {
 			sum.Carried++
 		} else {
-			withdrawn = append(withdrawn, vetting.WithdrawnRecord(id, primary.Name, primary.Release, sum.PrevRunID, was.Status))
+			withdrawn = append(withdrawn, vetting.WithdrawnRecord(prev.IDs[j], primary.Name, primary.Release, sum.PrevRunID, was.Status))
 		}
 	}
 	// A tile's last run's stars are copied as "all it computed but these"
@@ -200,10 +212,8 @@ func gatherInto(ctx context.Context, w *db.RunWriter, dir string, p *Plan, state
 		latest := st.Run.ID
 		var except []string
 		for i, id := range sets[k].IDs {
-			if s := sets[k].Stars[i]; s.ComputedInRun == latest {
-				if g, ok := copyFrom[id]; !ok || g != (group{k, latest}) {
-					except = append(except, id)
-				}
+			if sets[k].Stars[i].ComputedInRun == latest && !copied[k][i] {
+				except = append(except, id)
 			}
 		}
 		if len(copies[group{k, latest}]) > 0 {
@@ -247,7 +257,7 @@ func gatherInto(ctx context.Context, w *db.RunWriter, dir string, p *Plan, state
 }
 
 // tileStars reads every tile's set of stars (mergeSets).
-func tileStars(ctx context.Context, dir string, p *Plan, states []TileState) (map[string]source, []*db.PrevSet, []string, error) {
+func tileStars(ctx context.Context, dir string, p *Plan, states []TileState) ([]source, []*db.PrevSet, []string, error) {
 	sets := make([]*db.PrevSet, len(states))
 	names := make([]string, len(states))
 	for k, st := range states {
@@ -266,28 +276,71 @@ func tileStars(ctx context.Context, dir string, p *Plan, states []TileState) (ma
 	return stars, sets, problems, nil
 }
 
-// mergeSets joins the tiles' sets of stars. A star two tiles hold is a
-// problem unless all but one hold it withdrawn (it moved between tiles
-// after an update of its position).
-func mergeSets(sets []*db.PrevSet, names []string) (map[string]source, []string) {
-	stars := map[string]source{}
+// mergeSets joins the tiles' sets of stars, each in star id order, into
+// one list in star id order (a k-way merge: no map of every star). A star
+// two tiles hold is a problem unless all but one hold it withdrawn (it
+// moved between tiles after an update of its position); the live one is
+// kept.
+func mergeSets(sets []*db.PrevSet, names []string) ([]source, []string) {
+	total := 0
+	for _, set := range sets {
+		total += set.Len()
+	}
+	out := make([]source, 0, total)
 	var problems []string
+	h := &cursors{sets: sets}
 	for k, set := range sets {
-		for i, id := range set.IDs {
-			s := source{tile: k, star: set.Stars[i]}
-			other, ok := stars[id]
-			switch {
-			case !ok:
-				stars[id] = s
-			case other.star.Status == string(verdict.Withdrawn):
-				stars[id] = s
-			case s.star.Status == string(verdict.Withdrawn):
-			default:
-				problems = append(problems, fmt.Sprintf("star %s is held by tiles %s and %s", id, names[other.tile], names[k]))
-			}
+		if set.Len() > 0 {
+			h.at = append(h.at, cursor{tile: k})
 		}
 	}
-	return stars, problems
+	heap.Init(h)
+	for h.Len() > 0 {
+		c := h.at[0]
+		s := source{tile: c.tile, idx: c.idx, id: sets[c.tile].IDs[c.idx], star: sets[c.tile].Stars[c.idx]}
+		if n := len(out); n > 0 && out[n-1].id == s.id {
+			prev := &out[n-1]
+			switch {
+			case prev.star.Status == string(verdict.Withdrawn):
+				*prev = s
+			case s.star.Status == string(verdict.Withdrawn):
+			default:
+				problems = append(problems, fmt.Sprintf("star %s is held by tiles %s and %s", s.id, names[prev.tile], names[s.tile]))
+			}
+		} else {
+			out = append(out, s)
+		}
+		if h.at[0].idx++; h.at[0].idx == sets[c.tile].Len() {
+			heap.Pop(h)
+		} else {
+			heap.Fix(h, 0)
+		}
+	}
+	return out, problems
+}
+
+// cursors is a heap of positions in the tiles' sets, by star id.
+type cursors struct {
+	sets []*db.PrevSet
+	at   []cursor
+}
+
+type cursor struct{ tile, idx int }
+
+func (h *cursors) Len() int { return len(h.at) }
+func (h *cursors) Less(i, j int) bool {
+	a, b := h.at[i], h.at[j]
+	if x, y := h.sets[a.tile].IDs[a.idx], h.sets[b.tile].IDs[b.idx]; x != y {
+		return x < y
+	}
+	return a.tile < b.tile
+}
+func (h *cursors) Swap(i, j int) { h.at[i], h.at[j] = h.at[j], h.at[i] }
+func (h *cursors) Push(x any)    { h.at = append(h.at, x.(cursor)) }
+func (h *cursors) Pop() any {
+	x := h.at[len(h.at)-1]
+	h.at = h.at[:len(h.at)-1]
+	return x
 }
 
 // foreignTiles lists directories under tiles/ that the plan does not name.

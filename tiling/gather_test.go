@@ -6,6 +6,7 @@ import (
 	"math/rand/v2"
 	"os"
 	"path/filepath"
+	"slices"
 	"strings"
 	"testing"
 
@@ -30,14 +31,18 @@ func TestMergeSets(t *testing.T) {
 	if len(problems) != 1 || !strings.Contains(problems[0], "star c is held by tiles t0 and t1") {
 		t.Errorf("problems %q, want only star c held twice", problems)
 	}
-	if s := stars["b"]; s.tile != 1 || s.star.Status != "unbound" {
+	var ids []string
+	for _, s := range stars {
+		ids = append(ids, s.id)
+	}
+	if !slices.Equal(ids, []string{"a", "b", "c", "d"}) {
+		t.Fatalf("stars %v, want a b c d once each in order", ids)
+	}
+	if s := stars[1]; s.tile != 1 || s.idx != 0 || s.star.Status != "unbound" {
 		t.Errorf("star b: %+v, want tile 1's live verdict over tile 0's withdrawal", s)
 	}
-	if s := stars["d"]; s.star.Status != "withdrawn" {
+	if s := stars[3]; s.star.Status != "withdrawn" {
 		t.Errorf("star d: %+v, want withdrawn", s)
-	}
-	if len(stars) != 4 {
-		t.Errorf("%d stars, want 4", len(stars))
 	}
 }
 
