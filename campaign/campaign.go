@@ -38,6 +38,20 @@ type Campaign struct {
 	// Tile is set for one sky tile's campaign, written by a split
 	// (package tiling); nil for a whole campaign.
 	Tile *Tile
+	// Slurm holds the batch options for running the campaign's tiles on a
+	// cluster ([slurm]); they change no result and enter no fingerprint.
+	Slurm Slurm
+}
+
+// Slurm is the [slurm] table: options of the job array that runs a split
+// campaign's tiles (starvet dispatch --executor slurm; its flags win).
+type Slurm struct {
+	Partition    string `toml:"partition"`
+	Account      string `toml:"account"`
+	Time         string `toml:"time"` // per array task, e.g. "02:00:00"
+	Mem          string `toml:"mem"`  // per array task, e.g. "8G"
+	TilesPerTask int    `toml:"tiles_per_task"`
+	MaxRunning   int    `toml:"max_running"`
 }
 
 // Tile says which part of a split campaign a tile's campaign is. Its
@@ -170,6 +184,7 @@ type raw struct {
 	Catalog     []rawCat  `toml:"catalog"`
 	Potential   *rawPot   `toml:"potential"`
 	Tile        *rawTile  `toml:"tile"`
+	Slurm       *Slurm    `toml:"slurm"`
 }
 
 type rawTile struct {
@@ -308,6 +323,12 @@ func (p *parser) build(r *raw, given map[string]any, name, dir string) *Campaign
 	p.potential(c, r.Potential)
 	p.kinematics(c)
 	p.tile(c, r.Tile)
+	if r.Slurm != nil {
+		c.Slurm = *r.Slurm
+		if c.Slurm.TilesPerTask < 0 || c.Slurm.MaxRunning < 0 {
+			p.bad(p.pos.Near("slurm"), "slurm", ErrBadValue, "tiles_per_task and max_running must be >= 0")
+		}
+	}
 	return c
 }
 

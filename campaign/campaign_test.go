@@ -393,3 +393,28 @@ func TestFormatKeys(t *testing.T) {
 		}
 	}
 }
+
+// The [slurm] table is read, checked, and enters no fingerprint: changing
+// where tiles run changes no result.
+func TestSlurmTable(t *testing.T) {
+	plain, err := Parse("camp.toml", []byte(baseText), "/data")
+	if err != nil {
+		t.Fatal(err)
+	}
+	c, err := Parse("camp.toml", []byte(baseText+"[slurm]\npartition = \"long\"\naccount = \"grp\"\ntime = \"01:00:00\"\nmem = \"4G\"\ntiles_per_task = 3\nmax_running = 20\n"), "/data")
+	if err != nil {
+		t.Fatal(err)
+	}
+	want := Slurm{Partition: "long", Account: "grp", Time: "01:00:00", Mem: "4G", TilesPerTask: 3, MaxRunning: 20}
+	if c.Slurm != want {
+		t.Errorf("slurm %+v, want %+v", c.Slurm, want)
+	}
+	if c.Hash() != plain.Hash() || c.ModelHash() != plain.ModelHash() || c.MatchHash() != plain.MatchHash() {
+		t.Error("the [slurm] table changed a fingerprint")
+	}
+	for _, bad := range []string{"[slurm]\nqueue = \"x\"\n", "[slurm]\nmax_running = -1\n"} {
+		if _, err := Parse("camp.toml", []byte(baseText+bad), "/data"); err == nil {
+			t.Errorf("%q accepted", bad)
+		}
+	}
+}

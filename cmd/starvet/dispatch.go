@@ -2,12 +2,14 @@ package main
 
 import (
 	"context"
+	"flag"
 	"fmt"
 	"os"
 	"path/filepath"
 	"strings"
 	"time"
 
+	"starvet/campaign"
 	"starvet/dispatch"
 	"starvet/tiling"
 )
@@ -21,6 +23,7 @@ func runDispatch(ctx context.Context, env *Env, args []string) error {
 			"succeeded (afterok, and cancelled if one fails). The starvet program and DIR must be on a\n"+
 			"file system every node sees.")
 	ledger := fs.String("ledger", "", "campaign ledger the gather appends to (required)")
+	// The Slurm flags default to the campaign's [slurm] table.
 	executor := fs.String("executor", "local", "where the tiles run: local or slurm")
 	jobs := fs.Int("jobs", 1, "local: tiles run at once")
 	workers := fs.Int("workers", 0, "worker goroutines of each tile run (0: one per core of its machine)")
@@ -59,8 +62,33 @@ func runDispatch(ctx context.Context, env *Env, args []string) error {
 	case "local":
 		ex = dispatch.Local{Jobs: *jobs, Stdout: env.Stdout}
 	case "slurm":
-		ex = dispatch.Slurm{Partition: *partition, Account: *account, Time: *timeLimit, Mem: *mem,
-			TasksPerArrayTask: *perTask, MaxRunning: *maxRunning, Wait: !*noWait}
+		plan, err := tiling.ReadPlan(dir)
+		if err != nil {
+			return err
+		}
+		c, err := campaign.Load(plan.Campaign)
+		if err != nil {
+			return err
+		}
+		o := c.Slurm
+		set := map[string]bool{}
+		fs.Visit(func(f *flag.Flag) { set[f.Name] = true })
+		pick := func(name, flagValue, campaignValue string) string {
+			if set[name] {
+				return flagValue
+			}
+			return campaignValue
+		}
+		pickInt := func(name string, flagValue, campaignValue int) int {
+			if set[name] {
+				return flagValue
+			}
+			return campaignValue
+		}
+		ex = dispatch.Slurm{Partition: pick("partition", *partition, o.Partition), Account: pick("account", *account, o.Account),
+			Time: pick("time", *timeLimit, o.Time), Mem: pick("mem", *mem, o.Mem),
+			TasksPerArrayTask: pickInt("tiles-per-task", *perTask, o.TilesPerTask), MaxRunning: pickInt("max-running", *maxRunning, o.MaxRunning),
+			Wait: !*noWait}
 	default:
 		return usageError("--executor %q: want local or slurm", *executor)
 	}
