@@ -36,7 +36,9 @@ func TestHouseImports(t *testing.T) {
 		{[]string{"starvet/galaxy"}, []string{"starvet/vetting", "starvet/campaign", "starvet/db", "starvet/catalog", "starvet/crossmatch", "starvet/report", "starvet/scenario"}, "the Galaxy's physics has no I/O and no pipeline"},
 		{[]string{"starvet/db", "starvet/rules"}, []string{"starvet/crossmatch"}, "no package the ledger or the rules need lives in the cross-match room"},
 		{[]string{"starvet/report", "starvet/scenario", "starvet/campaign"}, []string{"starvet/vetting"}, "the pipeline is not a library of the report, the demo or the configuration"},
-		{[]string{"starvet/crossmatch", "starvet/quality", "starvet/rules", "starvet/campaign", "starvet/db", "starvet/galaxy", "starvet/report", "starvet/scenario", "starvet/vetting", "starvet/catalog"}, []string{"starvet/cmd"}, "cmd is the top"},
+		{[]string{"starvet/dispatch"}, []string{"starvet/"}, "running commands on a cluster knows nothing of stars"},
+		{[]string{"starvet/vetting", "starvet/db", "starvet/crossmatch", "starvet/campaign", "starvet/catalog", "starvet/report", "starvet/scenario"}, []string{"starvet/tiling", "starvet/dispatch"}, "a tile's run is an ordinary run: tiling sits above the pipeline"},
+		{[]string{"starvet/crossmatch", "starvet/quality", "starvet/rules", "starvet/campaign", "starvet/db", "starvet/galaxy", "starvet/report", "starvet/scenario", "starvet/vetting", "starvet/catalog", "starvet/tiling", "starvet/dispatch"}, []string{"starvet/cmd"}, "cmd is the top"},
 	}
 	for _, r := range rules {
 		for pkg, imps := range imports {
