@@ -380,8 +380,19 @@ func TestGatheredEqualsSingle(t *testing.T) {
 	// One that changes a prior (a new spectrum): every match probability,
 	// so every tile, runs again, and the single run recomputes every
 	// matched star.
+	// It also empties one tile: its stars are withdrawn by the tile's own
+	// run, as the single run withdraws them.
 	stars = append(stars, star{id: "tqnew02", raDeg: 10, decDeg: 10, plx: 1, plxErr: 0.1, rv: 20, specID: "spnew02", fitResidual: 1, visits: 12})
 	stars = slices.Delete(stars, 1000, 1001)
+	emptied, _ := vetting.Owner(testOrder, stars[50].raDeg, stars[50].decDeg)
+	before := len(stars)
+	stars = slices.DeleteFunc(stars, func(s star) bool {
+		px, ok := vetting.Owner(testOrder, s.raDeg, s.decDeg)
+		return ok && px == emptied
+	})
+	if before-len(stars) < 3 {
+		t.Fatalf("emptying tile %d removed %d stars", emptied, before-len(stars))
+	}
 	update(t, ctx, e, dir, stars, "r3", single, split, gathered, func(ran int) {
 		if ran != len(p.Tiles) {
 			t.Errorf("after a prior changed %d of %d tiles ran again", ran, len(p.Tiles))
