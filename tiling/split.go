@@ -428,16 +428,10 @@ func contentHash(t *catalog.Table, rows []int32) string {
 // writeQuarantine keeps the catalogs' quarantined rows for the gather and
 // returns the catalogs' rows as a single run would record them.
 func writeQuarantine(dir string, cats *vetting.Catalogs) ([]db.CatalogRow, error) {
-	var rows []db.CatalogRow
+	rows, quarantined := vetting.CatalogRecords(cats)
 	var q []db.QuarantineRow
-	for k, rep := range cats.Reports {
-		spec := cats.Specs[k]
-		rows = append(rows, db.CatalogRow{Name: spec.Name, Release: spec.Release, File: spec.File, FileSHA256: rep.SHA256,
-			RowsRead: int64(rep.RowsRead), RowsKept: int64(rep.RowsKept), RowsQuarantined: int64(len(rep.Quarantined)),
-			Epoch: spec.EpochJyr, Role: string(spec.Role)})
-		for _, x := range rep.Quarantined {
-			q = append(q, db.QuarantineRow{Catalog: spec.Name, Line: x.Line, Row: x.Row, Column: x.Column, ColumnName: x.ColumnName, Value: x.Value, Reason: x.Reason})
-		}
+	for _, x := range quarantined {
+		q = append(q, x...)
 	}
 	return rows, writeJSON(filepath.Join(dir, quarantineFile), q)
 }

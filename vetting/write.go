@@ -29,26 +29,38 @@ func runInfo(toolVersion string, s *runSettings) db.RunInfo {
 
 // recordCatalogs writes each catalog's row counts and quarantined rows.
 func recordCatalogs(ctx context.Context, w *db.RunWriter, cats *Catalogs, sum *Summary) error {
-	for k, rep := range cats.Reports {
-		spec := cats.Specs[k]
-		row := db.CatalogRow{Name: spec.Name, Release: spec.Release, File: spec.File, FileSHA256: rep.SHA256,
-			RowsRead: int64(rep.RowsRead), RowsKept: int64(rep.RowsKept), RowsQuarantined: int64(len(rep.Quarantined)),
-			Epoch: spec.EpochJyr, Role: string(spec.Role)}
+	rows, quarantined := CatalogRecords(cats)
+	for k, row := range rows {
 		if err := w.AddCatalog(ctx, row); err != nil {
 			return err
 		}
 		sum.Catalogs = append(sum.Catalogs, row)
+		if err := w.AddQuarantine(ctx, quarantined[k]); err != nil {
+			return err
+		}
+		sum.Quarantined += len(quarantined[k])
+		sum.Warnings = append(sum.Warnings, cats.Reports[k].Warnings...)
+	}
+	return nil
+}
+
+// CatalogRecords is what the ledger records of each catalog read (the
+// primary first): its row counts and its quarantined rows.
+func CatalogRecords(cats *Catalogs) ([]db.CatalogRow, [][]db.QuarantineRow) {
+	rows := make([]db.CatalogRow, len(cats.Reports))
+	quarantined := make([][]db.QuarantineRow, len(cats.Reports))
+	for k, rep := range cats.Reports {
+		spec := cats.Specs[k]
+		rows[k] = db.CatalogRow{Name: spec.Name, Release: spec.Release, File: spec.File, FileSHA256: rep.SHA256,
+			RowsRead: int64(rep.RowsRead), RowsKept: int64(rep.RowsKept), RowsQuarantined: int64(len(rep.Quarantined)),
+			Epoch: spec.EpochJyr, Role: string(spec.Role)}
 		q := make([]db.QuarantineRow, len(rep.Quarantined))
 		for i, x := range rep.Quarantined {
 			q[i] = db.QuarantineRow{Catalog: spec.Name, Line: x.Line, Row: x.Row, Column: x.Column, ColumnName: x.ColumnName, Value: x.Value, Reason: x.Reason}
 		}
-		if err := w.AddQuarantine(ctx, q); err != nil {
-			return err
-		}
-		sum.Quarantined += len(q)
-		sum.Warnings = append(sum.Warnings, rep.Warnings...)
+		quarantined[k] = q
 	}
-	return nil
+	return rows, quarantined
 }
 
 // stageVetting names the progress stage that counts stars through quality,
