@@ -258,9 +258,18 @@ func logLikelihood(d *tailData, opt *TailOptions) *tailGrid {
 					lr := math.Log((ve - v) / span)
 					p := math.Exp(kMin*lr) / span
 					q := math.Exp(dk * lr)
-					for ik := range a {
+					// Two interleaved chains halve the latency of the
+					// dependent products.
+					p1, q2 := p*q, q*q
+					ik := 0
+					for ; ik+1 < len(a); ik += 2 {
 						a[ik] += p
-						p *= q
+						a[ik+1] += p1
+						p *= q2
+						p1 *= q2
+					}
+					if ik < len(a) {
+						a[ik] += p
 					}
 				}
 				gi := d.gOut[i]

@@ -5,7 +5,6 @@ import (
 	"math"
 	"math/rand/v2"
 	"testing"
-	"time"
 )
 
 // drawLT draws a speed from f(v | vEsc, k) on (vMin, vEsc) by inverting its
@@ -405,19 +404,4 @@ func BenchmarkFitTail2000x64(b *testing.B) {
 			b.Fatal(err)
 		}
 	}
-}
-
-// TestTailTime logs one 2000 x 64 fit's wall time (no bound: machines
-// differ; the benchmark is the measure).
-func TestTailTime(t *testing.T) {
-	if testing.Short() {
-		t.Skip("one large fit")
-	}
-	stars := tailBenchStars(rand.New(rand.NewPCG(3, 4)))
-	t0 := time.Now()
-	r, err := FitTail(stars, DefaultTailOptions())
-	if err != nil {
-		t.Fatal(err)
-	}
-	t.Logf("2000 x 64 fit: %v; v_esc0 %.1f [%.1f, %.1f] km/s", time.Since(t0), r.VEscKms.Median, r.VEscKms.Lo68, r.VEscKms.Hi68)
 }
