@@ -27,9 +27,10 @@ const (
 	// fraction. It measures the return to the centre but, in a spherical
 	// halo, not the halo's mass (see FitOrbits).
 	ScoreCrossings Score = iota
-	// ScoreEjection: the phase-space density of stars ejected from a
-	// Gaussian region of radius EjectionRadiusKpc with the speed law
-	// EjectionSpeedPDF, carried to now by Liouville's theorem (ejectionTerm).
+	// ScoreEjection: the same kernel density with each draw weighted by
+	// the phase-space density of the speed law EjectionSpeedPDF at its
+	// speed at the centre, carried to now by Liouville's theorem
+	// (ejectionWeight).
 	ScoreEjection
 )
 
@@ -40,7 +41,6 @@ const (
 	DefaultOrbitScaleCount       = 21
 	DefaultBackgroundWeight      = 0.05
 	DefaultBandwidthFloorKpc     = 0.1
-	DefaultEjectionRadiusKpc     = 0.5
 	DefaultBackgroundSpeedMaxKms = 3000.0
 	// CarryingDeltaLogLike: a star carries the fit when its ln L varies by
 	// more than this over the grid.
@@ -84,11 +84,9 @@ type OrbitOptions struct {
 	// crossing cloud (ScoreCrossings and selection); default 0.1 kpc.
 	BandwidthFloorKpc float64
 	// ScoreEjection only: the assumed density (per km/s) of the speed with
-	// which ejectees leave the centre (required), the radius of the
-	// ejection region (default 0.5 kpc), and the top of the background's
-	// uniform speed law (default 3000 km/s).
+	// which ejectees leave the centre (required), and the top of the
+	// background's uniform speed law (default 3000 km/s).
 	EjectionSpeedPDF      func(vKms float64) float64
-	EjectionRadiusKpc     float64
 	BackgroundSpeedMaxKms float64
 	// Workers for the back-traces (<= 0: GOMAXPROCS).
 	Workers int
@@ -165,10 +163,16 @@ func scaledHalo(base *potential.Model, factor float64) (*potential.Model, error)
 // draw is one back-traced Monte Carlo draw that crossed the plane.
 type draw struct {
 	xKpc, yKpc float64 // where it crossed
-	closestKpc float64 // closest approach to the centre (orbit.Trace)
-	vCrossKms  float64 // speed at the crossing
-	vNowKms    float64 // present speed
+	vCentreKms float64 // speed at ejectionDepthKpc from the centre, by energy
+	weight     float64 // kernel weight: 1, or ejectionWeight
 }
+
+// ejectionDepthKpc is where ejection speeds are referred to: 10 pc from the
+// centre, deep in the bulge's core yet where a central point mass's
+// potential is finite (our choice). Referring the speed to one depth, not to
+// where each draw crossed the plane, keeps the steep inner potential from
+// mixing draws' speeds at different radii.
+const ejectionDepthKpc = 0.01
 
 // traceDraws back-traces each draw of a star under p, one at a time so that
 // each crossing stays tied to its draw, and keeps those that crossed.
@@ -183,9 +187,9 @@ func traceDraws(p *potential.Model, s *OrbitStar, set orbit.TraceSettings) []dra
 		x, v := s.PosKpc[j], s.VelKms[j]
 		v2 := v[0]*v[0] + v[1]*v[1] + v[2]*v[2]
 		// Energy conservation in the static potential (common practice).
-		vc2 := v2 + 2*(p.Phi(x)-p.Phi([3]float64{cr.XKpc, cr.YKpc, 0}))
-		out = append(out, draw{xKpc: cr.XKpc, yKpc: cr.YKpc, closestKpc: tr.ClosestApproachKpc,
-			vCrossKms: math.Sqrt(math.Max(vc2, 0)), vNowKms: math.Sqrt(v2)})
+		v02 := v2 + 2*(p.Phi(x)-p.Phi([3]float64{ejectionDepthKpc, 0, 0}))
+		out = append(out, draw{xKpc: cr.XKpc, yKpc: cr.YKpc,
+			vCentreKms: math.Sqrt(math.Max(v02, 0)), weight: 1})
 	}
 	return out
 }
@@ -251,9 +255,9 @@ func (c *cloud) along(dx, dy float64) (float64, float64) {
 	return dx*c.e1x + dy*c.e1y, -dx*c.e1y + dy*c.e1x
 }
 
-// densityAtCentre is the Gaussian kernel density estimate of the crossings
-// at (0, 0), normalised by all draws so that draws which never crossed
-// lower it (per kpc^2, times the crossed fraction).
+// densityAtCentre is the weighted Gaussian kernel density estimate of the
+// crossings at (0, 0), normalised by all draws so that draws which never
+// crossed lower it (per kpc^2, times the crossed fraction and the weight).
 func (c *cloud) densityAtCentre() float64 {
 	if len(c.draws) == 0 || c.nSamples == 0 {
 		return 0
@@ -261,7 +265,7 @@ func (c *cloud) densityAtCentre() float64 {
 	var sum float64
 	for _, d := range c.draws {
 		u, w := c.along(-d.xKpc, -d.yKpc)
-		sum += math.Exp(-0.5 * (u*u/c.l1 + w*w/c.l2))
+		sum += d.weight * math.Exp(-0.5*(u*u/c.l1+w*w/c.l2))
 	}
 	return sum / (2 * math.Pi * math.Sqrt(c.l1*c.l2) * float64(c.nSamples))
 }
@@ -277,46 +281,38 @@ func (c *cloud) consistentWithCentre() bool {
 		-math.Expm1(-0.5*c.d2) <= SelectMaxGCConsistency
 }
 
-// ejectionTerm is the present phase-space density of ejectees at the star,
-// averaged over its draws.
+// ejectionWeight is the phase-space density of ejectees per unit volume
+// of velocity at the centre, p(v_c) / (4 pi v_c^3), for a draw whose speed
+// at the centre is v_c.
 //
-// Ejection from a Gaussian region of radius a at the centre with an
-// isotropic velocity law p(v)/(4 pi v^2) at a constant rate; by Liouville's
-// theorem the density at a present state is the rate times the time
-// integral of the ejection density along its back-traced orbit (the
-// construction of Contigiani, Rossi & Marchetti 2019, MNRAS 487, 4025,
-// sec. 2). SIMPLIFICATIONS (ours): the orbit through the region is a
-// straight line at speed v_c passing at distance d, which gives
-// exp(-d^2/(2a^2)) / (2 pi a^2 v_c), so
-//
-//	f = exp(-d^2/(2a^2)) / (2 pi a^2) * p(v_c) / (4 pi v_c^3);
-//
-// d is the draw's closest approach (orbit.Trace: the pericentre when the
-// crossing lies within GCRadiusKpc) and v_c its speed where it crossed the
-// plane; no flight-time or stellar-lifetime term, no selection function.
-// The Monte Carlo mean over draws stands for the integral of f over the
-// measurement errors (draws from the error law with a flat prior).
-//
-// The background (ejectionBackground) is a star from a uniform disk of
-// radius R_d with a uniform speed law on [0, vMax], in the same form at its
-// present speed v: 1 / (pi R_d^2) * (1/vMax) / (4 pi v^3), our choice of a
-// model-independent term in the same units.
-func ejectionTerm(ds []draw, nSamples int, aKpc float64, pdf func(float64) float64) float64 {
-	if nSamples == 0 {
+// Stars leave a small region at the centre at a constant rate with an
+// isotropic velocity law p(v)/(4 pi v^2); by Liouville's theorem their
+// density at a present state is the time integral of the ejection density
+// along its back-traced orbit (the construction of Contigiani, Rossi &
+// Marchetti 2019, MNRAS 487, 4025, sec. 2). An orbit crossing the region at
+// speed v_c spends a time proportional to 1/v_c in it, hence v_c^3. The
+// spatial factor, how many draws pass the region, is the kernel density of
+// the crossings at the centre (densityAtCentre). SIMPLIFICATIONS (ours):
+// the crossings of the plane z = 0 stand in for the points of closest
+// approach (the two differ by a projection that depends on the star's
+// direction, not on the halo); the region is smaller than the kernel; the
+// ejection law is a law of energy, its speed referred to
+// ejectionDepthKpc; no flight-time or stellar-lifetime term and no
+// selection function. The Monte Carlo mean over draws stands for the
+// integral over the measurement errors (draws from the error law with a
+// flat prior).
+func ejectionWeight(vcKms float64, pdf func(float64) float64) float64 {
+	if !(vcKms > 0) {
 		return 0
 	}
-	var sum float64
-	for _, d := range ds {
-		if d.vCrossKms > 0 {
-			sum += math.Exp(-0.5*d.closestKpc*d.closestKpc/(aKpc*aKpc)) / (2 * math.Pi * aKpc * aKpc) *
-				pdf(d.vCrossKms) / (4 * math.Pi * d.vCrossKms * d.vCrossKms * d.vCrossKms)
-		}
-	}
-	return sum / float64(nSamples)
+	return pdf(vcKms) / (4 * math.Pi * vcKms * vcKms * vcKms)
 }
 
-// ejectionBackground is the background term of ejectionTerm, averaged over
-// all draws (it does not depend on the model).
+// ejectionBackground is the background of ScoreEjection, averaged over all
+// draws: a star from a uniform disk of radius R_d with a uniform speed law
+// on [0, vMax], in the form of ejectionWeight at its present speed v,
+// 1 / (pi R_d^2) * (1/vMax) / (4 pi v^3): our choice of a model-independent
+// term in the same units.
 func ejectionBackground(s *OrbitStar, diskKpc, vMaxKms float64) float64 {
 	if len(s.VelKms) == 0 {
 		return 0
@@ -348,7 +344,8 @@ func UniformSpeedPDF(loKms, hiKms float64) func(vKms float64) float64 {
 //
 // with rho_i the star's score (ScoreCrossings: densityAtCentre, and
 // rho_bg = 1/(pi R_d^2), a uniform disk of radius R_d = Trace.DiskRadiusKpc;
-// ScoreEjection: ejectionTerm and ejectionBackground). The background term
+// ScoreEjection: densityAtCentre weighted by ejectionWeight, and
+// ejectionBackground). The background term
 // stands for a disk or unknown origin, so that one runaway cannot dominate.
 //
 // A star is selected (a candidate ejectee) when under at least one grid
@@ -365,7 +362,7 @@ func UniformSpeedPDF(loKms, hiKms float64) func(vKms float64) float64 {
 // speeds the draws up near the centre and tightens their cloud) that
 // favours the heaviest halo whatever the truth. ScoreEjection weighs the
 // halo through the energy, v_c^2 = v^2 + 2 Delta Phi, against the assumed
-// ejection speed law, with the 1/v_c^3 phase-space factor that undoes the
+// ejection speed law, with the 1/v_c^3 phase-space factor that offsets the
 // focusing; its answer rests on that law.
 //
 // It returns ErrNoEjectees (with the partial result) when no star is
@@ -399,10 +396,6 @@ func FitOrbits(ctx context.Context, base *potential.Model, stars []OrbitStar, op
 	floor := opt.BandwidthFloorKpc
 	if !(floor > 0) {
 		floor = DefaultBandwidthFloorKpc
-	}
-	aKpc := opt.EjectionRadiusKpc
-	if !(aKpc > 0) {
-		aKpc = DefaultEjectionRadiusKpc
 	}
 	vMax := opt.BackgroundSpeedMaxKms
 	if !(vMax > 0) {
@@ -442,14 +435,13 @@ func FitOrbits(ctx context.Context, base *potential.Model, stars []OrbitStar, op
 		sel := false
 		for k, m := range models {
 			ds := traceDraws(m, s, opt.Trace)
-			c := newCloud(ds, len(s.PosKpc), floor)
-			var rho float64
 			if opt.Score == ScoreEjection {
-				rho = ejectionTerm(ds, len(s.PosKpc), aKpc, opt.EjectionSpeedPDF)
-			} else {
-				rho = c.densityAtCentre()
+				for j := range ds {
+					ds[j].weight = ejectionWeight(ds[j].vCentreKms, opt.EjectionSpeedPDF)
+				}
 			}
-			row[k] = math.Log((1-eps)*rho + eps*bg)
+			c := newCloud(ds, len(s.PosKpc), floor)
+			row[k] = math.Log((1-eps)*c.densityAtCentre() + eps*bg)
 			sel = sel || c.consistentWithCentre()
 		}
 		res.PerStar[i], res.Selected[i] = row, sel
@@ -525,4 +517,14 @@ func (r *OrbitResult) interval(kb int, d float64) (lo, hi float64, open bool) {
 		}
 	}
 	return lo, hi, openLo || openHi
+}
+
+// GaussianSpeedPDF is the density (per km/s) of a Gaussian speed law, mean
+// meanKms and standard deviation sigmaKms, for OrbitOptions.EjectionSpeedPDF
+// (its tail below zero is ignored).
+func GaussianSpeedPDF(meanKms, sigmaKms float64) func(vKms float64) float64 {
+	return func(v float64) float64 {
+		z := (v - meanKms) / sigmaKms
+		return math.Exp(-0.5*z*z) / (sigmaKms * math.Sqrt(2*math.Pi))
+	}
 }
