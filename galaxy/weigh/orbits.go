@@ -289,7 +289,7 @@ func (c *cloud) consistentWithCentre() bool {
 // isotropic velocity law p(v)/(4 pi v^2); by Liouville's theorem their
 // density at a present state is the time integral of the ejection density
 // along its back-traced orbit (the construction of Contigiani, Rossi &
-// Marchetti 2019, MNRAS 487, 4025, sec. 2). An orbit crossing the region at
+// Marchetti 2019, MNRAS 487, 4025, sec. 2, section from memory). An orbit crossing the region at
 // speed v_c spends a time proportional to 1/v_c in it, hence v_c^3. The
 // spatial factor, how many draws pass the region, is the kernel density of
 // the crossings at the centre (densityAtCentre). SIMPLIFICATIONS (ours):

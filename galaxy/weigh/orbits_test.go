@@ -86,7 +86,8 @@ func ejecteeSet(t testing.TB, rng *rand.Rand, trueScale float64, nStars, nDraws 
 // The speed law ejectee draws from; the ejection score is told it (a
 // recovery test of the method given its ejection model). A smooth law: a
 // box law's walls make the likelihood non-regular, and Wilks intervals
-// then undercover (measured: 3 of 10 seeds at a true scale of 2).
+// undercovered in our trials (3 of 10 seeds at a true scale of 2, measured
+// with an earlier, fixed-width form of the kernel).
 const (
 	ejectionMeanKms  = 1150.0
 	ejectionSigmaKms = 175.0
