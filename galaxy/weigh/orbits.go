@@ -1,0 +1,530 @@
+package weigh
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"math"
+
+	"starvet/galaxy/orbit"
+	"starvet/galaxy/potential"
+	"starvet/internal/parallel"
+)
+
+// Method 2: stars ejected from the Galactic Centre trace back to the centre
+// only in the right potential (Gnedin et al. 2005, ApJ 634, 344, who use it
+// for the halo's shape; Contigiani, Rossi & Marchetti 2019, MNRAS 487, 4025,
+// for its mass and shape). We back-trace every Monte Carlo draw of a star
+// under each grid model and score how well the draws return to the centre;
+// two scores, see ScoreCrossings and ScoreEjection.
+
+// Score selects how a star's back-traced draws are scored.
+type Score int
+
+const (
+	// ScoreCrossings: the 2-D kernel density of the plane crossings at the
+	// centre, bandwidth from the crossings themselves, times the crossed
+	// fraction. It measures the return to the centre but, in a spherical
+	// halo, not the halo's mass (see FitOrbits).
+	ScoreCrossings Score = iota
+	// ScoreEjection: the same kernel density with each draw weighted by
+	// the phase-space density of the speed law EjectionSpeedPDF at its
+	// speed at the centre, carried to now by Liouville's theorem
+	// (ejectionWeight).
+	ScoreEjection
+)
+
+// Defaults for OrbitOptions.
+const (
+	DefaultOrbitScaleMin         = 0.3
+	DefaultOrbitScaleMax         = 3.0
+	DefaultOrbitScaleCount       = 21
+	DefaultBackgroundWeight      = 0.05
+	DefaultBandwidthFloorKpc     = 0.1
+	DefaultBackgroundSpeedMaxKms = 3000.0
+	// CarryingDeltaLogLike: a star carries the fit when its ln L varies by
+	// more than this over the grid.
+	CarryingDeltaLogLike = 0.5
+	// SelectMaxGCConsistency: a star is a candidate ejectee when under at
+	// least one grid model at least half of its draws crossed the plane and
+	// the centre lies inside the 99 per cent ellipse of its crossings.
+	SelectMaxGCConsistency = 0.99
+)
+
+// Wilks (1938, Ann. Math. Stat. 9, 60): -2 Delta ln L of one parameter is
+// chi-square with one degree of freedom; its 68.27 and 90 per cent points are
+// 1 and 2.706 (common practice).
+const (
+	delta2LogL68 = 1.0
+	delta2LogL90 = 2.705543
+)
+
+// OrbitStar is one candidate's Monte Carlo draws of its present
+// Galactocentric position (kpc) and velocity (km/s), equal lengths.
+type OrbitStar struct {
+	ID     string
+	PosKpc [][3]float64
+	VelKms [][3]float64
+}
+
+// OrbitOptions controls FitOrbits. Zero fields take the defaults.
+type OrbitOptions struct {
+	// Scales multiply the base model's NFW characteristic mass M_s (r_s is
+	// kept); positive, strictly increasing. Default LogScales(0.3, 3, 21).
+	Scales []float64
+	// Trace controls the back-traces; its DiskRadiusKpc is also the radius
+	// of the uniform background disk.
+	Trace orbit.TraceSettings
+	Score Score
+	// BackgroundWeight is eps in L = (1-eps) rho + eps rho_bg; default
+	// 0.05. NoBackground sets eps = 0 (for tests and comparisons).
+	BackgroundWeight float64
+	NoBackground     bool
+	// BandwidthFloorKpc is the least kernel width along any axis of the
+	// crossing cloud (ScoreCrossings and selection); default 0.1 kpc.
+	BandwidthFloorKpc float64
+	// ScoreEjection only: the assumed density (per km/s) of the speed with
+	// which ejectees leave the centre (required), and the top of the
+	// background's uniform speed law (default 3000 km/s).
+	EjectionSpeedPDF      func(vKms float64) float64
+	BackgroundSpeedMaxKms float64
+	// Workers for the back-traces (<= 0: GOMAXPROCS).
+	Workers int
+}
+
+// OrbitResult is the profile likelihood of the halo scale.
+type OrbitResult struct {
+	Scales  []float64 // the grid, increasing
+	LogLike []float64 // sum over selected stars of ln L_i, per grid scale
+	// PerStar[i][k] is ln L_i at Scales[k]; Selected[i] whether star i
+	// enters LogLike (see FitOrbits).
+	PerStar  [][]float64
+	Selected []bool
+
+	Best            float64 // grid scale of the largest LogLike
+	Lo68, Hi68      float64 // Delta(-2 ln L) = 1 interval
+	Lo90, Hi90      float64 // Delta(-2 ln L) = 2.71 interval
+	AtEdge          bool    // Best is the first or last grid scale
+	Open68, Open90  bool    // the interval runs into a grid edge
+	Stars, Carrying int     // selected stars; those whose ln L varies > 0.5
+	Score           Score
+	// BackgroundWeight is the eps used.
+	BackgroundWeight float64
+}
+
+// Errors returned by FitOrbits.
+var (
+	ErrNoNFW          = errors.New("weigh: base model has no nfw component")
+	ErrBadScales      = errors.New("weigh: scales must be positive, finite and increasing")
+	ErrNoEjectees     = errors.New("weigh: no star selected as a candidate ejectee")
+	ErrNoEjectionLaw  = errors.New("weigh: ScoreEjection needs EjectionSpeedPDF")
+	ErrUnknownScore   = errors.New("weigh: unknown score")
+	errLengthMismatch = errors.New("positions and velocities differ in number")
+)
+
+// LogScales returns n factors spaced evenly in log from lo to hi.
+func LogScales(lo, hi float64, n int) []float64 {
+	if n == 1 {
+		return []float64{lo}
+	}
+	out := make([]float64, n)
+	for k := range out {
+		out[k] = lo * math.Pow(hi/lo, float64(k)/float64(n-1))
+	}
+	return out
+}
+
+// scaledHalo returns a copy of base whose (single) nfw component has its
+// characteristic mass multiplied by factor, r_s kept.
+func scaledHalo(base *potential.Model, factor float64) (*potential.Model, error) {
+	cs := base.Components()
+	idx := -1
+	for i, c := range cs {
+		if c.Kind == potential.KindNFW {
+			if idx >= 0 {
+				return nil, fmt.Errorf("weigh: base model has more than one nfw component")
+			}
+			idx = i
+		}
+	}
+	if idx < 0 {
+		return nil, ErrNoNFW
+	}
+	cs[idx].MassMsun *= factor
+	m, err := potential.New(cs)
+	if err != nil {
+		return nil, err
+	}
+	m.Name = fmt.Sprintf("%s halo x%.4g", base.Name, factor)
+	m.Source = base.Source
+	return m, nil
+}
+
+// draw is one back-traced Monte Carlo draw that crossed the plane.
+type draw struct {
+	xKpc, yKpc float64 // where it crossed
+	vCentreKms float64 // speed at ejectionDepthKpc from the centre, by energy
+	weight     float64 // kernel weight: 1, or ejectionWeight
+}
+
+// ejectionDepthKpc is where ejection speeds are referred to: 10 pc from the
+// centre, deep in the bulge's core yet where a central point mass's
+// potential is finite (our choice). Referring the speed to one depth, not to
+// where each draw crossed the plane, keeps the steep inner potential from
+// mixing draws' speeds at different radii.
+const ejectionDepthKpc = 0.01
+
+// traceDraws back-traces each draw of a star under p, one at a time so that
+// each crossing stays tied to its draw, and keeps those that crossed.
+func traceDraws(p *potential.Model, s *OrbitStar, set orbit.TraceSettings) []draw {
+	var out []draw
+	for j := range s.PosKpc {
+		tr := orbit.Trace(p, s.PosKpc[j:j+1], s.VelKms[j:j+1], set)
+		if len(tr.Crossings) == 0 {
+			continue
+		}
+		cr := tr.Crossings[0]
+		x, v := s.PosKpc[j], s.VelKms[j]
+		v2 := v[0]*v[0] + v[1]*v[1] + v[2]*v[2]
+		// Energy conservation in the static potential (common practice).
+		v02 := v2 + 2*(p.Phi(x)-p.Phi([3]float64{ejectionDepthKpc, 0, 0}))
+		out = append(out, draw{xKpc: cr.XKpc, yKpc: cr.YKpc,
+			vCentreKms: math.Sqrt(math.Max(v02, 0)), weight: 1})
+	}
+	return out
+}
+
+// cloud is a star's crossing cloud under one model with its kernel.
+type cloud struct {
+	draws    []draw
+	nSamples int
+	// Eigen-decomposition of the kernel bandwidth matrix H: variances l1, l2
+	// (kpc^2) along (e1x, e1y) and its normal.
+	l1, l2, e1x, e1y float64
+	// Centre's squared Mahalanobis distance from the crossings' mean under
+	// their covariance (eigenvalues floored like H's).
+	d2 float64
+}
+
+// newCloud builds the kernel for the draws. The bandwidth matrix is
+// H = n^(-1/3) S with S the crossings' covariance: the normal-reference rule
+// h = (4/((d+2) n))^(1/(d+4)) in d = 2 dimensions (Silverman 1986, Density
+// Estimation for Statistics and Data Analysis, Chapman & Hall, eq. 4.14,
+// from memory; common practice), each eigenvalue floored at floorKpc^2 so
+// that a tight cloud is not a spike and a single crossing still has a width.
+func newCloud(ds []draw, nSamples int, floorKpc float64) cloud {
+	c := cloud{draws: ds, nSamples: nSamples, d2: math.Inf(1)}
+	n := len(ds)
+	if n == 0 {
+		return c
+	}
+	var mx, my float64
+	for _, d := range ds {
+		mx += d.xKpc
+		my += d.yKpc
+	}
+	mx /= float64(n)
+	my /= float64(n)
+	var sxx, syy, sxy float64
+	if n > 1 {
+		for _, d := range ds {
+			dx, dy := d.xKpc-mx, d.yKpc-my
+			sxx += dx * dx
+			syy += dy * dy
+			sxy += dx * dy
+		}
+		k := float64(n - 1)
+		sxx, syy, sxy = sxx/k, syy/k, sxy/k
+	}
+	// Eigen-decomposition of the symmetric 2x2 matrix S.
+	tr, diff := 0.5*(sxx+syy), 0.5*(sxx-syy)
+	rad := math.Hypot(diff, sxy)
+	s1, s2 := tr+rad, tr-rad
+	theta := 0.5 * math.Atan2(2*sxy, sxx-syy) // direction of s1
+	c.e1x, c.e1y = math.Cos(theta), math.Sin(theta)
+	fl := floorKpc * floorKpc
+	u, w := c.along(-mx, -my)
+	c.d2 = u*u/math.Max(s1, fl) + w*w/math.Max(s2, fl)
+	f := math.Pow(float64(n), -1.0/3)
+	c.l1, c.l2 = math.Max(f*s1, fl), math.Max(f*s2, fl)
+	return c
+}
+
+// along returns the components of (dx, dy) along e1 and its normal.
+func (c *cloud) along(dx, dy float64) (float64, float64) {
+	return dx*c.e1x + dy*c.e1y, -dx*c.e1y + dy*c.e1x
+}
+
+// densityAtCentre is the weighted Gaussian kernel density estimate of the
+// crossings at (0, 0), normalised by all draws so that draws which never
+// crossed lower it (per kpc^2, times the crossed fraction and the weight).
+func (c *cloud) densityAtCentre() float64 {
+	if len(c.draws) == 0 || c.nSamples == 0 {
+		return 0
+	}
+	var sum float64
+	for _, d := range c.draws {
+		u, w := c.along(-d.xKpc, -d.yKpc)
+		sum += d.weight * math.Exp(-0.5*(u*u/c.l1+w*w/c.l2))
+	}
+	return sum / (2 * math.Pi * math.Sqrt(c.l1*c.l2) * float64(c.nSamples))
+}
+
+// consistentWithCentre is the selection test under one model: at least half
+// of the draws crossed and the centre lies inside the SelectMaxGCConsistency
+// ellipse of the crossings, 1 - exp(-D^2/2) <= level (chi-square with two
+// degrees of freedom, Gaussian approximation, as orbit.Trace's
+// GCConsistency; here the covariance is floored at the bandwidth floor
+// instead of orbit's exact test along degenerate directions).
+func (c *cloud) consistentWithCentre() bool {
+	return c.nSamples > 0 && 2*len(c.draws) >= c.nSamples &&
+		-math.Expm1(-0.5*c.d2) <= SelectMaxGCConsistency
+}
+
+// ejectionWeight is the phase-space density of ejectees per unit volume
+// of velocity at the centre, p(v_c) / (4 pi v_c^3), for a draw whose speed
+// at the centre is v_c.
+//
+// Stars leave a small region at the centre at a constant rate with an
+// isotropic velocity law p(v)/(4 pi v^2); by Liouville's theorem their
+// density at a present state is the time integral of the ejection density
+// along its back-traced orbit (the construction of Contigiani, Rossi &
+// Marchetti 2019, MNRAS 487, 4025, sec. 2, section from memory). An orbit crossing the region at
+// speed v_c spends a time proportional to 1/v_c in it, hence v_c^3. The
+// spatial factor, how many draws pass the region, is the kernel density of
+// the crossings at the centre (densityAtCentre). SIMPLIFICATIONS (ours):
+// the crossings of the plane z = 0 stand in for the points of closest
+// approach (the two differ by a projection that depends on the star's
+// direction, not on the halo); the region is smaller than the kernel; the
+// ejection law is a law of energy, its speed referred to
+// ejectionDepthKpc; no flight-time or stellar-lifetime term and no
+// selection function. The Monte Carlo mean over draws stands for the
+// integral over the measurement errors (draws from the error law with a
+// flat prior).
+func ejectionWeight(vcKms float64, pdf func(float64) float64) float64 {
+	if !(vcKms > 0) {
+		return 0
+	}
+	return pdf(vcKms) / (4 * math.Pi * vcKms * vcKms * vcKms)
+}
+
+// ejectionBackground is the background of ScoreEjection, averaged over all
+// draws: a star from a uniform disk of radius R_d with a uniform speed law
+// on [0, vMax], in the form of ejectionWeight at its present speed v,
+// 1 / (pi R_d^2) * (1/vMax) / (4 pi v^3): our choice of a model-independent
+// term in the same units.
+func ejectionBackground(s *OrbitStar, diskKpc, vMaxKms float64) float64 {
+	if len(s.VelKms) == 0 {
+		return 0
+	}
+	var sum float64
+	for _, v := range s.VelKms {
+		v2 := v[0]*v[0] + v[1]*v[1] + v[2]*v[2]
+		sum += 1 / (math.Pi * diskKpc * diskKpc) / vMaxKms / (4 * math.Pi * v2 * math.Sqrt(v2))
+	}
+	return sum / float64(len(s.VelKms))
+}
+
+// UniformSpeedPDF is the density (per km/s) of a speed uniform on
+// [loKms, hiKms], for OrbitOptions.EjectionSpeedPDF.
+func UniformSpeedPDF(loKms, hiKms float64) func(vKms float64) float64 {
+	return func(v float64) float64 {
+		if v < loKms || v > hiKms {
+			return 0
+		}
+		return 1 / (hiKms - loKms)
+	}
+}
+
+// FitOrbits back-traces every draw of every star under the base model with
+// its NFW halo scaled by each grid factor, selects the candidate ejectees
+// and returns the profile log-likelihood of the scale,
+//
+//	ln L(s) = sum_i ln[(1 - eps) rho_i(s) + eps rho_bg,i],
+//
+// with rho_i the star's score (ScoreCrossings: densityAtCentre, and
+// rho_bg = 1/(pi R_d^2), a uniform disk of radius R_d = Trace.DiskRadiusKpc;
+// ScoreEjection: densityAtCentre weighted by ejectionWeight, and
+// ejectionBackground). The background term
+// stands for a disk or unknown origin, so that one runaway cannot dominate.
+//
+// A star is selected (a candidate ejectee) when under at least one grid
+// model at least half of its draws crossed and the centre lies inside the
+// 99 per cent ellipse of its crossings (cloud.consistentWithCentre); only
+// selected stars enter LogLike. The speed cut that makes a star fast is the
+// caller's.
+//
+// LIMITATION of ScoreCrossings (measured in the tests): in a spherical halo
+// an orbit through the centre is radial whatever the halo mass, so only the
+// flattened disk bends the back-traces, by a few tenths of a kpc over a
+// factor ten in M_s. The crossings then carry almost no information on the
+// halo scale; what ln L does vary is a focusing effect (a heavier halo
+// speeds the draws up near the centre and tightens their cloud) that
+// favours the heaviest halo whatever the truth. ScoreEjection weighs the
+// halo through the energy, v_c^2 = v^2 + 2 Delta Phi, against the assumed
+// ejection speed law, with the 1/v_c^3 phase-space factor that offsets the
+// focusing; its answer rests on that law.
+//
+// It returns ErrNoEjectees (with the partial result) when no star is
+// selected, and ctx.Err() if cancelled.
+func FitOrbits(ctx context.Context, base *potential.Model, stars []OrbitStar, opt OrbitOptions) (*OrbitResult, error) {
+	scales := opt.Scales
+	if len(scales) == 0 {
+		scales = LogScales(DefaultOrbitScaleMin, DefaultOrbitScaleMax, DefaultOrbitScaleCount)
+	}
+	for k, s := range scales {
+		if !(s > 0) || math.IsInf(s, 0) || (k > 0 && !(s > scales[k-1])) {
+			return nil, ErrBadScales
+		}
+	}
+	switch opt.Score {
+	case ScoreCrossings:
+	case ScoreEjection:
+		if opt.EjectionSpeedPDF == nil {
+			return nil, ErrNoEjectionLaw
+		}
+	default:
+		return nil, ErrUnknownScore
+	}
+	eps := opt.BackgroundWeight
+	if !(eps > 0) {
+		eps = DefaultBackgroundWeight
+	}
+	if opt.NoBackground {
+		eps = 0
+	}
+	floor := opt.BandwidthFloorKpc
+	if !(floor > 0) {
+		floor = DefaultBandwidthFloorKpc
+	}
+	vMax := opt.BackgroundSpeedMaxKms
+	if !(vMax > 0) {
+		vMax = DefaultBackgroundSpeedMaxKms
+	}
+	diskKpc := opt.Trace.DiskRadiusKpc
+	if !(diskKpc > 0) {
+		diskKpc = orbit.DefaultDiskRadiusKpc
+	}
+	for i, s := range stars {
+		if len(s.PosKpc) != len(s.VelKms) {
+			return nil, fmt.Errorf("weigh: star %d (%s): %w", i, s.ID, errLengthMismatch)
+		}
+	}
+	models := make([]*potential.Model, len(scales))
+	for k, s := range scales {
+		m, err := scaledHalo(base, s)
+		if err != nil {
+			return nil, err
+		}
+		models[k] = m
+	}
+	res := &OrbitResult{
+		Scales: append([]float64(nil), scales...), Score: opt.Score, BackgroundWeight: eps,
+		PerStar:  make([][]float64, len(stars)),
+		Selected: make([]bool, len(stars)),
+		LogLike:  make([]float64, len(scales)),
+	}
+	// One star under every model is one batch: many integrations each.
+	err := parallel.Batches(ctx, len(stars), 1, opt.Workers, func(_ *struct{}, i, _ int) {
+		s := &stars[i]
+		bg := 1 / (math.Pi * diskKpc * diskKpc)
+		if opt.Score == ScoreEjection {
+			bg = ejectionBackground(s, diskKpc, vMax)
+		}
+		row := make([]float64, len(scales))
+		sel := false
+		for k, m := range models {
+			ds := traceDraws(m, s, opt.Trace)
+			if opt.Score == ScoreEjection {
+				for j := range ds {
+					ds[j].weight = ejectionWeight(ds[j].vCentreKms, opt.EjectionSpeedPDF)
+				}
+			}
+			c := newCloud(ds, len(s.PosKpc), floor)
+			row[k] = math.Log((1-eps)*c.densityAtCentre() + eps*bg)
+			sel = sel || c.consistentWithCentre()
+		}
+		res.PerStar[i], res.Selected[i] = row, sel
+	}, nil)
+	if err != nil {
+		return nil, err
+	}
+	for i, row := range res.PerStar {
+		if !res.Selected[i] {
+			continue
+		}
+		res.Stars++
+		lo, hi := math.Inf(1), math.Inf(-1)
+		for k, v := range row {
+			res.LogLike[k] += v
+			lo, hi = math.Min(lo, v), math.Max(hi, v)
+		}
+		if hi-lo > CarryingDeltaLogLike {
+			res.Carrying++
+		}
+	}
+	if res.Stars == 0 {
+		return res, ErrNoEjectees
+	}
+	res.profile()
+	return res, nil
+}
+
+// profile sets Best, the intervals and the edge flags from LogLike.
+func (r *OrbitResult) profile() {
+	kb := 0
+	for k, v := range r.LogLike {
+		if v > r.LogLike[kb] {
+			kb = k
+		}
+	}
+	n := len(r.Scales)
+	r.Best = r.Scales[kb]
+	r.AtEdge = kb == 0 || kb == n-1
+	r.Lo68, r.Hi68, r.Open68 = r.interval(kb, delta2LogL68)
+	r.Lo90, r.Hi90, r.Open90 = r.interval(kb, delta2LogL90)
+}
+
+// interval walks out from the maximum kb to where -2 Delta ln L first
+// reaches d, interpolating linearly in ln(scale) between grid points (a
+// -Inf ln L, possible only without background, puts the crossing at the
+// outer grid point). Where the curve stays below d up to a grid edge that
+// edge is returned and open is true.
+func (r *OrbitResult) interval(kb int, d float64) (lo, hi float64, open bool) {
+	top := r.LogLike[kb]
+	drop := func(k int) float64 { return 2 * (top - r.LogLike[k]) }
+	cross := func(kIn, kOut int) float64 {
+		a, b := drop(kIn), drop(kOut)
+		f := 1.0
+		if !math.IsInf(b, 1) {
+			f = (d - a) / (b - a)
+		}
+		la, lb := math.Log(r.Scales[kIn]), math.Log(r.Scales[kOut])
+		return math.Exp(la + f*(lb-la))
+	}
+	lo, hi = r.Scales[0], r.Scales[len(r.Scales)-1]
+	openLo, openHi := true, true
+	for k := kb; k > 0; k-- {
+		if drop(k-1) >= d {
+			lo, openLo = cross(k, k-1), false
+			break
+		}
+	}
+	for k := kb; k < len(r.Scales)-1; k++ {
+		if drop(k+1) >= d {
+			hi, openHi = cross(k, k+1), false
+			break
+		}
+	}
+	return lo, hi, openLo || openHi
+}
+
+// GaussianSpeedPDF is the density (per km/s) of a Gaussian speed law, mean
+// meanKms and standard deviation sigmaKms, for OrbitOptions.EjectionSpeedPDF
+// (its tail below zero is ignored).
+func GaussianSpeedPDF(meanKms, sigmaKms float64) func(vKms float64) float64 {
+	return func(v float64) float64 {
+		z := (v - meanKms) / sigmaKms
+		return math.Exp(-0.5*z*z) / (sigmaKms * math.Sqrt(2*math.Pi))
+	}
+}
