@@ -52,6 +52,12 @@ type Config struct {
 	// Samples is the Monte Carlo sample count written to the campaign;
 	// default 1000.
 	Samples int
+	// HaloScale multiplies the mass of the simulated Galaxy's dark halo
+	// (the default model's NFW characteristic mass; its scale radius
+	// kept): the ejectees fly and the halo's fast tail is drawn in that
+	// Galaxy, while the campaign still vets in the default model. 0 means
+	// 1.
+	HaloScale float64
 }
 
 // DefaultStars is the default size of the primary catalog.
@@ -78,6 +84,12 @@ func (c Config) withDefaults() (Config, error) {
 	}
 	if c.Samples < 0 {
 		return c, fmt.Errorf("scenario: samples = %d: %w", c.Samples, ErrConfig)
+	}
+	if c.HaloScale == 0 {
+		c.HaloScale = 1
+	}
+	if !(c.HaloScale >= 0.1 && c.HaloScale <= 10) {
+		return c, fmt.Errorf("scenario: halo scale %g outside [0.1, 10]: %w", c.HaloScale, ErrConfig)
 	}
 	return c, nil
 }

@@ -1,12 +1,14 @@
 package scenario
 
 import (
+	"encoding/json"
 	"fmt"
 	"math"
 	"math/rand/v2"
 	"os"
 	"path/filepath"
 	"sort"
+	"starvet/galaxy/weigh"
 
 	"starvet/galaxy/orbit"
 	"starvet/internal/units"
@@ -107,7 +109,7 @@ func Generate(cfg Config, dir string) (*Scenario, error) {
 	if err := os.MkdirAll(dir, 0o755); err != nil {
 		return nil, fmt.Errorf("scenario: %w", err)
 	}
-	g, err := newGalaxy()
+	g, err := newGalaxy(cfg.HaloScale)
 	if err != nil {
 		return nil, err
 	}
@@ -119,7 +121,54 @@ func Generate(cfg Config, dir string) (*Scenario, error) {
 	if err := s.write(); err != nil {
 		return nil, err
 	}
+	if err := s.writeHaloTruth(); err != nil {
+		return nil, err
+	}
 	return s, nil
+}
+
+// HaloTruthFile holds the simulated Galaxy's halo (HaloTruth) beside
+// truth.csv.
+const HaloTruthFile = "truth_halo.json"
+
+// HaloTruth is the dark halo of the Galaxy a scenario simulated, for
+// scoring what starvet weigh infers.
+type HaloTruth struct {
+	HaloScale     float64 `json:"halo_scale"`
+	M200Msun      float64 `json:"halo_m200_msun"`
+	VEscSunKms    float64 `json:"escape_speed_sun_kms"`          // to 2 r200 (weigh.EscapeTo2R200)
+	VEscSunInfKms float64 `json:"escape_speed_sun_infinity_kms"` // to infinity
+}
+
+func (s *Scenario) writeHaloTruth() error {
+	h, err := weigh.HaloOf(s.galaxy.model)
+	if err != nil {
+		return fmt.Errorf("scenario: %w", err)
+	}
+	sun := weigh.SunPositionKpc(s.galaxy.sun)
+	v2, err := weigh.HaloEscapeSpeed(s.galaxy.model, h, sun, weigh.EscapeTo2R200)
+	if err != nil {
+		return fmt.Errorf("scenario: %w", err)
+	}
+	t := HaloTruth{HaloScale: s.Config.HaloScale, M200Msun: h.M200Msun, VEscSunKms: v2, VEscSunInfKms: s.galaxy.vesc(sun)}
+	data, err := json.MarshalIndent(t, "", "  ")
+	if err != nil {
+		return err
+	}
+	return os.WriteFile(filepath.Join(s.Dir, HaloTruthFile), append(data, '\n'), 0o644)
+}
+
+// LoadHaloTruth reads a scenario's HaloTruthFile in dir.
+func LoadHaloTruth(dir string) (*HaloTruth, error) {
+	data, err := os.ReadFile(filepath.Join(dir, HaloTruthFile))
+	if err != nil {
+		return nil, err
+	}
+	var t HaloTruth
+	if err := json.Unmarshal(data, &t); err != nil {
+		return nil, fmt.Errorf("%s: %w", filepath.Join(dir, HaloTruthFile), err)
+	}
+	return &t, nil
 }
 
 // fakePM returns a proper motion (mas/yr) that at distKpc would mean a

@@ -7,6 +7,7 @@ import (
 	"starvet/galaxy/frames"
 	"starvet/galaxy/orbit"
 	"starvet/galaxy/potential"
+	"starvet/galaxy/weigh"
 	"starvet/internal/vec"
 )
 
@@ -20,10 +21,19 @@ type galaxy struct {
 	model     *potential.Model
 }
 
-func newGalaxy() (*galaxy, error) {
+// newGalaxy is the default model with its NFW halo's mass scaled by
+// haloScale (1: the model itself). The campaign still names the default
+// model: a scenario with another halo is vetted, as real data are, in a
+// model that may not be the Galaxy's.
+func newGalaxy(haloScale float64) (*galaxy, error) {
 	m, err := potential.Builtin(potential.DefaultModel)
 	if err != nil {
 		return nil, fmt.Errorf("scenario: %w", err)
+	}
+	if haloScale != 1 {
+		if m, err = weigh.ScaleHalo(m, haloScale); err != nil {
+			return nil, fmt.Errorf("scenario: %w", err)
+		}
 	}
 	return &galaxy{sun: frames.DefaultSun(), modelName: potential.DefaultModel, model: m}, nil
 }

@@ -11,6 +11,7 @@ import (
 	"starvet/campaign"
 	"starvet/db"
 	"starvet/galaxy/orbit"
+	"starvet/inference"
 	"starvet/report"
 	"starvet/scenario"
 	"starvet/verdict"
@@ -27,7 +28,7 @@ func runDemo(ctx context.Context, env *Env, args []string) error {
 	}
 	out := env.Stdout
 	t0 := time.Now()
-	sc, err := scenario.Generate(scenario.Config{Seed: o.seed, Stars: o.stars}, o.dir)
+	sc, err := scenario.Generate(scenario.Config{Seed: o.seed, Stars: o.stars, HaloScale: o.haloScale}, o.dir)
 	if err != nil {
 		return err
 	}
@@ -46,16 +47,60 @@ func runDemo(ctx context.Context, env *Env, args []string) error {
 	}
 	printDemoPlaces(out, sc, first, second, reportDir)
 	printRecovery(out, second, fig)
+	if err := weighDemo(ctx, env, o, sc, second); err != nil {
+		return err
+	}
 	fmt.Fprintf(out, "demo finished in %s\n", time.Since(t0).Round(time.Millisecond))
 	printTargets(out, fig)
 	return nil
 }
 
+// weighDemo weighs the Galaxy from the second run's stars and prints both
+// estimates against the halo the scenario simulated.
+func weighDemo(ctx context.Context, env *Env, o demoOptions, sc *scenario.Scenario, run *vetting.Summary) error {
+	out := env.Stdout
+	c, err := campaign.Load(sc.CampaignPath)
+	if err != nil {
+		return err
+	}
+	l, err := db.Open(ctx, run.LedgerPath, db.Options{})
+	if err != nil {
+		return err
+	}
+	defer l.Close()
+	r, err := inference.Weigh(ctx, l, c, inference.Options{RunID: run.RunID, InfallOnly: true, Workers: o.workers, ToolVersion: toolVersion})
+	if err != nil {
+		return err
+	}
+	truth, err := scenario.LoadHaloTruth(sc.Dir)
+	if err != nil {
+		return err
+	}
+	fmt.Fprintf(out, "\n== weighing the Galaxy from run %d (starvet weigh; inference %d)\n", run.RunID, r.InferenceID)
+	fmt.Fprintf(out, "the simulated Galaxy's halo: %.2f times the campaign model's, M200 %.3g Msun, escape speed at the Sun %.0f km/s (to infinity)\n",
+		truth.HaloScale, truth.M200Msun, truth.VEscSunInfKms)
+	line := func(name string, e inference.Estimate, truth float64, f string) {
+		in := "outside"
+		if e.Lo90 <= truth && truth <= e.Hi90 {
+			in = "inside"
+		}
+		fmt.Fprintf(out, "  %-30s "+f+"  90%% ["+f+", "+f+"]  from %d stars; truth "+f+" is %s\n", name, e.Median, e.Lo90, e.Hi90, e.Stars, truth, in)
+	}
+	line("escape speed at the Sun, km/s", r.EscapeSpeedKms, truth.VEscSunInfKms, "%.0f")
+	line("halo M200 (velocity tail)", r.HaloMassTailMsun, truth.M200Msun, "%.3g")
+	line("halo M200 (ejectee orbits)", r.HaloMassOrbitsMsun, truth.M200Msun, "%.3g")
+	for _, n := range r.Notes {
+		fmt.Fprintf(out, "  note: %s\n", n)
+	}
+	return nil
+}
+
 type demoOptions struct {
-	dir     string
-	stars   int
-	seed    uint64
-	workers int
+	dir       string
+	stars     int
+	seed      uint64
+	workers   int
+	haloScale float64
 }
 
 func parseDemoFlags(env *Env, args []string) (demoOptions, error) {
@@ -67,6 +112,7 @@ func parseDemoFlags(env *Env, args []string) (demoOptions, error) {
 	stars := fs.Int("stars", scenario.DefaultStars, "primary stars in the invented catalog")
 	seed := fs.Uint64("seed", 7, "seed of the invented scenario")
 	workers := fs.Int("workers", 0, "worker goroutines (0: one per core)")
+	haloScale := fs.Float64("halo-scale", 1, "mass of the simulated Galaxy's dark halo, in units of the campaign model's (the campaign still vets in the model)")
 	pos, err := parseArgs(env, fs, args)
 	if err != nil {
 		return demoOptions{}, err
@@ -74,7 +120,7 @@ func parseDemoFlags(env *Env, args []string) (demoOptions, error) {
 	if len(pos) > 1 {
 		return demoOptions{}, usageError("demo wants at most one directory, got %d arguments", len(pos))
 	}
-	o := demoOptions{dir: "starvet-demo", stars: *stars, seed: *seed, workers: *workers}
+	o := demoOptions{dir: "starvet-demo", stars: *stars, seed: *seed, workers: *workers, haloScale: *haloScale}
 	if len(pos) == 1 {
 		o.dir = pos[0]
 	}

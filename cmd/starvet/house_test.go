@@ -37,8 +37,8 @@ func TestHouseImports(t *testing.T) {
 		{[]string{"starvet/db", "starvet/rules"}, []string{"starvet/crossmatch"}, "no package the ledger or the rules need lives in the cross-match room"},
 		{[]string{"starvet/report", "starvet/scenario", "starvet/campaign"}, []string{"starvet/vetting"}, "the pipeline is not a library of the report, the demo or the configuration"},
 		{[]string{"starvet/dispatch"}, []string{"starvet/"}, "running commands on a cluster knows nothing of stars"},
-		{[]string{"starvet/vetting", "starvet/db", "starvet/crossmatch", "starvet/campaign", "starvet/catalog", "starvet/report", "starvet/scenario"}, []string{"starvet/tiling", "starvet/dispatch"}, "a tile's run is an ordinary run: tiling sits above the pipeline"},
-		{[]string{"starvet/crossmatch", "starvet/quality", "starvet/rules", "starvet/campaign", "starvet/db", "starvet/galaxy", "starvet/report", "starvet/scenario", "starvet/vetting", "starvet/catalog", "starvet/tiling", "starvet/dispatch"}, []string{"starvet/cmd"}, "cmd is the top"},
+		{[]string{"starvet/vetting", "starvet/db", "starvet/crossmatch", "starvet/campaign", "starvet/catalog", "starvet/report", "starvet/scenario"}, []string{"starvet/tiling", "starvet/dispatch", "starvet/inference"}, "a tile's run is an ordinary run and weighing reads what runs wrote: both sit above the pipeline"},
+		{[]string{"starvet/crossmatch", "starvet/quality", "starvet/rules", "starvet/campaign", "starvet/db", "starvet/galaxy", "starvet/report", "starvet/scenario", "starvet/vetting", "starvet/catalog", "starvet/tiling", "starvet/dispatch", "starvet/inference"}, []string{"starvet/cmd"}, "cmd is the top"},
 	}
 	for _, r := range rules {
 		for pkg, imps := range imports {

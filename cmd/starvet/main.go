@@ -60,6 +60,7 @@ func commands() []command {
 		{"list", "list stars and their status", runList},
 		{"runs", "one line per run in the ledger", runRuns},
 		{"report", "write an HTML report with plots for a run", runReport},
+		{"weigh", "weigh the Galaxy from a run's stars: the local escape speed and the halo mass", runWeigh},
 	}
 }
 

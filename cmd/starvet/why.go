@@ -51,10 +51,41 @@ func runWhy(ctx context.Context, env *Env, args []string) error {
 			c.Reasons = append(c.Reasons, vetting.KinematicReasons(&c.Verdict, th)...)
 		}
 	}
+	weighed, infIDs, err := l.StarInferences(ctx, pos[0])
+	if err != nil {
+		return err
+	}
 	if af.json {
-		return writeJSON(env.Stdout, historyJSON(h, settings))
+		hj := historyJSON(h, settings)
+		if len(weighed) == 0 {
+			return writeJSON(env.Stdout, hj)
+		}
+		type use struct {
+			Inference int64  `json:"inference"`
+			Method    string `json:"method"`
+			Used      bool   `json:"used"`
+			Reason    string `json:"reason"`
+		}
+		uses := make([]use, len(weighed))
+		for k, w := range weighed {
+			uses[k] = use{infIDs[k], w.Method, w.Used, w.Reason}
+		}
+		return writeJSON(env.Stdout, struct {
+			History any   `json:"history"`
+			Weighed []use `json:"weighed"`
+		}{hj, uses})
 	}
 	writeHistory(env.Stdout, h, settings)
+	if len(weighed) > 0 {
+		fmt.Fprintln(env.Stdout, "weighing the Galaxy (starvet weigh):")
+		for k, w := range weighed {
+			state := "not used"
+			if w.Used {
+				state = "used"
+			}
+			fmt.Fprintf(env.Stdout, "  inference %d, %s: %s: %s\n", infIDs[k], w.Method, state, w.Reason)
+		}
+	}
 	return nil
 }
 

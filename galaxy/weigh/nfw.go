@@ -99,7 +99,7 @@ func nfwIndex(cs []potential.Component) (int, error) {
 		}
 	}
 	if idx < 0 {
-		return 0, fmt.Errorf("%w: the model has no NFW component", ErrHalo)
+		return 0, fmt.Errorf("%w: %w", ErrHalo, ErrNoNFW)
 	}
 	return idx, nil
 }

@@ -11,15 +11,6 @@ import (
 	"starvet/galaxy/potential"
 )
 
-func defaultModel(t *testing.T) *potential.Model {
-	t.Helper()
-	m, err := potential.Builtin(potential.DefaultModel)
-	if err != nil {
-		t.Fatal(err)
-	}
-	return m
-}
-
 // nfwMassQuad integrates the NFW density rho = rho0 / (u (1+u)^2), u = r/r_s,
 // rho0 = M_s / (4 pi r_s^3) (Navarro, Frenk & White 1996, ApJ 462, 563)
 // over the sphere of radius rKpc with Gauss-Legendre quadrature in ln r,

@@ -134,32 +134,6 @@ func LogScales(lo, hi float64, n int) []float64 {
 	return out
 }
 
-// scaledHalo returns a copy of base whose (single) nfw component has its
-// characteristic mass multiplied by factor, r_s kept.
-func scaledHalo(base *potential.Model, factor float64) (*potential.Model, error) {
-	cs := base.Components()
-	idx := -1
-	for i, c := range cs {
-		if c.Kind == potential.KindNFW {
-			if idx >= 0 {
-				return nil, fmt.Errorf("weigh: base model has more than one nfw component")
-			}
-			idx = i
-		}
-	}
-	if idx < 0 {
-		return nil, ErrNoNFW
-	}
-	cs[idx].MassMsun *= factor
-	m, err := potential.New(cs)
-	if err != nil {
-		return nil, err
-	}
-	m.Name = fmt.Sprintf("%s halo x%.4g", base.Name, factor)
-	m.Source = base.Source
-	return m, nil
-}
-
 // draw is one back-traced Monte Carlo draw that crossed the plane.
 type draw struct {
 	xKpc, yKpc float64 // where it crossed
@@ -412,7 +386,7 @@ func FitOrbits(ctx context.Context, base *potential.Model, stars []OrbitStar, op
 	}
 	models := make([]*potential.Model, len(scales))
 	for k, s := range scales {
-		m, err := scaledHalo(base, s)
+		m, err := ScaleHalo(base, s)
 		if err != nil {
 			return nil, err
 		}

@@ -71,7 +71,7 @@ func draws(rng *rand.Rand, id string, x, v [3]float64, n int, fracX, fracV float
 // scaled by trueScale, each with nDraws draws.
 func ejecteeSet(t testing.TB, rng *rand.Rand, trueScale float64, nStars, nDraws int, fracX, fracV float64) []OrbitStar {
 	t.Helper()
-	truth, err := scaledHalo(defaultModel(t), trueScale)
+	truth, err := ScaleHalo(defaultModel(t), trueScale)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -99,7 +99,7 @@ func ejectionOptions() OrbitOptions {
 
 func TestScaledHalo(t *testing.T) {
 	base := defaultModel(t)
-	m, err := scaledHalo(base, 2.5)
+	m, err := ScaleHalo(base, 2.5)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -132,7 +132,7 @@ func TestScaledHalo(t *testing.T) {
 		t.Errorf("halo force ratio %v, want 2.5", r)
 	}
 	noHalo, _ := potential.New(bc[:2])
-	if _, err := scaledHalo(noHalo, 2); !errors.Is(err, ErrNoNFW) {
+	if _, err := ScaleHalo(noHalo, 2); !errors.Is(err, ErrNoNFW) {
 		t.Errorf("model without nfw: err %v, want ErrNoNFW", err)
 	}
 }
@@ -205,7 +205,7 @@ func TestDensityAtCentre(t *testing.T) {
 // ejectees with the same errors are.
 func TestSelection(t *testing.T) {
 	base := defaultModel(t)
-	truth, _ := scaledHalo(base, 1)
+	truth, _ := ScaleHalo(base, 1)
 	rng := rand.New(rand.NewPCG(11, 2))
 	x, v := orbit.Advance(truth, [3]float64{8, 0, 0}, [3]float64{-500, 220, 300}, 40, orbit.Options{})
 	stars := []OrbitStar{draws(rng, "disk", x, v, 40, 0.02, 0.01)}
@@ -246,7 +246,7 @@ func swing(row []float64) float64 {
 // background caps it and the maximum stays within a grid step.
 func TestRunawayAmongEjectees(t *testing.T) {
 	base := defaultModel(t)
-	truth, _ := scaledHalo(base, 1)
+	truth, _ := ScaleHalo(base, 1)
 	rng := rand.New(rand.NewPCG(5, 6))
 	x, v := orbit.Advance(truth, [3]float64{8, 0, 0}, [3]float64{-600, 220, 100}, 20, orbit.Options{})
 	runaway := draws(rng, "runaway", x, v, 40, 0.03, 0.03)

@@ -1,0 +1,190 @@
+package inference
+
+import (
+	"context"
+	"errors"
+	"fmt"
+
+	"starvet/campaign"
+	"starvet/db"
+	"starvet/galaxy/orbit"
+	"starvet/galaxy/potential"
+	"starvet/galaxy/weigh"
+)
+
+// tail fits the escape speed at the Sun to the tail of the speed
+// distribution and maps it to the NFW halo's M200.
+func tail(ds []drawn, model *potential.Model, sunPos [3]float64, escapeRadiusKpc float64, opt Options, out *Result, inf *db.Inference) error {
+	var stars []weigh.TailStar
+	for _, d := range ds {
+		v := &d.cand.Verdict
+		use := func(used bool, format string, a ...any) {
+			inf.Stars = append(inf.Stars, db.InferenceStar{Method: MethodTail, StarID: v.StarID, Used: used, Reason: fmt.Sprintf(format, a...)})
+		}
+		if v.SpeedP50Kms < opt.VMinKms {
+			use(false, "median speed %.0f km/s is below v_min %g km/s", v.SpeedP50Kms, opt.VMinKms)
+			continue
+		}
+		if !d.res.OK || len(d.res.SamplePos) == 0 {
+			use(false, "no Monte Carlo draws (the star's kinematics failed when drawn again)")
+			continue
+		}
+		rel := relativeToRotation(model, d.res.PosKpc, d.res.VelKms)
+		if rel < opt.HaloRelKms {
+			use(false, "moves with the disk: %.0f km/s relative to circular rotation, below %g km/s", rel, opt.HaloRelKms)
+			continue
+		}
+		if opt.InfallOnly {
+			if vr := radialVelocity(d.res.PosKpc, d.res.VelKms); vr >= 0 {
+				use(false, "moves away from the Galactic Centre (%.0f km/s): only infalling stars enter, and no centre ejectee falls in", vr)
+				continue
+			}
+		}
+		ts, err := weigh.NewTailStar(v.StarID, d.res.SamplePos, d.res.SampleVel, model, sunPos, escapeRadiusKpc)
+		if err != nil {
+			return err
+		}
+		stars = append(stars, ts)
+		use(true, "median speed %.0f km/s, %.0f km/s relative to circular rotation", v.SpeedP50Kms, rel)
+	}
+	if len(stars) == 0 {
+		out.Notes = append(out.Notes, "no star entered the velocity-tail fit")
+		return nil
+	}
+	to := weigh.DefaultTailOptions()
+	to.VMinKms, to.Workers = opt.VMinKms, opt.Workers
+	to.OutlierMax, to.OutlierSteps = opt.OutlierMax, outlierSteps
+	fit, err := weigh.FitTail(stars, to)
+	if err != nil {
+		return err
+	}
+	out.EscapeSpeedKms = estimate(fit.VEscKms, fit.Stars)
+	if fit.AtGridTop {
+		out.Notes = append(out.Notes, fmt.Sprintf("the escape-speed posterior reaches the top of its grid (%g km/s)", to.VEscMaxKms))
+	}
+	inf.Results = append(inf.Results, result(MethodTail, "escape_speed_kms", fit.VEscKms, fit.Stars, ""),
+		result(MethodTail, "k", fit.K, fit.Stars, "the tail's power-law slope"))
+	conv, convText := weigh.EscapeToInfinity, "escape to infinity"
+	if opt.Escape2R200 {
+		conv, convText = weigh.EscapeTo2R200, "escape to 2 r200"
+	}
+	m200, vc, err := weigh.MassFromTail(model, sunPos, fit.VEscKms, conv)
+	if err != nil {
+		out.Notes = append(out.Notes, "no halo mass from the tail: "+err.Error())
+		return nil
+	}
+	out.HaloMassTailMsun, out.VCircKms = estimate(m200, fit.Stars), estimate(vc, fit.Stars)
+	inf.Results = append(inf.Results, result(MethodTail, "halo_m200_msun", m200, fit.Stars, "NFW halo, Dutton & Maccio 2014 concentration, "+convText),
+		result(MethodTail, "circular_speed_kms", vc, fit.Stars, "at the Sun"))
+	return nil
+}
+
+// The ejection speed law the orbit method assumes: speeds at the centre
+// (10 pc deep) normally distributed, 1100 +- 400 km/s. Our assumption,
+// broad enough for the speeds a binary broken up by the central black hole
+// gives its stars (Hills 1988, Nature 331, 687; the range is from memory);
+// the halo mass the method returns depends on it.
+const (
+	EjectionSpeedMeanKms  = 1100
+	EjectionSpeedSigmaKms = 400
+)
+
+// orbits fits the halo scale under which candidate ejectees trace back to
+// the centre and reports it as M200.
+func orbits(ctx context.Context, ds []drawn, model *potential.Model, c *campaign.Campaign, opt Options, out *Result, inf *db.Inference) error {
+	var stars []weigh.OrbitStar
+	var ids []string
+	for _, d := range ds {
+		v := &d.cand.Verdict
+		if v.SpeedP50Kms < opt.EjecteeMinKms {
+			inf.Stars = append(inf.Stars, db.InferenceStar{Method: MethodOrbits, StarID: v.StarID,
+				Reason: fmt.Sprintf("median speed %.0f km/s is below %g km/s", v.SpeedP50Kms, opt.EjecteeMinKms)})
+			continue
+		}
+		if !d.res.OK || len(d.res.SamplePos) == 0 {
+			inf.Stars = append(inf.Stars, db.InferenceStar{Method: MethodOrbits, StarID: v.StarID, Reason: "no Monte Carlo draws"})
+			continue
+		}
+		stars = append(stars, weigh.OrbitStar{ID: v.StarID, PosKpc: d.res.SamplePos, VelKms: d.res.SampleVel})
+		ids = append(ids, v.StarID)
+	}
+	if len(stars) == 0 {
+		out.Notes = append(out.Notes, "no fast star for the orbit method")
+		return nil
+	}
+	k := c.Kinematics
+	fit, err := weigh.FitOrbits(ctx, model, stars, weigh.OrbitOptions{Workers: opt.Workers,
+		Trace: orbit.TraceSettings{TraceMyr: k.TraceMyr, GCRadiusKpc: k.GCRadiusKpc, DiskRadiusKpc: k.DiskRadiusKpc},
+		Score: weigh.ScoreEjection, EjectionSpeedPDF: weigh.GaussianSpeedPDF(EjectionSpeedMeanKms, EjectionSpeedSigmaKms)})
+	if errors.Is(err, weigh.ErrNoEjectees) {
+		for _, id := range ids {
+			inf.Stars = append(inf.Stars, db.InferenceStar{Method: MethodOrbits, StarID: id, Reason: "its crossings exclude the centre under every halo of the grid"})
+		}
+		out.Notes = append(out.Notes, "no candidate Galactic-Centre ejectee for the orbit method")
+		return nil
+	}
+	if err != nil {
+		return err
+	}
+	for i, id := range ids {
+		reason := "its crossings exclude the centre under every halo of the grid"
+		if fit.Selected[i] {
+			reason = "candidate Galactic-Centre ejectee"
+		}
+		inf.Stars = append(inf.Stars, db.InferenceStar{Method: MethodOrbits, StarID: id, Used: fit.Selected[i], Reason: reason})
+	}
+	mass := func(scale float64) (float64, error) {
+		m, err := weigh.ScaleHalo(model, scale)
+		if err != nil {
+			return 0, err
+		}
+		h, err := weigh.HaloOf(m)
+		return h.M200Msun, err
+	}
+	var iv weigh.Interval
+	for _, p := range []struct {
+		scale float64
+		dst   *float64
+	}{{fit.Best, &iv.Median}, {fit.Lo68, &iv.Lo68}, {fit.Hi68, &iv.Hi68}, {fit.Lo90, &iv.Lo90}, {fit.Hi90, &iv.Hi90}} {
+		if *p.dst, err = mass(p.scale); err != nil {
+			return err
+		}
+	}
+	out.HaloMassOrbitsMsun = estimate(iv, fit.Carrying)
+	note := fmt.Sprintf("profile likelihood over the model's halo scaled %.2g to %.2g times, ejection speeds %d +- %d km/s assumed; maximum at %.3g",
+		fit.Scales[0], fit.Scales[len(fit.Scales)-1], EjectionSpeedMeanKms, EjectionSpeedSigmaKms, fit.Best)
+	if fit.AtEdge || fit.Open68 || fit.Open90 {
+		note += "; the maximum or an interval reaches the grid's edge"
+		out.Notes = append(out.Notes, "the orbit method's likelihood reaches the edge of its halo grid: the interval is open there")
+	}
+	inf.Results = append(inf.Results, result(MethodOrbits, "halo_m200_msun", iv, fit.Carrying, note))
+	return nil
+}
+
+// relativeToRotation is the speed of (pos, vel) relative to circular
+// rotation in model at pos's cylindrical radius.
+func relativeToRotation(model *potential.Model, pos, vel [3]float64) float64 {
+	dir := rotationDir(pos)
+	vc := model.CircularVelocity(hypot2(pos))
+	return norm([3]float64{vel[0] - vc*dir[0], vel[1] - vc*dir[1], vel[2] - vc*dir[2]})
+}
+
+// radialVelocity is the Galactocentric radial velocity of (pos, vel).
+func radialVelocity(pos, vel [3]float64) float64 {
+	r := norm(pos)
+	if r == 0 {
+		return 0
+	}
+	return (pos[0]*vel[0] + pos[1]*vel[1] + pos[2]*vel[2]) / r
+}
+
+func hypot2(p [3]float64) float64 { return norm([3]float64{p[0], p[1], 0}) }
+
+func estimate(iv weigh.Interval, stars int) Estimate {
+	return Estimate{Median: iv.Median, Lo68: iv.Lo68, Hi68: iv.Hi68, Lo90: iv.Lo90, Hi90: iv.Hi90, Stars: stars}
+}
+
+func result(method, parameter string, iv weigh.Interval, stars int, note string) db.InferenceResult {
+	return db.InferenceResult{Method: method, Parameter: parameter, Median: iv.Median, Lo68: iv.Lo68, Hi68: iv.Hi68,
+		Lo90: iv.Lo90, Hi90: iv.Hi90, Stars: stars, Note: note}
+}
