@@ -134,10 +134,15 @@ const HaloTruthFile = "truth_halo.json"
 // HaloTruth is the dark halo of the Galaxy a scenario simulated, for
 // scoring what starvet weigh infers.
 type HaloTruth struct {
-	HaloScale     float64 `json:"halo_scale"`
-	M200Msun      float64 `json:"halo_m200_msun"`
-	VEscSunKms    float64 `json:"escape_speed_sun_kms"`          // to 2 r200 (weigh.EscapeTo2R200)
-	VEscSunInfKms float64 `json:"escape_speed_sun_infinity_kms"` // to infinity
+	HaloScale float64 `json:"halo_scale"`
+	M200Msun  float64 `json:"halo_m200_msun"`
+	// M200RelationMsun is the M200 of the halo on the concentration-mass
+	// relation (weigh.NFWHalo) that gives, with the same bulge and disk,
+	// the same escape speed at the Sun to infinity: what the velocity-tail
+	// method estimates when it is right.
+	M200RelationMsun float64 `json:"halo_m200_relation_msun"`
+	VEscSunKms       float64 `json:"escape_speed_sun_kms"`          // to 2 r200 (weigh.EscapeTo2R200)
+	VEscSunInfKms    float64 `json:"escape_speed_sun_infinity_kms"` // to infinity
 }
 
 func (s *Scenario) writeHaloTruth() error {
@@ -151,6 +156,11 @@ func (s *Scenario) writeHaloTruth() error {
 		return fmt.Errorf("scenario: %w", err)
 	}
 	t := HaloTruth{HaloScale: s.Config.HaloScale, M200Msun: h.M200Msun, VEscSunKms: v2, VEscSunInfKms: s.galaxy.vesc(sun)}
+	rel, err := weigh.M200ForEscape(s.galaxy.model, sun, t.VEscSunInfKms, weigh.EscapeToInfinity)
+	if err != nil {
+		return fmt.Errorf("scenario: %w", err)
+	}
+	t.M200RelationMsun = rel.M200Msun
 	data, err := json.MarshalIndent(t, "", "  ")
 	if err != nil {
 		return err

@@ -77,8 +77,8 @@ func weighDemo(ctx context.Context, env *Env, o demoOptions, sc *scenario.Scenar
 		return err
 	}
 	fmt.Fprintf(out, "\n== weighing the Galaxy from run %d (starvet weigh; inference %d)\n", run.RunID, r.InferenceID)
-	fmt.Fprintf(out, "the simulated Galaxy's halo: %.2f times the campaign model's, M200 %.3g Msun, escape speed at the Sun %.0f km/s (to infinity)\n",
-		truth.HaloScale, truth.M200Msun, truth.VEscSunInfKms)
+	fmt.Fprintf(out, "the simulated Galaxy's halo: %.2f times the campaign model's, M200 %.3g Msun (%.3g Msun for the halo on the concentration-mass relation with the same escape speed, what the tail estimates), escape speed at the Sun %.0f km/s (to infinity)\n",
+		truth.HaloScale, truth.M200Msun, truth.M200RelationMsun, truth.VEscSunInfKms)
 	line := func(name string, e inference.Estimate, truth float64, f string) {
 		in := "outside"
 		if e.Lo90 <= truth && truth <= e.Hi90 {
@@ -87,7 +87,7 @@ func weighDemo(ctx context.Context, env *Env, o demoOptions, sc *scenario.Scenar
 		fmt.Fprintf(out, "  %-30s "+f+"  90%% ["+f+", "+f+"]  from %d stars; truth "+f+" is %s\n", name, e.Median, e.Lo90, e.Hi90, e.Stars, truth, in)
 	}
 	line("escape speed at the Sun, km/s", r.EscapeSpeedKms, truth.VEscSunInfKms, "%.0f")
-	line("halo M200 (velocity tail)", r.HaloMassTailMsun, truth.M200Msun, "%.3g")
+	line("halo M200 (velocity tail)", r.HaloMassTailMsun, truth.M200RelationMsun, "%.3g")
 	line("halo M200 (ejectee orbits)", r.HaloMassOrbitsMsun, truth.M200Msun, "%.3g")
 	for _, n := range r.Notes {
 		fmt.Fprintf(out, "  note: %s\n", n)
