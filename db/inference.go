@@ -3,6 +3,8 @@ package db
 import (
 	"context"
 	"database/sql"
+	"encoding/json"
+	"errors"
 	"fmt"
 )
 
@@ -19,8 +21,24 @@ type Inference struct {
 	ModelHash    string
 	SettingsJSON string
 	ExcludedJSON string
+	Curves       *InferenceCurves // for plots; nil for none
 	Results      []InferenceResult
 	Stars        []InferenceStar
+}
+
+// InferenceCurves are what the report plots of an inference: the tail
+// sample's median speeds with the fitted model, the posterior of the
+// escape speed at the Sun on its grid with the M200 each node maps to, and
+// the orbit method's log-likelihood against M200. Stored as JSON.
+type InferenceCurves struct {
+	VMinKms       float64   `json:"vmin_kms,omitempty"`
+	KMedian       float64   `json:"k_median,omitempty"`
+	TailSpeedsKms []float64 `json:"tail_speeds_kms,omitempty"`
+	VEscGridKms   []float64 `json:"vesc_grid_kms,omitempty"`
+	VEscPosterior []float64 `json:"vesc_posterior,omitempty"`
+	M200GridMsun  []float64 `json:"m200_grid_msun,omitempty"` // per VEscGridKms node; 0 where not computed
+	OrbitM200Msun []float64 `json:"orbit_m200_msun,omitempty"`
+	OrbitLogLike  []float64 `json:"orbit_loglike,omitempty"`
 }
 
 // InferenceResult is one parameter a method estimated: its median and
@@ -54,10 +72,18 @@ func (l *Ledger) AddInference(ctx context.Context, inf Inference) (int64, error)
 		return 0, fmt.Errorf("ledger %s is busy: a run is writing it (waited %s): %w", l.path, l.opt.LockWait, ErrBusy)
 	}
 	defer lk.release()
+	var curves any
+	if inf.Curves != nil {
+		b, err := json.Marshal(inf.Curves)
+		if err != nil {
+			return 0, err
+		}
+		curves = string(b)
+	}
 	var id int64
 	err = l.inTx(ctx, func(tx *sql.Tx) error {
-		res, err := tx.ExecContext(ctx, `INSERT INTO inferences (run_id, made_at, tool_version, model_hash, settings_json, excluded_json)
-			VALUES (?, ?, ?, ?, ?, ?)`, inf.RunID, l.stamp(), inf.ToolVersion, inf.ModelHash, inf.SettingsJSON, inf.ExcludedJSON)
+		res, err := tx.ExecContext(ctx, `INSERT INTO inferences (run_id, made_at, tool_version, model_hash, settings_json, excluded_json, curves_json)
+			VALUES (?, ?, ?, ?, ?, ?, ?)`, inf.RunID, l.stamp(), inf.ToolVersion, inf.ModelHash, inf.SettingsJSON, inf.ExcludedJSON, curves)
 		if err != nil {
 			return err
 		}
@@ -86,6 +112,45 @@ func (l *Ledger) AddInference(ctx context.Context, inf Inference) (int64, error)
 		return 0, fmt.Errorf("ledger %s: store inference: %w", l.path, err)
 	}
 	return id, nil
+}
+
+// LastInference returns the latest inference made from run runID, with
+// its results and curves but not its stars, or nil when there is none.
+func (l *Ledger) LastInference(ctx context.Context, runID int64) (*Inference, error) {
+	inf := Inference{RunID: runID}
+	var curves sql.NullString
+	err := l.db.QueryRowContext(ctx, `SELECT id, made_at, tool_version, model_hash, settings_json, excluded_json, curves_json
+		FROM inferences WHERE run_id = ? ORDER BY id DESC LIMIT 1`, runID).Scan(&inf.ID, &inf.MadeAt, &inf.ToolVersion,
+		&inf.ModelHash, &inf.SettingsJSON, &inf.ExcludedJSON, &curves)
+	if errors.Is(err, sql.ErrNoRows) {
+		return nil, nil
+	}
+	if err != nil {
+		return nil, fmt.Errorf("ledger %s run %d: last inference: %w", l.path, runID, err)
+	}
+	if curves.Valid {
+		inf.Curves = &InferenceCurves{}
+		if err := json.Unmarshal([]byte(curves.String), inf.Curves); err != nil {
+			return nil, fmt.Errorf("ledger %s inference %d: curves: %w", l.path, inf.ID, err)
+		}
+	}
+	rows, err := l.db.QueryContext(ctx, `SELECT method, parameter, median, lo68, hi68, lo90, hi90, stars, note
+		FROM inference_results WHERE inference_id = ? ORDER BY method, parameter`, inf.ID)
+	if err != nil {
+		return nil, err
+	}
+	defer rows.Close()
+	for rows.Next() {
+		var r InferenceResult
+		var m, a, b, c, d sql.NullFloat64
+		var note sql.NullString
+		if err := rows.Scan(&r.Method, &r.Parameter, &m, &a, &b, &c, &d, &r.Stars, &note); err != nil {
+			return nil, err
+		}
+		r.Median, r.Lo68, r.Hi68, r.Lo90, r.Hi90, r.Note = fv(m), fv(a), fv(b), fv(c), fv(d), note.String
+		inf.Results = append(inf.Results, r)
+	}
+	return &inf, rows.Err()
 }
 
 // StarInferences returns what every inference said about one star.

@@ -4,6 +4,8 @@ import (
 	"context"
 	"errors"
 	"fmt"
+	"math"
+	"slices"
 
 	"starvet/campaign"
 	"starvet/db"
@@ -59,6 +61,12 @@ func tail(ds []drawn, model *potential.Model, sunPos [3]float64, escapeRadiusKpc
 		return err
 	}
 	out.EscapeSpeedKms = estimate(fit.VEscKms, fit.Stars)
+	cv := curvesOf(inf)
+	cv.VMinKms, cv.KMedian = opt.VMinKms, fit.K.Median
+	cv.VEscGridKms, cv.VEscPosterior = fit.GridVEscKms, fit.Posterior
+	for _, st := range stars {
+		cv.TailSpeedsKms = append(cv.TailSpeedsKms, median(st.SpeedKms))
+	}
 	if fit.AtGridTop {
 		out.Notes = append(out.Notes, fmt.Sprintf("the escape-speed posterior reaches the top of its grid (%g km/s)", to.VEscMaxKms))
 	}
@@ -74,6 +82,21 @@ func tail(ds []drawn, model *potential.Model, sunPos [3]float64, escapeRadiusKpc
 		return nil
 	}
 	out.HaloMassTailMsun, out.VCircKms = estimate(m200, fit.Stars), estimate(vc, fit.Stars)
+	// The M200 of every grid node that carries posterior weight, for the
+	// posterior's plot in M200 (the map is monotonic).
+	peak := 0.0
+	for _, p := range fit.Posterior {
+		peak = max(peak, p)
+	}
+	cv.M200GridMsun = make([]float64, len(fit.GridVEscKms))
+	for i, v := range fit.GridVEscKms {
+		if fit.Posterior[i] < 1e-4*peak {
+			continue
+		}
+		if h, err := weigh.M200ForEscape(model, sunPos, v, conv); err == nil {
+			cv.M200GridMsun[i] = h.M200Msun
+		}
+	}
 	inf.Results = append(inf.Results, result(MethodTail, "halo_m200_msun", m200, fit.Stars, "NFW halo, Dutton & Maccio 2014 concentration, "+convText),
 		result(MethodTail, "circular_speed_kms", vc, fit.Stars, "at the Sun"))
 	return nil
@@ -151,6 +174,15 @@ func orbits(ctx context.Context, ds []drawn, model *potential.Model, c *campaign
 		}
 	}
 	out.HaloMassOrbitsMsun = estimate(iv, fit.Carrying)
+	cv := curvesOf(inf)
+	for k, sc := range fit.Scales {
+		m, err := mass(sc)
+		if err != nil {
+			return err
+		}
+		cv.OrbitM200Msun = append(cv.OrbitM200Msun, m)
+		cv.OrbitLogLike = append(cv.OrbitLogLike, fit.LogLike[k])
+	}
 	note := fmt.Sprintf("profile likelihood over the model's halo scaled %.2g to %.2g times, ejection speeds %d +- %d km/s assumed; maximum at %.3g",
 		fit.Scales[0], fit.Scales[len(fit.Scales)-1], EjectionSpeedMeanKms, EjectionSpeedSigmaKms, fit.Best)
 	if fit.AtEdge || fit.Open68 || fit.Open90 {
@@ -159,6 +191,28 @@ func orbits(ctx context.Context, ds []drawn, model *potential.Model, c *campaign
 	}
 	inf.Results = append(inf.Results, result(MethodOrbits, "halo_m200_msun", iv, fit.Carrying, note))
 	return nil
+}
+
+// curvesOf returns inf's curves, made when missing.
+func curvesOf(inf *db.Inference) *db.InferenceCurves {
+	if inf.Curves == nil {
+		inf.Curves = &db.InferenceCurves{}
+	}
+	return inf.Curves
+}
+
+// median of xs (a copy is sorted).
+func median(xs []float64) float64 {
+	s := slices.Clone(xs)
+	slices.Sort(s)
+	n := len(s)
+	if n == 0 {
+		return math.NaN()
+	}
+	if n%2 == 1 {
+		return s[n/2]
+	}
+	return (s[n/2-1] + s[n/2]) / 2
 }
 
 // relativeToRotation is the speed of (pos, vel) relative to circular

@@ -30,6 +30,10 @@ func (f *fakeSource) RunSettings(ctx context.Context, runID int64) (*db.RunSetti
 
 var errBoom = fmt.Errorf("fake source failure")
 
+func (f *fakeSource) LastInference(ctx context.Context, runID int64) (*db.Inference, error) {
+	return nil, nil
+}
+
 func (f *fakeSource) Run(ctx context.Context, id int64) (*db.Run, error) {
 	if f.failOn == "Run" {
 		return nil, errBoom

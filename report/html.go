@@ -55,6 +55,14 @@ type pageView struct {
 	Plots                       []plotView
 	Candidates                  []candRow
 	EscapeText, GCText, SunText string
+	Weighing                    []weighRow
+	WeighNote                   string
+}
+
+// weighRow is one result of the run's latest weighing.
+type weighRow struct {
+	Method, Parameter, Median, Int68, Int90, Note string
+	Stars                                         int
 }
 
 func stamp(t time.Time) string {
@@ -149,6 +157,14 @@ func renderHTML(d *data, plots []PlotSummary) ([]byte, int, error) {
 	v.Plots = plotViews(plots)
 	v.EscapeText, v.GCText, v.SunText = settingsTexts(d)
 	v.Thresholds = thresholdsText(d)
+	if inf := d.inference; inf != nil {
+		v.WeighNote = fmt.Sprintf("inference %d, made %s with %s", inf.ID, inf.MadeAt, inf.ToolVersion)
+		for _, r := range inf.Results {
+			f := func(x float64) string { return numfmt.Value(x) }
+			v.Weighing = append(v.Weighing, weighRow{Method: r.Method, Parameter: r.Parameter, Median: f(r.Median),
+				Int68: "[" + f(r.Lo68) + ", " + f(r.Hi68) + "]", Int90: "[" + f(r.Lo90) + ", " + f(r.Hi90) + "]", Stars: r.Stars, Note: r.Note})
+		}
+	}
 	var buf bytes.Buffer
 	if err := pageTemplate.Execute(&buf, v); err != nil {
 		return nil, 0, err
@@ -288,6 +304,13 @@ dd { margin: 0; }
 {{else}}<tr><td colspan="3">no failed rules recorded</td></tr>
 {{end}}</table>
 
+{{if .Weighing}}<h2>Weighing the Galaxy</h2>
+<p>The latest weighing of this run's stars (starvet weigh; {{.WeighNote}}). The samples are chosen from the data, not from the verdicts. The masses depend on the sample's selection and on the potential's baryonic part; masses from the velocity tail come out low by up to about 20 per cent in simulated galaxies (Grand et al. 2019, MNRAS 487, L72).</p>
+<table>
+<tr><th>method</th><th>parameter</th><th>median</th><th>68% interval</th><th>90% interval</th><th>stars</th><th>note</th></tr>
+{{range .Weighing}}<tr><td>{{.Method}}</td><td>{{.Parameter}}</td><td>{{.Median}}</td><td>{{.Int68}}</td><td>{{.Int90}}</td><td>{{.Stars}}</td><td>{{.Note}}</td></tr>
+{{end}}</table>
+{{end}}
 <h2>Plots</h2>
 {{range .Plots}}<figure>
 <img src="{{.File}}" alt="{{.Title}}" data-plot="{{.File}}">

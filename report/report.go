@@ -46,6 +46,17 @@ type Options struct {
 	// (e.g. a campaign file and whether it is the run's); shown on the
 	// page. "" = "given in the options".
 	SettingsSource string
+	// Truth, when set, marks the true values of an invented scenario on
+	// the weighing plots.
+	Truth *HaloTruth
+}
+
+// HaloTruth is what a simulated Galaxy's weighing should find: the escape
+// speed at the Sun (to infinity), the M200 the velocity tail estimates (on
+// the concentration-mass relation) and the M200 of the simulated halo
+// (what the orbit method estimates). Zero values are not marked.
+type HaloTruth struct {
+	VEscKms, M200TailMsun, M200Msun float64
 }
 
 // PlotSummary describes one written plot.
@@ -98,6 +109,7 @@ type data struct {
 	gcDefault         bool
 	sunDefault        bool
 	settings          *db.RunSettings // what the run recorded; none for an older run
+	inference         *db.Inference   // the latest weighing of the run; nil for none
 }
 
 // Write reads run runID (0 = latest complete run) from src and writes
@@ -112,6 +124,9 @@ func Write(ctx context.Context, src Source, runID int64, dir string, opt Options
 	}
 	sum := &Summary{RunID: d.run.ID, Counts: d.counts}
 	plots := []func(*data) (*PlotSummary, []byte, error){speedPlot, skyPlot, pUnboundPlot, crossingPlot}
+	if d.inference != nil && d.inference.Curves != nil {
+		plots = append(plots, tailPlot, massPosteriorPlot, orbitPlot)
+	}
 	for _, mk := range plots {
 		if err := ctx.Err(); err != nil {
 			return nil, err
@@ -171,6 +186,9 @@ func gather(ctx context.Context, src Source, runID int64, opt Options) (*data, e
 	}
 	if err := d.gatherCrossings(ctx, src, index); err != nil {
 		return nil, err
+	}
+	if d.inference, err = src.LastInference(ctx, d.run.ID); err != nil {
+		return nil, fmt.Errorf("report: %w", err)
 	}
 	return d, nil
 }

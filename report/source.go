@@ -22,6 +22,9 @@ type Source interface {
 	// RunSettings gives the settings runID recorded (none for a run
 	// written before the ledger recorded them).
 	RunSettings(ctx context.Context, runID int64) (*db.RunSettings, error)
+	// LastInference gives the latest weighing of runID's stars (starvet
+	// weigh), or nil.
+	LastInference(ctx context.Context, runID int64) (*db.Inference, error)
 }
 
 var _ Source = (*db.Ledger)(nil)

@@ -37,17 +37,17 @@ func runDemo(ctx context.Context, env *Env, args []string) error {
 	if err != nil {
 		return err
 	}
-	reportDir := filepath.Join(o.dir, "report")
-	if _, err := makeReport(ctx, second.LedgerPath, second.RunID, reportDir, report.Options{}); err != nil {
-		return err
-	}
 	fig, err := scoreAgainstTruth(ctx, second, sc.Truth)
 	if err != nil {
 		return err
 	}
+	reportDir := filepath.Join(o.dir, "report")
 	printDemoPlaces(out, sc, first, second, reportDir)
 	printRecovery(out, second, fig)
 	if err := weighDemo(ctx, env, o, sc, second); err != nil {
+		return err
+	}
+	if _, err := makeReport(ctx, second.LedgerPath, second.RunID, reportDir, report.Options{}); err != nil {
 		return err
 	}
 	fmt.Fprintf(out, "demo finished in %s\n", time.Since(t0).Round(time.Millisecond))

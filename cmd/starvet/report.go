@@ -4,12 +4,14 @@ import (
 	"context"
 	"flag"
 	"fmt"
+	"path/filepath"
 	"strings"
 
 	"starvet/campaign"
 	"starvet/db"
 	"starvet/internal/numfmt"
 	"starvet/report"
+	"starvet/scenario"
 )
 
 func runReport(ctx context.Context, env *Env, args []string) error {
@@ -96,6 +98,12 @@ func makeReport(ctx context.Context, ledgerPath string, runID int64, dir string,
 		return nil, err
 	}
 	defer l.Close()
+	if opt.Truth == nil {
+		// An invented scenario keeps its halo beside its ledger: mark it.
+		if t, err := scenario.LoadHaloTruth(filepath.Dir(ledgerPath)); err == nil {
+			opt.Truth = &report.HaloTruth{VEscKms: t.VEscSunInfKms, M200TailMsun: t.M200RelationMsun, M200Msun: t.M200Msun}
+		}
+	}
 	return report.Write(ctx, l, runID, dir, opt)
 }
 

@@ -10,7 +10,8 @@ CREATE TABLE inferences (
     tool_version TEXT NOT NULL,
     model_hash TEXT NOT NULL,
     settings_json TEXT NOT NULL,
-    excluded_json TEXT NOT NULL
+    excluded_json TEXT NOT NULL,
+    curves_json TEXT
 );
 
 CREATE TABLE inference_results (
