@@ -42,6 +42,8 @@ type recoveryRun struct {
 	truth *scenario.HaloTruth
 	r     *Result
 	model float64 // the campaign model's escape speed at the Sun, km/s
+	// gridLo, gridHi: M200 at the orbit method's grid edges.
+	gridLo, gridHi float64
 }
 
 func weighScenario(t *testing.T, cfg scenario.Config) recoveryRun {
@@ -79,12 +81,32 @@ func weighScenario(t *testing.T, cfg scenario.Config) recoveryRun {
 		t.Fatal(err)
 	}
 	vm := model.EscapeSpeed(weigh.SunPositionKpc(c.Galaxy.Sun()), c.Potential.EscapeRadiusKpc)
-	return recoveryRun{seed: cfg.Seed, truth: truth, r: r, model: vm}
+	edge := func(f float64) float64 {
+		m, err := weigh.ScaleHalo(model, f)
+		if err != nil {
+			t.Fatal(err)
+		}
+		h, err := weigh.HaloOf(m)
+		if err != nil {
+			t.Fatal(err)
+		}
+		return h.M200Msun
+	}
+	return recoveryRun{seed: cfg.Seed, truth: truth, r: r, model: vm,
+		gridLo: edge(weigh.DefaultOrbitScaleMin), gridHi: edge(weigh.DefaultOrbitScaleMax)}
 }
 
+// inside90: the estimate is carried by at least one star and its 90 per
+// cent interval holds the truth. Estimate.Stars is the tail's sample (0:
+// no fit) and, for the orbits, the stars whose ln L varies by more than 0.5
+// over the halo grid: an orbit interval carried by none is the grid's
+// flat likelihood, not a measurement, and does not count as a recovery
+// (the bare containment is logged beside it).
 func inside90(e Estimate, truth float64) bool {
-	return e.Stars > 0 && e.Lo90 <= truth && truth <= e.Hi90
+	return e.Stars > 0 && bare90(e, truth)
 }
+
+func bare90(e Estimate, truth float64) bool { return e.Hi90 > 0 && e.Lo90 <= truth && truth <= e.Hi90 }
 
 func TestWeighRecovery(t *testing.T) {
 	if testing.Short() {
@@ -113,7 +135,7 @@ func TestWeighRecovery(t *testing.T) {
 	for _, m := range methods {
 		coverage[m.name] = map[float64]float64{}
 		for _, hs := range recoveryScales {
-			in, stars := 0, []int{}
+			in, bare, stars, whole := 0, 0, []int{}, 0
 			var lines []string
 			var ratios []float64
 			for _, rr := range runs[hs] {
@@ -121,7 +143,13 @@ func TestWeighRecovery(t *testing.T) {
 				if inside90(e, tv) {
 					in++
 				}
+				if bare90(e, tv) {
+					bare++
+				}
 				stars = append(stars, e.Stars)
+				if m.name == "M200 (orbits)" && e.Hi90 > 0 && e.Lo90 <= rr.gridLo*(1+1e-9) && e.Hi90 >= rr.gridHi*(1-1e-9) {
+					whole++
+				}
 				if e.Stars > 0 {
 					ratios = append(ratios, e.Median/tv)
 				}
@@ -134,8 +162,8 @@ func TestWeighRecovery(t *testing.T) {
 			if len(ratios) > 0 {
 				med = ratios[len(ratios)/2]
 			}
-			t.Logf("%s, halo x%.1f (truth "+m.f+"): 90%% interval holds the truth in %d/%d seeds (%.0f%%); median estimate/truth %.3f; stars %v\n    %s",
-				m.name, hs, m.truth(runs[hs][0].truth), in, len(runs[hs]), 100*cov, med, stars, strings.Join(lines, "\n    "))
+			t.Logf("%s, halo x%.1f (truth "+m.f+"): 90%% interval holds the truth in %d/%d seeds (%.0f%%); (holds it regardless of the stars carrying it: %d/%d); median estimate/truth %.3f; stars %v; intervals spanning the whole orbit grid %d\n    %s",
+				m.name, hs, m.truth(runs[hs][0].truth), in, len(runs[hs]), 100*cov, bare, len(runs[hs]), med, stars, whole, strings.Join(lines, "\n    "))
 		}
 	}
 	// Lightest and heaviest told apart, seed by seed: the medians ordered,
@@ -200,10 +228,14 @@ func TestWeighRecovery(t *testing.T) {
 
 // recoveryGated marks the methods whose targets are asserted only with
 // STARVET_WEIGH_RECOVERY=1 because they miss them (see TestWeighRecovery).
-// Measured 2026-12-03 at 25,000 stars, seeds 1-10, before any change to the
-// methods: 90% coverage of the escape speed 40/100/60% (halo x0.5/1/2),
-// tail M200 the same, orbit M200 60/40/10%; the tail's medians ordered
-// 8/10, its 68% intervals disjoint 3/10; the orbits' 1/10 and 1/10.
+// Measured 2026-12-03 at 25,000 stars, seeds 1-10 (90 per cent coverage at
+// halo x0.5/1/2): escape speed 40/100/60%, tail M200 the same, the tail's
+// medians ordered 8/10 and 68% intervals disjoint 3/10, the x2 posterior
+// above 1e-3 of its peak at the 1200 km/s grid top 10/10. Orbit M200 with
+// the selection's normalisation: 30/10/10% carried by a star (10/10/9
+// bare containment: 10, 9 and 8 intervals span the whole halo grid),
+// medians ordered 1/10, 68% disjoint 0/10; before it (the fit pinned to
+// the grid's lightest halo) 60/40/10%, 1/10 and 1/10.
 var recoveryGated = map[string]bool{
 	"escape speed (tail)": true,
 	"M200 (tail)":         true,
