@@ -314,8 +314,15 @@ func ejectionWeight(vcKms float64, pdf func(float64) float64) float64 {
 // the ones seen rises accordingly. SIMPLIFICATIONS: radial orbits in the
 // potential along the star's own ray (no disk deflection), no limit on
 // the flight time, the selection applied to each draw's speed instead of
-// the star's median. Trapezoid rule, 2 km/s steps up to 5000 km/s above
-// vMin (ours; p is negligible beyond).
+// the star's median; and a steady ejection rate over unbounded time, so
+// that every v0 able to reach the position counts. That last assumption
+// matters (measured 2026-12-03): on ejectees flown only 10-80 Myr with the
+// speed law known (ejecteeSet, 25 stars, 4 seeds per truth), normalising
+// over v >= 450 km/s moved the 90% upper bounds down and excluded the true
+// scale 1 in 3 of 4 seeds (0.84-1.24) and 2 in 1 of 4, where the
+// unnormalised fit held them; the slow ejectees N counts could not have
+// reached the stars' radii in 80 Myr. Trapezoid rule, 2 km/s steps up to
+// 5000 km/s above vMin (ours; p is negligible beyond).
 func selectedShare(dPhi, vMinKms float64, pdf func(float64) float64) float64 {
 	const step, span = 2.0, 5000.0
 	n := int(span / step)
