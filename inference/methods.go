@@ -138,7 +138,8 @@ func orbits(ctx context.Context, ds []drawn, model *potential.Model, c *campaign
 	k := c.Kinematics
 	fit, err := weigh.FitOrbits(ctx, model, stars, weigh.OrbitOptions{Workers: opt.Workers,
 		Trace: orbit.TraceSettings{TraceMyr: k.TraceMyr, GCRadiusKpc: k.GCRadiusKpc, DiskRadiusKpc: k.DiskRadiusKpc},
-		Score: weigh.ScoreEjection, EjectionSpeedPDF: weigh.GaussianSpeedPDF(EjectionSpeedMeanKms, EjectionSpeedSigmaKms)})
+		Score: weigh.ScoreEjection, EjectionSpeedPDF: weigh.GaussianSpeedPDF(EjectionSpeedMeanKms, EjectionSpeedSigmaKms),
+		SelectMinSpeedKms: opt.EjecteeMinKms})
 	if errors.Is(err, weigh.ErrNoEjectees) {
 		for _, id := range ids {
 			inf.Stars = append(inf.Stars, db.InferenceStar{Method: MethodOrbits, StarID: id, Reason: "its crossings exclude the centre under every halo of the grid"})
@@ -183,8 +184,8 @@ func orbits(ctx context.Context, ds []drawn, model *potential.Model, c *campaign
 		cv.OrbitM200Msun = append(cv.OrbitM200Msun, m)
 		cv.OrbitLogLike = append(cv.OrbitLogLike, fit.LogLike[k])
 	}
-	note := fmt.Sprintf("profile likelihood over the model's halo scaled %.2g to %.2g times, ejection speeds %d +- %d km/s assumed; maximum at %.3g",
-		fit.Scales[0], fit.Scales[len(fit.Scales)-1], EjectionSpeedMeanKms, EjectionSpeedSigmaKms, fit.Best)
+	note := fmt.Sprintf("profile likelihood over the model's halo scaled %.2g to %.2g times, ejection speeds %d +- %d km/s assumed, each star's density normalised over speeds >= %g km/s at its position; maximum at %.3g",
+		fit.Scales[0], fit.Scales[len(fit.Scales)-1], EjectionSpeedMeanKms, EjectionSpeedSigmaKms, opt.EjecteeMinKms, fit.Best)
 	if fit.AtEdge || fit.Open68 || fit.Open90 {
 		note += "; the maximum or an interval reaches the grid's edge"
 		out.Notes = append(out.Notes, "the orbit method's likelihood reaches the edge of its halo grid: the interval is open there")

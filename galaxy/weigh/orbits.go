@@ -88,6 +88,14 @@ type OrbitOptions struct {
 	// background's uniform speed law (default 3000 km/s).
 	EjectionSpeedPDF      func(vKms float64) float64
 	BackgroundSpeedMaxKms float64
+	// SelectMinSpeedKms, ScoreEjection only: the least present speed of
+	// the stars the caller selected (0: no speed selection, as before).
+	// Each draw's density is then divided by its normalisation over the
+	// selected speeds at its own position, selectedShare, and the
+	// background's likewise: the likelihood is that of the speed given
+	// the position and the selection, not of a density whose integral
+	// over the selected stars changes with the halo.
+	SelectMinSpeedKms float64
 	// Workers for the back-traces (<= 0: GOMAXPROCS).
 	Workers int
 }
@@ -138,6 +146,7 @@ func LogScales(lo, hi float64, n int) []float64 {
 type draw struct {
 	xKpc, yKpc float64 // where it crossed
 	vCentreKms float64 // speed at ejectionDepthKpc from the centre, by energy
+	dPhi       float64 // Phi(now) - Phi(ejection depth), (km/s)^2
 	weight     float64 // kernel weight: 1, or ejectionWeight
 }
 
@@ -161,9 +170,10 @@ func traceDraws(p *potential.Model, s *OrbitStar, set orbit.TraceSettings) []dra
 		x, v := s.PosKpc[j], s.VelKms[j]
 		v2 := v[0]*v[0] + v[1]*v[1] + v[2]*v[2]
 		// Energy conservation in the static potential (common practice).
-		v02 := v2 + 2*(p.Phi(x)-p.Phi([3]float64{ejectionDepthKpc, 0, 0}))
+		dPhi := p.Phi(x) - p.Phi([3]float64{ejectionDepthKpc, 0, 0})
+		v02 := v2 + 2*dPhi
 		out = append(out, draw{xKpc: cr.XKpc, yKpc: cr.YKpc,
-			vCentreKms: math.Sqrt(math.Max(v02, 0)), weight: 1})
+			vCentreKms: math.Sqrt(math.Max(v02, 0)), dPhi: dPhi, weight: 1})
 	}
 	return out
 }
@@ -280,6 +290,55 @@ func ejectionWeight(vcKms float64, pdf func(float64) float64) float64 {
 		return 0
 	}
 	return pdf(vcKms) / (4 * math.Pi * vcKms * vcKms * vcKms)
+}
+
+// selectedShare is the normalisation of the ejectees' speed density at a
+// position whose potential lies dPhi (km/s)^2 above that at the ejection
+// depth, over the selected present speeds v >= vMinKms: with v0^2 = v^2 +
+// 2 dPhi,
+//
+//	N(dPhi) = integral from vMin of p(v0(v)) / v0(v) dv.
+//
+// Derivation (ours): stars leave the centre at a constant rate on radial
+// orbits with speed law p(v0); those of speed v0 cross every shell they
+// reach at the same rate, so the number in a shell dr with v0 in dv0 is
+// proportional to p(v0) dv0 dr / v, and with v dv = v0 dv0 the density of
+// the present speed at fixed r is proportional to p(v0)/v0. The same
+// p(v0)/v0 (times 1/(4 pi r^2)) is what the Liouville density
+// p(v0)/(4 pi v0^3) delta^2(b) of ejectionWeight gives when integrated
+// over the velocity's direction (b = r v theta / v0 by the conservation of
+// angular momentum), so dividing ejectionWeight by N makes each star's
+// score the density of its speed given its position and the selection.
+// Stars with v0 too small to reach the position with v >= vMin contribute
+// nothing: in a heavier halo fewer ejectees stay fast, and the score of
+// the ones seen rises accordingly. SIMPLIFICATIONS: radial orbits in the
+// potential along the star's own ray (no disk deflection), no limit on
+// the flight time, the selection applied to each draw's speed instead of
+// the star's median; and a steady ejection rate over unbounded time, so
+// that every v0 able to reach the position counts. That last assumption
+// matters (measured 2026-12-03): on ejectees flown only 10-80 Myr with the
+// speed law known (ejecteeSet, 25 stars, 4 seeds per truth), normalising
+// over v >= 450 km/s moved the 90% upper bounds down and excluded the true
+// scale 1 in 3 of 4 seeds (0.84-1.24) and 2 in 1 of 4, where the
+// unnormalised fit held them; the slow ejectees N counts could not have
+// reached the stars' radii in 80 Myr. Trapezoid rule, 2 km/s steps up to
+// 5000 km/s above vMin (ours; p is negligible beyond).
+func selectedShare(dPhi, vMinKms float64, pdf func(float64) float64) float64 {
+	const step, span = 2.0, 5000.0
+	n := int(span / step)
+	var sum float64
+	for i := 0; i <= n; i++ {
+		v := vMinKms + float64(i)*step
+		v0 := math.Sqrt(v*v + 2*dPhi)
+		w := 1.0
+		if i == 0 || i == n {
+			w = 0.5
+		}
+		if v0 > 0 {
+			sum += w * pdf(v0) / v0
+		}
+	}
+	return sum * step
 }
 
 // ejectionBackground is the background of ScoreEjection, averaged over all
@@ -404,6 +463,12 @@ func FitOrbits(ctx context.Context, base *potential.Model, stars []OrbitStar, op
 		bg := 1 / (math.Pi * diskKpc * diskKpc)
 		if opt.Score == ScoreEjection {
 			bg = ejectionBackground(s, diskKpc, vMax)
+			if vSel := opt.SelectMinSpeedKms; vSel > 0 && vSel < vMax {
+				// The background's speed law, uniform on [0, vMax]
+				// with no potential, normalised over v >= vSel like
+				// selectedShare: integral of (1/vMax)/v dv.
+				bg /= math.Log(vMax/vSel) / vMax
+			}
 		}
 		row := make([]float64, len(scales))
 		sel := false
@@ -412,6 +477,14 @@ func FitOrbits(ctx context.Context, base *potential.Model, stars []OrbitStar, op
 			if opt.Score == ScoreEjection {
 				for j := range ds {
 					ds[j].weight = ejectionWeight(ds[j].vCentreKms, opt.EjectionSpeedPDF)
+					if vSel := opt.SelectMinSpeedKms; vSel > 0 && ds[j].weight > 0 {
+						n := selectedShare(ds[j].dPhi, vSel, opt.EjectionSpeedPDF)
+						if n > 0 {
+							ds[j].weight /= n
+						} else {
+							ds[j].weight = 0
+						}
+					}
 				}
 			}
 			c := newCloud(ds, len(s.PosKpc), floor)

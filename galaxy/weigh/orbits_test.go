@@ -349,3 +349,79 @@ func TestFitOrbitsRecovery(t *testing.T) {
 		t.Errorf("light and heavy halo ordered in %d of %d seeds, want >= 8", ordered, seeds)
 	}
 }
+
+// selectedShare against its closed form for a uniform ejection law on
+// [a, b]: N = (1/(b-a)) integral of dv0 / sqrt(v0^2 - 2 dPhi) over v0 from
+// max(a, sqrt(vMin^2 + 2 dPhi)) to b, = (1/(b-a)) [acosh(v0/sqrt(2 dPhi))]
+// (ln(b/lo) when dPhi = 0).
+func TestSelectedShareClosedForm(t *testing.T) {
+	const a, b = 700.0, 1800.0
+	pdf := UniformSpeedPDF(a, b)
+	for _, c := range []struct{ dPhi, vMin float64 }{{0, 450}, {300 * 300, 450}, {600 * 600, 450}, {600 * 600, 0}, {900 * 900, 450}} {
+		lo := math.Max(a, math.Sqrt(c.vMin*c.vMin+2*c.dPhi))
+		want := math.Log(b / lo)
+		if c.dPhi > 0 {
+			s := math.Sqrt(2 * c.dPhi)
+			want = math.Acosh(b/s) - math.Acosh(lo/s)
+		}
+		want /= b - a
+		got := selectedShare(c.dPhi, c.vMin, pdf)
+		// The trapezoid rule on a law with jumps: 2 km/s steps, errors of
+		// order step/(b-a) of the whole.
+		if math.Abs(got-want) > 3e-3*want+1e-9 {
+			t.Errorf("dPhi %g, vMin %g: %.6g, closed form %.6g", c.dPhi, c.vMin, got, want)
+		}
+	}
+}
+
+// Ejectees selected by their present speed (>= 900 km/s, a cut that keeps
+// fewer of them the heavier the halo, as the caller's median-speed cut
+// does): with the selection's normalisation (SelectMinSpeedKms) the 90 per
+// cent interval holds the true scale in at least 4 of 5 seeds at 0.5 and
+// at 2. Without it the same stars pin the fit to the grid's lightest halo
+// and exclude the truth 2 in 5 of 5 seeds (measured 2026-12-03: 90% upper
+// bounds 0.62-0.86; with it 5 of 5 at both truths). The unnormalised fit
+// is logged, not asserted.
+func TestFitOrbitsSpeedSelection(t *testing.T) {
+	if testing.Short() {
+		t.Skip("20 fits")
+	}
+	const vSel, seeds = 900.0, 5
+	base := defaultModel(t)
+	for _, truth := range []float64{0.5, 2} {
+		m, err := ScaleHalo(base, truth)
+		if err != nil {
+			t.Fatal(err)
+		}
+		covered := 0
+		for seed := range uint64(seeds) {
+			rng := rand.New(rand.NewPCG(5000+seed, uint64(truth*1000)))
+			var stars []OrbitStar
+			tried := 0
+			for len(stars) < 25 {
+				tried++
+				x, v := ejectee(rng, m)
+				if math.Sqrt(v[0]*v[0]+v[1]*v[1]+v[2]*v[2]) < vSel {
+					continue
+				}
+				stars = append(stars, draws(rng, "ej", x, v, 40, 0.02, 0.01))
+			}
+			for _, sel := range []float64{0, vSel} {
+				o := ejectionOptions()
+				o.SelectMinSpeedKms = sel
+				res, err := FitOrbits(context.Background(), base, stars, o)
+				if err != nil {
+					t.Fatal(err)
+				}
+				t.Logf("truth %.1f seed %d, normalised over v >= %.0f km/s (0: not): %d of %d kept, best %.2f 90%% [%.2f, %.2f], %d carrying",
+					truth, seed, sel, len(stars), tried, res.Best, res.Lo90, res.Hi90, res.Carrying)
+				if sel > 0 && res.Lo90 <= truth && truth <= res.Hi90 {
+					covered++
+				}
+			}
+		}
+		if covered < 4 {
+			t.Errorf("truth %.1f: the normalised fit's 90%% interval holds it in %d of %d seeds, want >= 4", truth, covered, seeds)
+		}
+	}
+}
