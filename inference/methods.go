@@ -56,6 +56,9 @@ func tail(ds []drawn, model *potential.Model, sunPos [3]float64, escapeRadiusKpc
 	to := weigh.DefaultTailOptions()
 	to.VMinKms, to.Workers = opt.VMinKms, opt.Workers
 	to.OutlierMax, to.OutlierSteps = opt.OutlierMax, outlierSteps
+	if opt.KPriorLow {
+		to.KMin, to.KMax = weigh.KMinDeason, weigh.KMaxDeason
+	}
 	fit, err := weigh.FitTail(stars, to)
 	if err != nil {
 		return err

@@ -60,6 +60,10 @@ type Options struct {
 	// moving out, so the cut halves the sample without shaping its speeds,
 	// while every star ejected from the centre moves out (our choice).
 	InfallOnly bool
+	// KPriorLow takes the tail slope's prior from the lower range Deason
+	// et al. 2019 argue for (weigh.KMinDeason..KMaxDeason) instead of
+	// Piffl et al. 2014's (weigh.KMinPiffl..KMaxPiffl).
+	KPriorLow bool
 	// Escape2R200 takes the escape speed to 2 r200 (Deason et al. 2019,
 	// MNRAS 485, 3514) instead of to infinity (the campaign default) when
 	// mapping it to the halo's mass.

@@ -27,6 +27,7 @@ func runWeigh(ctx context.Context, env *Env, args []string) error {
 	ejMin := fs.Float64("ejectee-min", inference.DefaultEjecteeMinKms, "least median speed of a star the orbit method considers, km/s")
 	draws := fs.Int("draws", inference.DefaultDraws, "Monte Carlo draws per star")
 	infall := fs.Bool("infall-only", true, "tail sample: only stars falling towards the Galactic Centre (no centre ejectee falls in)")
+	kLow := fs.Bool("k-low", false, "prior on the tail's slope k uniform on [1, 2.5] (the lower values Deason et al. 2019 argue for; from memory) instead of [2.3, 3.7] (Piffl et al. 2014)")
 	to2r200 := fs.Bool("escape-2r200", false, "map the escape speed to the halo mass with escape to 2 r200 instead of to infinity")
 	outMax := fs.Float64("outlier-max", inference.DefaultOutlierMax, "top of the uniform prior on the tail sample's share of stars the escape-speed model does not describe")
 	workers := fs.Int("workers", 0, "worker goroutines (0: one per core)")
@@ -48,7 +49,7 @@ func runWeigh(ctx context.Context, env *Env, args []string) error {
 	}
 	defer l.Close()
 	r, err := inference.Weigh(ctx, l, c, inference.Options{RunID: *runID, VMinKms: *vmin, HaloRelKms: *halo,
-		EjecteeMinKms: *ejMin, Draws: *draws, InfallOnly: *infall, Escape2R200: *to2r200, OutlierMax: *outMax, Workers: *workers, ToolVersion: toolVersion})
+		EjecteeMinKms: *ejMin, Draws: *draws, InfallOnly: *infall, KPriorLow: *kLow, Escape2R200: *to2r200, OutlierMax: *outMax, Workers: *workers, ToolVersion: toolVersion})
 	if err != nil {
 		return err
 	}
