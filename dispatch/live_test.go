@@ -11,27 +11,18 @@ import (
 	"time"
 )
 
-// liveSlurm skips unless sinfo reports an idle node, and fails instead
-// when STARVET_REQUIRE_SLURM=1.
+// liveSlurm skips unless Slurm is usable here (Slurm.Usable), and
+// fails instead when STARVET_REQUIRE_SLURM=1.
 func liveSlurm(t *testing.T) {
 	t.Helper()
-	ctx, cancel := context.WithTimeout(context.Background(), 10*time.Second)
-	defer cancel()
-	out, err := exec.CommandContext(ctx, "sinfo", "-h", "-o", "%T").CombinedOutput()
-	reason := ""
-	switch {
-	case err != nil:
-		reason = fmt.Sprintf("sinfo: %v: %s", err, strings.TrimSpace(string(out)))
-	case !strings.Contains("\n"+string(out), "\nidle"):
-		reason = fmt.Sprintf("sinfo shows no idle node: %q", strings.TrimSpace(string(out)))
-	}
-	if reason == "" {
+	err := Slurm{}.Usable(context.Background())
+	if err == nil {
 		return
 	}
 	if os.Getenv("STARVET_REQUIRE_SLURM") == "1" {
-		t.Fatalf("STARVET_REQUIRE_SLURM=1 but Slurm is not usable: %s", reason)
+		t.Fatalf("STARVET_REQUIRE_SLURM=1 but Slurm is not usable: %v", err)
 	}
-	t.Skipf("no usable Slurm cluster (start one with .ci/slurm/start): %s", reason)
+	t.Skipf("no usable Slurm cluster (start one with .ci/slurm/start): %v", err)
 }
 
 // TestSlurmLive submits a five-task array and a dependent final to the real

@@ -325,6 +325,22 @@ func (s Slurm) wait(ctx context.Context, ids []string) error {
 	}
 }
 
+// Usable reports why this machine cannot submit to a Slurm cluster now
+// (sinfo fails, or shows no idle node), or nil when it can: the live
+// tests' check.
+func (s Slurm) Usable(ctx context.Context) error {
+	ctx, cancel := context.WithTimeout(ctx, 10*time.Second)
+	defer cancel()
+	out, err := s.command(ctx, "", "sinfo", "-h", "-o", "%T")
+	switch {
+	case err != nil:
+		return err
+	case !strings.Contains("\n"+string(out), "\nidle"):
+		return fmt.Errorf("sinfo shows no idle node: %q", strings.TrimSpace(string(out)))
+	}
+	return nil
+}
+
 // checkIdle refuses a submission while jobs of an earlier one on the same
 // directory are queued, since they read the files about to be rewritten.
 func (s Slurm) checkIdle(ctx context.Context, dir string) error {

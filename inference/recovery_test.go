@@ -4,11 +4,11 @@ import (
 	"context"
 	"fmt"
 	"os"
+	"path/filepath"
 	"sort"
 	"strings"
 	"testing"
 
-	"starvet/campaign"
 	"starvet/db"
 	"starvet/galaxy/weigh"
 	"starvet/scenario"
@@ -49,21 +49,9 @@ type recoveryRun struct {
 func weighScenario(t *testing.T, cfg scenario.Config) recoveryRun {
 	t.Helper()
 	ctx := context.Background()
-	dir := t.TempDir()
-	sc, err := scenario.Generate(cfg, dir)
-	if err != nil {
-		t.Fatal(err)
-	}
-	c, err := campaign.Load(sc.CampaignPath)
-	if err != nil {
-		t.Fatal(err)
-	}
-	e := &vetting.Engine{Workers: 2, ToolVersion: "test"}
-	sum, err := e.Run(ctx, c, vetting.RunOptions{})
-	if err != nil {
-		t.Fatal(err)
-	}
-	l, err := db.Open(ctx, sum.LedgerPath, db.Options{})
+	c, ledger, _ := vetScenario(t, cfg)
+	dir := filepath.Dir(ledger)
+	l, err := db.Open(ctx, ledger, db.Options{})
 	if err != nil {
 		t.Fatal(err)
 	}

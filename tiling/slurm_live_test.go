@@ -16,6 +16,7 @@ import (
 	"time"
 
 	"starvet/db"
+	"starvet/dispatch"
 	"starvet/scenario"
 	"starvet/tiling"
 )
@@ -30,27 +31,18 @@ const (
 	liveTilesPerTask = 8
 )
 
-// liveSlurm skips unless sinfo reports an idle node, and fails instead
-// when STARVET_REQUIRE_SLURM=1 (the check of dispatch/live_test.go).
+// liveSlurm skips unless Slurm is usable here (dispatch.Slurm.Usable), and
+// fails instead when STARVET_REQUIRE_SLURM=1.
 func liveSlurm(t *testing.T) {
 	t.Helper()
-	ctx, cancel := context.WithTimeout(context.Background(), 10*time.Second)
-	defer cancel()
-	out, err := exec.CommandContext(ctx, "sinfo", "-h", "-o", "%T").CombinedOutput()
-	reason := ""
-	switch {
-	case err != nil:
-		reason = fmt.Sprintf("sinfo: %v: %s", err, strings.TrimSpace(string(out)))
-	case !strings.Contains("\n"+string(out), "\nidle"):
-		reason = fmt.Sprintf("sinfo shows no idle node: %q", strings.TrimSpace(string(out)))
-	}
-	if reason == "" {
+	err := dispatch.Slurm{}.Usable(context.Background())
+	if err == nil {
 		return
 	}
 	if os.Getenv("STARVET_REQUIRE_SLURM") == "1" {
-		t.Fatalf("STARVET_REQUIRE_SLURM=1 but Slurm is not usable: %s", reason)
+		t.Fatalf("STARVET_REQUIRE_SLURM=1 but Slurm is not usable: %v", err)
 	}
-	t.Skipf("no usable Slurm cluster (start one with .ci/slurm/start): %s", reason)
+	t.Skipf("no usable Slurm cluster (start one with .ci/slurm/start): %v", err)
 }
 
 // live drives the starvet binary over one scenario, a single-run ledger
