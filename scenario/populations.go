@@ -328,7 +328,7 @@ func (s *sampler) diskRunaway() (*star, error) {
 // haloFastMaxKpc from the centre: a choice of positions, which leaves
 // the speed law at each position alone, made so that the tail's stars are
 // where v_esc(x) stands well above v_min (at half the default halo mass
-// v_esc is 320 km/s at 20 kpc) and the distances are good enough to
+// v_esc is 322-328 km/s at 20 kpc) and the distances are good enough to
 // measure them. Both values are ours.
 const (
 	haloFastMinKms = 250
