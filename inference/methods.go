@@ -23,12 +23,17 @@ func tail(ds []drawn, model *potential.Model, sunPos [3]float64, escapeRadiusKpc
 		use := func(used bool, format string, a ...any) {
 			inf.Stars = append(inf.Stars, db.InferenceStar{Method: MethodTail, StarID: v.StarID, Used: used, Reason: fmt.Sprintf(format, a...)})
 		}
-		if v.SpeedP50Kms < opt.VMinKms {
-			use(false, "median speed %.0f km/s is below v_min %g km/s", v.SpeedP50Kms, opt.VMinKms)
-			continue
-		}
 		if !d.res.OK || len(d.res.SamplePos) == 0 {
 			use(false, "no Monte Carlo draws (the star's kinematics failed when drawn again)")
+			continue
+		}
+		// The sample is cut on the median of the draws the fit uses (flat
+		// prior), not on the run's median, which the campaign's velocity
+		// prior shrinks: cut on that, a poorly measured star just above
+		// v_min falls below it more often than a star far above, which
+		// thins the tail near v_min and biases v_esc upward.
+		if sp := d.res.SpeedKms[1]; !(sp >= opt.VMinKms) {
+			use(false, "median speed %.0f km/s (flat prior) is below v_min %g km/s", sp, opt.VMinKms)
 			continue
 		}
 		rel := relativeToRotation(model, d.res.PosKpc, d.res.VelKms)

@@ -28,6 +28,12 @@ import (
 // added this test) are asserted only with STARVET_WEIGH_RECOVERY=1, at the
 // issue's bounds, so that the suite stays green while the figures stay
 // honest and the failing target can be run on demand.
+//
+// The scenario's halo follows the Leonard & Tremaine law by construction,
+// so for the velocity tail this test checks the machinery (radial scaling,
+// errors, outlier term, selection, conversion to mass), not the functional
+// form itself, whose bias in realistic simulated galaxies (masses low by
+// up to ~20%, Grand et al. 2019, MNRAS 487, L72) is stated in README.
 const (
 	recoverySeeds    = 10
 	recoveryStars    = 25000 // 5 s per scenario on 2 cores, vetting and weighing
@@ -216,30 +222,32 @@ func TestWeighRecovery(t *testing.T) {
 
 // recoveryGated marks the methods whose targets are asserted only with
 // STARVET_WEIGH_RECOVERY=1 because they miss them (see TestWeighRecovery).
-// Measured 2026-12-03 at 25,000 stars, seeds 1-10 (90 per cent coverage at
-// halo x0.5/1/2): escape speed 40/100/60%, tail M200 the same, the tail's
-// medians ordered 8/10 and 68% intervals disjoint 3/10, the x2 posterior
-// above 1e-3 of its peak at the 1200 km/s grid top 10/10. Orbit M200 with
-// the selection's normalisation: 30/10/10% carried by a star (10/10/9
-// bare containment: 10, 9 and 8 intervals span the whole halo grid),
-// medians ordered 1/10, 68% disjoint 0/10; before it (the fit pinned to
-// the grid's lightest halo) 60/40/10%, 1/10 and 1/10.
 //
-// Why the tail misses (measured on seeds 1-5 at x1 and x2, refitting the
-// same tail sample): the sample is 7-24 stars, about 60% the bulk halo
-// (isotropic Gaussian of 120 km/s per axis, the same at every HaloScale,
-// cut at the escape speed), about 35% the injected fast halo (speeds
-// 0.6-0.95 of the local escape speed in the tail law of k = 3), a few disk
-// stars and runaways. k's posterior is its prior (median 3.0, 90% [2.33,
-// 3.63]); widening k's prior to [2.3, 12] raises v_esc further (x2: 923-
-// 1003 km/s, truth 672); dropping the disk stars and runaways changes
-// nothing; the fast halo alone gives 832-987 km/s at x2: above v_min =
-// 300 km/s neither population has the Leonard & Tremaine shape (the bulk
-// halo falls off on a scale set by its fixed dispersion, the fast halo
-// lacks speeds below 0.6 v_esc = 403 km/s at x2), so the fitted v_esc
-// follows the speeds' spread above v_min, not the halo.
+// The velocity tail meets them and is asserted always. What that checks:
+// the scenario's halo (scenario/populations.go) has, by construction, the
+// Leonard & Tremaine speed law (v_esc(x) - v)^k, k = 3, above 0.3 v_esc(x)
+// of its own Galaxy, so the test checks the machinery (the radial scaling
+// by the campaign model's shape, the measurement errors folded in by the
+// draws, the outlier term, the sample's selection, the conversion to
+// M200), not the functional form itself, whose bias in realistic simulated
+// galaxies (masses low by up to ~20%, Grand et al. 2019, MNRAS 487, L72)
+// is stated in README. Measured 2026-12-03 at 25,000 stars, seeds 1-10
+// (STARVET_WEIGH_RECOVERY=1, 94 s on 2 cores for the whole test): the
+// escape speed's 90% interval holds the truth in 9, 10 and 10 of 10 seeds
+// at halo x0.5, 1 and 2 (medians 1.046, 0.981 and 1.004 times the truth,
+// from 23-42, 44-68 and 63-91 stars), the tail's M200 likewise 9, 10 and
+// 10 (medians 1.243, 0.923, 1.016 times the truth: M200 moves as v_esc
+// to the power 4-5 here); x0.5 and x2 ordered in 10/10 seeds with disjoint
+// 68% intervals in 10/10; the x2 posterior never reaches its grid's top.
+// Before the scenario's halo had that law (a normal of fixed dispersion
+// cut at v_esc plus a fast halo at 0.6-0.95 v_esc), the same test gave
+// 4, 10 and 6 of 10 and 3/10 disjoint.
+//
+// The orbit method (another branch's work) still misses: on the same runs
+// its 90% interval holds the truth in 6, 2 and 2 of 10 seeds counting only
+// fits some star carries (10, 10, 10 bare containment: every interval
+// spans the whole halo grid), its fits carried by 0-2 stars, medians
+// ordered in 0/10 and 68% intervals disjoint in 0/10.
 var recoveryGated = map[string]bool{
-	"escape speed (tail)": true,
-	"M200 (tail)":         true,
-	"M200 (orbits)":       true,
+	"M200 (orbits)": true,
 }

@@ -16,7 +16,8 @@ import (
 // Defaults of Options.
 const (
 	// DefaultVMinKms is the least median Galactocentric speed of the tail
-	// sample (Piffl et al. 2014, A&A 562, A91, use 300 km/s).
+	// sample, the median of the draws made again under the flat prior
+	// (Piffl et al. 2014, A&A 562, A91, use 300 km/s).
 	DefaultVMinKms = 300
 	// DefaultHaloRelKms: a tail star must move at least this fast
 	// relative to circular rotation at its own position, the kinematic
@@ -31,6 +32,14 @@ const (
 	// (unbound ejectees and runaways, artefacts): our choice, wide,
 	// because a vetted sample is selected to hold the fastest stars.
 	DefaultOutlierMax = 0.5
+	// tailCandidateFraction: the tail reads the run's stars down to this
+	// fraction of v_min in the run's median speed, because it cuts on the
+	// median of the draws made again with the flat prior, which for a
+	// poorly measured star lies above the run's (shrunk by the velocity
+	// prior of the campaign): half of v_min takes in every star whose
+	// velocity errors are below the prior's 150 km/s per component
+	// (shrinkage sigma_p^2/(sigma_p^2 + sigma^2) >= 1/2; ours).
+	tailCandidateFraction = 0.5
 	// outlierSteps tabulates that prior every 0.05.
 	outlierSteps = 10
 	// DefaultEjecteeMinKms is the least median speed of a star the orbit
@@ -152,7 +161,7 @@ func Weigh(ctx context.Context, l *db.Ledger, c *campaign.Campaign, opt Options)
 		return nil, err
 	}
 	var cands []db.KinematicCandidate
-	excluded, err := l.KinematicCandidates(ctx, run.ID, math.Min(opt.VMinKms, opt.EjecteeMinKms), func(k db.KinematicCandidate) error {
+	excluded, err := l.KinematicCandidates(ctx, run.ID, math.Min(tailCandidateFraction*opt.VMinKms, opt.EjecteeMinKms), func(k db.KinematicCandidate) error {
 		cands = append(cands, k)
 		return nil
 	})

@@ -128,9 +128,10 @@ func TestWeighStoresAndAudits(t *testing.T) {
 	considered := map[string]bool{}
 	used := ""
 	all := sum.Computed + sum.Carried
-	// Read back through the audit path.
+	// Read back through the audit path, down to the speed Weigh reads
+	// (the tail takes candidates down to tailCandidateFraction of v_min).
 	var cands []db.KinematicCandidate
-	if _, err := l.KinematicCandidates(ctx, r.RunID, min(DefaultVMinKms, DefaultEjecteeMinKms), func(k db.KinematicCandidate) error {
+	if _, err := l.KinematicCandidates(ctx, r.RunID, min(tailCandidateFraction*DefaultVMinKms, DefaultEjecteeMinKms), func(k db.KinematicCandidate) error {
 		cands = append(cands, k)
 		return nil
 	}); err != nil {

@@ -43,9 +43,9 @@ type Config struct {
 	// injected stars, traps and bad rows included. Default 50,000; at
 	// least 1,000.
 	Stars int
-	// Injected is the number of stars per injected population (Galactic
-	// Centre ejectees, disk runaways, bound fast halo stars). Zero means
-	// Stars/500 clamped to [20, 100].
+	// Injected is the number of Galactic Centre ejectees and of disk
+	// runaways. Zero means Stars/500 clamped to [20, 100]. The bound fast
+	// halo has FastHaloStars(Stars, Injected) stars.
 	Injected int
 	// Name is the campaign name; default "invented-demo".
 	Name string
@@ -94,9 +94,19 @@ func (c Config) withDefaults() (Config, error) {
 	return c, nil
 }
 
+// FastHaloStars is the size of the bound fast halo of a scenario of
+// stars rows with injected stars per injected population: one row in 32
+// (at least injected). The velocity-tail method (starvet weigh) needs it:
+// at half the default halo mass the halo's own stars above 300 km/s are
+// too few, and with 781 fast halo stars in 25,000 rows the tail sample
+// holds 23-42 stars at half the default halo mass, 44-68 at the default
+// and 63-91 at twice it (seeds 1-10; inference/recovery_test.go). Ours.
+func FastHaloStars(stars, injected int) int { return max(injected, stars/32) }
+
 // counts is how many stars of each kind a scenario holds.
 type counts struct {
-	injected   int // per injected population
+	injected   int // Galactic Centre ejectees, disk runaways
+	haloFast   int // bound fast halo stars
 	binaries   int
 	duplicates int // pairs: two rows each
 	rvOutliers int
@@ -110,6 +120,7 @@ func countsFor(c Config) counts {
 	n := c.Injected
 	return counts{
 		injected:   n,
+		haloFast:   FastHaloStars(c.Stars, n),
 		binaries:   max(4, n/2),
 		duplicates: max(3, n/4),
 		rvOutliers: max(4, n/2),

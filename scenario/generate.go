@@ -208,7 +208,7 @@ func (s *Scenario) sample() error {
 	}
 	draw(cn.injected, smp.gcEjectee)
 	draw(cn.injected, smp.diskRunaway)
-	draw(cn.injected, func() (*star, error) { return smp.haloFast(0.6, 0.95) })
+	draw(cn.haloFast, smp.haloFast)
 	draw(cn.binaries, smp.binary)
 	for i := 0; i < cn.duplicates && err == nil; i++ {
 		var host, twin *star
@@ -267,11 +267,12 @@ func (smp *sampler) rvOutlier() (*star, error) {
 	return st, nil
 }
 
-// crowdedHost is a trap: a halo star in the footprint at 0.5-10 kpc whose
-// neighbour's spectrum lies close by.
+// crowdedHost is a trap: a fast halo star (haloFast: the halo's own speed
+// law, so the halo keeps its tail's shape) in the footprint at 0.5-10 kpc
+// whose neighbour's spectrum lies close by.
 func (smp *sampler) crowdedHost() (*star, error) {
 	for range maxTries {
-		st, err := smp.haloFast(0.5, 0.8)
+		st, err := smp.haloFast()
 		if err != nil {
 			return nil, err
 		}
@@ -461,7 +462,7 @@ func (s *Scenario) orderRows(neighbours []*specRow) {
 // the spectroscopic epoch, with an rv 400-700 km/s away from st's, so that
 // taking it for st's spectrum would make st look unbound.
 func (s *Scenario) neighbour(st *star, rng *rand.Rand) *specRow {
-	ra, dec := propagateDeg(st.raDeg, st.decDeg, st.pmRA, st.pmDec, SpectroscopyEpochJyr-AstrometryEpochJyr)
+	ra, dec := propagateDeg(st.raDeg, st.decDeg, st.distKpc, st.pmRA, st.pmDec, st.rvKms, SpectroscopyEpochJyr-AstrometryEpochJyr)
 	sep := 500 + 300*rng.Float64()
 	a := 2 * math.Pi * rng.Float64()
 	const posErrMas = 80

@@ -227,10 +227,13 @@ func TestPopulationInvariants(t *testing.T) {
 			n[st.pop]++
 		}
 	}
-	for _, p := range []string{PopGCEjectee, PopDiskRunaway, PopHaloFast} {
+	for _, p := range []string{PopGCEjectee, PopDiskRunaway} {
 		if n[p] != s.Config.Injected {
 			t.Errorf("%s: %d stars, want %d", p, n[p], s.Config.Injected)
 		}
+	}
+	if want := FastHaloStars(s.Config.Stars, s.Config.Injected); n[PopHaloFast] != want || want < s.Config.Injected {
+		t.Errorf("%s: %d stars, want %d (at least %d)", PopHaloFast, n[PopHaloFast], want, s.Config.Injected)
 	}
 	nUnboundGC := 0
 	for _, st := range s.stars {
@@ -273,8 +276,9 @@ func TestPopulationInvariants(t *testing.T) {
 			}
 			checkEnergy(t, st, g)
 		case PopHaloFast:
-			if f := v / vesc; f < 0.6 || f > 0.95 {
-				t.Errorf("%s: v/v_esc = %v, want 0.6-0.95", st.id, f)
+			// The halo's law above 250 km/s, at 3-30 kpc: bound.
+			if r := vec.Norm(st.posKpc); v < haloFastMinKms || v >= vesc || r < 3 || r > haloFastMaxKpc {
+				t.Errorf("%s: speed %v km/s at r %v kpc (v_esc %v), want %v <= v < v_esc at 3-%v kpc", st.id, v, r, vesc, float64(haloFastMinKms), float64(haloFastMaxKpc))
 			}
 		case PopHalo, PopThinDisk, PopThickDisk:
 			if v >= vesc {
@@ -388,7 +392,7 @@ func TestTraps(t *testing.T) {
 			})
 		case TrapCrowded:
 			t.Run("crowded/"+st.id, func(t *testing.T) {
-				ra, dec := propagateDeg(st.raDeg, st.decDeg, st.pmRA, st.pmDec, SpectroscopyEpochJyr-AstrometryEpochJyr)
+				ra, dec := propagateDeg(st.raDeg, st.decDeg, st.distKpc, st.pmRA, st.pmDec, st.rvKms, SpectroscopyEpochJyr-AstrometryEpochJyr)
 				var seps []float64
 				var rvs []float64
 				for j := range spec.Len() {
@@ -439,17 +443,17 @@ func TestTraps(t *testing.T) {
 			})
 		}
 	}
-	// The generator's own linear propagation agrees with sky.Propagate
+	// The generator's own propagation agrees with sky.Propagate
 	// (rigorous, ERFA-checked) to 1 mas for the fastest stars.
 	for _, st := range s.stars {
 		if st.trap != TrapHighPM {
 			continue
 		}
-		ra, dec := propagateDeg(st.raDeg, st.decDeg, st.pmRA, st.pmDec, SpectroscopyEpochJyr-AstrometryEpochJyr)
+		ra, dec := propagateDeg(st.raDeg, st.decDeg, st.distKpc, st.pmRA, st.pmDec, st.rvKms, SpectroscopyEpochJyr-AstrometryEpochJyr)
 		p := sky.Propagate(sky.Astrometry{RADeg: st.raDeg, DecDeg: st.decDeg, ParallaxMas: 1 / st.distKpc,
 			PMRAMasYr: st.pmRA, PMDecMasYr: st.pmDec, RVKms: st.rvKms}, AstrometryEpochJyr, SpectroscopyEpochJyr)
 		if d := sky.Separation(ra*units.RadPerDeg, dec*units.RadPerDeg, p.RADeg*units.RadPerDeg, p.DecDeg*units.RadPerDeg) / units.RadPerDeg * units.MasPerDeg; d > 1 {
-			t.Errorf("%s: linear propagation off by %v mas from sky.Propagate", st.id, d)
+			t.Errorf("%s: propagation off by %v mas from sky.Propagate (pm %v, %v mas/yr, rv %v km/s, d %v kpc)", st.id, d, st.pmRA, st.pmDec, st.rvKms, st.distKpc)
 		}
 	}
 }

@@ -192,29 +192,60 @@ func (s *sampler) haloRadius(rMin, rMax float64) float64 {
 	return 1 / (u * u)
 }
 
-// haloSigmaKms is the isotropic one-dimensional dispersion of the stellar
-// halo (brief: ~120 km/s; cf. Bland-Hawthorn & Gerhard 2016, ARA&A 54, 529,
-// sec. 7).
-const haloSigmaKms = 120
+// The halo's speed law, in units of the local escape speed f = v / v_esc(x)
+// of the simulated Galaxy (its halo scaled by Config.HaloScale), invented
+// for the demo so that the tail has exactly the form the velocity-tail
+// method fits: p(f) ∝ f^2 below haloBulkEdge (an isotropic velocity
+// distribution of finite density at v = 0), and above it the tail law
+// p(f) ∝ (1 - f)^k, k = haloTailIndex (Leonard & Tremaine 1990, ApJ 353,
+// 486), the two continuous at haloBulkEdge. f0 = 0.3 keeps the edge below
+// v_min = 300 km/s wherever a halo star can be: the fastest escape speed
+// at the halo's inner radius (1 kpc) is 810 km/s at HaloScale 2, and 0.3
+// times it is 243 km/s. Its mean speed at the Sun, 0.36 v_esc = 185 km/s
+// in the default model, is that of an isotropic normal of 116 km/s per
+// axis, close to the stellar halo's dispersion (~120 km/s, Bland-Hawthorn
+// & Gerhard 2016, ARA&A 54, 529, sec. 7).
+const haloBulkEdge = 0.3
+
+// haloTailIndex is k in the speed distribution of the halo's high-velocity
+// tail, f(v) ∝ (v_esc - v)^k (Leonard & Tremaine 1990, ApJ 353, 486; Piffl
+// et al. 2014, A&A 562, A91 fit k between about 2.3 and 3.7, from memory).
+const haloTailIndex = 3.0
+
+// haloFraction draws f = v / v_esc from the halo's speed law above fMin
+// (0: the whole law; fMin >= haloBulkEdge: the tail law conditioned on
+// f >= fMin), by inverting each piece's CDF.
+func (s *sampler) haloFraction(fMin float64) float64 {
+	const f0, k1 = haloBulkEdge, haloTailIndex + 1
+	if fMin < f0 {
+		// Masses of the two pieces with p(f0) = f0^2 on both sides:
+		// bulk f0^3/3, tail f0^2 (1 - f0)/(k + 1).
+		bulk, tail := f0*f0*f0/3, f0*f0*(1-f0)/k1
+		if s.rng.Float64()*(bulk+tail) < bulk {
+			return f0 * math.Cbrt(s.rng.Float64())
+		}
+		fMin = f0
+	}
+	return 1 - (1-fMin)*math.Pow(s.rng.Float64(), 1/k1)
+}
+
+// haloVelocity draws a velocity at x from the halo's speed law above
+// fMin, in an isotropic direction.
+func (s *sampler) haloVelocity(x [3]float64, fMin float64) [3]float64 {
+	sp := s.haloFraction(fMin) * s.g.vesc(x)
+	e := s.isotropic()
+	return [3]float64{sp * e[0], sp * e[1], sp * e[2]}
+}
 
 func (s *sampler) haloStar() *star {
 	r := s.haloRadius(1, 60)
 	d := s.isotropic()
 	x := [3]float64{r * d[0], r * d[1], r * d[2]}
-	vesc := s.g.vesc(x)
-	var v [3]float64
-	for {
-		v = [3]float64{haloSigmaKms * s.rng.NormFloat64(), haloSigmaKms * s.rng.NormFloat64(), haloSigmaKms * s.rng.NormFloat64()}
-		// A bound halo holds no star above the escape speed.
-		if speed(v) < vesc {
-			break
-		}
-	}
 	m := 4.8 + 0.8*s.rng.NormFloat64() // dwarfs
 	if s.rng.Float64() < 0.3 {
 		m = 0.6 + 0.8*s.rng.NormFloat64() // giants
 	}
-	return &star{pop: PopHalo, origin: OriginHalo, flightMyr: math.NaN(), posKpc: x, velKms: v,
+	return &star{pop: PopHalo, origin: OriginHalo, flightMyr: math.NaN(), posKpc: x, velKms: s.haloVelocity(x, 0),
 		absMag: m, color: 0.75 + 0.2*s.rng.NormFloat64()}
 }
 
@@ -287,28 +318,37 @@ func (s *sampler) diskRunaway() (*star, error) {
 	return nil, fmt.Errorf("scenario: disk runaway: %w", ErrSampling)
 }
 
-// haloTailIndex is k in the speed distribution of the halo's high-velocity
-// tail, f(v) ∝ (v_esc - v)^k (Leonard & Tremaine 1990, ApJ 353, 486; Piffl
-// et al. 2014, A&A 562, A91 fit k between about 2.3 and 3.7, from memory).
-const haloTailIndex = 3.0
+// The fast halo is the halo's own speed law conditioned on a speed of at
+// least haloFastMinKms, i.e. on f >= max(haloBulkEdge, haloFastMinKms /
+// v_esc(x)): above that threshold it has the tail law's shape at every
+// position, so the halo and the fast halo together keep the power law
+// (v_esc - v)^k above v_min = 300 km/s. The threshold lies 50 km/s below
+// v_min so that stars carried across v_min by their errors come from both
+// sides of it, as in the halo itself. Its stars lie at 3 to
+// haloFastMaxKpc from the centre: a choice of positions, which leaves
+// the speed law at each position alone, made so that the tail's stars are
+// where v_esc(x) stands well above v_min (at half the default halo mass
+// v_esc is 322-328 km/s at 20 kpc) and the distances are good enough to
+// measure them. Both values are ours.
+const (
+	haloFastMinKms = 250
+	haloFastMaxKpc = 30
+)
 
-// haloFast draws a halo star at 3-60 kpc moving at a fraction fMin..fMax of
-// the local escape speed in an isotropic direction: bound, but fast. The
-// fraction follows the tail law (1 - f)^k, so stars just below the escape
-// speed are as rare as the halo makes them.
-func (s *sampler) haloFast(fMin, fMax float64) (*star, error) {
-	const k1 = haloTailIndex + 1
-	a, b := math.Pow(1-fMin, k1), math.Pow(1-fMax, k1)
+// haloFast draws a fast halo star (see haloFastMinKms): bound, but fast.
+// Where the local escape speed is not above the threshold no such star
+// exists, and the position is drawn again.
+func (s *sampler) haloFast() (*star, error) {
 	for range maxTries / 10 {
-		r := s.haloRadius(3, 60)
+		r := s.haloRadius(3, haloFastMaxKpc)
 		d := s.isotropic()
 		x := [3]float64{r * d[0], r * d[1], r * d[2]}
-		// Inverse CDF of (1 - f)^k on [fMin, fMax].
-		f := 1 - math.Pow(a-s.rng.Float64()*(a-b), 1/k1)
-		sp := f * s.g.vesc(x)
-		e := s.isotropic()
+		vesc := s.g.vesc(x)
+		if vesc <= haloFastMinKms {
+			continue
+		}
 		st := &star{pop: PopHaloFast, origin: OriginHalo, flightMyr: math.NaN(), posKpc: x,
-			velKms: [3]float64{sp * e[0], sp * e[1], sp * e[2]},
+			velKms: s.haloVelocity(x, haloFastMinKms/vesc),
 			absMag: s.uniform(-0.5, 1.5), color: 0.7 + 0.2*s.rng.NormFloat64()}
 		if s.finish(st) {
 			return st, nil
@@ -350,6 +390,7 @@ func (s *sampler) highPMStar() (*star, error) {
 		// Velocities are those of the population at the Sun; nearby
 		// dwarfs.
 		if st.pop == PopHalo {
+			st.velKms = s.haloVelocity(sunPos, 0)
 			st.absMag = s.uniform(5, 10)
 		} else {
 			st.velKms = s.diskVelocity(thickDisk, sunPos)

@@ -22,7 +22,7 @@ func runWeigh(ctx context.Context, env *Env, args []string) error {
 			"simulated galaxies (Grand et al. 2019, MNRAS 487, L72).")
 	ledger := fs.String("ledger", defaultLedger, "ledger file")
 	runID := fs.Int64("run", 0, "run to weigh (default: the last complete run)")
-	vmin := fs.Float64("vmin", inference.DefaultVMinKms, "least median Galactocentric speed of the tail sample, km/s")
+	vmin := fs.Float64("vmin", inference.DefaultVMinKms, "least median Galactocentric speed of the tail sample (its draws under the flat prior), km/s")
 	halo := fs.Float64("halo-rel", inference.DefaultHaloRelKms, "least speed relative to circular rotation of a tail star (halo selection), km/s")
 	ejMin := fs.Float64("ejectee-min", inference.DefaultEjecteeMinKms, "least median speed of a star the orbit method considers, km/s")
 	draws := fs.Int("draws", inference.DefaultDraws, "Monte Carlo draws per star")

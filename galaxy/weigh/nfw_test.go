@@ -250,9 +250,10 @@ func TestMassFromTail(t *testing.T) {
 	}
 }
 
-// TestNewTailStar: speeds are |v|, and a draw at the Sun has scale 1 while
+// TestNewTailStar: speeds are |v|, a draw at the Sun has scale 1 while
 // one farther out has a smaller scale (v_esc falls outward in the default
-// model).
+// model), and the weights are 1/|v|^2 up to one constant factor (the
+// inverse volume of velocity space per unit speed, 4 pi v^2: analytic).
 func TestNewTailStar(t *testing.T) {
 	base := defaultModel(t)
 	sun := SunPositionKpc(frames.DefaultSun())
@@ -266,6 +267,9 @@ func TestNewTailStar(t *testing.T) {
 	}
 	if st.Scale[0] != 1 || !(st.Scale[1] < 1 && st.Scale[1] > 0) {
 		t.Errorf("scales %v", st.Scale)
+	}
+	if r := st.Weight[0] / st.Weight[1]; math.Abs(r-(600.0*600)/(500*500)) > 1e-12 {
+		t.Errorf("weights %v: ratio %v, want (600/500)^2", st.Weight, r)
 	}
 	if _, err := NewTailStar("y", [][3]float64{sun}, nil, base, sun, 0); !errors.Is(err, ErrTail) {
 		t.Errorf("length mismatch: %v", err)

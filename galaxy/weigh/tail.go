@@ -21,11 +21,15 @@ var ErrTail = errors.New("velocity tail fit")
 // TailStar is one star's Monte Carlo draws: Galactocentric speed (km/s)
 // and the radial scale s = v_esc,model(x_d)/v_esc,model(x_sun) of the
 // draw's position. Scale may be nil (every s = 1); otherwise it has one
-// entry per speed, each >= 0.
+// entry per speed, each >= 0. Weight may be nil (every draw weighs 1);
+// otherwise it has one entry per speed, each >= 0 and finite: the density
+// of each draw is multiplied by it (NewTailStar sets 1/|v|^2 for draws of
+// a three-dimensional velocity).
 type TailStar struct {
 	ID       string
 	SpeedKms []float64
 	Scale    []float64
+	Weight   []float64
 }
 
 // Prior ranges of the power-law slope k.
@@ -119,7 +123,7 @@ type TailResult struct {
 
 // tailData is the flat form of the stars the likelihood loops over.
 type tailData struct {
-	v, s     []float64 // draws above v_min
+	v, s, w  []float64 // draws above v_min: speed, scale, weight
 	start    []int     // star i's draws are v[start[i]:start[i+1]]
 	invN     []float64 // 1 / (all draws of star i, kept or not)
 	gOut     []float64 // mean outlier density of star i over all its draws
@@ -144,26 +148,33 @@ func prepare(stars []TailStar, opt *TailOptions) (*tailData, error) {
 		if st.Scale != nil && len(st.Scale) != len(st.SpeedKms) {
 			return nil, fmt.Errorf("%w: star %d (%q): %d scales for %d speeds", ErrTail, i, st.ID, len(st.Scale), len(st.SpeedKms))
 		}
+		if st.Weight != nil && len(st.Weight) != len(st.SpeedKms) {
+			return nil, fmt.Errorf("%w: star %d (%q): %d weights for %d speeds", ErrTail, i, st.ID, len(st.Weight), len(st.SpeedKms))
+		}
 		var g float64
 		kept := 0
 		for j, v := range st.SpeedKms {
-			s := 1.0
+			s, w := 1.0, 1.0
 			if st.Scale != nil {
 				s = st.Scale[j]
 			}
+			if st.Weight != nil {
+				w = st.Weight[j]
+			}
 			// s = 0 (a draw beyond the escape radius) leaves only the
 			// outlier term.
-			if !vec.Finite(v) || !(s >= 0) || !vec.Finite(s) {
-				return nil, fmt.Errorf("%w: star %d (%q) draw %d: speed %v km/s, scale %v", ErrTail, i, st.ID, j, v, s)
+			if !vec.Finite(v) || !(s >= 0) || !vec.Finite(s) || !(w >= 0) || !vec.Finite(w) {
+				return nil, fmt.Errorf("%w: star %d (%q) draw %d: speed %v km/s, scale %v, weight %v", ErrTail, i, st.ID, j, v, s, w)
 			}
 			if v <= opt.VMinKms {
 				continue
 			}
 			d.v = append(d.v, v)
 			d.s = append(d.s, s)
+			d.w = append(d.w, w)
 			kept++
 			if d.hasOutly {
-				g += out.Prob(v) * outNorm
+				g += w * out.Prob(v) * outNorm
 			}
 		}
 		if kept == 0 {
@@ -216,7 +227,7 @@ func axes(opt *TailOptions) (vEsc, k, f []float64) {
 }
 
 // logLikelihood tabulates sum_i ln L_i on the grid, where L_i is the mean
-// over star i's draws of (1 - f) f_LT(v_d | v_esc0 s_d, k) + f g(v_d).
+// over star i's draws of w_d [(1 - f) f_LT(v_d | v_esc0 s_d, k) + f g(v_d)].
 func logLikelihood(d *tailData, opt *TailOptions) *tailGrid {
 	vEsc, ks, fs := axes(opt)
 	nK, nF := len(ks), len(fs)
@@ -256,7 +267,7 @@ func logLikelihood(d *tailData, opt *TailOptions) *tailGrid {
 					// r^k over the k grid by repeated products of r^dk.
 					span := ve - vMin
 					lr := math.Log((ve - v) / span)
-					p := math.Exp(kMin*lr) / span
+					p := d.w[t] * math.Exp(kMin*lr) / span
 					q := math.Exp(dk * lr)
 					// Two interleaved chains halve the latency of the
 					// dependent products.
@@ -317,9 +328,16 @@ func interval(x, w []float64) Interval {
 
 // FitTail infers the escape speed at the Sun from the stars' speed draws.
 // A star's likelihood is the mean over all its draws of the mixture
-// density (draws at or below v_min count as zero): the measurement errors
-// are folded in by Monte Carlo (common practice). Priors: v_esc0 flat on
-// the grid, k and the outlier fraction uniform on their ranges.
+// density times the draw's weight (draws at or below v_min count as zero):
+// the measurement errors are folded in by Monte Carlo (common practice).
+// Draws of a speed drawn with a flat prior on the speed itself need no
+// weight; draws of a velocity vector drawn with a flat prior on the vector
+// need 1/|v|^2 (NewTailStar), because an isotropic population with speed
+// density f(v) has density f(|v|) / (4 pi |v|^2) per unit volume of
+// velocity space (the volume of the shell, 4 pi v^2 dv): without it the
+// average weighs each draw by the shell it stands for and favours fast
+// draws, which biases v_esc0 upward as the errors grow. Priors: v_esc0 flat
+// on the grid, k and the outlier fraction uniform on their ranges.
 func FitTail(stars []TailStar, opt TailOptions) (*TailResult, error) {
 	if err := opt.validate(); err != nil {
 		return nil, err
@@ -399,9 +417,12 @@ func SunPositionKpc(sun frames.Sun) [3]float64 {
 }
 
 // NewTailStar builds a TailStar from Monte Carlo positions (kpc) and
-// velocities (km/s), such as kinematics.Result.SamplePos and SampleVel:
-// speed |v| and scale v_esc(x)/v_esc(x_sun) in model m with the escape
-// radius escapeRadiusKpc (0: infinity; potential.Model.EscapeSpeed).
+// velocities (km/s), such as kinematics.Result.SamplePos and SampleVel,
+// drawn with a flat prior on the velocity vector: speed |v|, scale
+// v_esc(x)/v_esc(x_sun) in model m with the escape radius escapeRadiusKpc
+// (0: infinity; potential.Model.EscapeSpeed) and weight (v_esc(x_sun)/|v|)^2,
+// the inverse of the volume of velocity space per unit speed (FitTail; the
+// constant factor is the same for every draw and cancels).
 func NewTailStar(id string, posKpc, velKms [][3]float64, m *potential.Model, sunKpc [3]float64, escapeRadiusKpc float64) (TailStar, error) {
 	if len(posKpc) != len(velKms) {
 		return TailStar{}, fmt.Errorf("%w: star %q: %d positions for %d velocities", ErrTail, id, len(posKpc), len(velKms))
@@ -410,10 +431,14 @@ func NewTailStar(id string, posKpc, velKms [][3]float64, m *potential.Model, sun
 	if !(sunEsc > 0) {
 		return TailStar{}, fmt.Errorf("%w: escape speed at the Sun is %v km/s", ErrTail, sunEsc)
 	}
-	st := TailStar{ID: id, SpeedKms: make([]float64, len(posKpc)), Scale: make([]float64, len(posKpc))}
+	st := TailStar{ID: id, SpeedKms: make([]float64, len(posKpc)), Scale: make([]float64, len(posKpc)), Weight: make([]float64, len(posKpc))}
 	for i := range posKpc {
-		st.SpeedKms[i] = vec.Norm(velKms[i])
+		v := vec.Norm(velKms[i])
+		st.SpeedKms[i] = v
 		st.Scale[i] = m.EscapeSpeed(posKpc[i], escapeRadiusKpc) / sunEsc
+		if v > 0 {
+			st.Weight[i] = (sunEsc / v) * (sunEsc / v)
+		}
 	}
 	return st, nil
 }

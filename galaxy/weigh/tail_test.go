@@ -5,6 +5,8 @@ import (
 	"math"
 	"math/rand/v2"
 	"testing"
+
+	"starvet/galaxy/frames"
 )
 
 // drawLT draws a speed from f(v | vEsc, k) on (vMin, vEsc) by inverting its
@@ -35,12 +37,15 @@ func TestTailLikelihoodMatchesDirect(t *testing.T) {
 	rng := rand.New(rand.NewPCG(1, 2))
 	opt := DefaultTailOptions()
 	var stars []TailStar
-	for range 40 {
+	for i := range 40 {
 		st := TailStar{}
 		for range 7 {
 			s := 0.8 + 0.4*rng.Float64()
 			st.SpeedKms = append(st.SpeedKms, 250+400*rng.Float64())
 			st.Scale = append(st.Scale, s)
+			if i%2 == 1 {
+				st.Weight = append(st.Weight, 0.5+rng.Float64())
+			}
 		}
 		stars = append(stars, st)
 	}
@@ -70,7 +75,11 @@ func TestTailLikelihoodMatchesDirect(t *testing.T) {
 				if v < ve {
 					lt = (k + 1) * math.Pow(ve-v, k) / math.Pow(ve-opt.VMinKms, k+1)
 				}
-				L += (1-f)*lt + f*gOut(v)
+				w := 1.0
+				if st.Weight != nil {
+					w = st.Weight[dd]
+				}
+				L += w * ((1-f)*lt + f*gOut(v))
 			}
 			want += math.Log(L / float64(len(st.SpeedKms)))
 		}
@@ -346,12 +355,82 @@ func TestTailDrawsFoldErrors(t *testing.T) {
 	}
 }
 
+// TestTailDrawsOf3DVelocities: stars of an isotropic population whose
+// speeds follow f(v | 550, k = 3, v_min = 300), each measured with an
+// isotropic normal error of 50 km/s per component and given 64 draws of
+// its velocity vector from the flat-prior likelihood (obs + error), the
+// stars entering on their true speed > v_min, k known. Through
+// NewTailStar's weights the fit is the exact posterior, so over 40 seeds
+// the mean median must lie within 10 km/s of 550 (the 68 per cent width
+// is ~40 km/s; 40 seeds bring its noise to ~3 km/s) and the 90 per cent
+// interval cover 550 in at least 80 per cent of seeds (90 per cent less 2
+// binomial standard deviations of 4.7 per cent; common practice). With
+// every weight 1 (the shell volume of velocity space left in the average)
+// the same 40 fits gave a mean median of 598.3 km/s and 90 per cent
+// coverage 5/40 (measured); with the weights 557.5 km/s and 35/40.
+func TestTailDrawsOf3DVelocities(t *testing.T) {
+	if testing.Short() {
+		t.Skip("40 fits of 200 stars x 64 draws")
+	}
+	const seeds, vTrue, sigma = 40, 550.0, 50.0
+	opt := DefaultTailOptions()
+	opt.KMin, opt.KMax = 3, 3
+	sun := SunPositionKpc(frames.DefaultSun())
+	m := defaultModel(t)
+	var sumMed float64
+	n90 := 0
+	for seed := range uint64(seeds) {
+		rng := rand.New(rand.NewPCG(seed, 0x3d))
+		stars := make([]TailStar, 200)
+		for i := range stars {
+			v := drawLT(rng, vTrue, 3, opt.VMinKms)
+			z, phi := 2*rng.Float64()-1, 2*math.Pi*rng.Float64()
+			r := math.Sqrt(1 - z*z)
+			obs := [3]float64{v*r*math.Cos(phi) + sigma*rng.NormFloat64(), v*r*math.Sin(phi) + sigma*rng.NormFloat64(), v*z + sigma*rng.NormFloat64()}
+			pos, vel := make([][3]float64, 64), make([][3]float64, 64)
+			for j := range vel {
+				pos[j] = sun
+				for c := range 3 {
+					vel[j][c] = obs[c] + sigma*rng.NormFloat64()
+				}
+			}
+			st, err := NewTailStar("s", pos, vel, m, sun, 0)
+			if err != nil {
+				t.Fatal(err)
+			}
+			stars[i] = st
+		}
+		res, err := FitTail(stars, opt)
+		if err != nil {
+			t.Fatal(err)
+		}
+		sumMed += res.VEscKms.Median
+		if _, in := covers(res.VEscKms, vTrue); in {
+			n90++
+		}
+	}
+	mean := sumMed / seeds
+	t.Logf("3D draws, %v km/s errors: mean median %.1f km/s, 90%% interval covers %d/%d", sigma, mean, n90, seeds)
+	if math.Abs(mean-vTrue) > 10 {
+		t.Errorf("mean median %.1f km/s, truth %v", mean, vTrue)
+	}
+	if float64(n90) < 0.8*seeds {
+		t.Errorf("90%% coverage %d/%d, want >= 80%%", n90, seeds)
+	}
+}
+
 // TestTailErrors: bad input is refused with ErrTail; stars with no draw
 // above v_min are skipped and named.
 func TestTailErrors(t *testing.T) {
 	opt := DefaultTailOptions()
 	if _, err := FitTail([]TailStar{{SpeedKms: []float64{400}, Scale: []float64{1, 1}}}, opt); !errors.Is(err, ErrTail) {
 		t.Errorf("scale length mismatch: %v", err)
+	}
+	if _, err := FitTail([]TailStar{{SpeedKms: []float64{400}, Weight: []float64{1, 1}}}, opt); !errors.Is(err, ErrTail) {
+		t.Errorf("weight length mismatch: %v", err)
+	}
+	if _, err := FitTail([]TailStar{{SpeedKms: []float64{400}, Weight: []float64{-1}}}, opt); !errors.Is(err, ErrTail) {
+		t.Errorf("negative weight: %v", err)
 	}
 	if _, err := FitTail([]TailStar{{SpeedKms: []float64{math.NaN()}}}, opt); !errors.Is(err, ErrTail) {
 		t.Errorf("NaN speed: %v", err)
