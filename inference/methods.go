@@ -110,16 +110,6 @@ func tail(ds []drawn, model *potential.Model, sunPos [3]float64, escapeRadiusKpc
 	return nil
 }
 
-// The ejection speed law the orbit method assumes: speeds at the centre
-// (10 pc deep) normally distributed, 1100 +- 400 km/s. Our assumption,
-// broad enough for the speeds a binary broken up by the central black hole
-// gives its stars (Hills 1988, Nature 331, 687; the range is from memory);
-// the halo mass the method returns depends on it.
-const (
-	EjectionSpeedMeanKms  = 1100
-	EjectionSpeedSigmaKms = 400
-)
-
 // orbits fits the halo scale under which candidate ejectees trace back to
 // the centre and reports it as M200.
 func orbits(ctx context.Context, ds []drawn, model *potential.Model, c *campaign.Campaign, opt Options, out *Result, inf *db.Inference) error {
@@ -144,10 +134,12 @@ func orbits(ctx context.Context, ds []drawn, model *potential.Model, c *campaign
 		return nil
 	}
 	k := c.Kinematics
+	// The ejection model is the one the invented scenarios fly
+	// (weigh.DefaultEjection): the mass is conditional on it.
+	ej := weigh.DefaultEjection
 	fit, err := weigh.FitOrbits(ctx, model, stars, weigh.OrbitOptions{Workers: opt.Workers,
 		Trace: orbit.TraceSettings{TraceMyr: k.TraceMyr, GCRadiusKpc: k.GCRadiusKpc, DiskRadiusKpc: k.DiskRadiusKpc},
-		Score: weigh.ScoreEjection, EjectionSpeedPDF: weigh.GaussianSpeedPDF(EjectionSpeedMeanKms, EjectionSpeedSigmaKms),
-		SelectMinSpeedKms: opt.EjecteeMinKms})
+		Score: weigh.ScoreEjection, Ejection: &ej, SelectMinSpeedKms: opt.EjecteeMinKms})
 	if errors.Is(err, weigh.ErrNoEjectees) {
 		for _, id := range ids {
 			inf.Stars = append(inf.Stars, db.InferenceStar{Method: MethodOrbits, StarID: id, Reason: "its crossings exclude the centre under every halo of the grid"})
@@ -192,8 +184,8 @@ func orbits(ctx context.Context, ds []drawn, model *potential.Model, c *campaign
 		cv.OrbitM200Msun = append(cv.OrbitM200Msun, m)
 		cv.OrbitLogLike = append(cv.OrbitLogLike, fit.LogLike[k])
 	}
-	note := fmt.Sprintf("profile likelihood over the model's halo scaled %.2g to %.2g times, ejection speeds %d +- %d km/s assumed, each star's density normalised over speeds >= %g km/s at its position; maximum at %.3g",
-		fit.Scales[0], fit.Scales[len(fit.Scales)-1], EjectionSpeedMeanKms, EjectionSpeedSigmaKms, opt.EjecteeMinKms, fit.Best)
+	note := fmt.Sprintf("profile likelihood over the model's halo scaled %.2g to %.2g times, conditional on the assumed ejection model (speeds uniform on %g-%g km/s at %g pc, flights of %g-%g Myr at a constant rate), each star's speed density given its position normalised over speeds >= %g km/s; maximum at %.3g",
+		fit.Scales[0], fit.Scales[len(fit.Scales)-1], ej.SpeedMinKms, ej.SpeedMaxKms, 1000*weigh.EjectionDepthKpc, ej.FlightMinMyr, ej.FlightMaxMyr, opt.EjecteeMinKms, fit.Best)
 	if fit.AtEdge || fit.Open68 || fit.Open90 {
 		note += "; the maximum or an interval reaches the grid's edge"
 		out.Notes = append(out.Notes, "the orbit method's likelihood reaches the edge of its halo grid: the interval is open there")

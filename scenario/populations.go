@@ -7,6 +7,7 @@ import (
 
 	"starvet/galaxy/frames"
 	"starvet/galaxy/orbit"
+	"starvet/galaxy/weigh"
 	"starvet/internal/units"
 )
 
@@ -271,17 +272,21 @@ func (s *sampler) background() (*star, error) {
 	return nil, fmt.Errorf("scenario: background star: %w", ErrSampling)
 }
 
-// gcEjectee launches a star from r = 0.01-0.05 kpc at 700-1800 km/s in an
-// isotropic direction and integrates it for 10-250 Myr in the model.
+// gcEjectee launches a star from r = 0.01-0.05 kpc in an isotropic
+// direction with the ejection model the orbit method assumes
+// (weigh.DefaultEjection: its speed law refers to weigh.EjectionDepthKpc,
+// so the launch speed is that speed carried by energy to r0) and
+// integrates it for a flight time drawn from the model in the model.
 func (s *sampler) gcEjectee() (*star, error) {
+	ej := weigh.DefaultEjection
 	for range maxTries / 100 {
 		r0 := s.uniform(0.01, 0.05)
 		d := s.isotropic()
 		x := [3]float64{r0 * d[0], r0 * d[1], r0 * d[2]}
-		v0 := s.uniform(700, 1800)
+		v0 := weigh.LaunchSpeedKms(s.g.model, x, ej.SampleSpeed(s.rng))
 		e := s.isotropic()
 		v := [3]float64{v0 * e[0], v0 * e[1], v0 * e[2]}
-		tf := s.uniform(10, 250)
+		tf := ej.SampleFlightMyr(s.rng)
 		st := &star{pop: PopGCEjectee, origin: orbit.OriginGC, flightMyr: tf,
 			absMag: s.uniform(-1.5, 1.5), color: -0.15 + 0.08*s.rng.NormFloat64()}
 		st.launchPos, st.launchVel = x, v

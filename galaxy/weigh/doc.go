@@ -24,6 +24,12 @@
 // the quantiles of v_esc0 map to quantiles of M200 and of the circular
 // speed at the Sun.
 //
-// Method 2, halo mass from the orbits of bound stars, is in orbits.go
-// (another author).
+// Method 2, the halo's mass from the orbits of Galactic-Centre ejectees
+// (orbits.go, orbits_ejection.go; Gnedin et al. 2005, ApJ 634, 344;
+// Contigiani, Rossi & Marchetti 2019, MNRAS 487, 4025): a profile
+// likelihood over the campaign model's NFW halo scaled on a grid, each
+// candidate ejectee scored by the density of its present speed given its
+// position under an assumed ejection model (EjectionModel: speed law and
+// flight-time window), mixed with a background. Its answer is conditional
+// on that ejection model.
 package weigh

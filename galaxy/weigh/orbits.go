@@ -27,10 +27,12 @@ const (
 	// fraction. It measures the return to the centre but, in a spherical
 	// halo, not the halo's mass (see FitOrbits).
 	ScoreCrossings Score = iota
-	// ScoreEjection: the same kernel density with each draw weighted by
-	// the phase-space density of the speed law EjectionSpeedPDF at its
-	// speed at the centre, carried to now by Liouville's theorem
-	// (ejectionWeight).
+	// ScoreEjection: the density of each draw's present speed given its
+	// position under the ejection model (ejectionDensity: speed law,
+	// flight-time window, the caller's speed cut), averaged over the
+	// draws, times the crossing density at the centre taken at its largest
+	// over the grid (the star's weight as a central ejectee against the
+	// background; see FitOrbits).
 	ScoreEjection
 )
 
@@ -83,18 +85,14 @@ type OrbitOptions struct {
 	// BandwidthFloorKpc is the least kernel width along any axis of the
 	// crossing cloud (ScoreCrossings and selection); default 0.1 kpc.
 	BandwidthFloorKpc float64
-	// ScoreEjection only: the assumed density (per km/s) of the speed with
-	// which ejectees leave the centre (required), and the top of the
-	// background's uniform speed law (default 3000 km/s).
-	EjectionSpeedPDF      func(vKms float64) float64
+	// ScoreEjection only: the assumed ejection model (required), and the
+	// top of the background's uniform speed law (default 3000 km/s).
+	Ejection              *EjectionModel
 	BackgroundSpeedMaxKms float64
 	// SelectMinSpeedKms, ScoreEjection only: the least present speed of
-	// the stars the caller selected (0: no speed selection, as before).
-	// Each draw's density is then divided by its normalisation over the
-	// selected speeds at its own position, selectedShare, and the
-	// background's likewise: the likelihood is that of the speed given
-	// the position and the selection, not of a density whose integral
-	// over the selected stars changes with the halo.
+	// the stars the caller selected (0: no speed cut). Each draw's speed
+	// density is normalised over the speeds >= this at its own position
+	// (ejectionDensity), and the background's uniform law runs from it.
 	SelectMinSpeedKms float64
 	// Workers for the back-traces (<= 0: GOMAXPROCS).
 	Workers int
@@ -125,7 +123,7 @@ var (
 	ErrNoNFW          = errors.New("weigh: base model has no nfw component")
 	ErrBadScales      = errors.New("weigh: scales must be positive, finite and increasing")
 	ErrNoEjectees     = errors.New("weigh: no star selected as a candidate ejectee")
-	ErrNoEjectionLaw  = errors.New("weigh: ScoreEjection needs EjectionSpeedPDF")
+	ErrNoEjectionLaw  = errors.New("weigh: ScoreEjection needs an Ejection model")
 	ErrUnknownScore   = errors.New("weigh: unknown score")
 	errLengthMismatch = errors.New("positions and velocities differ in number")
 )
@@ -145,17 +143,15 @@ func LogScales(lo, hi float64, n int) []float64 {
 // draw is one back-traced Monte Carlo draw that crossed the plane.
 type draw struct {
 	xKpc, yKpc float64 // where it crossed
-	vCentreKms float64 // speed at ejectionDepthKpc from the centre, by energy
-	dPhi       float64 // Phi(now) - Phi(ejection depth), (km/s)^2
-	weight     float64 // kernel weight: 1, or ejectionWeight
+	weight     float64 // kernel weight (1 in FitOrbits)
 }
 
-// ejectionDepthKpc is where ejection speeds are referred to: 10 pc from the
+// EjectionDepthKpc is where ejection speeds are referred to: 10 pc from the
 // centre, deep in the bulge's core yet where a central point mass's
 // potential is finite (our choice). Referring the speed to one depth, not to
 // where each draw crossed the plane, keeps the steep inner potential from
 // mixing draws' speeds at different radii.
-const ejectionDepthKpc = 0.01
+const EjectionDepthKpc = 0.01
 
 // traceDraws back-traces each draw of a star under p, one at a time so that
 // each crossing stays tied to its draw, and keeps those that crossed.
@@ -167,13 +163,7 @@ func traceDraws(p *potential.Model, s *OrbitStar, set orbit.TraceSettings) []dra
 			continue
 		}
 		cr := tr.Crossings[0]
-		x, v := s.PosKpc[j], s.VelKms[j]
-		v2 := v[0]*v[0] + v[1]*v[1] + v[2]*v[2]
-		// Energy conservation in the static potential (common practice).
-		dPhi := p.Phi(x) - p.Phi([3]float64{ejectionDepthKpc, 0, 0})
-		v02 := v2 + 2*dPhi
-		out = append(out, draw{xKpc: cr.XKpc, yKpc: cr.YKpc,
-			vCentreKms: math.Sqrt(math.Max(v02, 0)), dPhi: dPhi, weight: 1})
+		out = append(out, draw{xKpc: cr.XKpc, yKpc: cr.YKpc, weight: 1})
 	}
 	return out
 }
@@ -265,108 +255,21 @@ func (c *cloud) consistentWithCentre() bool {
 		-math.Expm1(-0.5*c.d2) <= SelectMaxGCConsistency
 }
 
-// ejectionWeight is the phase-space density of ejectees per unit volume
-// of velocity at the centre, p(v_c) / (4 pi v_c^3), for a draw whose speed
-// at the centre is v_c.
-//
-// Stars leave a small region at the centre at a constant rate with an
-// isotropic velocity law p(v)/(4 pi v^2); by Liouville's theorem their
-// density at a present state is the time integral of the ejection density
-// along its back-traced orbit (the construction of Contigiani, Rossi &
-// Marchetti 2019, MNRAS 487, 4025, sec. 2, section from memory). An orbit crossing the region at
-// speed v_c spends a time proportional to 1/v_c in it, hence v_c^3. The
-// spatial factor, how many draws pass the region, is the kernel density of
-// the crossings at the centre (densityAtCentre). SIMPLIFICATIONS (ours):
-// the crossings of the plane z = 0 stand in for the points of closest
-// approach (the two differ by a projection that depends on the star's
-// direction, not on the halo); the region is smaller than the kernel; the
-// ejection law is a law of energy, its speed referred to
-// ejectionDepthKpc; no flight-time or stellar-lifetime term and no
-// selection function. The Monte Carlo mean over draws stands for the
-// integral over the measurement errors (draws from the error law with a
-// flat prior).
-func ejectionWeight(vcKms float64, pdf func(float64) float64) float64 {
-	if !(vcKms > 0) {
+// speedBackground is the mean over a star's draws of the background's
+// speed law, uniform on [vSel, vMax] (ours: a model-independent density in
+// the units of ejectionDensity); draws below vSel count at the law's
+// height, as ejectionDensity does not zero them either.
+func speedBackground(s *OrbitStar, vSelKms, vMaxKms float64) float64 {
+	if len(s.VelKms) == 0 || !(vMaxKms > vSelKms) {
 		return 0
 	}
-	return pdf(vcKms) / (4 * math.Pi * vcKms * vcKms * vcKms)
-}
-
-// selectedShare is the normalisation of the ejectees' speed density at a
-// position whose potential lies dPhi (km/s)^2 above that at the ejection
-// depth, over the selected present speeds v >= vMinKms: with v0^2 = v^2 +
-// 2 dPhi,
-//
-//	N(dPhi) = integral from vMin of p(v0(v)) / v0(v) dv.
-//
-// Derivation (ours): stars leave the centre at a constant rate on radial
-// orbits with speed law p(v0); those of speed v0 cross every shell they
-// reach at the same rate, so the number in a shell dr with v0 in dv0 is
-// proportional to p(v0) dv0 dr / v, and with v dv = v0 dv0 the density of
-// the present speed at fixed r is proportional to p(v0)/v0. The same
-// p(v0)/v0 (times 1/(4 pi r^2)) is what the Liouville density
-// p(v0)/(4 pi v0^3) delta^2(b) of ejectionWeight gives when integrated
-// over the velocity's direction (b = r v theta / v0 by the conservation of
-// angular momentum), so dividing ejectionWeight by N makes each star's
-// score the density of its speed given its position and the selection.
-// Stars with v0 too small to reach the position with v >= vMin contribute
-// nothing: in a heavier halo fewer ejectees stay fast, and the score of
-// the ones seen rises accordingly. SIMPLIFICATIONS: radial orbits in the
-// potential along the star's own ray (no disk deflection), no limit on
-// the flight time, the selection applied to each draw's speed instead of
-// the star's median; and a steady ejection rate over unbounded time, so
-// that every v0 able to reach the position counts. That last assumption
-// matters (measured 2026-12-03): on ejectees flown only 10-80 Myr with the
-// speed law known (ejecteeSet, 25 stars, 4 seeds per truth), normalising
-// over v >= 450 km/s moved the 90% upper bounds down and excluded the true
-// scale 1 in 3 of 4 seeds (0.84-1.24) and 2 in 1 of 4, where the
-// unnormalised fit held them; the slow ejectees N counts could not have
-// reached the stars' radii in 80 Myr. Trapezoid rule, 2 km/s steps up to
-// 5000 km/s above vMin (ours; p is negligible beyond).
-func selectedShare(dPhi, vMinKms float64, pdf func(float64) float64) float64 {
-	const step, span = 2.0, 5000.0
-	n := int(span / step)
-	var sum float64
-	for i := 0; i <= n; i++ {
-		v := vMinKms + float64(i)*step
-		v0 := math.Sqrt(v*v + 2*dPhi)
-		w := 1.0
-		if i == 0 || i == n {
-			w = 0.5
-		}
-		if v0 > 0 {
-			sum += w * pdf(v0) / v0
-		}
-	}
-	return sum * step
-}
-
-// ejectionBackground is the background of ScoreEjection, averaged over all
-// draws: a star from a uniform disk of radius R_d with a uniform speed law
-// on [0, vMax], in the form of ejectionWeight at its present speed v,
-// 1 / (pi R_d^2) * (1/vMax) / (4 pi v^3): our choice of a model-independent
-// term in the same units.
-func ejectionBackground(s *OrbitStar, diskKpc, vMaxKms float64) float64 {
-	if len(s.VelKms) == 0 {
-		return 0
-	}
-	var sum float64
+	in := 0
 	for _, v := range s.VelKms {
-		v2 := v[0]*v[0] + v[1]*v[1] + v[2]*v[2]
-		sum += 1 / (math.Pi * diskKpc * diskKpc) / vMaxKms / (4 * math.Pi * v2 * math.Sqrt(v2))
-	}
-	return sum / float64(len(s.VelKms))
-}
-
-// UniformSpeedPDF is the density (per km/s) of a speed uniform on
-// [loKms, hiKms], for OrbitOptions.EjectionSpeedPDF.
-func UniformSpeedPDF(loKms, hiKms float64) func(vKms float64) float64 {
-	return func(v float64) float64 {
-		if v < loKms || v > hiKms {
-			return 0
+		if v[0]*v[0]+v[1]*v[1]+v[2]*v[2] <= vMaxKms*vMaxKms {
+			in++
 		}
-		return 1 / (hiKms - loKms)
 	}
+	return float64(in) / float64(len(s.VelKms)) / (vMaxKms - vSelKms)
 }
 
 // FitOrbits back-traces every draw of every star under the base model with
@@ -375,11 +278,32 @@ func UniformSpeedPDF(loKms, hiKms float64) func(vKms float64) float64 {
 //
 //	ln L(s) = sum_i ln[(1 - eps) rho_i(s) + eps rho_bg,i],
 //
-// with rho_i the star's score (ScoreCrossings: densityAtCentre, and
-// rho_bg = 1/(pi R_d^2), a uniform disk of radius R_d = Trace.DiskRadiusKpc;
-// ScoreEjection: densityAtCentre weighted by ejectionWeight, and
-// ejectionBackground). The background term
-// stands for a disk or unknown origin, so that one runaway cannot dominate.
+// with rho_i the star's score and rho_bg,i its background, which stands
+// for a disk or unknown origin so that one runaway cannot dominate.
+// ScoreCrossings: rho_i = densityAtCentre under the grid model, rho_bg =
+// 1/(pi R_d^2), a uniform disk of radius R_d = Trace.DiskRadiusKpc.
+// ScoreEjection:
+//
+//	rho_i(s) = D_i q_i(s),     rho_bg,i = 1/(pi R_d^2) q_bg,i,
+//
+// q_i(s) the mean over the star's draws of ejectionDensity (the density
+// of its present speed given its position, the ejection model and the
+// speed cut, in the grid model s), D_i the largest densityAtCentre over
+// the grid, q_bg,i the mean over the draws of a uniform speed law on
+// [SelectMinSpeedKms, BackgroundSpeedMaxKms]. The mean over draws stands
+// for the integral over the measurement errors (the draws follow the
+// error law under a flat prior; the likelihood of the data is the mean of
+// the model's density over them, not a product). D_i is not taken per
+// model on purpose: in a spherical halo an ejectee's angular momentum L is
+// conserved, its back-traced impact parameter is about L/v_c, and the
+// crossing density at the centre then grows with the halo (see the
+// LIMITATION below) without saying anything about it; D_i only weighs the
+// star as an ejectee against the background. SIMPLIFICATION against
+// Gnedin et al. 2005 (ApJ 634, 344) and Contigiani, Rossi & Marchetti 2019
+// (MNRAS 487, 4025), who use the full phase-space density of the ejecta:
+// we keep its speed given the position (radial orbits, ejectionDensity)
+// and treat the direction, which in a nearly spherical potential does not
+// depend on the halo's mass, through D_i and the selection only.
 //
 // A star is selected (a candidate ejectee) when under at least one grid
 // model at least half of its draws crossed and the centre lies inside the
@@ -394,9 +318,9 @@ func UniformSpeedPDF(loKms, hiKms float64) func(vKms float64) float64 {
 // halo scale; what ln L does vary is a focusing effect (a heavier halo
 // speeds the draws up near the centre and tightens their cloud) that
 // favours the heaviest halo whatever the truth. ScoreEjection weighs the
-// halo through the energy, v_c^2 = v^2 + 2 Delta Phi, against the assumed
-// ejection speed law, with the 1/v_c^3 phase-space factor that offsets the
-// focusing; its answer rests on that law.
+// halo through the energy, v_0^2 = v^2 + 2 Delta Phi, and the flight time
+// against the assumed ejection model; its answer is conditional on that
+// model.
 //
 // It returns ErrNoEjectees (with the partial result) when no star is
 // selected, and ctx.Err() if cancelled.
@@ -413,8 +337,11 @@ func FitOrbits(ctx context.Context, base *potential.Model, stars []OrbitStar, op
 	switch opt.Score {
 	case ScoreCrossings:
 	case ScoreEjection:
-		if opt.EjectionSpeedPDF == nil {
+		if opt.Ejection == nil {
 			return nil, ErrNoEjectionLaw
+		}
+		if err := opt.Ejection.Validate(); err != nil {
+			return nil, err
 		}
 	default:
 		return nil, ErrUnknownScore
@@ -461,35 +388,37 @@ func FitOrbits(ctx context.Context, base *potential.Model, stars []OrbitStar, op
 	err := parallel.Batches(ctx, len(stars), 1, opt.Workers, func(_ *struct{}, i, _ int) {
 		s := &stars[i]
 		bg := 1 / (math.Pi * diskKpc * diskKpc)
-		if opt.Score == ScoreEjection {
-			bg = ejectionBackground(s, diskKpc, vMax)
-			if vSel := opt.SelectMinSpeedKms; vSel > 0 && vSel < vMax {
-				// The background's speed law, uniform on [0, vMax]
-				// with no potential, normalised over v >= vSel like
-				// selectedShare: integral of (1/vMax)/v dv.
-				bg /= math.Log(vMax/vSel) / vMax
-			}
-		}
 		row := make([]float64, len(scales))
 		sel := false
-		for k, m := range models {
-			ds := traceDraws(m, s, opt.Trace)
-			if opt.Score == ScoreEjection {
-				for j := range ds {
-					ds[j].weight = ejectionWeight(ds[j].vCentreKms, opt.EjectionSpeedPDF)
-					if vSel := opt.SelectMinSpeedKms; vSel > 0 && ds[j].weight > 0 {
-						n := selectedShare(ds[j].dPhi, vSel, opt.EjectionSpeedPDF)
-						if n > 0 {
-							ds[j].weight /= n
-						} else {
-							ds[j].weight = 0
-						}
-					}
-				}
+		if opt.Score == ScoreCrossings {
+			for k, m := range models {
+				c := newCloud(traceDraws(m, s, opt.Trace), len(s.PosKpc), floor)
+				row[k] = math.Log((1-eps)*c.densityAtCentre() + eps*bg)
+				sel = sel || c.consistentWithCentre()
 			}
-			c := newCloud(ds, len(s.PosKpc), floor)
-			row[k] = math.Log((1-eps)*c.densityAtCentre() + eps*bg)
+			res.PerStar[i], res.Selected[i] = row, sel
+			return
+		}
+		vSel := math.Max(opt.SelectMinSpeedKms, 0)
+		bg *= speedBackground(s, vSel, vMax)
+		dMax := 0.0
+		for k, m := range models {
+			c := newCloud(traceDraws(m, s, opt.Trace), len(s.PosKpc), floor)
+			dMax = math.Max(dMax, c.densityAtCentre())
 			sel = sel || c.consistentWithCentre()
+			var q float64
+			for j := range s.PosKpc {
+				r := newRay(m, s.PosKpc[j])
+				v := s.VelKms[j]
+				q += ejectionDensity(opt.Ejection, &r, math.Sqrt(v[0]*v[0]+v[1]*v[1]+v[2]*v[2]), vSel)
+			}
+			if n := len(s.PosKpc); n > 0 {
+				q /= float64(n)
+			}
+			row[k] = q
+		}
+		for k, q := range row {
+			row[k] = math.Log((1-eps)*dMax*q + eps*bg)
 		}
 		res.PerStar[i], res.Selected[i] = row, sel
 	}, nil)
@@ -564,14 +493,4 @@ func (r *OrbitResult) interval(kb int, d float64) (lo, hi float64, open bool) {
 		}
 	}
 	return lo, hi, openLo || openHi
-}
-
-// GaussianSpeedPDF is the density (per km/s) of a Gaussian speed law, mean
-// meanKms and standard deviation sigmaKms, for OrbitOptions.EjectionSpeedPDF
-// (its tail below zero is ignored).
-func GaussianSpeedPDF(meanKms, sigmaKms float64) func(vKms float64) float64 {
-	return func(v float64) float64 {
-		z := (v - meanKms) / sigmaKms
-		return math.Exp(-0.5*z*z) / (sigmaKms * math.Sqrt(2*math.Pi))
-	}
 }
