@@ -126,7 +126,11 @@ func orbits(ctx context.Context, ds []drawn, model *potential.Model, c *campaign
 			inf.Stars = append(inf.Stars, db.InferenceStar{Method: MethodOrbits, StarID: v.StarID, Reason: "no Monte Carlo draws"})
 			continue
 		}
-		stars = append(stars, weigh.OrbitStar{ID: v.StarID, PosKpc: d.res.SamplePos, VelKms: d.res.SampleVel})
+		pos, vel := d.res.SamplePos, d.res.SampleVel
+		if n := opt.OrbitDraws; n > 0 && n < len(pos) {
+			pos, vel = pos[:n], vel[:n]
+		}
+		stars = append(stars, weigh.OrbitStar{ID: v.StarID, PosKpc: pos, VelKms: vel})
 		ids = append(ids, v.StarID)
 	}
 	if len(stars) == 0 {
@@ -174,7 +178,7 @@ func orbits(ctx context.Context, ds []drawn, model *potential.Model, c *campaign
 			return err
 		}
 	}
-	out.HaloMassOrbitsMsun = estimate(iv, fit.Carrying)
+	out.HaloMassOrbitsMsun, out.OrbitCandidates = estimate(iv, fit.Carrying), fit.Stars
 	cv := curvesOf(inf)
 	for k, sc := range fit.Scales {
 		m, err := mass(sc)
@@ -184,8 +188,8 @@ func orbits(ctx context.Context, ds []drawn, model *potential.Model, c *campaign
 		cv.OrbitM200Msun = append(cv.OrbitM200Msun, m)
 		cv.OrbitLogLike = append(cv.OrbitLogLike, fit.LogLike[k])
 	}
-	note := fmt.Sprintf("profile likelihood over the model's halo scaled %.2g to %.2g times, conditional on the assumed ejection model (speeds uniform on %g-%g km/s at %g pc, flights of %g-%g Myr at a constant rate), each star's speed density given its position normalised over speeds >= %g km/s; maximum at %.3g",
-		fit.Scales[0], fit.Scales[len(fit.Scales)-1], ej.SpeedMinKms, ej.SpeedMaxKms, 1000*weigh.EjectionDepthKpc, ej.FlightMinMyr, ej.FlightMaxMyr, opt.EjecteeMinKms, fit.Best)
+	note := fmt.Sprintf("profile likelihood over the model's halo scaled %.2g to %.2g times (%d points), conditional on the assumed ejection model (speeds uniform on %g-%g km/s at %g pc, flights of %g-%g Myr at a constant rate), each star's speed density given its position normalised over speeds >= %g km/s; maximum at %.3g, Wilks intervals",
+		fit.Scales[0], fit.Scales[len(fit.Scales)-1], len(fit.Scales), ej.SpeedMinKms, ej.SpeedMaxKms, 1000*weigh.EjectionDepthKpc, ej.FlightMinMyr, ej.FlightMaxMyr, opt.EjecteeMinKms, fit.Best)
 	if fit.AtEdge || fit.Open68 || fit.Open90 {
 		note += "; the maximum or an interval reaches the grid's edge"
 		out.Notes = append(out.Notes, "the orbit method's likelihood reaches the edge of its halo grid: the interval is open there")

@@ -62,7 +62,11 @@ type Options struct {
 	HaloRelKms    float64 // 0: DefaultHaloRelKms
 	EjecteeMinKms float64 // 0: DefaultEjecteeMinKms
 	Draws         int     // 0: DefaultDraws
-	OutlierMax    float64 // 0: DefaultOutlierMax
+	// OrbitDraws, if in (0, Draws), is how many of each star's draws (the
+	// first) the orbit method back-traces: its cost is one trace per draw
+	// per halo of the grid. 0: all Draws.
+	OrbitDraws int
+	OutlierMax float64 // 0: DefaultOutlierMax
 	// InfallOnly admits to the tail sample only stars falling towards the
 	// Galactic Centre (Galactocentric radial velocity < 0 at the median
 	// distance): a bound halo in equilibrium has as many falling in as
@@ -104,6 +108,9 @@ type Result struct {
 	HaloMassTailMsun   Estimate `json:"halo_mass_tail_msun"`
 	VCircKms           Estimate `json:"circular_speed_kms"`
 	HaloMassOrbitsMsun Estimate `json:"halo_mass_orbits_msun"`
+	// OrbitCandidates is how many candidate ejectees the orbit method
+	// summed over; HaloMassOrbitsMsun.Stars counts those carrying it.
+	OrbitCandidates int `json:"orbit_candidates"`
 	// ModelHaloM200Msun is the campaign model's own halo, for comparison.
 	ModelHaloM200Msun float64 `json:"model_halo_m200_msun"`
 	// Excluded counts the run's stars no method considered, by reason.

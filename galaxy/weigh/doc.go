@@ -30,6 +30,8 @@
 // likelihood over the campaign model's NFW halo scaled on a grid, each
 // candidate ejectee scored by the density of its present speed given its
 // position under an assumed ejection model (EjectionModel: speed law and
-// flight-time window), mixed with a background. Its answer is conditional
-// on that ejection model.
+// flight-time window), mixed with a background, with Wilks intervals,
+// which on simulated ejectees cover their levels on the refined grid
+// (TestOrbitIntervalCalibration). Its answer is conditional on that
+// ejection model.
 package weigh

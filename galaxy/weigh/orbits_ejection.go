@@ -134,6 +134,21 @@ func newRay(p *potential.Model, x [3]float64) ray {
 	return r
 }
 
+// scaled is the ray at halo scale sc from r, at scale 1, and r2, the same
+// draw's ray at scale 2: the potential is linear in the NFW mass
+// (ScaleHalo), so dPhi(sc) = dPhi(1) + (sc - 1) (dPhi(2) - dPhi(1)).
+func (r *ray) scaled(r2 *ray, sc float64) ray {
+	out := ray{ok: r.ok, rKpc: r.rKpc}
+	if !r.ok {
+		return out
+	}
+	for j := range rayNodes {
+		out.dPhi[j] = r.dPhi[j] + (sc-1)*(r2.dPhi[j]-r.dPhi[j])
+		out.dPhiMax = math.Max(out.dPhiMax, out.dPhi[j])
+	}
+	return out
+}
+
 // end is dPhi at the draw's position.
 func (r *ray) end() float64 { return r.dPhi[rayNodes-1] }
 

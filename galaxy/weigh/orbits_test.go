@@ -263,6 +263,7 @@ func TestRunawayAmongEjectees(t *testing.T) {
 	fit := func(stars []OrbitStar, noBg bool) *OrbitResult {
 		opt := ejectionOptions()
 		opt.NoBackground = noBg
+		opt.Refine = 1 // grid steps below are the trace grid's
 		res, err := FitOrbits(context.Background(), base, stars, opt)
 		if err != nil {
 			t.Fatal(err)
@@ -565,5 +566,32 @@ func TestEjectionDensityBySimulation(t *testing.T) {
 	t.Logf("%d stars kept; KS distance %.4f, 1%% critical %.4f; deciles %v", len(pit), dMax, 1.63/math.Sqrt(n), dec)
 	if len(pit) < 1000 || dMax > 1.63/math.Sqrt(n) {
 		t.Errorf("%d stars, KS distance %.4f > %.4f: p(v | r) does not describe the simulated ejectees", len(pit), dMax, 1.63/math.Sqrt(n))
+	}
+}
+
+// A ray scaled from the rays at halo scales 1 and 2 is the ray under the
+// scaled model (the potential is linear in the NFW mass, ScaleHalo).
+func TestRayScaled(t *testing.T) {
+	base := defaultModel(t)
+	twice, err := ScaleHalo(base, 2)
+	if err != nil {
+		t.Fatal(err)
+	}
+	x := [3]float64{-12, 5, 30}
+	r1, r2 := newRay(base, x), newRay(twice, x)
+	for _, sc := range []float64{0.3, 0.77, 3} {
+		m, err := ScaleHalo(base, sc)
+		if err != nil {
+			t.Fatal(err)
+		}
+		want, got := newRay(m, x), r1.scaled(&r2, sc)
+		for j := range rayNodes {
+			if math.Abs(got.dPhi[j]-want.dPhi[j]) > 1e-9*math.Abs(want.dPhi[j])+1e-6 {
+				t.Fatalf("scale %v node %d: dPhi %v, want %v", sc, j, got.dPhi[j], want.dPhi[j])
+			}
+		}
+		if math.Abs(got.dPhiMax-want.dPhiMax) > 1e-9*want.dPhiMax+1e-6 || got.rKpc != want.rKpc {
+			t.Errorf("scale %v: dPhiMax %v, want %v", sc, got.dPhiMax, want.dPhiMax)
+		}
 	}
 }
