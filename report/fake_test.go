@@ -19,6 +19,7 @@ type fakeSource struct {
 	crossings map[int64][]db.CrossingRow // by computing run
 	settings  map[int64]*db.RunSettings  // by run; none for a run not listed
 	failOn    string                     // method name that returns errBoom
+	inference *db.Inference              // the latest weighing of every run; nil for none
 }
 
 func (f *fakeSource) RunSettings(ctx context.Context, runID int64) (*db.RunSettings, error) {
@@ -31,7 +32,7 @@ func (f *fakeSource) RunSettings(ctx context.Context, runID int64) (*db.RunSetti
 var errBoom = fmt.Errorf("fake source failure")
 
 func (f *fakeSource) LastInference(ctx context.Context, runID int64) (*db.Inference, error) {
-	return nil, nil
+	return f.inference, nil
 }
 
 func (f *fakeSource) Run(ctx context.Context, id int64) (*db.Run, error) {

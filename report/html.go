@@ -206,8 +206,11 @@ func plotViews(plots []PlotSummary) []plotView {
 			n += c
 		}
 		unit := "markers"
-		if ps.File == "p_unbound.svg" {
+		switch ps.File {
+		case "p_unbound.svg":
 			unit = "bar segments"
+		case "weigh_vesc.svg":
+			unit = "grid nodes"
 		}
 		views = append(views, plotView{PlotSummary: ps, Drawn: fmt.Sprintf("%d %s", n, unit)})
 	}

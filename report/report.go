@@ -125,7 +125,7 @@ func Write(ctx context.Context, src Source, runID int64, dir string, opt Options
 	sum := &Summary{RunID: d.run.ID, Counts: d.counts}
 	plots := []func(*data) (*PlotSummary, []byte, error){speedPlot, skyPlot, pUnboundPlot, crossingPlot}
 	if d.inference != nil && d.inference.Curves != nil {
-		plots = append(plots, tailPlot, massPosteriorPlot, orbitPlot)
+		plots = append(plots, tailPlot, escapePosteriorPlot, massPosteriorPlot, orbitPlot)
 	}
 	for _, mk := range plots {
 		if err := ctx.Err(); err != nil {

@@ -92,8 +92,58 @@ func tailPlot(d *data) (*PlotSummary, []byte, error) {
 	return ps, svg, err
 }
 
-// massPosteriorPlot: the posterior of the escape speed at the Sun, and
-// the M200 each of its grid nodes maps to.
+// escapePosteriorPlot: the posterior of the escape speed at the Sun on
+// its grid, with the 90 per cent interval's ends.
+func escapePosteriorPlot(d *data) (*PlotSummary, []byte, error) {
+	cv := d.inference.Curves
+	ps := &PlotSummary{File: "weigh_vesc.svg", Title: "Posterior of the escape speed at the Sun (velocity tail)", Points: map[string]int{}}
+	p := newPlot(ps.Title, "escape speed at the Sun (km/s)", "posterior weight per grid node")
+	r := d.result("velocity-tail", "escape_speed_kms")
+	if len(cv.VEscGridKms) < 2 || len(cv.VEscPosterior) != len(cv.VEscGridKms) || r == nil {
+		ps.Note = "no posterior to draw"
+		svg, err := toSVG(p, 16*vg.Centimeter, 10*vg.Centimeter)
+		return ps, svg, err
+	}
+	xys := make(plotter.XYs, len(cv.VEscGridKms))
+	top := 0.0
+	for i, v := range cv.VEscGridKms {
+		xys[i] = plotter.XY{X: v, Y: cv.VEscPosterior[i]}
+		top = math.Max(top, cv.VEscPosterior[i])
+	}
+	// Trim the grid's empty ends so the peak is readable.
+	first, last := 0, len(xys)-1
+	for first < last-1 && xys[first].Y < 1e-4*top && xys[first].X < r.Lo90 {
+		first++
+	}
+	for last > first+1 && xys[last].Y < 1e-4*top && xys[last].X > r.Hi90 {
+		last--
+	}
+	xys = xys[first : last+1]
+	ps.Points["grid nodes"] = len(xys)
+	if l, err := line(p, xys, black, vg.Points(1.5)); err != nil {
+		return ps, nil, err
+	} else {
+		p.Legend.Add("posterior", l)
+	}
+	for i, x := range []float64{r.Lo90, r.Hi90} {
+		l, err := line(p, plotter.XYs{{X: x, Y: 0}, {X: x, Y: top}}, fitBlue, vg.Points(1), vg.Points(2), vg.Points(2))
+		if err != nil {
+			return ps, nil, err
+		}
+		if i == 0 {
+			p.Legend.Add("90% interval", l)
+		}
+	}
+	if err := markTruth(p, d, func(t *HaloTruth) float64 { return t.VEscKms }, top, ps); err != nil {
+		return ps, nil, err
+	}
+	ps.Note = fmt.Sprintf("median %.0f km/s, 90%% interval [%.0f, %.0f] km/s, k marginalised over its prior", r.Median, r.Lo90, r.Hi90)
+	svg, err := toSVG(p, 16*vg.Centimeter, 10*vg.Centimeter)
+	return ps, svg, err
+}
+
+// massPosteriorPlot: the posterior of the escape speed at the Sun placed
+// at the M200 each of its grid nodes maps to.
 func massPosteriorPlot(d *data) (*PlotSummary, []byte, error) {
 	cv := d.inference.Curves
 	ps := &PlotSummary{File: "weigh_posterior.svg", Title: "Posterior of the halo mass M200 (velocity tail)", Points: map[string]int{}}
@@ -153,6 +203,7 @@ func orbitPlot(d *data) (*PlotSummary, []byte, error) {
 			return ps, nil, err
 		} else {
 			p.Legend.Add("truth (invented scenario)", l)
+			ps.Extra++
 		}
 	}
 	ps.Note = fmt.Sprintf("%d halo masses (the campaign model's halo scaled)", len(xys))

@@ -18,7 +18,8 @@ func runReport(ctx context.Context, env *Env, args []string) error {
 	fs := newFlags(env, "report", "[--run N] [--ledger PATH] -o DIR",
 		"Write a static HTML page with plots (SVG) for one run (default: the latest\n"+
 			"complete run) into DIR: status counts, rejection reasons, speed against\n"+
-			"distance, sky map, p_unbound histogram, plane crossings, candidate table.\n"+
+			"distance, sky map, p_unbound histogram, plane crossings, candidate table,\n"+
+			"and the latest weighing of the run (starvet weigh) with its plots.\n"+
 			"The page needs no network. A run that recorded its settings in the ledger is\n"+
 			"drawn with them; --escape-radius-kpc, --gc-radius-kpc and --campaign are for\n"+
 			"older runs, which recorded none.")
