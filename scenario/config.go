@@ -47,6 +47,12 @@ type Config struct {
 	// runaways. Zero means Stars/500 clamped to [20, 100]. The bound fast
 	// halo has FastHaloStars(Stars, Injected) stars.
 	Injected int
+	// Ejectees, when set, is the number of Galactic Centre ejectees alone
+	// (the disk runaways and the traps stay at Injected): a scenario for
+	// the orbit method, which needs many ejectees, without the hundreds of
+	// disk runaways that would also enter the velocity tail's sample. Zero
+	// means Injected.
+	Ejectees int
 	// Name is the campaign name; default "invented-demo".
 	Name string
 	// Samples is the Monte Carlo sample count written to the campaign;
@@ -75,6 +81,12 @@ func (c Config) withDefaults() (Config, error) {
 	}
 	if c.Injected < 0 || 12*c.Injected > c.Stars/2 {
 		return c, fmt.Errorf("scenario: injected = %d for %d stars: %w", c.Injected, c.Stars, ErrConfig)
+	}
+	if c.Ejectees == 0 {
+		c.Ejectees = c.Injected
+	}
+	if c.Ejectees < 0 || 11*c.Injected+c.Ejectees > c.Stars/2 {
+		return c, fmt.Errorf("scenario: ejectees = %d with injected = %d for %d stars: %w", c.Ejectees, c.Injected, c.Stars, ErrConfig)
 	}
 	if c.Name == "" {
 		c.Name = "invented-demo"
@@ -105,7 +117,8 @@ func FastHaloStars(stars, injected int) int { return max(injected, stars/32) }
 
 // counts is how many stars of each kind a scenario holds.
 type counts struct {
-	injected   int // Galactic Centre ejectees, disk runaways
+	ejectees   int // Galactic Centre ejectees
+	injected   int // disk runaways
 	haloFast   int // bound fast halo stars
 	binaries   int
 	duplicates int // pairs: two rows each
@@ -119,6 +132,7 @@ type counts struct {
 func countsFor(c Config) counts {
 	n := c.Injected
 	return counts{
+		ejectees:   c.Ejectees,
 		injected:   n,
 		haloFast:   FastHaloStars(c.Stars, n),
 		binaries:   max(4, n/2),

@@ -206,7 +206,7 @@ func (s *Scenario) sample() error {
 			}
 		}
 	}
-	draw(cn.injected, smp.gcEjectee)
+	draw(cn.ejectees, smp.gcEjectee)
 	draw(cn.injected, smp.diskRunaway)
 	draw(cn.haloFast, smp.haloFast)
 	draw(cn.binaries, smp.binary)

@@ -129,6 +129,8 @@ func TestConfigErrors(t *testing.T) {
 		{"too few stars", Config{Stars: 500}},
 		{"too many injected", Config{Stars: 2000, Injected: 200}},
 		{"negative injected", Config{Stars: 2000, Injected: -1}},
+		{"negative ejectees", Config{Stars: 2000, Ejectees: -1}},
+		{"too many ejectees", Config{Stars: 2000, Injected: 20, Ejectees: 781}},
 		{"negative samples", Config{Stars: 2000, Samples: -5}},
 	}
 	for _, c := range cases {
@@ -211,6 +213,48 @@ func TestFilesReadBack(t *testing.T) {
 		if kept[tr.StarID] == (tr.Trap == TrapBadValue) {
 			t.Errorf("%s: trap %q but kept = %v", tr.StarID, tr.Trap, kept[tr.StarID])
 		}
+	}
+}
+
+// TestEjecteesApart: Config.Ejectees sets the Galactic Centre ejectees
+// alone; the disk runaways, the fast halo and the traps keep the counts
+// that Injected gives them.
+func TestEjecteesApart(t *testing.T) {
+	cfg := Config{Seed: 11, Stars: 4000, Injected: 20, Ejectees: 60}
+	s, err := Generate(cfg, t.TempDir())
+	if err != nil {
+		t.Fatal(err)
+	}
+	base, err := Generate(Config{Seed: 11, Stars: 4000, Injected: 20}, t.TempDir())
+	if err != nil {
+		t.Fatal(err)
+	}
+	count := func(s *Scenario) map[string]int {
+		n := map[string]int{}
+		for _, st := range s.stars {
+			key := st.pop
+			if st.trap != "" {
+				key = "trap " + st.trap
+			}
+			n[key]++
+		}
+		return n
+	}
+	n, nb := count(s), count(base)
+	if n[PopGCEjectee] != 60 || nb[PopGCEjectee] != 20 {
+		t.Errorf("ejectees: %d and %d, want 60 and 20", n[PopGCEjectee], nb[PopGCEjectee])
+	}
+	background := map[string]bool{PopThinDisk: true, PopThickDisk: true, PopHalo: true}
+	bg, bgBase := 0, 0
+	for k, v := range nb {
+		if background[k] {
+			bg, bgBase = bg+n[k], bgBase+v
+		} else if k != PopGCEjectee && n[k] != v {
+			t.Errorf("%s: %d stars with Ejectees set, %d without", k, n[k], v)
+		}
+	}
+	if bg != bgBase-40 {
+		t.Errorf("background: %d stars, want %d", bg, bgBase-40)
 	}
 }
 
