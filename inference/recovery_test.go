@@ -25,8 +25,8 @@ import (
 // heaviest halo are told apart; a halo twice the campaign model's still
 // recovers its own escape speed. All are asserted at the bounds.
 //
-// Measured 2026-12-04 (go test ./inference -run TestWeighRecovery -v, 302 s
-// on 2 cores for both sets; every scenario is seeded, so the figures are
+// Measured 2026-12-04 (go test ./inference -run TestWeighRecovery -v, 479 s
+// on 2 cores for the three sets; every scenario is seeded, so the figures are
 // reproducible):
 //   - velocity tail, on the default injection: the escape speed's 90%
 //     interval holds the truth in 10, 10 and 10 of 10 seeds at halo x0.5,
@@ -48,6 +48,26 @@ import (
 //     10-25 candidates; 5-7 intervals span the whole grid) it holds the
 //     truth in only 7, 7 and 4 of 10, ordered 5/10, disjoint 0/10: a dozen
 //     candidates do not weigh the halo under this ejection model.
+//   - logged, not judged: the default injection with 500 ejectees alone
+//     (Config.Ejectees; the disk runaways and traps at the default). The
+//     ejectees are drawn first from each seed's stream, so they are the
+//     500 of the set above, observed with other noise. Tail: 8, 9 and 10
+//     of 10 (medians 1.034, 0.993, 0.996; the tail's M200 likewise).
+//     Orbits: 10, 9 and 7 of 10, medians 0.758, 0.594 and 0.789 times the
+//     truth (4-16 carrying stars of about 150 candidates): under the other
+//     noise the orbit method misses its target at x2 and runs low at
+//     every mass. Diagnosed on seeds 1-4 (2026-12-04, not fixed): the
+//     carrying stars are the fastest ejectees, and the draws' full speed
+//     |v| carries the tangential noise in quadrature (a distant star's
+//     proper-motion error is 100+ km/s across the line of sight), which
+//     puts their launch speeds past the ejection law's 1800 km/s edge
+//     under the true halo, so lighter haloes fit them better. Using the
+//     draws' radial velocity instead gave 10, 9 and 8 (medians 1.16,
+//     0.88, 0.88) but let the runaway of weigh's TestRunawayAmongEjectees
+//     swing ln L by 0.91 instead of 0.07 and move the maximum by two grid
+//     steps; |v|^2 less the tangential noise variance kept the runaway
+//     at 0.07 but held x2 in only 6 of 10 (median 0.79). Neither is kept;
+//     README states the limit.
 //
 // The scenario's halo follows the Leonard & Tremaine law by construction,
 // so for the velocity tail this test checks the machinery (radial scaling,
@@ -145,22 +165,28 @@ func bare90(e Estimate, truth float64) bool { return e.Hi90 > 0 && e.Lo90 <= tru
 
 func TestWeighRecovery(t *testing.T) {
 	if testing.Short() {
-		t.Skip("vets and weighs 60 scenarios")
+		t.Skip("vets and weighs 90 scenarios")
 	}
-	// Two sets of scenarios: the scenario's default injection, on which
-	// the velocity tail is judged, and recoveryInjected per injected
-	// population, on which the orbit method is (it needs the ejectees).
-	// Every method is logged on both.
+	// Three sets of scenarios: the scenario's default injection, on which
+	// the velocity tail is judged; recoveryInjected per injected
+	// population, on which the orbit method is (it needs the ejectees);
+	// and the default injection with recoveryInjected ejectees alone
+	// (Config.Ejectees), logged only (see the figures above). Every
+	// method is logged on every set.
 	sets := []struct {
-		name     string
-		injected int
-	}{{"default injection", recoveryDefaultInjected}, {fmt.Sprintf("%d per injected population", recoveryInjected), recoveryInjected}}
+		name               string
+		injected, ejectees int
+	}{
+		{"default injection", recoveryDefaultInjected, 0},
+		{fmt.Sprintf("%d per injected population", recoveryInjected), recoveryInjected, 0},
+		{fmt.Sprintf("default injection, %d ejectees", recoveryInjected), recoveryDefaultInjected, recoveryInjected},
+	}
 	runsOf := make([]map[float64][]recoveryRun, len(sets))
 	for k, set := range sets {
 		runsOf[k] = map[float64][]recoveryRun{}
 		for _, hs := range recoveryScales {
 			for seed := uint64(1); seed <= recoverySeeds; seed++ {
-				runsOf[k][hs] = append(runsOf[k][hs], weighScenario(t, scenario.Config{Seed: seed, Stars: recoveryStars, Injected: set.injected, HaloScale: hs}, recoveryOrbitDraws))
+				runsOf[k][hs] = append(runsOf[k][hs], weighScenario(t, scenario.Config{Seed: seed, Stars: recoveryStars, Injected: set.injected, Ejectees: set.ejectees, HaloScale: hs}, recoveryOrbitDraws))
 			}
 		}
 	}
