@@ -79,14 +79,13 @@ func (c Config) withDefaults() (Config, error) {
 	if c.Injected == 0 {
 		c.Injected = min(100, max(20, c.Stars/500))
 	}
-	if c.Injected < 0 || 12*c.Injected > c.Stars/2 {
-		return c, fmt.Errorf("scenario: injected = %d for %d stars: %w", c.Injected, c.Stars, ErrConfig)
-	}
 	if c.Ejectees == 0 {
 		c.Ejectees = c.Injected
 	}
-	if c.Ejectees < 0 || 11*c.Injected+c.Ejectees > c.Stars/2 {
-		return c, fmt.Errorf("scenario: ejectees = %d with injected = %d for %d stars: %w", c.Ejectees, c.Injected, c.Stars, ErrConfig)
+	// At most half the rows injected: the scenario's bound of 12 x
+	// Injected, with the ejectees counted apart.
+	if c.Injected < 0 || c.Ejectees < 0 || 11*c.Injected+c.Ejectees > c.Stars/2 {
+		return c, fmt.Errorf("scenario: injected = %d, ejectees = %d for %d stars: %w", c.Injected, c.Ejectees, c.Stars, ErrConfig)
 	}
 	if c.Name == "" {
 		c.Name = "invented-demo"

@@ -246,11 +246,18 @@ func TestEjecteesApart(t *testing.T) {
 	}
 	background := map[string]bool{PopThinDisk: true, PopThickDisk: true, PopHalo: true}
 	bg, bgBase := 0, 0
-	for k, v := range nb {
+	keys := map[string]bool{}
+	for k := range n {
+		keys[k] = true
+	}
+	for k := range nb {
+		keys[k] = true
+	}
+	for k := range keys {
 		if background[k] {
-			bg, bgBase = bg+n[k], bgBase+v
-		} else if k != PopGCEjectee && n[k] != v {
-			t.Errorf("%s: %d stars with Ejectees set, %d without", k, n[k], v)
+			bg, bgBase = bg+n[k], bgBase+nb[k]
+		} else if k != PopGCEjectee && n[k] != nb[k] {
+			t.Errorf("%s: %d stars with Ejectees set, %d without", k, n[k], nb[k])
 		}
 	}
 	if bg != bgBase-40 {
