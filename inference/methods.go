@@ -157,7 +157,7 @@ func orbits(ctx context.Context, ds []drawn, model *potential.Model, c *campaign
 	for i, id := range ids {
 		reason := "its crossings exclude the centre under every halo of the grid"
 		if fit.Selected[i] {
-			reason = "candidate Galactic-Centre ejectee"
+			reason = "candidate Galactic-Centre ejectee; " + carriage(fit.Scales, fit.PerStar[i])
 		}
 		inf.Stars = append(inf.Stars, db.InferenceStar{Method: MethodOrbits, StarID: id, Used: fit.Selected[i], Reason: reason})
 	}
@@ -246,4 +246,27 @@ func estimate(iv weigh.Interval, stars int) Estimate {
 func result(method, parameter string, iv weigh.Interval, stars int, note string) db.InferenceResult {
 	return db.InferenceResult{Method: method, Parameter: parameter, Median: iv.Median, Lo68: iv.Lo68, Hi68: iv.Hi68,
 		Lo90: iv.Lo90, Hi90: iv.Hi90, Stars: stars, Note: note}
+}
+
+// carriedPhrase marks, in an orbit star's reason, a star that carries the
+// fit (its ln L varies by more than weigh.CarryingDeltaLogLike).
+const carriedPhrase = "it carries the fit"
+
+// carriage says how much a selected star's ln L varies over the halo grid
+// and where it is highest: the stars that carry the orbit fit are few,
+// and an artefact among them is what an audit looks for.
+func carriage(scales, row []float64) string {
+	kb, lo := 0, math.Inf(1)
+	for k, v := range row {
+		lo = math.Min(lo, v)
+		if v > row[kb] {
+			kb = k
+		}
+	}
+	swing := row[kb] - lo
+	verdict := "it does not carry the fit"
+	if swing > weigh.CarryingDeltaLogLike {
+		verdict = carriedPhrase
+	}
+	return fmt.Sprintf("ln L varies by %.2f over the halo grid, highest at %.3g times the model's halo: %s", swing, scales[kb], verdict)
 }

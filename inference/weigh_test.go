@@ -127,6 +127,7 @@ func TestWeighStoresAndAudits(t *testing.T) {
 	}
 	considered := map[string]bool{}
 	used := ""
+	carrying := 0
 	all := sum.Computed + sum.Carried
 	// Read back through the audit path, down to the speed Weigh reads
 	// (the tail takes candidates down to tailCandidateFraction of v_min).
@@ -152,6 +153,9 @@ func TestWeighStoresAndAudits(t *testing.T) {
 			if g.Used && g.Method == MethodTail {
 				used = k.Verdict.StarID
 			}
+			if g.Used && g.Method == MethodOrbits && strings.HasSuffix(g.Reason, carriedPhrase) {
+				carrying++
+			}
 		}
 		considered[k.Verdict.StarID] = true
 	}
@@ -160,6 +164,10 @@ func TestWeighStoresAndAudits(t *testing.T) {
 	}
 	if used == "" {
 		t.Error("no star is recorded as used by the tail fit")
+	}
+	// The stars recorded as carrying the orbit fit are those it counts.
+	if carrying != r.HaloMassOrbitsMsun.Stars {
+		t.Errorf("%d stars recorded as carrying the orbit fit, the estimate counts %d", carrying, r.HaloMassOrbitsMsun.Stars)
 	}
 }
 
