@@ -157,7 +157,7 @@ func orbits(ctx context.Context, ds []drawn, model *potential.Model, c *campaign
 	for i, id := range ids {
 		reason := "its crossings exclude the centre under every halo of the grid"
 		if fit.Selected[i] {
-			reason = "candidate Galactic-Centre ejectee; " + carriage(fit.Scales, fit.PerStar[i])
+			reason = "candidate Galactic-Centre ejectee; " + carriage(fit, i)
 		}
 		inf.Stars = append(inf.Stars, db.InferenceStar{Method: MethodOrbits, StarID: id, Used: fit.Selected[i], Reason: reason})
 	}
@@ -252,21 +252,14 @@ func result(method, parameter string, iv weigh.Interval, stars int, note string)
 // fit (its ln L varies by more than weigh.CarryingDeltaLogLike).
 const carriedPhrase = "it carries the fit"
 
-// carriage says how much a selected star's ln L varies over the halo grid
+// carriage says how much selected star i's ln L varies over the halo grid
 // and where it is highest: the stars that carry the orbit fit are few,
 // and an artefact among them is what an audit looks for.
-func carriage(scales, row []float64) string {
-	kb, lo := 0, math.Inf(1)
-	for k, v := range row {
-		lo = math.Min(lo, v)
-		if v > row[kb] {
-			kb = k
-		}
-	}
-	swing := row[kb] - lo
+func carriage(fit *weigh.OrbitResult, i int) string {
+	swing, best := fit.Swing(i)
 	verdict := "it does not carry the fit"
 	if swing > weigh.CarryingDeltaLogLike {
 		verdict = carriedPhrase
 	}
-	return fmt.Sprintf("ln L varies by %.2f over the halo grid, highest at %.3g times the model's halo: %s", swing, scales[kb], verdict)
+	return fmt.Sprintf("ln L varies by %.2f over the halo grid, highest at %.3g times the model's halo: %s", swing, best, verdict)
 }

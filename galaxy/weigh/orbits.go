@@ -471,12 +471,10 @@ func FitOrbits(ctx context.Context, base *potential.Model, stars []OrbitStar, op
 			continue
 		}
 		res.Stars++
-		lo, hi := math.Inf(1), math.Inf(-1)
 		for k, v := range row {
 			res.LogLike[k] += v
-			lo, hi = math.Min(lo, v), math.Max(hi, v)
 		}
-		if hi-lo > CarryingDeltaLogLike {
+		if swing, _ := res.Swing(i); swing > CarryingDeltaLogLike {
 			res.Carrying++
 		}
 	}
@@ -485,6 +483,24 @@ func FitOrbits(ctx context.Context, base *potential.Model, stars []OrbitStar, op
 	}
 	res.profile()
 	return res, nil
+}
+
+// Swing returns how much star i's ln L varies over the grid (its largest
+// less its smallest value) and the grid scale of its largest: a star
+// carries the fit when the swing exceeds CarryingDeltaLogLike.
+func (r *OrbitResult) Swing(i int) (swing, bestScale float64) {
+	row := r.PerStar[i]
+	if len(row) == 0 {
+		return 0, math.NaN()
+	}
+	kb, lo := 0, math.Inf(1)
+	for k, v := range row {
+		lo = math.Min(lo, v)
+		if v > row[kb] {
+			kb = k
+		}
+	}
+	return row[kb] - lo, r.Scales[kb]
 }
 
 // profile sets Best, the intervals and the edge flags from LogLike. Why

@@ -595,3 +595,19 @@ func TestRayScaled(t *testing.T) {
 		}
 	}
 }
+
+// Swing on rows worked by hand (ours): the largest less the smallest ln L
+// and the scale of the largest; a row that is -Inf somewhere swings by
+// +Inf, as without the background.
+func TestSwing(t *testing.T) {
+	r := &OrbitResult{Scales: []float64{0.5, 1, 2}, PerStar: [][]float64{{-3, -1, -2.5}, {math.Inf(-1), -1, -1.2}, {}}}
+	if s, b := r.Swing(0); s != 2 || b != 1 {
+		t.Errorf("row 0: swing %v at %v, want 2 at 1", s, b)
+	}
+	if s, b := r.Swing(1); !math.IsInf(s, 1) || b != 1 {
+		t.Errorf("row 1: swing %v at %v, want +Inf at 1", s, b)
+	}
+	if s, b := r.Swing(2); s != 0 || !math.IsNaN(b) {
+		t.Errorf("empty row: swing %v at %v, want 0 at NaN", s, b)
+	}
+}
