@@ -249,7 +249,7 @@ func result(method, parameter string, iv weigh.Interval, stars int, note string)
 }
 
 // carriedPhrase marks, in an orbit star's reason, a star that carries the
-// fit (its ln L varies by more than weigh.CarryingDeltaLogLike).
+// fit (weigh.OrbitResult.Carries).
 const carriedPhrase = "it carries the fit"
 
 // carriage says how much selected star i's ln L varies over the halo grid
@@ -258,7 +258,7 @@ const carriedPhrase = "it carries the fit"
 func carriage(fit *weigh.OrbitResult, i int) string {
 	swing, best := fit.Swing(i)
 	verdict := "it does not carry the fit"
-	if swing > weigh.CarryingDeltaLogLike {
+	if fit.Carries(i) {
 		verdict = carriedPhrase
 	}
 	return fmt.Sprintf("ln L varies by %.2f over the halo grid, highest at %.3g times the model's halo: %s", swing, best, verdict)

@@ -474,7 +474,7 @@ func FitOrbits(ctx context.Context, base *potential.Model, stars []OrbitStar, op
 		for k, v := range row {
 			res.LogLike[k] += v
 		}
-		if swing, _ := res.Swing(i); swing > CarryingDeltaLogLike {
+		if res.Carries(i) {
 			res.Carrying++
 		}
 	}
@@ -486,8 +486,8 @@ func FitOrbits(ctx context.Context, base *potential.Model, stars []OrbitStar, op
 }
 
 // Swing returns how much star i's ln L varies over the grid (its largest
-// less its smallest value) and the grid scale of its largest: a star
-// carries the fit when the swing exceeds CarryingDeltaLogLike.
+// less its smallest value) and the grid scale of its largest (see
+// Carries).
 func (r *OrbitResult) Swing(i int) (swing, bestScale float64) {
 	row := r.PerStar[i]
 	if len(row) == 0 {
@@ -501,6 +501,13 @@ func (r *OrbitResult) Swing(i int) (swing, bestScale float64) {
 		}
 	}
 	return row[kb] - lo, r.Scales[kb]
+}
+
+// Carries reports whether star i carries the fit: its ln L varies by more
+// than CarryingDeltaLogLike over the grid.
+func (r *OrbitResult) Carries(i int) bool {
+	swing, _ := r.Swing(i)
+	return swing > CarryingDeltaLogLike
 }
 
 // profile sets Best, the intervals and the edge flags from LogLike. Why
