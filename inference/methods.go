@@ -9,6 +9,7 @@ import (
 
 	"starvet/campaign"
 	"starvet/db"
+	"starvet/galaxy/kinematics"
 	"starvet/galaxy/orbit"
 	"starvet/galaxy/potential"
 	"starvet/galaxy/weigh"
@@ -112,7 +113,7 @@ func tail(ds []drawn, model *potential.Model, sunPos [3]float64, escapeRadiusKpc
 
 // orbits fits the halo scale under which candidate ejectees trace back to
 // the centre and reports it as M200.
-func orbits(ctx context.Context, ds []drawn, model *potential.Model, c *campaign.Campaign, opt Options, out *Result, inf *db.Inference) error {
+func orbits(ctx context.Context, ds []drawn, model *potential.Model, set *kinematics.Settings, c *campaign.Campaign, opt Options, out *Result, inf *db.Inference) error {
 	var stars []weigh.OrbitStar
 	var ids []string
 	for _, d := range ds {
@@ -130,7 +131,20 @@ func orbits(ctx context.Context, ds []drawn, model *potential.Model, c *campaign
 		if n := opt.OrbitDraws; n > 0 && n < len(pos) {
 			pos, vel = pos[:n], vel[:n]
 		}
-		stars = append(stars, weigh.OrbitStar{ID: v.StarID, PosKpc: pos, VelKms: vel})
+		st := weigh.OrbitStar{ID: v.StarID, PosKpc: pos, VelKms: vel,
+			VelMeanKms: make([][3]float64, len(pos)), VelCovKms2: make([][3][3]float64, len(pos))}
+		ok := true
+		for j, x := range pos {
+			st.VelMeanKms[j], st.VelCovKms2[j], ok = kinematics.VelocityLaw(&d.star, set, x)
+			if !ok {
+				break
+			}
+		}
+		if !ok {
+			inf.Stars = append(inf.Stars, db.InferenceStar{Method: MethodOrbits, StarID: v.StarID, Reason: "no Gaussian law of its velocity (proper-motion or rv errors unusable)"})
+			continue
+		}
+		stars = append(stars, st)
 		ids = append(ids, v.StarID)
 	}
 	if len(stars) == 0 {
@@ -156,8 +170,11 @@ func orbits(ctx context.Context, ds []drawn, model *potential.Model, c *campaign
 	}
 	for i, id := range ids {
 		reason := "its crossings exclude the centre under every halo of the grid"
-		if fit.Selected[i] {
+		switch {
+		case fit.Selected[i]:
 			reason = "candidate Galactic-Centre ejectee; " + carriage(fit, i)
+		case fit.Far[i]:
+			reason = fmt.Sprintf("lies beyond %g kpc from the centre, where the assumed ejection model's flight window could end", weigh.DefaultOrbitMaxRadiusKpc)
 		}
 		inf.Stars = append(inf.Stars, db.InferenceStar{Method: MethodOrbits, StarID: id, Used: fit.Selected[i], Reason: reason})
 	}
@@ -188,8 +205,8 @@ func orbits(ctx context.Context, ds []drawn, model *potential.Model, c *campaign
 		cv.OrbitM200Msun = append(cv.OrbitM200Msun, m)
 		cv.OrbitLogLike = append(cv.OrbitLogLike, fit.LogLike[k])
 	}
-	note := fmt.Sprintf("profile likelihood over the model's halo scaled %.2g to %.2g times (%d points), conditional on the assumed ejection model (speeds uniform on %g-%g km/s at %g pc, flights of %g-%g Myr at a constant rate), each star's speed density given its position normalised over speeds >= %g km/s; maximum at %.3g, Wilks intervals",
-		fit.Scales[0], fit.Scales[len(fit.Scales)-1], len(fit.Scales), ej.SpeedMinKms, ej.SpeedMaxKms, 1000*weigh.EjectionDepthKpc, ej.FlightMinMyr, ej.FlightMaxMyr, opt.EjecteeMinKms, fit.Best)
+	note := fmt.Sprintf("profile likelihood over the model's halo scaled %.2g to %.2g times (%d points), conditional on the assumed ejection model (%s), each star's velocity density given its position normalised over speeds >= %g km/s; maximum at %.3g, Wilks intervals",
+		fit.Scales[0], fit.Scales[len(fit.Scales)-1], len(fit.Scales), ej, opt.EjecteeMinKms, fit.Best)
 	if fit.AtEdge || fit.Open68 || fit.Open90 {
 		note += "; the maximum or an interval reaches the grid's edge"
 		out.Notes = append(out.Notes, "the orbit method's likelihood reaches the edge of its halo grid: the interval is open there")

@@ -139,6 +139,7 @@ func (o *Options) defaults() {
 // drawn is a candidate star with its draws again.
 type drawn struct {
 	cand db.KinematicCandidate
+	star kinematics.Star // the kinematic input the draws were made from
 	res  kinematics.Result
 }
 
@@ -191,7 +192,7 @@ func Weigh(ctx context.Context, l *db.Ledger, c *campaign.Campaign, opt Options)
 	}
 	ds := make([]drawn, len(cands))
 	for k := range cands {
-		ds[k] = drawn{cands[k], res[k]}
+		ds[k] = drawn{cands[k], stars[k], res[k]}
 	}
 	out := &Result{RunID: run.ID, Excluded: excluded}
 	inf := db.Inference{RunID: run.ID, ToolVersion: opt.ToolVersion, ModelHash: run.ModelHash}
@@ -200,7 +201,7 @@ func Weigh(ctx context.Context, l *db.Ledger, c *campaign.Campaign, opt Options)
 	if err := tail(ds, model, sunPos, c.Potential.EscapeRadiusKpc, opt, out, &inf); err != nil {
 		return nil, err
 	}
-	if err := orbits(ctx, ds, model, c, opt, out, &inf); err != nil {
+	if err := orbits(ctx, ds, model, &set, c, opt, out, &inf); err != nil {
 		return nil, err
 	}
 	if h, err := weigh.HaloOf(model); err == nil {

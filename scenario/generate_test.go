@@ -18,6 +18,7 @@ import (
 	"starvet/catalog/ingest"
 	"starvet/crossmatch/sky"
 	"starvet/galaxy/frames"
+	"starvet/galaxy/weigh"
 	"starvet/internal/units"
 	"starvet/internal/vec"
 )
@@ -305,7 +306,8 @@ func TestPopulationInvariants(t *testing.T) {
 		case PopGCEjectee:
 			r0 := vec.Norm(st.launchPos)
 			v0 := speed(st.launchVel)
-			if r0 < 0.01 || r0 > 0.05 || v0 < 700 || v0 > 1800 || st.flightMyr < 10 || st.flightMyr > 250 {
+			ej := weigh.DefaultEjection
+			if r0 < 0.01 || r0 > 0.05 || v0 < ej.SpeedMinKms || v0 > ej.SpeedMaxKms || st.flightMyr < ej.FlightMinMyr || st.flightMyr > ej.FlightMaxMyr {
 				t.Errorf("%s: launch r %v v %v t %v outside the drawn ranges", st.id, r0, v0, st.flightMyr)
 			}
 			checkEnergy(t, st, g)

@@ -5,6 +5,7 @@ import (
 	"errors"
 	"fmt"
 	"math"
+	"slices"
 
 	"starvet/galaxy/orbit"
 	"starvet/galaxy/potential"
@@ -27,8 +28,9 @@ const (
 	// fraction. It measures the return to the centre but, in a spherical
 	// halo, not the halo's mass (see FitOrbits).
 	ScoreCrossings Score = iota
-	// ScoreEjection: the density of each draw's present speed given its
-	// position under the ejection model (ejectionDensity: speed law,
+	// ScoreEjection: the density of the star's measured velocity under
+	// the ejection model, a radial velocity with the model's law of the
+	// present speed given the position (ejectionDensity: speed law,
 	// flight-time window, the caller's speed cut), averaged over the
 	// draws, times the crossing density at the centre taken at its largest
 	// over the grid (the star's weight as a central ejectee against the
@@ -47,6 +49,15 @@ const (
 	// CarryingDeltaLogLike: a star carries the fit when its ln L varies by
 	// more than this over the grid.
 	CarryingDeltaLogLike = 0.5
+	// DefaultOrbitMaxRadiusKpc: ScoreEjection leaves out a star whose
+	// median draw lies farther from the centre, so that no star's flight
+	// comes near the far end of DefaultEjection's window, where its
+	// likelihood would have a cliff: a star now faster than the caller's
+	// 450 km/s was faster all along its outgoing radial path, so within
+	// 100 kpc its flight is shorter than 100 kpc / 450 km/s = 217 Myr, short
+	// of 250 Myr (ours). The likelihood is conditional on each star's
+	// position, so a cut on position does not bias it.
+	DefaultOrbitMaxRadiusKpc = 100.0
 	// SelectMaxGCConsistency: a star is a candidate ejectee when under at
 	// least one grid model at least half of its draws crossed the plane and
 	// the centre lies inside the 99 per cent ellipse of its crossings.
@@ -63,10 +74,16 @@ const (
 
 // OrbitStar is one candidate's Monte Carlo draws of its present
 // Galactocentric position (kpc) and velocity (km/s), equal lengths.
+// ScoreEjection also needs, per draw, the law its velocity was drawn from
+// given its position: VelMeanKms[j] and VelCovKms2[j] ((km/s)^2), the mean
+// and covariance of the velocity the measured proper motion and radial
+// velocity give at draw j's distance.
 type OrbitStar struct {
-	ID     string
-	PosKpc [][3]float64
-	VelKms [][3]float64
+	ID         string
+	PosKpc     [][3]float64
+	VelKms     [][3]float64
+	VelMeanKms [][3]float64
+	VelCovKms2 [][3][3]float64
 }
 
 // OrbitOptions controls FitOrbits. Zero fields take the defaults.
@@ -94,6 +111,10 @@ type OrbitOptions struct {
 	// density is normalised over the speeds >= this at its own position
 	// (ejectionDensity), and the background's uniform law runs from it.
 	SelectMinSpeedKms float64
+	// MaxRadiusKpc, ScoreEjection only: a star whose median draw lies
+	// farther from the centre is not selected (OrbitResult.Far); default
+	// DefaultOrbitMaxRadiusKpc, < 0: no limit.
+	MaxRadiusKpc float64
 	// Refine, ScoreEjection only: the speed density is evaluated on the
 	// grid with each step of Scales split into Refine equal steps in ln
 	// scale (default DefaultRefine; 1: Scales alone). The back-traces,
@@ -122,6 +143,8 @@ type OrbitResult struct {
 	// enters LogLike (see FitOrbits).
 	PerStar  [][]float64
 	Selected []bool
+	// Far[i]: star i was left out for lying beyond MaxRadiusKpc.
+	Far []bool
 
 	Best            float64 // grid scale of the largest LogLike
 	Lo68, Hi68      float64 // Delta(-2 ln L) = 1 interval
@@ -142,7 +165,25 @@ var (
 	ErrNoEjectionLaw  = errors.New("weigh: ScoreEjection needs an Ejection model")
 	ErrUnknownScore   = errors.New("weigh: unknown score")
 	errLengthMismatch = errors.New("positions and velocities differ in number")
+	errNoVelocityLaw  = errors.New("ScoreEjection needs each draw's velocity mean and covariance")
 )
+
+// medianRadiusKpc is the median distance of a star's draws from the
+// centre.
+func medianRadiusKpc(s *OrbitStar) float64 {
+	r := make([]float64, len(s.PosKpc))
+	for j, x := range s.PosKpc {
+		r[j] = math.Sqrt(x[0]*x[0] + x[1]*x[1] + x[2]*x[2])
+	}
+	if len(r) == 0 {
+		return math.NaN()
+	}
+	slices.Sort(r)
+	if n := len(r); n%2 == 0 {
+		return 0.5 * (r[n/2-1] + r[n/2])
+	}
+	return r[len(r)/2]
+}
 
 // LogScales returns n factors spaced evenly in log from lo to hi.
 func LogScales(lo, hi float64, n int) []float64 {
@@ -271,23 +312,6 @@ func (c *cloud) consistentWithCentre() bool {
 		-math.Expm1(-0.5*c.d2) <= SelectMaxGCConsistency
 }
 
-// speedBackground is the mean over a star's draws of the background's
-// speed law, uniform on [vSel, vMax] (ours: a model-independent density in
-// the units of ejectionDensity); draws below vSel count at the law's
-// height, as ejectionDensity does not zero them either.
-func speedBackground(s *OrbitStar, vSelKms, vMaxKms float64) float64 {
-	if len(s.VelKms) == 0 || !(vMaxKms > vSelKms) {
-		return 0
-	}
-	in := 0
-	for _, v := range s.VelKms {
-		if v[0]*v[0]+v[1]*v[1]+v[2]*v[2] <= vMaxKms*vMaxKms {
-			in++
-		}
-	}
-	return float64(in) / float64(len(s.VelKms)) / (vMaxKms - vSelKms)
-}
-
 // FitOrbits back-traces every draw of every star under the base model with
 // its NFW halo scaled by each grid factor, selects the candidate ejectees
 // and returns the profile log-likelihood of the scale,
@@ -300,26 +324,48 @@ func speedBackground(s *OrbitStar, vSelKms, vMaxKms float64) float64 {
 // 1/(pi R_d^2), a uniform disk of radius R_d = Trace.DiskRadiusKpc.
 // ScoreEjection:
 //
-//	rho_i(s) = D_i q_i(s),     rho_bg,i = 1/(pi R_d^2) q_bg,i,
+//	rho_i(s) = D_i q_i(s),     rho_bg,i = (D_i + 1/(pi R_d^2))/2 q_bg,i,
 //
-// q_i(s) the mean over the star's draws of ejectionDensity (the density
-// of its present speed given its position, the ejection model and the
-// speed cut, in the grid model s), D_i the largest densityAtCentre over
-// the grid, q_bg,i the mean over the draws of a uniform speed law on
-// [SelectMinSpeedKms, BackgroundSpeedMaxKms]. The mean over draws stands
-// for the integral over the measurement errors (the draws follow the
-// error law under a flat prior; the likelihood of the data is the mean of
-// the model's density over them, not a product). D_i is not taken per
-// model on purpose: in a spherical halo an ejectee's angular momentum L is
+// q_i(s) the density of the star's measured velocity under the ejection
+// model in the grid model s, per (km/s)^3: the mean over its draws j of
+//
+//	w_j ejectionDensity(s_j),    s_j = sHat_j + sSigma_j z_j,
+//
+// where the model's velocity at draw j's position is radial, speed times
+// the unit radius, so the measurement's Gaussian law given that position
+// (OrbitStar.VelMeanKms, VelCovKms2) becomes a weight w_j, how well a
+// radial velocity explains the measurement, times a normal law of the
+// speed, N(sHat_j, sSigma_j^2) (fitRadial; the model's spread across the
+// radius, AcrossSigmaKms, widens it), which the draws integrate over as a
+// stratified sample (z_j = strataZ). q_bg,i is the mean over the draws of
+// w_j speedBackground(s_j), a speed along the radius uniform on
+// [SelectMinSpeedKms, BackgroundSpeedMaxKms]: the background shares the
+// ejectees' radial direction because the selection (back-traces through
+// the centre) has already required it of every star that enters, so the
+// mixture weighs the speed law alone, and a star that no radial velocity
+// explains weighs little either way. Half the background has the star's
+// own crossing density at the centre, half the uniform disk's: a fast
+// non-ejectee whose back-traces happen to pass the centre (a spoilt
+// astrometric fit, a runaway) is not made an ejectee by its crossings
+// alone. The mean over draws stands for the integral over the
+// measurement errors (the draws follow the error law under a flat prior;
+// the likelihood of the data is the mean of the model's density over
+// them, not a product). Why not each draw's full speed |v_j|, as we did
+// first: the errors across the line of sight add to it in quadrature (a
+// noisy vector's length is biased high), and on the invented scenarios
+// that put the fastest candidates past the top of the ejection law then
+// assumed (a box ending at 1800 km/s) under the true halo and pulled the
+// mass low. D_i is not taken per model on purpose: in a spherical halo an ejectee's angular momentum L is
 // conserved, its back-traced impact parameter is about L/v_c, and the
 // crossing density at the centre then grows with the halo (see the
 // LIMITATION below) without saying anything about it; D_i only weighs the
 // star as an ejectee against the background. SIMPLIFICATION against
 // Gnedin et al. 2005 (ApJ 634, 344) and Contigiani, Rossi & Marchetti 2019
 // (MNRAS 487, 4025), who use the full phase-space density of the ejecta:
-// we keep its speed given the position (radial orbits, ejectionDensity)
-// and treat the direction, which in a nearly spherical potential does not
-// depend on the halo's mass, through D_i and the selection only.
+// we keep its velocity given the position (radial orbits,
+// ejectionDensity, fitRadial); the direction of the position, which in a
+// nearly spherical potential does not depend on the halo's mass, enters
+// through D_i and the selection only.
 //
 // A star is selected (a candidate ejectee) when under at least one grid
 // model at least half of its draws crossed and the centre lies inside the
@@ -381,9 +427,16 @@ func FitOrbits(ctx context.Context, base *potential.Model, stars []OrbitStar, op
 	if !(diskKpc > 0) {
 		diskKpc = orbit.DefaultDiskRadiusKpc
 	}
+	maxR := opt.MaxRadiusKpc
+	if maxR == 0 {
+		maxR = DefaultOrbitMaxRadiusKpc
+	}
 	for i, s := range stars {
 		if len(s.PosKpc) != len(s.VelKms) {
 			return nil, fmt.Errorf("weigh: star %d (%s): %w", i, s.ID, errLengthMismatch)
+		}
+		if opt.Score == ScoreEjection && (len(s.VelMeanKms) != len(s.PosKpc) || len(s.VelCovKms2) != len(s.PosKpc)) {
+			return nil, fmt.Errorf("weigh: star %d (%s): %w", i, s.ID, errNoVelocityLaw)
 		}
 	}
 	models := make([]*potential.Model, len(scales))
@@ -418,6 +471,7 @@ func FitOrbits(ctx context.Context, base *potential.Model, stars []OrbitStar, op
 		Scales: fine, Score: opt.Score, BackgroundWeight: eps,
 		PerStar:  make([][]float64, len(stars)),
 		Selected: make([]bool, len(stars)),
+		Far:      make([]bool, len(stars)),
 		LogLike:  make([]float64, len(fine)),
 	}
 	// One star under every model is one batch: many integrations each.
@@ -435,8 +489,11 @@ func FitOrbits(ctx context.Context, base *potential.Model, stars []OrbitStar, op
 			res.PerStar[i], res.Selected[i] = row, sel
 			return
 		}
+		if maxR > 0 && medianRadiusKpc(s) > maxR {
+			res.PerStar[i], res.Far[i] = make([]float64, len(fine)), true
+			return
+		}
 		vSel := math.Max(opt.SelectMinSpeedKms, 0)
-		bg *= speedBackground(s, vSel, vMax)
 		dMax := 0.0
 		for _, m := range models {
 			c := newCloud(traceDraws(m, s, opt.Trace), len(s.PosKpc), floor)
@@ -444,22 +501,40 @@ func FitOrbits(ctx context.Context, base *potential.Model, stars []OrbitStar, op
 			sel = sel || c.consistentWithCentre()
 		}
 		row = make([]float64, len(fine))
+		z := strataZ(len(s.PosKpc))
+		fits := make([]radialFit, len(s.PosKpc))
+		// The weights are taken relative to the largest, whose logarithm
+		// is added back at the end.
+		top := math.Inf(-1)
 		for j := range s.PosKpc {
+			fits[j] = fitRadial(s.PosKpc[j], s.VelMeanKms[j], &s.VelCovKms2[j])
+			if fits[j].ok {
+				top = math.Max(top, fits[j].logWeight)
+			}
+		}
+		if math.IsInf(top, -1) {
+			// No draw's law is usable (a singular covariance): the star
+			// says nothing about the halo.
+			res.PerStar[i], res.Selected[i] = row, sel
+			return
+		}
+		qBg := 0.0
+		for j, rf := range fits {
+			w := math.Exp(rf.logWeight - top)
+			if !rf.ok || w == 0 {
+				continue
+			}
+			speed := rf.sHat + rf.sSigma*z[j]
+			qBg += w * speedBackground(speed, vSel, vMax)
 			r1, r2 := newRay(base, s.PosKpc[j]), newRay(twice, s.PosKpc[j])
-			v := s.VelKms[j]
-			speed := math.Sqrt(v[0]*v[0] + v[1]*v[1] + v[2]*v[2])
 			for k, sc := range fine {
 				r := r1.scaled(&r2, sc)
-				row[k] += ejectionDensity(opt.Ejection, &r, speed, vSel)
+				row[k] += w * ejectionDensity(opt.Ejection, &r, speed, vSel)
 			}
 		}
-		if n := len(s.PosKpc); n > 0 {
-			for k := range row {
-				row[k] /= float64(n)
-			}
-		}
+		n := float64(len(s.PosKpc))
 		for k, q := range row {
-			row[k] = math.Log((1-eps)*dMax*q + eps*bg)
+			row[k] = math.Log((1-eps)*dMax*q/n+eps*0.5*(dMax+bg)*qBg/n) + top
 		}
 		res.PerStar[i], res.Selected[i] = row, sel
 	}, nil)
@@ -511,11 +586,11 @@ func (r *OrbitResult) Carries(i int) bool {
 }
 
 // profile sets Best, the intervals and the edge flags from LogLike. Why
-// Wilks intervals, although the ejection model's hard edges (a box speed
-// law, a flight-time window) make the likelihood non-regular: on simulated
-// ejectees they covered their levels once the grid was fine enough (see
-// TestOrbitIntervalCalibration, which compares them with the equal-tailed
-// intervals of a posterior uniform in ln scale).
+// Wilks intervals, although an ejection model with sharp edges (a box
+// speed law, a flight-time window) makes the likelihood non-regular: on
+// simulated ejectees they covered their levels once the grid was fine
+// enough (see TestOrbitIntervalCalibration, which compares them with the
+// equal-tailed intervals of a posterior uniform in ln scale).
 func (r *OrbitResult) profile() {
 	kb := 0
 	for k, v := range r.LogLike {

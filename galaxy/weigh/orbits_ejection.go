@@ -25,12 +25,30 @@ type EjectionModel struct {
 }
 
 // DefaultEjection is the ejection model starvet assumes and its invented
-// scenarios fly: speeds uniform on 700-1800 km/s, flights of 10-250 Myr.
+// scenarios fly: speeds normal about 1150 km/s with a spread of 175 km/s
+// (cut to 0-3000 km/s, where the tails are negligible), at a constant rate
+// from today back to 250 Myr ago.
 // OUR ASSUMPTION, not a published fit: speeds of the order a binary broken
 // up by the central black hole gives its stars (Hills 1988, Nature 331,
-// 687; the range is from memory), and flights up to about the main-sequence
-// lifetime of a late B star (from memory).
-var DefaultEjection = EjectionModel{SpeedMinKms: 700, SpeedMaxKms: 1800, FlightMinMyr: 10, FlightMaxMyr: 250}
+// 687; the mean and spread are from memory), and flights up to about the
+// main-sequence lifetime of a late B star (from memory). The speed law is
+// smooth and the window opens today on purpose: the box law used before
+// (uniform on 700-1800 km/s, flights of 10-250 Myr) gave a precisely
+// measured star near an edge a likelihood with a cliff (README, "On the
+// invented scenarios"). The window's far end is still sharp; FitOrbits
+// keeps stars beyond DefaultOrbitMaxRadiusKpc out of the fit, so that no
+// selected star comes near it.
+var DefaultEjection = EjectionModel{SpeedMinKms: 0, SpeedMaxKms: 3000, SpeedMeanKms: 1150, SpeedSigmaKms: 175, FlightMinMyr: 0, FlightMaxMyr: 250}
+
+// String describes the model in words, for notes and logs.
+func (e EjectionModel) String() string {
+	speed := fmt.Sprintf("speeds uniform on %g-%g km/s", e.SpeedMinKms, e.SpeedMaxKms)
+	if e.SpeedSigmaKms > 0 {
+		speed = fmt.Sprintf("speeds normal about %g km/s with a spread of %g km/s, cut to %g-%g km/s", e.SpeedMeanKms, e.SpeedSigmaKms, e.SpeedMinKms, e.SpeedMaxKms)
+	}
+	flight := fmt.Sprintf("flights of %g-%g Myr at a constant rate", e.FlightMinMyr, e.FlightMaxMyr)
+	return fmt.Sprintf("%s at %g pc from the centre, %s", speed, 1000*EjectionDepthKpc, flight)
+}
 
 // ErrEjectionModel is returned (wrapped) for an invalid EjectionModel.
 var ErrEjectionModel = errors.New("weigh: invalid ejection model")
@@ -228,7 +246,8 @@ func (r *ray) speedForFlight(tMyr float64) float64 {
 // region's size are neglected); only the outgoing branch is counted
 // (ejectees falling back after their apocentre within the window are
 // absent; in the default model's halo scaled up to 3 times the apocentre
-// of a 700 km/s ejectee lies beyond 10 kpc, more than 100 Myr out); the
+// of a 700 km/s ejectee, 2.6 spreads below DefaultEjection's mean, lies
+// beyond 10 kpc, more than 100 Myr out); the
 // speed cut is applied to each draw's speed, while the caller cuts on the
 // star's median.
 func ejectionDensity(e *EjectionModel, r *ray, vKms, vSelKms float64) float64 {

@@ -51,11 +51,13 @@ func randomDirection(rng *rand.Rand) [3]float64 {
 
 // draws scatters n Monte Carlo draws around (x, v) with fractional Gaussian
 // errors fracX on each position axis and fracV on each velocity axis,
-// relative to |x| and |v|.
+// relative to |x| and |v|; each draw's velocity law is N(v, (fracV |v|)^2 I),
+// whatever its position.
 func draws(rng *rand.Rand, id string, x, v [3]float64, n int, fracX, fracV float64) OrbitStar {
 	sx := fracX * math.Sqrt(x[0]*x[0]+x[1]*x[1]+x[2]*x[2])
 	sv := fracV * math.Sqrt(v[0]*v[0]+v[1]*v[1]+v[2]*v[2])
 	s := OrbitStar{ID: id}
+	cov := [3][3]float64{{sv * sv, 0, 0}, {0, sv * sv, 0}, {0, 0, sv * sv}}
 	for range n {
 		var xs, vs [3]float64
 		for k := range 3 {
@@ -64,6 +66,8 @@ func draws(rng *rand.Rand, id string, x, v [3]float64, n int, fracX, fracV float
 		}
 		s.PosKpc = append(s.PosKpc, xs)
 		s.VelKms = append(s.VelKms, vs)
+		s.VelMeanKms = append(s.VelMeanKms, v)
+		s.VelCovKms2 = append(s.VelCovKms2, cov)
 	}
 	return s
 }
@@ -248,11 +252,19 @@ func swing(row []float64) float64 {
 
 // (b) a fast disk runaway (born at R = 8 kpc, kicked to about 650 km/s,
 // flown 20 Myr) observed with 3 per cent errors is selected, its crossing
-// cloud barely reaching the centre; without the background term its ln L
-// swings by more than 3 over the grid (under the ejection score it is -Inf
-// where its speed cannot come from the ejection model: it alone would rule
-// those haloes out), with it the background caps the swing below 1 and the
-// maximum stays within a grid step.
+// cloud barely reaching the centre; without the background term it alone
+// moves the maximum by more than a grid step, with it the background caps
+// its ln L's swing below 1 and the maximum stays within a grid step.
+// Before the ejection score weighed the direction (fitRadial), this
+// runaway's ln L was -Inf where its full speed could not come from the
+// ejection model, and the test asked for a swing above 3 without the
+// background; now that no radial velocity explains its motion well, its
+// swing without the background is 2.4 and what it would do to the fit is
+// measured by where the maximum goes. With the background it swung by
+// 0.07 then and moved the maximum by one step; now 0.00 and none.
+// Not covered (measured, 2026-12-04): a runaway whose path runs through
+// the central kiloparsec and out along its radius is an ejectee in all but
+// its birthplace; it swings ln L by more than 6 under either score.
 func TestRunawayAmongEjectees(t *testing.T) {
 	base := defaultModel(t)
 	truth, _ := ScaleHalo(base, 1)
@@ -284,8 +296,8 @@ func TestRunawayAmongEjectees(t *testing.T) {
 	if moved > 1.01 {
 		t.Errorf("with background the runaway moved the maximum by %.1f grid steps", moved)
 	}
-	if swing(bare.PerStar[0]) <= 3 {
-		t.Errorf("without background the runaway's ln L should swing by more than 3, swung %.2f (the maximum moved %.1f grid steps)", swing(bare.PerStar[0]), movedBare)
+	if movedBare <= 1.01 {
+		t.Errorf("without background the runaway should move the maximum by more than a grid step, moved it %.1f (its ln L swung %.2f)", movedBare, swing(bare.PerStar[0]))
 	}
 	if swing(mixed.PerStar[0]) >= 1 {
 		t.Errorf("with background the runaway's ln L swings by %.2f, want < 1", swing(mixed.PerStar[0]))
@@ -500,7 +512,7 @@ func TestEjectionNorm(t *testing.T) {
 
 // The derivation of ejectionDensity checked by simulation: stars leave the
 // centre of a spherical potential on radial orbits at a constant rate
-// (flight times uniform on the window) with the uniform speed law, are
+// (flight times uniform on DefaultEjection's window) with its speed law, are
 // flown by a leapfrog in time (independent of the ray's quadrature), and
 // those found beyond 5 kpc at >= 450 km/s are kept. If p(v | r) is right,
 // each kept star's probability integral transform F(v_i | r_i) is uniform:
