@@ -213,7 +213,10 @@ func TestDensityAtCentre(t *testing.T) {
 
 // (c) selection: a disk star with small errors crosses the plane near
 // R = 8 kpc under every grid model and is not a candidate ejectee, while
-// ejectees with the same errors are.
+// ejectees with the same errors are (without the radius cut); with the
+// default cut, exactly the stars whose median draw lies beyond
+// DefaultOrbitMaxRadiusKpc are left out and marked Far (one of these
+// ejectees lies beyond it).
 func TestSelection(t *testing.T) {
 	base := defaultModel(t)
 	truth, _ := ScaleHalo(base, 1)
@@ -221,9 +224,31 @@ func TestSelection(t *testing.T) {
 	x, v := orbit.Advance(truth, [3]float64{8, 0, 0}, [3]float64{-500, 220, 300}, 40, orbit.Options{})
 	stars := []OrbitStar{draws(rng, "disk", x, v, 40, 0.02, 0.01)}
 	stars = append(stars, ejecteeSet(t, rng, 1, 5, 40, 0.02, 0.01)...)
-	res, err := FitOrbits(context.Background(), base, stars, ejectionOptions())
+	opt := ejectionOptions()
+	opt.MaxRadiusKpc = -1
+	res, err := FitOrbits(context.Background(), base, stars, opt)
 	if err != nil {
 		t.Fatal(err)
+	}
+	cut, err := FitOrbits(context.Background(), base, stars, ejectionOptions())
+	if err != nil {
+		t.Fatal(err)
+	}
+	nFar := 0
+	for i := range stars {
+		far := medianRadiusKpc(&stars[i]) > DefaultOrbitMaxRadiusKpc
+		if far {
+			nFar++
+		}
+		if cut.Far[i] != far || res.Far[i] {
+			t.Errorf("star %d: Far %v with the cut, %v without; beyond %g kpc: %v", i, cut.Far[i], res.Far[i], DefaultOrbitMaxRadiusKpc, far)
+		}
+		if want := res.Selected[i] && !far; cut.Selected[i] != want {
+			t.Errorf("star %d: selected %v with the cut, want %v", i, cut.Selected[i], want)
+		}
+	}
+	if nFar == 0 {
+		t.Errorf("no star beyond %g kpc: the cut is not exercised", DefaultOrbitMaxRadiusKpc)
 	}
 	if res.Selected[0] {
 		t.Errorf("disk star selected")
