@@ -10,6 +10,7 @@ import (
 	"starvet/galaxy/orbit"
 	"starvet/galaxy/potential"
 	"starvet/internal/parallel"
+	"starvet/internal/vec"
 )
 
 // Method 2: stars ejected from the Galactic Centre trace back to the centre
@@ -173,7 +174,7 @@ var (
 func medianRadiusKpc(s *OrbitStar) float64 {
 	r := make([]float64, len(s.PosKpc))
 	for j, x := range s.PosKpc {
-		r[j] = math.Sqrt(x[0]*x[0] + x[1]*x[1] + x[2]*x[2])
+		r[j] = vec.Norm(x)
 	}
 	if len(r) == 0 {
 		return math.NaN()
@@ -355,8 +356,9 @@ func (c *cloud) consistentWithCentre() bool {
 // noisy vector's length is biased high), and on the invented scenarios
 // that put the fastest candidates past the top of the ejection law then
 // assumed (a box ending at 1800 km/s) under the true halo and pulled the
-// mass low. D_i is not taken per model on purpose: in a spherical halo an ejectee's angular momentum L is
-// conserved, its back-traced impact parameter is about L/v_c, and the
+// mass low. D_i is not taken per model on purpose: in a spherical halo
+// an ejectee's angular momentum L is conserved, its back-traced impact
+// parameter is about L/v_c, and the
 // crossing density at the centre then grows with the halo (see the
 // LIMITATION below) without saying anything about it; D_i only weighs the
 // star as an ejectee against the background. SIMPLIFICATION against

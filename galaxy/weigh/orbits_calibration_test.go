@@ -11,6 +11,7 @@ import (
 
 	"starvet/galaxy/orbit"
 	"starvet/galaxy/potential"
+	"starvet/internal/vec"
 )
 
 // idealEjectee flies a star as the invented scenarios do (scenario's
@@ -46,7 +47,7 @@ func calibrationPool(t *testing.T, truth float64, n, nDraws int, frac, vSel floa
 	stars := make([]OrbitStar, 0, n)
 	for len(stars) < n {
 		x, v, ok := idealEjectee(rng, m, vSel)
-		if ok && math.Sqrt(x[0]*x[0]+x[1]*x[1]+x[2]*x[2]) <= DefaultOrbitMaxRadiusKpc {
+		if ok && vec.Norm(x) <= DefaultOrbitMaxRadiusKpc {
 			stars = append(stars, draws(rng, "ej", x, v, nDraws, frac, frac))
 		}
 	}

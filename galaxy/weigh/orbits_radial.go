@@ -5,6 +5,8 @@ import (
 
 	"gonum.org/v1/gonum/mat"
 	"gonum.org/v1/gonum/stat/distuv"
+
+	"starvet/internal/vec"
 )
 
 // AcrossSigmaKms is the spread, per axis, of an ejectee's true velocity
@@ -37,7 +39,7 @@ type radialFit struct {
 }
 
 func fitRadial(pos, mean [3]float64, cov *[3][3]float64) radialFit {
-	r := math.Sqrt(pos[0]*pos[0] + pos[1]*pos[1] + pos[2]*pos[2])
+	r := vec.Norm(pos)
 	if !(r > 0) || math.IsInf(r, 0) {
 		return radialFit{}
 	}
